@@ -1,0 +1,386 @@
+//! Building a solver from a [`Network`]: validation, port layout, delay rings and the integer
+//! coefficients. Runs once at load and again (partly) on `set_shunt`; may divide, never on the
+//! per-sample path.
+//!
+//! Weights: every line gets one integer conductance g = floor(2^c / Z0[mΩ]) shared by both of
+//! its ends, with one exponent c for the whole network chosen as large as the profile's
+//! per-node weight budget allows (`Profile::WEIGHT_BITS`). One weight per line, identical at
+//! both ends, is what makes the fixed-point energy argument hold across the network:
+//! E = Σ_lines g·(a² + b²) never grows at a junction whose node voltage is quantized toward
+//! zero (see the crate documentation).
+
+use crate::error::{BuildError, ConfigError, Table};
+use crate::network::{Drive, Junction, Network, ProbeKind, Shunt, Side, MAX_PROBES, MAX_RIG_LATENCY};
+use crate::profile::{reciprocal, Profile};
+use crate::solver::{DriveRt, JunctionRt, Mode, ProbeRt, Solver};
+
+/// Largest exponent of the weight unit: g62 = floor(2^62 / Z) fits a u64 for Z >= 1 mΩ.
+const TOP: u32 = 62;
+
+fn cap(table: Table, needed: usize, capacity: usize) -> Result<(), BuildError> {
+    if needed > capacity {
+        Err(BuildError::CapacityExceeded {
+            table,
+            needed: needed.min(u32::MAX as usize) as u32,
+            capacity: capacity.min(u32::MAX as usize) as u32,
+        })
+    } else {
+        Ok(())
+    }
+}
+
+fn w_top(milliohm: u32) -> u64 {
+    (1u64 << TOP) / milliohm.max(1) as u64
+}
+
+fn mode_of(short: bool, broken: bool) -> Mode {
+    if broken {
+        Mode::Broken
+    } else if short {
+        Mode::Short
+    } else {
+        Mode::Scatter
+    }
+}
+
+impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
+    Solver<P, PORTS, JUNCS, MEM>
+{
+    /// Validate `net`, compute every coefficient and reset the state. On error the solver is
+    /// left empty (it steps as a network without drive).
+    pub fn load(&mut self, net: &Network<'_>) -> Result<(), BuildError> {
+        let r = self.load_inner(net);
+        if r.is_err() {
+            *self = Self::new();
+        }
+        r
+    }
+
+    fn load_inner(&mut self, net: &Network<'_>) -> Result<(), BuildError> {
+        let nl = net.lines.len();
+        let nj = net.junctions.len();
+        cap(Table::Ports, nl * 2, PORTS)?;
+        cap(Table::Junctions, nj, JUNCS)?;
+        cap(Table::Probes, net.probes.len(), MAX_PROBES)?;
+        cap(Table::Lines, nl, u16::MAX as usize)?;
+        if net.io_shift > P::MAX_IO_SHIFT {
+            return Err(BuildError::IoShiftTooLarge { io_shift: net.io_shift, max: P::MAX_IO_SHIFT });
+        }
+        for (i, l) in net.lines.iter().enumerate() {
+            let line = i as u16;
+            if l.z_milliohm == 0 {
+                return Err(BuildError::ZeroImpedance { line });
+            }
+            if l.delay == 0 {
+                return Err(BuildError::ZeroDelay { line });
+            }
+            for j in [l.a, l.b] {
+                if j as usize >= nj {
+                    return Err(BuildError::JunctionOutOfRange { line, junction: j });
+                }
+            }
+        }
+        let ends_at = |j: usize| {
+            net.lines.iter().map(|l| (l.a as usize == j) as u16 + (l.b as usize == j) as u16).sum::<u16>()
+        };
+
+        // Junction shape checks.
+        for (j, junc) in net.junctions.iter().enumerate() {
+            let junction = j as u16;
+            let ends = ends_at(j);
+            match *junc {
+                Junction::Node { shunt } => {
+                    if ends == 0 {
+                        return Err(BuildError::DanglingJunction { junction });
+                    }
+                    if let Shunt::Resistor { milliohm: 0 } = shunt {
+                        return Err(BuildError::ZeroResistance { junction });
+                    }
+                }
+                Junction::Series { milliohm } => {
+                    if ends != 2 {
+                        return Err(BuildError::SeriesNeedsTwoEnds { junction, ends });
+                    }
+                    if milliohm == 0 {
+                        return Err(BuildError::ZeroResistance { junction });
+                    }
+                }
+            }
+        }
+
+        // Drive checks.
+        let (src_j, src_mohm, rig) = match net.drive {
+            Drive::None => (None, 0, None),
+            Drive::Source { junction, milliohm } => {
+                let j = junction as usize;
+                match net.junctions.get(j) {
+                    None => return Err(BuildError::IndexOutOfRange { table: Table::Junctions, index: junction }),
+                    Some(Junction::Series { .. }) => return Err(BuildError::DriveOnSeries { junction }),
+                    Some(_) => {}
+                }
+                if milliohm == 0 {
+                    return Err(BuildError::ZeroResistance { junction });
+                }
+                (Some(j), milliohm, None)
+            }
+            Drive::Rig { junction, latency } => {
+                let j = junction as usize;
+                match net.junctions.get(j) {
+                    None => return Err(BuildError::IndexOutOfRange { table: Table::Junctions, index: junction }),
+                    Some(Junction::Series { .. }) => return Err(BuildError::DriveOnSeries { junction }),
+                    Some(Junction::Node { shunt: Shunt::Open }) if ends_at(j) == 1 => {}
+                    Some(_) => return Err(BuildError::BadRigNode { junction }),
+                }
+                let line = net.lines.iter().position(|l| l.a as usize == j || l.b as usize == j);
+                let round_trip = line.map_or(0, |i| net.lines[i].delay.saturating_mul(2));
+                if latency > MAX_RIG_LATENCY || round_trip < latency as u32 + 2 {
+                    return Err(BuildError::RigLatencyTooLong { latency, round_trip });
+                }
+                (None, 0, Some((j, latency, line.unwrap_or(0))))
+            }
+        };
+
+        // Port layout: ports grouped by junction, in junction order.
+        let mut p = 0usize;
+        for j in 0..nj {
+            for (i, l) in net.lines.iter().enumerate() {
+                if l.a as usize == j {
+                    self.port_of[2 * i] = p as u16;
+                    p += 1;
+                }
+                if l.b as usize == j {
+                    self.port_of[2 * i + 1] = p as u16;
+                    p += 1;
+                }
+            }
+        }
+        self.n_ports = p;
+        self.n_lines = nl;
+
+        // Rings and weights. The ring a port reads from carries the wave towards it.
+        let mut mem = 0usize;
+        for (i, l) in net.lines.iter().enumerate() {
+            let (pa, pb) = (self.port_of[2 * i] as usize, self.port_of[2 * i + 1] as usize);
+            self.partner[pa] = pb as u16;
+            self.partner[pb] = pa as u16;
+            let (mut d_into_a, mut d_into_b) = (l.delay, l.delay);
+            if let Some((rj, lat, rl)) = rig {
+                if rl == i {
+                    // Round trip 2·delay − latency, split between the two directions.
+                    let total = 2 * l.delay - lat as u32;
+                    let (d_in, d_out) = (total / 2, total - total / 2);
+                    if l.a as usize == rj {
+                        (d_into_a, d_into_b) = (d_in, d_out);
+                    } else {
+                        (d_into_b, d_into_a) = (d_in, d_out);
+                    }
+                }
+            }
+            for (port, d) in [(pa, d_into_a), (pb, d_into_b)] {
+                let end = mem + d as usize;
+                cap(Table::DelayStorage, end, MEM)?;
+                self.start[port] = mem as u32;
+                self.end[port] = end as u32;
+                mem = end;
+            }
+        }
+        self.mem_used = mem;
+
+        // Weight exponent: the largest c with every node's Σ g + g_src within the budget.
+        let budget = 1u64 << P::WEIGHT_BITS;
+        let node_sum = |j: usize, k: u32| -> u64 {
+            let mut s: u64 = net
+                .lines
+                .iter()
+                .map(|l| ((l.a as usize == j) as u64 + (l.b as usize == j) as u64) * (w_top(l.z_milliohm) >> k))
+                .sum();
+            if src_j == Some(j) {
+                s += w_top(src_mohm) >> k;
+            }
+            s
+        };
+        let is_scatter_node = |j: usize| {
+            matches!(net.junctions.get(j), Some(Junction::Node { .. })) && rig.map_or(true, |r| r.0 != j)
+        };
+        let mut k = 0u32;
+        while k < TOP && (0..nj).any(|j| is_scatter_node(j) && node_sum(j, k) > budget) {
+            k += 1;
+        }
+        let c = TOP - k;
+        self.exponent = c;
+        for (i, l) in net.lines.iter().enumerate() {
+            let g = w_top(l.z_milliohm) >> k;
+            self.g[self.port_of[2 * i] as usize] = g as u32;
+            self.g[self.port_of[2 * i + 1] as usize] = g as u32;
+        }
+
+        // Junction run-time records.
+        let mut first = 0usize;
+        for (j, junc) in net.junctions.iter().enumerate() {
+            let junction = j as u16;
+            let count = ends_at(j) as usize;
+            let rt = match *junc {
+                _ if rig.map_or(false, |r| r.0 == j) => JunctionRt::Rig { port: first as u16 },
+                Junction::Node { shunt } => {
+                    if (first..first + count).any(|q| self.g[q] == 0) {
+                        return Err(BuildError::CoefficientOutOfRange { junction });
+                    }
+                    let g_src = if src_j == Some(j) { (w_top(src_mohm) >> k) as u32 } else { 0 };
+                    let g_ports = self.g[first..first + count].iter().map(|g| *g as u64).sum::<u64>() + g_src as u64;
+                    let mut rt = JunctionRt::Node {
+                        first: first as u16,
+                        count: count as u16,
+                        mode: Mode::Scatter,
+                        short: false,
+                        broken: false,
+                        g_src,
+                        g_ports,
+                        recip: 0,
+                        shift: 0,
+                    };
+                    apply_shunt::<P>(&mut rt, shunt, c).map_err(|_| BuildError::CoefficientOutOfRange { junction })?;
+                    rt
+                }
+                Junction::Series { milliohm } => {
+                    let (p, q) = (first, first + 1);
+                    let z_of = |port: usize| {
+                        net.lines
+                            .iter()
+                            .enumerate()
+                            .find(|(i, _)| self.port_of[2 * i] as usize == port || self.port_of[2 * i + 1] as usize == port)
+                            .map_or(1, |(_, l)| l.z_milliohm)
+                    };
+                    let (z1, z2) = (z_of(p) as u128, z_of(q) as u128);
+                    let zs = z1 + z2 + milliohm as u128;
+                    // y_k = c_k·(b1 − b2), c_k = 2·Z_k/(Z1 + Z2 + R) < 2, rounded down.
+                    let c1 = ((2 * z1) << P::SERIES_FRAC) / zs;
+                    let c2 = ((2 * z2) << P::SERIES_FRAC) / zs;
+                    JunctionRt::Series { p: p as u16, q: q as u16, c1: c1 as u32, c2: c2 as u32 }
+                }
+            };
+            self.juncs[j] = rt;
+            first += count;
+        }
+        self.n_juncs = nj;
+
+        // Probes.
+        for (k, pr) in net.probes.iter().enumerate() {
+            let l = net
+                .lines
+                .get(pr.line as usize)
+                .ok_or(BuildError::IndexOutOfRange { table: Table::Probes, index: k as u16 })?;
+            let port = self.port_of[2 * pr.line as usize + (pr.side == Side::B) as usize];
+            self.probes[k] = ProbeRt { current: pr.kind == ProbeKind::Current, port, z_milliohm: l.z_milliohm };
+        }
+        self.n_probes = net.probes.len();
+
+        // Drive.
+        let port_at = |j: usize| {
+            let mut first = 0usize;
+            for jj in 0..j {
+                first += ends_at(jj) as usize;
+            }
+            first as u16
+        };
+        self.drive = match (src_j, rig) {
+            (Some(j), _) => DriveRt::Source { port: port_at(j) },
+            (None, Some((j, lat, _))) => {
+                self.rig_latency = lat as usize;
+                DriveRt::Rig { port: port_at(j) }
+            }
+            _ => DriveRt::None,
+        };
+        self.io_shift = net.io_shift as u32;
+        self.volts_per_code = net.volts_per_code;
+        self.reset();
+        Ok(())
+    }
+
+    /// Change a node's shunt between two samples (for example a terminator removed).
+    /// The next `step` uses the new shunt; the waves in the lines are kept.
+    pub fn set_shunt(&mut self, junction: u16, shunt: Shunt) -> Result<(), ConfigError> {
+        let c = self.exponent;
+        let j = junction as usize;
+        match self.juncs.get_mut(j).filter(|_| j < self.n_juncs) {
+            Some(rt @ JunctionRt::Node { .. }) => {
+                let mut new = *rt;
+                apply_shunt::<P>(&mut new, shunt, c).map_err(|_| ConfigError::CoefficientOutOfRange { junction })?;
+                *rt = new;
+                Ok(())
+            }
+            _ => Err(ConfigError::NotANode { junction }),
+        }
+    }
+
+    /// Split a node into open ends (`true`: every port reflects a = b, as a broken cable
+    /// would) or join it again (`false`). Takes effect at the next `step`.
+    pub fn set_broken(&mut self, junction: u16, broken: bool) -> Result<(), ConfigError> {
+        let j = junction as usize;
+        match self.juncs.get_mut(j).filter(|_| j < self.n_juncs) {
+            Some(JunctionRt::Node { mode, short, broken: b, .. }) => {
+                *b = broken;
+                *mode = mode_of(*short, broken);
+                Ok(())
+            }
+            _ => Err(ConfigError::NotANode { junction }),
+        }
+    }
+
+    /// The exponent c of the weight unit: a line's weight is floor(2^c / Z0[mΩ]).
+    pub fn weight_exponent(&self) -> u32 {
+        self.exponent
+    }
+
+    /// The integer weight of line `line` (0 if it does not exist).
+    pub fn line_weight(&self, line: usize) -> u32 {
+        if line < self.n_lines {
+            self.port_of.get(2 * line).and_then(|p| self.g.get(*p as usize)).copied().unwrap_or(0)
+        } else {
+            0
+        }
+    }
+
+    /// The impedance the quantized weight of `line` stands for, in ohms: 2^c / g / 1000.
+    pub fn effective_impedance(&self, line: usize) -> f64 {
+        let g = self.line_weight(line);
+        if g == 0 {
+            return f64::INFINITY;
+        }
+        (1u64 << self.exponent.min(63)) as f64 / g as f64 / 1000.0
+    }
+
+    /// Delay storage in use, waves.
+    pub fn memory_used(&self) -> usize {
+        self.mem_used
+    }
+
+    /// Ports (line ends) in use.
+    pub fn port_count(&self) -> usize {
+        self.n_ports
+    }
+
+    /// Junctions in use.
+    pub fn junction_count(&self) -> usize {
+        self.n_juncs
+    }
+}
+
+/// Put `shunt` into a node record: shunt weight floor(2^c / R), new reciprocal of the total.
+fn apply_shunt<P: Profile>(rt: &mut JunctionRt, shunt: Shunt, c: u32) -> Result<(), ()> {
+    let JunctionRt::Node { g_ports, recip, shift, mode, short, broken, .. } = rt else {
+        return Err(());
+    };
+    let g_sh: u64 = match shunt {
+        Shunt::Open => 0,
+        Shunt::Short => 0,
+        Shunt::Resistor { milliohm: 0 } => return Err(()),
+        Shunt::Resistor { milliohm } => ((1u128 << c) / milliohm as u128).min(u64::MAX as u128 / 2) as u64,
+    };
+    let is_short = matches!(shunt, Shunt::Short);
+    let (r, s) = if is_short { (0, 0) } else { reciprocal(g_ports.saturating_add(g_sh), P::RECIP_BITS).ok_or(())? };
+    *recip = r;
+    *shift = s;
+    *short = is_short;
+    *mode = mode_of(is_short, *broken);
+    Ok(())
+}

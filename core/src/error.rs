@@ -1,0 +1,112 @@
+//! Errors of building a solver from a network description.
+use core::fmt;
+
+/// Which table a [`BuildError`] points into.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub enum Table {
+    Lines,
+    Junctions,
+    Probes,
+    DelayStorage,
+    Ports,
+}
+
+/// Why a network description was refused. Indices name the offending entry.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum BuildError {
+    /// A line's characteristic impedance is zero.
+    ZeroImpedance { line: u16 },
+    /// A line's delay is zero samples.
+    ZeroDelay { line: u16 },
+    /// A resistance (shunt, series or source) is zero; use `Shunt::Short` for a short.
+    ZeroResistance { junction: u16 },
+    /// A line end names a junction that does not exist.
+    JunctionOutOfRange { line: u16, junction: u16 },
+    /// The drive or a probe names a junction or line that does not exist.
+    IndexOutOfRange { table: Table, index: u16 },
+    /// A node has no line end: nothing can reach it.
+    DanglingJunction { junction: u16 },
+    /// A series junction must join exactly two line ends.
+    SeriesNeedsTwoEnds { junction: u16, ends: u16 },
+    /// A rig port node must hold exactly one line end and no shunt.
+    BadRigNode { junction: u16 },
+    /// A drive is placed on a series junction.
+    DriveOnSeries { junction: u16 },
+    /// More entries than the solver's capacity.
+    CapacityExceeded { table: Table, needed: u32, capacity: u32 },
+    /// An integer coefficient does not fit its format (an impedance far outside the range
+    /// of the others at its node, or a node with a vanishing total conductance).
+    CoefficientOutOfRange { junction: u16 },
+    /// The rig latency leaves less than two samples of round trip in the first line
+    /// (round trip 2·delay must be at least latency + 2), or exceeds MAX_RIG_LATENCY.
+    RigLatencyTooLong { latency: u16, round_trip: u32 },
+    /// `io_shift` is larger than the number profile allows.
+    IoShiftTooLarge { io_shift: u8, max: u8 },
+}
+
+impl fmt::Display for BuildError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        use BuildError::*;
+        match *self {
+            ZeroImpedance { line } => write!(f, "line {line}: characteristic impedance is zero"),
+            ZeroDelay { line } => write!(f, "line {line}: delay is zero samples (minimum 1)"),
+            ZeroResistance { junction } => write!(f, "junction {junction}: resistance is zero"),
+            JunctionOutOfRange { line, junction } => {
+                write!(f, "line {line}: junction {junction} does not exist")
+            }
+            IndexOutOfRange { table, index } => write!(f, "{table:?} index {index} out of range"),
+            DanglingJunction { junction } => write!(f, "junction {junction}: no line end attached"),
+            SeriesNeedsTwoEnds { junction, ends } => {
+                write!(f, "series junction {junction}: joins {ends} line ends, needs 2")
+            }
+            BadRigNode { junction } => {
+                write!(f, "rig port junction {junction}: needs exactly one line end and no shunt")
+            }
+            DriveOnSeries { junction } => write!(f, "drive on series junction {junction}"),
+            CapacityExceeded { table, needed, capacity } => {
+                write!(f, "{table:?}: needs {needed}, capacity is {capacity}")
+            }
+            CoefficientOutOfRange { junction } => {
+                write!(f, "junction {junction}: coefficient out of range of its format")
+            }
+            RigLatencyTooLong { latency, round_trip } => write!(
+                f,
+                "rig latency {latency} samples needs a first round trip of at least {} samples, \
+                 line has {round_trip}",
+                u32::from(latency) + 2
+            ),
+            IoShiftTooLarge { io_shift, max } => write!(f, "io_shift {io_shift} > maximum {max}"),
+        }
+    }
+}
+
+impl core::error::Error for BuildError {}
+
+/// Why a run-time reconfiguration (`set_shunt`, `set_broken`) was refused.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum ConfigError {
+    /// No such junction, or it is not a plain node (series junction or rig port).
+    NotANode { junction: u16 },
+    /// The new shunt's coefficient does not fit (resistance zero or too far out of range).
+    CoefficientOutOfRange { junction: u16 },
+}
+
+impl fmt::Display for ConfigError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match *self {
+            ConfigError::NotANode { junction } => {
+                write!(f, "junction {junction} is not a reconfigurable node")
+            }
+            ConfigError::CoefficientOutOfRange { junction } => {
+                write!(f, "junction {junction}: new shunt coefficient out of range")
+            }
+        }
+    }
+}
+
+impl core::error::Error for ConfigError {}

@@ -1,0 +1,66 @@
+//! # tidewire-core
+//!
+//! The real-time half of tidewire: a `no_std`, allocation-free, fixed-point solver that
+//! emulates a cable plant sample by sample, so that a device under test sees the reflections
+//! and the settling of real copper.
+//!
+//! ## Model and wave conventions
+//! A plant is a network of lossless **lines** (characteristic impedance Z0, one-way delay
+//! of D whole samples) joined at **junctions**. At every line end
+//!
+//! * v = a + b, i = (a − b)/Z0,
+//!
+//! with `a` the wave entering the line and `b` the wave leaving it toward the junction;
+//! current i flows into the line. A line delays each direction: b_far[n] = a_near[n − D]
+//! (method of characteristics: v + Z0·i leaving one end arrives unchanged D samples later).
+//!
+//! * A **node** joins ports k (conductance G_k = 1/Z_k) in parallel, with a shunt
+//!   conductance G_s and optionally a test source (EMF E behind R_s):
+//!   v = (Σ 2·G_k·b_k + E/R_s) / (Σ G_k + G_s + 1/R_s), and every port takes a_k = v − b_k.
+//!   A short has v = 0, a_k = −b_k exactly; an open end alone reflects a = b.
+//! * A **series junction** joins two line ends through a resistor R:
+//!   I = 2(b1 − b2)/(Z1 + Z2 + R), a1 = b1 − Z1·I, a2 = b2 + Z2·I.
+//!   This lets the host lump a cable's conductor resistance so DC obeys Ohm's law.
+//! * A **rig port** is a node with one line end where a real device is attached through a
+//!   physical resistor R_ref = Z0 to a DAC: the core reads the pin voltage v, computes
+//!   a = v − b and drives the DAC at 2·b. The rig's ADC-to-DAC latency L is taken out of
+//!   the first line's round trip (which must be at least L + 2 samples).
+//!
+//! ## Fixed point
+//! Two [`Profile`]s share one generic [`Solver`]: [`Wide`] (i32 waves, i64 sums; Cortex-M4
+//! class) and [`Narrow`] (i16 waves, i32 sums, no 64-bit products; Cortex-M0 class). I/O is
+//! i16 codes; waves carry `io_shift` more fractional bits (wave = code·2^io_shift).
+//!
+//! Every line has one integer weight g = floor(2^c/Z0) used at both of its ends. At a node
+//! the sum 2·Σ g_k·b_k + g_src·E is exact in double width; the node voltage is reached only
+//! by steps that truncate magnitudes (a reciprocal of the total rounded down, floors on the
+//! magnitude), so |v_q| <= |v_exact| with the same sign. Then a_k = v_q − b_k exactly,
+//! saturated. With E = 0 the stored energy E = Σ_lines g·(wave²) changes at a node by
+//! g_lines·v_q² − g_total·v_q·v_exact <= g_total·v_q·(v_q − v_exact) <= 0: the quantized
+//! network is passive for every topology, loops included, and a plant where every path has
+//! loss decays to exactly zero (no limit cycles). A series junction between lines of equal
+//! impedance changes the energy by 2g·y·(y − x) <= 0 for the same reason (y = c·x truncated,
+//! c <= 1). Between unequal impedances its two coefficients are rounded separately; the
+//! property tests cover that case.
+//!
+//! ## Real-time guarantees
+//! `step` does O(ports + junctions) work, independent of the delays (ring buffers, no data
+//! shifting), no division, no floating point, no allocation, and cannot panic once
+//! [`Solver::load`] has accepted the network. Coefficients are computed by the core itself,
+//! with integer arithmetic, in `load` and in [`Solver::set_shunt`].
+#![no_std]
+#![forbid(unsafe_code)]
+#![deny(missing_docs)]
+#![allow(missing_docs)] // fields of plain description structs are documented by their types
+
+pub mod configure;
+pub mod error;
+pub mod image;
+pub mod network;
+pub mod profile;
+pub mod solver;
+
+pub use error::{BuildError, ConfigError, Table};
+pub use network::{Drive, Junction, Line, Network, Probe, ProbeKind, Shunt, Side, MAX_PROBES, MAX_RIG_LATENCY};
+pub use profile::{Narrow, Profile, Wide};
+pub use solver::Solver;
