@@ -237,6 +237,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
                         g_ports,
                         recip: 0,
                         shift: 0,
+                        corr: 0,
                     };
                     apply_shunt::<P>(&mut rt, shunt, c).map_err(|_| BuildError::CoefficientOutOfRange { junction })?;
                     rt
@@ -367,7 +368,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
 
 /// Put `shunt` into a node record: shunt weight floor(2^c / R), new reciprocal of the total.
 fn apply_shunt<P: Profile>(rt: &mut JunctionRt, shunt: Shunt, c: u32) -> Result<(), ()> {
-    let JunctionRt::Node { g_ports, recip, shift, mode, short, broken, .. } = rt else {
+    let JunctionRt::Node { g_ports, recip, shift, corr, mode, short, broken, .. } = rt else {
         return Err(());
     };
     let g_sh: u64 = match shunt {
@@ -377,7 +378,10 @@ fn apply_shunt<P: Profile>(rt: &mut JunctionRt, shunt: Shunt, c: u32) -> Result<
         Shunt::Resistor { milliohm } => ((1u128 << c) / milliohm as u128).min(u64::MAX as u128 / 2) as u64,
     };
     let is_short = matches!(shunt, Shunt::Short);
-    let (r, s) = if is_short { (0, 0) } else { reciprocal(g_ports.saturating_add(g_sh), P::RECIP_BITS).ok_or(())? };
+    let total = g_ports.saturating_add(g_sh);
+    let (r, s) = if is_short { (0, 0) } else { reciprocal(total, P::RECIP_BITS).ok_or(())? };
+    // The correction step needs 2·total to fit the accumulator's unsigned width.
+    *corr = if r != 0 && total < 1u64 << (2 * P::RECIP_BITS - 1) { total } else { 0 };
     *recip = r;
     *shift = s;
     *short = is_short;

@@ -30,9 +30,18 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     /// Largest `io_shift` the wave range leaves room for.
     const MAX_IO_SHIFT: u8;
 
-    /// Node voltage v = trunc((2·Σ g_k·b_k + g_src·e) · recip / 2^(RECIP_BITS + shift)).
-    fn node_voltage(b: &[Self::Wave], g: &[u32], e: Self::Wave, g_src: u32, recip: u32, shift: u32)
-        -> Self::Wave;
+    /// Node voltage v = trunc((2·Σ g_k·b_k + g_src·e) / total), from the reciprocal
+    /// (`recip`, `shift`) of `total` and one exact correction step against `corr` (= total,
+    /// or 0 where the quotient is known to be below one LSB).
+    fn node_voltage(
+        b: &[Self::Wave],
+        g: &[u32],
+        e: Self::Wave,
+        g_src: u32,
+        recip: u32,
+        shift: u32,
+        corr: u64,
+    ) -> Self::Wave;
     /// a = sat(v − b).
     fn sub(v: Self::Wave, b: Self::Wave) -> Self::Wave;
     /// a = sat(−b).
@@ -89,7 +98,7 @@ impl Profile for Wide {
     const MAX_IO_SHIFT: u8 = 15;
 
     #[inline(always)]
-    fn node_voltage(b: &[i32], g: &[u32], e: i32, g_src: u32, recip: u32, shift: u32) -> i32 {
+    fn node_voltage(b: &[i32], g: &[u32], e: i32, g_src: u32, recip: u32, shift: u32, corr: u64) -> i32 {
         // |Σ g·b| <= 2^30 · 2^31, so 2·Σ + g_src·e < 2^63: exact in i64.
         let mut acc: i64 = 0;
         for (bk, gk) in b.iter().zip(g.iter()) {
@@ -103,8 +112,13 @@ impl Profile for Wide {
         let hi = mag >> 32;
         let lo = mag & 0xFFFF_FFFF;
         let r = recip as u64;
-        let q = hi.wrapping_mul(r).wrapping_add(lo.wrapping_mul(r) >> 32);
-        let v = apply_sign64((q.wrapping_shr(shift)) as i64, mask);
+        let q = hi.wrapping_mul(r).wrapping_add(lo.wrapping_mul(r) >> 32).wrapping_shr(shift);
+        // q <= floor(mag/total) <= q + 1 (for any v within the wave range): one exact step.
+        // The true remainder mag − q·total lies in [0, 2·total) ⊂ [0, 2^64), so wrapping
+        // arithmetic gives it exactly; adding 1 only when it reaches `total` keeps q <= floor.
+        let rem = mag.wrapping_sub(q.wrapping_mul(corr));
+        let q = q + ((rem >= corr) & (corr != 0)) as u64;
+        let v = apply_sign64(q as i64, mask);
         v.clamp(i32::MIN as i64, i32::MAX as i64) as i32
     }
     #[inline(always)]
@@ -159,7 +173,7 @@ impl Profile for Narrow {
     const MAX_IO_SHIFT: u8 = 0;
 
     #[inline(always)]
-    fn node_voltage(b: &[i16], g: &[u32], e: i16, g_src: u32, recip: u32, shift: u32) -> i16 {
+    fn node_voltage(b: &[i16], g: &[u32], e: i16, g_src: u32, recip: u32, shift: u32, corr: u64) -> i16 {
         // |Σ g·b| <= 2^14 · 2^15, so 2·Σ + g_src·e <= 2^30: exact in i32.
         let mut acc: i32 = 0;
         for (bk, gk) in b.iter().zip(g.iter()) {
@@ -171,8 +185,13 @@ impl Profile for Narrow {
         // Two 16x16->32 products: hi·r < 2^31, lo·r < 2^32.
         let hi = mag >> 16;
         let lo = mag & 0xFFFF;
-        let q = hi.wrapping_mul(recip).wrapping_add(lo.wrapping_mul(recip) >> 16);
-        let v = apply_sign32((q.wrapping_shr(shift)) as i32, mask);
+        let q = hi.wrapping_mul(recip).wrapping_add(lo.wrapping_mul(recip) >> 16).wrapping_shr(shift);
+        // Exact correction as in `Wide`; `corr` < 2^31 here (0 for larger totals, whose
+        // quotient is below one LSB anyway).
+        let corr = corr as u32;
+        let rem = mag.wrapping_sub(q.wrapping_mul(corr));
+        let q = q + ((rem >= corr) & (corr != 0)) as u32;
+        let v = apply_sign32(q as i32, mask);
         sat_i16(v)
     }
     #[inline(always)]
@@ -267,7 +286,7 @@ mod tests {
         ];
         for &(b, g, e, gs, total) in cases {
             let (r, s) = reciprocal(total, 32).unwrap();
-            let v = Wide::node_voltage(b, g, e, gs, r, s) as i128;
+            let v = Wide::node_voltage(b, g, e, gs, r, s, total) as i128;
             let num: i128 =
                 2 * b.iter().zip(g).map(|(b, g)| *b as i128 * *g as i128).sum::<i128>()
                     + gs as i128 * e as i128;
@@ -275,7 +294,7 @@ mod tests {
             assert!((v as f64).abs() <= exact.abs() + 1e-9, "v={v} exact={exact}");
             assert!(v == 0 || (v > 0) == (exact > 0.0));
             let clamped = exact.clamp(i32::MIN as f64, i32::MAX as f64);
-            assert!((clamped - v as f64).abs() < 2.0, "v={v} exact={exact}");
+            assert!((clamped - v as f64).abs() < 1.0, "v={v} exact={exact}");
         }
     }
 
@@ -285,10 +304,30 @@ mod tests {
         let g = [5000u32, 7000, 4000];
         let total = 16000u64 + 1;
         let (r, s) = reciprocal(total, 16).unwrap();
-        let v = Narrow::node_voltage(&b, &g, 0, 0, r, s) as f64;
+        let v = Narrow::node_voltage(&b, &g, 0, 0, r, s, total) as f64;
         let exact = 2.0 * (12000.0 * 5000.0 - 32768.0 * 7000.0 + 517.0 * 4000.0) / total as f64;
         assert!(v.abs() <= exact.abs());
-        assert!((v - exact).abs() < 2.0, "v={v} exact={exact}");
+        assert!((v - exact).abs() < 1.0, "v={v} exact={exact}");
+    }
+
+    #[test]
+    fn exactly_divisible_sums_give_exact_quotients() {
+        // A matched load: one line of weight g and a shunt of the same weight, total 2g.
+        // v = 2·g·b / 2g = b exactly, so the reflected wave v − b is exactly zero.
+        for g in [3u32, 1000, 123_456_789, (1 << 29) + 7] {
+            let t = 2 * g as u64;
+            let (r, s) = reciprocal(t, 32).unwrap();
+            for b in [1i32, -1, 7, 1 << 20, -(1 << 30), i32::MAX] {
+                assert_eq!(Wide::node_voltage(&[b], &[g], 0, 0, r, s, t), b);
+            }
+        }
+        for g in [3u32, 1000, 8191] {
+            let t = 2 * g as u64;
+            let (r, s) = reciprocal(t, 16).unwrap();
+            for b in [1i16, -1, 7, 12345, i16::MIN, i16::MAX] {
+                assert_eq!(Narrow::node_voltage(&[b], &[g], 0, 0, r, s, t), b);
+            }
+        }
     }
 
     #[test]

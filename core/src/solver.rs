@@ -44,6 +44,8 @@ pub(crate) enum JunctionRt {
         g_ports: u64,
         recip: u32,
         shift: u32,
+        /// The total weight for the exact correction step (0: none needed).
+        corr: u64,
     },
     Series { p: u16, q: u16, c1: u32, c2: u32 },
     Rig { port: u16 },
@@ -199,7 +201,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
         let n = self.n_juncs.min(JUNCS);
         for j in self.juncs.iter().take(n) {
             match *j {
-                JunctionRt::Node { first, count, mode, g_src, recip, shift, .. } => {
+                JunctionRt::Node { first, count, mode, g_src, recip, shift, corr, .. } => {
                     let lo = first as usize;
                     let hi = lo + count as usize;
                     let (Some(bs), Some(gs), Some(as_)) =
@@ -210,7 +212,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
                     match mode {
                         Mode::Scatter => {
                             // v = (2·Σ G_k·b_k + E·G_src) / G_total;  a_k = v − b_k
-                            let v = P::node_voltage(bs, gs, e, g_src, recip, shift);
+                            let v = P::node_voltage(bs, gs, e, g_src, recip, shift, corr);
                             for (ak, bk) in as_.iter_mut().zip(bs.iter()) {
                                 *ak = P::sub(v, *bk);
                             }
