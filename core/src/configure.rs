@@ -85,6 +85,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
         };
 
         // Junction shape checks.
+        let mut series_z = [0u32; JUNCS];
         for (j, junc) in net.junctions.iter().enumerate() {
             let junction = j as u16;
             let ends = ends_at(j);
@@ -100,6 +101,19 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
                 Junction::Series { milliohm } => {
                     if ends != 2 {
                         return Err(BuildError::SeriesNeedsTwoEnds { junction, ends });
+                    }
+                    let mut zs = net
+                        .lines
+                        .iter()
+                        .flat_map(|l| [(l.a, l.z_milliohm), (l.b, l.z_milliohm)])
+                        .filter(|(jj, _)| *jj as usize == j)
+                        .map(|(_, z)| z);
+                    let (z1, z2) = (zs.next().unwrap_or(0), zs.next().unwrap_or(0));
+                    if z1 != z2 {
+                        return Err(BuildError::SeriesImpedanceMismatch { junction });
+                    }
+                    if let Some(slot) = series_z.get_mut(j) {
+                        *slot = z1;
                     }
                     if milliohm == 0 {
                         return Err(BuildError::ZeroResistance { junction });
@@ -237,26 +251,18 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
                         g_ports,
                         recip: 0,
                         shift: 0,
-                        corr: 0,
+                        total: 0,
                     };
                     apply_shunt::<P>(&mut rt, shunt, c).map_err(|_| BuildError::CoefficientOutOfRange { junction })?;
                     rt
                 }
                 Junction::Series { milliohm } => {
                     let (p, q) = (first, first + 1);
-                    let z_of = |port: usize| {
-                        net.lines
-                            .iter()
-                            .enumerate()
-                            .find(|(i, _)| self.port_of[2 * i] as usize == port || self.port_of[2 * i + 1] as usize == port)
-                            .map_or(1, |(_, l)| l.z_milliohm)
-                    };
-                    let (z1, z2) = (z_of(p) as u128, z_of(q) as u128);
-                    let zs = z1 + z2 + milliohm as u128;
-                    // y_k = c_k·(b1 − b2), c_k = 2·Z_k/(Z1 + Z2 + R) < 2, rounded down.
-                    let c1 = ((2 * z1) << P::SERIES_FRAC) / zs;
-                    let c2 = ((2 * z2) << P::SERIES_FRAC) / zs;
-                    JunctionRt::Series { p: p as u16, q: q as u16, c1: c1 as u32, c2: c2 as u32 }
+                    // Both ends of a series junction belong to lines of equal impedance (checked
+                    // above); c = 2Z/(2Z + R) <= 1, rounded down.
+                    let z = series_z[j] as u128;
+                    let c = ((2 * z) << P::SERIES_FRAC) / (2 * z + milliohm as u128);
+                    JunctionRt::Series { p: p as u16, q: q as u16, c: c as u32 }
                 }
             };
             self.juncs[j] = rt;
@@ -368,7 +374,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
 
 /// Put `shunt` into a node record: shunt weight floor(2^c / R), new reciprocal of the total.
 fn apply_shunt<P: Profile>(rt: &mut JunctionRt, shunt: Shunt, c: u32) -> Result<(), ()> {
-    let JunctionRt::Node { g_ports, recip, shift, corr, mode, short, broken, .. } = rt else {
+    let JunctionRt::Node { g_ports, recip, shift, total: t, mode, short, broken, .. } = rt else {
         return Err(());
     };
     let g_sh: u64 = match shunt {
@@ -378,10 +384,11 @@ fn apply_shunt<P: Profile>(rt: &mut JunctionRt, shunt: Shunt, c: u32) -> Result<
         Shunt::Resistor { milliohm } => ((1u128 << c) / milliohm as u128).min(u64::MAX as u128 / 2) as u64,
     };
     let is_short = matches!(shunt, Shunt::Short);
-    let total = g_ports.saturating_add(g_sh);
+    // A shunt so strong that the total passes the profile's division range is capped: the
+    // node then stands for a slightly weaker near-short, still a passive node.
+    let total = g_ports.saturating_add(g_sh).min(P::TOTAL_MAX);
     let (r, s) = if is_short { (0, 0) } else { reciprocal(total, P::RECIP_BITS).ok_or(())? };
-    // The correction step needs 2·total to fit the accumulator's unsigned width.
-    *corr = if r != 0 && total < 1u64 << (2 * P::RECIP_BITS - 1) { total } else { 0 };
+    *t = total;
     *recip = r;
     *shift = s;
     *short = is_short;

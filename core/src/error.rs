@@ -31,6 +31,9 @@ pub enum BuildError {
     DanglingJunction { junction: u16 },
     /// A series junction must join exactly two line ends.
     SeriesNeedsTwoEnds { junction: u16, ends: u16 },
+    /// A series junction joins two lines of different impedance. Split one sample of
+    /// the first line off as a line of its own impedance instead (the host compiler does).
+    SeriesImpedanceMismatch { junction: u16 },
     /// A rig port node must hold exactly one line end and no shunt.
     BadRigNode { junction: u16 },
     /// A drive is placed on a series junction.
@@ -61,6 +64,9 @@ impl fmt::Display for BuildError {
             DanglingJunction { junction } => write!(f, "junction {junction}: no line end attached"),
             SeriesNeedsTwoEnds { junction, ends } => {
                 write!(f, "series junction {junction}: joins {ends} line ends, needs 2")
+            }
+            SeriesImpedanceMismatch { junction } => {
+                write!(f, "series junction {junction}: the two lines have different impedances")
             }
             BadRigNode { junction } => {
                 write!(f, "rig port junction {junction}: needs exactly one line end and no shunt")

@@ -44,10 +44,10 @@ pub(crate) enum JunctionRt {
         g_ports: u64,
         recip: u32,
         shift: u32,
-        /// The total weight for the exact correction step (0: none needed).
-        corr: u64,
+        /// The total weight (ports, source and shunt) the node divides by.
+        total: u64,
     },
-    Series { p: u16, q: u16, c1: u32, c2: u32 },
+    Series { p: u16, q: u16, c: u32 },
     Rig { port: u16 },
 }
 
@@ -201,7 +201,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
         let n = self.n_juncs.min(JUNCS);
         for j in self.juncs.iter().take(n) {
             match *j {
-                JunctionRt::Node { first, count, mode, g_src, recip, shift, corr, .. } => {
+                JunctionRt::Node { first, count, mode, g_src, recip, shift, total, .. } => {
                     let lo = first as usize;
                     let hi = lo + count as usize;
                     let (Some(bs), Some(gs), Some(as_)) =
@@ -211,11 +211,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
                     };
                     match mode {
                         Mode::Scatter => {
-                            // v = (2·Σ G_k·b_k + E·G_src) / G_total;  a_k = v − b_k
-                            let v = P::node_voltage(bs, gs, e, g_src, recip, shift, corr);
-                            for (ak, bk) in as_.iter_mut().zip(bs.iter()) {
-                                *ak = P::sub(v, *bk);
-                            }
+                            // v = (2·Σ G_k·b_k + E·G_src) / G_total;  a_k = trunc(v − b_k)
+                            P::node_scatter(bs, gs, as_, e, g_src, recip, shift, total);
                         }
                         Mode::Short => {
                             for (ak, bk) in as_.iter_mut().zip(bs.iter()) {
@@ -225,10 +222,10 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
                         Mode::Broken => as_.copy_from_slice(bs),
                     }
                 }
-                JunctionRt::Series { p, q, c1, c2 } => {
+                JunctionRt::Series { p, q, c } => {
                     let b1 = self.b.get(p as usize).copied().unwrap_or(P::ZERO);
                     let b2 = self.b.get(q as usize).copied().unwrap_or(P::ZERO);
-                    let (a1, a2) = P::series(b1, b2, c1, c2);
+                    let (a1, a2) = P::series(b1, b2, c);
                     if let Some(x) = self.a.get_mut(p as usize) {
                         *x = a1;
                     }
@@ -284,6 +281,14 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
         } else {
             0
         }
+    }
+
+    /// True when every wave in every line and at every port is exactly zero.
+    pub fn is_at_rest(&self) -> bool {
+        let z = P::ZERO;
+        self.mem.iter().take(self.mem_used).all(|w| *w == z)
+            && self.a.iter().take(self.n_ports).all(|w| *w == z)
+            && self.b.iter().take(self.n_ports).all(|w| *w == z)
     }
 
     /// Number of configured probes.

@@ -1,0 +1,275 @@
+//! Test support: random passive networks and an f64 twin of the solver's wave model.
+#![allow(dead_code)]
+
+use proptest::prelude::*;
+use tidewire_core::{Drive, Junction, Line, Network, Probe, ProbeKind, Shunt, Side};
+
+/// An owned network description for tests.
+#[derive(Debug, Clone)]
+pub struct Owned {
+    pub lines: Vec<Line>,
+    pub junctions: Vec<Junction>,
+    pub drive: Drive,
+    pub probes: Vec<Probe>,
+    pub io_shift: u8,
+}
+
+impl Owned {
+    pub fn net(&self) -> Network<'_> {
+        Network {
+            lines: &self.lines,
+            junctions: &self.junctions,
+            drive: self.drive,
+            probes: &self.probes,
+            io_shift: self.io_shift,
+            volts_per_code: 1e-3,
+        }
+    }
+    pub fn delay_sum(&self) -> u32 {
+        self.lines.iter().map(|l| 2 * l.delay).sum()
+    }
+}
+
+/// What terminations the generator may use at nodes.
+#[derive(Debug, Clone, Copy)]
+pub enum Loads {
+    /// Trees whose nodes all have a resistor to return (every line also gets a series
+    /// resistor). Such a plant has no lossless mode in exact arithmetic: in a mode that
+    /// dissipates nothing, a one-line leaf with a resistor must see b = 0, so its line
+    /// carries nothing; a node (or series junction) whose other lines carry nothing can only
+    /// send out zero if its last line brings zero too, and peeling the tree from its leaves
+    /// leaves no line carrying anything. (Loops do not have this property with lumped
+    /// resistance: a ring of 74 + 150 samples joined at one node with a resistor at the
+    /// join of the two lines has an undamped mode with a current node at the resistor and a
+    /// voltage node at the junction, because 74/150 = 37/75 is a ratio of odd numbers.)
+    Lossy,
+    /// Opens, shorts and resistors anywhere, series resistors on some lines: a plant that
+    /// may ring for ever but must never grow.
+    Any,
+}
+
+fn shunt_strategy(loads: Loads) -> BoxedStrategy<Shunt> {
+    match loads {
+        Loads::Lossy => (10_000u32..1_000_000).prop_map(|m| Shunt::Resistor { milliohm: m }).boxed(),
+        Loads::Any => prop_oneof![
+            Just(Shunt::Open),
+            Just(Shunt::Short),
+            (10_000u32..1_000_000).prop_map(|m| Shunt::Resistor { milliohm: m }),
+        ]
+        .boxed(),
+    }
+}
+
+/// Random networks: a random tree over `nodes` nodes plus extra edges (loops); each edge is
+/// one line, or two lines joined by a series resistor (equal or unequal impedances).
+/// Impedances 10 Ω – 1 kΩ, delays 1–`max_delay` samples; a source at node 0.
+pub fn network(loads: Loads, max_delay: u32, io_shift: u8) -> impl Strategy<Value = Owned> {
+    let extra_max = if matches!(loads, Loads::Lossy) { 1 } else { 4 };
+    (2usize..7, 0usize..extra_max).prop_flat_map(move |(nodes, extra)| {
+        let edges = nodes - 1 + extra;
+        (
+            proptest::collection::vec(shunt_strategy(loads), nodes),
+            proptest::collection::vec(
+                (
+                    any::<prop::sample::Index>(),
+                    10_000u32..1_000_000,
+                    1u32..=max_delay,
+                    1u32..=max_delay,
+                    prop_oneof![Just(0u8), Just(1), Just(2)],
+                    1_000u32..200_000,
+                    10_000u32..1_000_000,
+                ),
+                edges,
+            ),
+            10_000u32..1_000_000,
+            proptest::collection::vec((any::<prop::sample::Index>(), any::<bool>(), any::<bool>()), 1..4),
+        )
+            .prop_map(move |(shunts, edge_specs, rs, probe_specs)| {
+                let mut junctions: Vec<Junction> = shunts.iter().map(|s| Junction::Node { shunt: *s }).collect();
+                let mut lines = Vec::new();
+                for (k, (pick, z, d1, d2, kind, r, z2)) in edge_specs.into_iter().enumerate() {
+                    // Tree edges first (node k+1 to an earlier node), then extra edges.
+                    let (a, b) = if k + 1 < nodes {
+                        (pick.index(k + 1) as u16, (k + 1) as u16)
+                    } else {
+                        (pick.index(nodes) as u16, ((pick.index(nodes) + 1 + k) % nodes) as u16)
+                    };
+                    // Every line of a lossy plant carries series resistance.
+                    let kind = if matches!(loads, Loads::Lossy) && kind == 0 { 1 } else { kind };
+                    match kind {
+                        0 => lines.push(Line { z_milliohm: z, delay: d1, a, b }),
+                        1 => {
+                            let s = junctions.len() as u16;
+                            junctions.push(Junction::Series { milliohm: r });
+                            lines.push(Line { z_milliohm: z, delay: d1, a, b: s });
+                            lines.push(Line { z_milliohm: z, delay: d2, a: s, b });
+                        }
+                        _ => {
+                            // A series resistor between different impedances, built as the
+                            // host does: one sample of the first line after the resistor,
+                            // then an impedance step at an open node.
+                            let s = junctions.len() as u16;
+                            junctions.push(Junction::Series { milliohm: r });
+                            junctions.push(Junction::Node { shunt: Shunt::Open });
+                            lines.push(Line { z_milliohm: z, delay: d1, a, b: s });
+                            lines.push(Line { z_milliohm: z, delay: 1, a: s, b: s + 1 });
+                            lines.push(Line { z_milliohm: z2, delay: d2, a: s + 1, b });
+                        }
+                    }
+                }
+                let probes = probe_specs
+                    .into_iter()
+                    .map(|(i, current, side_b)| Probe {
+                        kind: if current { ProbeKind::Current } else { ProbeKind::Voltage },
+                        line: i.index(lines.len()) as u16,
+                        side: if side_b { Side::B } else { Side::A },
+                    })
+                    .collect();
+                Owned { lines, junctions, drive: Drive::Source { junction: 0, milliohm: rs }, probes, io_shift }
+            })
+    })
+}
+
+/// The same wave model in f64 (no quantization): the reference for arithmetic error.
+pub struct Twin {
+    net: Owned,
+    /// Conductance per line in weight units, source and shunt conductance functions, and
+    /// series coefficients: nominal (1/Z) or the core's quantized integers.
+    coef: Option<Quantized>,
+    rings: Vec<Vec<f64>>, // per line end: waves travelling towards it
+    pos: Vec<usize>,
+    a: Vec<f64>,
+    b: Vec<f64>,
+}
+
+/// The core's integer coefficients: line weights g, exponent c of the weight unit
+/// (g = floor(2^c/Z[mΩ])), fractional bits of series coefficients, cap of a node total.
+#[derive(Debug, Clone)]
+pub struct Quantized {
+    pub g: Vec<u64>,
+    pub exponent: u32,
+    pub series_frac: u32,
+    pub total_max: u64,
+}
+
+impl Quantized {
+    fn weight(&self, milliohm: u32) -> f64 {
+        ((1u128 << self.exponent) / milliohm as u128) as f64
+    }
+}
+
+impl Twin {
+    pub fn new(net: &Owned) -> Twin {
+        let n = net.lines.len();
+        let rings = (0..2 * n).map(|p| vec![0.0; net.lines[p / 2].delay as usize]).collect();
+        Twin { net: net.clone(), coef: None, rings, pos: vec![0; 2 * n], a: vec![0.0; 2 * n], b: vec![0.0; 2 * n] }
+    }
+
+    /// The same network with the core's quantized coefficients (f64 arithmetic).
+    pub fn quantized(net: &Owned, q: Quantized) -> Twin {
+        let mut t = Twin::new(net);
+        t.coef = Some(q);
+        t
+    }
+
+    fn g(&self, port: usize) -> f64 {
+        match &self.coef {
+            Some(q) => q.g[port / 2] as f64,
+            None => 1.0 / self.z(port),
+        }
+    }
+
+    fn g_of_milliohm(&self, m: u32) -> f64 {
+        match &self.coef {
+            Some(q) => q.weight(m),
+            None => 1000.0 / m as f64,
+        }
+    }
+
+    fn z(&self, port: usize) -> f64 {
+        self.net.lines[port / 2].z_milliohm as f64 / 1000.0
+    }
+
+    /// One step with source EMF `e` (wave units); returns probe values (a + b or a − b).
+    pub fn step(&mut self, e: f64) -> Vec<f64> {
+        for p in 0..self.b.len() {
+            self.b[p] = self.rings[p][self.pos[p]];
+        }
+        for (j, junc) in self.net.junctions.iter().enumerate() {
+            let ports: Vec<usize> = (0..self.b.len())
+                .filter(|p| {
+                    let l = &self.net.lines[p / 2];
+                    (if p % 2 == 0 { l.a } else { l.b }) as usize == j
+                })
+                .collect();
+            match *junc {
+                Junction::Node { shunt } => {
+                    let (mut num, mut den) = (0.0, 0.0);
+                    for &p in &ports {
+                        num += 2.0 * self.b[p] * self.g(p);
+                        den += self.g(p);
+                    }
+                    if let Drive::Source { junction, milliohm } = self.net.drive {
+                        if junction as usize == j {
+                            let gs = self.g_of_milliohm(milliohm);
+                            num += e * gs;
+                            den += gs;
+                        }
+                    }
+                    let cap = self.coef.as_ref().map_or(f64::INFINITY, |q| q.total_max as f64);
+                    let v = match shunt {
+                        Shunt::Short => 0.0,
+                        Shunt::Resistor { milliohm } => num / (den + self.g_of_milliohm(milliohm)).min(cap),
+                        _ => num / den,
+                    };
+                    for &p in &ports {
+                        self.a[p] = v - self.b[p];
+                    }
+                }
+                Junction::Series { milliohm } => {
+                    let (p, q) = (ports[0], ports[1]);
+                    let (z1, z2) = (self.z(p), self.z(q));
+                    let r = milliohm as f64 / 1000.0;
+                    let (c1, c2) = match &self.coef {
+                        // The core: one coefficient c = floor(2Z·2^F/(2Z + R))/2^F (equal Z).
+                        Some(qz) => {
+                            let z = self.net.lines[p / 2].z_milliohm as u128;
+                            let c = (((2 * z) << qz.series_frac) / (2 * z + milliohm as u128)) as f64
+                                / (1u64 << qz.series_frac) as f64;
+                            (c, c)
+                        }
+                        None => (2.0 * z1 / (z1 + z2 + r), 2.0 * z2 / (z1 + z2 + r)),
+                    };
+                    let x = self.b[p] - self.b[q];
+                    self.a[p] = self.b[p] - c1 * x;
+                    self.a[q] = self.b[q] + c2 * x;
+                }
+                _ => unreachable!(),
+            }
+        }
+        let out = self
+            .net
+            .probes
+            .iter()
+            .map(|pr| {
+                let p = 2 * pr.line as usize + (pr.side == Side::B) as usize;
+                if pr.kind == ProbeKind::Current { self.a[p] - self.b[p] } else { self.a[p] + self.b[p] }
+            })
+            .collect();
+        for p in 0..self.b.len() {
+            // The wave leaving port p travels towards its partner (p ^ 1).
+            let q = p ^ 1;
+            let pos = self.pos[q];
+            self.rings[q][pos] = self.a[p];
+        }
+        for p in 0..self.b.len() {
+            self.pos[p] = (self.pos[p] + 1) % self.rings[p].len();
+        }
+        out
+    }
+
+    /// Stored energy Σ g·w² over all ring contents (g = 1/Z).
+    pub fn energy(&self) -> f64 {
+        self.rings.iter().enumerate().map(|(p, r)| r.iter().map(|w| w * w).sum::<f64>() / self.z(p)).sum()
+    }
+}
