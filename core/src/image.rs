@@ -1,1 +1,171 @@
-pub struct Placeholder;
+//! The binary network image: what the host compiler writes and a rig loads at run time
+//! (for example over a serial link, without reflashing).
+//!
+//! Layout, all integers little-endian:
+//!
+//! | offset | size | field |
+//! |---|---|---|
+//! | 0 | 4 | magic `TIDW` |
+//! | 4 | 2 | format version ([`FORMAT_VERSION`]) |
+//! | 6 | 2 | flags (0; reserved) |
+//! | 8 | 4 | body length in bytes |
+//! | 12 | 4 | CRC-32 (ISO-HDLC, the common zlib/Ethernet one) of the body |
+//! | 16 | n | body: the [`Network`] in postcard encoding |
+//!
+//! Decoding checks everything before it builds anything: length, magic, version, CRC, then
+//! the body is decoded into fixed-capacity storage, then [`crate::Solver::load`] validates
+//! the topology. Every failure is an error value, never a panic.
+
+use crate::error::BuildError;
+use crate::network::{Drive, Junction, Line, Network, Probe, MAX_PROBES};
+use crate::profile::Profile;
+use crate::solver::Solver;
+use core::fmt;
+use serde::Deserialize;
+
+/// First four bytes of every image.
+pub const MAGIC: [u8; 4] = *b"TIDW";
+/// The body format this core reads.
+pub const FORMAT_VERSION: u16 = 1;
+/// Header size in bytes.
+pub const HEADER_LEN: usize = 16;
+
+const CRC: crc::Crc<u32> = crc::Crc::<u32>::new(&crc::CRC_32_ISO_HDLC);
+
+/// CRC-32 (ISO-HDLC) of an image body.
+pub fn body_crc(body: &[u8]) -> u32 {
+    CRC.checksum(body)
+}
+
+/// The 16-byte header for `body`.
+pub fn header(body: &[u8]) -> [u8; HEADER_LEN] {
+    let mut h = [0u8; HEADER_LEN];
+    h[0..4].copy_from_slice(&MAGIC);
+    h[4..6].copy_from_slice(&FORMAT_VERSION.to_le_bytes());
+    h[8..12].copy_from_slice(&(body.len() as u32).to_le_bytes());
+    h[12..16].copy_from_slice(&body_crc(body).to_le_bytes());
+    h
+}
+
+/// Why an image was refused.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum ImageError {
+    /// Fewer bytes than a header.
+    Truncated { len: usize },
+    /// The first four bytes are not `TIDW`.
+    BadMagic,
+    /// A format version this core does not read.
+    UnsupportedVersion { found: u16 },
+    /// Reserved flags set.
+    UnknownFlags { flags: u16 },
+    /// The declared body length does not match the bytes given.
+    LengthMismatch { declared: u32, actual: usize },
+    /// The body's CRC does not match the header.
+    CrcMismatch { stored: u32, computed: u32 },
+    /// The body does not decode (corrupt, or more entries than the capacity).
+    Body,
+    /// The body has bytes after the network.
+    TrailingBytes,
+    /// The body decoded but the network is not valid for this solver.
+    Network(BuildError),
+}
+
+impl fmt::Display for ImageError {
+    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
+        match *self {
+            ImageError::Truncated { len } => write!(f, "image truncated: {len} bytes, header needs {HEADER_LEN}"),
+            ImageError::BadMagic => write!(f, "not a tidewire image (bad magic)"),
+            ImageError::UnsupportedVersion { found } => {
+                write!(f, "image format version {found}, this core reads {FORMAT_VERSION}")
+            }
+            ImageError::UnknownFlags { flags } => write!(f, "image flags {flags:#06x} not understood"),
+            ImageError::LengthMismatch { declared, actual } => {
+                write!(f, "image body is {actual} bytes, header says {declared}")
+            }
+            ImageError::CrcMismatch { stored, computed } => {
+                write!(f, "image CRC mismatch: stored {stored:#010x}, computed {computed:#010x}")
+            }
+            ImageError::Body => write!(f, "image body does not decode (corrupt or over capacity)"),
+            ImageError::TrailingBytes => write!(f, "image body has trailing bytes"),
+            ImageError::Network(e) => write!(f, "image network refused: {e}"),
+        }
+    }
+}
+
+impl core::error::Error for ImageError {}
+
+/// A network decoded from an image into fixed-capacity storage (`L` lines, `J` junctions).
+#[derive(Debug, Clone, PartialEq, Deserialize)]
+pub struct ImageNetwork<const L: usize, const J: usize> {
+    lines: heapless::Vec<Line, L>,
+    junctions: heapless::Vec<Junction, J>,
+    drive: Drive,
+    probes: heapless::Vec<Probe, MAX_PROBES>,
+    io_shift: u8,
+    volts_per_code: f32,
+}
+
+impl<const L: usize, const J: usize> ImageNetwork<L, J> {
+    /// A borrowed view to build a solver from.
+    pub fn network(&self) -> Network<'_> {
+        Network {
+            lines: &self.lines,
+            junctions: &self.junctions,
+            drive: self.drive,
+            probes: &self.probes,
+            io_shift: self.io_shift,
+            volts_per_code: self.volts_per_code,
+        }
+    }
+}
+
+/// Check the header and CRC of `bytes` and return the body.
+pub fn body(bytes: &[u8]) -> Result<&[u8], ImageError> {
+    let (head, body) = match (bytes.get(..HEADER_LEN), bytes.get(HEADER_LEN..)) {
+        (Some(h), Some(b)) => (h, b),
+        _ => return Err(ImageError::Truncated { len: bytes.len() }),
+    };
+    let u16_at = |i: usize| u16::from_le_bytes([head[i], head[i + 1]]);
+    let u32_at = |i: usize| u32::from_le_bytes([head[i], head[i + 1], head[i + 2], head[i + 3]]);
+    if head[0..4] != MAGIC {
+        return Err(ImageError::BadMagic);
+    }
+    let version = u16_at(4);
+    if version != FORMAT_VERSION {
+        return Err(ImageError::UnsupportedVersion { found: version });
+    }
+    let flags = u16_at(6);
+    if flags != 0 {
+        return Err(ImageError::UnknownFlags { flags });
+    }
+    let declared = u32_at(8);
+    if declared as usize != body.len() {
+        return Err(ImageError::LengthMismatch { declared, actual: body.len() });
+    }
+    let stored = u32_at(12);
+    let computed = body_crc(body);
+    if stored != computed {
+        return Err(ImageError::CrcMismatch { stored, computed });
+    }
+    Ok(body)
+}
+
+/// Decode an image into fixed-capacity storage.
+pub fn decode<const L: usize, const J: usize>(bytes: &[u8]) -> Result<ImageNetwork<L, J>, ImageError> {
+    let body = body(bytes)?;
+    let (net, rest) = postcard::take_from_bytes::<ImageNetwork<L, J>>(body).map_err(|_| ImageError::Body)?;
+    if !rest.is_empty() {
+        return Err(ImageError::TrailingBytes);
+    }
+    Ok(net)
+}
+
+impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize> Solver<P, PORTS, JUNCS, MEM> {
+    /// Decode an image and load its network (header, CRC, body, then topology validation).
+    pub fn load_image(&mut self, bytes: &[u8]) -> Result<(), ImageError> {
+        let net = decode::<PORTS, JUNCS>(bytes)?;
+        self.load(&net.network()).map_err(ImageError::Network)
+    }
+}
