@@ -10,9 +10,9 @@
 //! zero (see the crate documentation).
 
 use crate::error::{BuildError, ConfigError, Table};
-use crate::network::{Drive, Junction, Network, ProbeKind, Shunt, Side, MAX_PROBES, MAX_RIG_LATENCY};
+use crate::network::{Drive, ElementKind, Junction, Network, ProbeKind, Shunt, Side, MAX_PROBES, MAX_RIG_LATENCY};
 use crate::profile::{reciprocal, Profile};
-use crate::solver::{DriveRt, JunctionRt, Mode, ProbeRt, Solver};
+use crate::solver::{DriveRt, ElementRt, JunctionRt, Mode, ProbeRt, Solver};
 
 /// Largest exponent of the weight unit: g62 = floor(2^62 / Z) fits a u64 for Z >= 1 mΩ.
 const TOP: u32 = 62;
@@ -31,6 +31,10 @@ fn cap(table: Table, needed: usize, capacity: usize) -> Result<(), BuildError> {
 
 fn w_top(milliohm: u32) -> u64 {
     (1u64 << TOP) / milliohm.max(1) as u64
+}
+
+fn w_top_wide(milliohm: u64) -> u64 {
+    (1u64 << TOP) / milliohm.max(1)
 }
 
 fn mode_of(short: bool, broken: bool) -> Mode {
@@ -59,7 +63,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
     fn load_inner(&mut self, net: &Network<'_>) -> Result<(), BuildError> {
         let nl = net.lines.len();
         let nj = net.junctions.len();
-        cap(Table::Ports, nl * 2, PORTS)?;
+        let ne = net.elements.len();
+        cap(Table::Ports, nl * 2 + ne, PORTS)?;
         cap(Table::Junctions, nj, JUNCS)?;
         cap(Table::Probes, net.probes.len(), MAX_PROBES)?;
         cap(Table::Lines, nl, u16::MAX as usize)?;
@@ -83,6 +88,14 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
         let ends_at = |j: usize| {
             net.lines.iter().map(|l| (l.a as usize == j) as u16 + (l.b as usize == j) as u16).sum::<u16>()
         };
+        let elems_at = |j: usize| net.elements.iter().filter(|e| e.junction as usize == j).count() as u16;
+        let ports_at = |j: usize| ends_at(j) + elems_at(j);
+        for (k, e) in net.elements.iter().enumerate() {
+            let ok = matches!(net.junctions.get(e.junction as usize), Some(Junction::Node { .. }));
+            if !ok || e.port_milliohm == 0 {
+                return Err(BuildError::BadElement { element: k as u16 });
+            }
+        }
 
         // Junction shape checks.
         let mut series_z = [0u32; JUNCS];
@@ -142,7 +155,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
                 match net.junctions.get(j) {
                     None => return Err(BuildError::IndexOutOfRange { table: Table::Junctions, index: junction }),
                     Some(Junction::Series { .. }) => return Err(BuildError::DriveOnSeries { junction }),
-                    Some(Junction::Node { shunt: Shunt::Open }) if ends_at(j) == 1 => {}
+                    Some(Junction::Node { shunt: Shunt::Open }) if ends_at(j) == 1 && elems_at(j) == 0 => {}
                     Some(_) => return Err(BuildError::BadRigNode { junction }),
                 }
                 let line = net.lines.iter().position(|l| l.a as usize == j || l.b as usize == j);
@@ -167,7 +180,17 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
                     p += 1;
                 }
             }
+            for (k, e) in net.elements.iter().enumerate() {
+                if e.junction as usize == j {
+                    let rp = e.port_milliohm as u128;
+                    let mu = (rp << P::SERIES_FRAC) / (rp + e.series_milliohm as u128);
+                    let negate = matches!(e.kind, ElementKind::Inductor);
+                    self.elements[k] = ElementRt { port: p as u16, mu: mu as u32, negate };
+                    p += 1;
+                }
+            }
         }
+        self.n_elements = ne;
         self.n_ports = p;
         self.n_lines = nl;
 
@@ -198,6 +221,15 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
                 mem = end;
             }
         }
+        // Each reactance keeps its state in a ring of one sample that feeds itself.
+        for el in self.elements.iter().take(ne) {
+            let port = el.port as usize;
+            cap(Table::DelayStorage, mem + 1, MEM)?;
+            self.partner[port] = port as u16;
+            self.start[port] = mem as u32;
+            self.end[port] = mem as u32 + 1;
+            mem += 1;
+        }
         self.mem_used = mem;
 
         // Weight exponent: the largest c with every node's Σ g + g_src within the budget.
@@ -208,6 +240,12 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
                 .iter()
                 .map(|l| ((l.a as usize == j) as u64 + (l.b as usize == j) as u64) * (w_top(l.z_milliohm) >> k))
                 .sum();
+            s += net
+                .elements
+                .iter()
+                .filter(|e| e.junction as usize == j)
+                .map(|e| w_top_wide(e.port_milliohm as u64 + e.series_milliohm as u64) >> k)
+                .sum::<u64>();
             if src_j == Some(j) {
                 s += w_top(src_mohm) >> k;
             }
@@ -227,12 +265,15 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
             self.g[self.port_of[2 * i] as usize] = g as u32;
             self.g[self.port_of[2 * i + 1] as usize] = g as u32;
         }
+        for (el, e) in self.elements.iter().zip(net.elements.iter()) {
+            self.g[el.port as usize] = (w_top_wide(e.port_milliohm as u64 + e.series_milliohm as u64) >> k) as u32;
+        }
 
         // Junction run-time records.
         let mut first = 0usize;
         for (j, junc) in net.junctions.iter().enumerate() {
             let junction = j as u16;
-            let count = ends_at(j) as usize;
+            let count = ports_at(j) as usize;
             let rt = match *junc {
                 _ if rig.map_or(false, |r| r.0 == j) => JunctionRt::Rig { port: first as u16 },
                 Junction::Node { shunt } => {
@@ -285,7 +326,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
         let port_at = |j: usize| {
             let mut first = 0usize;
             for jj in 0..j {
-                first += ends_at(jj) as usize;
+                first += ports_at(jj) as usize;
             }
             first as u16
         };

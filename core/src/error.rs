@@ -34,6 +34,9 @@ pub enum BuildError {
     /// A series junction joins two lines of different impedance. Split one sample of
     /// the first line off as a line of its own impedance instead (the host compiler does).
     SeriesImpedanceMismatch { junction: u16 },
+    /// A reactive element hangs from something that is not a node, or has zero port
+    /// resistance.
+    BadElement { element: u16 },
     /// A rig port node must hold exactly one line end and no shunt.
     BadRigNode { junction: u16 },
     /// A drive is placed on a series junction.
@@ -67,6 +70,9 @@ impl fmt::Display for BuildError {
             }
             SeriesImpedanceMismatch { junction } => {
                 write!(f, "series junction {junction}: the two lines have different impedances")
+            }
+            BadElement { element } => {
+                write!(f, "element {element}: must hang from a node and have a port resistance > 0")
             }
             BadRigNode { junction } => {
                 write!(f, "rig port junction {junction}: needs exactly one line end and no shunt")

@@ -17,7 +17,7 @@
 //! the topology. Every failure is an error value, never a panic.
 
 use crate::error::BuildError;
-use crate::network::{Drive, Junction, Line, Network, Probe, MAX_PROBES};
+use crate::network::{Drive, Element, Junction, Line, Network, Probe, MAX_PROBES};
 use crate::profile::Profile;
 use crate::solver::Solver;
 use core::fmt;
@@ -101,6 +101,7 @@ impl core::error::Error for ImageError {}
 pub struct ImageNetwork<const L: usize, const J: usize> {
     lines: heapless::Vec<Line, L>,
     junctions: heapless::Vec<Junction, J>,
+    elements: heapless::Vec<Element, L>,
     drive: Drive,
     probes: heapless::Vec<Probe, MAX_PROBES>,
     io_shift: u8,
@@ -113,6 +114,7 @@ impl<const L: usize, const J: usize> ImageNetwork<L, J> {
         Network {
             lines: &self.lines,
             junctions: &self.junctions,
+            elements: &self.elements,
             drive: self.drive,
             probes: &self.probes,
             io_shift: self.io_shift,

@@ -73,6 +73,36 @@ pub enum Drive {
 /// The largest rig latency the core can take out of a line, in samples.
 pub const MAX_RIG_LATENCY: u16 = 63;
 
+/// What a reactive one-port stores.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+#[non_exhaustive]
+pub enum ElementKind {
+    /// A capacitor: port resistance T/(2C), b[n] = a[n − 1] (bilinear transform).
+    Capacitor,
+    /// An inductor: port resistance 2L/T, b[n] = −a[n − 1] (bilinear transform).
+    Inductor,
+}
+
+/// A reactive one-port from a node to return, optionally in series with a resistor
+/// (for example a receiver's input capacitance, or an AC termination R + C).
+///
+/// Wave model (bilinear transform, Fettweis): the reactance is a port of resistance
+/// `port_milliohm` whose reflected wave is its incident wave one sample earlier (negated for
+/// an inductor). With a series resistor R_s the node sees one port of resistance
+/// R_p + R_s, and the reactance receives a_c = b + μ·(a − b) with μ = R_p/(R_p + R_s).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Element {
+    /// The node it hangs from.
+    pub junction: JunctionId,
+    pub kind: ElementKind,
+    /// Port resistance of the reactance, milliohms (> 0): T/(2C) or 2L/T.
+    pub port_milliohm: u32,
+    /// Resistor in series with it, milliohms (0: none).
+    pub series_milliohm: u32,
+}
+
 /// Which end of a line.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -109,6 +139,8 @@ pub const MAX_PROBES: usize = 8;
 pub struct Network<'a> {
     pub lines: &'a [Line],
     pub junctions: &'a [Junction],
+    /// Reactive one-ports at nodes.
+    pub elements: &'a [Element],
     pub drive: Drive,
     pub probes: &'a [Probe],
     /// Waves carry `io_shift` more fractional bits than I/O codes: wave = code · 2^io_shift.

@@ -58,6 +58,9 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     /// Largest total node weight the profile's division handles (larger shunts are capped
     /// there, which changes a near-short by less than 2^-15 of its reflection).
     const TOTAL_MAX: u64;
+    /// Reactance adaptor: a_c = trunc(b + μ·(a − b)) toward zero from its exact value, μ in
+    /// `SERIES_FRAC` fractional bits (μ <= 1), negated when `negate` (an inductor).
+    fn adapt(b: Self::Wave, a: Self::Wave, mu: u32, negate: bool) -> Self::Wave;
     /// Input code to wave: sat(code · 2^shift).
     fn from_code(code: i16, shift: u32) -> Self::Wave;
     /// Wave (or a sum of two waves, as i32) to output code: sat(trunc(x / 2^shift)).
@@ -186,6 +189,16 @@ impl Profile for Wide {
         (t(n1), t(n2))
     }
     #[inline(always)]
+    fn adapt(b: i32, a: i32, mu: u32, negate: bool) -> i32 {
+        // |b·2^30| <= 2^61, |μ·(a − b)| <= 2^30·2^32: exact in i64.
+        let n = (b as i64)
+            .wrapping_shl(Self::SERIES_FRAC)
+            .wrapping_add((mu as i64).wrapping_mul((a as i64).wrapping_sub(b as i64)));
+        let m = apply_sign64((n.unsigned_abs() >> Self::SERIES_FRAC) as i64, n >> 63);
+        let m = if negate { m.wrapping_neg() } else { m };
+        m.clamp(i32::MIN as i64, i32::MAX as i64) as i32
+    }
+    #[inline(always)]
     fn from_code(code: i16, shift: u32) -> i32 {
         (code as i32).wrapping_shl(shift) // shift <= 15 keeps |code·2^shift| < 2^31
     }
@@ -248,6 +261,15 @@ impl Profile for Narrow {
         let n2 = (b2 as i32).wrapping_shl(Self::SERIES_FRAC).wrapping_add(cx);
         let t = |n: i32| sat_i16(apply_sign32((n.unsigned_abs() >> Self::SERIES_FRAC) as i32, n >> 31));
         (t(n1), t(n2))
+    }
+    #[inline(always)]
+    fn adapt(b: i16, a: i16, mu: u32, negate: bool) -> i16 {
+        // |b·2^14| <= 2^29, |μ·(a − b)| <= 2^14·2^16: exact in i32.
+        let n = (b as i32)
+            .wrapping_shl(Self::SERIES_FRAC)
+            .wrapping_add((mu as i32).wrapping_mul((a as i32).wrapping_sub(b as i32)));
+        let m = apply_sign32((n.unsigned_abs() >> Self::SERIES_FRAC) as i32, n >> 31);
+        sat_i16(if negate { m.wrapping_neg() } else { m })
     }
     #[inline(always)]
     fn from_code(code: i16, _shift: u32) -> i16 {

@@ -51,6 +51,14 @@ pub(crate) enum JunctionRt {
     Rig { port: u16 },
 }
 
+/// A reactive one-port's port and adaptor coefficient.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) struct ElementRt {
+    pub port: u16,
+    pub mu: u32,
+    pub negate: bool,
+}
+
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub(crate) enum DriveRt {
     None,
@@ -84,6 +92,8 @@ pub struct Solver<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM:
     pub(crate) b: [P::Wave; PORTS],
     pub(crate) mem: [P::Wave; MEM],
     pub(crate) juncs: [JunctionRt; JUNCS],
+    pub(crate) elements: [ElementRt; PORTS],
+    pub(crate) n_elements: usize,
     pub(crate) probes: [ProbeRt; MAX_PROBES],
     pub(crate) probe_out: [i32; MAX_PROBES],
     pub(crate) hist: [P::Wave; HIST],
@@ -116,6 +126,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
             b: [P::ZERO; PORTS],
             mem: [P::ZERO; MEM],
             juncs: [JunctionRt::Unused; JUNCS],
+            elements: [ElementRt { port: 0, mu: 0, negate: false }; PORTS],
+            n_elements: 0,
             probes: [ProbeRt { current: false, port: 0, z_milliohm: 1 }; MAX_PROBES],
             probe_out: [0; MAX_PROBES],
             hist: [P::ZERO; HIST],
@@ -190,6 +202,17 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
                 P::to_code(P::sum(b, b), self.io_shift)
             }
         };
+
+        // Reactances: the wave a node sent into an element port becomes the element's new
+        // state (its next b), through the series-resistor adaptor.
+        let n_el = self.n_elements.min(PORTS);
+        for el in self.elements.iter().take(n_el) {
+            let i = el.port as usize;
+            let b = self.b.get(i).copied().unwrap_or(P::ZERO);
+            if let Some(a) = self.a.get_mut(i) {
+                *a = P::adapt(b, *a, el.mu, el.negate);
+            }
+        }
 
         self.propagate();
         output
@@ -266,6 +289,18 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
         }
     }
 
+    /// The DAC drive code the next `step` of a rig port will return (it depends only on
+    /// waves already in the lines, not on the pin voltage about to be read); 0 without a rig.
+    pub fn rig_drive(&self) -> i16 {
+        match self.drive {
+            DriveRt::Rig { port } => {
+                let b = self.b.get(port as usize).copied().unwrap_or(P::ZERO);
+                P::to_code(P::sum(b, b), self.io_shift)
+            }
+            _ => 0,
+        }
+    }
+
     /// Run a block: `output[k] = step(input[k])` for the common length of both slices.
     pub fn process(&mut self, input: &[i16], output: &mut [i16]) {
         for (x, y) in input.iter().zip(output.iter_mut()) {
@@ -289,6 +324,18 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
         self.mem.iter().take(self.mem_used).all(|w| *w == z)
             && self.a.iter().take(self.n_ports).all(|w| *w == z)
             && self.b.iter().take(self.n_ports).all(|w| *w == z)
+    }
+
+    /// The waves (a, b) at one end of a line after the last step, raw wave LSBs (read-out
+    /// for host views such as the lattice map; (0, 0) for a line that does not exist).
+    pub fn line_end_waves(&self, line: usize, side_b: bool) -> (i32, i32) {
+        if line >= self.n_lines {
+            return (0, 0);
+        }
+        let p = self.port_of.get(2 * line + side_b as usize).copied().unwrap_or(0) as usize;
+        let a = self.a.get(p).copied().unwrap_or(P::ZERO).into();
+        let b = self.b.get(p).copied().unwrap_or(P::ZERO).into();
+        (a, b)
     }
 
     /// Number of configured probes.

@@ -1,4 +1,4 @@
+//! The `tidewire` command: see `tidewire --help`.
 fn main() {
-    eprintln!("tidewire: command line not built yet");
-    std::process::exit(2);
+    std::process::exit(tidewire_host::cli::main());
 }

@@ -2,13 +2,14 @@
 #![allow(dead_code)]
 
 use proptest::prelude::*;
-use tidewire_core::{Drive, Junction, Line, Network, Probe, ProbeKind, Shunt, Side};
+use tidewire_core::{Drive, Element, Junction, Line, Network, Probe, ProbeKind, Shunt, Side};
 
 /// An owned network description for tests.
 #[derive(Debug, Clone)]
 pub struct Owned {
     pub lines: Vec<Line>,
     pub junctions: Vec<Junction>,
+    pub elements: Vec<Element>,
     pub drive: Drive,
     pub probes: Vec<Probe>,
     pub io_shift: u8,
@@ -19,6 +20,7 @@ impl Owned {
         Network {
             lines: &self.lines,
             junctions: &self.junctions,
+            elements: &self.elements,
             drive: self.drive,
             probes: &self.probes,
             io_shift: self.io_shift,
@@ -125,7 +127,7 @@ pub fn network(loads: Loads, max_delay: u32, io_shift: u8) -> impl Strategy<Valu
                         side: if side_b { Side::B } else { Side::A },
                     })
                     .collect();
-                Owned { lines, junctions, drive: Drive::Source { junction: 0, milliohm: rs }, probes, io_shift }
+                Owned { lines, junctions, elements: Vec::new(), drive: Drive::Source { junction: 0, milliohm: rs }, probes, io_shift }
             })
     })
 }

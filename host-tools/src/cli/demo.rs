@@ -1,0 +1,41 @@
+//! `tidewire demo`: the main job on a built-in demo plant.
+use super::inspect::report_text;
+use super::output::write_outputs;
+use super::verify_cmd::{verdict_text, verify_and_write};
+use super::{io_failure, Failure};
+use crate::compile::{compile, ProfileKind};
+use crate::plant::parse_plant;
+use std::path::Path;
+
+/// The built-in demo plant: a packaging-line fieldbus with a missing far-end terminator.
+pub const DEMO_PLANT: &str = include_str!("../../../examples/plants/packaging-line.toml");
+const DEMO_NAME: &str = "packaging-line.toml";
+
+pub(super) fn run(out: &Path) -> Result<i32, Failure> {
+    std::fs::create_dir_all(out).map_err(|e| io_failure(out, e))?;
+    let plant_path = out.join(DEMO_NAME);
+    crate::emit::write_atomic(&plant_path, DEMO_PLANT.as_bytes()).map_err(|e| io_failure(&plant_path, e))?;
+    let file = plant_path.display().to_string();
+    let plant = parse_plant(DEMO_PLANT, &file, out)?;
+    println!("tidewire demo: the built-in plant \"{}\", written to {}\n", plant.name, plant_path.display());
+
+    let c = compile(&plant, &file, ProfileKind::Wide)?;
+    print!("{}", report_text(&plant, &c, &file));
+    println!();
+    write_outputs(&c, &plant.name, Some(&out.join("plant-wide.bin")), Some(&out.join("plant-wide.rs")))?;
+    let narrow = compile(&plant, &file, ProfileKind::Narrow)?;
+    write_outputs(&narrow, &plant.name, Some(&out.join("plant-narrow.bin")), None)?;
+
+    let csv = out.join("simulate.csv");
+    let r = crate::run::run_core(&c, c.samples, &[], &|_| {}).map_err(|e| Failure { code: 2, message: format!("error: {e}") })?;
+    let bytes = super::simulate::probes_csv(&c.probe_names, c.dt, &[("", &r.run.probes)]).map_err(|e| io_failure(&csv, e))?;
+    crate::emit::write_atomic(&csv, &bytes).map_err(|e| io_failure(&csv, e))?;
+    println!("wrote simulation  {} ({} samples, fixed-point core)", csv.display(), c.samples);
+
+    let (svg, lat, vcsv) = (out.join("verify-waveforms.svg"), out.join("verify-lattice.svg"), out.join("verify.csv"));
+    let v = verify_and_write(&plant, &c, &file, Some(&svg), Some(&lat), Some(&vcsv))?;
+    println!("wrote pictures    {} and {}", svg.display(), lat.display());
+    println!("wrote comparison  {}\n", vcsv.display());
+    print!("{}", verdict_text(&plant, &c, &v));
+    Ok(if v.pass() { 0 } else { 1 })
+}

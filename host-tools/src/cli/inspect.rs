@@ -1,0 +1,127 @@
+//! `tidewire inspect`: what the compiled emulation will be, in the engineer's units.
+use super::{load_and_compile, Failure};
+use crate::compile::{Compiled, ProfileKind};
+use crate::plant::Plant;
+use std::fmt::Write as _;
+use std::path::Path;
+
+/// Drive EMF above which the report carries the high-voltage caution (the upper bound of
+/// extra-low voltage, 50 V AC / 120 V DC, rounded down to one figure [practice]).
+pub const CAUTION_VOLTS: f64 = 50.0;
+
+/// The caution printed for plants with high-voltage drives.
+pub const CAUTION: &str = "CAUTION: this plant models a high-voltage drive. tidewire only computes; a rig that \
+connects to drive outputs, mains or other hazardous voltages must be designed, built and operated by qualified \
+people under your local electrical codes and licensed practice (isolation, enclosures, interlocks, discharge). \
+Never attach a low-voltage rig port directly to such a circuit.";
+
+fn eng(v: f64, unit: &str) -> String {
+    let a = v.abs();
+    let (s, p) = if a == 0.0 {
+        (1.0, "")
+    } else if a < 1e-6 {
+        (1e9, "n")
+    } else if a < 1e-3 {
+        (1e6, "u")
+    } else if a < 1.0 {
+        (1e3, "m")
+    } else if a < 1e3 {
+        (1.0, "")
+    } else if a < 1e6 {
+        (1e-3, "k")
+    } else {
+        (1e-6, "M")
+    };
+    format!("{:.4} {p}{unit}", v * s)
+}
+
+/// The report as text.
+pub fn report_text(plant: &Plant, c: &Compiled, file: &str) -> String {
+    let r = &c.report;
+    let mut s = String::new();
+    let _ = writeln!(s, "== {} ==  [{}]", plant.name, file);
+    let _ = writeln!(
+        s,
+        "   profile {} | sample rate {} | sample {} | run {} samples ({})",
+        c.profile.name(),
+        eng(1.0 / c.dt, "Hz"),
+        eng(c.dt, "s"),
+        c.samples,
+        eng(c.samples as f64 * c.dt, "s")
+    );
+    if r.peak_emf >= CAUTION_VOLTS {
+        let _ = writeln!(s, "\n!! {CAUTION}");
+    }
+    for n in &r.notes {
+        let _ = writeln!(s, "   note: {n}");
+    }
+    let _ = writeln!(s, "\n-- segments: delay on the sample grid");
+    let _ = writeln!(s, "   {:<18} {:<20} {:>9} {:>7} {:>11} {:>6} {:>22} {:>10} {:>4}", "segment", "cable", "length", "Z0", "tau", "delay", "timing error", "R loop", "sec");
+    for t in &r.segments {
+        let _ = writeln!(
+            s,
+            "   {:<18} {:<20} {:>7.2} m {:>7.1} {:>11} {:>6} {:>12} ({:>+6.2} %) {:>8.3} Ω {:>4}{}",
+            t.name,
+            t.cable,
+            t.length,
+            t.z0,
+            eng(t.tau, "s"),
+            t.delay,
+            eng(t.error_s, "s"),
+            100.0 * t.error_s / t.tau,
+            t.r_total,
+            t.sections,
+            if t.r_dropped { "  (R dropped: one-sample segment)" } else { "" }
+        );
+    }
+    let _ = writeln!(s, "\n-- reflection coefficient for a wave arriving at a node on a segment (resistive parts)");
+    for g in &r.reflections {
+        let _ = writeln!(s, "   {:<14} <- {:<18} Γ = {:+.4}", g.node, g.segment, g.gamma);
+    }
+    if !r.dc.is_empty() {
+        let _ = writeln!(s, "\n-- DC operating point, drive at its final value");
+        for (n, v) in &r.dc {
+            let _ = writeln!(s, "   {:<14} {}", n, eng(*v, "V"));
+        }
+    }
+    let _ = writeln!(s, "\n-- fixed point");
+    let _ = writeln!(
+        s,
+        "   one I/O code = {}, waves carry {} more fraction bits (one wave LSB = {})",
+        eng(c.volts_per_code as f64, "V"),
+        c.io_shift,
+        eng(c.volts_per_lsb(), "V")
+    );
+    let _ = writeln!(
+        s,
+        "   largest wave {} (f64 twin, this drive); wave range {}; headroom x{:.1}",
+        eng(r.peak_wave, "V"),
+        eng(r.wave_range, "V"),
+        r.headroom
+    );
+    let _ = writeln!(s, "   largest line impedance error from weight quantization: {:.2e} (relative)", r.max_impedance_error);
+    let worst = r.segments.iter().map(|t| (t.error_s / t.tau).abs()).fold(0.0, f64::max);
+    let _ = writeln!(s, "   largest delay quantization error: {:.3} % of a segment's delay", 100.0 * worst);
+    let _ = writeln!(s, "\n-- storage and work per sample");
+    let wide_kb = (r.memory_waves * 4 + r.ports * 30) as f64 / 1024.0;
+    let narrow_kb = (r.memory_waves * 2 + r.ports * 26) as f64 / 1024.0;
+    let _ = writeln!(
+        s,
+        "   {} line ends (port updates per sample), {} junctions, {} waves of delay storage",
+        r.ports, r.junctions, r.memory_waves
+    );
+    let _ = writeln!(s, "   RAM about {wide_kb:.1} KiB (wide) / {narrow_kb:.1} KiB (narrow)");
+    for b in crate::compile::budget::budgets(r.ports, r.junctions) {
+        let _ = writeln!(s, "   {b}");
+    }
+    for w in &r.warnings {
+        let _ = writeln!(s, "\n!! warning: {w}");
+    }
+    s
+}
+
+pub(super) fn run(path: &Path, profile: ProfileKind) -> Result<i32, Failure> {
+    let (plant, c) = load_and_compile(path, profile)?;
+    print!("{}", report_text(&plant, &c, &path.display().to_string()));
+    Ok(0)
+}

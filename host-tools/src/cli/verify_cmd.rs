@@ -1,0 +1,167 @@
+//! `tidewire verify`: figures, pictures, verdict.
+use super::output::progress;
+use super::simulate::probes_csv;
+use super::{io_failure, load_and_compile, Failure};
+use crate::compile::{Compiled, ProfileKind};
+use crate::plant::Plant;
+use crate::plot::{write_lattice, write_waveforms, LatticeMap, Series, WaveformPlot};
+use crate::verify::{lattice, verify, Traces, Verification};
+use std::fmt::Write as _;
+use std::path::Path;
+
+fn ok(b: bool) -> &'static str {
+    if b {
+        "ok"
+    } else {
+        "FAIL"
+    }
+}
+
+fn si(v: f64, unit: &str) -> String {
+    let a = v.abs();
+    let (s, p) = if a == 0.0 || a >= 1.0 {
+        (1.0, "")
+    } else if a >= 1e-3 {
+        (1e3, "m")
+    } else if a >= 1e-6 {
+        (1e6, "u")
+    } else {
+        (1e9, "n")
+    };
+    format!("{:.4} {p}{unit}", v * s)
+}
+
+/// The verdict as text.
+pub fn verdict_text(plant: &Plant, c: &Compiled, v: &Verification) -> String {
+    let t = &v.tolerances;
+    let mut s = String::new();
+    let _ = writeln!(s, "== verify: {} ==  core ({}) against the exact reference and the f64 twin", plant.name, c.profile.name());
+    let _ = writeln!(
+        s,
+        "   drive step {}; {} samples; exact reference over the first {} (Laplace wrap bound {:.1e} of the step)",
+        si(v.step, "V"),
+        v.samples,
+        v.exact_samples,
+        v.wrap_bound
+    );
+    if v.exact_samples < v.samples {
+        let _ = writeln!(s, "   the plant has scheduled events: after the first one, only the twin is compared");
+    }
+    let mut fails = 0;
+    for p in &v.probes {
+        let u = p.unit;
+        let pct = |x: f64| 100.0 * x / p.norm;
+        let _ = writeln!(s, "\n-- {} [{}]   (% of {})", p.name, u, si(p.norm, u));
+        let _ = writeln!(
+            s,
+            "   error vs exact   max {} ({:.3} %), rms {} ({:.3} %)   limits {:.2} % / {:.2} %   {} / {}",
+            si(p.max_error, u),
+            pct(p.max_error),
+            si(p.rms_error, u),
+            pct(p.rms_error),
+            100.0 * t.max_error,
+            100.0 * t.rms_error,
+            ok(p.pass_max),
+            ok(p.pass_rms)
+        );
+        let _ = writeln!(s, "   split            arithmetic (core - twin) {}, model (twin - exact) {}", si(p.arithmetic_error, u), si(p.model_error, u));
+        let f = |x: Option<f64>| x.map_or("none".to_string(), |v| format!("{v:.2}"));
+        let _ = writeln!(
+            s,
+            "   first edge       core {} samples, exact {} samples   limit {} samples   {}",
+            f(p.arrival_core),
+            f(p.arrival_exact),
+            t.arrival_samples,
+            ok(p.pass_arrival)
+        );
+        let _ = writeln!(
+            s,
+            "   final value      core {}, expected {} ({:+.3} %)   limit {:.2} %   {}",
+            si(p.final_core, u),
+            si(p.final_expected, u),
+            pct(p.final_core - p.final_expected),
+            100.0 * t.final_error,
+            ok(p.pass_final)
+        );
+        let st = |x: Option<f64>| x.map_or("not settled".to_string(), |v| si(v, "s"));
+        let _ = writeln!(s, "   settling         to 1 %: {}, to 5 %: {} after the drive edge", st(p.settle_1), st(p.settle_5));
+        let _ = writeln!(s, "   overshoot        {:+.2} %, undershoot {:.2} %", 100.0 * p.overshoot, 100.0 * p.undershoot);
+        if !p.pass() {
+            fails += 1;
+        }
+    }
+    if fails == 0 {
+        let _ = writeln!(s, "\n== PASS: {} probes within tolerance", v.probes.len());
+    } else {
+        let _ = writeln!(s, "\n== FAIL: {fails} of {} probes outside tolerance", v.probes.len());
+    }
+    s
+}
+
+/// Write the waveform picture.
+pub(crate) fn write_svg(path: &Path, c: &Compiled, tr: &Traces) -> Result<(), Failure> {
+    let plots: Vec<WaveformPlot> = c
+        .probe_names
+        .iter()
+        .enumerate()
+        .map(|(k, (name, unit))| WaveformPlot {
+            title: name,
+            dt: c.dt,
+            unit,
+            emulated: Series { label: "tidewire core", values: &tr.core.run.probes[k][..tr.exact_len.min(tr.core.run.probes[k].len())] },
+            reference: Series { label: "exact reference", values: &tr.exact[k] },
+            extra: vec![],
+        })
+        .collect();
+    write_waveforms(path, &plots).map_err(|e| io_failure(path, e))
+}
+
+/// Write the lattice picture.
+pub(crate) fn write_lattice_svg(path: &Path, plant: &Plant, c: &Compiled, lp: &lattice::Path, tr: &Traces) -> Result<(), Failure> {
+    let (positions, values) = lattice::map(c, lp, &tr.core.run.line_a);
+    let names: Vec<(f64, &str)> = lp.boundaries.iter().map(|(x, n)| (*x, n.as_str())).collect();
+    let title = format!("{}: voltage along the path (tidewire core)", plant.name);
+    let map = LatticeMap { title: &title, dt: c.dt, positions: &positions, values: &values, boundaries: &names };
+    write_lattice(path, &map).map_err(|e| io_failure(path, e))
+}
+
+/// Run verify and write the requested files; returns (verification, lattice path).
+pub(crate) fn verify_and_write(
+    plant: &Plant,
+    c: &Compiled,
+    file: &str,
+    svg: Option<&Path>,
+    lat: Option<&Path>,
+    csv: Option<&Path>,
+) -> Result<Verification, Failure> {
+    let lp = lattice::layout(plant, c);
+    let record: Vec<u16> = match (&lp, lat) {
+        (Some(p), Some(_)) => p.lines.iter().map(|l| l.0).collect(),
+        _ => vec![],
+    };
+    let pb = progress(c.samples, "verify");
+    let (v, tr) = verify(plant, file, c, &record, &|k| pb.set_position(k as u64))?;
+    pb.finish_and_clear();
+    if let Some(p) = svg {
+        write_svg(p, c, &tr)?;
+    }
+    if let (Some(p), Some(lp)) = (lat, &lp) {
+        write_lattice_svg(p, plant, c, lp, &tr)?;
+    }
+    if let Some(p) = csv {
+        let bytes = probes_csv(&c.probe_names, c.dt, &[("core", &tr.core.run.probes), ("twin", &tr.twin.probes), ("exact", &tr.exact)])
+            .map_err(|e| io_failure(p, e))?;
+        crate::emit::write_atomic(p, &bytes).map_err(|e| io_failure(p, e))?;
+    }
+    Ok(v)
+}
+
+pub(super) fn run(path: &Path, svg: Option<&Path>, lat: Option<&Path>, csv: Option<&Path>, profile: ProfileKind) -> Result<i32, Failure> {
+    let (plant, c) = load_and_compile(path, profile)?;
+    let v = verify_and_write(&plant, &c, &path.display().to_string(), svg, lat, csv)?;
+    print!("{}", verdict_text(&plant, &c, &v));
+    for p in [svg, lat, csv].into_iter().flatten() {
+        println!("wrote {}", p.display());
+    }
+    Ok(if v.pass() { 0 } else { 1 })
+}

@@ -1,0 +1,318 @@
+//! The physics compiler: a [`Plant`] in metres and ohms becomes a core [`Network`] in
+//! samples and milliohms, with a report of every error the quantization introduces.
+//!
+//! * delays: each segment's one-way delay τ = length / v is rounded to whole samples; the
+//!   timing error is reported in ns and %; a segment shorter than half a sample is refused
+//!   with the sample rate it would need;
+//! * conductor resistance: a segment with loop resistance R = r'·length is cut into n
+//!   sections and each section's R/n sits in the middle of the section (series junction
+//!   between two halves of the same cable), so the DC operating point obeys Ohm's law
+//!   exactly; n is chosen so that each section has R/(n·Z0) <= [`SECTION_R_OVER_Z0`];
+//! * loads: resistors as shunts, capacitors as bilinear-transform elements
+//!   (port resistance T/(2C)); series and parallel RC terminations;
+//! * rig port: the rig's latency is taken out of the first line by the core; the
+//!   compiler keeps that line long enough;
+//! * fixed point: the scale (volts per I/O code) is chosen from the largest wave of the
+//!   f64 twin for the plant's own drive, with headroom (see [`scale`]).
+pub mod budget;
+mod loads;
+mod report;
+mod scale;
+mod segments;
+
+pub use report::{Report, SegmentTiming};
+pub use segments::{LinePiece, SECTION_R_OVER_Z0};
+
+use crate::plant::{Drive as PlantDrive, EventAction, Load, Plant, ProbeKind as PlantProbe, End, PlantError, Span};
+use tidewire_core::{Drive, Element, Junction, JunctionId, Line, Network, Probe, ProbeKind, Shunt, Side};
+
+/// Which number profile a configuration is compiled for.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum ProfileKind {
+    /// 32-bit waves (Cortex-M4 class).
+    Wide,
+    /// 16-bit waves (Cortex-M0 class).
+    Narrow,
+}
+
+impl ProfileKind {
+    /// Name used on the command line and in reports.
+    pub fn name(self) -> &'static str {
+        match self {
+            ProfileKind::Wide => "wide",
+            ProfileKind::Narrow => "narrow",
+        }
+    }
+}
+
+/// A change the core applies between two samples.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum CoreAction {
+    SetShunt(JunctionId, Shunt),
+    Break(JunctionId),
+}
+
+/// A scheduled change: before sample `sample` is computed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct CoreEvent {
+    pub sample: usize,
+    pub action: CoreAction,
+}
+
+/// How the drive is run on the host.
+#[derive(Debug, Clone, PartialEq)]
+pub enum HostDrive {
+    /// Test source: EMF per sample (V).
+    Source { emf: Vec<f64> },
+    /// Rig port: the device under test is `emf` behind `dut_resistance`, connected to the pin
+    /// that the rig's reference resistor `r_ref` ties to the DAC; `latency` samples.
+    Rig { emf: Vec<f64>, dut_resistance: f64, r_ref: f64, latency: usize },
+}
+
+impl HostDrive {
+    /// The EMF per sample.
+    pub fn emf(&self) -> &[f64] {
+        match self {
+            HostDrive::Source { emf } | HostDrive::Rig { emf, .. } => emf,
+        }
+    }
+}
+
+/// A compiled plant: the core network and what the host needs to run and explain it.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Compiled {
+    pub profile: ProfileKind,
+    pub lines: Vec<Line>,
+    pub junctions: Vec<Junction>,
+    pub elements: Vec<Element>,
+    pub probes: Vec<Probe>,
+    pub drive: Drive,
+    pub io_shift: u8,
+    pub volts_per_code: f32,
+    /// Sample period, s.
+    pub dt: f64,
+    /// Samples of a default run (the plant's duration).
+    pub samples: usize,
+    /// Plant node index → core junction.
+    pub node_junction: Vec<JunctionId>,
+    /// Per plant segment, its core lines from its `from` end to its `to` end.
+    pub segment_pieces: Vec<Vec<LinePiece>>,
+    pub events: Vec<CoreEvent>,
+    pub host_drive: HostDrive,
+    /// Names and units of the probes, in order.
+    pub probe_names: Vec<(String, &'static str)>,
+    pub report: Report,
+}
+
+impl Compiled {
+    /// The core network (borrowing this configuration).
+    pub fn network(&self) -> Network<'_> {
+        Network {
+            lines: &self.lines,
+            junctions: &self.junctions,
+            elements: &self.elements,
+            drive: self.drive,
+            probes: &self.probes,
+            io_shift: self.io_shift,
+            volts_per_code: self.volts_per_code,
+        }
+    }
+
+    /// Volts per wave LSB.
+    pub fn volts_per_lsb(&self) -> f64 {
+        self.volts_per_code as f64 / (1u64 << self.io_shift) as f64
+    }
+}
+
+/// Build a located compile error.
+pub(crate) fn err(file: &str, span: Span, field: impl Into<String>, message: impl Into<String>, hint: impl Into<String>) -> PlantError {
+    PlantError {
+        file: file.to_string(),
+        line: span.line,
+        column: span.column,
+        field: field.into(),
+        message: message.into(),
+        hint: hint.into(),
+    }
+}
+
+/// Compile `plant` (read from `file`, for error messages) for `profile`.
+pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compiled, PlantError> {
+    let dt = 1.0 / plant.sample_rate;
+    let samples = ((plant.duration / dt).round() as usize).max(1);
+    let mut b = segments::Builder::new(plant, file, dt);
+
+    // Junctions for the plant's nodes first, so node n is junction n.
+    let mut node_elements = Vec::new();
+    for (i, node) in plant.nodes.iter().enumerate() {
+        let (shunt, els) = loads::realize(&node.load, dt, file, node.span, &format!("node.{}.load", node.name))?;
+        b.junctions.push(Junction::Node { shunt });
+        for (kind, port, series) in els {
+            node_elements.push(Element { junction: i as JunctionId, kind, port_milliohm: port, series_milliohm: series });
+        }
+    }
+    let node_junction: Vec<JunctionId> = (0..plant.nodes.len()).map(|i| i as JunctionId).collect();
+
+    // The rig port's node and latency, to keep its first line long enough.
+    let rig = match &plant.drive {
+        PlantDrive::Rig { node, latency, .. } => Some((*node, *latency)),
+        _ => None,
+    };
+    let mut break_junction = Vec::new();
+    for (si, seg) in plant.segments.iter().enumerate() {
+        let cuts: Vec<(usize, f64)> = plant
+            .events
+            .iter()
+            .enumerate()
+            .filter_map(|(ei, e)| match e.action {
+                EventAction::Break { segment, distance } if segment == si => Some((ei, distance)),
+                _ => None,
+            })
+            .collect();
+        let min_first = rig.and_then(|(n, lat)| (n == seg.from || n == seg.to).then_some(lat));
+        let breaks = b.segment(si, seg, &cuts, min_first)?;
+        break_junction.extend(breaks);
+    }
+    let report_segments = std::mem::take(&mut b.timings);
+    let (lines, mut junctions, segment_pieces) = (b.lines, b.junctions, b.pieces);
+    let mut elements = node_elements;
+    elements.sort_by_key(|e| e.junction);
+
+    // Drive.
+    let (drive, host_drive) = match &plant.drive {
+        PlantDrive::Source { node, emf, rs } => (
+            Drive::Source { junction: node_junction[*node], milliohm: to_milliohm(*rs) },
+            HostDrive::Source { emf: emf.sample(dt, samples) },
+        ),
+        PlantDrive::Rig { node, r_ref, latency, stimulus, dut_resistance, .. } => {
+            let seg = plant.segments.iter().find(|s| s.from == *node || s.to == *node);
+            let z0 = seg.map(|s| plant.cables[s.cable].z0).unwrap_or(*r_ref);
+            if (z0 - r_ref).abs() > 1e-6 * z0 {
+                return Err(err(
+                    file,
+                    plant.nodes[*node].span,
+                    "drive.reference",
+                    format!("the rig's reference resistor is {r_ref} ohm but the cable at the port is {z0} ohm"),
+                    "the emulation is exact only when the reference resistor equals the port's characteristic impedance",
+                ));
+            }
+            if let Some(Junction::Node { shunt }) = junctions.get_mut(*node) {
+                if *shunt != Shunt::Open || elements.iter().any(|e| e.junction as usize == *node) {
+                    return Err(err(
+                        file,
+                        plant.nodes[*node].span,
+                        format!("node.{}.load", plant.nodes[*node].name),
+                        "a rig port node cannot also carry a load",
+                        "remove the load: the device under test is what hangs from the rig port",
+                    ));
+                }
+            }
+            (
+                Drive::Rig { junction: node_junction[*node], latency: *latency as u16 },
+                HostDrive::Rig {
+                    emf: stimulus.sample(dt, samples),
+                    dut_resistance: *dut_resistance,
+                    r_ref: *r_ref,
+                    latency: *latency as usize,
+                },
+            )
+        }
+    };
+
+    // Probes.
+    let mut probes = Vec::new();
+    let mut probe_names = Vec::new();
+    for p in &plant.probes {
+        let probe = match p.kind {
+            PlantProbe::Voltage(n) => {
+                let j = node_junction[n];
+                let (li, l) = lines.iter().enumerate().find(|(_, l)| l.a == j || l.b == j).ok_or_else(|| {
+                    err(file, plant.nodes[n].span, format!("probe[{}].node", p.name), "node has no segment", "probe a connected node")
+                })?;
+                Probe { kind: ProbeKind::Voltage, line: li as u16, side: if l.a == j { Side::A } else { Side::B } }
+            }
+            PlantProbe::Current(s, end) => {
+                let pieces = &segment_pieces[s];
+                let (piece, side) = match end {
+                    End::From => (pieces.first(), Side::A),
+                    End::To => (pieces.last(), Side::B),
+                };
+                let line = piece.map(|p| p.line).unwrap_or(0);
+                Probe { kind: ProbeKind::Current, line, side }
+            }
+        };
+        probe_names.push((p.name.clone(), if matches!(p.kind, PlantProbe::Voltage(_)) { "V" } else { "A" }));
+        probes.push(probe);
+    }
+    if probes.len() > tidewire_core::MAX_PROBES {
+        return Err(err(
+            file,
+            Span::default(),
+            "probe",
+            format!("{} probes, the core reads out at most {}", probes.len(), tidewire_core::MAX_PROBES),
+            "remove some probes",
+        ));
+    }
+
+    // Events.
+    let mut events = Vec::new();
+    let mut brk = break_junction.into_iter();
+    for e in &plant.events {
+        let sample = (e.at / dt).round() as usize;
+        let action = match e.action {
+            EventAction::SetLoad(n, load) => {
+                let shunt = match load {
+                    Load::Open => Shunt::Open,
+                    Load::Short => Shunt::Short,
+                    Load::Resistor(r) => Shunt::Resistor { milliohm: to_milliohm(r) },
+                    _ => {
+                        return Err(err(
+                            file,
+                            e.span,
+                            "event.load",
+                            "a load switched while running must be open, short or a resistor",
+                            "describe the reactive part as the node's permanent load",
+                        ))
+                    }
+                };
+                if elements.iter().any(|el| el.junction as usize == n) && shunt == Shunt::Short {
+                    // A short across a capacitor is still a short; the element keeps its state.
+                }
+                CoreAction::SetShunt(node_junction[n], shunt)
+            }
+            EventAction::Break { .. } => match brk.next() {
+                Some(j) => CoreAction::Break(j),
+                None => continue,
+            },
+        };
+        events.push(CoreEvent { sample, action });
+    }
+    events.sort_by_key(|e| e.sample);
+
+    let mut compiled = Compiled {
+        profile,
+        lines,
+        junctions,
+        elements,
+        probes,
+        drive,
+        io_shift: 0,
+        volts_per_code: 1.0,
+        dt,
+        samples,
+        node_junction,
+        segment_pieces,
+        events,
+        host_drive,
+        probe_names,
+        report: Report { segments: report_segments, ..Report::default() },
+    };
+    scale::choose(&mut compiled, plant, file)?;
+    report::fill(&mut compiled, plant, file)?;
+    Ok(compiled)
+}
+
+/// Ohms to the core's milliohms, rounded, at least 1.
+pub fn to_milliohm(ohm: f64) -> u32 {
+    (ohm * 1000.0).round().clamp(1.0, u32::MAX as f64) as u32
+}

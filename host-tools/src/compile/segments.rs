@@ -1,0 +1,224 @@
+//! Segments to core lines: delay quantization, lumped conductor resistance, break nodes.
+use super::{err, report::SegmentTiming, to_milliohm};
+use crate::plant::{Plant, PlantError, Segment};
+use tidewire_core::{Junction, JunctionId, Line, Shunt};
+
+/// Largest R/Z0 of one lumped section. Each section puts its resistance R/n in its middle;
+/// a finer cut makes the lumped line approach the distributed one. The value 0.05 keeps one
+/// section's step-response error well under 1 % (the reference table in
+/// shared/REFERENCES.md gives 0.05 % matched / 0.8 % mismatched at R/Z0 = 0.1 for one
+/// three-point section [computed, numerical Laplace inversion]).
+pub const SECTION_R_OVER_Z0: f64 = 0.05;
+/// At most this many sections per segment (storage stays bounded).
+pub const MAX_SECTIONS: usize = 64;
+
+/// One core line of a segment: where it lies along the segment, in metres from `from`.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct LinePiece {
+    pub line: u16,
+    pub start_m: f64,
+    pub end_m: f64,
+}
+
+pub(super) struct Builder<'p> {
+    plant: &'p Plant,
+    file: &'p str,
+    dt: f64,
+    pub lines: Vec<Line>,
+    pub junctions: Vec<Junction>,
+    pub pieces: Vec<Vec<LinePiece>>,
+    pub timings: Vec<SegmentTiming>,
+}
+
+impl<'p> Builder<'p> {
+    pub fn new(plant: &'p Plant, file: &'p str, dt: f64) -> Self {
+        Builder { plant, file, dt, lines: vec![], junctions: vec![], pieces: vec![], timings: vec![] }
+    }
+
+    fn new_junction(&mut self, j: Junction) -> Result<JunctionId, PlantError> {
+        let id = self.junctions.len();
+        if id >= u16::MAX as usize {
+            return Err(err(self.file, Default::default(), "segment", "plant too large: more than 65535 junctions", "split the plant"));
+        }
+        self.junctions.push(j);
+        Ok(id as JunctionId)
+    }
+
+    /// Lay out segment `si`; `cuts` are (event index, distance) of breaks; `min_first`
+    /// is the rig latency when one end is the rig port. Returns the break junctions in the
+    /// order of `cuts`.
+    pub fn segment(
+        &mut self,
+        si: usize,
+        seg: &Segment,
+        cuts: &[(usize, f64)],
+        rig_latency: Option<u32>,
+    ) -> Result<Vec<JunctionId>, PlantError> {
+        let cable = &self.plant.cables[seg.cable];
+        let tau = seg.length / cable.velocity;
+        let exact = tau / self.dt;
+        let field = format!("segment[{}].length", seg.name);
+        if exact < 0.5 {
+            let need = 0.5 / tau;
+            return Err(err(
+                self.file,
+                seg.span,
+                field,
+                format!(
+                    "segment is {:.3} ns long, shorter than half a sample ({:.3} ns)",
+                    tau * 1e9,
+                    self.dt * 0.5e9
+                ),
+                format!("raise plant.sample_rate to at least {:.1} MHz, or merge this segment into a neighbour", need / 1e6),
+            ));
+        }
+        let delay = exact.round() as u32;
+        let r_total = cable.r_per_m * seg.length;
+        self.timings.push(SegmentTiming {
+            name: seg.name.clone(),
+            cable: cable.name.clone(),
+            length: seg.length,
+            z0: cable.z0,
+            tau,
+            delay,
+            error_s: delay as f64 * self.dt - tau,
+            r_total,
+            sections: 0,
+            r_dropped: false,
+        });
+
+        // Sub-runs between breaks: [0, d1], [d1, d2], ..., [dk, length].
+        let mut cut_d: Vec<(usize, f64)> = cuts.to_vec();
+        cut_d.sort_by(|a, b| a.1.total_cmp(&b.1));
+        let mut bounds = vec![0.0];
+        bounds.extend(cut_d.iter().map(|c| c.1));
+        bounds.push(seg.length);
+        let mut ends = vec![seg.from as JunctionId];
+        for (k, _) in cut_d.iter().enumerate() {
+            let _ = k;
+            ends.push(self.new_junction(Junction::Node { shunt: Shunt::Open })?);
+        }
+        ends.push(seg.to as JunctionId);
+        // Whole samples per sub-run, keeping the segment's total delay.
+        let mut sample_bounds: Vec<u32> = bounds.iter().map(|d| ((d / seg.length) * delay as f64).round() as u32).collect();
+        *sample_bounds.last_mut().unwrap_or(&mut 0) = delay;
+        let mut pieces = vec![];
+        let mut sections_total = 0;
+        let mut dropped = false;
+        for k in 0..bounds.len() - 1 {
+            let d = sample_bounds[k + 1].saturating_sub(sample_bounds[k]);
+            if d == 0 {
+                return Err(err(
+                    self.file,
+                    seg.span,
+                    format!("segment[{}]", seg.name),
+                    format!("a break at {:.2} m leaves a piece shorter than one sample", bounds[k + 1].min(bounds[k].max(0.0))),
+                    "move the break away from the segment's ends and from other breaks, or raise the sample rate",
+                ));
+            }
+            let len = bounds[k + 1] - bounds[k];
+            let r = r_total * len / seg.length;
+            let at_rig = rig_latency.filter(|_| {
+                (k == 0 && self.plant_rig_node() == Some(seg.from)) || (k + 2 == bounds.len() && self.plant_rig_node() == Some(seg.to))
+            });
+            let (n, drop) = sections(r, cable.z0, d, at_rig);
+            dropped |= drop;
+            sections_total += n;
+            self.run(&mut pieces, ends[k], ends[k + 1], cable.z0, d, if drop { 0.0 } else { r }, n, bounds[k], len)?;
+        }
+        if let Some(t) = self.timings.last_mut() {
+            t.sections = sections_total;
+            t.r_dropped = dropped;
+        }
+        let _ = si;
+        self.pieces.push(pieces);
+        Ok(cut_d.iter().enumerate().map(|(k, _)| ends[k + 1]).collect())
+    }
+
+    fn plant_rig_node(&self) -> Option<usize> {
+        match self.plant.drive {
+            crate::plant::Drive::Rig { node, .. } => Some(node),
+            _ => None,
+        }
+    }
+
+    /// One run of `d` samples from junction `a` to `b`, with resistance `r` in `n` sections.
+    #[allow(clippy::too_many_arguments)]
+    fn run(
+        &mut self,
+        pieces: &mut Vec<LinePiece>,
+        a: JunctionId,
+        b: JunctionId,
+        z0: f64,
+        d: u32,
+        r: f64,
+        n: usize,
+        start_m: f64,
+        len_m: f64,
+    ) -> Result<(), PlantError> {
+        let z = to_milliohm(z0);
+        // Sample positions of the section resistors: the middle of each section.
+        let mut cuts: Vec<u32> = (0..n).map(|k| ((d as f64) * (2 * k + 1) as f64 / (2 * n) as f64).round() as u32).collect();
+        cuts.dedup();
+        let mut prev_j = a;
+        let mut prev_s = 0u32;
+        for (k, c) in cuts.iter().enumerate() {
+            let j = self.new_junction(Junction::Series { milliohm: to_milliohm(r / cuts.len() as f64) })?;
+            self.push_line(pieces, z, c - prev_s, prev_j, j, start_m, len_m, prev_s, *c, d);
+            prev_j = j;
+            prev_s = *c;
+            let _ = k;
+        }
+        self.push_line(pieces, z, d - prev_s, prev_j, b, start_m, len_m, prev_s, d, d);
+        Ok(())
+    }
+
+    #[allow(clippy::too_many_arguments)]
+    fn push_line(&mut self, pieces: &mut Vec<LinePiece>, z: u32, delay: u32, a: JunctionId, b: JunctionId, start_m: f64, len_m: f64, s0: u32, s1: u32, d: u32) {
+        pieces.push(LinePiece {
+            line: self.lines.len() as u16,
+            start_m: start_m + len_m * s0 as f64 / d as f64,
+            end_m: start_m + len_m * s1 as f64 / d as f64,
+        });
+        self.lines.push(Line { z_milliohm: z, delay, a, b });
+    }
+}
+
+/// Number of sections for resistance `r` on a run of `d` samples, and whether the resistance
+/// had to be dropped (a run of one sample cannot hold a series junction).
+///
+/// Every section needs a line of at least one sample on both sides of its resistor, so
+/// n <= d/2; at a rig port the first line must keep (latency + 2)/2 samples.
+fn sections(r: f64, z0: f64, d: u32, rig_latency: Option<u32>) -> (usize, bool) {
+    if r <= 0.0 {
+        return (0, false);
+    }
+    let want = ((r / z0) / SECTION_R_OVER_Z0).ceil().max(1.0) as usize;
+    let mut max_n = (d / 2) as usize;
+    if let Some(l) = rig_latency {
+        // First line = round(d/(2n)) samples >= (l + 2)/2.
+        let first = (l as usize + 3) / 2;
+        max_n = max_n.min(d as usize / (2 * first).max(1));
+    }
+    let n = want.min(max_n).min(MAX_SECTIONS);
+    if n == 0 {
+        (0, true)
+    } else {
+        (n, false)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn section_count_follows_r_over_z0_and_fits_the_delay() {
+        assert_eq!(sections(0.0, 100.0, 50, None), (0, false));
+        assert_eq!(sections(4.0, 100.0, 50, None), (1, false)); // R/Z0 = 0.04
+        assert_eq!(sections(40.0, 100.0, 50, None), (8, false)); // 0.4 / 0.05
+        assert_eq!(sections(40.0, 100.0, 6, None), (3, false)); // capped at d/2
+        assert_eq!(sections(1.0, 100.0, 1, None), (0, true)); // one sample: dropped
+        assert_eq!(sections(40.0, 100.0, 50, Some(10)), (4, false)); // first line >= 6
+    }
+}

@@ -1,0 +1,310 @@
+//! Single values of a plant file: quantities, loads and source waveforms.
+
+use std::path::Path;
+
+use toml::Value;
+
+use super::locate::Source;
+use super::raw::{Raw, RawWaveform};
+use crate::plant::error::PlantError;
+use crate::plant::model::{Load, Waveform};
+use crate::plant::units::{self, UnitKind};
+
+/// The value as the user wrote it, for messages (`"-3 m"`, `0.66`).
+pub fn written(raw: &Raw) -> String {
+    show(raw.get_ref())
+}
+
+/// A TOML value as written, for messages.
+fn show(value: &Value) -> String {
+    match value {
+        Value::String(s) => format!("\"{s}\""),
+        Value::Integer(i) => i.to_string(),
+        Value::Float(x) => x.to_string(),
+        Value::Boolean(b) => b.to_string(),
+        Value::Datetime(d) => d.to_string(),
+        Value::Array(_) => "an array".to_string(),
+        Value::Table(_) => "a table".to_string(),
+    }
+}
+
+/// A quantity of `kind` from a string such as `"23 m"` (or a bare TOML number where the
+/// field is dimensionless), in SI units.
+pub fn quantity(src: &Source, raw: &Raw, kind: UnitKind, field: &str) -> Result<f64, PlantError> {
+    let parsed = match raw.get_ref() {
+        Value::String(s) => units::parse_quantity(s, kind),
+        Value::Integer(i) => units::from_bare(*i as f64, kind),
+        Value::Float(x) => units::from_bare(*x, kind),
+        _ => {
+            return Err(src.error(
+                raw.span(),
+                field,
+                format!("expected {}, got {}", kind.describe(), written(raw)),
+                "write the value as a string with its unit",
+            ))
+        }
+    };
+    parsed.map_err(|e| {
+        let hint = format!(
+            "write {} with its unit, e.g. {}",
+            kind.short_name(),
+            kind.example()
+        );
+        src.error(raw.span(), field, e.to_string(), hint)
+    })
+}
+
+/// A quantity that must be greater than zero.
+pub fn positive(
+    src: &Source,
+    raw: &Raw,
+    kind: UnitKind,
+    field: &str,
+    what: &str,
+) -> Result<f64, PlantError> {
+    let v = quantity(src, raw, kind, field)?;
+    if v > 0.0 {
+        Ok(v)
+    } else {
+        Err(src.error(
+            raw.span(),
+            field,
+            format!("{what} must be positive, got {}", written(raw)),
+            format!(
+                "give {} greater than zero, e.g. {}",
+                kind.short_name(),
+                kind.example()
+            ),
+        ))
+    }
+}
+
+/// A quantity that must be zero or more.
+pub fn non_negative(
+    src: &Source,
+    raw: &Raw,
+    kind: UnitKind,
+    field: &str,
+    what: &str,
+) -> Result<f64, PlantError> {
+    let v = quantity(src, raw, kind, field)?;
+    if v >= 0.0 {
+        Ok(v)
+    } else {
+        Err(src.error(
+            raw.span(),
+            field,
+            format!("{what} must not be negative, got {}", written(raw)),
+            format!(
+                "give {} of zero or more, e.g. {}",
+                kind.short_name(),
+                kind.example()
+            ),
+        ))
+    }
+}
+
+const LOAD_HINT: &str = "use \"open\", \"short\", \"120 ohm\", { capacitor = \"47 pF\" } or \
+                         { resistor = \"120 ohm\", capacitor = \"1 nF\", wiring = \"series\" }";
+
+/// A node load: `"open"`, `"short"`, `"120 ohm"`, `{ capacitor = .. }` or an RC pair.
+pub fn load(src: &Source, raw: &Raw, field: &str) -> Result<Load, PlantError> {
+    let bad = |message: String| src.error(raw.span(), field, message, LOAD_HINT);
+    match raw.get_ref() {
+        Value::String(s) if s.trim() == "open" => Ok(Load::Open),
+        Value::String(s) if s.trim() == "short" => Ok(Load::Short),
+        Value::String(s) => {
+            let r = units::parse_quantity(s, UnitKind::Resistance)
+                .map_err(|e| bad(format!("load {}: {e}", written(raw))))?;
+            resistor(r).map_err(|m| bad(format!("{m}, got {}", written(raw))))
+        }
+        Value::Table(t) => {
+            for key in t.keys() {
+                if !matches!(key.as_str(), "resistor" | "capacitor" | "wiring") {
+                    return Err(bad(format!(
+                        "unknown load field `{key}`, expected `resistor`, `capacitor` or `wiring`"
+                    )));
+                }
+            }
+            let part = |key: &str, kind: UnitKind| -> Result<Option<f64>, PlantError> {
+                let Some(v) = t.get(key) else { return Ok(None) };
+                let Value::String(s) = v else {
+                    return Err(bad(format!("load `{key}` must be a string like \"1 nF\"")));
+                };
+                let x = units::parse_quantity(s, kind)
+                    .map_err(|e| bad(format!("load `{key}`: {e}")))?;
+                if x > 0.0 {
+                    Ok(Some(x))
+                } else {
+                    Err(bad(format!("load `{key}` must be positive, got \"{s}\"")))
+                }
+            };
+            let r = part("resistor", UnitKind::Resistance)?;
+            let c = part("capacitor", UnitKind::Capacitance)?;
+            let wiring = match t.get("wiring") {
+                None => None,
+                Some(Value::String(w)) if w == "series" || w == "parallel" => Some(w.as_str()),
+                Some(w) => {
+                    let w = show(w);
+                    return Err(bad(format!(
+                        "load `wiring` must be \"series\" or \"parallel\", got {w}"
+                    )));
+                }
+            };
+            match (r, c, wiring) {
+                (Some(r), None, None) => resistor(r).map_err(bad),
+                (None, Some(c), None) => Ok(Load::Capacitor(c)),
+                (Some(r), Some(c), Some("series")) => Ok(Load::SeriesRc { r, c }),
+                (Some(r), Some(c), Some(_)) => Ok(Load::ParallelRc { r, c }),
+                (Some(_), Some(_), None) => Err(bad(
+                    "a resistor and a capacitor need `wiring = \"series\"` or \"parallel\"".into(),
+                )),
+                (_, _, Some(_)) => Err(bad(
+                    "`wiring` is only for a resistor together with a capacitor".into(),
+                )),
+                (None, None, None) => Err(bad("empty load table".into())),
+            }
+        }
+        _ => Err(bad(format!(
+            "a load is a string or a table, got {}",
+            written(raw)
+        ))),
+    }
+}
+
+fn resistor(r: f64) -> Result<Load, String> {
+    if r > 0.0 {
+        Ok(Load::Resistor(r))
+    } else {
+        Err("a load resistance must be positive (write \"short\" for zero ohms)".into())
+    }
+}
+
+/// A source waveform table: `{ step = .. }`, `{ pulse = .., width = .. }` or
+/// `{ samples = "file.csv" }`; `rise` and `delay` default to zero.
+pub fn waveform(
+    src: &Source,
+    raw: &toml::Spanned<RawWaveform>,
+    field: &str,
+    base_dir: &Path,
+) -> Result<Waveform, PlantError> {
+    let w = raw.get_ref();
+    let sub = |name: &str| format!("{field}.{name}");
+    let time = |r: &Option<Raw>, name: &str| -> Result<f64, PlantError> {
+        r.as_ref().map_or(Ok(0.0), |r| {
+            non_negative(src, r, UnitKind::Time, &sub(name), name)
+        })
+    };
+    // (amplitude, is_pulse) for the edge forms; the samples form returns from here.
+    let (level, is_pulse) = match (&w.step, &w.pulse, &w.samples) {
+        (Some(step), None, None) => (step, false),
+        (None, Some(pulse), None) => (pulse, true),
+        (None, None, Some(path)) => {
+            for (r, name) in [(&w.rise, "rise"), (&w.delay, "delay"), (&w.width, "width")] {
+                if let Some(r) = r {
+                    return Err(src.error(
+                        r.span(),
+                        sub(name),
+                        format!("`{name}` does not apply to a samples waveform"),
+                        "put the edge shape into the samples file, or use `step`/`pulse`",
+                    ));
+                }
+            }
+            return read_samples(src, path, &sub("samples"), base_dir).map(Waveform::Samples);
+        }
+        _ => {
+            return Err(src.error(
+                raw.span(),
+                field,
+                "a waveform needs exactly one of `step`, `pulse` or `samples`",
+                "write e.g. { step = \"5 V\", rise = \"10 ns\" } or { samples = \"stim.csv\" }",
+            ))
+        }
+    };
+    let rise = time(&w.rise, "rise")?;
+    let delay = time(&w.delay, "delay")?;
+    let name = if is_pulse { "pulse" } else { "step" };
+    let amplitude = quantity(src, level, UnitKind::Voltage, &sub(name))?;
+    match (is_pulse, &w.width) {
+        (false, None) => Ok(Waveform::Step {
+            amplitude,
+            delay,
+            rise,
+        }),
+        (false, Some(width)) => Err(src.error(
+            width.span(),
+            sub("width"),
+            "`width` belongs to a pulse, not a step",
+            "remove `width`, or write `pulse = ..` instead of `step = ..`",
+        )),
+        (true, None) => Err(src.error(
+            raw.span(),
+            field,
+            "a pulse needs a `width`",
+            "add e.g. width = \"200 ns\" (the time between the 50 % points)",
+        )),
+        (true, Some(width)) => {
+            let width = positive(src, width, UnitKind::Time, &sub("width"), "pulse width")?;
+            Ok(Waveform::Pulse {
+                amplitude,
+                delay,
+                width,
+                rise,
+            })
+        }
+    }
+}
+
+/// One value in volts per line; an optional non-numeric first line (a header), blank lines
+/// and `#` comments are skipped.
+fn read_samples(
+    src: &Source,
+    path: &toml::Spanned<String>,
+    field: &str,
+    base_dir: &Path,
+) -> Result<Vec<f64>, PlantError> {
+    let full = base_dir.join(path.get_ref());
+    let shown = full.display().to_string();
+    let text = std::fs::read_to_string(&full).map_err(|e| {
+        src.error(
+            path.span(),
+            field,
+            format!("cannot read samples file {shown}: {e}"),
+            "the path is relative to the plant file's folder",
+        )
+    })?;
+    let at = |line: usize, message: String| PlantError {
+        file: shown.clone(),
+        line,
+        column: 1,
+        field: field.to_string(),
+        message,
+        hint: "write one value in volts per line (an optional header line first)".into(),
+    };
+    let mut values = Vec::new();
+    for (i, line) in text.lines().enumerate() {
+        let line = line.trim();
+        if line.is_empty() || line.starts_with('#') {
+            continue;
+        }
+        match line.parse::<f64>() {
+            Ok(v) if v.is_finite() => values.push(v),
+            Ok(_) => return Err(at(i + 1, format!("sample \"{line}\" is not finite"))),
+            Err(_) if values.is_empty() && i == first_content_line(&text) => {}
+            Err(_) => return Err(at(i + 1, format!("\"{line}\" is not a number of volts"))),
+        }
+    }
+    if values.is_empty() {
+        return Err(at(1, "the samples file holds no values".into()));
+    }
+    Ok(values)
+}
+
+fn first_content_line(text: &str) -> usize {
+    text.lines()
+        .position(|l| {
+            let l = l.trim();
+            !l.is_empty() && !l.starts_with('#')
+        })
+        .unwrap_or(0)
+}

@@ -1,0 +1,203 @@
+//! Nodal analysis of the whole plant at one complex frequency.
+//!
+//! Unknowns are the node voltages V (against the return conductor). Kirchhoff's current law
+//! at every node, currents leaving the node counted positive:
+//!
+//! ```text
+//! sum over line ends at the node of (Y11·v_here + Y12·v_far) + Y_load·v + (v − E)/Rs = 0
+//! ```
+//!
+//! so the matrix collects each segment's two-port ([`super::line`]), each load's admittance
+//! and the drive's Norton conductance 1/Rs, and the right-hand side is the Norton current
+//! E/Rs at the drive node. E = 1 V: every result is a transfer function per volt of EMF.
+//! A short is an exact constraint v = 0 (its row and column are replaced by the identity)
+//! rather than a huge conductance, so no precision is lost next to it.
+
+use super::check::thevenin;
+use super::line::{two_port, TwoPort};
+use super::ReferenceError;
+use crate::plant::{End, Load, Plant, ProbeKind};
+use nalgebra::{DMatrix, DVector};
+use num_complex::Complex64;
+use std::f64::consts::PI;
+
+/// Admittance of a load to return at complex frequency s, S (a short is handled apart).
+pub(crate) fn load_admittance(load: Load, s: Complex64) -> Complex64 {
+    let zero = Complex64::new(0.0, 0.0);
+    match load {
+        Load::Open | Load::Short => zero,
+        Load::Resistor(r) => Complex64::new(1.0 / r, 0.0),
+        Load::Capacitor(c) => s * c,
+        // Y = 1/(R + 1/(sC)) = sC/(1 + sRC): finite at s = 0, where it is 0.
+        Load::SeriesRc { r, c } => s * c / (1.0 + s * r * c),
+        Load::ParallelRc { r, c } => 1.0 / r + s * c,
+    }
+}
+
+/// The solved plant at one complex frequency: node voltages and segment two-ports.
+pub(crate) struct Solution {
+    pub voltages: Vec<Complex64>,
+    pub ports: Vec<TwoPort>,
+}
+
+impl Solution {
+    /// The value of probe kind `kind`: a node voltage, or the current from the node into
+    /// the segment at the given end, i = Y11·v_this + Y12·v_other.
+    pub fn probe(&self, plant: &Plant, kind: ProbeKind) -> Complex64 {
+        match kind {
+            ProbeKind::Voltage(n) => self.voltages[n],
+            ProbeKind::Current(k, end) => {
+                let seg = &plant.segments[k];
+                let (here, far) = match end {
+                    End::From => (seg.from, seg.to),
+                    End::To => (seg.to, seg.from),
+                };
+                let tp = self.ports[k];
+                tp.y11 * self.voltages[here] + tp.y12 * self.voltages[far]
+            }
+        }
+    }
+}
+
+/// Solve the nodal equations of a checked plant at s (Re s > 0 or s on the jω axis away
+/// from 0), per volt of drive EMF.
+pub(crate) fn solve(plant: &Plant, s: Complex64) -> Result<Solution, ReferenceError> {
+    let n = plant.nodes.len();
+    let (sigma, f_hz) = (s.re, s.im / (2.0 * PI));
+    let mut a = DMatrix::<Complex64>::zeros(n, n);
+    let mut b = DVector::<Complex64>::zeros(n);
+    let mut ports = Vec::with_capacity(plant.segments.len());
+    for seg in &plant.segments {
+        let tp = two_port(&plant.cables[seg.cable], seg.length, s);
+        a[(seg.from, seg.from)] += tp.y11;
+        a[(seg.to, seg.to)] += tp.y11;
+        a[(seg.from, seg.to)] += tp.y12;
+        a[(seg.to, seg.from)] += tp.y12;
+        ports.push(tp);
+    }
+    for (i, node) in plant.nodes.iter().enumerate() {
+        a[(i, i)] += load_admittance(node.load, s);
+    }
+    let drive = thevenin(plant);
+    let g = 1.0 / drive.resistance;
+    a[(drive.node, drive.node)] += g;
+    b[drive.node] += g;
+    for (i, node) in plant.nodes.iter().enumerate() {
+        if node.load == Load::Short {
+            a.row_mut(i).fill(Complex64::new(0.0, 0.0));
+            a.column_mut(i).fill(Complex64::new(0.0, 0.0));
+            a[(i, i)] = Complex64::new(1.0, 0.0);
+            b[i] = Complex64::new(0.0, 0.0);
+        }
+    }
+    if a.iter().any(|v| !v.re.is_finite() || !v.im.is_finite()) {
+        return Err(ReferenceError::NonFinite { sigma, f_hz });
+    }
+    let v = a
+        .lu()
+        .solve(&b)
+        .ok_or(ReferenceError::Singular { sigma, f_hz })?;
+    if v.iter().any(|x| !x.re.is_finite() || !x.im.is_finite()) {
+        return Err(ReferenceError::Singular { sigma, f_hz });
+    }
+    Ok(Solution {
+        voltages: v.iter().copied().collect(),
+        ports,
+    })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::plant::{CableType, Drive, Node, Probe, Segment, Span, Tolerances, Waveform};
+
+    fn plant(load: Load, rs: f64, length: f64) -> Plant {
+        let node = |name: &str, load| Node {
+            name: name.into(),
+            load,
+            span: Span::default(),
+        };
+        Plant {
+            name: "unit".into(),
+            notes: vec![],
+            sample_rate: 1e9,
+            duration: 1e-6,
+            cables: vec![CableType {
+                name: "c".into(),
+                z0: 50.0,
+                velocity: 2e8,
+                r_per_m: 0.0,
+                loss: None,
+                source: "unit test".into(),
+            }],
+            nodes: vec![node("a", Load::Open), node("b", load)],
+            segments: vec![Segment {
+                name: "s".into(),
+                from: 0,
+                to: 1,
+                cable: 0,
+                length,
+                span: Span::default(),
+            }],
+            drive: Drive::Source {
+                node: 0,
+                emf: Waveform::Step {
+                    amplitude: 1.0,
+                    delay: 0.0,
+                    rise: 0.0,
+                },
+                rs,
+            },
+            probes: vec![Probe {
+                name: "i".into(),
+                kind: ProbeKind::Current(0, End::To),
+            }],
+            tolerances: Tolerances::default(),
+            events: vec![],
+            lattice_path: vec![],
+        }
+    }
+
+    #[test]
+    fn load_admittances_follow_their_impedances() {
+        // [closed form] Y = sC; 1/(R + 1/(sC)); 1/R + sC.
+        let s = Complex64::new(1.0e5, 3.0e6);
+        let (r, c) = (47.0, 2.2e-9);
+        let series = 1.0 / (r + 1.0 / (s * c));
+        assert!((load_admittance(Load::SeriesRc { r, c }, s) - series).norm() < 1e-15);
+        assert!((load_admittance(Load::ParallelRc { r, c }, s) - (1.0 / r + s * c)).norm() < 1e-15);
+        assert!((load_admittance(Load::Capacitor(c), s) - s * c).norm() < 1e-15);
+    }
+
+    #[test]
+    fn input_impedance_of_a_loaded_line_matches_the_textbook_formula() {
+        // [closed form] Z_in = Z0·(Z_L + Z0·tanh(x))/(Z0 + Z_L·tanh(x)), x = s·l/v; with the
+        // drive behind Rs, v_in = Z_in/(Rs + Z_in).
+        let rl = 200.0;
+        let p = plant(Load::Resistor(rl), 30.0, 11.0);
+        let s = Complex64::new(2.0e6, 2.0 * PI * 4.4e7);
+        let x = s * 11.0 / 2e8;
+        let z_in = 50.0 * (rl + 50.0 * x.tanh()) / (50.0 + rl * x.tanh());
+        let sol = solve(&p, s).unwrap();
+        let want = z_in / (30.0 + z_in);
+        assert!((sol.voltages[0] - want).norm() < 1e-12 * want.norm());
+        // The current into the line at its far end flows back out of the load: −v_L/R_L.
+        let i_to = sol.probe(&p, ProbeKind::Current(0, End::To));
+        assert!((i_to + sol.voltages[1] / rl).norm() < 1e-12 * i_to.norm());
+    }
+
+    #[test]
+    fn a_short_is_an_exact_zero_and_takes_the_line_current() {
+        // [closed form] shorted far end: v_L = 0 exactly; current into the short equals
+        // E/(Rs + Z0·tanh(x)) / cosh(x).
+        let p = plant(Load::Short, 50.0, 3.0);
+        let s = Complex64::new(1.0e6, 2.0 * PI * 1.0e7);
+        let sol = solve(&p, s).unwrap();
+        assert_eq!(sol.voltages[1], Complex64::new(0.0, 0.0));
+        let x = s * 3.0 / 2e8;
+        let i_in = 1.0 / (50.0 + 50.0 * x.tanh());
+        let i_short = i_in / x.cosh();
+        let i_to = sol.probe(&p, ProbeKind::Current(0, End::To));
+        assert!((i_to + i_short).norm() < 1e-12 * i_short.norm());
+    }
+}
