@@ -159,9 +159,9 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
                     Some(_) => return Err(BuildError::BadRigNode { junction }),
                 }
                 let line = net.lines.iter().position(|l| l.a as usize == j || l.b as usize == j);
-                let round_trip = line.map_or(0, |i| net.lines[i].delay.saturating_mul(2));
-                if latency > MAX_RIG_LATENCY || round_trip < latency as u32 + 2 {
-                    return Err(BuildError::RigLatencyTooLong { latency, round_trip });
+                let delay = line.map_or(0, |i| net.lines[i].delay);
+                if latency > MAX_RIG_LATENCY || delay < latency as u32 + 1 {
+                    return Err(BuildError::RigLatencyTooLong { latency, delay });
                 }
                 (None, 0, Some((j, latency, line.unwrap_or(0))))
             }
@@ -203,9 +203,10 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
             let (mut d_into_a, mut d_into_b) = (l.delay, l.delay);
             if let Some((rj, lat, rl)) = rig {
                 if rl == i {
-                    // Round trip 2·delay − latency, split between the two directions.
-                    let total = 2 * l.delay - lat as u32;
-                    let (d_in, d_out) = (total / 2, total - total / 2);
+                    // The latency comes out of the direction towards the rig port only, so
+                    // every wave inside the plant keeps its physical timing relative to the
+                    // pin's ADC samples; the early return is what the DAC latency delays.
+                    let (d_in, d_out) = (l.delay - lat as u32, l.delay);
                     if l.a as usize == rj {
                         (d_into_a, d_into_b) = (d_in, d_out);
                     } else {

@@ -46,9 +46,9 @@ pub enum BuildError {
     /// An integer coefficient does not fit its format (an impedance far outside the range
     /// of the others at its node, or a node with a vanishing total conductance).
     CoefficientOutOfRange { junction: u16 },
-    /// The rig latency leaves less than two samples of round trip in the first line
-    /// (round trip 2·delay must be at least latency + 2), or exceeds MAX_RIG_LATENCY.
-    RigLatencyTooLong { latency: u16, round_trip: u32 },
+    /// The rig latency is not shorter than the first line's delay (the line towards the
+    /// rig port keeps delay − latency >= 1 samples), or exceeds MAX_RIG_LATENCY.
+    RigLatencyTooLong { latency: u16, delay: u32 },
     /// `io_shift` is larger than the number profile allows.
     IoShiftTooLarge { io_shift: u8, max: u8 },
 }
@@ -84,11 +84,10 @@ impl fmt::Display for BuildError {
             CoefficientOutOfRange { junction } => {
                 write!(f, "junction {junction}: coefficient out of range of its format")
             }
-            RigLatencyTooLong { latency, round_trip } => write!(
+            RigLatencyTooLong { latency, delay } => write!(
                 f,
-                "rig latency {latency} samples needs a first round trip of at least {} samples, \
-                 line has {round_trip}",
-                u32::from(latency) + 2
+                "rig latency {latency} samples needs a first line of at least {} samples, it has {delay}",
+                u32::from(latency) + 1
             ),
             IoShiftTooLarge { io_shift, max } => write!(f, "io_shift {io_shift} > maximum {max}"),
         }

@@ -24,7 +24,8 @@
 //! * A **rig port** is a node with one line end where a real device is attached through a
 //!   physical resistor R_ref = Z0 to a DAC: the core reads the pin voltage v, computes
 //!   a = v − b and drives the DAC at 2·b. The rig's ADC-to-DAC latency L is taken out of
-//!   the first line's round trip (which must be at least L + 2 samples).
+//!   the first line's return direction (whose delay must be at least L + 1 samples), so
+//!   waves inside the plant keep their physical timing against the pin's ADC samples.
 //!
 //! ## Fixed point
 //! Two [`Profile`]s share one generic [`Solver`]: [`Wide`] (i32 waves, i64 sums; Cortex-M4

@@ -251,7 +251,7 @@ fn rig_latency_longer_than_round_trip_is_refused() {
         lines: &lines,
         junctions: &juncs,
         elements: &[],
-        drive: Drive::Rig { junction: 0, latency: 3 },
+        drive: Drive::Rig { junction: 0, latency: 2 },
         probes: &[],
         io_shift: 0,
         volts_per_code: 1e-3,
@@ -259,7 +259,7 @@ fn rig_latency_longer_than_round_trip_is_refused() {
     let mut s: Solver<Wide, 4, 4, 64> = Solver::new();
     assert_eq!(
         s.load(&net),
-        Err(tidewire_core::BuildError::RigLatencyTooLong { latency: 3, round_trip: 4 })
+        Err(tidewire_core::BuildError::RigLatencyTooLong { latency: 2, delay: 2 })
     );
 }
 

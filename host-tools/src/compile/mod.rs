@@ -173,6 +173,20 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
         let breaks = b.segment(si, seg, &cuts, min_first)?;
         break_junction.extend(breaks);
     }
+    if let Some((node, lat)) = rig {
+        let first = b.lines.iter().find(|l| l.a as usize == node || l.b as usize == node);
+        if let (Some(l), Some(seg)) = (first, plant.segments.iter().find(|s| s.from == node || s.to == node)) {
+            if l.delay < lat + 1 {
+                return Err(err(
+                    file,
+                    seg.span,
+                    format!("segment[{}].length", seg.name),
+                    format!("the first {} samples of cable at the rig port are shorter than the rig latency of {lat} samples plus one", l.delay),
+                    "the emulation needs the port's first stretch of cable to outlast the rig's ADC-to-DAC latency: raise the sample rate, lengthen the segment, or reduce the latency",
+                ));
+            }
+        }
+    }
     let report_segments = std::mem::take(&mut b.timings);
     let (lines, mut junctions, segment_pieces) = (b.lines, b.junctions, b.pieces);
     let mut elements = node_elements;

@@ -188,7 +188,7 @@ impl<'p> Builder<'p> {
 /// had to be dropped (a run of one sample cannot hold a series junction).
 ///
 /// Every section needs a line of at least one sample on both sides of its resistor, so
-/// n <= d/2; at a rig port the first line must keep (latency + 2)/2 samples.
+/// n <= d/2; at a rig port the first line must keep latency + 1 samples.
 fn sections(r: f64, z0: f64, d: u32, rig_latency: Option<u32>) -> (usize, bool) {
     if r <= 0.0 {
         return (0, false);
@@ -196,8 +196,8 @@ fn sections(r: f64, z0: f64, d: u32, rig_latency: Option<u32>) -> (usize, bool) 
     let want = ((r / z0) / SECTION_R_OVER_Z0).ceil().max(1.0) as usize;
     let mut max_n = (d / 2) as usize;
     if let Some(l) = rig_latency {
-        // First line = round(d/(2n)) samples >= (l + 2)/2.
-        let first = (l as usize + 3) / 2;
+        // First line = round(d/(2n)) samples >= l + 1.
+        let first = l as usize + 1;
         max_n = max_n.min(d as usize / (2 * first).max(1));
     }
     let n = want.min(max_n).min(MAX_SECTIONS);
@@ -219,6 +219,6 @@ mod tests {
         assert_eq!(sections(40.0, 100.0, 50, None), (8, false)); // 0.4 / 0.05
         assert_eq!(sections(40.0, 100.0, 6, None), (3, false)); // capped at d/2
         assert_eq!(sections(1.0, 100.0, 1, None), (0, true)); // one sample: dropped
-        assert_eq!(sections(40.0, 100.0, 50, Some(10)), (4, false)); // first line >= 6
+        assert_eq!(sections(40.0, 100.0, 50, Some(10)), (2, false)); // first line >= 11
     }
 }
