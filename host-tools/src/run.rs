@@ -103,7 +103,7 @@ fn drive<P: Profile, const A: usize, const B: usize, const C: usize>(
             };
         }
         let input = match &c.host_drive {
-            HostDrive::Source { emf } => code(emf.get(n).copied().unwrap_or(0.0), vpc),
+            HostDrive::Source { emf } => code(c.host_drive.emf_at(n), vpc),
             HostDrive::Rig { emf, dut_resistance, r_ref, latency } => {
                 // The pin: device EMF e behind Rd, and the rig's reference resistor to the DAC,
                 // which shows the value the core computed `latency` samples ago:
@@ -118,7 +118,7 @@ fn drive<P: Profile, const A: usize, const B: usize, const C: usize>(
                     0
                 };
                 let v_dac = dac as f64 * vpc;
-                let e = emf.get(n).copied().unwrap_or(0.0);
+                let e = c.host_drive.emf_at(n);
                 let v = (e / dut_resistance + v_dac / r_ref) / (1.0 / dut_resistance + 1.0 / r_ref);
                 code(v, vpc)
             }

@@ -69,7 +69,7 @@ pub fn run(c: &Compiled, samples: usize, record: &[u16]) -> Run {
                 CoreAction::Break(j) => st.broken[j as usize] = true,
             }
         }
-        let e = emf.get(n).copied().unwrap_or(0.0);
+        let e = c.host_drive.emf_at(n);
         for p in 0..2 * nl {
             b[p] = rings[p][pos[p]];
         }

@@ -70,6 +70,12 @@ pub enum HostDrive {
 }
 
 impl HostDrive {
+    /// The EMF at sample `n`; past the compiled run it holds its last value.
+    pub fn emf_at(&self, n: usize) -> f64 {
+        let e = self.emf();
+        e.get(n).or(e.last()).copied().unwrap_or(0.0)
+    }
+
     /// The EMF per sample.
     pub fn emf(&self) -> &[f64] {
         match self {

@@ -1,0 +1,107 @@
+//! `verify` and its references: the twin against the exact reference, verify on every demo
+//! plant, and a verify that must fail.
+use assert_cmd::Command;
+use std::path::Path;
+use tidewire_host::compile::{compile, ProfileKind};
+use tidewire_host::plant::parse_plant;
+use tidewire_host::reference::{exact_response, ExactOptions};
+
+/// A lossless plant with every delay on the sample grid: 50 Ω lines of 5 and 7 samples in
+/// a tee, one end open, one 75 Ω, source 50 Ω. Twin and exact reference describe the same
+/// physics exactly, so they agree to 1e-9 of the step [closed form].
+const ON_GRID: &str = r#"
+[plant]
+name = "on-grid tee"
+sample_rate = "1 GHz"
+duration = "400 ns"
+[cable.c50]
+impedance = "50 ohm"
+delay = "5 ns/m"
+[node.src]
+[node.tee]
+[node.open_end]
+[node.r75]
+load = "75 ohm"
+[[segment]]
+from = "src"
+to = "tee"
+cable = "c50"
+length = "1 m"
+[[segment]]
+from = "tee"
+to = "open_end"
+cable = "c50"
+length = "1.4 m"
+[[segment]]
+from = "tee"
+to = "r75"
+cable = "c50"
+length = "0.6 m"
+[drive]
+kind = "source"
+node = "src"
+resistance = "50 ohm"
+waveform = { step = "1 V", rise = "0 s", delay = "0 s" }
+[[probe]]
+name = "src"
+node = "src"
+[[probe]]
+name = "open end"
+node = "open_end"
+[[probe]]
+name = "into tee"
+segment = "src-tee"
+end = "to"
+"#;
+
+#[test]
+fn twin_and_exact_reference_agree_on_a_lossless_on_grid_plant() {
+    let plant = parse_plant(ON_GRID, "on-grid.toml", Path::new(".")).unwrap();
+    let c = compile(&plant, "on-grid.toml", ProfileKind::Wide).unwrap();
+    let tw = tidewire_host::twin::run(&c, c.samples, &[]);
+    let ex = exact_response(&plant, &ExactOptions::for_plant(&plant)).unwrap();
+    let mut worst = 0.0f64;
+    for (k, t) in ex.traces.iter().enumerate() {
+        let scale = if t.unit == "A" { 1.0 / 50.0 } else { 1.0 };
+        for (a, b) in tw.probes[k].iter().zip(&t.values) {
+            worst = worst.max((a - b).abs() / scale);
+        }
+    }
+    assert!(worst < 1e-9, "twin vs exact: {worst:e} of the 1 V step");
+    // And the core is close to both (arithmetic error only).
+    let core = tidewire_host::run::run_core(&c, c.samples, &[], &|_| {}).unwrap();
+    for (k, t) in ex.traces.iter().enumerate() {
+        let scale = if t.unit == "A" { 1.0 / 50.0 } else { 1.0 };
+        let e = core.run.probes[k].iter().zip(&t.values).map(|(a, b)| (a - b).abs() / scale).fold(0.0, f64::max);
+        assert!(e < 2.0 * c.volts_per_code as f64, "core vs exact {e:e}");
+    }
+}
+
+#[test]
+fn every_demo_plant_passes_verify_within_its_tolerances() {
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/plants");
+    for name in ["bench-rig.toml", "drive-to-motor.toml", "irrigation-network.toml", "packaging-line.toml"] {
+        let p = dir.join(name);
+        let a = Command::cargo_bin("tidewire").unwrap().args(["verify", p.to_str().unwrap()]).assert();
+        let out = String::from_utf8_lossy(&a.get_output().stdout).into_owned();
+        assert_eq!(a.get_output().status.code(), Some(0), "{name}:\n{out}");
+        assert!(out.contains("== PASS"), "{name}: {out}");
+    }
+}
+
+#[test]
+fn verify_fails_when_a_tolerance_is_tighter_than_the_emulation_reaches() {
+    // The same bench rig with max error 0.001 % of the step: the delay quantization and the
+    // ADC's 0.15 mV codes alone exceed that, so verify must say FAIL and exit 1.
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/plants");
+    let text = std::fs::read_to_string(dir.join("bench-rig.toml")).unwrap();
+    let start = text.find("max_error").expect("bench rig sets max_error");
+    let end = start + text[start..].find('\n').unwrap();
+    let tight = format!("{}max_error = \"0.001 %\"{}", &text[..start], &text[end..]);
+    let tmp = std::env::temp_dir().join(format!("tidewire-tight-{}.toml", std::process::id()));
+    std::fs::write(&tmp, tight).unwrap();
+    let a = Command::cargo_bin("tidewire").unwrap().args(["verify", tmp.to_str().unwrap()]).assert().code(1);
+    let out = String::from_utf8_lossy(&a.get_output().stdout).into_owned();
+    assert!(out.contains("FAIL"), "{out}");
+    let _ = std::fs::remove_file(tmp);
+}

@@ -1,0 +1,50 @@
+#!/usr/bin/env bash
+# The whole test suite, from a fresh machine: installs what the tests need, then runs
+# formatting and lint checks, the unit, property and end-to-end tests, the bare-metal
+# builds, the firmware on emulated Cortex-M0/M4 (QEMU) and the main job on the demo plant.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+
+step() { printf '\n==> %s\n' "$*"; }
+
+step "toolchain targets"
+for t in thumbv6m-none-eabi thumbv7em-none-eabihf; do
+  if ! rustup target list --installed | grep -qx "$t"; then
+    rustup target add "$t"
+  fi
+done
+
+step "qemu-system-arm"
+if ! command -v qemu-system-arm >/dev/null 2>&1; then
+  if [ "$(id -u)" = 0 ] && command -v apt-get >/dev/null 2>&1; then
+    apt-get update -qq
+    DEBIAN_FRONTEND=noninteractive apt-get install -y -qq qemu-system-arm >/dev/null
+  else
+    echo "qemu-system-arm is missing: install it (Debian/Ubuntu: sudo apt-get install qemu-system-arm)" >&2
+    exit 1
+  fi
+fi
+qemu-system-arm --version | head -n 1
+
+step "format and lints"
+cargo fmt --all --check
+cargo clippy --workspace --all-targets -- -D warnings
+
+step "unit, property and end-to-end tests"
+cargo test --workspace
+
+step "bare-metal builds of the core"
+for t in thumbv6m-none-eabi thumbv7em-none-eabihf; do
+  cargo build -p tidewire-core --target "$t"
+  cargo build -p tidewire-core --target "$t" --features defmt
+done
+
+step "firmware on emulated Cortex-M0 and Cortex-M4"
+cargo run -p xtask -- firmware
+cargo run -p xtask -- firmware --inject-panic
+
+step "main job on the built-in demo plant"
+cargo run --release -p tidewire-host -- demo --out target/demo-check
+
+echo
+echo "all checks passed"
