@@ -67,12 +67,23 @@ proptest! {
     fn a_lossy_plants_decay_to_exactly_zero(
         net in network(Loads::Lossy, 500, 12),
         drive in proptest::collection::vec(-30000i16..30000, 1..300),
+        events in proptest::collection::vec((any::<prop::sample::Index>(), 10_000u32..1_000_000), 0..4),
     ) {
         let d: Vec<f64> = drive.iter().map(|x| *x as f64 * 4096.0).collect();
         let bound = decay_bound(&net, &d);
         let mut s = WideSolver::new();
         s.load(&net.net()).unwrap();
-        run_decay(&mut s, &drive, bound)?;
+        // Terminations switched while the drive runs (to other resistors, so every path
+        // keeps its loss); the decay bound is that of the plant as loaded, and the switch
+        // only changes where energy is absorbed.
+        for (i, r) in &events {
+            let j = i.index(net.junctions.len()) as u16;
+            if matches!(net.junctions[j as usize], tidewire_core::Junction::Node { .. }) {
+                s.set_shunt(j, tidewire_core::Shunt::Resistor { milliohm: *r }).unwrap();
+            }
+            s.step(drive[0]);
+        }
+        run_decay(&mut s, &drive, 4 * bound)?;
 
         let mut net16 = net.clone();
         net16.io_shift = 0;
@@ -87,6 +98,7 @@ proptest! {
     fn b_outputs_stay_within_the_passive_bound(
         net in network(Loads::Any, 500, 12),
         drive in proptest::collection::vec(-32768i16..=32767, 1..2000),
+        events in proptest::collection::vec((0usize..6000, any::<prop::sample::Index>(), 0u8..4, 10_000u32..1_000_000), 0..6),
     ) {
         // Energy bound [closed form]: a source E behind Rs delivers at most E²/(4·Rs) per
         // sample (its available power). In wave units a line of conductance g holding a wave
@@ -99,6 +111,19 @@ proptest! {
         let mut injected = 0.0f64;
         let steps = drive.len() * 3;
         for n in 0..steps {
+            // Random faults while running: shunt changes and breaks store no energy, so the
+            // bound holds through them.
+            for (at, i, kind, r) in &events {
+                if *at == n {
+                    let j = i.index(net.junctions.len()) as u16;
+                    let _ = match kind {
+                        0 => s.set_shunt(j, tidewire_core::Shunt::Open),
+                        1 => s.set_shunt(j, tidewire_core::Shunt::Short),
+                        2 => s.set_shunt(j, tidewire_core::Shunt::Resistor { milliohm: *r }),
+                        _ => s.set_broken(j, true),
+                    };
+                }
+            }
             let x = if n < drive.len() { drive[n] } else { 0 };
             let e = x as f64 * 4096.0;
             injected += e * e / (4.0 * rs);

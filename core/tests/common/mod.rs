@@ -85,8 +85,9 @@ pub fn network(loads: Loads, max_delay: u32, io_shift: u8) -> impl Strategy<Valu
             ),
             10_000u32..1_000_000,
             proptest::collection::vec((any::<prop::sample::Index>(), any::<bool>(), any::<bool>()), 1..4),
+            proptest::collection::vec((any::<prop::sample::Index>(), 2_000u32..2_000_000, 0u32..200_000, any::<bool>()), 0..3),
         )
-            .prop_map(move |(shunts, edge_specs, rs, probe_specs)| {
+            .prop_map(move |(shunts, edge_specs, rs, probe_specs, element_specs)| {
                 let mut junctions: Vec<Junction> = shunts.iter().map(|s| Junction::Node { shunt: *s }).collect();
                 let mut lines = Vec::new();
                 for (k, (pick, z, d1, d2, kind, r, z2)) in edge_specs.into_iter().enumerate() {
@@ -127,7 +128,22 @@ pub fn network(loads: Loads, max_delay: u32, io_shift: u8) -> impl Strategy<Valu
                         side: if side_b { Side::B } else { Side::A },
                     })
                     .collect();
-                Owned { lines, junctions, elements: Vec::new(), drive: Drive::Source { junction: 0, milliohm: rs }, probes, io_shift }
+                // Reactive one-ports (capacitors, inductors; some behind a series resistor)
+                // at random plant nodes.
+                let mut elements: Vec<Element> = element_specs
+                    .into_iter()
+                    .map(|(i, port, series, inductor)| Element {
+                        junction: i.index(nodes) as u16,
+                        kind: if inductor { tidewire_core::ElementKind::Inductor } else { tidewire_core::ElementKind::Capacitor },
+                        port_milliohm: port,
+                        // In a lossy plant every reactance sits behind a resistor: a bare
+                        // bilinear capacitor is a short at the Nyquist frequency, which would
+                        // give the plant a lossless mode there.
+                        series_milliohm: if matches!(loads, Loads::Lossy) { series.max(1_000) } else { series },
+                    })
+                    .collect();
+                elements.sort_by_key(|e| e.junction);
+                Owned { lines, junctions, elements, drive: Drive::Source { junction: 0, milliohm: rs }, probes, io_shift }
             })
     })
 }
@@ -135,6 +151,8 @@ pub fn network(loads: Loads, max_delay: u32, io_shift: u8) -> impl Strategy<Valu
 /// The same wave model in f64 (no quantization): the reference for arithmetic error.
 pub struct Twin {
     net: Owned,
+    el_state: Vec<f64>,
+    el_a: Vec<f64>,
     /// Conductance per line in weight units, source and shunt conductance functions, and
     /// series coefficients: nominal (1/Z) or the core's quantized integers.
     coef: Option<Quantized>,
@@ -164,7 +182,7 @@ impl Twin {
     pub fn new(net: &Owned) -> Twin {
         let n = net.lines.len();
         let rings = (0..2 * n).map(|p| vec![0.0; net.lines[p / 2].delay as usize]).collect();
-        Twin { net: net.clone(), coef: None, rings, pos: vec![0; 2 * n], a: vec![0.0; 2 * n], b: vec![0.0; 2 * n] }
+        Twin { net: net.clone(), el_state: vec![0.0; net.elements.len()], el_a: vec![0.0; net.elements.len()], coef: None, rings, pos: vec![0; 2 * n], a: vec![0.0; 2 * n], b: vec![0.0; 2 * n] }
     }
 
     /// The same network with the core's quantized coefficients (f64 arithmetic).
@@ -211,6 +229,13 @@ impl Twin {
                         num += 2.0 * self.b[p] * self.g(p);
                         den += self.g(p);
                     }
+                    for (k, el) in self.net.elements.iter().enumerate() {
+                        if el.junction as usize == j {
+                            let g = self.g_of_milliohm(el.port_milliohm + el.series_milliohm);
+                            num += 2.0 * self.el_state[k] * g;
+                            den += g;
+                        }
+                    }
                     if let Drive::Source { junction, milliohm } = self.net.drive {
                         if junction as usize == j {
                             let gs = self.g_of_milliohm(milliohm);
@@ -226,6 +251,11 @@ impl Twin {
                     };
                     for &p in &ports {
                         self.a[p] = v - self.b[p];
+                    }
+                    for (k, el) in self.net.elements.iter().enumerate() {
+                        if el.junction as usize == j {
+                            self.el_a[k] = v - self.el_state[k];
+                        }
                     }
                 }
                 Junction::Series { milliohm } => {
@@ -258,6 +288,17 @@ impl Twin {
                 if pr.kind == ProbeKind::Current { self.a[p] - self.b[p] } else { self.a[p] + self.b[p] }
             })
             .collect();
+        for (k, el) in self.net.elements.iter().enumerate() {
+            let mu = match &self.coef {
+                Some(q) => {
+                    let rp = el.port_milliohm as u128;
+                    ((rp << q.series_frac) / (rp + el.series_milliohm as u128)) as f64 / (1u64 << q.series_frac) as f64
+                }
+                None => el.port_milliohm as f64 / (el.port_milliohm + el.series_milliohm) as f64,
+            };
+            let ac = self.el_state[k] + mu * (self.el_a[k] - self.el_state[k]);
+            self.el_state[k] = if el.kind == tidewire_core::ElementKind::Inductor { -ac } else { ac };
+        }
         for p in 0..self.b.len() {
             // The wave leaving port p travels towards its partner (p ^ 1).
             let q = p ^ 1;
