@@ -10,9 +10,9 @@
 //! zero (see the crate documentation).
 
 use crate::error::{BuildError, ConfigError, Table};
-use crate::network::{Drive, ElementKind, Junction, Network, ProbeKind, Shunt, Side, MAX_PROBES, MAX_RIG_LATENCY};
+use crate::network::{Drive, ElementKind, Junction, Network, MAX_LOSS_SECTIONS, ProbeKind, Shunt, Side, MAX_PROBES, MAX_RIG_LATENCY};
 use crate::profile::{reciprocal, Profile};
-use crate::solver::{DriveRt, ElementRt, JunctionRt, Mode, ProbeRt, Solver};
+use crate::solver::{DriveRt, ElementRt, JunctionRt, LossRt, Mode, ProbeRt, Solver};
 
 /// Largest exponent of the weight unit: g62 = floor(2^62 / Z) fits a u64 for Z >= 1 mΩ.
 const TOP: u32 = 62;
@@ -35,6 +35,19 @@ fn w_top(milliohm: u32) -> u64 {
 
 fn w_top_wide(milliohm: u64) -> u64 {
     (1u64 << TOP) / milliohm.max(1)
+}
+
+/// `slot[i] = v` for an index the checks above keep in range; out of range (unreachable after
+/// validation) it writes nothing instead of panicking, so `load` has no panic path.
+fn set<T>(slot: &mut [T], i: usize, v: T) {
+    if let Some(x) = slot.get_mut(i) {
+        *x = v;
+    }
+}
+
+/// `table[i]` as an index (0 if out of range, unreachable after validation; no panic path).
+fn at(table: &[u16], i: usize) -> usize {
+    table.get(i).copied().unwrap_or(0) as usize
 }
 
 fn mode_of(short: bool, broken: bool) -> Mode {
@@ -159,7 +172,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
                     Some(_) => return Err(BuildError::BadRigNode { junction }),
                 }
                 let line = net.lines.iter().position(|l| l.a as usize == j || l.b as usize == j);
-                let delay = line.map_or(0, |i| net.lines[i].delay);
+                let delay = line.and_then(|i| net.lines.get(i)).map_or(0, |l| l.delay);
                 if latency > MAX_RIG_LATENCY || delay < latency as u32 + 1 {
                     return Err(BuildError::RigLatencyTooLong { latency, delay });
                 }
@@ -172,34 +185,84 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
         for j in 0..nj {
             for (i, l) in net.lines.iter().enumerate() {
                 if l.a as usize == j {
-                    self.port_of[2 * i] = p as u16;
+                    set(&mut self.port_of, 2 * i, p as u16);
                     p += 1;
                 }
                 if l.b as usize == j {
-                    self.port_of[2 * i + 1] = p as u16;
+                    set(&mut self.port_of, 2 * i + 1, p as u16);
                     p += 1;
                 }
             }
             for (k, e) in net.elements.iter().enumerate() {
                 if e.junction as usize == j {
                     let rp = e.port_milliohm as u128;
-                    let mu = (rp << P::SERIES_FRAC) / (rp + e.series_milliohm as u128);
+                    let mu = (rp << P::SERIES_FRAC).checked_div(rp + e.series_milliohm as u128).unwrap_or(0);
                     let negate = matches!(e.kind, ElementKind::Inductor);
-                    self.elements[k] = ElementRt { port: p as u16, mu: mu as u32, negate };
+                    set(&mut self.elements, k, ElementRt { port: p as u16, mu: mu as u32, negate });
                     p += 1;
                 }
             }
         }
         self.n_elements = ne;
+
+        // Loss filters: one per lossy line, applied at both of its ends.
+        cap(Table::Ports, 2 * net.losses.len(), PORTS)?;
+        let mut nloss = 0usize;
+        for (k, ll) in net.losses.iter().enumerate() {
+            let bad = BuildError::BadLoss { loss: k as u16 };
+            let li = ll.line as usize;
+            let n = ll.sections as usize;
+            if li >= nl || n == 0 || n > MAX_LOSS_SECTIONS || net.losses.iter().take(k).any(|o| o.line == ll.line) {
+                return Err(bad);
+            }
+            let mut rt = LossRt {
+                port: 0,
+                sections: ll.sections,
+                g: [0; MAX_LOSS_SECTIONS],
+                gb: [0; MAX_LOSS_SECTIONS],
+                a: [0; MAX_LOSS_SECTIONS],
+                x1: [P::ZERO; MAX_LOSS_SECTIONS],
+                y1: [P::ZERO; MAX_LOSS_SECTIONS],
+            };
+            let one = 1u64 << P::LOSS_FRAC;
+            let coefs = ll.poles.iter().zip(ll.zeros.iter()).zip(rt.g.iter_mut().zip(rt.gb.iter_mut()).zip(rt.a.iter_mut()));
+            for ((pole, zero), ((rg, rgb), ra)) in coefs.take(n) {
+                let (pole, zero) = (*pole as i64, *zero as i64);
+                let one = one as i64;
+                if pole >= 1 << 30 || zero >= pole || zero <= -(1 << 30) {
+                    return Err(bad);
+                }
+                let a = pole >> (30 - P::LOSS_FRAC);
+                let b = zero >> (30 - P::LOSS_FRAC); // floor: b only moves away from a
+                // g = floor((1 − a)/(1 − b)), g·b rounded up: the DC gain (g − gb)/(1 − a)
+                // is at most 1 and the effective zero gb/g stays at or above b.
+                let g = ((one - a) << P::LOSS_FRAC) / (one - b).max(1);
+                let gb = (g * b).div_euclid(one) + ((g * b).rem_euclid(one) != 0) as i64;
+                // Still a section that only attenuates: 0 < a, effective zero below the pole.
+                if a <= 0 || g <= 0 || gb * one >= a * g || g >= 1 << 31 {
+                    return Err(bad);
+                }
+                *rg = g as u32;
+                *rgb = gb as i32;
+                *ra = a as u32;
+            }
+            for side in 0..2 {
+                let mut r = rt;
+                r.port = at(&self.port_of, 2 * li + side) as u16;
+                set(&mut self.losses, nloss, r);
+                nloss += 1;
+            }
+        }
+        self.n_losses = nloss;
         self.n_ports = p;
         self.n_lines = nl;
 
         // Rings and weights. The ring a port reads from carries the wave towards it.
         let mut mem = 0usize;
         for (i, l) in net.lines.iter().enumerate() {
-            let (pa, pb) = (self.port_of[2 * i] as usize, self.port_of[2 * i + 1] as usize);
-            self.partner[pa] = pb as u16;
-            self.partner[pb] = pa as u16;
+            let (pa, pb) = (at(&self.port_of, 2 * i), at(&self.port_of, 2 * i + 1));
+            set(&mut self.partner, pa, pb as u16);
+            set(&mut self.partner, pb, pa as u16);
             let (mut d_into_a, mut d_into_b) = (l.delay, l.delay);
             if let Some((rj, lat, rl)) = rig {
                 if rl == i {
@@ -217,8 +280,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
             for (port, d) in [(pa, d_into_a), (pb, d_into_b)] {
                 let end = mem + d as usize;
                 cap(Table::DelayStorage, end, MEM)?;
-                self.start[port] = mem as u32;
-                self.end[port] = end as u32;
+                set(&mut self.start, port, mem as u32);
+                set(&mut self.end, port, end as u32);
                 mem = end;
             }
         }
@@ -226,9 +289,9 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
         for el in self.elements.iter().take(ne) {
             let port = el.port as usize;
             cap(Table::DelayStorage, mem + 1, MEM)?;
-            self.partner[port] = port as u16;
-            self.start[port] = mem as u32;
-            self.end[port] = mem as u32 + 1;
+            set(&mut self.partner, port, port as u16);
+            set(&mut self.start, port, mem as u32);
+            set(&mut self.end, port, mem as u32 + 1);
             mem += 1;
         }
         self.mem_used = mem;
@@ -263,11 +326,11 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
         self.exponent = c;
         for (i, l) in net.lines.iter().enumerate() {
             let g = w_top(l.z_milliohm) >> k;
-            self.g[self.port_of[2 * i] as usize] = g as u32;
-            self.g[self.port_of[2 * i + 1] as usize] = g as u32;
+            set(&mut self.g, at(&self.port_of, 2 * i), g as u32);
+            set(&mut self.g, at(&self.port_of, 2 * i + 1), g as u32);
         }
         for (el, e) in self.elements.iter().zip(net.elements.iter()) {
-            self.g[el.port as usize] = (w_top_wide(e.port_milliohm as u64 + e.series_milliohm as u64) >> k) as u32;
+            set(&mut self.g, el.port as usize, (w_top_wide(e.port_milliohm as u64 + e.series_milliohm as u64) >> k) as u32);
         }
 
         // Junction run-time records.
@@ -278,11 +341,11 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
             let rt = match *junc {
                 _ if rig.map_or(false, |r| r.0 == j) => JunctionRt::Rig { port: first as u16 },
                 Junction::Node { shunt } => {
-                    if (first..first + count).any(|q| self.g[q] == 0) {
+                    if (first..first + count).any(|q| self.g.get(q).is_none_or(|g| *g == 0)) {
                         return Err(BuildError::CoefficientOutOfRange { junction });
                     }
                     let g_src = if src_j == Some(j) { (w_top(src_mohm) >> k) as u32 } else { 0 };
-                    let g_ports = self.g[first..first + count].iter().map(|g| *g as u64).sum::<u64>() + g_src as u64;
+                    let g_ports = self.g.get(first..first + count).unwrap_or(&[]).iter().map(|g| *g as u64).sum::<u64>() + g_src as u64;
                     let mut rt = JunctionRt::Node {
                         first: first as u16,
                         count: count as u16,
@@ -302,12 +365,12 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
                     let (p, q) = (first, first + 1);
                     // Both ends of a series junction belong to lines of equal impedance (checked
                     // above); c = 2Z/(2Z + R) <= 1, rounded down.
-                    let z = series_z[j] as u128;
-                    let c = ((2 * z) << P::SERIES_FRAC) / (2 * z + milliohm as u128);
+                    let z = series_z.get(j).copied().unwrap_or(0) as u128;
+                    let c = ((2 * z) << P::SERIES_FRAC).checked_div(2 * z + milliohm as u128).unwrap_or(0);
                     JunctionRt::Series { p: p as u16, q: q as u16, c: c as u32 }
                 }
             };
-            self.juncs[j] = rt;
+            set(&mut self.juncs, j, rt);
             first += count;
         }
         self.n_juncs = nj;
@@ -318,8 +381,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
                 .lines
                 .get(pr.line as usize)
                 .ok_or(BuildError::IndexOutOfRange { table: Table::Probes, index: k as u16 })?;
-            let port = self.port_of[2 * pr.line as usize + (pr.side == Side::B) as usize];
-            self.probes[k] = ProbeRt { current: pr.kind == ProbeKind::Current, port, z_milliohm: l.z_milliohm };
+            let port = at(&self.port_of, 2 * pr.line as usize + (pr.side == Side::B) as usize) as u16;
+            set(&mut self.probes, k, ProbeRt { current: pr.kind == ProbeKind::Current, port, z_milliohm: l.z_milliohm });
         }
         self.n_probes = net.probes.len();
 

@@ -37,6 +37,9 @@ pub enum BuildError {
     /// A reactive element hangs from something that is not a node, or has zero port
     /// resistance.
     BadElement { element: u16 },
+    /// A loss filter names no line, a line twice, has 0 or too many sections, or a
+    /// section that is not an attenuating shelf (needs 0 <= zero < pole < 1).
+    BadLoss { loss: u16 },
     /// A rig port node must hold exactly one line end and no shunt.
     BadRigNode { junction: u16 },
     /// A drive is placed on a series junction.
@@ -74,6 +77,7 @@ impl fmt::Display for BuildError {
             BadElement { element } => {
                 write!(f, "element {element}: must hang from a node and have a port resistance > 0")
             }
+            BadLoss { loss } => write!(f, "loss filter {loss}: bad line or section coefficients"),
             BadRigNode { junction } => {
                 write!(f, "rig port junction {junction}: needs exactly one line end and no shunt")
             }

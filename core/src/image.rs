@@ -17,7 +17,7 @@
 //! the topology. Every failure is an error value, never a panic.
 
 use crate::error::BuildError;
-use crate::network::{Drive, Element, Junction, Line, Network, Probe, MAX_PROBES};
+use crate::network::{Drive, Element, Junction, Line, LineLoss, Network, Probe, MAX_PROBES};
 use crate::profile::Profile;
 use crate::solver::Solver;
 use core::fmt;
@@ -102,6 +102,7 @@ pub struct ImageNetwork<const L: usize, const J: usize> {
     lines: heapless::Vec<Line, L>,
     junctions: heapless::Vec<Junction, J>,
     elements: heapless::Vec<Element, L>,
+    losses: heapless::Vec<LineLoss, L>,
     drive: Drive,
     probes: heapless::Vec<Probe, MAX_PROBES>,
     io_shift: u8,
@@ -115,6 +116,7 @@ impl<const L: usize, const J: usize> ImageNetwork<L, J> {
             lines: &self.lines,
             junctions: &self.junctions,
             elements: &self.elements,
+            losses: &self.losses,
             drive: self.drive,
             probes: &self.probes,
             io_shift: self.io_shift,

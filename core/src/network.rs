@@ -103,6 +103,26 @@ pub struct Element {
     pub series_milliohm: u32,
 }
 
+/// The most first-order sections a line's loss filter may have.
+pub const MAX_LOSS_SECTIONS: usize = 6;
+
+/// Frequency-dependent loss of one line: a cascade of first-order shelving sections applied
+/// to every wave arriving at either end (the pure delay stays in the line).
+///
+/// Section k: H_k(z) = g_k·(1 − b_k·z⁻¹)/(1 − a_k·z⁻¹) with −1 < b_k < a_k < 1, a_k > 0,
+/// given in Q30 (`zeros[k]` = b_k·2^30, `poles[k]` = a_k·2^30). The core computes
+/// g_k = (1 − a_k)/(1 − b_k) rounded down, so every section has |H_k| <= H_k(1) <= 1 at
+/// every frequency (its magnitude falls monotonically from DC to Nyquist) after quantization.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct LineLoss {
+    pub line: LineId,
+    /// Sections in use (1..=MAX_LOSS_SECTIONS).
+    pub sections: u8,
+    pub poles: [u32; MAX_LOSS_SECTIONS],
+    pub zeros: [i32; MAX_LOSS_SECTIONS],
+}
+
 /// Which end of a line.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
@@ -141,6 +161,8 @@ pub struct Network<'a> {
     pub junctions: &'a [Junction],
     /// Reactive one-ports at nodes.
     pub elements: &'a [Element],
+    /// Loss filters of lossy lines (at most one per line).
+    pub losses: &'a [LineLoss],
     pub drive: Drive,
     pub probes: &'a [Probe],
     /// Waves carry `io_shift` more fractional bits than I/O codes: wave = code · 2^io_shift.

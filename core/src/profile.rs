@@ -61,6 +61,12 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     /// Reactance adaptor: a_c = trunc(b + μ·(a − b)) toward zero from its exact value, μ in
     /// `SERIES_FRAC` fractional bits (μ <= 1), negated when `negate` (an inductor).
     fn adapt(b: Self::Wave, a: Self::Wave, mu: u32, negate: bool) -> Self::Wave;
+    /// Fractional bits of loss-filter coefficients in this profile.
+    const LOSS_FRAC: u32;
+    /// One first-order loss section: y = trunc(g·x − gb·x1 + a·y1) toward zero, saturated
+    /// (coefficients in `LOSS_FRAC` bits, all < 1). With x = 0 the output shrinks strictly,
+    /// so a section cannot sustain a limit cycle.
+    fn loss_section(x: Self::Wave, x1: Self::Wave, y1: Self::Wave, g: u32, gb: i32, a: u32) -> Self::Wave;
     /// Input code to wave: sat(code · 2^shift).
     fn from_code(code: i16, shift: u32) -> Self::Wave;
     /// Wave (or a sum of two waves, as i32) to output code: sat(trunc(x / 2^shift)).
@@ -146,6 +152,7 @@ impl Profile for Wide {
     const SERIES_FRAC: u32 = 30;
     const MAX_IO_SHIFT: u8 = 15;
     const TOTAL_MAX: u64 = 1 << 62;
+    const LOSS_FRAC: u32 = 30;
 
     #[inline(always)]
     fn node_scatter(b: &[i32], g: &[u32], a: &mut [i32], e: i32, g_src: u32, recip: u32, shift: u32, total: u64) {
@@ -189,6 +196,16 @@ impl Profile for Wide {
         (t(n1), t(n2))
     }
     #[inline(always)]
+    fn loss_section(x: i32, x1: i32, y1: i32, g: u32, gb: i32, a: u32) -> i32 {
+        // Each product < 2^30·2^31 = 2^61; three of them < 2^63: exact in i64.
+        let n = (g as i64)
+            .wrapping_mul(x as i64)
+            .wrapping_sub((gb as i64).wrapping_mul(x1 as i64))
+            .wrapping_add((a as i64).wrapping_mul(y1 as i64));
+        let m = apply_sign64((n.unsigned_abs() >> Self::LOSS_FRAC) as i64, n >> 63);
+        m.clamp(i32::MIN as i64, i32::MAX as i64) as i32
+    }
+    #[inline(always)]
     fn adapt(b: i32, a: i32, mu: u32, negate: bool) -> i32 {
         // |b·2^30| <= 2^61, |μ·(a − b)| <= 2^30·2^32: exact in i64.
         let n = (b as i64)
@@ -227,6 +244,7 @@ impl Profile for Narrow {
     const SERIES_FRAC: u32 = 14;
     const MAX_IO_SHIFT: u8 = 0;
     const TOTAL_MAX: u64 = (1 << 30) - 1;
+    const LOSS_FRAC: u32 = 14;
 
     #[inline(always)]
     fn node_scatter(b: &[i16], g: &[u32], a: &mut [i16], e: i16, g_src: u32, recip: u32, shift: u32, total: u64) {
@@ -261,6 +279,15 @@ impl Profile for Narrow {
         let n2 = (b2 as i32).wrapping_shl(Self::SERIES_FRAC).wrapping_add(cx);
         let t = |n: i32| sat_i16(apply_sign32((n.unsigned_abs() >> Self::SERIES_FRAC) as i32, n >> 31));
         (t(n1), t(n2))
+    }
+    #[inline(always)]
+    fn loss_section(x: i16, x1: i16, y1: i16, g: u32, gb: i32, a: u32) -> i16 {
+        // Each product < 2^14·2^15 = 2^29; three of them < 2^31: exact in i32.
+        let n = (g as i32)
+            .wrapping_mul(x as i32)
+            .wrapping_sub((gb as i32).wrapping_mul(x1 as i32))
+            .wrapping_add((a as i32).wrapping_mul(y1 as i32));
+        sat_i16(apply_sign32((n.unsigned_abs() >> Self::LOSS_FRAC) as i32, n >> 31))
     }
     #[inline(always)]
     fn adapt(b: i16, a: i16, mu: u32, negate: bool) -> i16 {

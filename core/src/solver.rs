@@ -14,7 +14,7 @@
 //! after validation) or masks, arithmetic is wrapping or saturating where the ranges were
 //! argued, and no division happens here.
 
-use crate::network::MAX_PROBES;
+use crate::network::{MAX_LOSS_SECTIONS, MAX_PROBES};
 use crate::profile::Profile;
 
 /// Size of the rig-port history ring (a power of two > MAX_RIG_LATENCY).
@@ -59,6 +59,19 @@ pub(crate) struct ElementRt {
     pub negate: bool,
 }
 
+/// One port's loss filter: coefficients and state per section.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) struct LossRt<W: Copy> {
+    pub port: u16,
+    pub sections: u8,
+    pub g: [u32; MAX_LOSS_SECTIONS],
+    pub gb: [i32; MAX_LOSS_SECTIONS],
+    pub a: [u32; MAX_LOSS_SECTIONS],
+    /// x[n−1] and y[n−1] of each section.
+    pub x1: [W; MAX_LOSS_SECTIONS],
+    pub y1: [W; MAX_LOSS_SECTIONS],
+}
+
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub(crate) enum DriveRt {
     None,
@@ -94,6 +107,8 @@ pub struct Solver<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM:
     pub(crate) juncs: [JunctionRt; JUNCS],
     pub(crate) elements: [ElementRt; PORTS],
     pub(crate) n_elements: usize,
+    pub(crate) losses: [LossRt<P::Wave>; PORTS],
+    pub(crate) n_losses: usize,
     pub(crate) probes: [ProbeRt; MAX_PROBES],
     pub(crate) probe_out: [i32; MAX_PROBES],
     pub(crate) hist: [P::Wave; HIST],
@@ -128,6 +143,16 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
             juncs: [JunctionRt::Unused; JUNCS],
             elements: [ElementRt { port: 0, mu: 0, negate: false }; PORTS],
             n_elements: 0,
+            losses: [LossRt {
+                port: 0,
+                sections: 0,
+                g: [0; MAX_LOSS_SECTIONS],
+                gb: [0; MAX_LOSS_SECTIONS],
+                a: [0; MAX_LOSS_SECTIONS],
+                x1: [P::ZERO; MAX_LOSS_SECTIONS],
+                y1: [P::ZERO; MAX_LOSS_SECTIONS],
+            }; PORTS],
+            n_losses: 0,
             probes: [ProbeRt { current: false, port: 0, z_milliohm: 1 }; MAX_PROBES],
             probe_out: [0; MAX_PROBES],
             hist: [P::ZERO; HIST],
@@ -153,6 +178,10 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
         self.hist.iter_mut().for_each(|w| *w = P::ZERO);
         self.probe_out.iter_mut().for_each(|w| *w = 0);
         self.hist_pos = 0;
+        for l in self.losses.iter_mut() {
+            l.x1 = [P::ZERO; MAX_LOSS_SECTIONS];
+            l.y1 = [P::ZERO; MAX_LOSS_SECTIONS];
+        }
         for (c, s) in self.cursor.iter_mut().zip(self.start.iter()) {
             *c = *s;
         }
@@ -286,6 +315,24 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
             let next = c.wrapping_add(1);
             *c = if next == *e { *s } else { next };
             *b = self.mem.get(*c as usize).copied().unwrap_or(P::ZERO);
+        }
+        // Lossy lines: the wave arriving at each end passes the line's loss filter (an LTI
+        // filter commutes with the delay, so filtering at the arrival is the same line).
+        let n_loss = self.n_losses.min(PORTS);
+        for l in self.losses.iter_mut().take(n_loss) {
+            let Some(b) = self.b.get_mut(l.port as usize) else {
+                continue;
+            };
+            let mut x = *b;
+            let k = (l.sections as usize).min(MAX_LOSS_SECTIONS);
+            let sections = l.x1.iter_mut().zip(l.y1.iter_mut()).zip(l.g.iter().zip(l.gb.iter()).zip(l.a.iter()));
+            for ((x1, y1), ((g, gb), a)) in sections.take(k) {
+                let y = P::loss_section(x, *x1, *y1, *g, *gb, *a);
+                *x1 = x;
+                *y1 = y;
+                x = y;
+            }
+            *b = x;
         }
     }
 

@@ -103,8 +103,8 @@ fn drive<P: Profile, const A: usize, const B: usize, const C: usize>(
             };
         }
         let input = match &c.host_drive {
-            HostDrive::Source { emf } => code(c.host_drive.emf_at(n), vpc),
-            HostDrive::Rig { emf, dut_resistance, r_ref, latency } => {
+            HostDrive::Source { .. } => code(c.host_drive.emf_at(n), vpc),
+            HostDrive::Rig { dut_resistance, r_ref, latency, .. } => {
                 // The pin: device EMF e behind Rd, and the rig's reference resistor to the DAC,
                 // which shows the value the core computed `latency` samples ago:
                 // v = (e/Rd + V_dac/R_ref) / (1/Rd + 1/R_ref).

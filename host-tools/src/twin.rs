@@ -38,6 +38,14 @@ pub fn run(c: &Compiled, samples: usize, record: &[u16]) -> Run {
     let mut a = vec![0.0; 2 * nl];
     let mut b = vec![0.0; 2 * nl];
     let mut el_state = vec![0.0; c.elements.len()];
+    // Loss filters at both ends of lossy lines: (port, sections (a, g, gb), state (x1, y1)).
+    let mut filters: Vec<(usize, Vec<(f64, f64, f64)>, Vec<(f64, f64)>)> = vec![];
+    for l in &c.losses {
+        let q = crate::compile::loss::quantized(l, 30);
+        for side in 0..2 {
+            filters.push((2 * l.line as usize + side, q.clone(), vec![(0.0, 0.0); q.len()]));
+        }
+    }
     let mut el_a = vec![0.0; c.elements.len()];
     let mut st = State {
         shunt: c.junctions.iter().map(|j| if let Junction::Node { shunt } = j { *shunt } else { Shunt::Open }).collect(),
@@ -58,7 +66,6 @@ pub fn run(c: &Compiled, samples: usize, record: &[u16]) -> Run {
         (Drive::Rig { junction, .. }, HostDrive::Rig { dut_resistance, .. }) => (Some(junction as usize), 1.0 / dut_resistance),
         _ => (None, 0.0),
     };
-    let emf = c.host_drive.emf();
     let mut out = Run { probes: vec![Vec::with_capacity(samples); c.probes.len()], ..Run::default() };
     out.line_a = vec![Vec::with_capacity(samples); record.len()];
     let mut ev = c.events.iter().peekable();
@@ -72,6 +79,17 @@ pub fn run(c: &Compiled, samples: usize, record: &[u16]) -> Run {
         let e = c.host_drive.emf_at(n);
         for p in 0..2 * nl {
             b[p] = rings[p][pos[p]];
+        }
+        // y = g·x − gb·x[n−1] + a·y[n−1] per section, on the wave arriving at the end.
+        for (port, q, st) in filters.iter_mut() {
+            let mut x = b[*port];
+            for ((a, g, gb), (x1, y1)) in q.iter().zip(st.iter_mut()) {
+                let y = g * x - gb * *x1 + a * *y1;
+                *x1 = x;
+                *y1 = y;
+                x = y;
+            }
+            b[*port] = x;
         }
         for (j, junc) in c.junctions.iter().enumerate() {
             match junc {

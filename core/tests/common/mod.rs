@@ -21,6 +21,7 @@ impl Owned {
             lines: &self.lines,
             junctions: &self.junctions,
             elements: &self.elements,
+            losses: &[],
             drive: self.drive,
             probes: &self.probes,
             io_shift: self.io_shift,

@@ -74,6 +74,20 @@ pub fn report_text(plant: &Plant, c: &Compiled, file: &str) -> String {
             if t.r_dropped { "  (R dropped: one-sample segment)" } else { "" }
         );
     }
+    if r.segments.iter().any(|t| t.loss_fit_db.is_some()) {
+        let _ = writeln!(s, "\n-- frequency-dependent loss (filters in the lines, fitted over fs/10^4 .. 0.4 fs)");
+        for t in r.segments.iter().filter(|t| t.loss_fit_db.is_some()) {
+            let _ = writeln!(
+                s,
+                "   {:<18} loss at 0.4 fs {:>7.2} dB   largest fit error {:.3} dB   in-band extra delay {} (+{} samples)",
+                t.name,
+                t.loss_edge_db,
+                t.loss_fit_db.unwrap_or(0.0),
+                eng(t.dispersion_s, "s"),
+                t.dispersion_samples
+            );
+        }
+    }
     let _ = writeln!(s, "\n-- reflection coefficient for a wave arriving at a node on a segment (resistive parts)");
     for g in &r.reflections {
         let _ = writeln!(s, "   {:<14} <- {:<18} Γ = {:+.4}", g.node, g.segment, g.gamma);

@@ -16,6 +16,7 @@
 //!   f64 twin for the plant's own drive, with headroom (see [`scale`]).
 pub mod budget;
 mod loads;
+pub mod loss;
 mod report;
 mod scale;
 mod segments;
@@ -24,7 +25,7 @@ pub use report::{Report, SegmentTiming};
 pub use segments::{LinePiece, SECTION_R_OVER_Z0};
 
 use crate::plant::{Drive as PlantDrive, EventAction, Load, Plant, ProbeKind as PlantProbe, End, PlantError, Span};
-use tidewire_core::{Drive, Element, Junction, JunctionId, Line, Network, Probe, ProbeKind, Shunt, Side};
+use tidewire_core::{Drive, Element, Junction, JunctionId, Line, LineLoss, Network, Probe, ProbeKind, Shunt, Side};
 
 /// Which number profile a configuration is compiled for.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -91,6 +92,7 @@ pub struct Compiled {
     pub lines: Vec<Line>,
     pub junctions: Vec<Junction>,
     pub elements: Vec<Element>,
+    pub losses: Vec<LineLoss>,
     pub probes: Vec<Probe>,
     pub drive: Drive,
     pub io_shift: u8,
@@ -117,6 +119,7 @@ impl Compiled {
             lines: &self.lines,
             junctions: &self.junctions,
             elements: &self.elements,
+            losses: &self.losses,
             drive: self.drive,
             probes: &self.probes,
             io_shift: self.io_shift,
@@ -146,7 +149,11 @@ pub(crate) fn err(file: &str, span: Span, field: impl Into<String>, message: imp
 pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compiled, PlantError> {
     let dt = 1.0 / plant.sample_rate;
     let samples = ((plant.duration / dt).round() as usize).max(1);
-    let mut b = segments::Builder::new(plant, file, dt);
+    let frac = match profile {
+        ProfileKind::Wide => <tidewire_core::Wide as tidewire_core::Profile>::LOSS_FRAC,
+        ProfileKind::Narrow => <tidewire_core::Narrow as tidewire_core::Profile>::LOSS_FRAC,
+    };
+    let mut b = segments::Builder::new(plant, file, dt, frac);
 
     // Junctions for the plant's nodes first, so node n is junction n.
     let mut node_elements = Vec::new();
@@ -194,7 +201,7 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
         }
     }
     let report_segments = std::mem::take(&mut b.timings);
-    let (lines, mut junctions, segment_pieces) = (b.lines, b.junctions, b.pieces);
+    let (lines, junctions, segment_pieces, losses) = (b.lines, b.junctions, b.pieces, b.losses);
     let mut elements = node_elements;
     elements.sort_by_key(|e| e.junction);
 
@@ -216,8 +223,8 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
                     "the emulation is exact only when the reference resistor equals the port's characteristic impedance",
                 ));
             }
-            if let Some(Junction::Node { shunt }) = junctions.get_mut(*node) {
-                if *shunt != Shunt::Open || elements.iter().any(|e| e.junction as usize == *node) {
+            if let Some(Junction::Node { shunt }) = junctions.get(*node).copied() {
+                if shunt != Shunt::Open || elements.iter().any(|e| e.junction as usize == *node) {
                     return Err(err(
                         file,
                         plant.nodes[*node].span,
@@ -314,6 +321,7 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
         lines,
         junctions,
         elements,
+        losses,
         probes,
         drive,
         io_shift: 0,

@@ -22,6 +22,14 @@ pub struct SegmentTiming {
     pub sections: usize,
     /// The resistance could not be placed (segment of one sample).
     pub r_dropped: bool,
+    /// Largest error of the loss filters' fit over [fs/10⁴, 0.4·fs], dB (None: no loss).
+    pub loss_fit_db: Option<f64>,
+    /// Frequency-dependent loss of the whole segment at 0.4·fs, dB.
+    pub loss_edge_db: f64,
+    /// In-band delay beyond length/v from the lossy cable, s, and the whole samples added
+    /// to the lines for it.
+    pub dispersion_s: f64,
+    pub dispersion_samples: u32,
 }
 
 /// Reflection coefficient seen by a wave arriving at a node on one segment.

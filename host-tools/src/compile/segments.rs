@@ -1,7 +1,7 @@
 //! Segments to core lines: delay quantization, lumped conductor resistance, break nodes.
 use super::{err, report::SegmentTiming, to_milliohm};
 use crate::plant::{Plant, PlantError, Segment};
-use tidewire_core::{Junction, JunctionId, Line, Shunt};
+use tidewire_core::{Junction, JunctionId, Line, LineLoss, Shunt};
 
 /// Largest R/Z0 of one lumped section. Each section puts its resistance R/n in its middle;
 /// a finer cut makes the lumped line approach the distributed one. The value 0.05 keeps one
@@ -24,15 +24,17 @@ pub(super) struct Builder<'p> {
     plant: &'p Plant,
     file: &'p str,
     dt: f64,
+    frac: u32,
     pub lines: Vec<Line>,
+    pub losses: Vec<LineLoss>,
     pub junctions: Vec<Junction>,
     pub pieces: Vec<Vec<LinePiece>>,
     pub timings: Vec<SegmentTiming>,
 }
 
 impl<'p> Builder<'p> {
-    pub fn new(plant: &'p Plant, file: &'p str, dt: f64) -> Self {
-        Builder { plant, file, dt, lines: vec![], junctions: vec![], pieces: vec![], timings: vec![] }
+    pub fn new(plant: &'p Plant, file: &'p str, dt: f64, frac: u32) -> Self {
+        Builder { plant, file, dt, frac, lines: vec![], losses: vec![], junctions: vec![], pieces: vec![], timings: vec![] }
     }
 
     fn new_junction(&mut self, j: Junction) -> Result<JunctionId, PlantError> {
@@ -85,6 +87,10 @@ impl<'p> Builder<'p> {
             r_total,
             sections: 0,
             r_dropped: false,
+            loss_fit_db: None,
+            loss_edge_db: 0.0,
+            dispersion_s: 0.0,
+            dispersion_samples: 0,
         });
 
         // Sub-runs between breaks: [0, d1], [d1, d2], ..., [dk, length].
@@ -157,6 +163,7 @@ impl<'p> Builder<'p> {
         len_m: f64,
     ) -> Result<(), PlantError> {
         let z = to_milliohm(z0);
+        let cable = &self.plant.cables[self.plant.segments[self.pieces.len()].cable];
         // Sample positions of the section resistors: the middle of each section.
         let mut cuts: Vec<u32> = (0..n).map(|k| ((d as f64) * (2 * k + 1) as f64 / (2 * n) as f64).round() as u32).collect();
         cuts.dedup();
@@ -165,12 +172,33 @@ impl<'p> Builder<'p> {
         for (k, c) in cuts.iter().enumerate() {
             let j = self.new_junction(Junction::Series { milliohm: to_milliohm(r / cuts.len() as f64) })?;
             self.push_line(pieces, z, c - prev_s, prev_j, j, start_m, len_m, prev_s, *c, d);
+            self.add_loss(cable, pieces);
             prev_j = j;
             prev_s = *c;
             let _ = k;
         }
         self.push_line(pieces, z, d - prev_s, prev_j, b, start_m, len_m, prev_s, d, d);
+        self.add_loss(cable, pieces);
         Ok(())
+    }
+
+    /// Design the loss filter of the line just pushed (its own length of the cable).
+    fn add_loss(&mut self, cable: &crate::plant::CableType, pieces: &[LinePiece]) {
+        let Some(p) = pieces.last() else { return };
+        let fs = 1.0 / self.dt;
+        if let Some(d) = super::loss::design(cable, p.end_m - p.start_m, fs, p.line, self.frac) {
+            let extra = d.extra_delay.round().max(0.0) as u32;
+            if let Some(l) = self.lines.last_mut() {
+                l.delay += extra;
+            }
+            if let Some(t) = self.timings.last_mut() {
+                t.dispersion_s += d.extra_delay * self.dt;
+                t.dispersion_samples += extra;
+                t.loss_fit_db = Some(t.loss_fit_db.unwrap_or(0.0).max(d.max_error_db));
+                t.loss_edge_db += d.edge_loss_db;
+            }
+            self.losses.push(d.loss);
+        }
     }
 
     #[allow(clippy::too_many_arguments)]
