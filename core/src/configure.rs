@@ -68,7 +68,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
     pub fn load(&mut self, net: &Network<'_>) -> Result<(), BuildError> {
         let r = self.load_inner(net);
         if r.is_err() {
-            *self = Self::new();
+            self.clear();
         }
         r
     }
@@ -406,6 +406,20 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
         self.volts_per_code = net.volts_per_code;
         self.reset();
         Ok(())
+    }
+
+    /// Forget the network in place (no stack temporary of the solver's size, which a
+    /// Cortex-M0 could not afford): the solver then steps as a network without drive.
+    fn clear(&mut self) {
+        self.n_ports = 0;
+        self.n_lines = 0;
+        self.n_juncs = 0;
+        self.n_probes = 0;
+        self.n_elements = 0;
+        self.n_losses = 0;
+        self.mem_used = 0;
+        self.drive = DriveRt::None;
+        self.reset();
     }
 
     /// Change a node's shunt between two samples (for example a terminator removed).

@@ -95,3 +95,38 @@ fn failed_writes_leave_nothing_half_written() {
     tidewire().args(["inspect", "/no/such/plant.toml"]).assert().code(2);
     tidewire().args(["frobnicate"]).assert().code(2);
 }
+
+#[test]
+fn motor_cable_sweep_reproduces_the_critical_length_rule() {
+    // Critical length l_c = v·t_rise/2 (Persson, IEEE Trans. IA 28(5), 1992 [memory];
+    // shared/REFERENCES.md): 100 ns rise at v = 1.5e8 m/s gives 7.5 m. Far beyond l_c the
+    // wave reaches the motor whole and reflects: peak = (1 + Γ_L)·Z0/(Z0 + Rs) of the step
+    // with Γ_L = (2000 − 80)/(2000 + 80) for the demo's 80 Ω cable, 2 kΩ motor and 4 Ω
+    // drive [closed form] = 1.831; well below l_c the peak stays near the step.
+    let p = plants().into_iter().find(|p| p.to_string_lossy().contains("drive-to-motor")).unwrap();
+    let out = tmp("sweep");
+    let svg = out.join("sweep.svg");
+    let a = tidewire()
+        .args(["sweep", p.to_str().unwrap(), "--segment", "motor-feed", "--probe", "motor terminals", "--from", "1", "--to", "120", "--steps", "6", "--svg", svg.to_str().unwrap()])
+        .assert()
+        .success();
+    let text = String::from_utf8_lossy(&a.get_output().stdout).into_owned();
+    assert!(text.contains("critical length l_c = v·t_rise/2 = 7.50 m"), "{text}");
+    let rows: Vec<(f64, f64)> = text
+        .lines()
+        .filter_map(|l| {
+            let mut it = l.split_whitespace();
+            let len = it.next()?.parse::<f64>().ok()?;
+            let _m = it.next()?;
+            Some((len, it.next()?.parse::<f64>().ok()?))
+        })
+        .collect();
+    assert_eq!(rows.len(), 6, "{text}");
+    let gamma = (2000.0 - 80.0) / (2000.0 + 80.0);
+    let far = (1.0 + gamma) * 80.0 / 84.0;
+    let (l_long, p_long) = rows[5];
+    assert!((l_long - 120.0).abs() < 1e-6 && (p_long - far).abs() < 0.02 * far, "120 m: {p_long} vs {far}");
+    let (l_short, p_short) = rows[0];
+    assert!(l_short == 1.0 && p_short < 1.2, "1 m: {p_short}");
+    assert!(std::fs::read_to_string(&svg).unwrap().contains("critical length"));
+}

@@ -9,6 +9,8 @@ use std::path::Path;
 
 /// The built-in demo plant: a packaging-line fieldbus with a missing far-end terminator.
 pub const DEMO_PLANT: &str = include_str!("../../../examples/plants/packaging-line.toml");
+/// The second built-in plant: a motor drive on a long cable, swept over cable length.
+pub const MOTOR_PLANT: &str = include_str!("../../../examples/plants/drive-to-motor.toml");
 const DEMO_NAME: &str = "packaging-line.toml";
 
 pub(super) fn run(out: &Path) -> Result<i32, Failure> {
@@ -37,5 +39,14 @@ pub(super) fn run(out: &Path) -> Result<i32, Failure> {
     println!("wrote pictures    {} and {}", svg.display(), lat.display());
     println!("wrote comparison  {}\n", vcsv.display());
     print!("{}", verdict_text(&plant, &c, &v));
+
+    // The drive-to-motor plant: peak motor terminal voltage against cable length.
+    let motor_path = out.join("drive-to-motor.toml");
+    crate::emit::write_atomic(&motor_path, MOTOR_PLANT.as_bytes()).map_err(|e| io_failure(&motor_path, e))?;
+    let motor = parse_plant(MOTOR_PLANT, &motor_path.display().to_string(), out)?;
+    println!("\n!! {}", super::inspect::CAUTION);
+    let sweep_svg = out.join("motor-sweep.svg");
+    super::sweep::run(&motor_path, "motor-feed", "motor terminals", 1.0, 200.0, 16, Some(&sweep_svg), ProfileKind::Wide)?;
+    let _ = motor;
     Ok(if v.pass() { 0 } else { 1 })
 }

@@ -4,6 +4,7 @@ mod demo;
 mod inspect;
 mod output;
 mod simulate;
+pub mod sweep;
 mod verify_cmd;
 
 use crate::compile::{compile, Compiled, ProfileKind};
@@ -78,6 +79,27 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "wide")]
         profile: ProfileArg,
     },
+    /// Vary one segment's length and report the peak of one probe (e.g. motor terminal
+    /// voltage against cable length).
+    Sweep {
+        plant: PathBuf,
+        #[arg(long)]
+        segment: String,
+        #[arg(long)]
+        probe: String,
+        /// Shortest length, metres.
+        #[arg(long, default_value_t = 1.0)]
+        from: f64,
+        /// Longest length, metres.
+        #[arg(long, default_value_t = 200.0)]
+        to: f64,
+        #[arg(long, default_value_t = 16)]
+        steps: usize,
+        #[arg(long, value_name = "OUT.svg")]
+        svg: Option<PathBuf>,
+        #[arg(long, value_enum, default_value = "wide")]
+        profile: ProfileArg,
+    },
     /// The main job on a built-in demo plant: inspect, compile, simulate, verify.
     Demo {
         /// Folder for the files the demo writes.
@@ -124,6 +146,9 @@ pub fn main() -> i32 {
         Command::Simulate { plant, samples, csv, profile } => simulate::run(&plant, samples, &csv, profile.into()),
         Command::Verify { plant, svg, lattice, csv, profile } => {
             verify_cmd::run(&plant, svg.as_deref(), lattice.as_deref(), csv.as_deref(), profile.into())
+        }
+        Command::Sweep { plant, segment, probe, from, to, steps, svg, profile } => {
+            sweep::run(&plant, &segment, &probe, from, to, steps, svg.as_deref(), profile.into())
         }
         Command::Demo { out } => demo::run(&out),
     };

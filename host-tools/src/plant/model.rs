@@ -112,6 +112,11 @@ pub enum Waveform {
     Pulse { amplitude: f64, delay: f64, width: f64, rise: f64 },
     /// Samples at the plant's sample rate, from a CSV file (one volt value per sample).
     Samples(Vec<f64>),
+    /// A half-bridge PWM output swinging between +amplitude and −amplitude: high for
+    /// duty·period, then `dead_time` at 0 V (both switches off, the output modelled at the
+    /// mid-point), low until `dead_time` before the period ends, then 0 V again. Every edge
+    /// is a linear ramp of 10–90 % time `rise`; the first period starts at `delay`.
+    Pwm { amplitude: f64, period: f64, duty: f64, dead_time: f64, rise: f64, delay: f64 },
 }
 
 impl Waveform {
@@ -138,6 +143,15 @@ impl Waveform {
                 let i = (t / dt).round();
                 if i < 0.0 { 0.0 } else { v.get(i as usize).copied().unwrap_or(0.0) }
             }
+            Waveform::Pwm { amplitude, period, duty, dead_time, rise, delay } => {
+                if t < *delay || *period <= 0.0 {
+                    return 0.0;
+                }
+                let tau = (t - delay) % period;
+                let on = duty * period;
+                let r = |x: f64| ramp(x, 0.0, *rise);
+                amplitude * (r(tau) - r(tau - on)) - amplitude * (r(tau - on - dead_time) - r(tau - period + dead_time))
+            }
         }
     }
 
@@ -150,7 +164,7 @@ impl Waveform {
     pub fn final_value(&self) -> f64 {
         match self {
             Waveform::Step { amplitude, .. } => *amplitude,
-            Waveform::Pulse { .. } => 0.0,
+            Waveform::Pulse { .. } | Waveform::Pwm { .. } => 0.0,
             Waveform::Samples(v) => v.last().copied().unwrap_or(0.0),
         }
     }
@@ -158,7 +172,9 @@ impl Waveform {
     /// The largest magnitude the waveform reaches, V.
     pub fn peak(&self) -> f64 {
         match self {
-            Waveform::Step { amplitude, .. } | Waveform::Pulse { amplitude, .. } => amplitude.abs(),
+            Waveform::Step { amplitude, .. } | Waveform::Pulse { amplitude, .. } | Waveform::Pwm { amplitude, .. } => {
+                amplitude.abs()
+            }
             Waveform::Samples(v) => v.iter().fold(0.0, |m, x| m.max(x.abs())),
         }
     }

@@ -93,6 +93,10 @@ pub struct RawSegment {
 pub struct RawWaveform {
     pub step: Option<Raw>,
     pub pulse: Option<Raw>,
+    pub pwm: Option<Raw>,
+    pub period: Option<Raw>,
+    pub duty: Option<Raw>,
+    pub dead_time: Option<Raw>,
     pub samples: Option<Text>,
     pub rise: Option<Raw>,
     pub delay: Option<Raw>,

@@ -195,6 +195,14 @@ pub fn waveform(
             non_negative(src, r, UnitKind::Time, &sub(name), name)
         })
     };
+    if let Some(level) = &w.pwm {
+        return pwm(src, raw, level, field, base_dir);
+    }
+    for (r, name) in [(&w.period, "period"), (&w.duty, "duty"), (&w.dead_time, "dead_time")] {
+        if let Some(r) = r {
+            return Err(src.error(r.span(), sub(name), format!("`{name}` belongs to a pwm waveform"), "remove it, or write `pwm = ..`"));
+        }
+    }
     // (amplitude, is_pulse) for the edge forms; the samples form returns from here.
     let (level, is_pulse) = match (&w.step, &w.pulse, &w.samples) {
         (Some(step), None, None) => (step, false),
@@ -253,6 +261,37 @@ pub fn waveform(
             })
         }
     }
+}
+
+/// `{ pwm = "24 V", period = "10 us", duty = "30 %", dead_time = "200 ns", rise = "50 ns",
+/// delay = "0 s" }`: a half-bridge output between ±amplitude with dead time.
+fn pwm(src: &Source, raw: &toml::Spanned<RawWaveform>, level: &Raw, field: &str, _base_dir: &Path) -> Result<Waveform, PlantError> {
+    let w = raw.get_ref();
+    let sub = |name: &str| format!("{field}.{name}");
+    if w.step.is_some() || w.pulse.is_some() || w.samples.is_some() || w.width.is_some() {
+        return Err(src.error(raw.span(), field, "a pwm waveform takes no `step`, `pulse`, `samples` or `width`", "keep only pwm, period, duty, dead_time, rise, delay"));
+    }
+    let need = |r: &Option<Raw>, name: &str, hint: &str| -> Result<Raw, PlantError> {
+        r.clone().ok_or_else(|| src.error(raw.span(), sub(name), format!("a pwm waveform needs `{name}`"), hint.to_string()))
+    };
+    let amplitude = quantity(src, level, UnitKind::Voltage, &sub("pwm"))?;
+    let period = positive(src, &need(&w.period, "period", "add e.g. period = \"10 us\"")?, UnitKind::Time, &sub("period"), "period")?;
+    let duty_raw = need(&w.duty, "duty", "add e.g. duty = \"30 %\"")?;
+    let duty = quantity(src, &duty_raw, UnitKind::Fraction, &sub("duty"))?;
+    let time = |r: &Option<Raw>, name: &str| -> Result<f64, PlantError> {
+        r.as_ref().map_or(Ok(0.0), |r| non_negative(src, r, UnitKind::Time, &sub(name), name))
+    };
+    let dead_time = time(&w.dead_time, "dead_time")?;
+    let rise = time(&w.rise, "rise")?;
+    let delay = time(&w.delay, "delay")?;
+    if !(duty > 0.0 && duty < 1.0) {
+        return Err(src.error(duty_raw.span(), sub("duty"), format!("duty must lie between 0 and 100 %, got {}", duty * 100.0), "write e.g. duty = \"30 %\""));
+    }
+    let on = duty * period;
+    if dead_time >= on.min(period - on) {
+        return Err(src.error(raw.span(), sub("dead_time"), "dead time is longer than the high or the low phase", "shorten dead_time or move duty towards 50 %"));
+    }
+    Ok(Waveform::Pwm { amplitude, period, duty, dead_time, rise, delay })
 }
 
 /// One value in volts per line; an optional non-numeric first line (a header), blank lines

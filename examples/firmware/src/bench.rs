@@ -1,0 +1,166 @@
+//! One plant on one number profile: load it twice (from the `include!`d Rust source and from
+//! the `include_bytes!` image), hash both runs for both stimuli, then time the per-sample loop.
+//!
+//! Timing uses SysTick on the core clock (CLKSOURCE = 1), a 24-bit down-counter. Writing its
+//! current-value register restarts the count, so every timed block starts at the same phase
+//! of a tick and two blocks with equal instruction counts read exactly the same ticks under
+//! `-icount`. The conversion to instructions (ticks · 10^9 / f_systick / 2^shift) is done by
+//! the host, which knows the `-icount shift` it ran QEMU with.
+
+use crate::out::Out;
+use crate::stimulus::{run_hashed, Stimulus, SAMPLES, SEEDS};
+
+/// Samples per timed block (keeps a block far below one 24-bit wrap at `-icount shift=6`).
+pub const TIMED: u32 = 1024;
+use cortex_m::peripheral::{syst::SystClkSource, SYST};
+use tidewire_core::{Network, Profile, Solver};
+
+/// SysTick reload: the full 24 bits.
+const RELOAD: u32 = 0x00ff_ffff;
+
+/// Start SysTick free-running on the core clock.
+pub fn start_timer(syst: &mut SYST) {
+    syst.set_clock_source(SystClkSource::Core);
+    syst.set_reload(RELOAD);
+    syst.clear_current();
+    syst.enable_counter();
+}
+
+/// Restart the count and return the start reading.
+#[inline(always)]
+fn mark(syst: &mut SYST) -> u32 {
+    syst.clear_current();
+    SYST::get_current()
+}
+
+/// Ticks elapsed since `start` (mod 2^24; blocks are kept far below one wrap).
+#[inline(always)]
+fn elapsed(start: u32) -> u32 {
+    start.wrapping_sub(SYST::get_current()) & RELOAD
+}
+
+/// Ticks of a calibration loop of a known instruction count (`cortex_m::asm::delay`).
+pub fn calibrate(syst: &mut SYST, out: &mut Out, cycles: u32) {
+    let t0 = mark(syst);
+    cortex_m::asm::delay(cycles);
+    let t = elapsed(t0);
+    out.str("CLOCK").hex(cycles).hex(t).nl();
+}
+
+/// Ticks of the stimulus loop alone (the same loop as [`time_steps`] without the solver).
+#[inline(never)]
+pub fn time_baseline(syst: &mut SYST, seed: u32) -> u32 {
+    let mut stim = Stimulus::new(seed, TIMED);
+    let mut sink = 0i16;
+    let t0 = mark(syst);
+    for _ in 0..TIMED {
+        sink ^= core::hint::black_box(stim.next_code());
+    }
+    let t = elapsed(t0);
+    core::hint::black_box(sink);
+    t
+}
+
+/// Ticks of `TIMED` calls of `step` (plus the stimulus loop) from rest.
+#[inline(never)]
+fn time_steps<P: Profile, const PO: usize, const J: usize, const M: usize>(
+    syst: &mut SYST,
+    solver: &mut Solver<P, PO, J, M>,
+    seed: u32,
+) -> u32 {
+    solver.reset();
+    let mut stim = Stimulus::new(seed, TIMED);
+    let mut sink = 0i16;
+    let t0 = mark(syst);
+    for _ in 0..TIMED {
+        let x = stim.next_code();
+        #[cfg(feature = "inject-panic")]
+        let x = core::hint::black_box(Some(x)).unwrap();
+        sink ^= solver.step(x);
+    }
+    let t = elapsed(t0);
+    core::hint::black_box(sink);
+    t
+}
+
+/// `Solver::load`, out of line: its temporaries (on the M0 several KB) live in this frame
+/// only while loading, not in `run_plant`'s for the whole run.
+#[inline(never)]
+fn load<P: Profile, const PO: usize, const J: usize, const M: usize>(
+    solver: &mut Solver<P, PO, J, M>,
+    net: &Network<'static>,
+) -> bool {
+    solver.load(net).is_ok()
+}
+
+/// `Solver::load_image`, out of line for the same reason (the decoded network is a local).
+#[inline(never)]
+fn load_image<P: Profile, const PO: usize, const J: usize, const M: usize>(
+    solver: &mut Solver<P, PO, J, M>,
+    image: &[u8],
+) -> bool {
+    solver.load_image(image).is_ok()
+}
+
+/// Run one plant: hashes from both load paths, then timings. Returns false on a load error.
+#[inline(never)]
+pub fn run_plant<P: Profile, const PO: usize, const J: usize, const M: usize>(
+    syst: &mut SYST,
+    out: &mut Out,
+    profile: &str,
+    name: &str,
+    net: &Network<'static>,
+    image: &[u8],
+) -> bool {
+    // On the stack: the frame is given back before the next plant runs.
+    let mut solver: Solver<P, PO, J, M> = Solver::new();
+    out.str("RAM")
+        .word(profile)
+        .word(name)
+        .hex(core::mem::size_of::<Solver<P, PO, J, M>>() as u32)
+        .nl();
+    for from_image in [false, true] {
+        let source = if from_image { "image" } else { "source" };
+        let ok = if from_image {
+            load_image(&mut solver, image)
+        } else {
+            load(&mut solver, net)
+        };
+        if !ok {
+            out.str("ERROR load")
+                .word(profile)
+                .word(name)
+                .word(source)
+                .nl();
+            return false;
+        }
+        for (i, seed) in SEEDS.iter().enumerate() {
+            let h = run_hashed(&mut solver, *seed, SAMPLES);
+            out.str("HASH")
+                .word(profile)
+                .word(name)
+                .word(source)
+                .hex(i as u32)
+                .hex(h)
+                .nl();
+        }
+    }
+    out.str("PORTS")
+        .word(profile)
+        .word(name)
+        .hex(solver.port_count() as u32)
+        .nl();
+    for (i, seed) in SEEDS.iter().enumerate() {
+        let t = time_steps(syst, &mut solver, *seed);
+        let base = time_baseline(syst, *seed);
+        out.str("TICKS")
+            .word(profile)
+            .word(name)
+            .hex(i as u32)
+            .hex(TIMED)
+            .hex(t)
+            .hex(base)
+            .nl();
+    }
+    true
+}

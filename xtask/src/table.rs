@@ -1,0 +1,129 @@
+//! Instruction counts from SysTick readings, and the results table.
+//!
+//! Under `qemu -icount shift=S` every guest instruction advances virtual time by 2^S ns, and
+//! SysTick (CLKSOURCE = 1) counts the board clock f in that virtual time, so
+//! instructions = ticks · (10^9 / f) / 2^S. At S = 0 one tick is 40 instructions on the
+//! mps2-an386 (25 MHz) and 62.5 on the micro:bit (16 MHz); at S = 6 one instruction is 64 ns,
+//! longer than a tick on both, so equal tick counts mean exactly equal instruction counts.
+
+use crate::parts::Part;
+use crate::plants::TestPlant;
+use crate::run::Report;
+
+/// One line of the table.
+pub struct Row {
+    part: &'static str,
+    profile: String,
+    plant: String,
+    ports: usize,
+    ram: u32,
+    samples: u32,
+    per_sample: f64,
+    per_port: f64,
+    /// Seed-0 and seed-1 tick counts equal at shift 0.
+    equal_coarse: bool,
+    /// Instruction difference seed 1 − seed 0 measured at shift 6 (0: exactly equal).
+    fine_diff: f64,
+}
+
+fn ns_per_tick(part: &Part) -> f64 {
+    1e9 / part.systick_hz
+}
+
+/// Instructions for `ticks` at `-icount shift`.
+fn instructions(part: &Part, ticks: f64, shift: u32) -> f64 {
+    ticks * ns_per_tick(part) / f64::from(1u32 << shift)
+}
+
+/// Check the calibration loop against the nominal SysTick clock; returns the measured Hz.
+///
+/// `cortex_m::asm::delay(c)` (cortex-m 0.7.10) runs c + 1 iterations of `subs; bne`:
+/// 2c + 2 instructions.
+pub fn check_clock(part: &Part, r: &Report, shift: u32) -> Result<f64, String> {
+    let (cycles, ticks) = r
+        .clock
+        .ok_or_else(|| format!("{}: no CLOCK line", part.name))?;
+    let insns = 2.0 * f64::from(cycles) + 2.0;
+    let hz = f64::from(ticks) / (insns * f64::from(1u32 << shift)) * 1e9;
+    if (hz / part.systick_hz - 1.0).abs() > 0.002 {
+        return Err(format!(
+            "{}: SysTick runs at {hz:.0} Hz by the calibration loop, expected {} Hz (shift {shift})",
+            part.name, part.systick_hz
+        ));
+    }
+    Ok(hz)
+}
+
+/// The table row of one plant on one part.
+pub fn row(
+    part: &Part,
+    profile: &str,
+    plant: &TestPlant,
+    coarse: &Report,
+    fine: &Report,
+) -> Result<Row, String> {
+    let get = |r: &Report, seed: u32| {
+        r.ticks
+            .get(&(profile.to_string(), plant.name.clone(), seed))
+            .copied()
+            .ok_or_else(|| {
+                format!(
+                    "{}: no TICKS for {profile} {} seed {seed}",
+                    part.name, plant.name
+                )
+            })
+    };
+    let (n, t0, b0) = get(coarse, 0)?;
+    let (_, t1, _) = get(coarse, 1)?;
+    let (_, f0, _) = get(fine, 0)?;
+    let (_, f1, _) = get(fine, 1)?;
+    let per_sample = instructions(part, f64::from(t0) - f64::from(b0), 0) / f64::from(n);
+    let ports = plant.ports();
+    Ok(Row {
+        part: part.name,
+        profile: profile.to_string(),
+        plant: plant.name.clone(),
+        ports,
+        ram: coarse
+            .ram
+            .get(&(profile.to_string(), plant.name.clone()))
+            .copied()
+            .unwrap_or(0),
+        samples: n,
+        per_sample,
+        per_port: per_sample / ports as f64,
+        equal_coarse: t0 == t1,
+        fine_diff: instructions(part, f64::from(f1) - f64::from(f0), 6),
+    })
+}
+
+/// Print the table (markdown, so docs/firmware.md can take it as is).
+pub fn print(rows: &[Row], clocks: &[(&str, f64)]) {
+    for (part, hz) in clocks {
+        println!(
+            "{part}: SysTick measured at {:.4} MHz (calibration loop, -icount shift=0)",
+            hz / 1e6
+        );
+    }
+    println!();
+    println!("| part | profile | plant | ports | solver RAM (B) | instr/sample | instr/port-update | stimuli equal (shift 0) | seed1 − seed0 instr (shift 6) |");
+    println!("|---|---|---|---:|---:|---:|---:|---|---:|");
+    for r in rows {
+        println!(
+            "| {} | {} | {} | {} | {} | {:.1} | {:.2} | {} | {:.1} |",
+            r.part,
+            r.profile,
+            r.plant,
+            r.ports,
+            r.ram,
+            r.per_sample,
+            r.per_port,
+            if r.equal_coarse { "yes" } else { "no" },
+            r.fine_diff
+        );
+    }
+    println!(
+        "\n({} samples per timed block from rest; the stimulus loop alone is subtracted)",
+        rows.first().map_or(0, |r| r.samples)
+    );
+}
