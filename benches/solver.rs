@@ -33,26 +33,13 @@ const TAP_MOHM: u32 = 10_000_000;
 
 /// The chain plant of `lines` lines of `delay` samples (see the module docs).
 fn chain(lines: usize, delay: u32) -> (Vec<Line>, Vec<Junction>) {
-    let line_list = (0..lines)
-        .map(|k| Line {
-            z_milliohm: Z_MOHM,
-            delay,
-            a: k as u16,
-            b: (k + 1) as u16,
-        })
-        .collect();
+    let line_list = (0..lines).map(|k| Line { z_milliohm: Z_MOHM, delay, a: k as u16, b: (k + 1) as u16 }).collect();
     let junctions = (0..=lines)
         .map(|j| match j {
             0 => Junction::Node { shunt: Shunt::Open },
-            _ if j == lines => Junction::Node {
-                shunt: Shunt::Resistor { milliohm: Z_MOHM },
-            },
-            _ if j % 2 == 1 => Junction::Series {
-                milliohm: SERIES_MOHM,
-            },
-            _ => Junction::Node {
-                shunt: Shunt::Resistor { milliohm: TAP_MOHM },
-            },
+            _ if j == lines => Junction::Node { shunt: Shunt::Resistor { milliohm: Z_MOHM } },
+            _ if j % 2 == 1 => Junction::Series { milliohm: SERIES_MOHM },
+            _ => Junction::Node { shunt: Shunt::Resistor { milliohm: TAP_MOHM } },
         })
         .collect();
     (line_list, junctions)
@@ -60,26 +47,18 @@ fn chain(lines: usize, delay: u32) -> (Vec<Line>, Vec<Junction>) {
 
 /// A square wave of ±8000 codes with a 256-sample period: the waves are never all zero.
 fn stimulus() -> Vec<i16> {
-    (0..BLOCK)
-        .map(|n| if (n / 128) % 2 == 0 { 8000 } else { -8000 })
-        .collect()
+    (0..BLOCK).map(|n| if (n / 128) % 2 == 0 { 8000 } else { -8000 }).collect()
 }
 
 /// Bench one (profile, ports, delay) case; `MEM` must be `PORTS · delay`.
-fn case<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>(
-    c: &mut Criterion,
-    delay: u32,
-) {
+fn case<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>(c: &mut Criterion, delay: u32) {
     let (lines, junctions) = chain(PORTS / 2, delay);
     let net = Network {
         lines: &lines,
         junctions: &junctions,
         elements: &[],
         losses: &[],
-        drive: Drive::Source {
-            junction: 0,
-            milliohm: Z_MOHM,
-        },
+        drive: Drive::Source { junction: 0, milliohm: Z_MOHM },
         probes: &[],
         io_shift: 0,
         volts_per_code: 1.0 / 4096.0,
@@ -87,24 +66,12 @@ fn case<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>(
     // Heap storage: up to 5 MB, more than a thread stack should carry (see `main` too).
     let mut solver: Box<Solver<P, PORTS, JUNCS, MEM>> = Box::default();
     solver.load(&net).expect("bench network is valid");
-    assert_eq!(
-        solver.port_count(),
-        PORTS,
-        "every port of the capacity is in use"
-    );
-    assert_eq!(
-        solver.memory_used(),
-        MEM,
-        "every wave of the storage is in use"
-    );
+    assert_eq!(solver.port_count(), PORTS, "every port of the capacity is in use");
+    assert_eq!(solver.memory_used(), MEM, "every wave of the storage is in use");
 
     let input = stimulus();
     let mut output = vec![0i16; BLOCK];
-    let name = if P::NAME.starts_with("wide") {
-        "wide"
-    } else {
-        "narrow"
-    };
+    let name = if P::NAME.starts_with("wide") { "wide" } else { "narrow" };
     let mut group = c.benchmark_group(format!("solver/{name}/{PORTS}ports"));
     group.throughput(Throughput::Elements((PORTS * BLOCK) as u64));
     group.bench_function(BenchmarkId::new("delay", delay), |b| {

@@ -38,36 +38,21 @@ const VOLTS_PER_CODE: f32 = 1.0 / 4096.0;
 
 /// A square wave of ±8000 codes, 256-sample period.
 fn stimulus_codes() -> Vec<i16> {
-    (0..BLOCK)
-        .map(|n| if (n / 128) % 2 == 0 { 8000 } else { -8000 })
-        .collect()
+    (0..BLOCK).map(|n| if (n / 128) % 2 == 0 { 8000 } else { -8000 }).collect()
 }
 
 fn core_case(c: &mut Criterion, length: f64) {
     // One-way delay in whole samples: length / (v·dt) [closed form].
     let delay = (length * SAMPLE_RATE / VELOCITY).round() as u32;
     let z = (Z0 * 1000.0) as u32;
-    let lines = [Line {
-        z_milliohm: z,
-        delay,
-        a: 0,
-        b: 1,
-    }];
-    let junctions = [
-        Junction::Node { shunt: Shunt::Open },
-        Junction::Node {
-            shunt: Shunt::Resistor { milliohm: z },
-        },
-    ];
+    let lines = [Line { z_milliohm: z, delay, a: 0, b: 1 }];
+    let junctions = [Junction::Node { shunt: Shunt::Open }, Junction::Node { shunt: Shunt::Resistor { milliohm: z } }];
     let net = Network {
         lines: &lines,
         junctions: &junctions,
         elements: &[],
         losses: &[],
-        drive: Drive::Source {
-            junction: 0,
-            milliohm: z,
-        },
+        drive: Drive::Source { junction: 0, milliohm: z },
         probes: &[],
         io_shift: 8,
         volts_per_code: VOLTS_PER_CODE,
@@ -102,17 +87,10 @@ fn leapfrog_case(c: &mut Criterion, length: f64) {
     };
     let mut lf = Leapfrog::new(&setup).expect("bench setup is valid");
     let cells = (length * SAMPLE_RATE / VELOCITY).round() as usize;
-    assert_eq!(
-        lf.cells(),
-        cells,
-        "Courant number 1: one cell per sample of delay"
-    );
+    assert_eq!(lf.cells(), cells, "Courant number 1: one cell per sample of delay");
 
     // The same stimulus as the core's, in volts.
-    let input: Vec<f64> = stimulus_codes()
-        .iter()
-        .map(|x| f64::from(*x) * f64::from(VOLTS_PER_CODE))
-        .collect();
+    let input: Vec<f64> = stimulus_codes().iter().map(|x| f64::from(*x) * f64::from(VOLTS_PER_CODE)).collect();
     let mut output = vec![0.0f64; BLOCK];
     let mut group = c.benchmark_group("versus_leapfrog/leapfrog_f64");
     group.throughput(Throughput::Elements(BLOCK as u64));

@@ -22,7 +22,9 @@ fn image_and_rust_source_give_the_same_solver() {
     // The checked-in Rust source is what `tidewire compile --rust` writes today
     // (regenerate with: tidewire compile examples/plants/bench-rig.toml --rust tests/generated/bench_rig_wide.rs).
     let fresh = rust_source(&c.network(), &p.name);
-    let checked_in = std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/generated/bench_rig_wide.rs")).unwrap();
+    let checked_in =
+        std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/generated/bench_rig_wide.rs"))
+            .unwrap();
     assert_eq!(fresh, checked_in, "tests/generated/bench_rig_wide.rs is stale");
 
     // Image round trip: decoding gives back exactly the compiled network.

@@ -75,30 +75,18 @@ pub struct Leapfrog {
 impl Leapfrog {
     /// Build the grid with the fewest cells that keep the Courant number at or below 1.
     pub fn new(s: &Setup) -> Result<Self, String> {
-        let positive = [
-            ("z0", s.z0),
-            ("velocity", s.velocity),
-            ("length", s.length),
-            ("dt", s.dt),
-        ];
+        let positive = [("z0", s.z0), ("velocity", s.velocity), ("length", s.length), ("dt", s.dt)];
         for (name, x) in positive.into_iter().chain([("source_ohm", s.source_ohm)]) {
             if !(x.is_finite() && x > 0.0) {
-                return Err(format!(
-                    "leapfrog setup: `{name}` must be finite and > 0, got {x}"
-                ));
+                return Err(format!("leapfrog setup: `{name}` must be finite and > 0, got {x}"));
             }
         }
         if !(s.r_per_m.is_finite() && s.r_per_m >= 0.0) {
-            return Err(format!(
-                "leapfrog setup: `r_per_m` must be finite and >= 0, got {}",
-                s.r_per_m
-            ));
+            return Err(format!("leapfrog setup: `r_per_m` must be finite and >= 0, got {}", s.r_per_m));
         }
         if let FarEnd::Resistor(r) = s.far {
             if !(r.is_finite() && r > 0.0) {
-                return Err(format!(
-                    "leapfrog setup: far-end resistor must be finite and > 0, got {r}"
-                ));
+                return Err(format!("leapfrog setup: far-end resistor must be finite and > 0, got {r}"));
             }
         }
         // cells = length / (v·dt), rounded up so that the Courant number v·dt/dx stays <= 1
@@ -171,10 +159,7 @@ impl Leapfrog {
                 *vk -= cv * (w[1] - w[0]);
             }
         }
-        let (i_first, i_last) = (
-            self.i.first().copied().unwrap_or(0.0),
-            self.i.last().copied().unwrap_or(0.0),
-        );
+        let (i_first, i_last) = (self.i.first().copied().unwrap_or(0.0), self.i.last().copied().unwrap_or(0.0));
         if let Some(v0) = self.v.first_mut() {
             *v0 = self.src_keep * *v0 + self.src_e * e_half - self.src_i * i_first;
         }

@@ -10,7 +10,9 @@
 //! zero (see the crate documentation).
 
 use crate::error::{BuildError, ConfigError, Table};
-use crate::network::{Drive, ElementKind, Junction, Network, MAX_LOSS_SECTIONS, ProbeKind, Shunt, Side, MAX_PROBES, MAX_RIG_LATENCY};
+use crate::network::{
+    Drive, ElementKind, Junction, Network, ProbeKind, Shunt, Side, MAX_LOSS_SECTIONS, MAX_PROBES, MAX_RIG_LATENCY,
+};
 use crate::profile::{reciprocal, Profile};
 use crate::solver::{DriveRt, ElementRt, JunctionRt, LossRt, Mode, ProbeRt, Solver};
 
@@ -60,9 +62,7 @@ fn mode_of(short: bool, broken: bool) -> Mode {
     }
 }
 
-impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
-    Solver<P, PORTS, JUNCS, MEM>
-{
+impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize> Solver<P, PORTS, JUNCS, MEM> {
     /// Validate `net`, compute every coefficient and reset the state. On error the solver is
     /// left empty (it steps as a network without drive).
     pub fn load(&mut self, net: &Network<'_>) -> Result<(), BuildError> {
@@ -98,9 +98,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
                 }
             }
         }
-        let ends_at = |j: usize| {
-            net.lines.iter().map(|l| (l.a as usize == j) as u16 + (l.b as usize == j) as u16).sum::<u16>()
-        };
+        let ends_at =
+            |j: usize| net.lines.iter().map(|l| (l.a as usize == j) as u16 + (l.b as usize == j) as u16).sum::<u16>();
         let elems_at = |j: usize| net.elements.iter().filter(|e| e.junction as usize == j).count() as u16;
         let ports_at = |j: usize| ends_at(j) + elems_at(j);
         for (k, e) in net.elements.iter().enumerate() {
@@ -225,7 +224,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
                 y1: [P::ZERO; MAX_LOSS_SECTIONS],
             };
             let one = 1u64 << P::LOSS_FRAC;
-            let coefs = ll.poles.iter().zip(ll.zeros.iter()).zip(rt.g.iter_mut().zip(rt.gb.iter_mut()).zip(rt.a.iter_mut()));
+            let coefs =
+                ll.poles.iter().zip(ll.zeros.iter()).zip(rt.g.iter_mut().zip(rt.gb.iter_mut()).zip(rt.a.iter_mut()));
             for ((pole, zero), ((rg, rgb), ra)) in coefs.take(n) {
                 let (pole, zero) = (*pole as i64, *zero as i64);
                 let one = one as i64;
@@ -234,8 +234,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
                 }
                 let a = pole >> (30 - P::LOSS_FRAC);
                 let b = zero >> (30 - P::LOSS_FRAC); // floor: b only moves away from a
-                // g = floor((1 − a)/(1 − b)), g·b rounded up: the DC gain (g − gb)/(1 − a)
-                // is at most 1 and the effective zero gb/g stays at or above b.
+                                                     // g = floor((1 − a)/(1 − b)), g·b rounded up: the DC gain (g − gb)/(1 − a)
+                                                     // is at most 1 and the effective zero gb/g stays at or above b.
                 let g = ((one - a) << P::LOSS_FRAC) / (one - b).max(1);
                 let gb = (g * b).div_euclid(one) + ((g * b).rem_euclid(one) != 0) as i64;
                 // Still a section that only attenuates: 0 < a, effective zero below the pole.
@@ -315,9 +315,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
             }
             s
         };
-        let is_scatter_node = |j: usize| {
-            matches!(net.junctions.get(j), Some(Junction::Node { .. })) && rig.map_or(true, |r| r.0 != j)
-        };
+        let is_scatter_node =
+            |j: usize| matches!(net.junctions.get(j), Some(Junction::Node { .. })) && rig.is_none_or(|r| r.0 != j);
         let mut k = 0u32;
         while k < TOP && (0..nj).any(|j| is_scatter_node(j) && node_sum(j, k) > budget) {
             k += 1;
@@ -330,7 +329,11 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
             set(&mut self.g, at(&self.port_of, 2 * i + 1), g as u32);
         }
         for (el, e) in self.elements.iter().zip(net.elements.iter()) {
-            set(&mut self.g, el.port as usize, (w_top_wide(e.port_milliohm as u64 + e.series_milliohm as u64) >> k) as u32);
+            set(
+                &mut self.g,
+                el.port as usize,
+                (w_top_wide(e.port_milliohm as u64 + e.series_milliohm as u64) >> k) as u32,
+            );
         }
 
         // Junction run-time records.
@@ -339,13 +342,15 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
             let junction = j as u16;
             let count = ports_at(j) as usize;
             let rt = match *junc {
-                _ if rig.map_or(false, |r| r.0 == j) => JunctionRt::Rig { port: first as u16 },
+                _ if rig.is_some_and(|r| r.0 == j) => JunctionRt::Rig { port: first as u16 },
                 Junction::Node { shunt } => {
                     if (first..first + count).any(|q| self.g.get(q).is_none_or(|g| *g == 0)) {
                         return Err(BuildError::CoefficientOutOfRange { junction });
                     }
                     let g_src = if src_j == Some(j) { (w_top(src_mohm) >> k) as u32 } else { 0 };
-                    let g_ports = self.g.get(first..first + count).unwrap_or(&[]).iter().map(|g| *g as u64).sum::<u64>() + g_src as u64;
+                    let g_ports =
+                        self.g.get(first..first + count).unwrap_or(&[]).iter().map(|g| *g as u64).sum::<u64>()
+                            + g_src as u64;
                     let mut rt = JunctionRt::Node {
                         first: first as u16,
                         count: count as u16,
@@ -382,7 +387,11 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
                 .get(pr.line as usize)
                 .ok_or(BuildError::IndexOutOfRange { table: Table::Probes, index: k as u16 })?;
             let port = at(&self.port_of, 2 * pr.line as usize + (pr.side == Side::B) as usize) as u16;
-            set(&mut self.probes, k, ProbeRt { current: pr.kind == ProbeKind::Current, port, z_milliohm: l.z_milliohm });
+            set(
+                &mut self.probes,
+                k,
+                ProbeRt { current: pr.kind == ProbeKind::Current, port, z_milliohm: l.z_milliohm },
+            );
         }
         self.n_probes = net.probes.len();
 

@@ -62,6 +62,9 @@ pub mod profile;
 pub mod solver;
 
 pub use error::{BuildError, ConfigError, Table};
-pub use network::{Drive, Element, ElementKind, Junction, JunctionId, Line, LineId, LineLoss, MAX_LOSS_SECTIONS, Network, Probe, ProbeKind, Shunt, Side, MAX_PROBES, MAX_RIG_LATENCY};
+pub use network::{
+    Drive, Element, ElementKind, Junction, JunctionId, Line, LineId, LineLoss, Network, Probe, ProbeKind, Shunt, Side,
+    MAX_LOSS_SECTIONS, MAX_PROBES, MAX_RIG_LATENCY,
+};
 pub use profile::{Narrow, Profile, Wide};
 pub use solver::Solver;

@@ -37,6 +37,9 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     /// exact by two correction steps against `total` (floor and "remainder nonzero"); each
     /// port then costs a subtraction and a conditional increment. Truncating each outgoing
     /// wave of the exact node means |a_k| <= |a_k,exact|, so the node can only lose energy.
+    // The hot path takes the node's few coefficients as plain arguments (registers), not a
+    // struct behind a pointer.
+    #[allow(clippy::too_many_arguments)]
     fn node_scatter(
         b: &[Self::Wave],
         g: &[u32],
@@ -103,23 +106,10 @@ fn apply_sign32(m: i32, mask: i32) -> i32 {
 }
 #[inline(always)]
 fn sat_i16(x: i32) -> i16 {
-    // Branch-free clamp to i16 for |x| < 2^30 (every caller's range): the Cortex-M0 has no
-    // conditional execution, and a branch here would make the sample time data-dependent.
-    let x = x.wrapping_sub(x.wrapping_sub(i16::MAX as i32) & (i16::MAX as i32).wrapping_sub(x) >> 31);
-    let x = x.wrapping_add((i16::MIN as i32).wrapping_sub(x) & x.wrapping_sub(i16::MIN as i32) >> 31);
-    x as i16
+    x.clamp(i16::MIN as i32, i16::MAX as i32) as i16
 }
 
-/// Branch-free clamp of an i64 to i32 for |x| < 2^62.
-#[inline(always)]
-fn sat_i32(x: i64) -> i32 {
-    let (hi, lo) = (i32::MAX as i64, i32::MIN as i64);
-    let x = x.wrapping_sub(x.wrapping_sub(hi) & hi.wrapping_sub(x) >> 63);
-    let x = x.wrapping_add(lo.wrapping_sub(x) & x.wrapping_sub(lo) >> 63);
-    x as i32
-}
-
-/// floor(mag / total) and (remainder != 0) as 0/1, for mag < 2^63, total <= 2^60.
+/// floor(mag / total) and (remainder != 0) as 0/1, for mag < 2^63, total < 2^62.5.
 ///
 /// The estimate mag·recip/2^(32+shift), from two 32x32->64 products with floors, is at most
 /// 2 below the floor for quotients up to 2^32 (the wave range); two exact steps fix it. The
@@ -133,15 +123,14 @@ fn floor_div64(mag: u64, recip: u32, shift: u32, total: u64) -> (u64, u64) {
     let mut q = hi.wrapping_mul(r).wrapping_add(lo.wrapping_mul(r) >> 32).wrapping_shr(shift);
     let mut rem = mag.wrapping_sub(q.wrapping_mul(total));
     for _ in 0..2 {
-        // rem >= total, branch-free: both < 2^62, so the sign of the difference decides.
-        let step = (rem.wrapping_sub(total) >> 63) ^ 1;
+        let step = (rem >= total) as u64;
         q = q.wrapping_add(step);
         rem = rem.wrapping_sub(total & step.wrapping_neg());
     }
-    (q, (rem | rem.wrapping_neg()) >> 63)
+    (q, (rem != 0) as u64)
 }
 
-/// The 32-bit twin of [`floor_div64`] for mag < 2^31, total < 2^29, using only 16x16->32
+/// The 32-bit twin of [`floor_div64`] for mag < 2^31, total < 2^30, using only 16x16->32
 /// products (Cortex-M0 `MULS`).
 #[inline(always)]
 fn floor_div32(mag: u32, recip: u32, shift: u32, total: u32) -> (u32, u32) {
@@ -150,11 +139,11 @@ fn floor_div32(mag: u32, recip: u32, shift: u32, total: u32) -> (u32, u32) {
     let mut q = hi.wrapping_mul(recip).wrapping_add(lo.wrapping_mul(recip) >> 16).wrapping_shr(shift);
     let mut rem = mag.wrapping_sub(q.wrapping_mul(total));
     for _ in 0..2 {
-        let step = (rem.wrapping_sub(total) >> 31) ^ 1; // both < 2^31
+        let step = (rem >= total) as u32;
         q = q.wrapping_add(step);
         rem = rem.wrapping_sub(total & step.wrapping_neg());
     }
-    (q, (rem | rem.wrapping_neg()) >> 31)
+    (q, (rem != 0) as u32)
 }
 
 impl Profile for Wide {
@@ -165,7 +154,7 @@ impl Profile for Wide {
     const RECIP_BITS: u32 = 32;
     const SERIES_FRAC: u32 = 30;
     const MAX_IO_SHIFT: u8 = 15;
-    const TOTAL_MAX: u64 = 1 << 60;
+    const TOTAL_MAX: u64 = 1 << 62;
     const LOSS_FRAC: u32 = 30;
 
     #[inline(always)]
@@ -178,14 +167,14 @@ impl Profile for Wide {
         let acc = acc.wrapping_shl(1).wrapping_add((g_src as i64).wrapping_mul(e as i64));
         let (q, nz) = floor_div64(acc.unsigned_abs(), recip, shift, total);
         // floor(acc/total): q for acc >= 0, −(q + nz) for acc < 0.
-        let neg = (acc >> 63) as u64 & 1;
+        let neg = (acc < 0) as u64;
         let fl = apply_sign64(q.wrapping_add(nz & neg) as i64, -(neg as i64));
         for (ak, bk) in a.iter_mut().zip(b.iter()) {
             // v − b = (fl − b) + frac, frac > 0 iff nz: truncation toward zero adds 1 to a
             // negative integer part when there is a fraction.
             let m = fl.wrapping_sub(*bk as i64);
-            let t = m.wrapping_add(((m >> 63) as u64 & nz) as i64);
-            *ak = sat_i32(t);
+            let t = m.wrapping_add(((m < 0) as u64 & nz) as i64);
+            *ak = t.clamp(i32::MIN as i64, i32::MAX as i64) as i32;
         }
     }
     #[inline(always)]
@@ -205,7 +194,7 @@ impl Profile for Wide {
         let n2 = (b2 as i64).wrapping_shl(Self::SERIES_FRAC).wrapping_add(cx);
         let t = |n: i64| {
             let m = apply_sign64((n.unsigned_abs() >> Self::SERIES_FRAC) as i64, n >> 63);
-            sat_i32(m)
+            m.clamp(i32::MIN as i64, i32::MAX as i64) as i32
         };
         (t(n1), t(n2))
     }
@@ -217,7 +206,7 @@ impl Profile for Wide {
             .wrapping_sub((gb as i64).wrapping_mul(x1 as i64))
             .wrapping_add((a as i64).wrapping_mul(y1 as i64));
         let m = apply_sign64((n.unsigned_abs() >> Self::LOSS_FRAC) as i64, n >> 63);
-        sat_i32(m)
+        m.clamp(i32::MIN as i64, i32::MAX as i64) as i32
     }
     #[inline(always)]
     fn adapt(b: i32, a: i32, mu: u32, negate: bool) -> i32 {
@@ -227,7 +216,7 @@ impl Profile for Wide {
             .wrapping_add((mu as i64).wrapping_mul((a as i64).wrapping_sub(b as i64)));
         let m = apply_sign64((n.unsigned_abs() >> Self::SERIES_FRAC) as i64, n >> 63);
         let m = if negate { m.wrapping_neg() } else { m };
-        sat_i32(m)
+        m.clamp(i32::MIN as i64, i32::MAX as i64) as i32
     }
     #[inline(always)]
     fn from_code(code: i16, shift: u32) -> i32 {
@@ -257,7 +246,7 @@ impl Profile for Narrow {
     const RECIP_BITS: u32 = 16;
     const SERIES_FRAC: u32 = 14;
     const MAX_IO_SHIFT: u8 = 0;
-    const TOTAL_MAX: u64 = (1 << 29) - 1;
+    const TOTAL_MAX: u64 = (1 << 30) - 1;
     const LOSS_FRAC: u32 = 14;
 
     #[inline(always)]
@@ -269,11 +258,11 @@ impl Profile for Narrow {
         }
         let acc = acc.wrapping_shl(1).wrapping_add((g_src as i32).wrapping_mul(e as i32));
         let (q, nz) = floor_div32(acc.unsigned_abs(), recip, shift, total as u32);
-        let neg = (acc >> 31) as u32 & 1;
+        let neg = (acc < 0) as u32;
         let fl = apply_sign32(q.wrapping_add(nz & neg) as i32, -(neg as i32));
         for (ak, bk) in a.iter_mut().zip(b.iter()) {
             let m = fl.wrapping_sub(*bk as i32);
-            *ak = sat_i16(m.wrapping_add(((m >> 31) as u32 & nz) as i32));
+            *ak = sat_i16(m.wrapping_add(((m < 0) as u32 & nz) as i32));
         }
     }
     #[inline(always)]
@@ -299,7 +288,7 @@ impl Profile for Narrow {
         // Each product < 2^14·2^15 = 2^29; three of them < 2^31: exact in i32.
         let n = (g as i32)
             .wrapping_mul(x as i32)
-            .wrapping_sub((gb as i32).wrapping_mul(x1 as i32))
+            .wrapping_sub(gb.wrapping_mul(x1 as i32))
             .wrapping_add((a as i32).wrapping_mul(y1 as i32));
         sat_i16(apply_sign32((n.unsigned_abs() >> Self::LOSS_FRAC) as i32, n >> 31))
     }
@@ -379,9 +368,13 @@ mod tests {
         assert_eq!(reciprocal(1, 32), None);
     }
 
+    /// A node case: incoming waves, their weights, source EMF, source weight, total weight.
+    type Case<'a, W> = (&'a [W], &'a [u32], W, u32, u64);
+
     /// Exact reference of the node rule: a_k = trunc((num − b_k·total)/total), saturated.
     fn exact_node(b: &[i64], g: &[u64], e: i64, gs: u64, total: u64, lo: i64, hi: i64) -> Vec<i64> {
-        let num: i128 = 2 * b.iter().zip(g).map(|(b, g)| *b as i128 * *g as i128).sum::<i128>() + gs as i128 * e as i128;
+        let num: i128 =
+            2 * b.iter().zip(g).map(|(b, g)| *b as i128 * *g as i128).sum::<i128>() + gs as i128 * e as i128;
         b.iter()
             .map(|bk| {
                 let n = num - *bk as i128 * total as i128;
@@ -393,7 +386,7 @@ mod tests {
 
     #[test]
     fn node_scatter_is_the_truncated_exact_node() {
-        let cases: &[(&[i32], &[u32], i32, u32, u64)] = &[
+        let cases: &[Case<i32>] = &[
             (&[1000, -999], &[3, 5], 0, 0, 8),
             (&[i32::MAX, i32::MAX], &[1 << 29, 1 << 29], 0, 0, 1 << 30),
             (&[i32::MIN, i32::MAX, -5], &[1 << 28, 1 << 28, 1 << 28], 0, 0, 3 << 28),
@@ -414,7 +407,7 @@ mod tests {
 
     #[test]
     fn narrow_node_scatter_is_the_truncated_exact_node() {
-        let cases: &[(&[i16], &[u32], i16, u32, u64)] = &[
+        let cases: &[Case<i16>] = &[
             (&[12000, -32768, 517], &[5000, 7000, 4000], 0, 0, 16001),
             (&[i16::MAX, i16::MIN], &[8000, 8000], 0, 0, 16000),
             (&[1], &[3], 0, 3, 9),

@@ -47,8 +47,14 @@ pub(crate) enum JunctionRt {
         /// The total weight (ports, source and shunt) the node divides by.
         total: u64,
     },
-    Series { p: u16, q: u16, c: u32 },
-    Rig { port: u16 },
+    Series {
+        p: u16,
+        q: u16,
+        c: u32,
+    },
+    Rig {
+        port: u16,
+    },
 }
 
 /// A reactive one-port's port and adaptor coefficient.
@@ -125,9 +131,7 @@ pub struct Solver<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM:
     pub(crate) volts_per_code: f32,
 }
 
-impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
-    Solver<P, PORTS, JUNCS, MEM>
-{
+impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize> Solver<P, PORTS, JUNCS, MEM> {
     /// An empty solver (no network: `step` returns 0). Load a network with [`Self::load`].
     pub const fn new() -> Self {
         Solver {
@@ -212,10 +216,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
         let n_probes = self.n_probes.min(MAX_PROBES);
         for (out, pr) in self.probe_out.iter_mut().zip(self.probes.iter()).take(n_probes) {
             let i = pr.port as usize;
-            let (a, b) = (
-                self.a.get(i).copied().unwrap_or(P::ZERO),
-                self.b.get(i).copied().unwrap_or(P::ZERO),
-            );
+            let (a, b) = (self.a.get(i).copied().unwrap_or(P::ZERO), self.b.get(i).copied().unwrap_or(P::ZERO));
             *out = if pr.current { P::diff(a, b) } else { P::sum(a, b) };
         }
         let output = match self.drive {
@@ -421,9 +422,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize>
     }
 }
 
-impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize> Default
-    for Solver<P, PORTS, JUNCS, MEM>
-{
+impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize> Default for Solver<P, PORTS, JUNCS, MEM> {
     fn default() -> Self {
         Self::new()
     }

@@ -264,10 +264,7 @@ fn rig_latency_longer_than_round_trip_is_refused() {
         volts_per_code: 1e-3,
     };
     let mut s: Solver<Wide, 4, 4, 64> = Solver::new();
-    assert_eq!(
-        s.load(&net),
-        Err(tidewire_core::BuildError::RigLatencyTooLong { latency: 2, delay: 2 })
-    );
+    assert_eq!(s.load(&net), Err(tidewire_core::BuildError::RigLatencyTooLong { latency: 2, delay: 2 }));
 }
 
 #[test]

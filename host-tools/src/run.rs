@@ -134,7 +134,11 @@ fn drive<P: Profile, const A: usize, const B: usize, const C: usize>(
         out.drive_in.push(input);
         for k in 0..c.probes.len() {
             let raw = s.probe_raw(k) as f64 * lsb;
-            let v = if c.probes[k].kind == tidewire_core::ProbeKind::Current { raw / z[c.probes[k].line as usize] } else { raw };
+            let v = if c.probes[k].kind == tidewire_core::ProbeKind::Current {
+                raw / z[c.probes[k].line as usize]
+            } else {
+                raw
+            };
             out.run.probes[k].push(v);
         }
         for (k, l) in record.iter().enumerate() {

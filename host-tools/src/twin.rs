@@ -23,6 +23,9 @@ pub struct Run {
     pub peak_wave: f64,
 }
 
+/// A loss filter at one line end: port, sections (a, g, gb), state (x[n−1], y[n−1]).
+type Filter = (usize, Vec<(f64, f64, f64)>, Vec<(f64, f64)>);
+
 struct State {
     shunt: Vec<Shunt>,
     broken: Vec<bool>,
@@ -39,7 +42,7 @@ pub fn run(c: &Compiled, samples: usize, record: &[u16]) -> Run {
     let mut b = vec![0.0; 2 * nl];
     let mut el_state = vec![0.0; c.elements.len()];
     // Loss filters at both ends of lossy lines: (port, sections (a, g, gb), state (x1, y1)).
-    let mut filters: Vec<(usize, Vec<(f64, f64, f64)>, Vec<(f64, f64)>)> = vec![];
+    let mut filters: Vec<Filter> = vec![];
     for l in &c.losses {
         let q = crate::compile::loss::quantized(l, 30);
         for side in 0..2 {
@@ -48,7 +51,11 @@ pub fn run(c: &Compiled, samples: usize, record: &[u16]) -> Run {
     }
     let mut el_a = vec![0.0; c.elements.len()];
     let mut st = State {
-        shunt: c.junctions.iter().map(|j| if let Junction::Node { shunt } = j { *shunt } else { Shunt::Open }).collect(),
+        shunt: c
+            .junctions
+            .iter()
+            .map(|j| if let Junction::Node { shunt } = j { *shunt } else { Shunt::Open })
+            .collect(),
         broken: vec![false; c.junctions.len()],
     };
     // Ports of each junction.
@@ -63,7 +70,9 @@ pub fn run(c: &Compiled, samples: usize, record: &[u16]) -> Run {
     }
     let (drive_j, g_src) = match (c.drive, &c.host_drive) {
         (Drive::Source { junction, milliohm }, _) => (Some(junction as usize), 1000.0 / milliohm as f64),
-        (Drive::Rig { junction, .. }, HostDrive::Rig { dut_resistance, .. }) => (Some(junction as usize), 1.0 / dut_resistance),
+        (Drive::Rig { junction, .. }, HostDrive::Rig { dut_resistance, .. }) => {
+            (Some(junction as usize), 1.0 / dut_resistance)
+        }
         _ => (None, 0.0),
     };
     let mut out = Run { probes: vec![Vec::with_capacity(samples); c.probes.len()], ..Run::default() };

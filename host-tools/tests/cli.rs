@@ -6,7 +6,11 @@ use std::path::{Path, PathBuf};
 
 fn plants() -> Vec<PathBuf> {
     let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/plants");
-    let mut v: Vec<PathBuf> = std::fs::read_dir(dir).unwrap().map(|e| e.unwrap().path()).filter(|p| p.extension().is_some_and(|e| e == "toml")).collect();
+    let mut v: Vec<PathBuf> = std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .filter(|p| p.extension().is_some_and(|e| e == "toml"))
+        .collect();
     v.sort();
     assert!(v.len() >= 3, "at least three demo plants");
     v
@@ -34,13 +38,34 @@ fn every_demo_plant_inspects_compiles_and_simulates() {
             assert!(text.contains("-- segments") && text.contains("-- fixed point"), "{name}: {text}");
             let (img, rs) = (out.join(format!("{name}-{profile}.bin")), out.join(format!("{name}-{profile}.rs")));
             tidewire()
-                .args(["compile", p.to_str().unwrap(), "--profile", profile, "--image", img.to_str().unwrap(), "--rust", rs.to_str().unwrap()])
+                .args([
+                    "compile",
+                    p.to_str().unwrap(),
+                    "--profile",
+                    profile,
+                    "--image",
+                    img.to_str().unwrap(),
+                    "--rust",
+                    rs.to_str().unwrap(),
+                ])
                 .assert()
                 .success();
             assert!(std::fs::read(&img).unwrap().starts_with(b"TIDW"));
             assert!(std::fs::read_to_string(&rs).unwrap().contains("pub static NETWORK"));
             let csv = out.join(format!("{name}-{profile}.csv"));
-            tidewire().args(["simulate", p.to_str().unwrap(), "--samples", "500", "--profile", profile, "--csv", csv.to_str().unwrap()]).assert().success();
+            tidewire()
+                .args([
+                    "simulate",
+                    p.to_str().unwrap(),
+                    "--samples",
+                    "500",
+                    "--profile",
+                    profile,
+                    "--csv",
+                    csv.to_str().unwrap(),
+                ])
+                .assert()
+                .success();
             let text = std::fs::read_to_string(&csv).unwrap();
             assert_eq!(text.lines().count(), 501, "{name}: header + 500 rows");
             assert!(text.lines().next().unwrap().starts_with("time (s),"));
@@ -71,7 +96,8 @@ fn bad_plants_exit_2_with_a_located_message_and_leave_no_file() {
         // file:line:column
         let located = err.split(&format!("{fname}:")).nth(1).is_some_and(|rest| {
             let mut it = rest.split(':');
-            it.next().is_some_and(|l| l.parse::<usize>().is_ok()) && it.next().is_some_and(|c| c.parse::<usize>().is_ok())
+            it.next().is_some_and(|l| l.parse::<usize>().is_ok())
+                && it.next().is_some_and(|c| c.parse::<usize>().is_ok())
         });
         assert!(located, "{fname}: line and column: {err}");
         assert!(err.contains("hint:"), "{fname}: a fix hint: {err}");
@@ -87,7 +113,10 @@ fn failed_writes_leave_nothing_half_written() {
     let p = plants().remove(0);
     let out = tmp("nowrite");
     let missing = out.join("no/such/folder/out.csv");
-    let a = tidewire().args(["simulate", p.to_str().unwrap(), "--samples", "10", "--csv", missing.to_str().unwrap()]).assert().code(2);
+    let a = tidewire()
+        .args(["simulate", p.to_str().unwrap(), "--samples", "10", "--csv", missing.to_str().unwrap()])
+        .assert()
+        .code(2);
     let err = String::from_utf8_lossy(&a.get_output().stderr).into_owned();
     assert!(err.contains("out.csv") && !err.contains("panicked"), "{err}");
     assert_eq!(std::fs::read_dir(&out).unwrap().count(), 0, "nothing written");
@@ -107,7 +136,22 @@ fn motor_cable_sweep_reproduces_the_critical_length_rule() {
     let out = tmp("sweep");
     let svg = out.join("sweep.svg");
     let a = tidewire()
-        .args(["sweep", p.to_str().unwrap(), "--segment", "motor-feed", "--probe", "motor terminals", "--from", "1", "--to", "120", "--steps", "6", "--svg", svg.to_str().unwrap()])
+        .args([
+            "sweep",
+            p.to_str().unwrap(),
+            "--segment",
+            "motor-feed",
+            "--probe",
+            "motor terminals",
+            "--from",
+            "1",
+            "--to",
+            "120",
+            "--steps",
+            "6",
+            "--svg",
+            svg.to_str().unwrap(),
+        ])
         .assert()
         .success();
     let text = String::from_utf8_lossy(&a.get_output().stdout).into_owned();

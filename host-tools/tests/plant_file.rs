@@ -7,8 +7,7 @@ use tidewire_host::plant::file::loss::alpha;
 use tidewire_host::plant::presets::{self, cat5e_insertion_loss_db_per_100m};
 use tidewire_host::plant::units::DB_PER_NEPER;
 use tidewire_host::plant::{
-    load_plant, parse_plant, Drive, End, EventAction, Load, Plant, PlantError, ProbeKind, Waveform,
-    C0,
+    load_plant, parse_plant, Drive, End, EventAction, Load, Plant, PlantError, ProbeKind, Waveform, C0,
 };
 
 #[path = "plant_file/bad_input.rs"]
@@ -24,17 +23,11 @@ fn demo(name: &str) -> Plant {
 }
 
 fn node(p: &Plant, name: &str) -> usize {
-    p.nodes
-        .iter()
-        .position(|n| n.name == name)
-        .unwrap_or_else(|| panic!("node {name}"))
+    p.nodes.iter().position(|n| n.name == name).unwrap_or_else(|| panic!("node {name}"))
 }
 
 fn segment(p: &Plant, name: &str) -> usize {
-    p.segments
-        .iter()
-        .position(|s| s.name == name)
-        .unwrap_or_else(|| panic!("segment {name}"))
+    p.segments.iter().position(|s| s.name == name).unwrap_or_else(|| panic!("segment {name}"))
 }
 
 fn close(a: f64, b: f64, rel: f64) -> bool {
@@ -52,20 +45,12 @@ fn every_demo_plant_loads() {
         .filter(|n| n.ends_with(".toml"))
         .collect();
     names.sort();
-    for want in [
-        "bench-rig.toml",
-        "drive-to-motor.toml",
-        "irrigation-network.toml",
-        "packaging-line.toml",
-    ] {
+    for want in ["bench-rig.toml", "drive-to-motor.toml", "irrigation-network.toml", "packaging-line.toml"] {
         assert!(names.iter().any(|n| n == want), "missing demo {want}");
     }
     for n in &names {
         let p = demo(n);
-        assert!(
-            !p.name.is_empty() && !p.segments.is_empty() && !p.probes.is_empty(),
-            "{n}"
-        );
+        assert!(!p.name.is_empty() && !p.segments.is_empty() && !p.probes.is_empty(), "{n}");
     }
 }
 
@@ -73,21 +58,12 @@ fn every_demo_plant_loads() {
 fn demo_plants_fit_the_sample_grid() {
     // Our own limit for the demos: every segment at least 2 samples of delay, and all delay
     // lines together under 20000 samples.
-    for n in [
-        "bench-rig.toml",
-        "drive-to-motor.toml",
-        "irrigation-network.toml",
-        "packaging-line.toml",
-    ] {
+    for n in ["bench-rig.toml", "drive-to-motor.toml", "irrigation-network.toml", "packaging-line.toml"] {
         let p = demo(n);
         let mut total = 0.0;
         for s in &p.segments {
             let samples = s.length / p.cables[s.cable].velocity * p.sample_rate;
-            assert!(
-                samples >= 2.0,
-                "{n}: segment {} is {samples:.2} samples",
-                s.name
-            );
+            assert!(samples >= 2.0, "{n}: segment {} is {samples:.2} samples", s.name);
             total += samples;
         }
         assert!(total < 20_000.0, "{n}: {total} samples of delay");
@@ -110,28 +86,14 @@ fn packaging_line_is_terminated_at_the_plc_and_open_at_the_far_end() {
     // Trunk between 300 and 400 m, as the scenario says.
     let trunk: f64 = p.lattice_path.iter().map(|&s| p.segments[s].length).sum();
     assert!((300.0..=400.0).contains(&trunk), "{trunk} m");
-    assert_eq!(
-        p.segments[*p.lattice_path.last().unwrap()].to,
-        node(&p, "far")
-    );
-    let stubs = p
-        .segments
-        .iter()
-        .filter(|s| s.name.starts_with("stub-"))
-        .count();
+    assert_eq!(p.segments[*p.lattice_path.last().unwrap()].to, node(&p, "far"));
+    let stubs = p.segments.iter().filter(|s| s.name.starts_with("stub-")).count();
     assert!((4..=6).contains(&stubs));
     match &p.drive {
         Drive::Source { node: n, emf, rs } => {
             assert_eq!(*n, node(&p, "plc"));
             assert_eq!(*rs, 50.0);
-            assert_eq!(
-                *emf,
-                Waveform::Step {
-                    amplitude: 5.0,
-                    delay: 100e-9,
-                    rise: 20e-9
-                }
-            );
+            assert_eq!(*emf, Waveform::Step { amplitude: 5.0, delay: 100e-9, rise: 20e-9 });
         }
         other => panic!("expected a source, got {other:?}"),
     }
@@ -148,13 +110,7 @@ fn packaging_line_is_terminated_at_the_plc_and_open_at_the_far_end() {
 fn drive_to_motor_exceeds_the_critical_length_and_warns() {
     let p = demo("drive-to-motor.toml");
     assert!(p.notes.iter().any(|n| n.contains("HIGH VOLTAGE")));
-    let Drive::Source {
-        emf: Waveform::Step {
-            amplitude, rise, ..
-        },
-        ..
-    } = p.drive
-    else {
+    let Drive::Source { emf: Waveform::Step { amplitude, rise, .. }, .. } = p.drive else {
         panic!("expected a step source")
     };
     assert_eq!((amplitude, rise), (680.0, 100e-9));
@@ -174,48 +130,25 @@ fn irrigation_network_has_its_faults_and_a_running_break() {
     assert_eq!(p.nodes[node(&p, "valve_s2")].load, Load::Open);
     assert_eq!(p.events.len(), 1);
     assert_eq!(p.events[0].at, 6e-6);
-    assert_eq!(
-        p.events[0].action,
-        EventAction::Break {
-            segment: segment(&p, "south-s1"),
-            distance: 12.0
-        }
-    );
+    assert_eq!(p.events[0].action, EventAction::Break { segment: segment(&p, "south-s1"), distance: 12.0 });
     // Three different cable types meet in this plant.
-    let mut used: Vec<&str> = p
-        .segments
-        .iter()
-        .map(|s| p.cables[s.cable].name.as_str())
-        .collect();
+    let mut used: Vec<&str> = p.segments.iter().map(|s| p.cables[s.cable].name.as_str()).collect();
     used.sort();
     used.dedup();
     assert_eq!(used, ["burial", "cat5e", "drop"]);
     // Overrides on top of a preset are recorded in the cable's source.
     let burial = p.cables.iter().find(|c| c.name == "burial").unwrap();
     assert_eq!(burial.z0, 110.0);
-    assert!(burial
-        .source
-        .contains("overridden in plant file: impedance, velocity_factor"));
+    assert!(burial.source.contains("overridden in plant file: impedance, velocity_factor"));
 }
 
 #[test]
 fn bench_rig_is_a_rig_port_on_can_cable() {
     let p = demo("bench-rig.toml");
     match &p.drive {
-        Drive::Rig {
-            node: n,
-            r_ref,
-            adc_full_scale,
-            dac_full_scale,
-            latency,
-            dut_resistance,
-            ..
-        } => {
+        Drive::Rig { node: n, r_ref, adc_full_scale, dac_full_scale, latency, dut_resistance, .. } => {
             assert_eq!(*n, node(&p, "pin"));
-            assert_eq!(
-                (*r_ref, *adc_full_scale, *dac_full_scale),
-                (120.0, 5.0, 10.0)
-            );
+            assert_eq!((*r_ref, *adc_full_scale, *dac_full_scale), (120.0, 5.0, 10.0));
             assert_eq!(*latency, 2);
             assert_eq!(*dut_resistance, 45.0);
         }
@@ -277,19 +210,9 @@ fn units_with_prefixes_reach_the_model_in_si() {
     assert!(close(p.duration, 5e-6, 1e-12));
     assert!(close(p.segments[0].length, 2.5, 1e-12));
     assert_eq!(p.nodes[1].load, Load::SeriesRc { r: 120.0, c: 1e-9 });
-    let Drive::Source { rs, emf, .. } = &p.drive else {
-        panic!()
-    };
+    let Drive::Source { rs, emf, .. } = &p.drive else { panic!() };
     assert!(close(*rs, 50.0, 1e-12));
-    let Waveform::Pulse {
-        amplitude,
-        width,
-        rise,
-        delay,
-    } = *emf
-    else {
-        panic!("{emf:?}")
-    };
+    let Waveform::Pulse { amplitude, width, rise, delay } = *emf else { panic!("{emf:?}") };
     assert!(close(amplitude, 3.3, 1e-12) && close(width, 200e-9, 1e-12));
     assert!(close(rise, 5e-9, 1e-12) && delay == 0.0);
 }
@@ -298,19 +221,12 @@ fn units_with_prefixes_reach_the_model_in_si() {
 fn defaults_fill_what_the_file_leaves_out() {
     let p = parse(MINIMAL).unwrap();
     assert_eq!(p.nodes[0].load, Load::Open, "a node without `load` is open");
-    assert_eq!(
-        p.segments[0].name, "a-b",
-        "default segment name is <from>-<to>"
-    );
+    assert_eq!(p.segments[0].name, "a-b", "default segment name is <from>-<to>");
     assert_eq!(p.probes[0].name, "b");
     assert_eq!(p.probes[0].kind, ProbeKind::Voltage(1));
     assert_eq!(p.probes[1].kind, ProbeKind::Current(0, End::To));
     assert_eq!(p.tolerances, Default::default());
-    assert_eq!(
-        p.lattice_path,
-        vec![0],
-        "default lattice path from the drive node"
-    );
+    assert_eq!(p.lattice_path, vec![0], "default lattice path from the drive node");
     assert_eq!(p.nodes[1].span.line, 8);
 }
 
@@ -323,10 +239,7 @@ fn with_cable(cable: &str) -> String {
 #[test]
 fn inductance_and_capacitance_give_impedance_and_speed() {
     // Lossless line: Z0 = sqrt(L'/C'), v = 1/sqrt(L'·C') [closed form].
-    let p = parse(&with_cable(
-        "inductance = \"600 nH/m\"\ncapacitance = \"42 pF/m\"",
-    ))
-    .unwrap();
+    let p = parse(&with_cable("inductance = \"600 nH/m\"\ncapacitance = \"42 pF/m\"")).unwrap();
     let c = &p.cables[0];
     assert!(close(c.z0, (600e-9f64 / 42e-12).sqrt(), 1e-12));
     assert!(close(c.velocity, 1.0 / (600e-9f64 * 42e-12).sqrt(), 1e-12));
@@ -390,17 +303,12 @@ fn samples_waveform_is_read_beside_the_plant_file() {
         "waveform = { samples = \"stim.csv\" }",
     );
     let p = parse_plant(&text, "t.toml", &dir).unwrap();
-    let Drive::Source { emf, .. } = p.drive else {
-        panic!()
-    };
+    let Drive::Source { emf, .. } = p.drive else { panic!() };
     assert_eq!(emf, Waveform::Samples(vec![0.0, 0.5, 1.0]));
 
     let err = parse_plant(&text.replace("stim.csv", "broken.csv"), "t.toml", &dir).unwrap_err();
     assert!(err.file.ends_with("broken.csv"), "{err}");
-    assert_eq!(
-        (err.line, err.field.as_str()),
-        (3, "drive.waveform.samples")
-    );
+    assert_eq!((err.line, err.field.as_str()), (3, "drive.waveform.samples"));
     assert!(err.message.contains("half"), "{err}");
 
     let err = parse_plant(&text.replace("stim.csv", "absent.csv"), "t.toml", &dir).unwrap_err();
@@ -464,9 +372,7 @@ fn preset_values_match_the_reference_list() {
     assert!(get("awg18-pair").loss.is_none() && get("awg20-pair").loss.is_none());
     // Every preset keeps the tags of its sources.
     for c in presets::all() {
-        let tagged = ["found", "[memory]", "[practice]", "[demo"]
-            .iter()
-            .any(|t| c.source.contains(t));
+        let tagged = ["found", "[memory]", "[practice]", "[demo"].iter().any(|t| c.source.contains(t));
         assert!(tagged, "{}: {}", c.name, c.source);
     }
 }
@@ -475,10 +381,7 @@ fn preset_values_match_the_reference_list() {
 fn rg213_preset_fit_is_within_half_a_db_of_its_table() {
     // 4.9 / 8.9 / 16.3 / 24.7 dB/100 m at 50 / 150 / 450 / 850 MHz (found).
     let loss = presets::find("coax-50-rg213").unwrap().loss.unwrap();
-    for (f, db) in presets::COAX_TABLE_HZ
-        .iter()
-        .zip(presets::RG213_DB_PER_100M)
-    {
+    for (f, db) in presets::COAX_TABLE_HZ.iter().zip(presets::RG213_DB_PER_100M) {
         let got = alpha(&loss, *f) * 100.0 * DB_PER_NEPER;
         assert!((got - db).abs() < 0.5, "{f}: {got} vs {db}");
     }
@@ -487,15 +390,7 @@ fn rg213_preset_fit_is_within_half_a_db_of_its_table() {
 #[test]
 fn cat5e_formula_reproduces_the_published_table() {
     // TIA-568 Cat 5e insertion loss table (found, REFERENCES.md), dB per 100 m.
-    for (mhz, db) in [
-        (1.0, 2.0),
-        (4.0, 4.1),
-        (10.0, 6.5),
-        (16.0, 8.2),
-        (31.25, 11.7),
-        (62.5, 17.0),
-        (100.0, 22.0),
-    ] {
+    for (mhz, db) in [(1.0, 2.0), (4.0, 4.1), (10.0, 6.5), (16.0, 8.2), (31.25, 11.7), (62.5, 17.0), (100.0, 22.0)] {
         let got = cat5e_insertion_loss_db_per_100m(mhz * 1e6);
         assert!((got - db).abs() <= 0.1, "{mhz} MHz: {got} vs {db}");
     }
@@ -520,11 +415,7 @@ fn default_lattice_path_is_the_longest_run_from_the_drive() {
     let text = std::fs::read_to_string(demo_dir().join("irrigation-network.toml")).unwrap();
     let cut = text.find("[lattice]").unwrap();
     let p = parse(&text[..cut]).unwrap();
-    let names: Vec<&str> = p
-        .lattice_path
-        .iter()
-        .map(|&s| p.segments[s].name.as_str())
-        .collect();
+    let names: Vec<&str> = p.lattice_path.iter().map(|&s| p.segments[s].name.as_str()).collect();
     assert_eq!(names, ["trunk-north", "north-n2"]);
 }
 
@@ -532,16 +423,12 @@ fn default_lattice_path_is_the_longest_run_from_the_drive() {
 fn a_long_chain_plant_loads_without_deep_recursion() {
     // 3000 segments in a row: the default lattice path must walk all of them in order.
     let n = 3000;
-    let mut text =
-        String::from("[plant]\nname = \"chain\"\nsample_rate = \"100 MHz\"\nduration = \"1 us\"\n");
+    let mut text = String::from("[plant]\nname = \"chain\"\nsample_rate = \"100 MHz\"\nduration = \"1 us\"\n");
     for i in 0..=n {
         text += &format!("[node.n{i}]\n");
     }
     for i in 0..n {
-        text += &format!(
-            "[[segment]]\nfrom = \"n{i}\"\nto = \"n{}\"\ncable = \"cat5e\"\nlength = \"5 m\"\n",
-            i + 1
-        );
+        text += &format!("[[segment]]\nfrom = \"n{i}\"\nto = \"n{}\"\ncable = \"cat5e\"\nlength = \"5 m\"\n", i + 1);
     }
     text += "[drive]\nkind = \"source\"\nnode = \"n0\"\nresistance = \"50 ohm\"\n\
              waveform = { step = \"1 V\" }\n[[probe]]\nnode = \"n0\"\n";

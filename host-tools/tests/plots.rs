@@ -8,17 +8,15 @@ use std::fs;
 use std::path::{Path, PathBuf};
 
 use tidewire_host::plot::{
-    decimate, diverging_level, level_colour, write_lattice, write_sweep, write_waveforms,
-    LatticeMap, PlotError, Series, SweepPlot, WaveformPlot, LEVELS,
+    decimate, diverging_level, level_colour, write_lattice, write_sweep, write_waveforms, LatticeMap, PlotError,
+    Series, SweepPlot, WaveformPlot, LEVELS,
 };
 
 /// Size limit for a picture (the brief's "< ~1.5 MB").
 const MAX_SVG_BYTES: usize = 1_500_000;
 
 fn out_dir(test: &str) -> PathBuf {
-    let dir = Path::new(env!("CARGO_TARGET_TMPDIR"))
-        .join("plots")
-        .join(test);
+    let dir = Path::new(env!("CARGO_TARGET_TMPDIR")).join("plots").join(test);
     let _ = fs::remove_dir_all(&dir);
     fs::create_dir_all(&dir).expect("scratch dir");
     dir
@@ -39,10 +37,7 @@ fn well_formed(svg: &str) -> &str {
             let name = tag.split_whitespace().next().expect("empty tag");
             stack.push(name);
         }
-        assert!(
-            !tag[1..].contains('<'),
-            "a '<' inside a tag: text is not escaped"
-        );
+        assert!(!tag[1..].contains('<'), "a '<' inside a tag: text is not escaped");
         rest = &rest[close + 1..];
         if stack.is_empty() {
             assert!(rest.trim().is_empty(), "content after </svg>");
@@ -85,8 +80,7 @@ fn has_text(svg: &str, wanted: &str) -> bool {
 /// v1 = E Z0 / (Z0 + Rs), gS = (Rs - Z0)/(Rs + Z0), gL = (RL - Z0)/(RL + Z0),
 /// each arrival a 20 ns linear ramp.
 fn bounce_step(n: usize, dt: f64) -> Vec<f64> {
-    let (e, rs, z0, rl, t1, rise): (f64, f64, f64, f64, f64, f64) =
-        (10.0, 10.0, 50.0, 200.0, 50e-9, 20e-9);
+    let (e, rs, z0, rl, t1, rise): (f64, f64, f64, f64, f64, f64) = (10.0, 10.0, 50.0, 200.0, 50e-9, 20e-9);
     let (gs, gl) = ((rs - z0) / (rs + z0), (rl - z0) / (rl + z0));
     let v1 = e * z0 / (z0 + rs);
     (0..n)
@@ -130,31 +124,16 @@ fn waveforms_svg_has_axes_legend_traces_and_error_panel() {
             title: "motor terminal",
             dt,
             unit: "V",
-            emulated: Series {
-                label: "emulated",
-                values: &emulated,
-            },
-            reference: Series {
-                label: "exact reference",
-                values: &reference,
-            },
-            extra: vec![Series {
-                label: "cable midpoint",
-                values: &midpoint,
-            }],
+            emulated: Series { label: "emulated", values: &emulated },
+            reference: Series { label: "exact reference", values: &reference },
+            extra: vec![Series { label: "cable midpoint", values: &midpoint }],
         },
         WaveformPlot {
             title: "drive output current",
             dt,
             unit: "A",
-            emulated: Series {
-                label: "emulated",
-                values: &source_emu,
-            },
-            reference: Series {
-                label: "exact reference",
-                values: &source_ref,
-            },
+            emulated: Series { label: "emulated", values: &source_emu },
+            reference: Series { label: "exact reference", values: &source_ref },
             extra: vec![],
         },
     ];
@@ -174,11 +153,7 @@ fn waveforms_svg_has_axes_legend_traces_and_error_panel() {
         "motor terminal",
         "drive output current",
     ] {
-        assert!(
-            has_text(&svg, label),
-            "missing text '{label}' in {:?}",
-            texts(&svg)
-        );
+        assert!(has_text(&svg, label), "missing text '{label}' in {:?}", texts(&svg));
     }
     // Probe 1: emulated, reference, midpoint, error; probe 2: emulated, reference, error.
     assert_eq!(data_polylines(&svg, 2), 7);
@@ -196,14 +171,8 @@ fn waveform_time_unit_follows_the_range() {
             title: "probe",
             dt,
             unit: "V",
-            emulated: Series {
-                label: "emulated",
-                values: &v,
-            },
-            reference: Series {
-                label: "reference",
-                values: &v,
-            },
+            emulated: Series { label: "emulated", values: &v },
+            reference: Series { label: "reference", values: &v },
             extra: vec![],
         };
         let path = dir.join(format!("unit_{dt}.svg"));
@@ -226,14 +195,8 @@ fn long_trace_is_decimated_to_a_small_file() {
         title: "long record",
         dt,
         unit: "V",
-        emulated: Series {
-            label: "emulated",
-            values: &emulated,
-        },
-        reference: Series {
-            label: "reference",
-            values: &reference,
-        },
+        emulated: Series { label: "emulated", values: &emulated },
+        reference: Series { label: "reference", values: &reference },
         extra: vec![],
     };
     let path = dir.join("long.svg");
@@ -249,9 +212,7 @@ fn noise(n: usize) -> Vec<f64> {
     let mut s: u64 = 0x2545_F491_4F6C_DD1D;
     (0..n)
         .map(|_| {
-            s = s
-                .wrapping_mul(6364136223846793005)
-                .wrapping_add(1442695040888963407);
+            s = s.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
             (s >> 11) as f64 / (1u64 << 53) as f64 - 0.5
         })
         .collect()
@@ -269,10 +230,7 @@ fn decimation_keeps_global_min_max_and_ends() {
     assert!(pts.contains(&(1_234.0 * dt, -2.5)));
     assert_eq!(pts.first(), Some(&(0.0, v[0])));
     assert_eq!(pts.last(), Some(&(123_456.0 * dt, v[123_456])));
-    assert!(
-        pts.windows(2).all(|w| w[1].0 > w[0].0),
-        "times not increasing"
-    );
+    assert!(pts.windows(2).all(|w| w[1].0 > w[0].0), "times not increasing");
     // Every kept point is a real sample at its own time.
     assert!(pts.iter().all(|&(t, y)| v[(t / dt).round() as usize] == y));
 }
@@ -282,10 +240,7 @@ fn decimation_leaves_short_traces_alone() {
     let v = noise(500);
     let pts = decimate(&v, 2.0, 1000);
     assert_eq!(pts.len(), 500);
-    assert!(pts
-        .iter()
-        .enumerate()
-        .all(|(i, &(t, y))| t == 2.0 * i as f64 && y == v[i]));
+    assert!(pts.iter().enumerate().all(|(i, &(t, y))| t == 2.0 * i as f64 && y == v[i]));
 }
 
 #[test]
@@ -298,14 +253,8 @@ fn write_into_missing_directory_fails_and_leaves_nothing() {
         title: "t",
         dt: 1e-9,
         unit: "V",
-        emulated: Series {
-            label: "e",
-            values: &v,
-        },
-        reference: Series {
-            label: "r",
-            values: &v,
-        },
+        emulated: Series { label: "e", values: &v },
+        reference: Series { label: "r", values: &v },
         extra: vec![],
     };
     let err = write_waveforms(&path, std::slice::from_ref(&plot)).expect_err("must fail");
@@ -315,10 +264,7 @@ fn write_into_missing_directory_fails_and_leaves_nothing() {
     // A successful write leaves the picture and no temporary file beside it.
     let ok = dir.join("ok.svg");
     write_waveforms(&ok, &[plot]).expect("write");
-    let names: Vec<_> = fs::read_dir(&dir)
-        .unwrap()
-        .map(|e| e.unwrap().file_name().into_string().unwrap())
-        .collect();
+    let names: Vec<_> = fs::read_dir(&dir).unwrap().map(|e| e.unwrap().file_name().into_string().unwrap()).collect();
     assert_eq!(names, vec!["ok.svg".to_string()]);
 }
 
@@ -331,37 +277,18 @@ fn bad_data_is_an_error_naming_series_and_sample() {
         title: "probe A",
         dt: 1e-9,
         unit: "V",
-        emulated: Series {
-            label: "emulated",
-            values: &bad,
-        },
-        reference: Series {
-            label: "reference",
-            values: &good,
-        },
+        emulated: Series { label: "emulated", values: &bad },
+        reference: Series { label: "reference", values: &good },
         extra: vec![],
     };
     let path = dir.join("nan.svg");
-    let msg = write_waveforms(&path, &[plot])
-        .expect_err("NaN")
-        .to_string();
-    assert!(
-        msg.contains("'emulated'") && msg.contains("sample 1") && msg.contains("nan.svg"),
-        "{msg}"
-    );
+    let msg = write_waveforms(&path, &[plot]).expect_err("NaN").to_string();
+    assert!(msg.contains("'emulated'") && msg.contains("sample 1") && msg.contains("nan.svg"), "{msg}");
     assert!(!path.exists());
 
     let rows = vec![vec![0.0, 1.0], vec![0.0]];
-    let map = LatticeMap {
-        title: "m",
-        dt: 1e-9,
-        positions: &[0.0, 1.0],
-        values: &rows,
-        boundaries: &[],
-    };
-    let msg = write_lattice(&dir.join("l.svg"), &map)
-        .expect_err("ragged")
-        .to_string();
+    let map = LatticeMap { title: "m", dt: 1e-9, positions: &[0.0, 1.0], values: &rows, boundaries: &[] };
+    let msg = write_lattice(&dir.join("l.svg"), &map).expect_err("ragged").to_string();
     assert!(msg.contains("row 1 has 1 values, expected 2"), "{msg}");
 
     let pts = [(0.0, 1.0), (10.0, 2.0)];
@@ -374,13 +301,8 @@ fn bad_data_is_an_error_naming_series_and_sample() {
         y_markers: vec![],
         log_x: true,
     };
-    let msg = write_sweep(&dir.join("s.svg"), &sweep)
-        .expect_err("log of 0")
-        .to_string();
-    assert!(
-        msg.contains("x = 0") && msg.contains("logarithmic"),
-        "{msg}"
-    );
+    let msg = write_sweep(&dir.join("s.svg"), &sweep).expect_err("log of 0").to_string();
+    assert!(msg.contains("x = 0") && msg.contains("logarithmic"), "{msg}");
 }
 
 /// Relative luminance of an sRGB colour (IEC 61966-2-1 transfer, Rec. 709 weights) [memory].
@@ -401,11 +323,7 @@ fn lattice_colour_map_is_symmetric_around_zero() {
     let vmax = 7.3;
     for i in 0..=1000 {
         let v = vmax * i as f64 / 1000.0;
-        assert_eq!(
-            diverging_level(-v, vmax),
-            -diverging_level(v, vmax),
-            "v = {v}"
-        );
+        assert_eq!(diverging_level(-v, vmax), -diverging_level(v, vmax), "v = {v}");
     }
     assert_eq!(diverging_level(0.0, vmax), 0);
     assert_eq!(diverging_level(vmax, vmax), LEVELS);
@@ -413,18 +331,12 @@ fn lattice_colour_map_is_symmetric_around_zero() {
     for k in 1..=LEVELS {
         let (pos, neg) = (level_colour(k), level_colour(-k));
         // Equal magnitude, equal strength: luminance matched within 0.01 on a 0..1 scale.
-        assert!(
-            (luminance(pos) - luminance(neg)).abs() < 0.01,
-            "level {k}: {pos:?} vs {neg:?}"
-        );
+        assert!((luminance(pos) - luminance(neg)).abs() < 0.01, "level {k}: {pos:?} vs {neg:?}");
         // Each side darkens monotonically away from zero.
         assert!(luminance(level_colour(k)) < luminance(level_colour(k - 1)));
         assert!(luminance(level_colour(-k)) < luminance(level_colour(-k + 1)));
         // Positive is the red side, negative the blue side.
-        assert!(
-            pos.0 > pos.2 && neg.2 > neg.0,
-            "level {k}: {pos:?} vs {neg:?}"
-        );
+        assert!(pos.0 > pos.2 && neg.2 > neg.0, "level {k}: {pos:?} vs {neg:?}");
     }
 }
 
@@ -446,9 +358,7 @@ fn bouncing_map(nx: usize, nt: usize, dt: f64) -> (Vec<f64>, Vec<Vec<f64>>) {
                         .map(|k| {
                             let g = (gs * gl).powi(k);
                             let k = k as f64;
-                            amp * g
-                                * (u(t - (2.0 * k * len + x) / c)
-                                    + gl * u(t - (2.0 * k * len + 2.0 * len - x) / c))
+                            amp * g * (u(t - (2.0 * k * len + x) / c) + gl * u(t - (2.0 * k * len + 2.0 * len - x) / c))
                         })
                         .sum()
                 })
@@ -462,12 +372,7 @@ fn bouncing_map(nx: usize, nt: usize, dt: f64) -> (Vec<f64>, Vec<Vec<f64>>) {
 fn lattice_svg_has_axes_colour_bar_and_named_boundaries() {
     let dir = out_dir("lattice");
     let (positions, values) = bouncing_map(601, 1500, 5e-9);
-    let boundaries = [
-        (0.0, "drive"),
-        (120.0, "joint A"),
-        (126.0, "joint B"),
-        (300.0, "motor"),
-    ];
+    let boundaries = [(0.0, "drive"), (120.0, "joint A"), (126.0, "joint B"), (300.0, "motor")];
     let map = LatticeMap {
         title: "packaging line: pulse bouncing along the feeder",
         dt: 5e-9,
@@ -480,24 +385,11 @@ fn lattice_svg_has_axes_colour_bar_and_named_boundaries() {
     let svg = fs::read_to_string(&path).unwrap();
     well_formed(&svg);
     // 1500 rows at 5 ns span 7.495 µs.
-    for label in [
-        "distance (m)",
-        "time (µs)",
-        "voltage (V)",
-        "drive",
-        "joint A",
-        "joint B",
-        "motor",
-        map.title,
-    ] {
+    for label in ["distance (m)", "time (µs)", "voltage (V)", "drive", "joint A", "joint B", "motor", map.title] {
         assert!(has_text(&svg, label), "missing text '{label}'");
     }
     // Colour bar ends: ±max |v|, the first arrival plus its reflection from the open end: 10 V.
-    assert!(
-        has_text(&svg, "10") && has_text(&svg, "-10"),
-        "{:?}",
-        texts(&svg)
-    );
+    assert!(has_text(&svg, "10") && has_text(&svg, "-10"), "{:?}", texts(&svg));
     // One dashed line per boundary.
     assert_eq!(svg.matches("stroke-dasharray").count(), boundaries.len());
     // Both signs of the map are drawn: the source reflection (-0.6) makes negative waves.
@@ -515,13 +407,7 @@ fn busy_lattice_is_binned_coarser_to_stay_small() {
     let positions: Vec<f64> = (0..400).map(|i| i as f64).collect();
     let n = noise(400 * 300);
     let values: Vec<Vec<f64>> = n.chunks(400).map(|c| c.to_vec()).collect();
-    let map = LatticeMap {
-        title: "noise",
-        dt: 1e-9,
-        positions: &positions,
-        values: &values,
-        boundaries: &[],
-    };
+    let map = LatticeMap { title: "noise", dt: 1e-9, positions: &positions, values: &values, boundaries: &[] };
     let path = dir.join("noise.svg");
     write_lattice(&path, &map).expect("write");
     let svg = fs::read_to_string(&path).unwrap();
@@ -535,23 +421,15 @@ fn busy_lattice_is_binned_coarser_to_stay_small() {
 /// (1 + gL) E beyond it.
 fn peak_curve(lengths: &[f64], rise: f64) -> Vec<(f64, f64)> {
     let (e, v, gl) = (600.0, 1.5e8, 0.9);
-    lengths
-        .iter()
-        .map(|&l| (l, e * (1.0 + gl * (2.0 * l / (v * rise)).min(1.0))))
-        .collect()
+    lengths.iter().map(|&l| (l, e * (1.0 + gl * (2.0 * l / (v * rise)).min(1.0)))).collect()
 }
 
 #[test]
 fn sweep_svg_has_series_markers_and_log_axis() {
     let dir = out_dir("sweep");
-    let lengths: Vec<f64> = (0..40)
-        .map(|i| 10f64.powf(-0.5 + i as f64 * 3.0 / 39.0))
-        .collect();
+    let lengths: Vec<f64> = (0..40).map(|i| 10f64.powf(-0.5 + i as f64 * 3.0 / 39.0)).collect();
     let reference = peak_curve(&lengths, 100e-9);
-    let emulated: Vec<(f64, f64)> = reference
-        .iter()
-        .map(|&(l, v)| (l, v * 0.995 + 2.0))
-        .collect();
+    let emulated: Vec<(f64, f64)> = reference.iter().map(|&(l, v)| (l, v * 0.995 + 2.0)).collect();
     let slower = peak_curve(&lengths, 400e-9);
     for log_x in [true, false] {
         let plot = SweepPlot {
@@ -563,18 +441,11 @@ fn sweep_svg_has_series_markers_and_log_axis() {
                 ("exact reference", &reference),
                 ("400 ns rise (reference)", &slower),
             ],
-            x_markers: vec![
-                (7.5, "critical length 7.5 m"),
-                (30.0, "critical length at 400 ns"),
-            ],
+            x_markers: vec![(7.5, "critical length 7.5 m"), (30.0, "critical length at 400 ns")],
             y_markers: vec![(1200.0, "2 × step"), (600.0, "step")],
             log_x,
         };
-        let path = dir.join(if log_x {
-            "peak_log.svg"
-        } else {
-            "peak_lin.svg"
-        });
+        let path = dir.join(if log_x { "peak_log.svg" } else { "peak_lin.svg" });
         write_sweep(&path, &plot).expect("write");
         let svg = fs::read_to_string(&path).unwrap();
         well_formed(&svg);

@@ -3,32 +3,20 @@
 
 use num_complex::Complex64;
 use tidewire_host::plant::{
-    CableType, Drive, End, Load, LossModel, Node, Plant, Probe, ProbeKind, Segment, Span,
-    Tolerances, Waveform, C0,
+    CableType, Drive, End, Load, LossModel, Node, Plant, Probe, ProbeKind, Segment, Span, Tolerances, Waveform, C0,
 };
 use tidewire_host::reference::{
     dc_operating_point, exact_response, segment_s21, transfer, ExactOptions, ReferenceError,
 };
 
 fn cable(z0: f64, velocity: f64, r_per_m: f64, loss: Option<LossModel>) -> CableType {
-    CableType {
-        name: "line".into(),
-        z0,
-        velocity,
-        r_per_m,
-        loss,
-        source: "test".into(),
-    }
+    CableType { name: "line".into(), z0, velocity, r_per_m, loss, source: "test".into() }
 }
 
 /// A source node, one segment of `length` m, and a far node with `load`; probes: far-end
 /// voltage, source-end voltage, current into the segment at its far end.
 fn one_line(c: CableType, length: f64, emf: Waveform, rs: f64, load: Load, rate: f64) -> Plant {
-    let node = |name: &str, load| Node {
-        name: name.into(),
-        load,
-        span: Span::default(),
-    };
+    let node = |name: &str, load| Node { name: name.into(), load, span: Span::default() };
     Plant {
         name: "bench".into(),
         notes: vec![],
@@ -36,28 +24,12 @@ fn one_line(c: CableType, length: f64, emf: Waveform, rs: f64, load: Load, rate:
         duration: 1e-6,
         cables: vec![c],
         nodes: vec![node("feed", Load::Open), node("far", load)],
-        segments: vec![Segment {
-            name: "run".into(),
-            from: 0,
-            to: 1,
-            cable: 0,
-            length,
-            span: Span::default(),
-        }],
+        segments: vec![Segment { name: "run".into(), from: 0, to: 1, cable: 0, length, span: Span::default() }],
         drive: Drive::Source { node: 0, emf, rs },
         probes: vec![
-            Probe {
-                name: "v far".into(),
-                kind: ProbeKind::Voltage(1),
-            },
-            Probe {
-                name: "v feed".into(),
-                kind: ProbeKind::Voltage(0),
-            },
-            Probe {
-                name: "i far".into(),
-                kind: ProbeKind::Current(0, End::To),
-            },
+            Probe { name: "v far".into(), kind: ProbeKind::Voltage(1) },
+            Probe { name: "v feed".into(), kind: ProbeKind::Voltage(0) },
+            Probe { name: "i far".into(), kind: ProbeKind::Current(0, End::To) },
         ],
         tolerances: Tolerances::default(),
         events: vec![],
@@ -66,22 +38,11 @@ fn one_line(c: CableType, length: f64, emf: Waveform, rs: f64, load: Load, rate:
 }
 
 fn step(amplitude: f64, rise: f64) -> Waveform {
-    Waveform::Step {
-        amplitude,
-        delay: 0.0,
-        rise,
-    }
+    Waveform::Step { amplitude, delay: 0.0, rise }
 }
 
 fn run(plant: &Plant, samples: usize) -> tidewire_host::reference::ExactRun {
-    exact_response(
-        plant,
-        &ExactOptions {
-            samples,
-            wrap_level: 1e-9,
-        },
-    )
-    .expect("exact response")
+    exact_response(plant, &ExactOptions { samples, wrap_level: 1e-9 }).expect("exact response")
 }
 
 fn peak(values: &[f64]) -> f64 {
@@ -105,49 +66,27 @@ fn ulaby_step_into_mismatched_line_follows_the_bounce_series() {
     for k in 0..4 {
         let want = 40.0 / 3.0 * series(k + 1);
         let got = load[(2 * k + 1) * t + t]; // middle of [(2k+1)T, (2k+3)T)
-        assert!(
-            (got - want).abs() <= 1e-6 * want,
-            "load plateau {k}: {got} vs {want}"
-        );
+        assert!((got - want).abs() <= 1e-6 * want, "load plateau {k}: {got} vs {want}");
     }
     for k in 0..3 {
         let want = 20.0 - 80.0 / 9.0 * series(k);
         let got = feed[2 * k * t + t]; // middle of [2kT, 2(k+1)T)
-        assert!(
-            (got - want).abs() <= 1e-6 * want,
-            "feed plateau {k}: {got} vs {want}"
-        );
+        assert!((got - want).abs() <= 1e-6 * want, "feed plateau {k}: {got} vs {want}");
     }
     // The published rounded values, REFERENCES.md: 13.333, 11.852, 12.016, 11.998 V at the
     // load and 20, 11.111, 12.099 V at the source end.
-    for (got, want) in [10, 20, 30, 40]
-        .iter()
-        .map(|&m| load[m])
-        .zip([13.333, 11.852, 12.016, 11.998])
-    {
+    for (got, want) in [10, 20, 30, 40].iter().map(|&m| load[m]).zip([13.333, 11.852, 12.016, 11.998]) {
         assert!((got - want).abs() < 6e-4, "{got} vs published {want}");
     }
-    for (got, want) in [5, 15, 25]
-        .iter()
-        .map(|&m| feed[m])
-        .zip([20.0, 11.111, 12.099])
-    {
+    for (got, want) in [5, 15, 25].iter().map(|&m| feed[m]).zip([20.0, 11.111, 12.099]) {
         assert!((got - want).abs() < 6e-4, "{got} vs published {want}");
     }
     // Final value 60·25/125 = 12 V [closed form], after 40 round trips.
-    assert!(
-        (load[199] - 12.0).abs() <= 1e-6 * 12.0,
-        "final {}",
-        load[199]
-    );
+    assert!((load[199] - 12.0).abs() <= 1e-6 * 12.0, "final {}", load[199]);
     // Nothing arrives before T [closed form], up to the stated wrap-around bound.
     let bound = r.wrap_bound * 60.0;
     assert!(bound < 1e-6, "bound {bound}");
-    assert!(
-        load[..5].iter().all(|v| v.abs() <= bound),
-        "precursor {:?}",
-        &load[..5]
-    );
+    assert!(load[..5].iter().all(|v| v.abs() <= bound), "precursor {:?}", &load[..5]);
 }
 
 #[test]
@@ -155,34 +94,17 @@ fn lossy_line_settles_to_ohms_law() {
     // [closed form] 100 m at 0.1 ohm/m loop resistance (10 ohm) between 10 V behind 50 ohm
     // and a 100 ohm load: v_load = 10·100/(50 + 10 + 100).
     let c = cable(50.0, 2.0e8, 0.1, None);
-    let plant = one_line(
-        c,
-        100.0,
-        step(10.0, 0.0),
-        50.0,
-        Load::Resistor(100.0),
-        1.0e8,
-    );
+    let plant = one_line(c, 100.0, step(10.0, 0.0), 50.0, Load::Resistor(100.0), 1.0e8);
     let want = 10.0 * 100.0 / 160.0;
     let dc = dc_operating_point(&plant, 10.0).expect("dc");
     assert!((dc[1] - want).abs() <= 1e-4 * want, "dc load {}", dc[1]);
-    assert!(
-        (dc[0] - 10.0 * 110.0 / 160.0).abs() <= 1e-4 * want,
-        "dc feed {}",
-        dc[0]
-    );
+    assert!((dc[0] - 10.0 * 110.0 / 160.0).abs() <= 1e-4 * want, "dc feed {}", dc[0]);
     let r = run(&plant, 4000); // 40 us, 40 round trips
     let late = *r.traces[0].values.last().unwrap();
-    assert!(
-        (late - want).abs() <= 1e-4 * want,
-        "late load {late} vs {want}"
-    );
+    assert!((late - want).abs() <= 1e-4 * want, "late load {late} vs {want}");
     // Same settled current flows out of the line into the load [closed form]: −v/RL.
     let i = *r.traces[2].values.last().unwrap();
-    assert!(
-        (i + want / 100.0).abs() <= 1e-4 * want / 100.0,
-        "late current {i}"
-    );
+    assert!((i + want / 100.0).abs() <= 1e-4 * want / 100.0, "late current {i}");
     // transfer() at s = 0 is the DC operating point per volt.
     let h0 = transfer(&plant, 0, Complex64::new(0.0, 0.0)).unwrap();
     assert!((h0.re * 10.0 - want).abs() < 1e-12);
@@ -211,10 +133,7 @@ fn fit_cat5e(freqs: &[f64]) -> LossModel {
     let c_sqrt = (b1 * a22 - b2 * a12) / det; // dB/100 m per sqrt(MHz)
     let c_lin = (a11 * b2 - a12 * b1) / det; // dB/100 m per MHz
     let np_per_m = 1.0 / (20.0 / std::f64::consts::LN_10) / 100.0; // dB/100 m -> Np/m
-    LossModel {
-        k_c: c_sqrt * np_per_m / 1e3,
-        k_d: c_lin * np_per_m / 1e6,
-    }
+    LossModel { k_c: c_sqrt * np_per_m / 1e3, k_d: c_lin * np_per_m / 1e6 }
 }
 
 #[test]
@@ -229,12 +148,8 @@ fn cat5e_fit_reproduces_the_insertion_loss_curve_within_what_the_model_can_reach
     // [closed form] the causal skin term R·(1 + j) has an internal reactance equal to its
     // resistance; to second order in R/(wL) it lowers alpha by k_c²·v/(2·pi) per metre at
     // every frequency (alpha = (R/2Z0)·(1 − R/(2wL)) and R/(2Z0)·R/(2wL) = k_c²·v/(2·pi)).
-    let offset =
-        db_per_np * loss.k_c * loss.k_c * c.velocity / (2.0 * std::f64::consts::PI) * length;
-    assert!(
-        (offset - 0.146).abs() < 0.002,
-        "internal-reactance offset {offset} dB"
-    );
+    let offset = db_per_np * loss.k_c * loss.k_c * c.velocity / (2.0 * std::f64::consts::PI) * length;
+    assert!((offset - 0.146).abs() < 0.002, "internal-reactance offset {offset} dB");
     for &f in &freqs {
         let il = -20.0 * segment_s21(&c, length, f * 1e6, 100.0).norm().log10();
         let fitted = db_per_np * length * (loss.k_c * (f * 1e6).sqrt() + loss.k_d * f * 1e6);
@@ -243,11 +158,7 @@ fn cat5e_fit_reproduces_the_insertion_loss_curve_within_what_the_model_can_reach
         // not representable by k_c·sqrt(f) + k_d·f (fit residual 0.043 dB at 1 MHz), and the
         // internal reactance above puts the line about 0.11–0.16 dB below the formula.
         // 0.2 dB is the honest tolerance.
-        assert!(
-            (il - cat5e_db(f)).abs() < 0.2,
-            "{f} MHz: exact {il} dB vs formula {} dB",
-            cat5e_db(f)
-        );
+        assert!((il - cat5e_db(f)).abs() < 0.2, "{f} MHz: exact {il} dB vs formula {} dB", cat5e_db(f));
         // [closed form] and the difference from the fitted alpha is that offset, up to
         // third-order terms, the dielectric's dispersion and the Zc mismatch (< 0.05 dB).
         assert!(
@@ -273,15 +184,9 @@ fn motor_cable_longer_than_the_critical_length_nearly_doubles_the_edge() {
     // one, 2 round trips of 1.6 us later, is reduced by Gamma_g = −79/81.
     let doubled = 2.0 * e * 80.0 / 81.0;
     assert!(long_peak > 1.9 * e, "120 m: peak {long_peak} V");
-    assert!(
-        long_peak < doubled * 1.001,
-        "120 m: peak {long_peak} V above {doubled} V"
-    );
+    assert!(long_peak < doubled * 1.001, "120 m: peak {long_peak} V above {doubled} V");
     assert!(short_peak < 1.5 * e, "2 m: peak {short_peak} V");
-    assert!(
-        short_peak > e,
-        "2 m: an open end still overshoots, peak {short_peak} V"
-    );
+    assert!(short_peak > e, "2 m: an open end still overshoots, peak {short_peak} V");
 }
 
 #[test]
@@ -309,15 +214,9 @@ fn doubling_the_record_changes_the_first_samples_only_within_the_stated_bound() 
     // weight exp(−sigma·N·dt); runs of n and 2n samples must agree to the sum of their
     // stated bounds. A lossy cable with skin and dielectric loss, an off-grid delay and a
     // series-RC termination, so nothing is exact by construction.
-    let loss = LossModel {
-        k_c: 3.0e-6,
-        k_d: 3.0e-11,
-    };
+    let loss = LossModel { k_c: 3.0e-6, k_d: 3.0e-11 };
     let c = cable(100.0, 0.66 * C0, 0.08, Some(loss));
-    let load = Load::SeriesRc {
-        r: 120.0,
-        c: 200e-12,
-    };
+    let load = Load::SeriesRc { r: 120.0, c: 200e-12 };
     let plant = one_line(c, 37.3, step(5.0, 20e-9), 22.0, load, 5.0e8);
     let n = 700;
     let a = run(&plant, n);
@@ -325,36 +224,18 @@ fn doubling_the_record_changes_the_first_samples_only_within_the_stated_bound() 
     assert!(a.sigma > b.sigma, "a shorter record is damped harder");
     let allowed = (a.wrap_bound + b.wrap_bound) * peak(&a.drive);
     // 1e-4 V on a 5 V step: far below any tolerance the emulator is checked against.
-    assert!(
-        allowed < 1e-4,
-        "bound {allowed} must be small enough to mean something"
-    );
+    assert!(allowed < 1e-4, "bound {allowed} must be small enough to mean something");
     for k in 0..3 {
         for m in 0..n {
             let d = (a.traces[k].values[m] - b.traces[k].values[m]).abs();
-            assert!(
-                d <= allowed,
-                "trace {k} sample {m}: differs by {d}, bound {allowed}"
-            );
+            assert!(d <= allowed, "trace {k} sample {m}: differs by {d}, bound {allowed}");
         }
     }
     // A looser wrap level must show up as a larger difference: the check can fail.
-    let loose = exact_response(
-        &plant,
-        &ExactOptions {
-            samples: n,
-            wrap_level: 1e-2,
-        },
-    )
-    .unwrap();
-    let worst = (0..n)
-        .map(|m| (loose.traces[0].values[m] - b.traces[0].values[m]).abs())
-        .fold(0.0, f64::max);
+    let loose = exact_response(&plant, &ExactOptions { samples: n, wrap_level: 1e-2 }).unwrap();
+    let worst = (0..n).map(|m| (loose.traces[0].values[m] - b.traces[0].values[m]).abs()).fold(0.0, f64::max);
     assert!(worst > allowed, "wrap level 1e-2 differs by only {worst}");
-    assert!(
-        worst <= (loose.wrap_bound + b.wrap_bound) * peak(&a.drive),
-        "{worst}"
-    );
+    assert!(worst <= (loose.wrap_bound + b.wrap_bound) * peak(&a.drive), "{worst}");
 
     // An ideal step into a lossless line whose delay is off the grid rings at the band
     // edge (Gibbs); the stated bound grows to cover it and still holds.
@@ -364,10 +245,7 @@ fn doubling_the_record_changes_the_first_samples_only_within_the_stated_bound() 
     let allowed = (a.wrap_bound + b.wrap_bound) * peak(&a.drive);
     for m in 0..n {
         let d = (a.traces[0].values[m] - b.traces[0].values[m]).abs();
-        assert!(
-            d <= allowed,
-            "ideal step, sample {m}: differs by {d}, bound {allowed}"
-        );
+        assert!(d <= allowed, "ideal step, sample {m}: differs by {d}, bound {allowed}");
     }
 }
 
@@ -398,69 +276,30 @@ fn rig_drive_is_its_device_stimulus_behind_its_resistance() {
 fn bad_plants_are_errors_not_panics() {
     let c = cable(50.0, 2.0e8, 0.0, None);
     let good = one_line(c, 1.0, step(1.0, 0.0), 50.0, Load::Open, 1.0e9);
-    let opts = ExactOptions {
-        samples: 16,
-        wrap_level: 1e-9,
-    };
+    let opts = ExactOptions { samples: 16, wrap_level: 1e-9 };
     let mut p = good.clone();
     p.probes.clear();
     assert_eq!(exact_response(&p, &opts), Err(ReferenceError::NoProbes));
     let mut p = good.clone();
     p.segments[0].length = -3.0;
-    p.segments[0].span = Span {
-        line: 12,
-        column: 5,
-    };
+    p.segments[0].span = Span { line: 12, column: 5 };
     let msg = exact_response(&p, &opts).unwrap_err().to_string();
-    assert!(
-        msg.contains("segment 'run'")
-            && msg.contains("line 12, column 5")
-            && msg.contains("length"),
-        "{msg}"
-    );
+    assert!(msg.contains("segment 'run'") && msg.contains("line 12, column 5") && msg.contains("length"), "{msg}");
     let mut p = good.clone();
     p.nodes[1].load = Load::Resistor(0.0);
-    assert!(matches!(
-        dc_operating_point(&p, 1.0),
-        Err(ReferenceError::Invalid { field: "load", .. })
-    ));
+    assert!(matches!(dc_operating_point(&p, 1.0), Err(ReferenceError::Invalid { field: "load", .. })));
     assert!(matches!(
         transfer(&good, 9, Complex64::new(1.0, 0.0)),
         Err(ReferenceError::ProbeOutOfRange { index: 9, count: 3 })
     ));
-    let bad_wrap = ExactOptions {
-        samples: 16,
-        wrap_level: 1.5,
-    };
-    assert!(matches!(
-        exact_response(&good, &bad_wrap),
-        Err(ReferenceError::BadOption { .. })
-    ));
-    assert_eq!(
-        exact_response(
-            &good,
-            &ExactOptions {
-                samples: 0,
-                wrap_level: 1e-9
-            }
-        ),
-        Err(ReferenceError::NoSamples)
-    );
+    let bad_wrap = ExactOptions { samples: 16, wrap_level: 1.5 };
+    assert!(matches!(exact_response(&good, &bad_wrap), Err(ReferenceError::BadOption { .. })));
+    assert_eq!(exact_response(&good, &ExactOptions { samples: 0, wrap_level: 1e-9 }), Err(ReferenceError::NoSamples));
     // A node with nothing connected cannot be solved; the error names the frequency.
     let mut p = good.clone();
-    p.nodes.push(Node {
-        name: "island".into(),
-        load: Load::Open,
-        span: Span::default(),
-    });
-    p.probes.push(Probe {
-        name: "v island".into(),
-        kind: ProbeKind::Voltage(2),
-    });
-    assert!(matches!(
-        exact_response(&p, &opts),
-        Err(ReferenceError::Singular { .. })
-    ));
+    p.nodes.push(Node { name: "island".into(), load: Load::Open, span: Span::default() });
+    p.probes.push(Probe { name: "v island".into(), kind: ProbeKind::Voltage(2) });
+    assert!(matches!(exact_response(&p, &opts), Err(ReferenceError::Singular { .. })));
 }
 
 #[test]
@@ -475,22 +314,13 @@ fn dc_currents_are_the_low_frequency_limit_of_the_line_solution() {
     second.length = 3.0;
     plant.segments.push(second);
     plant.probes = vec![
-        Probe {
-            name: "i1".into(),
-            kind: ProbeKind::Current(0, End::From),
-        },
-        Probe {
-            name: "i3".into(),
-            kind: ProbeKind::Current(1, End::From),
-        },
+        Probe { name: "i1".into(), kind: ProbeKind::Current(0, End::From) },
+        Probe { name: "i3".into(), kind: ProbeKind::Current(1, End::From) },
     ];
     for (k, want) in [(0, 0.075), (1, 0.025)] {
         let dc = transfer(&plant, k, Complex64::new(0.0, 0.0)).unwrap();
         let near = transfer(&plant, k, Complex64::new(1.0e-2, 0.0)).unwrap();
         assert!((dc.re - want).abs() < 1e-14, "DC current {k}: {dc}");
-        assert!(
-            (near - dc).norm() < 1e-6 * want,
-            "s = 0.01/s, current {k}: {near} vs {dc}"
-        );
+        assert!((near - dc).norm() < 1e-6 * want, "s = 0.01/s, current {k}: {near} vs {dc}");
     }
 }

@@ -33,52 +33,24 @@ pub fn generate(dir: &Path, plants: &[(&str, Vec<TestPlant>)]) -> Result<(), Str
     for (profile, list) in plants {
         for p in list {
             let net = p.network();
-            write_if_changed(
-                &dir.join(format!("{}.rs", p.name)),
-                rust_source(&net, &p.name).as_bytes(),
-            )?;
+            write_if_changed(&dir.join(format!("{}.rs", p.name)), rust_source(&net, &p.name).as_bytes())?;
             write_if_changed(&dir.join(format!("{}.bin", p.name)), &image_bytes(&net))?;
-            let path = |ext: &str| {
-                format!(
-                    "concat!(env!(\"CARGO_MANIFEST_DIR\"), \"/plants/gen/{}.{ext}\")",
-                    p.name
-                )
-            };
-            let _ = writeln!(
-                m,
-                "\n/// Test plant `{}` ({profile} profile).\npub mod {} {{",
-                p.name, p.name
-            );
+            let path = |ext: &str| format!("concat!(env!(\"CARGO_MANIFEST_DIR\"), \"/plants/gen/{}.{ext}\")", p.name);
+            let _ = writeln!(m, "\n/// Test plant `{}` ({profile} profile).\npub mod {} {{", p.name, p.name);
             let _ = writeln!(m, "    include!({});", path("rs"));
             let _ = writeln!(m, "    /// The same network as a binary image.");
-            let _ = writeln!(
-                m,
-                "    pub static IMAGE: &[u8] = include_bytes!({});\n}}",
-                path("bin")
-            );
+            let _ = writeln!(m, "    pub static IMAGE: &[u8] = include_bytes!({});\n}}", path("bin"));
         }
         lists.push((format!("{profile}_plants"), list.iter().collect()));
-        lists.push((
-            format!("m0_{profile}_plants"),
-            list.iter().filter(|p| fits_m0(p)).collect(),
-        ));
+        lists.push((format!("m0_{profile}_plants"), list.iter().filter(|p| fits_m0(p)).collect()));
     }
     for (macro_name, list) in &lists {
-        let _ = writeln!(
-            m,
-            "\n/// Calls `$run!(args.., module, \"name\")` for every plant of this list."
-        );
-        let _ = writeln!(
-            m,
-            "macro_rules! {macro_name} {{\n    ($run:ident, $($a:ident),*) => {{"
-        );
+        let _ = writeln!(m, "\n/// Calls `$run!(args.., module, \"name\")` for every plant of this list.");
+        let _ = writeln!(m, "macro_rules! {macro_name} {{\n    ($run:ident, $($a:ident),*) => {{");
         for p in list {
             let _ = writeln!(m, "        $run!($($a),*, {}, \"{}\");", p.name, p.name);
         }
-        let _ = writeln!(
-            m,
-            "    }};\n}}\n#[allow(unused_imports)]\npub(crate) use {macro_name};"
-        );
+        let _ = writeln!(m, "    }};\n}}\n#[allow(unused_imports)]\npub(crate) use {macro_name};");
     }
     write_if_changed(&dir.join("mod.rs"), m.as_bytes())
 }

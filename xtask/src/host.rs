@@ -14,13 +14,11 @@ const MEM: usize = 1 << 16;
 fn hashes_for<P: Profile>(plant: &TestPlant) -> Result<[u32; 4], String> {
     let mut s: Box<Solver<P, PORTS, JUNCS, MEM>> = Box::new(Solver::new());
     let mut out = [0u32; 4];
-    s.load(&plant.network())
-        .map_err(|e| format!("host load of {}: {e}", plant.name))?;
+    s.load(&plant.network()).map_err(|e| format!("host load of {}: {e}", plant.name))?;
     for (i, seed) in SEEDS.iter().enumerate() {
         out[i] = run_hashed(&mut s, *seed, SAMPLES);
     }
-    s.load_image(&image_bytes(&plant.network()))
-        .map_err(|e| format!("host image load of {}: {e}", plant.name))?;
+    s.load_image(&image_bytes(&plant.network())).map_err(|e| format!("host image load of {}: {e}", plant.name))?;
     for (i, seed) in SEEDS.iter().enumerate() {
         out[2 + i] = run_hashed(&mut s, *seed, SAMPLES);
     }

@@ -29,12 +29,7 @@ const QEMU_TIMEOUT: Duration = Duration::from_secs(300);
 
 fn main() -> ExitCode {
     let args: Vec<String> = std::env::args().skip(1).collect();
-    let result = match args
-        .iter()
-        .map(String::as_str)
-        .collect::<Vec<_>>()
-        .as_slice()
-    {
+    let result = match args.iter().map(String::as_str).collect::<Vec<_>>().as_slice() {
         ["firmware"] => firmware(false),
         ["firmware", "--inject-panic"] => firmware(true),
         _ => Err("usage: cargo run -p xtask -- firmware [--inject-panic]".into()),
@@ -54,20 +49,14 @@ struct Paths {
 }
 
 fn paths() -> Paths {
-    let root = Path::new(env!("CARGO_MANIFEST_DIR"))
-        .parent()
-        .unwrap_or(Path::new("."))
-        .to_path_buf();
+    let root = Path::new(env!("CARGO_MANIFEST_DIR")).parent().unwrap_or(Path::new(".")).to_path_buf();
     let crate_dir = root.join("examples/firmware");
     // Own target dir for the firmware workspace: `$CARGO_TARGET_DIR/fw`, else its `target/`.
     let target_dir = match std::env::var_os("CARGO_TARGET_DIR") {
         Some(d) => PathBuf::from(d).join("fw"),
         None => crate_dir.join("target"),
     };
-    Paths {
-        crate_dir,
-        target_dir,
-    }
+    Paths { crate_dir, target_dir }
 }
 
 /// `cargo build --release` of the firmware for `part`; returns (success, stderr).
@@ -77,27 +66,14 @@ fn build(p: &Paths, part: &Part, inject: bool) -> Result<(bool, String), String>
         features.push_str(",inject-panic");
     }
     let cargo = std::env::var_os("CARGO").unwrap_or_else(|| "cargo".into());
-    eprintln!(
-        "xtask: building firmware for {} ({}, features {features})",
-        part.name, part.target
-    );
+    eprintln!("xtask: building firmware for {} ({}, features {features})", part.name, part.target);
     let out = Command::new(cargo)
         .current_dir(&p.crate_dir)
         .env("CARGO_TARGET_DIR", &p.target_dir)
-        .args([
-            "build",
-            "--release",
-            "--target",
-            part.target,
-            "--features",
-            &features,
-        ])
+        .args(["build", "--release", "--target", part.target, "--features", &features])
         .output()
         .map_err(|e| format!("cannot start cargo: {e}"))?;
-    Ok((
-        out.status.success(),
-        String::from_utf8_lossy(&out.stderr).into_owned(),
-    ))
+    Ok((out.status.success(), String::from_utf8_lossy(&out.stderr).into_owned()))
 }
 
 fn inject_panic(p: &Paths) -> Result<(), String> {
@@ -106,30 +82,17 @@ fn inject_panic(p: &Paths) -> Result<(), String> {
         let (ok, err) = build(p, part, false)?;
         if !ok {
             eprintln!("{err}");
-            return Err(format!(
-                "{}: the firmware without the injected panic does not build",
-                part.name
-            ));
+            return Err(format!("{}: the firmware without the injected panic does not build", part.name));
         }
         let (ok, err) = build(p, part, true)?;
         if ok {
-            return Err(format!(
-                "{}: the build with a panic on the per-sample path LINKED",
-                part.name
-            ));
+            return Err(format!("{}: the build with a panic on the per-sample path LINKED", part.name));
         }
         if !err.contains(PANIC_SYMBOL) {
             eprintln!("{err}");
-            return Err(format!(
-                "{}: the build failed, but not on the panic symbol {PANIC_SYMBOL}",
-                part.name
-            ));
+            return Err(format!("{}: the build failed, but not on the panic symbol {PANIC_SYMBOL}", part.name));
         }
-        let line = err
-            .lines()
-            .find(|l| l.contains(PANIC_SYMBOL))
-            .unwrap_or("")
-            .trim();
+        let line = err.lines().find(|l| l.contains(PANIC_SYMBOL)).unwrap_or("").trim();
         println!("{}: link failed as expected: {line}", part.name);
     }
     println!("inject-panic: both links failed on `{PANIC_SYMBOL}` (a reachable panic cannot ship)");
@@ -138,32 +101,16 @@ fn inject_panic(p: &Paths) -> Result<(), String> {
 
 fn qemu(part: &Part, elf: &Path, shift: u32) -> Result<run::Report, String> {
     let mut cmd = Command::new("qemu-system-arm");
-    cmd.args([
-        "-M",
-        part.machine,
-        "-display",
-        "none",
-        "-monitor",
-        "none",
-        "-serial",
-        "null",
-    ])
-    .args(["-semihosting-config", "enable=on,target=native"])
-    .args(["-icount", &format!("shift={shift}")])
-    .arg("-kernel")
-    .arg(elf);
-    eprintln!(
-        "xtask: qemu-system-arm -M {} -icount shift={shift} -kernel {}",
-        part.machine,
-        elf.display()
-    );
+    cmd.args(["-M", part.machine, "-display", "none", "-monitor", "none", "-serial", "null"])
+        .args(["-semihosting-config", "enable=on,target=native"])
+        .args(["-icount", &format!("shift={shift}")])
+        .arg("-kernel")
+        .arg(elf);
+    eprintln!("xtask: qemu-system-arm -M {} -icount shift={shift} -kernel {}", part.machine, elf.display());
     let (ok, text) = tools::run_with_timeout(&mut cmd, QEMU_TIMEOUT)?;
     let r = run::parse(&text);
     if !ok || !r.done || !r.errors.is_empty() {
-        return Err(format!(
-            "{} on {}: firmware run failed (exit ok: {ok}); output:\n{text}",
-            part.name, part.machine
-        ));
+        return Err(format!("{} on {}: firmware run failed (exit ok: {ok}); output:\n{text}", part.name, part.machine));
     }
     Ok(r)
 }
@@ -171,10 +118,8 @@ fn qemu(part: &Part, elf: &Path, shift: u32) -> Result<run::Report, String> {
 fn firmware(inject: bool) -> Result<(), String> {
     let p = paths();
     tools::ensure_targets(&PARTS.map(|x| x.target))?;
-    let plants: Vec<(&str, Vec<plants::TestPlant>)> = plants::PROFILES
-        .iter()
-        .map(|(prof, shift)| (*prof, plants::test_plants(prof, *shift)))
-        .collect();
+    let plants: Vec<(&str, Vec<plants::TestPlant>)> =
+        plants::PROFILES.iter().map(|(prof, shift)| (*prof, plants::test_plants(prof, *shift))).collect();
     gen::generate(&p.crate_dir.join("plants/gen"), &plants)?;
     if inject {
         return inject_panic(&p);
@@ -187,39 +132,22 @@ fn firmware(inject: bool) -> Result<(), String> {
         let (ok, err) = build(&p, part, false)?;
         if !ok {
             eprintln!("{err}");
-            let hint = if err.contains(PANIC_SYMBOL) {
-                " (a panic is reachable: see the link error)"
-            } else {
-                ""
-            };
+            let hint = if err.contains(PANIC_SYMBOL) { " (a panic is reachable: see the link error)" } else { "" };
             return Err(format!("firmware build for {} failed{hint}", part.name));
         }
-        let elf = p
-            .target_dir
-            .join(part.target)
-            .join("release/tidewire-firmware");
+        let elf = p.target_dir.join(part.target).join("release/tidewire-firmware");
         let coarse = qemu(part, &elf, 0)?;
         let fine = qemu(part, &elf, 6)?;
         clocks.push((part.name, table::check_clock(part, &coarse, 0)?));
         table::check_clock(part, &fine, 6)?;
-        for (profile, list) in plants
-            .iter()
-            .filter(|(prof, _)| part.profiles.contains(prof))
-        {
+        for (profile, list) in plants.iter().filter(|(prof, _)| part.profiles.contains(prof)) {
             for plant in list.iter().filter(|p| part.name != "M0" || gen::fits_m0(p)) {
                 let want = host::hashes(profile, plant)?;
                 for report in [&coarse, &fine] {
                     for (i, (src, seed)) in
-                        [("source", 0), ("source", 1), ("image", 0), ("image", 1)]
-                            .iter()
-                            .enumerate()
+                        [("source", 0), ("source", 1), ("image", 0), ("image", 1)].iter().enumerate()
                     {
-                        let key = (
-                            profile.to_string(),
-                            plant.name.clone(),
-                            src.to_string(),
-                            *seed,
-                        );
+                        let key = (profile.to_string(), plant.name.clone(), src.to_string(), *seed);
                         match report.hashes.get(&key) {
                             Some(h) if *h == want[i] => checked += 1,
                             Some(h) => {
@@ -228,9 +156,7 @@ fn firmware(inject: bool) -> Result<(), String> {
                                     part.name, plant.name, want[i]
                                 ))
                             }
-                            None => {
-                                return Err(format!("{} printed no hash for {key:?}", part.name))
-                            }
+                            None => return Err(format!("{} printed no hash for {key:?}", part.name)),
                         }
                     }
                 }

@@ -3,9 +3,7 @@
 //! A [`TestPlant`] owns its tables, so a plant from any source can join the list: one built
 //! here, or (later) one from the host compiler through [`TestPlant::from_network`].
 
-use tidewire_core::{
-    Drive, Element, Junction, Line, LineLoss, Network, Probe, ProbeKind, Shunt, Side, MAX_PROBES,
-};
+use tidewire_core::{Drive, Element, Junction, Line, LineLoss, Network, Probe, ProbeKind, Shunt, Side, MAX_PROBES};
 
 /// A network with owned tables.
 #[derive(Debug, Clone)]
@@ -76,11 +74,7 @@ pub fn bus(name: &str, taps: usize, io_shift: u8) -> TestPlant {
     let trunk_z = 100 * MOHM;
     let mut lines = Vec::new();
     let mut junctions = vec![Junction::Node { shunt: Shunt::Open }];
-    let mut probes = vec![Probe {
-        kind: ProbeKind::Current,
-        line: 0,
-        side: Side::A,
-    }];
+    let mut probes = vec![Probe { kind: ProbeKind::Current, line: 0, side: Side::A }];
     let mut at: u16 = 0; // the trunk node the next segment starts from
     fn add_junction(junctions: &mut Vec<Junction>, j: Junction) -> u16 {
         junctions.push(j);
@@ -89,74 +83,34 @@ pub fn bus(name: &str, taps: usize, io_shift: u8) -> TestPlant {
     for t in 0..taps {
         let d = |k: usize| TRUNK_DELAYS[k % TRUNK_DELAYS.len()];
         let series = add_junction(&mut junctions, Junction::Series { milliohm: 1500 });
-        lines.push(Line {
-            z_milliohm: trunk_z,
-            delay: d(2 * t),
-            a: at,
-            b: series,
-        });
+        lines.push(Line { z_milliohm: trunk_z, delay: d(2 * t), a: at, b: series });
         let tap = add_junction(&mut junctions, Junction::Node { shunt: Shunt::Open });
-        lines.push(Line {
-            z_milliohm: trunk_z,
-            delay: d(2 * t + 1),
-            a: series,
-            b: tap,
-        });
+        lines.push(Line { z_milliohm: trunk_z, delay: d(2 * t + 1), a: series, b: tap });
         let z = DROP_OHMS[t % 5] * MOHM;
         let end = match t % 5 {
             0 => Shunt::Resistor { milliohm: z },
             1 => Shunt::Open,
-            2 => Shunt::Resistor {
-                milliohm: 10 * MOHM,
-            },
+            2 => Shunt::Resistor { milliohm: 10 * MOHM },
             3 => Shunt::Short,
             _ => Shunt::Resistor { milliohm: 2 * z },
         };
         let drop_end = add_junction(&mut junctions, Junction::Node { shunt: end });
-        lines.push(Line {
-            z_milliohm: z,
-            delay: DROP_DELAYS[t % 5],
-            a: tap,
-            b: drop_end,
-        });
+        lines.push(Line { z_milliohm: z, delay: DROP_DELAYS[t % 5], a: tap, b: drop_end });
         if probes.len() < MAX_PROBES - 1 {
-            probes.push(Probe {
-                kind: ProbeKind::Voltage,
-                line: (lines.len() - 1) as u16,
-                side: Side::B,
-            });
+            probes.push(Probe { kind: ProbeKind::Voltage, line: (lines.len() - 1) as u16, side: Side::B });
         }
         at = tap;
     }
-    let far = add_junction(
-        &mut junctions,
-        Junction::Node {
-            shunt: Shunt::Resistor {
-                milliohm: 300 * MOHM,
-            },
-        },
-    );
-    lines.push(Line {
-        z_milliohm: trunk_z,
-        delay: END_DELAY,
-        a: at,
-        b: far,
-    });
-    probes.push(Probe {
-        kind: ProbeKind::Voltage,
-        line: (lines.len() - 1) as u16,
-        side: Side::B,
-    });
+    let far = add_junction(&mut junctions, Junction::Node { shunt: Shunt::Resistor { milliohm: 300 * MOHM } });
+    lines.push(Line { z_milliohm: trunk_z, delay: END_DELAY, a: at, b: far });
+    probes.push(Probe { kind: ProbeKind::Voltage, line: (lines.len() - 1) as u16, side: Side::B });
     TestPlant {
         name: name.into(),
         lines,
         junctions,
         elements: Vec::new(),
         losses: Vec::new(),
-        drive: Drive::Source {
-            junction: 0,
-            milliohm: 50 * MOHM,
-        },
+        drive: Drive::Source { junction: 0, milliohm: 50 * MOHM },
         probes,
         io_shift,
         volts_per_code: 1.0 / 4096.0,

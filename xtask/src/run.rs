@@ -28,27 +28,24 @@ pub fn parse(text: &str) -> Report {
         let t: Vec<&str> = line.split_whitespace().collect();
         let g = |i: usize| t.get(i).copied();
         let key = |i: usize| g(i).map(|s| s.to_ascii_lowercase()).unwrap_or_default();
-        let ok =
-            match g(0) {
-                Some("HASH") => hex(g(4)).zip(hex(g(5))).map(|(seed, h)| {
-                    r.hashes.insert((key(1), key(2), key(3), seed), h);
-                }),
-                Some("TICKS") => hex(g(3)).zip(hex(g(4))).zip(hex(g(5)).zip(hex(g(6)))).map(
-                    |((seed, n), (t, b))| {
-                        r.ticks.insert((key(1), key(2), seed), (n, t, b));
-                    },
-                ),
-                Some("RAM") => hex(g(3)).map(|b| {
-                    r.ram.insert((key(1), key(2)), b);
-                }),
-                Some("CLOCK") => hex(g(1)).zip(hex(g(2))).map(|c| r.clock = Some(c)),
-                Some("DONE") => {
-                    r.done = true;
-                    Some(())
-                }
-                Some("PORTS") => Some(()),
-                _ => None,
-            };
+        let ok = match g(0) {
+            Some("HASH") => hex(g(4)).zip(hex(g(5))).map(|(seed, h)| {
+                r.hashes.insert((key(1), key(2), key(3), seed), h);
+            }),
+            Some("TICKS") => hex(g(3)).zip(hex(g(4))).zip(hex(g(5)).zip(hex(g(6)))).map(|((seed, n), (t, b))| {
+                r.ticks.insert((key(1), key(2), seed), (n, t, b));
+            }),
+            Some("RAM") => hex(g(3)).map(|b| {
+                r.ram.insert((key(1), key(2)), b);
+            }),
+            Some("CLOCK") => hex(g(1)).zip(hex(g(2))).map(|c| r.clock = Some(c)),
+            Some("DONE") => {
+                r.done = true;
+                Some(())
+            }
+            Some("PORTS") => Some(()),
+            _ => None,
+        };
         if ok.is_none() && !line.trim().is_empty() {
             r.errors.push(line.to_string());
         }

@@ -40,9 +40,7 @@ fn instructions(part: &Part, ticks: f64, shift: u32) -> f64 {
 /// `cortex_m::asm::delay(c)` (cortex-m 0.7.10) runs c + 1 iterations of `subs; bne`:
 /// 2c + 2 instructions.
 pub fn check_clock(part: &Part, r: &Report, shift: u32) -> Result<f64, String> {
-    let (cycles, ticks) = r
-        .clock
-        .ok_or_else(|| format!("{}: no CLOCK line", part.name))?;
+    let (cycles, ticks) = r.clock.ok_or_else(|| format!("{}: no CLOCK line", part.name))?;
     let insns = 2.0 * f64::from(cycles) + 2.0;
     let hz = f64::from(ticks) / (insns * f64::from(1u32 << shift)) * 1e9;
     if (hz / part.systick_hz - 1.0).abs() > 0.002 {
@@ -55,23 +53,12 @@ pub fn check_clock(part: &Part, r: &Report, shift: u32) -> Result<f64, String> {
 }
 
 /// The table row of one plant on one part.
-pub fn row(
-    part: &Part,
-    profile: &str,
-    plant: &TestPlant,
-    coarse: &Report,
-    fine: &Report,
-) -> Result<Row, String> {
+pub fn row(part: &Part, profile: &str, plant: &TestPlant, coarse: &Report, fine: &Report) -> Result<Row, String> {
     let get = |r: &Report, seed: u32| {
         r.ticks
             .get(&(profile.to_string(), plant.name.clone(), seed))
             .copied()
-            .ok_or_else(|| {
-                format!(
-                    "{}: no TICKS for {profile} {} seed {seed}",
-                    part.name, plant.name
-                )
-            })
+            .ok_or_else(|| format!("{}: no TICKS for {profile} {} seed {seed}", part.name, plant.name))
     };
     let (n, t0, b0) = get(coarse, 0)?;
     let (_, t1, _) = get(coarse, 1)?;
@@ -84,11 +71,7 @@ pub fn row(
         profile: profile.to_string(),
         plant: plant.name.clone(),
         ports,
-        ram: coarse
-            .ram
-            .get(&(profile.to_string(), plant.name.clone()))
-            .copied()
-            .unwrap_or(0),
+        ram: coarse.ram.get(&(profile.to_string(), plant.name.clone())).copied().unwrap_or(0),
         samples: n,
         per_sample,
         per_port: per_sample / ports as f64,
@@ -100,10 +83,7 @@ pub fn row(
 /// Print the table (markdown, so docs/firmware.md can take it as is).
 pub fn print(rows: &[Row], clocks: &[(&str, f64)]) {
     for (part, hz) in clocks {
-        println!(
-            "{part}: SysTick measured at {:.4} MHz (calibration loop, -icount shift=0)",
-            hz / 1e6
-        );
+        println!("{part}: SysTick measured at {:.4} MHz (calibration loop, -icount shift=0)", hz / 1e6);
     }
     println!();
     println!("| part | profile | plant | ports | solver RAM (B) | instr/sample | instr/port-update | stimuli equal (shift 0) | seed1 − seed0 instr (shift 6) |");

@@ -6,9 +6,7 @@ use std::time::{Duration, Instant};
 
 /// Run `cmd`, report its failure to start or its non-zero exit as an error.
 pub fn run_ok(cmd: &mut Command, what: &str) -> Result<(), String> {
-    let st = cmd
-        .status()
-        .map_err(|e| format!("{what}: cannot start: {e}"))?;
+    let st = cmd.status().map_err(|e| format!("{what}: cannot start: {e}"))?;
     if st.success() {
         Ok(())
     } else {
@@ -18,47 +16,27 @@ pub fn run_ok(cmd: &mut Command, what: &str) -> Result<(), String> {
 
 /// Make sure both rustup targets are installed (`rustup target add` is a no-op if they are).
 pub fn ensure_targets(targets: &[&str]) -> Result<(), String> {
-    run_ok(
-        Command::new("rustup")
-            .arg("target")
-            .arg("add")
-            .args(targets),
-        "rustup target add",
-    )
+    run_ok(Command::new("rustup").arg("target").arg("add").args(targets), "rustup target add")
 }
 
 fn is_root() -> bool {
-    Command::new("id")
-        .arg("-u")
-        .output()
-        .map(|o| o.stdout.trim_ascii() == b"0")
-        .unwrap_or(false)
+    Command::new("id").arg("-u").output().map(|o| o.stdout.trim_ascii() == b"0").unwrap_or(false)
 }
 
 /// Make sure `qemu-system-arm` runs; as root, install it with apt-get if it is missing.
 pub fn ensure_qemu() -> Result<(), String> {
-    let present = || {
-        Command::new("qemu-system-arm")
-            .arg("--version")
-            .output()
-            .map(|o| o.status.success())
-    };
+    let present = || Command::new("qemu-system-arm").arg("--version").output().map(|o| o.status.success());
     if let Ok(true) = present() {
         return Ok(());
     }
     if !is_root() {
-        return Err(
-            "qemu-system-arm is missing: install the Debian/Ubuntu package `qemu-system-arm` \
+        return Err("qemu-system-arm is missing: install the Debian/Ubuntu package `qemu-system-arm` \
                     (apt-get install qemu-system-arm) and run again"
-                .into(),
-        );
+            .into());
     }
     eprintln!("xtask: qemu-system-arm missing, installing it with apt-get");
     run_ok(Command::new("apt-get").arg("update"), "apt-get update")?;
-    run_ok(
-        Command::new("apt-get").args(["install", "-y", "qemu-system-arm"]),
-        "apt-get install qemu-system-arm",
-    )?;
+    run_ok(Command::new("apt-get").args(["install", "-y", "qemu-system-arm"]), "apt-get install qemu-system-arm")?;
     match present() {
         Ok(true) => Ok(()),
         _ => Err("qemu-system-arm still does not run after installing it".into()),
@@ -94,10 +72,7 @@ pub fn run_with_timeout(cmd: &mut Command, timeout: Duration) -> Result<(bool, S
     };
     let out = reader.join().unwrap_or_default();
     match status {
-        None => Err(format!(
-            "timed out after {} s; output so far:\n{out}",
-            timeout.as_secs()
-        )),
+        None => Err(format!("timed out after {} s; output so far:\n{out}", timeout.as_secs())),
         Some(st) => Ok((st.success(), out)),
     }
 }

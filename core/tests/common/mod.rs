@@ -86,7 +86,10 @@ pub fn network(loads: Loads, max_delay: u32, io_shift: u8) -> impl Strategy<Valu
             ),
             10_000u32..1_000_000,
             proptest::collection::vec((any::<prop::sample::Index>(), any::<bool>(), any::<bool>()), 1..4),
-            proptest::collection::vec((any::<prop::sample::Index>(), 2_000u32..2_000_000, 0u32..200_000, any::<bool>()), 0..3),
+            proptest::collection::vec(
+                (any::<prop::sample::Index>(), 2_000u32..2_000_000, 0u32..200_000, any::<bool>()),
+                0..3,
+            ),
         )
             .prop_map(move |(shunts, edge_specs, rs, probe_specs, element_specs)| {
                 let mut junctions: Vec<Junction> = shunts.iter().map(|s| Junction::Node { shunt: *s }).collect();
@@ -135,7 +138,11 @@ pub fn network(loads: Loads, max_delay: u32, io_shift: u8) -> impl Strategy<Valu
                     .into_iter()
                     .map(|(i, port, series, inductor)| Element {
                         junction: i.index(nodes) as u16,
-                        kind: if inductor { tidewire_core::ElementKind::Inductor } else { tidewire_core::ElementKind::Capacitor },
+                        kind: if inductor {
+                            tidewire_core::ElementKind::Inductor
+                        } else {
+                            tidewire_core::ElementKind::Capacitor
+                        },
                         port_milliohm: port,
                         // In a lossy plant every reactance sits behind a resistor: a bare
                         // bilinear capacitor is a short at the Nyquist frequency, which would
@@ -144,7 +151,14 @@ pub fn network(loads: Loads, max_delay: u32, io_shift: u8) -> impl Strategy<Valu
                     })
                     .collect();
                 elements.sort_by_key(|e| e.junction);
-                Owned { lines, junctions, elements, drive: Drive::Source { junction: 0, milliohm: rs }, probes, io_shift }
+                Owned {
+                    lines,
+                    junctions,
+                    elements,
+                    drive: Drive::Source { junction: 0, milliohm: rs },
+                    probes,
+                    io_shift,
+                }
             })
     })
 }
@@ -183,7 +197,16 @@ impl Twin {
     pub fn new(net: &Owned) -> Twin {
         let n = net.lines.len();
         let rings = (0..2 * n).map(|p| vec![0.0; net.lines[p / 2].delay as usize]).collect();
-        Twin { net: net.clone(), el_state: vec![0.0; net.elements.len()], el_a: vec![0.0; net.elements.len()], coef: None, rings, pos: vec![0; 2 * n], a: vec![0.0; 2 * n], b: vec![0.0; 2 * n] }
+        Twin {
+            net: net.clone(),
+            el_state: vec![0.0; net.elements.len()],
+            el_a: vec![0.0; net.elements.len()],
+            coef: None,
+            rings,
+            pos: vec![0; 2 * n],
+            a: vec![0.0; 2 * n],
+            b: vec![0.0; 2 * n],
+        }
     }
 
     /// The same network with the core's quantized coefficients (f64 arithmetic).
@@ -286,7 +309,11 @@ impl Twin {
             .iter()
             .map(|pr| {
                 let p = 2 * pr.line as usize + (pr.side == Side::B) as usize;
-                if pr.kind == ProbeKind::Current { self.a[p] - self.b[p] } else { self.a[p] + self.b[p] }
+                if pr.kind == ProbeKind::Current {
+                    self.a[p] - self.b[p]
+                } else {
+                    self.a[p] + self.b[p]
+                }
             })
             .collect();
         for (k, el) in self.net.elements.iter().enumerate() {

@@ -114,53 +114,24 @@ pub fn run_plant<P: Profile, const PO: usize, const J: usize, const M: usize>(
 ) -> bool {
     // On the stack: the frame is given back before the next plant runs.
     let mut solver: Solver<P, PO, J, M> = Solver::new();
-    out.str("RAM")
-        .word(profile)
-        .word(name)
-        .hex(core::mem::size_of::<Solver<P, PO, J, M>>() as u32)
-        .nl();
+    out.str("RAM").word(profile).word(name).hex(core::mem::size_of::<Solver<P, PO, J, M>>() as u32).nl();
     for from_image in [false, true] {
         let source = if from_image { "image" } else { "source" };
-        let ok = if from_image {
-            load_image(&mut solver, image)
-        } else {
-            load(&mut solver, net)
-        };
+        let ok = if from_image { load_image(&mut solver, image) } else { load(&mut solver, net) };
         if !ok {
-            out.str("ERROR load")
-                .word(profile)
-                .word(name)
-                .word(source)
-                .nl();
+            out.str("ERROR load").word(profile).word(name).word(source).nl();
             return false;
         }
         for (i, seed) in SEEDS.iter().enumerate() {
             let h = run_hashed(&mut solver, *seed, SAMPLES);
-            out.str("HASH")
-                .word(profile)
-                .word(name)
-                .word(source)
-                .hex(i as u32)
-                .hex(h)
-                .nl();
+            out.str("HASH").word(profile).word(name).word(source).hex(i as u32).hex(h).nl();
         }
     }
-    out.str("PORTS")
-        .word(profile)
-        .word(name)
-        .hex(solver.port_count() as u32)
-        .nl();
+    out.str("PORTS").word(profile).word(name).hex(solver.port_count() as u32).nl();
     for (i, seed) in SEEDS.iter().enumerate() {
         let t = time_steps(syst, &mut solver, *seed);
         let base = time_baseline(syst, *seed);
-        out.str("TICKS")
-            .word(profile)
-            .word(name)
-            .hex(i as u32)
-            .hex(TIMED)
-            .hex(t)
-            .hex(base)
-            .nl();
+        out.str("TICKS").word(profile).word(name).hex(i as u32).hex(TIMED).hex(t).hex(base).nl();
     }
     true
 }

@@ -49,12 +49,7 @@ pub extern "Rust" fn tidewire_firmware_panic_is_reachable() -> ! {
 /// Run one generated plant module `$m` on profile `$p` (`Wide` or `Narrow`).
 macro_rules! run {
     ($syst:ident, $out:ident, $ok:ident, $p:ident, $m:ident, $name:literal) => {
-        $ok &= bench::run_plant::<
-            $p,
-            { plants::$m::PORTS },
-            { plants::$m::JUNCTIONS },
-            { plants::$m::MEMORY },
-        >(
+        $ok &= bench::run_plant::<$p, { plants::$m::PORTS }, { plants::$m::JUNCTIONS }, { plants::$m::MEMORY }>(
             &mut $syst,
             &mut $out,
             stringify!($p),
@@ -84,11 +79,7 @@ fn main() -> ! {
         plants::m0_narrow_plants!(run, syst, out, ok, Narrow);
     }
     out.str(if ok { "DONE" } else { "FAILED" }).nl();
-    debug::exit(if ok {
-        debug::EXIT_SUCCESS
-    } else {
-        debug::EXIT_FAILURE
-    });
+    debug::exit(if ok { debug::EXIT_SUCCESS } else { debug::EXIT_FAILURE });
     #[allow(clippy::empty_loop)]
     loop {}
 }

@@ -24,11 +24,7 @@ impl Out {
         let mut buf = [b' '; 9];
         for (i, d) in buf.iter_mut().skip(1).enumerate() {
             let nib = (v >> (28 - 4 * i as u32)) & 0xf;
-            *d = if nib < 10 {
-                b'0' + nib as u8
-            } else {
-                b'a' + nib as u8 - 10
-            };
+            *d = if nib < 10 { b'0' + nib as u8 } else { b'a' + nib as u8 - 10 };
         }
         if let Some(h) = self.0.as_mut() {
             let _ = h.write_all(&buf);

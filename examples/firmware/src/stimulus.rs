@@ -25,11 +25,7 @@ pub struct Stimulus {
 impl Stimulus {
     /// A stimulus of `len` samples from `seed` (a zero seed is replaced: xorshift needs != 0).
     pub const fn new(seed: u32, len: u32) -> Self {
-        Stimulus {
-            state: if seed == 0 { 1 } else { seed },
-            n: 0,
-            len,
-        }
+        Stimulus { state: if seed == 0 { 1 } else { seed }, n: 0, len }
     }
 
     /// The next input code.

@@ -29,8 +29,10 @@ pub(super) fn run(out: &Path) -> Result<i32, Failure> {
     write_outputs(&narrow, &plant.name, Some(&out.join("plant-narrow.bin")), None)?;
 
     let csv = out.join("simulate.csv");
-    let r = crate::run::run_core(&c, c.samples, &[], &|_| {}).map_err(|e| Failure { code: 2, message: format!("error: {e}") })?;
-    let bytes = super::simulate::probes_csv(&c.probe_names, c.dt, &[("", &r.run.probes)]).map_err(|e| io_failure(&csv, e))?;
+    let r = crate::run::run_core(&c, c.samples, &[], &|_| {})
+        .map_err(|e| Failure { code: 2, message: format!("error: {e}") })?;
+    let bytes =
+        super::simulate::probes_csv(&c.probe_names, c.dt, &[("", &r.run.probes)]).map_err(|e| io_failure(&csv, e))?;
     crate::emit::write_atomic(&csv, &bytes).map_err(|e| io_failure(&csv, e))?;
     println!("wrote simulation  {} ({} samples, fixed-point core)", csv.display(), c.samples);
 
@@ -46,7 +48,16 @@ pub(super) fn run(out: &Path) -> Result<i32, Failure> {
     let motor = parse_plant(MOTOR_PLANT, &motor_path.display().to_string(), out)?;
     println!("\n!! {}", super::inspect::CAUTION);
     let sweep_svg = out.join("motor-sweep.svg");
-    super::sweep::run(&motor_path, "motor-feed", "motor terminals", 1.0, 200.0, 16, Some(&sweep_svg), ProfileKind::Wide)?;
+    super::sweep::run(
+        &motor_path,
+        "motor-feed",
+        "motor terminals",
+        1.0,
+        200.0,
+        16,
+        Some(&sweep_svg),
+        ProfileKind::Wide,
+    )?;
     let _ = motor;
     Ok(if v.pass() { 0 } else { 1 })
 }

@@ -56,7 +56,11 @@ pub fn report_text(plant: &Plant, c: &Compiled, file: &str) -> String {
         let _ = writeln!(s, "   note: {n}");
     }
     let _ = writeln!(s, "\n-- segments: delay on the sample grid");
-    let _ = writeln!(s, "   {:<18} {:<20} {:>9} {:>7} {:>11} {:>6} {:>22} {:>10} {:>4}", "segment", "cable", "length", "Z0", "tau", "delay", "timing error", "R loop", "sec");
+    let _ = writeln!(
+        s,
+        "   {:<18} {:<20} {:>9} {:>7} {:>11} {:>6} {:>22} {:>10} {:>4}",
+        "segment", "cable", "length", "Z0", "tau", "delay", "timing error", "R loop", "sec"
+    );
     for t in &r.segments {
         let _ = writeln!(
             s,
@@ -113,7 +117,11 @@ pub fn report_text(plant: &Plant, c: &Compiled, file: &str) -> String {
         eng(r.wave_range, "V"),
         r.headroom
     );
-    let _ = writeln!(s, "   largest line impedance error from weight quantization: {:.2e} (relative)", r.max_impedance_error);
+    let _ = writeln!(
+        s,
+        "   largest line impedance error from weight quantization: {:.2e} (relative)",
+        r.max_impedance_error
+    );
     let worst = r.segments.iter().map(|t| (t.error_s / t.tau).abs()).fold(0.0, f64::max);
     let _ = writeln!(s, "   largest delay quantization error: {:.3} % of a segment's delay", 100.0 * worst);
     let _ = writeln!(s, "\n-- storage and work per sample");
@@ -125,7 +133,7 @@ pub fn report_text(plant: &Plant, c: &Compiled, file: &str) -> String {
         r.ports, r.junctions, r.memory_waves
     );
     let _ = writeln!(s, "   RAM about {wide_kb:.1} KiB (wide) / {narrow_kb:.1} KiB (narrow)");
-    for b in crate::compile::budget::budgets(r.ports, r.junctions) {
+    for b in crate::compile::budget::budgets(r.ports, r.junctions, 1.0 / c.dt) {
         let _ = writeln!(s, "   {b}");
     }
     for w in &r.warnings {

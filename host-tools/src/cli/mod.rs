@@ -31,7 +31,11 @@ impl From<ProfileArg> for ProfileKind {
 }
 
 #[derive(Debug, Parser)]
-#[command(name = "tidewire", version, about = "Emulate cable plants in real time: plant files in, fixed-point configurations out, checked against the physics")]
+#[command(
+    name = "tidewire",
+    version,
+    about = "Emulate cable plants in real time: plant files in, fixed-point configurations out, checked against the physics"
+)]
 pub struct Cli {
     #[command(subcommand)]
     pub command: Command,
@@ -142,7 +146,9 @@ pub fn main() -> i32 {
     };
     let r = match cli.command {
         Command::Inspect { plant, profile } => inspect::run(&plant, profile.into()),
-        Command::Compile { plant, image, rust, profile } => output::compile_cmd(&plant, image.as_deref(), rust.as_deref(), profile.into()),
+        Command::Compile { plant, image, rust, profile } => {
+            output::compile_cmd(&plant, image.as_deref(), rust.as_deref(), profile.into())
+        }
         Command::Simulate { plant, samples, csv, profile } => simulate::run(&plant, samples, &csv, profile.into()),
         Command::Verify { plant, svg, lattice, csv, profile } => {
             verify_cmd::run(&plant, svg.as_deref(), lattice.as_deref(), csv.as_deref(), profile.into())

@@ -5,7 +5,12 @@ use crate::emit::{write_image, write_rust_source};
 use std::path::Path;
 
 /// Write the image and/or Rust source of `c`.
-pub(crate) fn write_outputs(c: &Compiled, title: &str, image: Option<&Path>, rust: Option<&Path>) -> Result<(), Failure> {
+pub(crate) fn write_outputs(
+    c: &Compiled,
+    title: &str,
+    image: Option<&Path>,
+    rust: Option<&Path>,
+) -> Result<(), Failure> {
     if let Some(p) = image {
         write_image(p, &c.network()).map_err(|e| io_failure(p, e))?;
         println!("wrote image       {} ({} profile)", p.display(), c.profile.name());
@@ -17,7 +22,12 @@ pub(crate) fn write_outputs(c: &Compiled, title: &str, image: Option<&Path>, rus
     Ok(())
 }
 
-pub(super) fn compile_cmd(path: &Path, image: Option<&Path>, rust: Option<&Path>, profile: ProfileKind) -> Result<i32, Failure> {
+pub(super) fn compile_cmd(
+    path: &Path,
+    image: Option<&Path>,
+    rust: Option<&Path>,
+    profile: ProfileKind,
+) -> Result<i32, Failure> {
     if image.is_none() && rust.is_none() {
         return Err(Failure { code: 2, message: "error: compile needs --image OUT.bin and/or --rust OUT.rs".into() });
     }

@@ -6,7 +6,11 @@ use crate::run::run_core;
 use std::path::Path;
 
 /// CSV of time (s) and each probe (V or A): header names carry the unit.
-pub(crate) fn probes_csv(names: &[(String, &str)], dt: f64, columns: &[(&str, &Vec<Vec<f64>>)]) -> Result<Vec<u8>, csv::Error> {
+pub(crate) fn probes_csv(
+    names: &[(String, &str)],
+    dt: f64,
+    columns: &[(&str, &Vec<Vec<f64>>)],
+) -> Result<Vec<u8>, csv::Error> {
     let mut w = csv::Writer::from_writer(vec![]);
     let mut header = vec!["time (s)".to_string()];
     for (tag, _) in columns {
@@ -35,7 +39,8 @@ pub(super) fn run(path: &Path, samples: Option<usize>, csv_path: &Path, profile:
     }
     let n = samples.unwrap_or(c.samples);
     let pb = progress(n, "simulate");
-    let r = run_core(&c, n, &[], &|k| pb.set_position(k as u64)).map_err(|e| Failure { code: 2, message: format!("error: {e}") })?;
+    let r = run_core(&c, n, &[], &|k| pb.set_position(k as u64))
+        .map_err(|e| Failure { code: 2, message: format!("error: {e}") })?;
     pb.finish_and_clear();
     let bytes = probes_csv(&c.probe_names, c.dt, &[("", &r.run.probes)]).map_err(|e| io_failure(csv_path, e))?;
     crate::emit::write_atomic(csv_path, &bytes).map_err(|e| io_failure(csv_path, e))?;

@@ -27,13 +27,21 @@ fn rise_of(plant: &Plant) -> Option<f64> {
 }
 
 /// Run the sweep.
-pub fn sweep(plant: &Plant, file: &str, segment: usize, probe: usize, lengths: &[f64], profile: ProfileKind) -> Result<Vec<SweepPoint>, Failure> {
+pub fn sweep(
+    plant: &Plant,
+    file: &str,
+    segment: usize,
+    probe: usize,
+    lengths: &[f64],
+    profile: ProfileKind,
+) -> Result<Vec<SweepPoint>, Failure> {
     let mut out = vec![];
     for &len in lengths {
         let mut p = plant.clone();
         p.segments[segment].length = len;
         let c = compile(&p, file, profile)?;
-        let r = crate::run::run_core(&c, c.samples, &[], &|_| {}).map_err(|e| Failure { code: 2, message: format!("error: {e}") })?;
+        let r = crate::run::run_core(&c, c.samples, &[], &|_| {})
+            .map_err(|e| Failure { code: 2, message: format!("error: {e}") })?;
         let step = c.host_drive.emf().iter().fold(0.0f64, |m, x| m.max(x.abs()));
         let peak = r.run.probes[probe].iter().fold(0.0f64, |m, x| m.max(x.abs()));
         out.push(SweepPoint { length: len, peak_ratio: peak / step });
@@ -42,15 +50,30 @@ pub fn sweep(plant: &Plant, file: &str, segment: usize, probe: usize, lengths: &
 }
 
 #[allow(clippy::too_many_arguments)]
-pub(super) fn run(path: &Path, segment: &str, probe: &str, from: f64, to: f64, steps: usize, svg: Option<&Path>, profile: ProfileKind) -> Result<i32, Failure> {
+pub(super) fn run(
+    path: &Path,
+    segment: &str,
+    probe: &str,
+    from: f64,
+    to: f64,
+    steps: usize,
+    svg: Option<&Path>,
+    profile: ProfileKind,
+) -> Result<i32, Failure> {
     let plant = load_plant(path)?;
     let file = path.display().to_string();
     let bad = |m: String| Failure { code: 2, message: format!("error: {m}") };
     let si = plant.segments.iter().position(|s| s.name == segment).ok_or_else(|| {
-        bad(format!("{file}: no segment named \"{segment}\" (segments: {})", plant.segments.iter().map(|s| s.name.as_str()).collect::<Vec<_>>().join(", ")))
+        bad(format!(
+            "{file}: no segment named \"{segment}\" (segments: {})",
+            plant.segments.iter().map(|s| s.name.as_str()).collect::<Vec<_>>().join(", ")
+        ))
     })?;
     let pi = plant.probes.iter().position(|p| p.name == probe).ok_or_else(|| {
-        bad(format!("{file}: no probe named \"{probe}\" (probes: {})", plant.probes.iter().map(|p| p.name.as_str()).collect::<Vec<_>>().join(", ")))
+        bad(format!(
+            "{file}: no probe named \"{probe}\" (probes: {})",
+            plant.probes.iter().map(|p| p.name.as_str()).collect::<Vec<_>>().join(", ")
+        ))
     })?;
     if !(from > 0.0 && to > from && steps >= 2) {
         return Err(bad("--from must be > 0, --to above it, and --steps at least 2".into()));

@@ -35,7 +35,12 @@ fn si(v: f64, unit: &str) -> String {
 pub fn verdict_text(plant: &Plant, c: &Compiled, v: &Verification) -> String {
     let t = &v.tolerances;
     let mut s = String::new();
-    let _ = writeln!(s, "== verify: {} ==  core ({}) against the exact reference and the f64 twin", plant.name, c.profile.name());
+    let _ = writeln!(
+        s,
+        "== verify: {} ==  core ({}) against the exact reference and the f64 twin",
+        plant.name,
+        c.profile.name()
+    );
     let _ = writeln!(
         s,
         "   drive step {}; {} samples; exact reference over the first {} (Laplace wrap bound {:.1e} of the step)",
@@ -64,7 +69,12 @@ pub fn verdict_text(plant: &Plant, c: &Compiled, v: &Verification) -> String {
             ok(p.pass_max),
             ok(p.pass_rms)
         );
-        let _ = writeln!(s, "   split            arithmetic (core - twin) {}, model (twin - exact) {}", si(p.arithmetic_error, u), si(p.model_error, u));
+        let _ = writeln!(
+            s,
+            "   split            arithmetic (core - twin) {}, model (twin - exact) {}",
+            si(p.arithmetic_error, u),
+            si(p.model_error, u)
+        );
         let f = |x: Option<f64>| x.map_or("none".to_string(), |v| format!("{v:.2}"));
         let _ = writeln!(
             s,
@@ -84,8 +94,14 @@ pub fn verdict_text(plant: &Plant, c: &Compiled, v: &Verification) -> String {
             ok(p.pass_final)
         );
         let st = |x: Option<f64>| x.map_or("not settled".to_string(), |v| si(v, "s"));
-        let _ = writeln!(s, "   settling         to 1 %: {}, to 5 %: {} after the drive edge", st(p.settle_1), st(p.settle_5));
-        let _ = writeln!(s, "   overshoot        {:+.2} %, undershoot {:.2} %", 100.0 * p.overshoot, 100.0 * p.undershoot);
+        let _ = writeln!(
+            s,
+            "   settling         to 1 %: {}, to 5 %: {} after the drive edge",
+            st(p.settle_1),
+            st(p.settle_5)
+        );
+        let _ =
+            writeln!(s, "   overshoot        {:+.2} %, undershoot {:.2} %", 100.0 * p.overshoot, 100.0 * p.undershoot);
         if !p.pass() {
             fails += 1;
         }
@@ -108,7 +124,10 @@ pub(crate) fn write_svg(path: &Path, c: &Compiled, tr: &Traces) -> Result<(), Fa
             title: name,
             dt: c.dt,
             unit,
-            emulated: Series { label: "tidewire core", values: &tr.core.run.probes[k][..tr.exact_len.min(tr.core.run.probes[k].len())] },
+            emulated: Series {
+                label: "tidewire core",
+                values: &tr.core.run.probes[k][..tr.exact_len.min(tr.core.run.probes[k].len())],
+            },
             reference: Series { label: "exact reference", values: &tr.exact[k] },
             extra: vec![],
         })
@@ -117,7 +136,13 @@ pub(crate) fn write_svg(path: &Path, c: &Compiled, tr: &Traces) -> Result<(), Fa
 }
 
 /// Write the lattice picture.
-pub(crate) fn write_lattice_svg(path: &Path, plant: &Plant, c: &Compiled, lp: &lattice::Path, tr: &Traces) -> Result<(), Failure> {
+pub(crate) fn write_lattice_svg(
+    path: &Path,
+    plant: &Plant,
+    c: &Compiled,
+    lp: &lattice::Path,
+    tr: &Traces,
+) -> Result<(), Failure> {
     let (positions, values) = lattice::map(c, lp, &tr.core.run.line_a);
     let names: Vec<(f64, &str)> = lp.boundaries.iter().map(|(x, n)| (*x, n.as_str())).collect();
     let title = format!("{}: voltage along the path (tidewire core)", plant.name);
@@ -149,14 +174,24 @@ pub(crate) fn verify_and_write(
         write_lattice_svg(p, plant, c, lp, &tr)?;
     }
     if let Some(p) = csv {
-        let bytes = probes_csv(&c.probe_names, c.dt, &[("core", &tr.core.run.probes), ("twin", &tr.twin.probes), ("exact", &tr.exact)])
-            .map_err(|e| io_failure(p, e))?;
+        let bytes = probes_csv(
+            &c.probe_names,
+            c.dt,
+            &[("core", &tr.core.run.probes), ("twin", &tr.twin.probes), ("exact", &tr.exact)],
+        )
+        .map_err(|e| io_failure(p, e))?;
         crate::emit::write_atomic(p, &bytes).map_err(|e| io_failure(p, e))?;
     }
     Ok(v)
 }
 
-pub(super) fn run(path: &Path, svg: Option<&Path>, lat: Option<&Path>, csv: Option<&Path>, profile: ProfileKind) -> Result<i32, Failure> {
+pub(super) fn run(
+    path: &Path,
+    svg: Option<&Path>,
+    lat: Option<&Path>,
+    csv: Option<&Path>,
+    profile: ProfileKind,
+) -> Result<i32, Failure> {
     let (plant, c) = load_and_compile(path, profile)?;
     let v = verify_and_write(&plant, &c, &path.display().to_string(), svg, lat, csv)?;
     print!("{}", verdict_text(&plant, &c, &v));

@@ -14,25 +14,36 @@ pub struct Part {
     pub cost: Option<(f64, f64, f64)>,
 }
 
-/// The two part classes the core targets.
+/// The two part classes the core targets. Costs: straight-line fits through the measured
+/// instructions per sample of the xtask's bus plants (2, 8, 32 ports; about one junction per
+/// two ports, so the junction cost is folded into the per-port figure), from
+/// `cargo run -p xtask -- firmware` on 2026-12-02: M0 narrow 456.8 / 1107.4 instructions at
+/// 2 / 8 ports, M4 wide 418 / 1126 / 3638 at 2 / 8 / 32 ports.
 pub const PARTS: [Part; 2] = [
-    Part { name: "Cortex-M0 class (narrow profile)", clock_hz: 48e6, cost: None },
-    Part { name: "Cortex-M4 class (wide profile)", clock_hz: 168e6, cost: None },
+    Part { name: "Cortex-M0 class (narrow profile)", clock_hz: 48e6, cost: Some((108.4, 0.0, 240.0)) },
+    Part { name: "Cortex-M4 class (wide profile)", clock_hz: 168e6, cost: Some((104.7, 0.0, 288.0)) },
 ];
 
-/// One line per part: instructions per sample and the largest sample rate.
-pub fn budgets(ports: usize, junctions: usize) -> Vec<String> {
+/// One line per part: instructions per sample, the largest sample rate, and how that
+/// compares with the plant's own sample rate `fs`.
+pub fn budgets(ports: usize, junctions: usize, fs: f64) -> Vec<String> {
     PARTS
         .iter()
         .map(|p| match p.cost {
             Some((per_port, per_junction, base)) => {
                 let instr = per_port * ports as f64 + per_junction * junctions as f64 + base;
+                let rate = p.clock_hz / instr;
+                let verdict = if rate >= fs {
+                    "real time".to_string()
+                } else {
+                    format!("{:.0}x slower than real time at this plant's rate", fs / rate)
+                };
                 format!(
-                    "{} at {:.0} MHz: about {:.0} instructions per sample, at most {:.2} MS/s",
+                    "{} at {:.0} MHz: about {:.0} instructions per sample, at most {:.1} kS/s ({verdict})",
                     p.name,
                     p.clock_hz / 1e6,
                     instr,
-                    p.clock_hz / instr / 1e6
+                    rate / 1e3
                 )
             }
             None => format!("{} at {:.0} MHz: not measured yet", p.name, p.clock_hz / 1e6),

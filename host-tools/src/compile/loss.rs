@@ -240,7 +240,12 @@ mod tests {
 
     #[test]
     fn quantized_shelves_never_gain() {
-        let loss = LineLoss { line: 0, sections: 2, poles: [900_000_000, 1_000_000_000, 0, 0, 0, 0], zeros: [-500_000_000, 999_000_000, 0, 0, 0, 0] };
+        let loss = LineLoss {
+            line: 0,
+            sections: 2,
+            poles: [900_000_000, 1_000_000_000, 0, 0, 0, 0],
+            zeros: [-500_000_000, 999_000_000, 0, 0, 0, 0],
+        };
         for frac in [14, 30] {
             let q = quantized(&loss, frac);
             for i in 0..=100 {

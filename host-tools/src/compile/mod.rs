@@ -24,7 +24,7 @@ mod segments;
 pub use report::{Report, SegmentTiming};
 pub use segments::{LinePiece, SECTION_R_OVER_Z0};
 
-use crate::plant::{Drive as PlantDrive, EventAction, Load, Plant, ProbeKind as PlantProbe, End, PlantError, Span};
+use crate::plant::{Drive as PlantDrive, End, EventAction, Load, Plant, PlantError, ProbeKind as PlantProbe, Span};
 use tidewire_core::{Drive, Element, Junction, JunctionId, Line, LineLoss, Network, Probe, ProbeKind, Shunt, Side};
 
 /// Which number profile a configuration is compiled for.
@@ -134,7 +134,13 @@ impl Compiled {
 }
 
 /// Build a located compile error.
-pub(crate) fn err(file: &str, span: Span, field: impl Into<String>, message: impl Into<String>, hint: impl Into<String>) -> PlantError {
+pub(crate) fn err(
+    file: &str,
+    span: Span,
+    field: impl Into<String>,
+    message: impl Into<String>,
+    hint: impl Into<String>,
+) -> PlantError {
     PlantError {
         file: file.to_string(),
         line: span.line,
@@ -161,7 +167,12 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
         let (shunt, els) = loads::realize(&node.load, dt, file, node.span, &format!("node.{}.load", node.name))?;
         b.junctions.push(Junction::Node { shunt });
         for (kind, port, series) in els {
-            node_elements.push(Element { junction: i as JunctionId, kind, port_milliohm: port, series_milliohm: series });
+            node_elements.push(Element {
+                junction: i as JunctionId,
+                kind,
+                port_milliohm: port,
+                series_milliohm: series,
+            });
         }
     }
     let node_junction: Vec<JunctionId> = (0..plant.nodes.len()).map(|i| i as JunctionId).collect();
@@ -254,7 +265,13 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
             PlantProbe::Voltage(n) => {
                 let j = node_junction[n];
                 let (li, l) = lines.iter().enumerate().find(|(_, l)| l.a == j || l.b == j).ok_or_else(|| {
-                    err(file, plant.nodes[n].span, format!("probe[{}].node", p.name), "node has no segment", "probe a connected node")
+                    err(
+                        file,
+                        plant.nodes[n].span,
+                        format!("probe[{}].node", p.name),
+                        "node has no segment",
+                        "probe a connected node",
+                    )
                 })?;
                 Probe { kind: ProbeKind::Voltage, line: li as u16, side: if l.a == j { Side::A } else { Side::B } }
             }

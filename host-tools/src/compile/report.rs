@@ -87,7 +87,9 @@ pub(super) fn fill(c: &mut Compiled, plant: &Plant, file: &str) -> Result<(), Pl
     let r = &mut c.report;
     r.notes = plant.notes.clone();
     for (ni, node) in plant.nodes.iter().enumerate() {
-        let segs: Vec<usize> = (0..plant.segments.len()).filter(|s| plant.segments[*s].from == ni || plant.segments[*s].to == ni).collect();
+        let segs: Vec<usize> = (0..plant.segments.len())
+            .filter(|s| plant.segments[*s].from == ni || plant.segments[*s].to == ni)
+            .collect();
         let mut base = vec![load_r(&node.load)];
         match &plant.drive {
             PlantDrive::Source { node: n, rs, .. } if *n == ni => base.push(*rs),
@@ -124,7 +126,13 @@ pub(super) fn fill(c: &mut Compiled, plant: &Plant, file: &str) -> Result<(), Pl
         ));
     }
     let cr = crate::run::run_core(c, 0, &[], &|_| {}).map_err(|e| {
-        super::err(file, Default::default(), "plant", e.to_string(), "this is a compiler limitation; please report the plant")
+        super::err(
+            file,
+            Default::default(),
+            "plant",
+            e.to_string(),
+            "this is a compiler limitation; please report the plant",
+        )
     })?;
     c.report.max_impedance_error = c
         .lines

@@ -31,7 +31,13 @@ pub(super) fn choose(c: &mut Compiled, plant: &Plant, file: &str) -> Result<(), 
     c.report.peak_wave = peak_w;
     c.report.peak_probe_voltage = peak_v;
     if peak_emf == 0.0 {
-        return Err(err(file, Span::default(), "drive.waveform", "the drive is zero for the whole run", "give the drive a step, pulse or samples"));
+        return Err(err(
+            file,
+            Span::default(),
+            "drive.waveform",
+            "the drive is zero for the whole run",
+            "give the drive a step, pulse or samples",
+        ));
     }
     let (io_shift, vpc) = match (&plant.drive, c.profile) {
         (PlantDrive::Rig { adc_full_scale, .. }, p) => {
@@ -42,7 +48,8 @@ pub(super) fn choose(c: &mut Compiled, plant: &Plant, file: &str) -> Result<(), 
     };
     c.io_shift = io_shift;
     c.volts_per_code = vpc as f32;
-    let wave_range = vpc * (1u64 << (if c.profile == ProfileKind::Wide { 31 } else { 15 })) as f64 / (1u64 << io_shift) as f64;
+    let wave_range =
+        vpc * (1u64 << (if c.profile == ProfileKind::Wide { 31 } else { 15 })) as f64 / (1u64 << io_shift) as f64;
     c.report.wave_range = wave_range;
     c.report.headroom = wave_range / peak_w.max(1e-300);
     if let HostDrive::Rig { .. } = c.host_drive {

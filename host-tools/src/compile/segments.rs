@@ -34,13 +34,29 @@ pub(super) struct Builder<'p> {
 
 impl<'p> Builder<'p> {
     pub fn new(plant: &'p Plant, file: &'p str, dt: f64, frac: u32) -> Self {
-        Builder { plant, file, dt, frac, lines: vec![], losses: vec![], junctions: vec![], pieces: vec![], timings: vec![] }
+        Builder {
+            plant,
+            file,
+            dt,
+            frac,
+            lines: vec![],
+            losses: vec![],
+            junctions: vec![],
+            pieces: vec![],
+            timings: vec![],
+        }
     }
 
     fn new_junction(&mut self, j: Junction) -> Result<JunctionId, PlantError> {
         let id = self.junctions.len();
         if id >= u16::MAX as usize {
-            return Err(err(self.file, Default::default(), "segment", "plant too large: more than 65535 junctions", "split the plant"));
+            return Err(err(
+                self.file,
+                Default::default(),
+                "segment",
+                "plant too large: more than 65535 junctions",
+                "split the plant",
+            ));
         }
         self.junctions.push(j);
         Ok(id as JunctionId)
@@ -66,12 +82,11 @@ impl<'p> Builder<'p> {
                 self.file,
                 seg.span,
                 field,
+                format!("segment is {:.3} ns long, shorter than half a sample ({:.3} ns)", tau * 1e9, self.dt * 0.5e9),
                 format!(
-                    "segment is {:.3} ns long, shorter than half a sample ({:.3} ns)",
-                    tau * 1e9,
-                    self.dt * 0.5e9
+                    "raise plant.sample_rate to at least {:.1} MHz, or merge this segment into a neighbour",
+                    need / 1e6
                 ),
-                format!("raise plant.sample_rate to at least {:.1} MHz, or merge this segment into a neighbour", need / 1e6),
             ));
         }
         let delay = exact.round() as u32;
@@ -106,7 +121,8 @@ impl<'p> Builder<'p> {
         }
         ends.push(seg.to as JunctionId);
         // Whole samples per sub-run, keeping the segment's total delay.
-        let mut sample_bounds: Vec<u32> = bounds.iter().map(|d| ((d / seg.length) * delay as f64).round() as u32).collect();
+        let mut sample_bounds: Vec<u32> =
+            bounds.iter().map(|d| ((d / seg.length) * delay as f64).round() as u32).collect();
         *sample_bounds.last_mut().unwrap_or(&mut 0) = delay;
         let mut pieces = vec![];
         let mut sections_total = 0;
@@ -118,14 +134,18 @@ impl<'p> Builder<'p> {
                     self.file,
                     seg.span,
                     format!("segment[{}]", seg.name),
-                    format!("a break at {:.2} m leaves a piece shorter than one sample", bounds[k + 1].min(bounds[k].max(0.0))),
+                    format!(
+                        "a break at {:.2} m leaves a piece shorter than one sample",
+                        bounds[k + 1].min(bounds[k].max(0.0))
+                    ),
                     "move the break away from the segment's ends and from other breaks, or raise the sample rate",
                 ));
             }
             let len = bounds[k + 1] - bounds[k];
             let r = r_total * len / seg.length;
             let at_rig = rig_latency.filter(|_| {
-                (k == 0 && self.plant_rig_node() == Some(seg.from)) || (k + 2 == bounds.len() && self.plant_rig_node() == Some(seg.to))
+                (k == 0 && self.plant_rig_node() == Some(seg.from))
+                    || (k + 2 == bounds.len() && self.plant_rig_node() == Some(seg.to))
             });
             let (n, drop) = sections(r, cable.z0, d, at_rig);
             dropped |= drop;
@@ -165,7 +185,8 @@ impl<'p> Builder<'p> {
         let z = to_milliohm(z0);
         let cable = &self.plant.cables[self.plant.segments[self.pieces.len()].cable];
         // Sample positions of the section resistors: the middle of each section.
-        let mut cuts: Vec<u32> = (0..n).map(|k| ((d as f64) * (2 * k + 1) as f64 / (2 * n) as f64).round() as u32).collect();
+        let mut cuts: Vec<u32> =
+            (0..n).map(|k| ((d as f64) * (2 * k + 1) as f64 / (2 * n) as f64).round() as u32).collect();
         cuts.dedup();
         let mut prev_j = a;
         let mut prev_s = 0u32;
@@ -202,7 +223,19 @@ impl<'p> Builder<'p> {
     }
 
     #[allow(clippy::too_many_arguments)]
-    fn push_line(&mut self, pieces: &mut Vec<LinePiece>, z: u32, delay: u32, a: JunctionId, b: JunctionId, start_m: f64, len_m: f64, s0: u32, s1: u32, d: u32) {
+    fn push_line(
+        &mut self,
+        pieces: &mut Vec<LinePiece>,
+        z: u32,
+        delay: u32,
+        a: JunctionId,
+        b: JunctionId,
+        start_m: f64,
+        len_m: f64,
+        s0: u32,
+        s1: u32,
+        d: u32,
+    ) {
         pieces.push(LinePiece {
             line: self.lines.len() as u16,
             start_m: start_m + len_m * s0 as f64 / d as f64,

@@ -84,9 +84,6 @@ mod tests {
             message: "cannot read the file: not found".into(),
             hint: String::new(),
         };
-        assert_eq!(
-            e.to_string(),
-            "missing.toml: cannot read the file: not found"
-        );
+        assert_eq!(e.to_string(), "missing.toml: cannot read the file: not found");
     }
 }

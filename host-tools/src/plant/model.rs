@@ -127,7 +127,11 @@ impl Waveform {
         fn ramp(t: f64, start: f64, rise: f64) -> f64 {
             let full = rise / 0.8;
             if full <= 0.0 {
-                if t >= start { 1.0 } else { 0.0 }
+                if t >= start {
+                    1.0
+                } else {
+                    0.0
+                }
             } else {
                 ((t - start) / full).clamp(0.0, 1.0)
             }
@@ -141,7 +145,11 @@ impl Waveform {
             }
             Waveform::Samples(v) => {
                 let i = (t / dt).round();
-                if i < 0.0 { 0.0 } else { v.get(i as usize).copied().unwrap_or(0.0) }
+                if i < 0.0 {
+                    0.0
+                } else {
+                    v.get(i as usize).copied().unwrap_or(0.0)
+                }
             }
             Waveform::Pwm { amplitude, period, duty, dead_time, rise, delay } => {
                 if t < *delay || *period <= 0.0 {

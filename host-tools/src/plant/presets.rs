@@ -74,39 +74,19 @@ pub const RG213_DB_PER_100M: [f64; 4] = [4.9, 8.9, 16.3, 24.7];
 /// Two conductors of 24 AWG copper in a loop, ohm/m: 2 × 84 mohm/m [memory].
 const PAIR_24AWG_OHM_PER_M: f64 = 2.0 * 0.084;
 
-fn cable(
-    name: &str,
-    z0: f64,
-    vf: f64,
-    r_per_m: f64,
-    loss: Option<LossModel>,
-    source: &str,
-) -> CableType {
-    CableType {
-        name: name.to_string(),
-        z0,
-        velocity: vf * C0,
-        r_per_m,
-        loss,
-        source: source.to_string(),
-    }
+fn cable(name: &str, z0: f64, vf: f64, r_per_m: f64, loss: Option<LossModel>, source: &str) -> CableType {
+    CableType { name: name.to_string(), z0, velocity: vf * C0, r_per_m, loss, source: source.to_string() }
 }
 
 /// Fit the loss model to a dB/100 m table (the table frequencies in Hz).
 fn fit_db_table(freqs: &[f64], db_per_100m: &[f64]) -> Option<LossModel> {
-    let pts: Vec<(f64, f64)> = freqs
-        .iter()
-        .zip(db_per_100m)
-        .map(|(&f, &db)| (f, db / 100.0 / DB_PER_NEPER))
-        .collect();
+    let pts: Vec<(f64, f64)> = freqs.iter().zip(db_per_100m).map(|(&f, &db)| (f, db / 100.0 / DB_PER_NEPER)).collect();
     fit_loss(&pts).ok()
 }
 
 /// Fit the loss model to an insertion-loss formula at 100 log-spaced points over 1–100 MHz.
 fn fit_db_formula(il: fn(f64) -> f64) -> Option<LossModel> {
-    let freqs: Vec<f64> = (0..100)
-        .map(|i| 1e6 * 100f64.powf(i as f64 / 99.0))
-        .collect();
+    let freqs: Vec<f64> = (0..100).map(|i| 1e6 * 100f64.powf(i as f64 / 99.0)).collect();
     let db: Vec<f64> = freqs.iter().map(|&f| il(f)).collect();
     fit_db_table(&freqs, &db)
 }
@@ -289,11 +269,7 @@ mod tests {
         assert_eq!(all().len(), NAMES.len());
         for c in all() {
             assert!(NAMES.contains(&c.name.as_str()));
-            assert!(
-                c.z0 > 0.0 && c.velocity > 0.0 && c.velocity <= C0,
-                "{}",
-                c.name
-            );
+            assert!(c.z0 > 0.0 && c.velocity > 0.0 && c.velocity <= C0, "{}", c.name);
             assert!(c.r_per_m >= 0.0 && !c.source.is_empty(), "{}", c.name);
         }
         assert!(find("no-such-cable").is_none());
@@ -312,10 +288,7 @@ mod tests {
             r_lin += r * (f / 1e6);
             worst = worst.max(r.abs());
         }
-        assert!(
-            r_sqrt.abs() < 1e-9 && r_lin.abs() < 1e-7,
-            "{r_sqrt} {r_lin}"
-        );
+        assert!(r_sqrt.abs() < 1e-9 && r_lin.abs() < 1e-7, "{r_sqrt} {r_lin}");
         assert!(worst < 2.1, "largest miss {worst} dB/100 m");
     }
 

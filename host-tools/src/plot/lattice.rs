@@ -93,10 +93,7 @@ struct Grid {
 impl Grid {
     /// Rectangles after merging runs of equal level along each row.
     fn rect_count(&self) -> usize {
-        self.levels
-            .iter()
-            .map(|row| 1 + row.windows(2).filter(|w| w[0] != w[1]).count())
-            .sum()
+        self.levels.iter().map(|row| 1 + row.windows(2).filter(|w| w[0] != w[1]).count()).sum()
     }
 }
 
@@ -140,11 +137,7 @@ fn bin(map: &LatticeMap, vmax: f64, bx: usize, bt: usize) -> Grid {
                 .collect()
         })
         .collect();
-    Grid {
-        x_edges,
-        t_edges,
-        levels,
-    }
+    Grid { x_edges, t_edges, levels }
 }
 
 fn check(path: &Path, map: &LatticeMap) -> Result<(), PlotError> {
@@ -176,30 +169,20 @@ fn check(path: &Path, map: &LatticeMap) -> Result<(), PlotError> {
         if row.len() != nx {
             return Err(PlotError::data(
                 path,
-                format!(
-                    "lattice '{}': row {t} has {} values, expected {nx} (one per position)",
-                    map.title,
-                    row.len()
-                ),
+                format!("lattice '{}': row {t} has {} values, expected {nx} (one per position)", map.title, row.len()),
             ));
         }
         if let Some(x) = row.iter().position(|v| !v.is_finite()) {
             return Err(PlotError::data(
                 path,
-                format!(
-                    "lattice '{}': value at row {t}, column {x} is {} (must be finite)",
-                    map.title, row[x]
-                ),
+                format!("lattice '{}': value at row {t}, column {x} is {} (must be finite)", map.title, row[x]),
             ));
         }
     }
     if let Some((p, name)) = map.boundaries.iter().find(|(p, _)| !p.is_finite()) {
         return Err(PlotError::data(
             path,
-            format!(
-                "lattice '{}': boundary '{name}' is at {p} m (must be finite)",
-                map.title
-            ),
+            format!("lattice '{}': boundary '{name}' is at {p} m (must be finite)", map.title),
         ));
     }
     Ok(())
@@ -210,11 +193,7 @@ fn check(path: &Path, map: &LatticeMap) -> Result<(), PlotError> {
 /// labelled colour bar, segment/node boundaries marked and named on the distance axis.
 pub fn write_lattice(path: &Path, map: &LatticeMap) -> Result<(), PlotError> {
     check(path, map)?;
-    let vmax = map
-        .values
-        .iter()
-        .flatten()
-        .fold(0.0f64, |m, v| m.max(v.abs()));
+    let vmax = map.values.iter().flatten().fold(0.0f64, |m, v| m.max(v.abs()));
     let (mut bx, mut bt) = (MAX_CELLS_X, MAX_CELLS_T);
     let mut grid = bin(map, vmax, bx, bt);
     while grid.rect_count() > MAX_RECTS && (bx > 16 || bt > 16) {
@@ -236,12 +215,7 @@ fn rgb(level: i32) -> RGBColor {
     RGBColor(r, g, b)
 }
 
-fn draw(
-    root: &DrawingArea<SVGBackend<'_>, Shift>,
-    map: &LatticeMap,
-    grid: &Grid,
-    vmax: f64,
-) -> DrawResult {
+fn draw(root: &DrawingArea<SVGBackend<'_>, Shift>, map: &LatticeMap, grid: &Grid, vmax: f64) -> DrawResult {
     root.fill(&style::PAPER)?;
     let x0 = (LEFT_MARGIN + Y_LABEL_W) as i32;
     style::draw_header(root, Some(map.title), &[], x0)?;
@@ -252,15 +226,9 @@ fn draw(
     // Distance in m, or km for long plants.
     let last = map.positions[map.positions.len() - 1];
     let ds = if map.positions[0].abs().max(last.abs()) >= 1e3 {
-        Scale {
-            factor: 1e3,
-            prefix: "k",
-        }
+        Scale { factor: 1e3, prefix: "k" }
     } else {
-        Scale {
-            factor: 1.0,
-            prefix: "",
-        }
+        Scale { factor: 1.0, prefix: "" }
     };
     let t_end = (map.values.len() - 1) as f64 * map.dt;
     let ts = Scale::for_time(t_end);
@@ -292,22 +260,13 @@ fn draw(
 
     // Cells, with runs of equal level along a row merged into one rectangle.
     let cells = grid.levels.iter().enumerate().flat_map(|(ti, row)| {
-        let (t_lo, t_hi) = (
-            grid.t_edges[ti] / ts.factor,
-            grid.t_edges[ti + 1] / ts.factor,
-        );
+        let (t_lo, t_hi) = (grid.t_edges[ti] / ts.factor, grid.t_edges[ti + 1] / ts.factor);
         let mut runs = Vec::new();
         let mut start = 0;
         for xi in 1..=row.len() {
             if xi == row.len() || row[xi] != row[start] {
-                let (x_lo, x_hi) = (
-                    grid.x_edges[start] / ds.factor,
-                    grid.x_edges[xi] / ds.factor,
-                );
-                runs.push(Rectangle::new(
-                    [(x_lo, t_lo), (x_hi, t_hi)],
-                    rgb(row[start]).filled(),
-                ));
+                let (x_lo, x_hi) = (grid.x_edges[start] / ds.factor, grid.x_edges[xi] / ds.factor);
+                runs.push(Rectangle::new([(x_lo, t_lo), (x_hi, t_hi)], rgb(row[start]).filled()));
                 start = xi;
             }
         }
@@ -335,25 +294,16 @@ fn draw(
         let row = row_end[..name_rows as usize]
             .iter()
             .position(|&end| left > end + 6)
-            .unwrap_or_else(|| {
-                (0..name_rows as usize)
-                    .min_by_key(|&r| row_end[r])
-                    .unwrap_or(0)
-            });
+            .unwrap_or_else(|| (0..name_rows as usize).min_by_key(|&r| row_end[r]).unwrap_or(0));
         row_end[row] = left + w;
         let y = py - 4 - row as i32 * NAME_ROW_PX;
         root.draw(&Text::new(
             name.to_string(),
             (left, y),
-            style::font(style::TICK_PX)
-                .color(&style::INK)
-                .pos(Pos::new(HPos::Left, VPos::Bottom)),
+            style::font(style::TICK_PX).color(&style::INK).pos(Pos::new(HPos::Left, VPos::Bottom)),
         ))?;
         // A short tick from the name down to the map edge ties the name to its line.
-        root.draw(&PathElement::new(
-            vec![(px, y + 1), (px, py)],
-            style::INK.stroke_width(1),
-        ))?;
+        root.draw(&PathElement::new(vec![(px, y + 1), (px, py)], style::INK.stroke_width(1)))?;
     }
 
     draw_colour_bar(&bar_area, top, vmax)
@@ -387,10 +337,7 @@ fn draw_colour_bar(area: &DrawingArea<SVGBackend<'_>, Shift>, top: u32, vmax: f6
         let hi = ((k as f64 + 0.5) * step).min(top_v);
         Rectangle::new([(0.0, lo), (1.0, hi)], rgb(k).filled())
     }))?;
-    bar.draw_series(std::iter::once(Rectangle::new(
-        [(0.0, -top_v), (1.0, top_v)],
-        style::INK.stroke_width(1),
-    )))?;
+    bar.draw_series(std::iter::once(Rectangle::new([(0.0, -top_v), (1.0, top_v)], style::INK.stroke_width(1))))?;
     Ok(())
 }
 
@@ -404,13 +351,7 @@ mod tests {
         let mut values = vec![vec![0.0; 1000]; 450];
         values[333][777] = -4.0; // a single-sample dip
         values[10][3] = 1.0;
-        let map = LatticeMap {
-            title: "t",
-            dt: 1e-9,
-            positions: &positions,
-            values: &values,
-            boundaries: &[],
-        };
+        let map = LatticeMap { title: "t", dt: 1e-9, positions: &positions, values: &values, boundaries: &[] };
         let grid = bin(&map, 4.0, MAX_CELLS_X, MAX_CELLS_T);
         assert_eq!(grid.levels.len(), MAX_CELLS_T);
         assert!(grid.levels.iter().all(|r| r.len() == MAX_CELLS_X));

@@ -67,17 +67,11 @@ pub enum PlotError {
 
 impl PlotError {
     fn data(path: &Path, message: impl Into<String>) -> PlotError {
-        PlotError::Data {
-            path: path.to_path_buf(),
-            message: message.into(),
-        }
+        PlotError::Data { path: path.to_path_buf(), message: message.into() }
     }
 
     fn draw(path: &Path, err: impl std::fmt::Display) -> PlotError {
-        PlotError::Draw {
-            path: path.to_path_buf(),
-            message: err.to_string(),
-        }
+        PlotError::Draw { path: path.to_path_buf(), message: err.to_string() }
     }
 }
 
@@ -89,11 +83,7 @@ type DrawResult<T = ()> = Result<T, Box<dyn std::error::Error>>;
 /// The first and last samples are always kept; the rest is cut into buckets and each bucket
 /// keeps its smallest and its largest sample, in time order. So every peak and every edge
 /// of the full trace is still drawn, and the global minimum and maximum are exact.
-pub fn decimate_indices(
-    n: usize,
-    value_at: impl Fn(usize) -> f64,
-    max_points: usize,
-) -> Vec<usize> {
+pub fn decimate_indices(n: usize, value_at: impl Fn(usize) -> f64, max_points: usize) -> Vec<usize> {
     let max_points = max_points.max(4);
     if n <= max_points {
         return (0..n).collect();
@@ -118,11 +108,7 @@ pub fn decimate_indices(
                 imax = i;
             }
         }
-        let (first, second) = if imin <= imax {
-            (imin, imax)
-        } else {
-            (imax, imin)
-        };
+        let (first, second) = if imin <= imax { (imin, imax) } else { (imax, imin) };
         kept.push(first);
         if second != first {
             kept.push(second);
@@ -135,19 +121,13 @@ pub fn decimate_indices(
 /// `(time, value)` points of a trace sampled at `dt`, thinned to at most `max_points` with
 /// [`decimate_indices`] (global minimum and maximum kept).
 pub fn decimate(values: &[f64], dt: f64, max_points: usize) -> Vec<(f64, f64)> {
-    decimate_indices(values.len(), |i| values[i], max_points)
-        .into_iter()
-        .map(|i| (i as f64 * dt, values[i]))
-        .collect()
+    decimate_indices(values.len(), |i| values[i], max_points).into_iter().map(|i| (i as f64 * dt, values[i])).collect()
 }
 
 /// An error naming the first non-finite sample of `values`, if any.
 fn check_finite(path: &Path, what: &str, values: &[f64]) -> Result<(), PlotError> {
     match values.iter().position(|v| !v.is_finite()) {
-        Some(i) => Err(PlotError::data(
-            path,
-            format!("{what}: sample {i} is {} (must be finite)", values[i]),
-        )),
+        Some(i) => Err(PlotError::data(path, format!("{what}: sample {i} is {} (must be finite)", values[i]))),
         None => Ok(()),
     }
 }
@@ -157,10 +137,7 @@ fn check_dt(path: &Path, what: &str, dt: f64) -> Result<(), PlotError> {
     if dt.is_finite() && dt > 0.0 {
         Ok(())
     } else {
-        Err(PlotError::data(
-            path,
-            format!("{what}: dt = {dt} s (must be positive and finite)"),
-        ))
+        Err(PlotError::data(path, format!("{what}: dt = {dt} s (must be positive and finite)")))
     }
 }
 
@@ -171,13 +148,8 @@ static TEMP_COUNTER: AtomicU64 = AtomicU64::new(0);
 /// written, flushed and renamed over `path`, so readers see the old file or the new one,
 /// never a half-written one; on failure the temporary file is removed.
 fn write_atomic(path: &Path, contents: &str) -> Result<(), PlotError> {
-    let io_err = |source| PlotError::Io {
-        path: path.to_path_buf(),
-        source,
-    };
-    let name = path
-        .file_name()
-        .ok_or_else(|| PlotError::data(path, "the path names no file"))?;
+    let io_err = |source| PlotError::Io { path: path.to_path_buf(), source };
+    let name = path.file_name().ok_or_else(|| PlotError::data(path, "the path names no file"))?;
     let dir = match path.parent() {
         Some(d) if !d.as_os_str().is_empty() => d,
         _ => Path::new("."),

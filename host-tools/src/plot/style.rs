@@ -45,51 +45,19 @@ pub(crate) struct Trace {
 }
 
 /// The emulated trace: solid, deep cobalt.
-pub(crate) const EMULATED: Trace = Trace {
-    colour: RGBColor(0x1D, 0x4F, 0x91),
-    width: 2,
-    dash: None,
-};
+pub(crate) const EMULATED: Trace = Trace { colour: RGBColor(0x1D, 0x4F, 0x91), width: 2, dash: None };
 /// The exact reference: dashed, warm amber, drawn over the emulated trace.
-pub(crate) const REFERENCE: Trace = Trace {
-    colour: RGBColor(0xE0, 0x8A, 0x1E),
-    width: 2,
-    dash: Some("8 5"),
-};
+pub(crate) const REFERENCE: Trace = Trace { colour: RGBColor(0xE0, 0x8A, 0x1E), width: 2, dash: Some("8 5") };
 /// The error trace (emulated - reference), in its own panel.
-pub(crate) const ERROR: Trace = Trace {
-    colour: RGBColor(0xA1, 0x1D, 0x5C),
-    width: 2,
-    dash: None,
-};
+pub(crate) const ERROR: Trace = Trace { colour: RGBColor(0xA1, 0x1D, 0x5C), width: 2, dash: None };
 /// Further traces (extra probes, sweep series), each with its own dash so that they stay
 /// apart in grey-scale print too.
 pub(crate) const EXTRA: [Trace; 5] = [
-    Trace {
-        colour: RGBColor(0x2E, 0x8B, 0x6E),
-        width: 2,
-        dash: Some("2 3"),
-    },
-    Trace {
-        colour: RGBColor(0x7B, 0x4B, 0xA6),
-        width: 2,
-        dash: Some("10 3 2 3"),
-    },
-    Trace {
-        colour: RGBColor(0x8A, 0x5A, 0x2B),
-        width: 2,
-        dash: Some("4 4"),
-    },
-    Trace {
-        colour: RGBColor(0x3C, 0x8D, 0xB8),
-        width: 2,
-        dash: Some("12 4"),
-    },
-    Trace {
-        colour: RGBColor(0x5A, 0x5A, 0x5A),
-        width: 2,
-        dash: Some("1 3"),
-    },
+    Trace { colour: RGBColor(0x2E, 0x8B, 0x6E), width: 2, dash: Some("2 3") },
+    Trace { colour: RGBColor(0x7B, 0x4B, 0xA6), width: 2, dash: Some("10 3 2 3") },
+    Trace { colour: RGBColor(0x8A, 0x5A, 0x2B), width: 2, dash: Some("4 4") },
+    Trace { colour: RGBColor(0x3C, 0x8D, 0xB8), width: 2, dash: Some("12 4") },
+    Trace { colour: RGBColor(0x5A, 0x5A, 0x5A), width: 2, dash: Some("1 3") },
 ];
 /// Sweep series: solid first, then the extra styles.
 pub(crate) fn sweep_trace(i: usize) -> Trace {
@@ -101,17 +69,9 @@ pub(crate) fn sweep_trace(i: usize) -> Trace {
 }
 
 /// Style of vertical marker lines.
-pub(crate) const X_MARKER: Trace = Trace {
-    colour: MARKER_X,
-    width: 1,
-    dash: Some("6 4"),
-};
+pub(crate) const X_MARKER: Trace = Trace { colour: MARKER_X, width: 1, dash: Some("6 4") };
 /// Style of horizontal reference lines.
-pub(crate) const Y_MARKER: Trace = Trace {
-    colour: MARKER_Y,
-    width: 1,
-    dash: Some("3 3"),
-};
+pub(crate) const Y_MARKER: Trace = Trace { colour: MARKER_Y, width: 1, dash: Some("3 3") };
 
 /// A sans-serif font whose rendered height is `px` pixels in the SVG.
 pub(crate) fn font(px: f64) -> FontDesc<'static> {
@@ -132,30 +92,17 @@ pub(crate) struct Scale {
 }
 
 /// Prefixes from nano to mega; "µ" is U+00B5, the micro sign.
-const PREFIXES: [(f64, &str); 6] = [
-    (1e-9, "n"),
-    (1e-6, "µ"),
-    (1e-3, "m"),
-    (1.0, ""),
-    (1e3, "k"),
-    (1e6, "M"),
-];
+const PREFIXES: [(f64, &str); 6] = [(1e-9, "n"), (1e-6, "µ"), (1e-3, "m"), (1.0, ""), (1e3, "k"), (1e6, "M")];
 
 impl Scale {
     /// The largest prefix that keeps `max_abs` at or above 1 (so 0.0042 V reads 4.2 mV);
     /// the base unit for zero or non-finite input.
     pub(crate) fn for_magnitude(max_abs: f64) -> Scale {
-        let mut chosen = Scale {
-            factor: 1.0,
-            prefix: "",
-        };
+        let mut chosen = Scale { factor: 1.0, prefix: "" };
         if !(max_abs.is_finite() && max_abs > 0.0) {
             return chosen;
         }
-        chosen = Scale {
-            factor: PREFIXES[0].0,
-            prefix: PREFIXES[0].1,
-        };
+        chosen = Scale { factor: PREFIXES[0].0, prefix: PREFIXES[0].1 };
         for (factor, prefix) in PREFIXES {
             // A small tolerance so that 0.999999e-6 still reads 1 µs, not 999.999 ns.
             if max_abs >= factor * (1.0 - 1e-9) {
@@ -169,10 +116,7 @@ impl Scale {
     pub(crate) fn for_time(t_max: f64) -> Scale {
         let s = Scale::for_magnitude(t_max);
         if s.factor > 1.0 {
-            Scale {
-                factor: 1.0,
-                prefix: "",
-            }
+            Scale { factor: 1.0, prefix: "" }
         } else {
             s
         }
@@ -249,10 +193,7 @@ pub(crate) fn apply_dashes(svg: &str, traces: &[Trace]) -> String {
         let tag = &rest[start..tag_end];
         out.push_str(tag);
         let dash = traces.iter().find_map(|t| {
-            let key = format!(
-                "stroke=\"#{:02X}{:02X}{:02X}\"",
-                t.colour.0, t.colour.1, t.colour.2
-            );
+            let key = format!("stroke=\"#{:02X}{:02X}{:02X}\"", t.colour.0, t.colour.1, t.colour.2);
             if tag.contains(&key) {
                 t.dash
             } else {
@@ -300,9 +241,7 @@ fn legend_layout(entries: &[Entry], x0: i32, x_max: i32) -> Vec<(i32, i32)> {
 
 /// Height in pixels of a header with an optional title and a legend in `width` pixels.
 pub(crate) fn header_height(has_title: bool, entries: &[Entry], x0: i32, width: i32) -> i32 {
-    let rows = legend_layout(entries, x0, width - 10)
-        .last()
-        .map_or(0, |&(_, r)| r + 1);
+    let rows = legend_layout(entries, x0, width - 10).last().map_or(0, |&(_, r)| r + 1);
     let title = if has_title { TITLE_PX as i32 + 12 } else { 0 };
     HEADER_TOP + title + rows * ROW_PX + 6
 }
@@ -322,25 +261,17 @@ pub(crate) fn draw_header(
         area.draw(&Text::new(
             t.to_string(),
             (x0, y),
-            font(TITLE_PX)
-                .style(FontStyle::Bold)
-                .color(&INK)
-                .pos(Pos::new(HPos::Left, VPos::Top)),
+            font(TITLE_PX).style(FontStyle::Bold).color(&INK).pos(Pos::new(HPos::Left, VPos::Top)),
         ))?;
         y += TITLE_PX as i32 + 12;
     }
     for ((label, trace), (x, row)) in entries.iter().zip(legend_layout(entries, x0, width - 10)) {
         let yc = y + row * ROW_PX + ROW_PX / 2;
-        area.draw(&PathElement::new(
-            vec![(x, yc), (x + SAMPLE_PX, yc)],
-            trace.colour.stroke_width(trace.width + 1),
-        ))?;
+        area.draw(&PathElement::new(vec![(x, yc), (x + SAMPLE_PX, yc)], trace.colour.stroke_width(trace.width + 1)))?;
         area.draw(&Text::new(
             label.clone(),
             (x + SAMPLE_PX + 8, yc),
-            font(TICK_PX)
-                .color(&INK)
-                .pos(Pos::new(HPos::Left, VPos::Center)),
+            font(TICK_PX).color(&INK).pos(Pos::new(HPos::Left, VPos::Center)),
         ))?;
     }
     Ok(())

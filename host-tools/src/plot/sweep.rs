@@ -41,16 +41,10 @@ pub struct SweepPlot<'a> {
 
 fn check(path: &Path, plot: &SweepPlot) -> Result<(), PlotError> {
     if plot.series.iter().all(|(_, pts)| pts.is_empty()) {
-        return Err(PlotError::data(
-            path,
-            format!("sweep '{}': no points", plot.title),
-        ));
+        return Err(PlotError::data(path, format!("sweep '{}': no points", plot.title)));
     }
     for (name, pts) in &plot.series {
-        if let Some(i) = pts
-            .iter()
-            .position(|(x, y)| !(x.is_finite() && y.is_finite()))
-        {
+        if let Some(i) = pts.iter().position(|(x, y)| !(x.is_finite() && y.is_finite())) {
             return Err(PlotError::data(
                 path,
                 format!(
@@ -72,10 +66,7 @@ fn check(path: &Path, plot: &SweepPlot) -> Result<(), PlotError> {
         if !v.is_finite() {
             return Err(PlotError::data(
                 path,
-                format!(
-                    "sweep '{}': marker '{name}' is at {v} (must be finite)",
-                    plot.title
-                ),
+                format!("sweep '{}': marker '{name}' is at {v} (must be finite)", plot.title),
             ));
         }
     }
@@ -83,7 +74,10 @@ fn check(path: &Path, plot: &SweepPlot) -> Result<(), PlotError> {
         if let Some((v, name)) = plot.x_markers.iter().find(|(v, _)| *v <= 0.0) {
             return Err(PlotError::data(
                 path,
-                format!("sweep '{}': marker '{name}' is at x = {v} but the x axis is logarithmic (x must be > 0)", plot.title),
+                format!(
+                    "sweep '{}': marker '{name}' is at x = {v} but the x axis is logarithmic (x must be > 0)",
+                    plot.title
+                ),
             ));
         }
     }
@@ -95,21 +89,12 @@ fn check(path: &Path, plot: &SweepPlot) -> Result<(), PlotError> {
 /// the step).
 pub fn write_sweep(path: &Path, plot: &SweepPlot) -> Result<(), PlotError> {
     check(path, plot)?;
-    let entries: Vec<Entry> = plot
-        .series
-        .iter()
-        .enumerate()
-        .map(|(i, (name, _))| (name.to_string(), style::sweep_trace(i)))
-        .collect();
+    let entries: Vec<Entry> =
+        plot.series.iter().enumerate().map(|(i, (name, _))| (name.to_string(), style::sweep_trace(i))).collect();
     let x0 = (LEFT_MARGIN + Y_LABEL_W) as i32;
     let header = style::header_height(true, &entries, x0, WIDTH as i32) as u32;
 
-    let (mut x_lo, mut x_hi, mut y_lo, mut y_hi) = (
-        f64::INFINITY,
-        f64::NEG_INFINITY,
-        f64::INFINITY,
-        f64::NEG_INFINITY,
-    );
+    let (mut x_lo, mut x_hi, mut y_lo, mut y_hi) = (f64::INFINITY, f64::NEG_INFINITY, f64::INFINITY, f64::NEG_INFINITY);
     for &(x, y) in plot.series.iter().flat_map(|(_, pts)| pts.iter()) {
         (x_lo, x_hi, y_lo, y_hi) = (x_lo.min(x), x_hi.max(x), y_lo.min(y), y_hi.max(y));
     }
@@ -128,26 +113,12 @@ pub fn write_sweep(path: &Path, plot: &SweepPlot) -> Result<(), PlotError> {
             style::draw_header(&root, Some(plot.title), &entries, x0)?;
             if plot.log_x {
                 // A tenth of a decade of room on either side; a single x gets a decade.
-                let (lo, hi) = if x_hi > x_lo {
-                    (x_lo / 1.12, x_hi * 1.12)
-                } else {
-                    (x_lo / 3.0, x_lo * 3.0)
-                };
-                draw_chart(
-                    &root,
-                    header,
-                    plot,
-                    (lo..hi).log_scale(),
-                    lo..hi,
-                    y_lo..y_hi,
-                    |v| style::fmt_sig3(*v),
-                )
+                let (lo, hi) = if x_hi > x_lo { (x_lo / 1.12, x_hi * 1.12) } else { (x_lo / 3.0, x_lo * 3.0) };
+                draw_chart(&root, header, plot, (lo..hi).log_scale(), lo..hi, y_lo..y_hi, |v| style::fmt_sig3(*v))
             } else {
                 let (lo, hi) = style::padded(x_lo, x_hi, 0.03);
                 let d = style::tick_decimals(hi - lo);
-                draw_chart(&root, header, plot, lo..hi, lo..hi, y_lo..y_hi, move |v| {
-                    style::fmt_num(*v, d)
-                })
+                draw_chart(&root, header, plot, lo..hi, lo..hi, y_lo..y_hi, move |v| style::fmt_num(*v, d))
             }
         });
         drawn.map_err(|e| PlotError::draw(path, e))?;
@@ -217,20 +188,12 @@ where
         // Beside the top of the line, on whichever side has room; stacked per marker.
         let px = chart.backend_coord(&(xm, y.end)).0;
         let w = style::text_width(name, style::TICK_PX) as i32;
-        let (dx, h) = if px + 6 + w <= plot_right {
-            (6, HPos::Left)
-        } else {
-            (-6, HPos::Right)
-        };
+        let (dx, h) = if px + 6 + w <= plot_right { (6, HPos::Left) } else { (-6, HPos::Right) };
         let dy = 6 + 22 * i as i32;
         chart.draw_series(std::iter::once(
             EmptyElement::at((xm, y.end))
                 + label_backing(name, (dx, dy), h, VPos::Top)
-                + Text::new(
-                    name.to_string(),
-                    (dx, dy),
-                    label_style.pos(Pos::new(h, VPos::Top)),
-                ),
+                + Text::new(name.to_string(), (dx, dy), label_style.pos(Pos::new(h, VPos::Top))),
         ))?;
     }
     for &(ym, name) in &plot.y_markers {
@@ -238,26 +201,16 @@ where
         chart.draw_series(std::iter::once(
             EmptyElement::at((x.end, ym))
                 + label_backing(name, (-6, -4), HPos::Right, VPos::Bottom)
-                + Text::new(
-                    name.to_string(),
-                    (-6, -4),
-                    label_style.pos(Pos::new(HPos::Right, VPos::Bottom)),
-                ),
+                + Text::new(name.to_string(), (-6, -4), label_style.pos(Pos::new(HPos::Right, VPos::Bottom))),
         ))?;
     }
 
     for (i, (_, pts)) in plot.series.iter().enumerate() {
         let trace = style::sweep_trace(i);
         let kept = decimate_indices(pts.len(), |k| pts[k].1, super::MAX_TRACE_POINTS);
-        chart.draw_series(LineSeries::new(
-            kept.iter().map(|&k| pts[k]),
-            trace.colour.stroke_width(trace.width),
-        ))?;
+        chart.draw_series(LineSeries::new(kept.iter().map(|&k| pts[k]), trace.colour.stroke_width(trace.width)))?;
         if pts.len() <= MAX_MARKED_POINTS {
-            chart.draw_series(
-                pts.iter()
-                    .map(|&p| Circle::new(p, 3, trace.colour.filled())),
-            )?;
+            chart.draw_series(pts.iter().map(|&p| Circle::new(p, 3, trace.colour.filled())))?;
         }
     }
     Ok(())
@@ -279,8 +232,5 @@ fn label_backing(text: &str, at: (i32, i32), h: HPos, v: VPos) -> Rectangle<(i32
         VPos::Center => at.1 - th / 2,
         VPos::Bottom => at.1 - th,
     };
-    Rectangle::new(
-        [(x0 - 3, y0 - 2), (x0 + w + 3, y0 + th + 2)],
-        style::PAPER.mix(0.85).filled(),
-    )
+    Rectangle::new([(x0 - 3, y0 - 2), (x0 + w + 3, y0 + th + 2)], style::PAPER.mix(0.85).filled())
 }

@@ -75,10 +75,8 @@ impl Layout {
 
 /// Legend entries of the upper panel, in drawing order.
 fn main_entries(p: &WaveformPlot) -> Vec<Entry> {
-    let mut e = vec![
-        (p.emulated.label.to_string(), style::EMULATED),
-        (p.reference.label.to_string(), style::REFERENCE),
-    ];
+    let mut e =
+        vec![(p.emulated.label.to_string(), style::EMULATED), (p.reference.label.to_string(), style::REFERENCE)];
     for (i, s) in p.extra.iter().enumerate() {
         e.push((s.label.to_string(), extra_trace(i)));
     }
@@ -93,10 +91,7 @@ fn extra_trace(i: usize) -> Trace {
 fn check_plot(path: &Path, k: usize, p: &WaveformPlot) -> Result<Layout, PlotError> {
     let what = |s: &Series| format!("waveform plot {k} ('{}'), series '{}'", p.title, s.label);
     check_dt(path, &format!("waveform plot {k} ('{}')", p.title), p.dt)?;
-    for s in [&p.emulated, &p.reference]
-        .into_iter()
-        .chain(p.extra.iter())
-    {
+    for s in [&p.emulated, &p.reference].into_iter().chain(p.extra.iter()) {
         check_finite(path, &what(s), s.values)?;
     }
     for s in [&p.emulated, &p.reference] {
@@ -113,12 +108,7 @@ fn check_plot(path: &Path, k: usize, p: &WaveformPlot) -> Result<Layout, PlotErr
 
 /// The error trace emulated - reference over the samples both traces have.
 fn error_trace(p: &WaveformPlot) -> Vec<f64> {
-    p.emulated
-        .values
-        .iter()
-        .zip(p.reference.values)
-        .map(|(e, r)| e - r)
-        .collect()
+    p.emulated.values.iter().zip(p.reference.values).map(|(e, r)| e - r).collect()
 }
 
 /// The error panel's single legend entry, with the peak error in it.
@@ -140,18 +130,10 @@ fn max_abs(values: &[f64]) -> f64 {
 }
 
 fn min_max<'v>(traces: impl Iterator<Item = &'v [f64]>) -> (f64, f64) {
-    traces
-        .flatten()
-        .fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &v| {
-            (lo.min(v), hi.max(v))
-        })
+    traces.flatten().fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &v| (lo.min(v), hi.max(v)))
 }
 
-fn draw_all(
-    root: &DrawingArea<SVGBackend<'_>, Shift>,
-    plots: &[WaveformPlot],
-    layouts: &[Layout],
-) -> DrawResult {
+fn draw_all(root: &DrawingArea<SVGBackend<'_>, Shift>, plots: &[WaveformPlot], layouts: &[Layout]) -> DrawResult {
     root.fill(&style::PAPER)?;
     let mut rest = root.clone();
     for (p, l) in plots.iter().zip(layouts) {
@@ -182,28 +164,14 @@ fn draw_probe(
     let time_desc = format!("time ({}s)", ts.prefix);
 
     // Upper panel: traces in their own engineering unit.
-    let all = [p.emulated.values, p.reference.values]
-        .into_iter()
-        .chain(p.extra.iter().map(|s| s.values));
+    let all = [p.emulated.values, p.reference.values].into_iter().chain(p.extra.iter().map(|s| s.values));
     let (lo, hi) = min_max(all);
     let vs = Scale::for_magnitude(lo.abs().max(hi.abs()));
     let (y_lo, y_hi) = style::padded(lo / vs.factor, hi / vs.factor, 0.06);
     style::draw_header(main, Some(p.title), &main_entries(p), x0)?;
     let value_desc = format!("{} ({}{})", style::quantity(p.unit), vs.prefix, p.unit);
-    let mut chart = panel(
-        main,
-        l.main_header,
-        x_range.clone(),
-        y_lo..y_hi,
-        &time_desc,
-        &value_desc,
-    )?;
-    let mut series: Vec<(&Series, Trace)> = p
-        .extra
-        .iter()
-        .enumerate()
-        .map(|(i, s)| (s, extra_trace(i)))
-        .collect();
+    let mut chart = panel(main, l.main_header, x_range.clone(), y_lo..y_hi, &time_desc, &value_desc)?;
+    let mut series: Vec<(&Series, Trace)> = p.extra.iter().enumerate().map(|(i, s)| (s, extra_trace(i))).collect();
     // The dashed reference goes on top of the solid emulated trace so both stay visible
     // where they coincide.
     series.push((&p.emulated, style::EMULATED));
@@ -224,18 +192,8 @@ fn draw_probe(
     let (e_lo, e_hi) = style::padded(e_lo.min(0.0) / es.factor, e_hi.max(0.0) / es.factor, 0.08);
     style::draw_header(err_area, None, &error_entries(p, peak), x0)?;
     let err_desc = format!("error ({}{})", es.prefix, p.unit);
-    let mut chart = panel(
-        err_area,
-        l.error_header,
-        x_range.clone(),
-        e_lo..e_hi,
-        &time_desc,
-        &err_desc,
-    )?;
-    chart.draw_series(LineSeries::new(
-        [(x_range.start, 0.0), (x_range.end, 0.0)],
-        style::ZERO_LINE.stroke_width(1),
-    ))?;
+    let mut chart = panel(err_area, l.error_header, x_range.clone(), e_lo..e_hi, &time_desc, &err_desc)?;
+    chart.draw_series(LineSeries::new([(x_range.start, 0.0), (x_range.end, 0.0)], style::ZERO_LINE.stroke_width(1)))?;
     let pts = decimate(&err, p.dt, super::MAX_TRACE_POINTS);
     chart.draw_series(LineSeries::new(
         pts.into_iter().map(|(t, v)| (t / ts.factor, v / es.factor)),

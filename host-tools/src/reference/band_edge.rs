@@ -53,44 +53,25 @@ pub(crate) fn gauss_legendre(n: usize) -> Vec<(f64, f64)> {
 
 /// The points r on [0, sigma] and weights of the band-edge integral.
 pub(crate) fn edge_rule(sigma: f64) -> Vec<(f64, f64)> {
-    gauss_legendre(EDGE_POINTS)
-        .into_iter()
-        .map(|(x, w)| (x * sigma, w * sigma))
-        .collect()
+    gauss_legendre(EDGE_POINTS).into_iter().map(|(x, w)| (x * sigma, w * sigma)).collect()
 }
 
 /// The term x * (g_sigma − g_0) for outputs m < n, from the input held over the record
 /// (`x_held`, N samples) and Im H at the edge points (`im_h[i]` at `rule[i]`).
-pub(crate) fn correction(
-    x_held: &[f64],
-    n: usize,
-    dt: f64,
-    rule: &[(f64, f64)],
-    im_h: &[f64],
-) -> Vec<f64> {
+pub(crate) fn correction(x_held: &[f64], n: usize, dt: f64, rule: &[(f64, f64)], im_h: &[f64]) -> Vec<f64> {
     let big = x_held.len();
     // Offsets j from −(N−1) to n−1 are the ones that reach outputs m < n.
     let span = big - 1 + n;
     let dg = |j: i64| -> f64 {
-        let sum: f64 = rule
-            .iter()
-            .zip(im_h)
-            .map(|(&(r, w), &im)| w * im * (r * j as f64 * dt).exp())
-            .sum();
+        let sum: f64 = rule.iter().zip(im_h).map(|(&(r, w), &im)| w * im * (r * j as f64 * dt).exp()).sum();
         let sign = if j.rem_euclid(2) == 0 { 1.0 } else { -1.0 };
         dt / PI * sign * sum
     };
     let len = (big + span).next_power_of_two();
-    let mut a: Vec<Complex64> = (0..len)
-        .map(|k| Complex64::new(if k < big { x_held[k] } else { 0.0 }, 0.0))
-        .collect();
+    let mut a: Vec<Complex64> = (0..len).map(|k| Complex64::new(if k < big { x_held[k] } else { 0.0 }, 0.0)).collect();
     let mut b: Vec<Complex64> = (0..len)
         .map(|i| {
-            let v = if i < span {
-                dg(i as i64 - (big as i64 - 1))
-            } else {
-                0.0
-            };
+            let v = if i < span { dg(i as i64 - (big as i64 - 1)) } else { 0.0 };
             Complex64::new(v, 0.0)
         })
         .collect();

@@ -18,21 +18,10 @@ pub(crate) struct Thevenin<'a> {
 /// The drive of `plant` as a Thevenin source.
 pub(crate) fn thevenin(plant: &Plant) -> Thevenin<'_> {
     match &plant.drive {
-        Drive::Source { node, emf, rs } => Thevenin {
-            node: *node,
-            emf,
-            resistance: *rs,
-        },
-        Drive::Rig {
-            node,
-            stimulus,
-            dut_resistance,
-            ..
-        } => Thevenin {
-            node: *node,
-            emf: stimulus,
-            resistance: *dut_resistance,
-        },
+        Drive::Source { node, emf, rs } => Thevenin { node: *node, emf, resistance: *rs },
+        Drive::Rig { node, stimulus, dut_resistance, .. } => {
+            Thevenin { node: *node, emf: stimulus, resistance: *dut_resistance }
+        }
     }
 }
 
@@ -53,40 +42,17 @@ pub(crate) fn check_plant(plant: &Plant) -> Result<(), ReferenceError> {
         let item = format!("cable '{}'", cable.name);
         let none = Span::default();
         if !positive(cable.z0) {
-            return bad(
-                item,
-                none,
-                "z0",
-                format!("must be a positive number of ohms, got {}", cable.z0),
-            );
+            return bad(item, none, "z0", format!("must be a positive number of ohms, got {}", cable.z0));
         }
         if !positive(cable.velocity) {
-            return bad(
-                item,
-                none,
-                "velocity",
-                format!("must be a positive speed, got {}", cable.velocity),
-            );
+            return bad(item, none, "velocity", format!("must be a positive speed, got {}", cable.velocity));
         }
         if !non_negative(cable.r_per_m) {
-            return bad(
-                item,
-                none,
-                "r_per_m",
-                format!("must be >= 0 ohm/m, got {}", cable.r_per_m),
-            );
+            return bad(item, none, "r_per_m", format!("must be >= 0 ohm/m, got {}", cable.r_per_m));
         }
         if let Some(loss) = cable.loss {
             if !non_negative(loss.k_c) || !non_negative(loss.k_d) {
-                return bad(
-                    item,
-                    none,
-                    "loss",
-                    format!(
-                        "k_c and k_d must be >= 0, got {} and {}",
-                        loss.k_c, loss.k_d
-                    ),
-                );
+                return bad(item, none, "loss", format!("k_c and k_d must be >= 0, got {} and {}", loss.k_c, loss.k_d));
             }
         }
     }
@@ -98,27 +64,14 @@ pub(crate) fn check_plant(plant: &Plant) -> Result<(), ReferenceError> {
                 item,
                 seg.span,
                 "from/to",
-                format!(
-                    "node {} or {} does not exist ({} nodes)",
-                    seg.from, seg.to, nodes
-                ),
+                format!("node {} or {} does not exist ({} nodes)", seg.from, seg.to, nodes),
             );
         }
         if seg.cable >= plant.cables.len() {
-            return bad(
-                item,
-                seg.span,
-                "cable",
-                format!("cable {} does not exist", seg.cable),
-            );
+            return bad(item, seg.span, "cable", format!("cable {} does not exist", seg.cable));
         }
         if !positive(seg.length) {
-            return bad(
-                item,
-                seg.span,
-                "length",
-                format!("must be > 0 m, got {}", seg.length),
-            );
+            return bad(item, seg.span, "length", format!("must be > 0 m, got {}", seg.length));
         }
     }
     for node in &plant.nodes {
@@ -130,20 +83,10 @@ pub(crate) fn check_plant(plant: &Plant) -> Result<(), ReferenceError> {
             Load::SeriesRc { r, c } | Load::ParallelRc { r, c } => (r, c),
         };
         if !positive(r) {
-            return bad(
-                item,
-                node.span,
-                "load",
-                format!("resistance must be > 0 ohm, got {r}"),
-            );
+            return bad(item, node.span, "load", format!("resistance must be > 0 ohm, got {r}"));
         }
         if !positive(c) {
-            return bad(
-                item,
-                node.span,
-                "load",
-                format!("capacitance must be > 0 F, got {c}"),
-            );
+            return bad(item, node.span, "load", format!("capacitance must be > 0 F, got {c}"));
         }
     }
     let drive = thevenin(plant);
@@ -160,30 +103,17 @@ pub(crate) fn check_plant(plant: &Plant) -> Result<(), ReferenceError> {
             "drive".into(),
             Span::default(),
             "resistance",
-            format!(
-                "the source resistance must be > 0 ohm, got {}",
-                drive.resistance
-            ),
+            format!("the source resistance must be > 0 ohm, got {}", drive.resistance),
         );
     }
     for probe in &plant.probes {
         let item = format!("probe '{}'", probe.name);
         match probe.kind {
             ProbeKind::Voltage(n) if n >= nodes => {
-                return bad(
-                    item,
-                    Span::default(),
-                    "node",
-                    format!("node {n} does not exist"),
-                );
+                return bad(item, Span::default(), "node", format!("node {n} does not exist"));
             }
             ProbeKind::Current(s, _) if s >= plant.segments.len() => {
-                return bad(
-                    item,
-                    Span::default(),
-                    "segment",
-                    format!("segment {s} does not exist"),
-                );
+                return bad(item, Span::default(), "segment", format!("segment {s} does not exist"));
             }
             _ => {}
         }

@@ -43,9 +43,7 @@ fn resistance(plant: &Plant, k: usize) -> f64 {
 /// Solve a real linear system; `None` when singular or not finite.
 fn solve_real(a: DMatrix<f64>, b: DVector<f64>) -> Option<Vec<f64>> {
     let x = a.lu().solve(&b)?;
-    x.iter()
-        .all(|v| v.is_finite())
-        .then(|| x.iter().copied().collect())
+    x.iter().all(|v| v.is_finite()).then(|| x.iter().copied().collect())
 }
 
 /// Node voltages of a checked plant at DC for drive EMF `emf`, V.
@@ -96,10 +94,7 @@ pub(crate) fn node_voltages(plant: &Plant, emf: f64) -> Result<Vec<f64>, Referen
     let mut part: Vec<usize> = (0..n).collect();
     for (k, seg) in plant.segments.iter().enumerate() {
         if resistance(plant, k) > 0.0 {
-            let (p, q) = (
-                find(&mut part, group[seg.from]),
-                find(&mut part, group[seg.to]),
-            );
+            let (p, q) = (find(&mut part, group[seg.from]), find(&mut part, group[seg.to]));
             part[p] = q;
         }
     }
@@ -119,10 +114,7 @@ pub(crate) fn node_voltages(plant: &Plant, emf: f64) -> Result<Vec<f64>, Referen
             rhs[g] = 0.0;
         }
     }
-    let v = solve_real(a, rhs).ok_or(ReferenceError::Singular {
-        sigma: 0.0,
-        f_hz: 0.0,
-    })?;
+    let v = solve_real(a, rhs).ok_or(ReferenceError::Singular { sigma: 0.0, f_hz: 0.0 })?;
     Ok(group.iter().map(|&g| v[g]).collect())
 }
 
@@ -140,13 +132,7 @@ pub(crate) fn probe_values(plant: &Plant, emf: f64) -> Result<Vec<f64>, Referenc
 }
 
 /// DC current from the node into segment k at `end`, A.
-fn segment_current(
-    plant: &Plant,
-    v: &[f64],
-    emf: f64,
-    k: usize,
-    end: End,
-) -> Result<f64, ReferenceError> {
+fn segment_current(plant: &Plant, v: &[f64], emf: f64, k: usize, end: End) -> Result<f64, ReferenceError> {
     let seg = &plant.segments[k];
     let (here, far) = match end {
         End::From => (seg.from, seg.to),
@@ -167,12 +153,7 @@ fn segment_current(
 /// I_ext = (E − v)/Rs (drive) − G_load·v − (currents into resistive segments); the group's
 /// lossless segments carry it with conductances 1/(L'·l). Shorted nodes sit at potential 0;
 /// without a short one node is the reference (the injections then sum to zero by KCL).
-fn inductive_potentials(
-    plant: &Plant,
-    v: &[f64],
-    emf: f64,
-    k: usize,
-) -> Result<Vec<f64>, ReferenceError> {
+fn inductive_potentials(plant: &Plant, v: &[f64], emf: f64, k: usize) -> Result<Vec<f64>, ReferenceError> {
     let n = plant.nodes.len();
     let lossless = |j: usize| resistance(plant, j) == 0.0;
     let mut parent: Vec<usize> = (0..n).collect();
@@ -211,9 +192,7 @@ fn inductive_potentials(
         }
     }
     let mut rhs = DVector::<f64>::from_vec(inject);
-    let mut fixed: Vec<usize> = (0..n)
-        .filter(|&i| members[i] && plant.nodes[i].load == Load::Short)
-        .collect();
+    let mut fixed: Vec<usize> = (0..n).filter(|&i| members[i] && plant.nodes[i].load == Load::Short).collect();
     if fixed.is_empty() {
         fixed.push(target);
     }
@@ -225,10 +204,7 @@ fn inductive_potentials(
             rhs[i] = 0.0;
         }
     }
-    solve_real(a, rhs).ok_or(ReferenceError::Singular {
-        sigma: 0.0,
-        f_hz: 0.0,
-    })
+    solve_real(a, rhs).ok_or(ReferenceError::Singular { sigma: 0.0, f_hz: 0.0 })
 }
 
 #[cfg(test)]
@@ -257,11 +233,7 @@ mod tests {
             nodes: loads
                 .iter()
                 .enumerate()
-                .map(|(i, &load)| Node {
-                    name: format!("n{i}"),
-                    load,
-                    span: Span::default(),
-                })
+                .map(|(i, &load)| Node { name: format!("n{i}"), load, span: Span::default() })
                 .collect(),
             segments: segs
                 .iter()
@@ -277,11 +249,7 @@ mod tests {
                 .collect(),
             drive: Drive::Source {
                 node: drive_node,
-                emf: Waveform::Step {
-                    amplitude: 1.0,
-                    delay: 0.0,
-                    rise: 0.0,
-                },
+                emf: Waveform::Step { amplitude: 1.0, delay: 0.0, rise: 0.0 },
                 rs: 10.0,
             },
             probes: vec![],
@@ -296,12 +264,7 @@ mod tests {
         // [closed form] 10 ohm source, 2 m at 0.5 ohm/m (1 ohm), a lossless 5 m, 39 ohm load:
         // v_load = 2·39/(10 + 1 + 39); capacitor-only node floats with its neighbours.
         let p = plant(
-            &[
-                Load::Capacitor(1e-9),
-                Load::Open,
-                Load::Resistor(39.0),
-                Load::Capacitor(1e-9),
-            ],
+            &[Load::Capacitor(1e-9), Load::Open, Load::Resistor(39.0), Load::Capacitor(1e-9)],
             &[(0, 1, 1, 2.0), (1, 2, 0, 5.0), (2, 3, 0, 1.0)],
             0,
         );
@@ -317,15 +280,9 @@ mod tests {
     fn part_without_a_path_to_return_sits_at_zero_and_short_is_zero() {
         // [closed form] an unconnected island keeps no charge; a short holds v = 0 and the
         // source then sees Rs + R_segment: current 1/(10 + 1).
-        let mut p = plant(
-            &[Load::Open, Load::Short, Load::Capacitor(1e-9), Load::Open],
-            &[(0, 1, 1, 2.0), (2, 3, 1, 4.0)],
-            0,
-        );
-        p.probes.push(Probe {
-            name: "i".into(),
-            kind: ProbeKind::Current(0, End::From),
-        });
+        let mut p =
+            plant(&[Load::Open, Load::Short, Load::Capacitor(1e-9), Load::Open], &[(0, 1, 1, 2.0), (2, 3, 1, 4.0)], 0);
+        p.probes.push(Probe { name: "i".into(), kind: ProbeKind::Current(0, End::From) });
         let v = node_voltages(&p, 1.0).unwrap();
         assert_eq!((v[1], v[2], v[3]), (0.0, 0.0, 0.0));
         let i = probe_values(&p, 1.0).unwrap()[0];
@@ -336,21 +293,11 @@ mod tests {
     fn parallel_lossless_paths_share_current_by_inductance() {
         // [closed form] two lossless segments of 1 m and 3 m in parallel into a short share
         // the DC current as the s -> 0 limit of 1/(s·L'·l): 3/4 and 1/4 of E/Rs.
-        let mut p = plant(
-            &[Load::Open, Load::Short],
-            &[(0, 1, 0, 1.0), (0, 1, 0, 3.0)],
-            0,
-        );
+        let mut p = plant(&[Load::Open, Load::Short], &[(0, 1, 0, 1.0), (0, 1, 0, 3.0)], 0);
         for k in 0..2 {
-            p.probes.push(Probe {
-                name: format!("i{k}"),
-                kind: ProbeKind::Current(k, End::From),
-            });
+            p.probes.push(Probe { name: format!("i{k}"), kind: ProbeKind::Current(k, End::From) });
         }
         let i = probe_values(&p, 1.0).unwrap();
-        assert!(
-            (i[0] - 0.75 / 10.0).abs() < 1e-14 && (i[1] - 0.25 / 10.0).abs() < 1e-14,
-            "{i:?}"
-        );
+        assert!((i[0] - 0.75 / 10.0).abs() < 1e-14 && (i[1] - 0.25 / 10.0).abs() < 1e-14, "{i:?}");
     }
 }

@@ -59,9 +59,7 @@ impl Plan {
     /// FFTs amplified by the undamping exp(sigma·(n−1)·dt) = q^(−(n−1)/N).
     pub fn wrap_bound(&self) -> f64 {
         let rounding = 16.0 * f64::EPSILON * (self.n_fft as f64).log2();
-        let undamp = self
-            .q
-            .powf(-((self.n.max(1) - 1) as f64) / self.n_fft as f64);
+        let undamp = self.q.powf(-((self.n.max(1) - 1) as f64) / self.n_fft as f64);
         self.q / (1.0 - self.q) + rounding * undamp
     }
 
@@ -100,9 +98,7 @@ pub(crate) fn invert<E>(
     // The input is held at its last value past n: a step stays a step, so the record has no
     // artificial edge at n whose band-limited ringing would reach back into the output.
     let last = x.last().copied().unwrap_or(0.0);
-    let x_held: Vec<f64> = (0..big)
-        .map(|k| x.get(k).copied().unwrap_or(last))
-        .collect();
+    let x_held: Vec<f64> = (0..big).map(|k| x.get(k).copied().unwrap_or(last)).collect();
     let mut spectrum: Vec<Complex64> = x_held
         .iter()
         .enumerate()
@@ -131,25 +127,15 @@ pub(crate) fn invert<E>(
         }
     }
     let n = x.len();
-    let mut inverted = Inverted {
-        values: Vec::new(),
-        record_peaks: Vec::new(),
-        edge_peaks: Vec::new(),
-    };
+    let mut inverted = Inverted { values: Vec::new(), record_peaks: Vec::new(), edge_peaks: Vec::new() };
     for (mut y, im_h) in out.into_iter().zip(edge) {
         inverse.process(&mut y);
-        let full: Vec<f64> = (0..big)
-            .map(|m| y[m].re / big as f64 * (plan.sigma * m as f64 * dt).exp())
-            .collect();
+        let full: Vec<f64> = (0..big).map(|m| y[m].re / big as f64 * (plan.sigma * m as f64 * dt).exp()).collect();
         // The end of the record holds the band-limited precursors of the next period,
         // magnified by the undamping; the first half is the response itself.
-        inverted
-            .record_peaks
-            .push(full[..half].iter().fold(0.0, |p, v| p.max(v.abs())));
+        inverted.record_peaks.push(full[..half].iter().fold(0.0, |p, v| p.max(v.abs())));
         let edge = band_edge::correction(&x_held, n, dt, &rule, &im_h);
-        inverted
-            .edge_peaks
-            .push(edge.iter().fold(0.0, |p, v| p.max(v.abs())));
+        inverted.edge_peaks.push(edge.iter().fold(0.0, |p, v| p.max(v.abs())));
         inverted.values.push(full[..n].to_vec());
     }
     Ok(inverted)
@@ -175,19 +161,13 @@ mod tests {
         let dt = 1e-8;
         let x: Vec<f64> = (0..100).map(|k| ((k * 37) % 11) as f64 - 5.0).collect();
         let plan = Plan::new(x.len(), dt, 1e-9);
-        let y = invert::<()>(&plan, &x, dt, 1, |s| Ok(vec![0.3 * (-7.0 * s * dt).exp()]))
-            .unwrap()
-            .values;
+        let y = invert::<()>(&plan, &x, dt, 1, |s| Ok(vec![0.3 * (-7.0 * s * dt).exp()])).unwrap().values;
         // Held at its last value past n, the input wraps back with weight q: the bound.
         let tol = plan.wrap_bound() * 0.3 * 5.0 * 1.01;
         assert!(tol < 2e-9);
         for m in 0..x.len() {
             let want = if m >= 7 { 0.3 * x[m - 7] } else { 0.0 };
-            assert!(
-                (y[0][m] - want).abs() <= tol,
-                "sample {m}: {} vs {want}",
-                y[0][m]
-            );
+            assert!((y[0][m] - want).abs() <= tol, "sample {m}: {} vs {want}", y[0][m]);
         }
     }
 
@@ -199,16 +179,10 @@ mod tests {
         let tau = 200e-9;
         let x = vec![1.0; 2000];
         let plan = Plan::new(x.len(), dt, 1e-9);
-        let y = invert::<()>(&plan, &x, dt, 1, |s| Ok(vec![1.0 / (1.0 + s * tau)]))
-            .unwrap()
-            .values;
+        let y = invert::<()>(&plan, &x, dt, 1, |s| Ok(vec![1.0 / (1.0 + s * tau)])).unwrap().values;
         for m in [100usize, 400, 1999] {
             let want = 1.0 - (-(m as f64) * dt / tau).exp();
-            assert!(
-                (y[0][m] - want).abs() < 5e-3,
-                "sample {m}: {} vs {want}",
-                y[0][m]
-            );
+            assert!((y[0][m] - want).abs() < 5e-3, "sample {m}: {} vs {want}", y[0][m]);
         }
     }
 }

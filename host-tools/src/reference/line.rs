@@ -88,10 +88,7 @@ pub fn two_port(cable: &CableType, length: f64, s: Complex64) -> TwoPort {
     let zl = series_impedance(cable, s) * length;
     let yl = shunt_admittance(cable, s) * length;
     let (x_coth, x_csch) = even_functions(zl * yl);
-    TwoPort {
-        y11: x_coth / zl,
-        y12: -x_csch / zl,
-    }
+    TwoPort { y11: x_coth / zl, y12: -x_csch / zl }
 }
 
 /// x·coth(x) and x·csch(x) for x² = `x2`, accurate for small |x| and safe for large Re x.
@@ -152,14 +149,7 @@ mod tests {
     use crate::plant::LossModel;
 
     fn cable(z0: f64, velocity: f64, r_per_m: f64, loss: Option<LossModel>) -> CableType {
-        CableType {
-            name: "test".into(),
-            z0,
-            velocity,
-            r_per_m,
-            loss,
-            source: "unit test".into(),
-        }
+        CableType { name: "test".into(), z0, velocity, r_per_m, loss, source: "unit test".into() }
     }
 
     fn close(a: Complex64, b: Complex64, rel: f64) -> bool {
@@ -177,10 +167,7 @@ mod tests {
             let bl = w * length / c.velocity;
             let b = Complex64::new(0.0, c.z0 * bl.sin());
             let tp = two_port(&c, length, Complex64::new(0.0, w));
-            assert!(
-                close(tp.y11, Complex64::new(bl.cos(), 0.0) / b, 1e-9),
-                "Y11 at {f} Hz"
-            );
+            assert!(close(tp.y11, Complex64::new(bl.cos(), 0.0) / b, 1e-9), "Y11 at {f} Hz");
             assert!(close(tp.y12, -1.0 / b, 1e-9), "Y12 at {f} Hz");
         }
     }
@@ -189,15 +176,7 @@ mod tests {
     fn lossy_two_port_matches_textbook_coth_and_csch_where_both_are_safe() {
         // [closed form] Y11 = coth(gamma l)/Zc, Y12 = −csch(gamma l)/Zc, evaluated directly,
         // at lengths that put Re(gamma l) on both sides of the exp-form switch.
-        let c = cable(
-            100.0,
-            2.0e8,
-            0.2,
-            Some(LossModel {
-                k_c: 2.3e-6,
-                k_d: 2.6e-11,
-            }),
-        );
+        let c = cable(100.0, 2.0e8, 0.2, Some(LossModel { k_c: 2.3e-6, k_d: 2.6e-11 }));
         let s = Complex64::new(3.0e6, 2.0 * PI * 5.0e7);
         for length in [0.3, 40.0, 400.0, 900.0, 2000.0] {
             let z = series_impedance(&c, s);
@@ -206,14 +185,8 @@ mod tests {
             let zc = (z / y).sqrt();
             let x = gamma * length;
             let tp = two_port(&c, length, s);
-            assert!(
-                close(tp.y11, x.cosh() / x.sinh() / zc, 1e-10),
-                "Y11 at {length} m"
-            );
-            assert!(
-                close(tp.y12, -1.0 / (x.sinh() * zc), 1e-10),
-                "Y12 at {length} m"
-            );
+            assert!(close(tp.y11, x.cosh() / x.sinh() / zc, 1e-10), "Y11 at {length} m");
+            assert!(close(tp.y12, -1.0 / (x.sinh() * zc), 1e-10), "Y12 at {length} m");
         }
     }
 
@@ -227,11 +200,7 @@ mod tests {
         let tp = two_port(&c, length, s);
         let zc = (series_impedance(&c, s) / shunt_admittance(&c, s)).sqrt();
         let x = (series_impedance(&c, s) * shunt_admittance(&c, s)).sqrt() * length;
-        assert!(
-            x.re > 1000.0,
-            "the case must be beyond cosh overflow, Re x = {}",
-            x.re
-        );
+        assert!(x.re > 1000.0, "the case must be beyond cosh overflow, Re x = {}", x.re);
         assert!(close(tp.y11, 1.0 / zc, 1e-12));
         assert!(tp.y12.norm().is_finite() && tp.y12.norm() < 1e-300);
         let s21 = segment_s21(&c, length, 1.0e9, 50.0);
@@ -254,10 +223,7 @@ mod tests {
     fn loss_continuations_keep_the_real_part_convention() {
         // [closed form] Re R_skin(j2πf) = 2·Z0·k_c·sqrt(f) with equal internal reactance;
         // Re Y_d(j2πf) = 2·k_d·f/Z0 (so alpha = R/(2Z0) + G·Z0/2 = k_c·sqrt f + k_d·f).
-        let loss = LossModel {
-            k_c: 2.0e-6,
-            k_d: 3.0e-11,
-        };
+        let loss = LossModel { k_c: 2.0e-6, k_d: 3.0e-11 };
         let c = cable(100.0, 2.0e8, 0.0, Some(loss));
         for f in [1.0e5, 1.0e7, 3.0e8] {
             let s = Complex64::new(0.0, 2.0 * PI * f);

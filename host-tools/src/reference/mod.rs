@@ -43,15 +43,8 @@ impl ExactOptions {
     /// Options covering the plant's `duration` at its sample rate, default wrap level.
     pub fn for_plant(plant: &Plant) -> ExactOptions {
         let n = (plant.duration * plant.sample_rate).ceil();
-        let samples = if n.is_finite() && n >= 1.0 {
-            n as usize
-        } else {
-            1
-        };
-        ExactOptions {
-            samples,
-            wrap_level: Self::DEFAULT_WRAP_LEVEL,
-        }
+        let samples = if n.is_finite() && n >= 1.0 { n as usize } else { 1 };
+        ExactOptions { samples, wrap_level: Self::DEFAULT_WRAP_LEVEL }
     }
 }
 
@@ -117,10 +110,7 @@ pub fn exact_response(plant: &Plant, opts: &ExactOptions) -> Result<ExactRun, Re
             format!("plant '{}'", plant.name),
             Default::default(),
             "sample_rate",
-            format!(
-                "must be a positive number of hertz, got {}",
-                plant.sample_rate
-            ),
+            format!("must be a positive number of hertz, got {}", plant.sample_rate),
         ));
     }
     let dt = 1.0 / plant.sample_rate;
@@ -128,32 +118,16 @@ pub fn exact_response(plant: &Plant, opts: &ExactOptions) -> Result<ExactRun, Re
     let plan = laplace::Plan::new(opts.samples, dt, opts.wrap_level);
     let inverted = laplace::invert(&plan, &drive, dt, plant.probes.len(), |s| {
         let sol = nodal::solve(plant, s)?;
-        Ok(plant
-            .probes
-            .iter()
-            .map(|p| sol.probe(plant, p.kind))
-            .collect())
+        Ok(plant.probes.iter().map(|p| sol.probe(plant, p.kind)).collect())
     })?;
     // The relative bound of the plan applies to each trace's peak over the record and the
     // band-edge term is absolute; express both against the drive's peak so that one number
     // covers every trace.
     let drive_peak = drive.iter().fold(0.0, |p: f64, v| p.max(v.abs()));
-    let largest = inverted
-        .record_peaks
-        .iter()
-        .fold(0.0, |p: f64, v| p.max(*v));
-    let scale = if drive_peak > 0.0 {
-        (largest / drive_peak).max(1.0)
-    } else {
-        1.0
-    };
+    let largest = inverted.record_peaks.iter().fold(0.0, |p: f64, v| p.max(*v));
+    let scale = if drive_peak > 0.0 { (largest / drive_peak).max(1.0) } else { 1.0 };
     let edge = inverted.edge_peaks.iter().fold(0.0, |p: f64, v| p.max(*v));
-    let wrap_bound = plan.wrap_bound() * scale
-        + if drive_peak > 0.0 {
-            edge / drive_peak
-        } else {
-            0.0
-        };
+    let wrap_bound = plan.wrap_bound() * scale + if drive_peak > 0.0 { edge / drive_peak } else { 0.0 };
     let values = inverted.values;
     let traces = plant
         .probes
@@ -168,13 +142,7 @@ pub fn exact_response(plant: &Plant, opts: &ExactOptions) -> Result<ExactRun, Re
             values,
         })
         .collect();
-    Ok(ExactRun {
-        dt,
-        traces,
-        drive,
-        sigma: plan.sigma,
-        wrap_bound,
-    })
+    Ok(ExactRun { dt, traces, drive, sigma: plan.sigma, wrap_bound })
 }
 
 /// Node voltages at DC for drive EMF `emf` (segments are their loop resistance, lossless
@@ -192,16 +160,10 @@ pub fn transfer(plant: &Plant, probe: usize, s: Complex64) -> Result<Complex64, 
     let kind = plant
         .probes
         .get(probe)
-        .ok_or(ReferenceError::ProbeOutOfRange {
-            index: probe,
-            count: plant.probes.len(),
-        })?
+        .ok_or(ReferenceError::ProbeOutOfRange { index: probe, count: plant.probes.len() })?
         .kind;
     if !(s.re.is_finite() && s.im.is_finite()) {
-        return Err(ReferenceError::NonFinite {
-            sigma: s.re,
-            f_hz: s.im / (2.0 * std::f64::consts::PI),
-        });
+        return Err(ReferenceError::NonFinite { sigma: s.re, f_hz: s.im / (2.0 * std::f64::consts::PI) });
     }
     if s == Complex64::new(0.0, 0.0) {
         return Ok(Complex64::new(dc::probe_values(plant, 1.0)?[probe], 0.0));

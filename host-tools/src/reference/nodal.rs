@@ -93,17 +93,11 @@ pub(crate) fn solve(plant: &Plant, s: Complex64) -> Result<Solution, ReferenceEr
     if a.iter().any(|v| !v.re.is_finite() || !v.im.is_finite()) {
         return Err(ReferenceError::NonFinite { sigma, f_hz });
     }
-    let v = a
-        .lu()
-        .solve(&b)
-        .ok_or(ReferenceError::Singular { sigma, f_hz })?;
+    let v = a.lu().solve(&b).ok_or(ReferenceError::Singular { sigma, f_hz })?;
     if v.iter().any(|x| !x.re.is_finite() || !x.im.is_finite()) {
         return Err(ReferenceError::Singular { sigma, f_hz });
     }
-    Ok(Solution {
-        voltages: v.iter().copied().collect(),
-        ports,
-    })
+    Ok(Solution { voltages: v.iter().copied().collect(), ports })
 }
 
 #[cfg(test)]
@@ -112,11 +106,7 @@ mod tests {
     use crate::plant::{CableType, Drive, Node, Probe, Segment, Span, Tolerances, Waveform};
 
     fn plant(load: Load, rs: f64, length: f64) -> Plant {
-        let node = |name: &str, load| Node {
-            name: name.into(),
-            load,
-            span: Span::default(),
-        };
+        let node = |name: &str, load| Node { name: name.into(), load, span: Span::default() };
         Plant {
             name: "unit".into(),
             notes: vec![],
@@ -131,27 +121,9 @@ mod tests {
                 source: "unit test".into(),
             }],
             nodes: vec![node("a", Load::Open), node("b", load)],
-            segments: vec![Segment {
-                name: "s".into(),
-                from: 0,
-                to: 1,
-                cable: 0,
-                length,
-                span: Span::default(),
-            }],
-            drive: Drive::Source {
-                node: 0,
-                emf: Waveform::Step {
-                    amplitude: 1.0,
-                    delay: 0.0,
-                    rise: 0.0,
-                },
-                rs,
-            },
-            probes: vec![Probe {
-                name: "i".into(),
-                kind: ProbeKind::Current(0, End::To),
-            }],
+            segments: vec![Segment { name: "s".into(), from: 0, to: 1, cable: 0, length, span: Span::default() }],
+            drive: Drive::Source { node: 0, emf: Waveform::Step { amplitude: 1.0, delay: 0.0, rise: 0.0 }, rs },
+            probes: vec![Probe { name: "i".into(), kind: ProbeKind::Current(0, End::To) }],
             tolerances: Tolerances::default(),
             events: vec![],
             lattice_path: vec![],

@@ -87,12 +87,25 @@ impl Verification {
 }
 
 fn located(file: &str, e: impl std::fmt::Display) -> PlantError {
-    PlantError { file: file.into(), line: 0, column: 0, field: String::new(), message: e.to_string(), hint: String::new() }
+    PlantError {
+        file: file.into(),
+        line: 0,
+        column: 0,
+        field: String::new(),
+        message: e.to_string(),
+        hint: String::new(),
+    }
 }
 
 /// Run the three models and judge the figures. `record` lists core lines whose end waves
 /// are kept for the lattice view.
-pub fn verify(plant: &Plant, file: &str, c: &Compiled, record: &[u16], progress: &(dyn Fn(usize) + Sync)) -> Result<(Verification, Traces), PlantError> {
+pub fn verify(
+    plant: &Plant,
+    file: &str,
+    c: &Compiled,
+    record: &[u16],
+    progress: &(dyn Fn(usize) + Sync),
+) -> Result<(Verification, Traces), PlantError> {
     let n = c.samples;
     let core = run_core(c, n, record, progress).map_err(|e| located(file, e))?;
     let tw = twin::run(c, n, record);
@@ -154,6 +167,7 @@ pub fn verify(plant: &Plant, file: &str, c: &Compiled, record: &[u16], progress:
             pass_arrival,
         });
     }
-    let v = Verification { probes, step, samples: n, exact_samples: exact_len, wrap_bound: ex.wrap_bound, tolerances: tol };
+    let v =
+        Verification { probes, step, samples: n, exact_samples: exact_len, wrap_bound: ex.wrap_bound, tolerances: tol };
     Ok((v, Traces { core, twin: tw, exact, dt: c.dt, exact_len }))
 }

@@ -7,9 +7,7 @@ use tidewire_host::plant::{load_plant, parse_plant, EventAction, Load, PlantErro
 use super::{demo_dir, parse, with_cable, MINIMAL};
 
 fn bad(file: &str) -> PlantError {
-    let path = Path::new(env!("CARGO_MANIFEST_DIR"))
-        .join("tests/bad_plants")
-        .join(file);
+    let path = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/bad_plants").join(file);
     match load_plant(&path) {
         Ok(_) => panic!("{file} must be rejected"),
         Err(e) => e,
@@ -22,167 +20,34 @@ fn bad_plant_files_give_located_errors() {
     // point at the offending value in the fixture text.
     let cases: &[(&str, usize, usize, &str, &str)] = &[
         ("syntax.toml", 3, 18, "plant.name", "invalid basic string"),
-        (
-            "negative-length.toml",
-            15,
-            10,
-            "segment[a-b].length",
-            "length must be positive, got \"-3 m\"",
-        ),
-        (
-            "zero-length.toml",
-            15,
-            10,
-            "segment[a-b].length",
-            "length must be positive",
-        ),
-        (
-            "zero-impedance.toml",
-            8,
-            13,
-            "cable.trunk.impedance",
-            "impedance must be positive",
-        ),
-        (
-            "negative-impedance.toml",
-            8,
-            13,
-            "cable.trunk.impedance",
-            "got \"-50 ohm\"",
-        ),
-        (
-            "velocity-factor-above-one.toml",
-            9,
-            19,
-            "cable.trunk.velocity_factor",
-            "(0, 1], got 1.2",
-        ),
-        (
-            "velocity-factor-zero.toml",
-            9,
-            19,
-            "cable.trunk.velocity_factor",
-            "(0, 1], got 0",
-        ),
-        (
-            "faster-than-light.toml",
-            9,
-            9,
-            "cable.trunk.delay",
-            "faster than light",
-        ),
-        (
-            "unknown-cable.toml",
-            14,
-            9,
-            "segment[a-b].cable",
-            "unknown cable \"twisted-pair-150\"",
-        ),
-        (
-            "unknown-node.toml",
-            13,
-            6,
-            "segment[a-c].to",
-            "unknown node \"c\"",
-        ),
-        (
-            "dangling-node.toml",
-            10,
-            7,
-            "node.spare",
-            "has no segment connected",
-        ),
+        ("negative-length.toml", 15, 10, "segment[a-b].length", "length must be positive, got \"-3 m\""),
+        ("zero-length.toml", 15, 10, "segment[a-b].length", "length must be positive"),
+        ("zero-impedance.toml", 8, 13, "cable.trunk.impedance", "impedance must be positive"),
+        ("negative-impedance.toml", 8, 13, "cable.trunk.impedance", "got \"-50 ohm\""),
+        ("velocity-factor-above-one.toml", 9, 19, "cable.trunk.velocity_factor", "(0, 1], got 1.2"),
+        ("velocity-factor-zero.toml", 9, 19, "cable.trunk.velocity_factor", "(0, 1], got 0"),
+        ("faster-than-light.toml", 9, 9, "cable.trunk.delay", "faster than light"),
+        ("unknown-cable.toml", 14, 9, "segment[a-b].cable", "unknown cable \"twisted-pair-150\""),
+        ("unknown-node.toml", 13, 6, "segment[a-c].to", "unknown node \"c\""),
+        ("dangling-node.toml", 10, 7, "node.spare", "has no segment connected"),
         ("no-drive.toml", 16, 1, "drive", "no [drive] table"),
         ("two-drives.toml", 23, 1, "drive", "duplicate key"),
-        (
-            "unknown-drive-kind.toml",
-            18,
-            8,
-            "drive.kind",
-            "unknown drive kind \"generator\"",
-        ),
-        (
-            "wrong-unit.toml",
-            15,
-            10,
-            "segment[a-b].length",
-            "unit `ohm` is a resistance",
-        ),
-        (
-            "missing-unit.toml",
-            15,
-            10,
-            "segment[a-b].length",
-            "20 has no unit",
-        ),
-        (
-            "unknown-field.toml",
-            15,
-            1,
-            "segment.lenght",
-            "unknown field `lenght`",
-        ),
-        (
-            "probe-unknown-node.toml",
-            25,
-            8,
-            "probe[far end].node",
-            "unknown node \"z\"",
-        ),
-        (
-            "probe-unknown-segment.toml",
-            24,
-            11,
-            "probe[1].segment",
-            "unknown segment \"a-c\"",
-        ),
-        (
-            "negative-loss.toml",
-            12,
-            35,
-            "cable.trunk.loss[1].attenuation",
-            "cannot be fitted",
-        ),
-        (
-            "zero-sample-rate.toml",
-            4,
-            15,
-            "plant.sample_rate",
-            "sample rate must be positive",
-        ),
-        (
-            "negative-sample-rate.toml",
-            4,
-            15,
-            "plant.sample_rate",
-            "got \"-100 MHz\"",
-        ),
-        (
-            "duplicate-segment.toml",
-            17,
-            1,
-            "segment[a-b].name",
-            "duplicate segment name \"a-b\"",
-        ),
-        (
-            "duplicate-probe.toml",
-            28,
-            8,
-            "probe[p].name",
-            "duplicate probe name \"p\"",
-        ),
+        ("unknown-drive-kind.toml", 18, 8, "drive.kind", "unknown drive kind \"generator\""),
+        ("wrong-unit.toml", 15, 10, "segment[a-b].length", "unit `ohm` is a resistance"),
+        ("missing-unit.toml", 15, 10, "segment[a-b].length", "20 has no unit"),
+        ("unknown-field.toml", 15, 1, "segment.lenght", "unknown field `lenght`"),
+        ("probe-unknown-node.toml", 25, 8, "probe[far end].node", "unknown node \"z\""),
+        ("probe-unknown-segment.toml", 24, 11, "probe[1].segment", "unknown segment \"a-c\""),
+        ("negative-loss.toml", 12, 35, "cable.trunk.loss[1].attenuation", "cannot be fitted"),
+        ("zero-sample-rate.toml", 4, 15, "plant.sample_rate", "sample rate must be positive"),
+        ("negative-sample-rate.toml", 4, 15, "plant.sample_rate", "got \"-100 MHz\""),
+        ("duplicate-segment.toml", 17, 1, "segment[a-b].name", "duplicate segment name \"a-b\""),
+        ("duplicate-probe.toml", 28, 8, "probe[p].name", "duplicate probe name \"p\""),
     ];
-    let fixtures =
-        std::fs::read_dir(Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/bad_plants"))
-            .unwrap()
-            .filter(|e| {
-                e.as_ref()
-                    .unwrap()
-                    .path()
-                    .extension()
-                    .is_some_and(|x| x == "toml")
-            })
-            .count();
+    let fixtures = std::fs::read_dir(Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/bad_plants"))
+        .unwrap()
+        .filter(|e| e.as_ref().unwrap().path().extension().is_some_and(|x| x == "toml"))
+        .count();
     assert_eq!(fixtures, cases.len(), "every fixture has a case here");
     for &(file, line, column, field, words) in cases {
         let e = bad(file);
@@ -194,10 +59,7 @@ fn bad_plant_files_give_located_errors() {
         assert!(!e.message.contains('\n'), "{file}: {e}");
         assert_eq!(e.exit_code(), 2);
         let shown = e.to_string();
-        assert!(
-            shown.contains(&format!(":{line}:{column}: {field}: ")),
-            "{shown}"
-        );
+        assert!(shown.contains(&format!(":{line}:{column}: {field}: ")), "{shown}");
         assert!(shown.contains("\n  hint: "), "{shown}");
     }
 }
@@ -225,10 +87,8 @@ fn more_bad_values_are_caught_where_they_are_written() {
     expect(&e, "segment[a-a].to", "starts and ends at node \"a\"");
     let e = bad_edit("wiring = \"series\"", "wiring = \"diagonal\"");
     expect(&e, "node.b.load", "\"series\" or \"parallel\"");
-    let e = bad_edit(
-        "load = { resistor = \"120 ohm\", capacitor = \"1 nF\", wiring = \"series\" }",
-        "load = \"0 ohm\"",
-    );
+    let e =
+        bad_edit("load = { resistor = \"120 ohm\", capacitor = \"1 nF\", wiring = \"series\" }", "load = \"0 ohm\"");
     expect(&e, "node.b.load", "write \"short\"");
     let e = bad_edit(
         "load = { resistor = \"120 ohm\", capacitor = \"1 nF\", wiring = \"series\" }",
@@ -239,10 +99,7 @@ fn more_bad_values_are_caught_where_they_are_written() {
     expect(&e, "drive.waveform", "needs a `width`");
     let e = bad_edit("rise = \"5 ns\"", "rise = \"-5 ns\"");
     expect(&e, "drive.waveform.rise", "must not be negative");
-    let e = bad_edit(
-        "resistance = \"0.05 kohm\"",
-        "resistance = \"0.05 kohm\"\nlatency = 2",
-    );
+    let e = bad_edit("resistance = \"0.05 kohm\"", "resistance = \"0.05 kohm\"\nlatency = 2");
     expect(&e, "drive.latency", "belongs to kind = \"rig\"");
     let e = bad_edit("resistance = \"0.05 kohm\"\n", "");
     expect(&e, "drive", "needs `resistance`");
@@ -250,10 +107,7 @@ fn more_bad_values_are_caught_where_they_are_written() {
     expect(&e, "probe[2].end", "unknown end \"middle\"");
     let e = bad_edit("end = \"to\"\n", "");
     expect(&e, "probe[2].end", "needs `end");
-    let e = bad_edit(
-        "[[probe]]\nnode = \"b\"",
-        "[[probe]]\nnode = \"b\"\nsegment = \"a-b\"",
-    );
+    let e = bad_edit("[[probe]]\nnode = \"b\"", "[[probe]]\nnode = \"b\"\nsegment = \"a-b\"");
     expect(&e, "probe[1]", "exactly one of `node` or `segment`");
     let e = bad_edit("duration = \"5 us\"", "duration = \"5 m\"");
     expect(&e, "plant.duration", "expects a time in s");
@@ -265,19 +119,13 @@ fn more_bad_values_are_caught_where_they_are_written() {
 
 #[test]
 fn bad_cables_rigs_events_and_lattices() {
-    let e = parse(&with_cable(
-        "impedance = \"100 ohm\"\nvelocity_factor = 0.7\ndelay = \"5 ns/m\"",
-    ))
-    .unwrap_err();
+    let e = parse(&with_cable("impedance = \"100 ohm\"\nvelocity_factor = 0.7\ndelay = \"5 ns/m\"")).unwrap_err();
     expect(&e, "cable.c.velocity_factor", "more than one way");
     let e = parse(&with_cable("impedance = \"100 ohm\"")).unwrap_err();
     expect(&e, "cable.c.velocity_factor", "no propagation speed");
     let e = parse(&with_cable("velocity_factor = 0.7")).unwrap_err();
     expect(&e, "cable.c.impedance", "no impedance");
-    let e = parse(&with_cable(
-        "impedance = \"1 ohm\"\ninductance = \"1 uH/m\"\ncapacitance = \"1 pF/m\"",
-    ))
-    .unwrap_err();
+    let e = parse(&with_cable("impedance = \"1 ohm\"\ninductance = \"1 uH/m\"\ncapacitance = \"1 pF/m\"")).unwrap_err();
     expect(&e, "cable.c.impedance", "over-determines");
     let e = parse(&with_cable("inductance = \"600 nH/m\"")).unwrap_err();
     expect(&e, "cable.c.capacitance", "must be given together");
@@ -285,15 +133,11 @@ fn bad_cables_rigs_events_and_lattices() {
     expect(&e, "cable.c.preset", "unknown preset \"cat7\"");
     let e = parse(&with_cable("preset = \"cat5e\"\nresistance = \"-1 ohm/m\"")).unwrap_err();
     expect(&e, "cable.c.resistance", "must not be negative");
-    let e = parse(&with_cable(
-        "preset = \"cat5e\"\nloss = [ { at = \"0 Hz\", attenuation = \"1 dB/m\" } ]",
-    ))
-    .unwrap_err();
+    let e =
+        parse(&with_cable("preset = \"cat5e\"\nloss = [ { at = \"0 Hz\", attenuation = \"1 dB/m\" } ]")).unwrap_err();
     expect(&e, "cable.c.loss[0].at", "cannot be fitted");
-    let e = parse(&with_cable(
-        "preset = \"cat5e\"\nloss = [ { at = \"1 MHz\", attenuation = \"1 dB\" } ]",
-    ))
-    .unwrap_err();
+    let e =
+        parse(&with_cable("preset = \"cat5e\"\nloss = [ { at = \"1 MHz\", attenuation = \"1 dB\" } ]")).unwrap_err();
     expect(&e, "cable.c.loss[0].attenuation", "unknown unit `dB`");
 
     let rig = |extra: &str| {
@@ -308,16 +152,8 @@ fn bad_cables_rigs_events_and_lattices() {
         )
     };
     assert!(parse(&rig("latency = 2")).is_ok());
-    expect(
-        &parse(&rig("latency = 2.5")).unwrap_err(),
-        "drive.latency",
-        "whole number",
-    );
-    expect(
-        &parse(&rig("latency = \"2 ns\"")).unwrap_err(),
-        "drive.latency",
-        "plain number",
-    );
+    expect(&parse(&rig("latency = 2.5")).unwrap_err(), "drive.latency", "whole number");
+    expect(&parse(&rig("latency = \"2 ns\"")).unwrap_err(), "drive.latency", "plain number");
     expect(&parse(&rig("")).unwrap_err(), "drive", "needs `latency`");
     let e = parse(&rig("latency = 2\nwaveform = { step = \"1 V\" }")).unwrap_err();
     expect(&e, "drive.waveform", "belongs to kind = \"source\"");
@@ -325,17 +161,17 @@ fn bad_cables_rigs_events_and_lattices() {
     let events = |ev: &str| MINIMAL.to_string() + "\n[[event]]\n" + ev;
     let p = parse(&events("at = \"1 us\"\nnode = \"b\"\nload = \"short\"")).unwrap();
     assert_eq!(p.events[0].action, EventAction::SetLoad(1, Load::Short));
-    let e = parse(&events(
-        "at = \"1 us\"\nsegment = \"a-b\"\nbreak_at = \"3 m\"",
-    ))
-    .unwrap_err();
+    let e = parse(&events("at = \"1 us\"\nsegment = \"a-b\"\nbreak_at = \"3 m\"")).unwrap_err();
     expect(&e, "event[1].break_at", "not inside segment \"a-b\"");
     let e = parse(&events("at = \"-1 us\"\nnode = \"b\"\nload = \"open\"")).unwrap_err();
     expect(&e, "event[1].at", "must not be negative");
     let e = parse(&events("at = \"1 us\"\nnode = \"b\"")).unwrap_err();
     expect(&e, "event[1]", "either `node` + `load`");
 
-    let two = MINIMAL.replace("[[segment]]", "[node.c]\n\n[[segment]]\nfrom = \"b\"\nto = \"c\"\ncable = \"cat5e\"\nlength = \"5 m\"\n\n[[segment]]");
+    let two = MINIMAL.replace(
+        "[[segment]]",
+        "[node.c]\n\n[[segment]]\nfrom = \"b\"\nto = \"c\"\ncable = \"cat5e\"\nlength = \"5 m\"\n\n[[segment]]",
+    );
     let p = parse(&(two.clone() + "\n[lattice]\npath = [\"a-b\", \"b-c\"]")).unwrap();
     assert_eq!(p.lattice_path, vec![1, 0]);
     let e = parse(&(two.clone() + "\n[lattice]\npath = [\"a-b\", \"nope\"]")).unwrap_err();
@@ -344,11 +180,7 @@ fn bad_cables_rigs_events_and_lattices() {
     expect(&e, "lattice.path", "empty");
     let island = two.replace("[node.c]", "[node.c]\n[node.d]\n[node.e]")
         + "\n[[segment]]\nfrom = \"d\"\nto = \"e\"\ncable = \"cat5e\"\nlength = \"5 m\"\n";
-    expect(
-        &parse(&island).unwrap_err(),
-        "node.d",
-        "not connected to the drive node \"a\"",
-    );
+    expect(&parse(&island).unwrap_err(), "node.d", "not connected to the drive node \"a\"");
     let e = parse(&(two + "\n[verify]\nmax_error = \"150 %\"")).unwrap_err();
     expect(&e, "verify.max_error", "more than 100 %");
 }
@@ -382,9 +214,7 @@ fn no_prefix_of_a_plant_file_panics() {
     let mut seed: u64 = 0x5eed;
     let noise = b"=[]{}\"\n-0.,#x ";
     for _ in 0..3000 {
-        seed = seed
-            .wrapping_mul(6364136223846793005)
-            .wrapping_add(1442695040888963407);
+        seed = seed.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
         let mut bytes = text.clone().into_bytes();
         let at = (seed >> 33) as usize % bytes.len();
         bytes[at] = noise[(seed >> 20) as usize % noise.len()];

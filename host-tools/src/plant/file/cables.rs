@@ -25,10 +25,7 @@ pub struct Cables {
 
 impl Cables {
     /// Build the `[cable.*]` tables, in file order.
-    pub fn read(
-        src: &Source,
-        raw: &BTreeMap<Text, Spanned<RawCable>>,
-    ) -> Result<Cables, PlantError> {
+    pub fn read(src: &Source, raw: &BTreeMap<Text, Spanned<RawCable>>) -> Result<Cables, PlantError> {
         let mut entries: Vec<_> = raw.iter().collect();
         entries.sort_by_key(|(k, _)| k.span().start);
         let mut list = Vec::with_capacity(entries.len());
@@ -39,12 +36,7 @@ impl Cables {
     }
 
     /// The cable a segment names: a `[cable.x]` of the file, else a preset (added once).
-    pub fn resolve(
-        &mut self,
-        src: &Source,
-        name: &Text,
-        field: &str,
-    ) -> Result<CableId, PlantError> {
+    pub fn resolve(&mut self, src: &Source, name: &Text, field: &str) -> Result<CableId, PlantError> {
         if let Some(i) = self.list.iter().position(|c| &c.name == name.get_ref()) {
             return Ok(i);
         }
@@ -56,11 +48,7 @@ impl Cables {
             name.span(),
             field,
             format!("unknown cable \"{}\"", name.get_ref()),
-            format!(
-                "define [cable.{}] or use one of: {}",
-                name.get_ref(),
-                known(&self.list)
-            ),
+            format!("define [cable.{}] or use one of: {}", name.get_ref(), known(&self.list)),
         ))
     }
 }
@@ -118,13 +106,7 @@ fn cable(src: &Source, key: &Text, c: &RawCable) -> Result<CableType, PlantError
                 "remove `impedance` (it follows as sqrt(L/C)) or give `velocity_factor` instead",
             ));
         }
-        out.z0 = positive(
-            src,
-            z,
-            UnitKind::Resistance,
-            &path("impedance"),
-            "impedance",
-        )?;
+        out.z0 = positive(src, z, UnitKind::Resistance, &path("impedance"), "impedance")?;
         overridden.push("impedance");
     }
     if let Some(vf) = &c.velocity_factor {
@@ -151,22 +133,12 @@ fn cable(src: &Source, key: &Text, c: &RawCable) -> Result<CableType, PlantError
         let (Some(l), Some(cap)) = (&c.inductance, &c.capacitance) else {
             return Err(src.error(
                 key.span(),
-                path(if c.inductance.is_some() {
-                    "capacitance"
-                } else {
-                    "inductance"
-                }),
+                path(if c.inductance.is_some() { "capacitance" } else { "inductance" }),
                 "`inductance` and `capacitance` must be given together",
                 "add the missing one, or use `impedance` with `velocity_factor`",
             ));
         };
-        let l = positive(
-            src,
-            l,
-            UnitKind::InductancePerLength,
-            &path("inductance"),
-            "inductance",
-        )?;
+        let l = positive(src, l, UnitKind::InductancePerLength, &path("inductance"), "inductance")?;
         let cf = &path("capacitance");
         let cp = positive(src, cap, UnitKind::CapacitancePerLength, cf, "capacitance")?;
         // Lossless line: Z0 = sqrt(L'/C'), v = 1/sqrt(L'·C').
@@ -203,11 +175,7 @@ fn cable(src: &Source, key: &Text, c: &RawCable) -> Result<CableType, PlantError
         (None, _) => "plant file".to_string(),
         (Some(_), true) => out.source,
         (Some(_), false) => {
-            format!(
-                "{}; overridden in plant file: {}",
-                out.source,
-                overridden.join(", ")
-            )
+            format!("{}; overridden in plant file: {}", out.source, overridden.join(", "))
         }
     };
     out.name = name;
@@ -215,13 +183,7 @@ fn cable(src: &Source, key: &Text, c: &RawCable) -> Result<CableType, PlantError
 }
 
 /// A propagation speed must not exceed the speed of light (velocity factor <= 1).
-fn check_speed(
-    src: &Source,
-    span: std::ops::Range<usize>,
-    field: &str,
-    v: f64,
-    what: &str,
-) -> Result<f64, PlantError> {
+fn check_speed(src: &Source, span: std::ops::Range<usize>, field: &str, v: f64, what: &str) -> Result<f64, PlantError> {
     let vf = v / C0;
     if vf <= 1.0 + 1e-9 {
         Ok(v.min(C0))
@@ -236,11 +198,7 @@ fn check_speed(
 }
 
 /// `loss` points or `loss_coefficients`; `Ok(None)` when neither is given.
-fn read_loss(
-    src: &Source,
-    c: &RawCable,
-    name: &str,
-) -> Result<Option<Option<LossModel>>, PlantError> {
+fn read_loss(src: &Source, c: &RawCable, name: &str) -> Result<Option<Option<LossModel>>, PlantError> {
     let path = |f: &str| format!("cable.{name}.{f}");
     match (&c.loss, &c.loss_coefficients) {
         (None, None) => Ok(None),
@@ -267,23 +225,14 @@ fn read_loss(
             let mut pts = Vec::new();
             for (i, p) in points.get_ref().iter().enumerate() {
                 let f = path(&format!("loss[{i}]"));
-                let at = quantity(
-                    src,
-                    &p.get_ref().at,
-                    UnitKind::Frequency,
-                    &format!("{f}.at"),
-                )?;
+                let at = quantity(src, &p.get_ref().at, UnitKind::Frequency, &format!("{f}.at"))?;
                 let a = &p.get_ref().attenuation;
                 let att = quantity(src, a, UnitKind::Attenuation, &format!("{f}.attenuation"))?;
                 pts.push((at, att));
             }
             let bad = |i: usize, what: &str, value: String| {
                 let p = &points.get_ref()[i];
-                let span = if what == "at" {
-                    p.get_ref().at.span()
-                } else {
-                    p.span()
-                };
+                let span = if what == "at" { p.get_ref().at.span() } else { p.span() };
                 src.error(
                     span,
                     path(&format!("loss[{i}].{what}")),
@@ -299,18 +248,13 @@ fn read_loss(
                     "`loss` has no points",
                     "give at least one { at = .., attenuation = .. } point, or remove `loss`",
                 )),
-                Err(FitError::BadFrequency(i)) => {
-                    Err(bad(i, "at", written(&points.get_ref()[i].get_ref().at)))
-                }
+                Err(FitError::BadFrequency(i)) => Err(bad(i, "at", written(&points.get_ref()[i].get_ref().at))),
                 Err(FitError::BadAttenuation(i)) => {
                     let p = &points.get_ref()[i].get_ref().attenuation;
                     Err(src.error(
                         p.span(),
                         path(&format!("loss[{i}].attenuation")),
-                        format!(
-                            "loss cannot be fitted: attenuation {} is negative",
-                            written(p)
-                        ),
+                        format!("loss cannot be fitted: attenuation {} is negative", written(p)),
                         "a passive cable attenuates: give zero or more dB per length",
                     ))
                 }

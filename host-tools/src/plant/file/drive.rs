@@ -14,42 +14,20 @@ use crate::plant::model::{Drive, End, Event, EventAction, Probe, ProbeKind, Span
 use crate::plant::units::{self, UnitKind};
 
 /// The one `[drive]` table, of kind `"source"` or `"rig"`.
-pub fn drive(
-    src: &Source,
-    raw: &Spanned<RawDrive>,
-    topo: &Topology,
-    base_dir: &Path,
-) -> Result<Drive, PlantError> {
+pub fn drive(src: &Source, raw: &Spanned<RawDrive>, topo: &Topology, base_dir: &Path) -> Result<Drive, PlantError> {
     let d = raw.get_ref();
     let node = topo.node(src, &d.node, "drive.node")?;
     let source_only: [(&str, bool, Option<std::ops::Range<usize>>); 2] = [
-        (
-            "resistance",
-            d.resistance.is_some(),
-            d.resistance.as_ref().map(|r| r.span()),
-        ),
-        (
-            "waveform",
-            d.waveform.is_some(),
-            d.waveform.as_ref().map(|r| r.span()),
-        ),
+        ("resistance", d.resistance.is_some(), d.resistance.as_ref().map(|r| r.span())),
+        ("waveform", d.waveform.is_some(), d.waveform.as_ref().map(|r| r.span())),
     ];
     let rig_only = [
         ("reference", d.reference.as_ref().map(|r| r.span())),
-        (
-            "adc_full_scale",
-            d.adc_full_scale.as_ref().map(|r| r.span()),
-        ),
-        (
-            "dac_full_scale",
-            d.dac_full_scale.as_ref().map(|r| r.span()),
-        ),
+        ("adc_full_scale", d.adc_full_scale.as_ref().map(|r| r.span())),
+        ("dac_full_scale", d.dac_full_scale.as_ref().map(|r| r.span())),
         ("latency", d.latency.as_ref().map(|r| r.span())),
         ("stimulus", d.stimulus.as_ref().map(|r| r.span())),
-        (
-            "device_resistance",
-            d.device_resistance.as_ref().map(|r| r.span()),
-        ),
+        ("device_resistance", d.device_resistance.as_ref().map(|r| r.span())),
     ];
     let misplaced = |field: &str, span: std::ops::Range<usize>, kind: &str, other: &str| {
         src.error(
@@ -75,13 +53,7 @@ pub fn drive(
                 return Err(misplaced(field, span, "source", "rig"));
             }
             let r = need(&d.resistance, "resistance", "\"50 ohm\"")?;
-            let rs = positive(
-                src,
-                &r,
-                UnitKind::Resistance,
-                "drive.resistance",
-                "resistance",
-            )?;
+            let rs = positive(src, &r, UnitKind::Resistance, "drive.resistance", "resistance")?;
             let Some(w) = &d.waveform else {
                 return Err(src.error(
                     raw.span(),
@@ -101,27 +73,9 @@ pub fn drive(
                 let r = need(v, field, ex)?;
                 positive(src, &r, kind, &format!("drive.{field}"), what)
             };
-            let r_ref = pos(
-                &d.reference,
-                "reference",
-                UnitKind::Resistance,
-                "\"120 ohm\"",
-                "reference",
-            )?;
-            let adc = pos(
-                &d.adc_full_scale,
-                "adc_full_scale",
-                UnitKind::Voltage,
-                "\"5 V\"",
-                "ADC full scale",
-            )?;
-            let dac = pos(
-                &d.dac_full_scale,
-                "dac_full_scale",
-                UnitKind::Voltage,
-                "\"10 V\"",
-                "DAC full scale",
-            )?;
+            let r_ref = pos(&d.reference, "reference", UnitKind::Resistance, "\"120 ohm\"", "reference")?;
+            let adc = pos(&d.adc_full_scale, "adc_full_scale", UnitKind::Voltage, "\"5 V\"", "ADC full scale")?;
+            let dac = pos(&d.dac_full_scale, "dac_full_scale", UnitKind::Voltage, "\"10 V\"", "DAC full scale")?;
             let dut = pos(
                 &d.device_resistance,
                 "device_resistance",
@@ -168,92 +122,74 @@ fn latency(src: &Source, raw: &Raw) -> Result<u32, PlantError> {
         Err(src.error(
             raw.span(),
             "drive.latency",
-            format!(
-                "latency must be a whole number of samples from 0 to 100000, got {}",
-                written(raw)
-            ),
+            format!("latency must be a whole number of samples from 0 to 100000, got {}", written(raw)),
             "give the rig's ADC-to-DAC latency in samples, e.g. latency = 2",
         ))
     }
 }
 
 /// `[[probe]]` entries: a node voltage, or the current into a segment at one end.
-pub fn probes(
-    src: &Source,
-    raw: &[Spanned<RawProbe>],
-    topo: &Topology,
-) -> Result<Vec<Probe>, PlantError> {
+pub fn probes(src: &Source, raw: &[Spanned<RawProbe>], topo: &Topology) -> Result<Vec<Probe>, PlantError> {
     let mut out: Vec<Probe> = Vec::with_capacity(raw.len());
     let mut lines: Vec<usize> = Vec::new();
     for (i, p) in raw.iter().enumerate() {
         let r = p.get_ref();
-        let label = r
-            .name
-            .as_ref()
-            .map_or_else(|| format!("{}", i + 1), |n| n.get_ref().clone());
+        let label = r.name.as_ref().map_or_else(|| format!("{}", i + 1), |n| n.get_ref().clone());
         let path = |f: &str| format!("probe[{label}].{f}");
-        let (kind, default_name) =
-            match (&r.node, &r.segment) {
-                (Some(node), None) => {
-                    if let Some(end) = &r.end {
+        let (kind, default_name) = match (&r.node, &r.segment) {
+            (Some(node), None) => {
+                if let Some(end) = &r.end {
+                    return Err(src.error(
+                        end.span(),
+                        path("end"),
+                        "`end` is only for a current probe on a segment",
+                        "remove `end`, or probe `segment = ..` instead of `node = ..`",
+                    ));
+                }
+                let id = topo.node(src, node, &path("node"))?;
+                (ProbeKind::Voltage(id), node.get_ref().clone())
+            }
+            (None, Some(seg)) => {
+                let id = topo.segment(src, seg, &path("segment"))?;
+                let Some(end) = &r.end else {
+                    return Err(src.error(
+                        seg.span(),
+                        path("end"),
+                        "a current probe needs `end = \"from\"` or `end = \"to\"`",
+                        "say at which end of the segment the current is measured",
+                    ));
+                };
+                let e = match end.get_ref().as_str() {
+                    "from" => End::From,
+                    "to" => End::To,
+                    other => {
                         return Err(src.error(
                             end.span(),
                             path("end"),
-                            "`end` is only for a current probe on a segment",
-                            "remove `end`, or probe `segment = ..` instead of `node = ..`",
-                        ));
+                            format!("unknown end \"{other}\""),
+                            "use end = \"from\" or end = \"to\"",
+                        ))
                     }
-                    let id = topo.node(src, node, &path("node"))?;
-                    (ProbeKind::Voltage(id), node.get_ref().clone())
-                }
-                (None, Some(seg)) => {
-                    let id = topo.segment(src, seg, &path("segment"))?;
-                    let Some(end) = &r.end else {
-                        return Err(src.error(
-                            seg.span(),
-                            path("end"),
-                            "a current probe needs `end = \"from\"` or `end = \"to\"`",
-                            "say at which end of the segment the current is measured",
-                        ));
-                    };
-                    let e = match end.get_ref().as_str() {
-                        "from" => End::From,
-                        "to" => End::To,
-                        other => {
-                            return Err(src.error(
-                                end.span(),
-                                path("end"),
-                                format!("unknown end \"{other}\""),
-                                "use end = \"from\" or end = \"to\"",
-                            ))
-                        }
-                    };
-                    (
-                        ProbeKind::Current(id, e),
-                        format!("{} {} current", seg.get_ref(), end.get_ref()),
-                    )
-                }
-                _ => return Err(src.error(
+                };
+                (ProbeKind::Current(id, e), format!("{} {} current", seg.get_ref(), end.get_ref()))
+            }
+            _ => {
+                return Err(src.error(
                     p.span(),
                     format!("probe[{label}]"),
                     "a probe needs exactly one of `node` or `segment`",
                     "write node = \"plc\" for a voltage, or segment = \"..\" with end = \"from\"",
-                )),
-            };
-        let name = r
-            .name
-            .as_ref()
-            .map_or(default_name, |n| n.get_ref().clone());
+                ))
+            }
+        };
+        let name = r.name.as_ref().map_or(default_name, |n| n.get_ref().clone());
         let (line, _) = src.line_column(p.span().start);
         if let Some(j) = out.iter().position(|q| q.name == name) {
             let span = r.name.as_ref().map_or(p.span(), |n| n.span());
             return Err(src.error(
                 span,
                 path("name"),
-                format!(
-                    "duplicate probe name \"{name}\" (first used on line {})",
-                    lines[j]
-                ),
+                format!("duplicate probe name \"{name}\" (first used on line {})", lines[j]),
                 "give each probe a unique `name`",
             ));
         }
@@ -264,11 +200,7 @@ pub fn probes(
 }
 
 /// `[verify]` tolerances over the defaults; `arrival` in samples or as a time.
-pub fn tolerances(
-    src: &Source,
-    raw: Option<&Spanned<RawVerify>>,
-    sample_rate: f64,
-) -> Result<Tolerances, PlantError> {
+pub fn tolerances(src: &Source, raw: Option<&Spanned<RawVerify>>, sample_rate: f64) -> Result<Tolerances, PlantError> {
     let mut t = Tolerances::default();
     let Some(raw) = raw else { return Ok(t) };
     let v = raw.get_ref();
@@ -284,10 +216,7 @@ pub fn tolerances(
             return Err(src.error(
                 value.span(),
                 field,
-                format!(
-                    "{name} {} is more than 100 % of the drive step",
-                    written(value)
-                ),
+                format!("{name} {} is more than 100 % of the drive step", written(value)),
                 "tolerances are fractions of the step: write \"5 %\" or 0.05",
             ));
         }
@@ -302,22 +231,12 @@ pub fn tolerances(
 /// `"1 sample"`, `"2 samples"` or a time such as `"5 ns"` (converted at the sample rate).
 fn arrival(src: &Source, raw: &Raw, sample_rate: f64) -> Result<f64, PlantError> {
     let field = "verify.arrival";
-    let bad = |message: String| {
-        src.error(
-            raw.span(),
-            field,
-            message,
-            "write e.g. arrival = \"1 sample\" or \"5 ns\"",
-        )
-    };
+    let bad = |message: String| src.error(raw.span(), field, message, "write e.g. arrival = \"1 sample\" or \"5 ns\"");
     let Value::String(s) = raw.get_ref() else {
         return Err(bad(format!("arrival needs a unit, got {}", written(raw))));
     };
     let t = s.trim();
-    let samples = if let Some(n) = t
-        .strip_suffix("samples")
-        .or_else(|| t.strip_suffix("sample"))
-    {
+    let samples = if let Some(n) = t.strip_suffix("samples").or_else(|| t.strip_suffix("sample")) {
         units::parse_quantity(n, UnitKind::Dimensionless).map_err(|e| bad(e.to_string()))?
     } else {
         units::parse_quantity(t, UnitKind::Time).map_err(|e| bad(e.to_string()))? * sample_rate
@@ -325,19 +244,12 @@ fn arrival(src: &Source, raw: &Raw, sample_rate: f64) -> Result<f64, PlantError>
     if samples >= 0.0 {
         Ok(samples)
     } else {
-        Err(bad(format!(
-            "arrival tolerance must not be negative, got {}",
-            written(raw)
-        )))
+        Err(bad(format!("arrival tolerance must not be negative, got {}", written(raw))))
     }
 }
 
 /// `[[event]]` entries, sorted by time (stable, so equal times keep file order).
-pub fn events(
-    src: &Source,
-    raw: &[Spanned<RawEvent>],
-    topo: &Topology,
-) -> Result<Vec<Event>, PlantError> {
+pub fn events(src: &Source, raw: &[Spanned<RawEvent>], topo: &Topology) -> Result<Vec<Event>, PlantError> {
     let mut out = Vec::with_capacity(raw.len());
     for (i, e) in raw.iter().enumerate() {
         let r = e.get_ref();
@@ -356,11 +268,7 @@ pub fn events(
                     return Err(src.error(
                         b.span(),
                         path("break_at"),
-                        format!(
-                            "break at {} is not inside segment \"{}\" ({len} m long)",
-                            written(b),
-                            seg.get_ref()
-                        ),
+                        format!("break at {} is not inside segment \"{}\" ({len} m long)", written(b), seg.get_ref()),
                         "give a distance from the segment's `from` end, between 0 and its length",
                     ));
                 }
@@ -376,11 +284,7 @@ pub fn events(
             }
         };
         let (line, column) = src.line_column(e.span().start);
-        out.push(Event {
-            at,
-            action,
-            span: Span { line, column },
-        });
+        out.push(Event { at, action, span: Span { line, column } });
     }
     out.sort_by(|a, b| a.at.total_cmp(&b.at));
     Ok(out)

@@ -79,9 +79,7 @@ fn context_path(text: &str, offset: usize) -> String {
     let key = if line.starts_with('[') || line.starts_with('#') {
         None
     } else {
-        line.split_once('=')
-            .map(|(k, _)| k.trim())
-            .filter(|k| !k.is_empty())
+        line.split_once('=').map(|(k, _)| k.trim()).filter(|k| !k.is_empty())
     };
     match (header.is_empty(), key) {
         (_, Some(k)) if header.is_empty() => k.to_string(),
@@ -112,10 +110,7 @@ mod tests {
 
     #[test]
     fn line_and_column_are_one_based_and_count_characters() {
-        let src = Source {
-            text: "ab\ncµd\nx",
-            file: "f",
-        };
+        let src = Source { text: "ab\ncµd\nx", file: "f" };
         assert_eq!(src.line_column(0), (1, 1));
         assert_eq!(src.line_column(3), (2, 1));
         // 'µ' is two bytes; 'd' starts at byte 6 and is the third character of line 2.

@@ -59,10 +59,7 @@ pub fn fit_loss(points: &[(f64, f64)]) -> Result<LossModel, FitError> {
         // All points at one frequency: only the conductor term is determined.
         (b1 / s11, 0.0)
     };
-    Ok(LossModel {
-        k_c: c / f_max.sqrt(),
-        k_d: d / f_max,
-    })
+    Ok(LossModel { k_c: c / f_max.sqrt(), k_d: d / f_max })
 }
 
 /// The one-term fit (conductor only or dielectric only) with the smaller squared residual.
@@ -99,14 +96,8 @@ mod tests {
     #[test]
     fn exact_two_term_data_is_recovered() {
         // Points generated from a known model [closed form]: the fit must return it.
-        let truth = LossModel {
-            k_c: 2.0e-6,
-            k_d: 3.0e-11,
-        };
-        let pts: Vec<(f64, f64)> = [1e6, 1e7, 1e8, 5e8]
-            .iter()
-            .map(|&f| (f, alpha(&truth, f)))
-            .collect();
+        let truth = LossModel { k_c: 2.0e-6, k_d: 3.0e-11 };
+        let pts: Vec<(f64, f64)> = [1e6, 1e7, 1e8, 5e8].iter().map(|&f| (f, alpha(&truth, f))).collect();
         let fit = fit_loss(&pts).unwrap();
         assert!((fit.k_c / truth.k_c - 1.0).abs() < 1e-9, "{fit:?}");
         assert!((fit.k_d / truth.k_d - 1.0).abs() < 1e-9, "{fit:?}");
@@ -130,10 +121,7 @@ mod tests {
     #[test]
     fn bad_points_are_rejected() {
         assert_eq!(fit_loss(&[]), Err(FitError::Empty));
-        assert_eq!(
-            fit_loss(&[(1e6, 0.1), (0.0, 0.1)]),
-            Err(FitError::BadFrequency(1))
-        );
+        assert_eq!(fit_loss(&[(1e6, 0.1), (0.0, 0.1)]), Err(FitError::BadFrequency(1)));
         assert_eq!(fit_loss(&[(1e6, -0.1)]), Err(FitError::BadAttenuation(0)));
         assert_eq!(fit_loss(&[(f64::NAN, 0.1)]), Err(FitError::BadFrequency(0)));
     }

@@ -103,27 +103,13 @@ pub fn load_plant(path: &Path) -> Result<Plant, PlantError> {
 /// Read and check plant-file `text`; `file_name` names it in errors, `base_dir` is where
 /// relative paths (samples files) are resolved.
 pub fn parse_plant(text: &str, file_name: &str, base_dir: &Path) -> Result<Plant, PlantError> {
-    let src = Source {
-        text,
-        file: file_name,
-    };
+    let src = Source { text, file: file_name };
     let raw: RawFile = toml::from_str(text).map_err(|e| src.toml_error(&e))?;
 
     let header = raw.plant.get_ref();
-    let sample_rate = values::positive(
-        &src,
-        &header.sample_rate,
-        UnitKind::Frequency,
-        "plant.sample_rate",
-        "sample rate",
-    )?;
-    let duration = values::positive(
-        &src,
-        &header.duration,
-        UnitKind::Time,
-        "plant.duration",
-        "duration",
-    )?;
+    let sample_rate =
+        values::positive(&src, &header.sample_rate, UnitKind::Frequency, "plant.sample_rate", "sample rate")?;
+    let duration = values::positive(&src, &header.duration, UnitKind::Time, "plant.duration", "duration")?;
     if duration * sample_rate > MAX_RUN_SAMPLES {
         return Err(src.error(
             header.duration.span(),
@@ -151,8 +137,7 @@ pub fn parse_plant(text: &str, file_name: &str, base_dir: &Path) -> Result<Plant
     };
     let drive = drive::drive(&src, raw_drive, &topo, base_dir)?;
     let drive_node = match &drive {
-        crate::plant::model::Drive::Source { node, .. }
-        | crate::plant::model::Drive::Rig { node, .. } => *node,
+        crate::plant::model::Drive::Source { node, .. } | crate::plant::model::Drive::Rig { node, .. } => *node,
     };
     topo.check_reachable(&src, drive_node)?;
     let probes = drive::probes(&src, &raw.probe, &topo)?;

@@ -74,11 +74,7 @@ impl Topology {
             };
             t.node_index.insert(name.clone(), t.nodes.len());
             t.node_spans.push(key.span());
-            t.nodes.push(Node {
-                name: name.clone(),
-                load,
-                span: span_of(src, key.span()),
-            });
+            t.nodes.push(Node { name: name.clone(), load, span: span_of(src, key.span()) });
         }
         for seg in raw_segments {
             t.read_segment(src, seg, cables)?;
@@ -110,12 +106,7 @@ impl Topology {
         Ok(t)
     }
 
-    fn read_segment(
-        &mut self,
-        src: &Source,
-        raw: &Spanned<RawSegment>,
-        cables: &mut Cables,
-    ) -> Result<(), PlantError> {
+    fn read_segment(&mut self, src: &Source, raw: &Spanned<RawSegment>, cables: &mut Cables) -> Result<(), PlantError> {
         let s = raw.get_ref();
         let name = match &s.name {
             Some(n) => n.get_ref().clone(),
@@ -132,10 +123,7 @@ impl Topology {
             return Err(src.error(
                 span,
                 path("name"),
-                format!(
-                    "duplicate segment name \"{name}\" (first used on line {})",
-                    first.line
-                ),
+                format!("duplicate segment name \"{name}\" (first used on line {})", first.line),
                 "give each segment a unique `name` (segments between the same nodes need one)",
             ));
         }
@@ -145,24 +133,14 @@ impl Topology {
             return Err(src.error(
                 s.to.span(),
                 path("to"),
-                format!(
-                    "segment \"{name}\" starts and ends at node \"{}\"",
-                    s.from.get_ref()
-                ),
+                format!("segment \"{name}\" starts and ends at node \"{}\"", s.from.get_ref()),
                 "a segment joins two different nodes",
             ));
         }
         let cable = cables.resolve(src, &s.cable, &path("cable"))?;
         let length = positive(src, &s.length, UnitKind::Length, &path("length"), "length")?;
         self.segment_index.insert(name.clone(), self.segments.len());
-        self.segments.push(Segment {
-            name,
-            from,
-            to,
-            cable,
-            length,
-            span: span_of(src, raw.span()),
-        });
+        self.segments.push(Segment { name, from, to, cable, length, span: span_of(src, raw.span()) });
         Ok(())
     }
 
@@ -173,31 +151,24 @@ impl Topology {
                 name.span(),
                 field,
                 format!("unknown node \"{}\"", name.get_ref()),
-                format!(
-                    "declare [node.{}] or use one of: {}",
-                    name.get_ref(),
-                    some_names(self.node_index.keys())
-                ),
+                format!("declare [node.{}] or use one of: {}", name.get_ref(), some_names(self.node_index.keys())),
             )
         })
     }
 
     /// The segment a field names, or an "unknown segment" error at that field.
     pub fn segment(&self, src: &Source, name: &Text, field: &str) -> Result<SegmentId, PlantError> {
-        self.segment_index
-            .get(name.get_ref())
-            .copied()
-            .ok_or_else(|| {
-                src.error(
-                    name.span(),
-                    field,
-                    format!("unknown segment \"{}\"", name.get_ref()),
-                    format!(
-                        "segments are named by `name` or \"<from>-<to>\"; known: {}",
-                        some_names(self.segment_index.keys())
-                    ),
-                )
-            })
+        self.segment_index.get(name.get_ref()).copied().ok_or_else(|| {
+            src.error(
+                name.span(),
+                field,
+                format!("unknown segment \"{}\"", name.get_ref()),
+                format!(
+                    "segments are named by `name` or \"<from>-<to>\"; known: {}",
+                    some_names(self.segment_index.keys())
+                ),
+            )
+        })
     }
 
     /// Segments joined to each node: (segment, node at its other end).

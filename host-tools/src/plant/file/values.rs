@@ -45,23 +45,13 @@ pub fn quantity(src: &Source, raw: &Raw, kind: UnitKind, field: &str) -> Result<
         }
     };
     parsed.map_err(|e| {
-        let hint = format!(
-            "write {} with its unit, e.g. {}",
-            kind.short_name(),
-            kind.example()
-        );
+        let hint = format!("write {} with its unit, e.g. {}", kind.short_name(), kind.example());
         src.error(raw.span(), field, e.to_string(), hint)
     })
 }
 
 /// A quantity that must be greater than zero.
-pub fn positive(
-    src: &Source,
-    raw: &Raw,
-    kind: UnitKind,
-    field: &str,
-    what: &str,
-) -> Result<f64, PlantError> {
+pub fn positive(src: &Source, raw: &Raw, kind: UnitKind, field: &str, what: &str) -> Result<f64, PlantError> {
     let v = quantity(src, raw, kind, field)?;
     if v > 0.0 {
         Ok(v)
@@ -70,23 +60,13 @@ pub fn positive(
             raw.span(),
             field,
             format!("{what} must be positive, got {}", written(raw)),
-            format!(
-                "give {} greater than zero, e.g. {}",
-                kind.short_name(),
-                kind.example()
-            ),
+            format!("give {} greater than zero, e.g. {}", kind.short_name(), kind.example()),
         ))
     }
 }
 
 /// A quantity that must be zero or more.
-pub fn non_negative(
-    src: &Source,
-    raw: &Raw,
-    kind: UnitKind,
-    field: &str,
-    what: &str,
-) -> Result<f64, PlantError> {
+pub fn non_negative(src: &Source, raw: &Raw, kind: UnitKind, field: &str, what: &str) -> Result<f64, PlantError> {
     let v = quantity(src, raw, kind, field)?;
     if v >= 0.0 {
         Ok(v)
@@ -95,11 +75,7 @@ pub fn non_negative(
             raw.span(),
             field,
             format!("{what} must not be negative, got {}", written(raw)),
-            format!(
-                "give {} of zero or more, e.g. {}",
-                kind.short_name(),
-                kind.example()
-            ),
+            format!("give {} of zero or more, e.g. {}", kind.short_name(), kind.example()),
         ))
     }
 }
@@ -131,8 +107,7 @@ pub fn load(src: &Source, raw: &Raw, field: &str) -> Result<Load, PlantError> {
                 let Value::String(s) = v else {
                     return Err(bad(format!("load `{key}` must be a string like \"1 nF\"")));
                 };
-                let x = units::parse_quantity(s, kind)
-                    .map_err(|e| bad(format!("load `{key}`: {e}")))?;
+                let x = units::parse_quantity(s, kind).map_err(|e| bad(format!("load `{key}`: {e}")))?;
                 if x > 0.0 {
                     Ok(Some(x))
                 } else {
@@ -146,9 +121,7 @@ pub fn load(src: &Source, raw: &Raw, field: &str) -> Result<Load, PlantError> {
                 Some(Value::String(w)) if w == "series" || w == "parallel" => Some(w.as_str()),
                 Some(w) => {
                     let w = show(w);
-                    return Err(bad(format!(
-                        "load `wiring` must be \"series\" or \"parallel\", got {w}"
-                    )));
+                    return Err(bad(format!("load `wiring` must be \"series\" or \"parallel\", got {w}")));
                 }
             };
             match (r, c, wiring) {
@@ -156,19 +129,14 @@ pub fn load(src: &Source, raw: &Raw, field: &str) -> Result<Load, PlantError> {
                 (None, Some(c), None) => Ok(Load::Capacitor(c)),
                 (Some(r), Some(c), Some("series")) => Ok(Load::SeriesRc { r, c }),
                 (Some(r), Some(c), Some(_)) => Ok(Load::ParallelRc { r, c }),
-                (Some(_), Some(_), None) => Err(bad(
-                    "a resistor and a capacitor need `wiring = \"series\"` or \"parallel\"".into(),
-                )),
-                (_, _, Some(_)) => Err(bad(
-                    "`wiring` is only for a resistor together with a capacitor".into(),
-                )),
+                (Some(_), Some(_), None) => {
+                    Err(bad("a resistor and a capacitor need `wiring = \"series\"` or \"parallel\"".into()))
+                }
+                (_, _, Some(_)) => Err(bad("`wiring` is only for a resistor together with a capacitor".into())),
                 (None, None, None) => Err(bad("empty load table".into())),
             }
         }
-        _ => Err(bad(format!(
-            "a load is a string or a table, got {}",
-            written(raw)
-        ))),
+        _ => Err(bad(format!("a load is a string or a table, got {}", written(raw)))),
     }
 }
 
@@ -191,16 +159,19 @@ pub fn waveform(
     let w = raw.get_ref();
     let sub = |name: &str| format!("{field}.{name}");
     let time = |r: &Option<Raw>, name: &str| -> Result<f64, PlantError> {
-        r.as_ref().map_or(Ok(0.0), |r| {
-            non_negative(src, r, UnitKind::Time, &sub(name), name)
-        })
+        r.as_ref().map_or(Ok(0.0), |r| non_negative(src, r, UnitKind::Time, &sub(name), name))
     };
     if let Some(level) = &w.pwm {
         return pwm(src, raw, level, field, base_dir);
     }
     for (r, name) in [(&w.period, "period"), (&w.duty, "duty"), (&w.dead_time, "dead_time")] {
         if let Some(r) = r {
-            return Err(src.error(r.span(), sub(name), format!("`{name}` belongs to a pwm waveform"), "remove it, or write `pwm = ..`"));
+            return Err(src.error(
+                r.span(),
+                sub(name),
+                format!("`{name}` belongs to a pwm waveform"),
+                "remove it, or write `pwm = ..`",
+            ));
         }
     }
     // (amplitude, is_pulse) for the edge forms; the samples form returns from here.
@@ -234,11 +205,7 @@ pub fn waveform(
     let name = if is_pulse { "pulse" } else { "step" };
     let amplitude = quantity(src, level, UnitKind::Voltage, &sub(name))?;
     match (is_pulse, &w.width) {
-        (false, None) => Ok(Waveform::Step {
-            amplitude,
-            delay,
-            rise,
-        }),
+        (false, None) => Ok(Waveform::Step { amplitude, delay, rise }),
         (false, Some(width)) => Err(src.error(
             width.span(),
             sub("width"),
@@ -253,29 +220,42 @@ pub fn waveform(
         )),
         (true, Some(width)) => {
             let width = positive(src, width, UnitKind::Time, &sub("width"), "pulse width")?;
-            Ok(Waveform::Pulse {
-                amplitude,
-                delay,
-                width,
-                rise,
-            })
+            Ok(Waveform::Pulse { amplitude, delay, width, rise })
         }
     }
 }
 
 /// `{ pwm = "24 V", period = "10 us", duty = "30 %", dead_time = "200 ns", rise = "50 ns",
 /// delay = "0 s" }`: a half-bridge output between ±amplitude with dead time.
-fn pwm(src: &Source, raw: &toml::Spanned<RawWaveform>, level: &Raw, field: &str, _base_dir: &Path) -> Result<Waveform, PlantError> {
+fn pwm(
+    src: &Source,
+    raw: &toml::Spanned<RawWaveform>,
+    level: &Raw,
+    field: &str,
+    _base_dir: &Path,
+) -> Result<Waveform, PlantError> {
     let w = raw.get_ref();
     let sub = |name: &str| format!("{field}.{name}");
     if w.step.is_some() || w.pulse.is_some() || w.samples.is_some() || w.width.is_some() {
-        return Err(src.error(raw.span(), field, "a pwm waveform takes no `step`, `pulse`, `samples` or `width`", "keep only pwm, period, duty, dead_time, rise, delay"));
+        return Err(src.error(
+            raw.span(),
+            field,
+            "a pwm waveform takes no `step`, `pulse`, `samples` or `width`",
+            "keep only pwm, period, duty, dead_time, rise, delay",
+        ));
     }
     let need = |r: &Option<Raw>, name: &str, hint: &str| -> Result<Raw, PlantError> {
-        r.clone().ok_or_else(|| src.error(raw.span(), sub(name), format!("a pwm waveform needs `{name}`"), hint.to_string()))
+        r.clone()
+            .ok_or_else(|| src.error(raw.span(), sub(name), format!("a pwm waveform needs `{name}`"), hint.to_string()))
     };
     let amplitude = quantity(src, level, UnitKind::Voltage, &sub("pwm"))?;
-    let period = positive(src, &need(&w.period, "period", "add e.g. period = \"10 us\"")?, UnitKind::Time, &sub("period"), "period")?;
+    let period = positive(
+        src,
+        &need(&w.period, "period", "add e.g. period = \"10 us\"")?,
+        UnitKind::Time,
+        &sub("period"),
+        "period",
+    )?;
     let duty_raw = need(&w.duty, "duty", "add e.g. duty = \"30 %\"")?;
     let duty = quantity(src, &duty_raw, UnitKind::Fraction, &sub("duty"))?;
     let time = |r: &Option<Raw>, name: &str| -> Result<f64, PlantError> {
@@ -285,11 +265,21 @@ fn pwm(src: &Source, raw: &toml::Spanned<RawWaveform>, level: &Raw, field: &str,
     let rise = time(&w.rise, "rise")?;
     let delay = time(&w.delay, "delay")?;
     if !(duty > 0.0 && duty < 1.0) {
-        return Err(src.error(duty_raw.span(), sub("duty"), format!("duty must lie between 0 and 100 %, got {}", duty * 100.0), "write e.g. duty = \"30 %\""));
+        return Err(src.error(
+            duty_raw.span(),
+            sub("duty"),
+            format!("duty must lie between 0 and 100 %, got {}", duty * 100.0),
+            "write e.g. duty = \"30 %\"",
+        ));
     }
     let on = duty * period;
     if dead_time >= on.min(period - on) {
-        return Err(src.error(raw.span(), sub("dead_time"), "dead time is longer than the high or the low phase", "shorten dead_time or move duty towards 50 %"));
+        return Err(src.error(
+            raw.span(),
+            sub("dead_time"),
+            "dead time is longer than the high or the low phase",
+            "shorten dead_time or move duty towards 50 %",
+        ));
     }
     Ok(Waveform::Pwm { amplitude, period, duty, dead_time, rise, delay })
 }

@@ -41,16 +41,9 @@ impl UnitKind {
     /// The unit and an example, for messages: `a length in m, e.g. "23 m"`.
     pub fn describe(self) -> String {
         match self {
-            UnitKind::Fraction => {
-                "a percentage, e.g. \"5 %\" (or a bare fraction such as 0.05)".into()
-            }
+            UnitKind::Fraction => "a percentage, e.g. \"5 %\" (or a bare fraction such as 0.05)".into(),
             UnitKind::Dimensionless => "a plain number without a unit, e.g. 0.66".into(),
-            _ => format!(
-                "{} in {}, e.g. {}",
-                self.short_name(),
-                self.unit(),
-                self.example()
-            ),
+            _ => format!("{} in {}, e.g. {}", self.short_name(), self.unit(), self.example()),
         }
     }
 

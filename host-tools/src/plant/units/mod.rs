@@ -36,11 +36,7 @@ pub enum UnitError {
     /// A unit where the field takes a plain number.
     UnexpectedUnit { unit: String },
     /// A known unit of another kind, for example `m` where ohm is expected.
-    WrongUnit {
-        unit: String,
-        found: UnitKind,
-        expected: UnitKind,
-    },
+    WrongUnit { unit: String, found: UnitKind, expected: UnitKind },
     /// A unit this reader does not know.
     UnknownUnit { unit: String, expected: UnitKind },
 }
@@ -52,11 +48,7 @@ impl fmt::Display for UnitError {
                 write!(f, "empty value, expected {}", expected.describe())
             }
             UnitError::BadNumber { text, expected } => {
-                write!(
-                    f,
-                    "\"{text}\" does not start with a number, expected {}",
-                    expected.describe()
-                )
+                write!(f, "\"{text}\" does not start with a number, expected {}", expected.describe())
             }
             UnitError::NotFinite { text } => write!(f, "\"{text}\" is not a finite number"),
             UnitError::MissingUnit { value, expected } => {
@@ -65,16 +57,9 @@ impl fmt::Display for UnitError {
             UnitError::UnexpectedUnit { unit } => {
                 write!(f, "unit `{unit}` given, but this field is a plain number")
             }
-            UnitError::WrongUnit {
-                unit,
-                found,
-                expected,
-            } => write!(
-                f,
-                "unit `{unit}` is {}, but this field expects {}",
-                found.short_name(),
-                expected.describe()
-            ),
+            UnitError::WrongUnit { unit, found, expected } => {
+                write!(f, "unit `{unit}` is {}, but this field expects {}", found.short_name(), expected.describe())
+            }
             UnitError::UnknownUnit { unit, expected } => {
                 write!(f, "unknown unit `{unit}`, expected {}", expected.describe())
             }
@@ -98,18 +83,8 @@ const PREFIXABLE: &[(&str, UnitKind)] = &[
 ];
 
 /// SI prefixes accepted in front of a base unit (both micro signs and `u`), as powers of ten.
-const PREFIXES: &[(&str, i32)] = &[
-    ("f", -15),
-    ("p", -12),
-    ("n", -9),
-    ("u", -6),
-    ("µ", -6),
-    ("μ", -6),
-    ("m", -3),
-    ("k", 3),
-    ("M", 6),
-    ("G", 9),
-];
+const PREFIXES: &[(&str, i32)] =
+    &[("f", -15), ("p", -12), ("n", -9), ("u", -6), ("µ", -6), ("μ", -6), ("m", -3), ("k", 3), ("M", 6), ("G", 9)];
 
 /// A unit's factor to SI as 10^pow10 · extra. Keeping the power of ten apart lets the
 /// decimal parser read `"0.2 us"` as `0.2e-6`, the double nearest the written value,
@@ -121,59 +96,32 @@ struct Scale {
 }
 
 impl Scale {
-    const ONE: Scale = Scale {
-        pow10: 0,
-        extra: 1.0,
-    };
+    const ONE: Scale = Scale { pow10: 0, extra: 1.0 };
 
     fn ten_to(pow10: i32) -> Scale {
         Scale { pow10, extra: 1.0 }
     }
 
     fn times(self, other: Scale) -> Scale {
-        Scale {
-            pow10: self.pow10 + other.pow10,
-            extra: self.extra * other.extra,
-        }
+        Scale { pow10: self.pow10 + other.pow10, extra: self.extra * other.extra }
     }
 
     fn per(self, other: Scale) -> Scale {
-        Scale {
-            pow10: self.pow10 - other.pow10,
-            extra: self.extra / other.extra,
-        }
+        Scale { pow10: self.pow10 - other.pow10, extra: self.extra / other.extra }
     }
 
     fn apply(self, value: f64) -> f64 {
         // Powers of ten up to 1e22 are exact doubles, so each step below rounds once.
         let p = 10f64.powi(self.pow10.abs());
-        let scaled = if self.pow10 >= 0 {
-            value * p
-        } else {
-            value / p
-        };
+        let scaled = if self.pow10 >= 0 { value * p } else { value / p };
         scaled * self.extra
     }
 }
 
 /// Fixed units without prefixes: (symbol, kind, factor to SI).
 const FIXED: &[(&str, UnitKind, Scale)] = &[
-    (
-        "ft",
-        UnitKind::Length,
-        Scale {
-            pow10: 0,
-            extra: FOOT,
-        },
-    ),
-    (
-        "%",
-        UnitKind::Fraction,
-        Scale {
-            pow10: -2,
-            extra: 1.0,
-        },
-    ),
+    ("ft", UnitKind::Length, Scale { pow10: 0, extra: FOOT }),
+    ("%", UnitKind::Fraction, Scale { pow10: -2, extra: 1.0 }),
     ("Np/(m*sqrt(Hz))", UnitKind::ConductorLoss, Scale::ONE),
     ("Np/(m·sqrt(Hz))", UnitKind::ConductorLoss, Scale::ONE),
     ("Np/m/sqrt(Hz)", UnitKind::ConductorLoss, Scale::ONE),
@@ -192,19 +140,10 @@ pub fn parse_quantity(text: &str, expected: UnitKind) -> Result<f64, UnitError> 
     }
     let split = number_prefix_len(text);
     if split == 0 {
-        return Err(UnitError::BadNumber {
-            text: text.to_string(),
-            expected,
-        });
+        return Err(UnitError::BadNumber { text: text.to_string(), expected });
     }
-    let value: f64 = text[..split].parse().map_err(|_| UnitError::BadNumber {
-        text: text.to_string(),
-        expected,
-    })?;
-    let unit: String = text[split..]
-        .chars()
-        .filter(|c| !c.is_whitespace())
-        .collect();
+    let value: f64 = text[..split].parse().map_err(|_| UnitError::BadNumber { text: text.to_string(), expected })?;
+    let unit: String = text[split..].chars().filter(|c| !c.is_whitespace()).collect();
     if unit.is_empty() {
         return from_bare(value, expected);
     }
@@ -216,11 +155,7 @@ pub fn parse_quantity(text: &str, expected: UnitKind) -> Result<f64, UnitError> 
         None => return Err(UnitError::UnknownUnit { unit, expected }),
     };
     if found != expected {
-        return Err(UnitError::WrongUnit {
-            unit,
-            found,
-            expected,
-        });
+        return Err(UnitError::WrongUnit { unit, found, expected });
     }
     let number = &text[..split];
     let si = match shifted_decimal(number, scale.pow10) {
@@ -255,9 +190,7 @@ fn finite(value: f64, text: &str) -> Result<f64, UnitError> {
     if value.is_finite() {
         Ok(value)
     } else {
-        Err(UnitError::NotFinite {
-            text: text.to_string(),
-        })
+        Err(UnitError::NotFinite { text: text.to_string() })
     }
 }
 
@@ -317,10 +250,7 @@ fn read_unit(unit: &str) -> Option<(UnitKind, Scale)> {
 /// `dB` or `Np` → factor to nepers (1 Np = 20/ln 10 dB).
 fn read_decibel_or_neper(num: &str) -> Option<Scale> {
     match num {
-        "dB" => Some(Scale {
-            pow10: 0,
-            extra: 1.0 / DB_PER_NEPER,
-        }),
+        "dB" => Some(Scale { pow10: 0, extra: 1.0 / DB_PER_NEPER }),
         "Np" => Some(Scale::ONE),
         _ => None,
     }
@@ -337,10 +267,7 @@ fn read_length_denominator(den: &str) -> Option<Scale> {
         _ => return None,
     };
     let metres = match &den[digits..] {
-        "ft" => Scale {
-            pow10: 0,
-            extra: FOOT,
-        },
+        "ft" => Scale { pow10: 0, extra: FOOT },
         rest => match read_prefixed(rest)? {
             (UnitKind::Length, m) => m,
             _ => return None,
@@ -356,10 +283,7 @@ fn read_prefixed(unit: &str) -> Option<(UnitKind, Scale)> {
     }
     PREFIXABLE.iter().find_map(|&(sym, kind)| {
         let prefix = unit.strip_suffix(sym)?;
-        PREFIXES
-            .iter()
-            .find(|(p, _)| *p == prefix)
-            .map(|&(_, e)| (kind, Scale::ten_to(e)))
+        PREFIXES.iter().find(|(p, _)| *p == prefix).map(|&(_, e)| (kind, Scale::ten_to(e)))
     })
 }
 
@@ -405,34 +329,16 @@ mod tests {
         assert_eq!(parse_quantity("100 ns", UnitKind::Time).unwrap(), 100e-9);
         assert_eq!(parse_quantity("20 us", UnitKind::Time).unwrap(), 20e-6);
         assert_eq!(parse_quantity("0.2 us", UnitKind::Time).unwrap(), 0.2e-6);
-        assert_eq!(
-            parse_quantity("84 mohm/m", UnitKind::ResistancePerLength).unwrap(),
-            0.084
-        );
-        assert_eq!(
-            parse_quantity("70 ohm/km", UnitKind::ResistancePerLength).unwrap(),
-            0.07
-        );
+        assert_eq!(parse_quantity("84 mohm/m", UnitKind::ResistancePerLength).unwrap(), 0.084);
+        assert_eq!(parse_quantity("70 ohm/km", UnitKind::ResistancePerLength).unwrap(), 0.07);
     }
 
     #[test]
     fn per_length_units() {
-        assert!(close(
-            parse_quantity("5 ns/m", UnitKind::DelayPerLength).unwrap(),
-            5e-9
-        ));
-        assert!(close(
-            parse_quantity("42 pF/m", UnitKind::CapacitancePerLength).unwrap(),
-            42e-12
-        ));
-        assert!(close(
-            parse_quantity("600nH/m", UnitKind::InductancePerLength).unwrap(),
-            600e-9
-        ));
-        assert!(close(
-            parse_quantity("70 ohm/km", UnitKind::ResistancePerLength).unwrap(),
-            0.07
-        ));
+        assert!(close(parse_quantity("5 ns/m", UnitKind::DelayPerLength).unwrap(), 5e-9));
+        assert!(close(parse_quantity("42 pF/m", UnitKind::CapacitancePerLength).unwrap(), 42e-12));
+        assert!(close(parse_quantity("600nH/m", UnitKind::InductancePerLength).unwrap(), 600e-9));
+        assert!(close(parse_quantity("70 ohm/km", UnitKind::ResistancePerLength).unwrap(), 0.07));
     }
 
     #[test]
@@ -446,10 +352,7 @@ mod tests {
         }
         let ft = parse_quantity("1.3 dB/100ft", UnitKind::Attenuation).unwrap();
         assert!(close(ft, 1.3 / (100.0 * FOOT) / DB_PER_NEPER));
-        assert!(close(
-            parse_quantity("0.5 Np/m", UnitKind::Attenuation).unwrap(),
-            0.5
-        ));
+        assert!(close(parse_quantity("0.5 Np/m", UnitKind::Attenuation).unwrap(), 0.5));
     }
 
     #[test]
@@ -458,42 +361,18 @@ mod tests {
         assert!(close(kc, 2.5e-6));
         let kd = parse_quantity("3e-11 Np/(m * Hz)", UnitKind::DielectricLoss).unwrap();
         assert!(close(kd, 3e-11));
-        assert!(close(
-            parse_quantity("5 %", UnitKind::Fraction).unwrap(),
-            0.05
-        ));
-        assert!(close(
-            parse_quantity("0.2%", UnitKind::Fraction).unwrap(),
-            0.002
-        ));
-        assert!(close(
-            parse_quantity("0.05", UnitKind::Fraction).unwrap(),
-            0.05
-        ));
-        assert!(close(
-            parse_quantity("0.66", UnitKind::Dimensionless).unwrap(),
-            0.66
-        ));
+        assert!(close(parse_quantity("5 %", UnitKind::Fraction).unwrap(), 0.05));
+        assert!(close(parse_quantity("0.2%", UnitKind::Fraction).unwrap(), 0.002));
+        assert!(close(parse_quantity("0.05", UnitKind::Fraction).unwrap(), 0.05));
+        assert!(close(parse_quantity("0.66", UnitKind::Dimensionless).unwrap(), 0.66));
     }
 
     #[test]
     fn exponents_and_signs() {
-        assert!(close(
-            parse_quantity("-3 m", UnitKind::Length).unwrap(),
-            -3.0
-        ));
-        assert!(close(
-            parse_quantity("1e3 m", UnitKind::Length).unwrap(),
-            1e3
-        ));
-        assert!(close(
-            parse_quantity("1.5E-2m", UnitKind::Length).unwrap(),
-            0.015
-        ));
-        assert!(close(
-            parse_quantity("+2.5 V", UnitKind::Voltage).unwrap(),
-            2.5
-        ));
+        assert!(close(parse_quantity("-3 m", UnitKind::Length).unwrap(), -3.0));
+        assert!(close(parse_quantity("1e3 m", UnitKind::Length).unwrap(), 1e3));
+        assert!(close(parse_quantity("1.5E-2m", UnitKind::Length).unwrap(), 0.015));
+        assert!(close(parse_quantity("+2.5 V", UnitKind::Voltage).unwrap(), 2.5));
     }
 
     #[test]
@@ -501,11 +380,7 @@ mod tests {
         let err = parse_quantity("5 m", UnitKind::Resistance).unwrap_err();
         assert_eq!(
             err,
-            UnitError::WrongUnit {
-                unit: "m".into(),
-                found: UnitKind::Length,
-                expected: UnitKind::Resistance
-            }
+            UnitError::WrongUnit { unit: "m".into(), found: UnitKind::Length, expected: UnitKind::Resistance }
         );
         assert!(err.to_string().contains("ohm"), "{err}");
         let err = parse_quantity("5 ns", UnitKind::DelayPerLength).unwrap_err();
@@ -514,45 +389,15 @@ mod tests {
 
     #[test]
     fn malformed_quantities_are_errors() {
-        assert!(matches!(
-            parse_quantity("", UnitKind::Length),
-            Err(UnitError::Empty { .. })
-        ));
-        assert!(matches!(
-            parse_quantity("long", UnitKind::Length),
-            Err(UnitError::BadNumber { .. })
-        ));
-        assert!(matches!(
-            parse_quantity(".", UnitKind::Length),
-            Err(UnitError::BadNumber { .. })
-        ));
-        assert!(matches!(
-            parse_quantity("23", UnitKind::Length),
-            Err(UnitError::MissingUnit { .. })
-        ));
-        assert!(matches!(
-            parse_quantity("23 parsec", UnitKind::Length),
-            Err(UnitError::UnknownUnit { .. })
-        ));
-        assert!(matches!(
-            parse_quantity("23 xm", UnitKind::Length),
-            Err(UnitError::UnknownUnit { .. })
-        ));
-        assert!(matches!(
-            parse_quantity("0.66 m", UnitKind::Dimensionless),
-            Err(UnitError::UnexpectedUnit { .. })
-        ));
-        assert!(matches!(
-            parse_quantity("1e999 m", UnitKind::Length),
-            Err(UnitError::NotFinite { .. })
-        ));
-        assert!(matches!(
-            parse_quantity("3 dB/0m", UnitKind::Attenuation),
-            Err(UnitError::UnknownUnit { .. })
-        ));
-        assert!(matches!(
-            parse_quantity("1..2 m", UnitKind::Length),
-            Err(UnitError::BadNumber { .. })
-        ));
+        assert!(matches!(parse_quantity("", UnitKind::Length), Err(UnitError::Empty { .. })));
+        assert!(matches!(parse_quantity("long", UnitKind::Length), Err(UnitError::BadNumber { .. })));
+        assert!(matches!(parse_quantity(".", UnitKind::Length), Err(UnitError::BadNumber { .. })));
+        assert!(matches!(parse_quantity("23", UnitKind::Length), Err(UnitError::MissingUnit { .. })));
+        assert!(matches!(parse_quantity("23 parsec", UnitKind::Length), Err(UnitError::UnknownUnit { .. })));
+        assert!(matches!(parse_quantity("23 xm", UnitKind::Length), Err(UnitError::UnknownUnit { .. })));
+        assert!(matches!(parse_quantity("0.66 m", UnitKind::Dimensionless), Err(UnitError::UnexpectedUnit { .. })));
+        assert!(matches!(parse_quantity("1e999 m", UnitKind::Length), Err(UnitError::NotFinite { .. })));
+        assert!(matches!(parse_quantity("3 dB/0m", UnitKind::Attenuation), Err(UnitError::UnknownUnit { .. })));
+        assert!(matches!(parse_quantity("1..2 m", UnitKind::Length), Err(UnitError::BadNumber { .. })));
     }
 }
