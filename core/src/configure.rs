@@ -62,7 +62,9 @@ fn mode_of(short: bool, broken: bool) -> Mode {
     }
 }
 
-impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize> Solver<P, PORTS, JUNCS, MEM> {
+impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const LOSSES: usize>
+    Solver<P, PORTS, JUNCS, MEM, LOSSES>
+{
     /// Validate `net`, compute every coefficient and reset the state. On error the solver is
     /// left empty (it steps as a network without drive).
     pub fn load(&mut self, net: &Network<'_>) -> Result<(), BuildError> {
@@ -205,7 +207,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize> Solve
         self.n_elements = ne;
 
         // Loss filters: one per lossy line, applied at both of its ends.
-        cap(Table::Ports, 2 * net.losses.len(), PORTS)?;
+        cap(Table::Losses, 2 * net.losses.len(), LOSSES)?;
         let mut nloss = 0usize;
         for (k, ll) in net.losses.iter().enumerate() {
             let bad = BuildError::BadLoss { loss: k as u16 };

@@ -10,6 +10,8 @@ pub enum Table {
     Probes,
     DelayStorage,
     Ports,
+    /// Line ends with loss filters (the solver's `LOSSES` capacity).
+    Losses,
 }
 
 /// Why a network description was refused. Indices name the offending entry.

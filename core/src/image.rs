@@ -166,7 +166,9 @@ pub fn decode<const L: usize, const J: usize>(bytes: &[u8]) -> Result<ImageNetwo
     Ok(net)
 }
 
-impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize> Solver<P, PORTS, JUNCS, MEM> {
+impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const LOSSES: usize>
+    Solver<P, PORTS, JUNCS, MEM, LOSSES>
+{
     /// Decode an image and load its network (header, CRC, body, then topology validation).
     pub fn load_image(&mut self, bytes: &[u8]) -> Result<(), ImageError> {
         let net = decode::<PORTS, JUNCS>(bytes)?;

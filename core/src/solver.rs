@@ -97,10 +97,12 @@ pub(crate) struct ProbeRt {
 /// * `P`: the number profile ([`crate::Wide`] or [`crate::Narrow`]);
 /// * `PORTS`: line ends (two per line);
 /// * `JUNCS`: junctions;
-/// * `MEM`: delay storage in waves (the sum of all one-way delays, both directions).
+/// * `MEM`: delay storage in waves (the sum of all one-way delays, both directions);
+/// * `LOSSES`: line ends with a loss filter (two per lossy line; 0 by default, so a solver
+///   for lossless plants carries no filter state).
 ///
 /// `Solver::new()` is `const`, so a solver can live in a `static`.
-pub struct Solver<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize> {
+pub struct Solver<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const LOSSES: usize = 0> {
     pub(crate) g: [u32; PORTS],
     pub(crate) cursor: [u32; PORTS],
     pub(crate) start: [u32; PORTS],
@@ -113,7 +115,7 @@ pub struct Solver<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM:
     pub(crate) juncs: [JunctionRt; JUNCS],
     pub(crate) elements: [ElementRt; PORTS],
     pub(crate) n_elements: usize,
-    pub(crate) losses: [LossRt<P::Wave>; PORTS],
+    pub(crate) losses: [LossRt<P::Wave>; LOSSES],
     pub(crate) n_losses: usize,
     pub(crate) probes: [ProbeRt; MAX_PROBES],
     pub(crate) probe_out: [i32; MAX_PROBES],
@@ -131,7 +133,9 @@ pub struct Solver<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM:
     pub(crate) volts_per_code: f32,
 }
 
-impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize> Solver<P, PORTS, JUNCS, MEM> {
+impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const LOSSES: usize>
+    Solver<P, PORTS, JUNCS, MEM, LOSSES>
+{
     /// An empty solver (no network: `step` returns 0). Load a network with [`Self::load`].
     pub const fn new() -> Self {
         Solver {
@@ -155,7 +159,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize> Solve
                 a: [0; MAX_LOSS_SECTIONS],
                 x1: [P::ZERO; MAX_LOSS_SECTIONS],
                 y1: [P::ZERO; MAX_LOSS_SECTIONS],
-            }; PORTS],
+            }; LOSSES],
             n_losses: 0,
             probes: [ProbeRt { current: false, port: 0, z_milliohm: 1 }; MAX_PROBES],
             probe_out: [0; MAX_PROBES],
@@ -319,7 +323,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize> Solve
         }
         // Lossy lines: the wave arriving at each end passes the line's loss filter (an LTI
         // filter commutes with the delay, so filtering at the arrival is the same line).
-        let n_loss = self.n_losses.min(PORTS);
+        let n_loss = self.n_losses.min(LOSSES);
         for l in self.losses.iter_mut().take(n_loss) {
             let Some(b) = self.b.get_mut(l.port as usize) else {
                 continue;
@@ -422,7 +426,9 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize> Solve
     }
 }
 
-impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize> Default for Solver<P, PORTS, JUNCS, MEM> {
+impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const LOSSES: usize> Default
+    for Solver<P, PORTS, JUNCS, MEM, LOSSES>
+{
     fn default() -> Self {
         Self::new()
     }

@@ -58,11 +58,11 @@ pub fn run_core(
             .stack_size(64 << 20)
             .spawn_scoped(scope, || match c.profile {
                 ProfileKind::Wide => {
-                    let mut s = Box::new(Solver::<Wide, HOST_PORTS, HOST_JUNCTIONS, HOST_MEMORY>::new());
+                    let mut s = Box::new(Solver::<Wide, HOST_PORTS, HOST_JUNCTIONS, HOST_MEMORY, HOST_PORTS>::new());
                     drive(&mut s, c, samples, record, progress)
                 }
                 ProfileKind::Narrow => {
-                    let mut s = Box::new(Solver::<Narrow, HOST_PORTS, HOST_JUNCTIONS, HOST_MEMORY>::new());
+                    let mut s = Box::new(Solver::<Narrow, HOST_PORTS, HOST_JUNCTIONS, HOST_MEMORY, HOST_PORTS>::new());
                     drive(&mut s, c, samples, record, progress)
                 }
             })
@@ -75,8 +75,8 @@ fn code(volts: f64, vpc: f64) -> i16 {
     (volts / vpc).round().clamp(i16::MIN as f64, i16::MAX as f64) as i16
 }
 
-fn drive<P: Profile, const A: usize, const B: usize, const C: usize>(
-    s: &mut Solver<P, A, B, C>,
+fn drive<P: Profile, const A: usize, const B: usize, const C: usize, const D: usize>(
+    s: &mut Solver<P, A, B, C, D>,
     c: &Compiled,
     samples: usize,
     record: &[u16],

@@ -206,7 +206,7 @@ fn parse(text: &str) -> Result<Plant, PlantError> {
 #[test]
 fn units_with_prefixes_reach_the_model_in_si() {
     let p = parse(MINIMAL).unwrap();
-    assert_eq!(p.sample_rate, 1e9);
+    assert_eq!(p.sample_rate, 200e6);
     assert!(close(p.duration, 5e-6, 1e-12));
     assert!(close(p.segments[0].length, 2.5, 1e-12));
     assert_eq!(p.nodes[1].load, Load::SeriesRc { r: 120.0, c: 1e-9 });

@@ -105,3 +105,69 @@ fn verify_fails_when_a_tolerance_is_tighter_than_the_emulation_reaches() {
     assert!(out.contains("FAIL"), "{out}");
     let _ = std::fs::remove_file(tmp);
 }
+
+/// Reactive terminations: a receiver's input capacitance on a stub and an AC (series RC)
+/// termination at the far end of a 120 Ω bus, driven by a 10 ns edge.
+const REACTIVE: &str = r#"
+[plant]
+name = "reactive loads"
+sample_rate = "500 MHz"
+duration = "8 us"
+[cable.tp]
+impedance = "120 ohm"
+velocity_factor = 0.66
+[node.src]
+[node.tap]
+[node.rx]
+load = { capacitor = "47 pF" }
+[node.far]
+load = { resistor = "120 ohm", capacitor = "2.2 nF", wiring = "series" }
+[[segment]]
+from = "src"
+to = "tap"
+cable = "tp"
+length = "40 m"
+[[segment]]
+from = "tap"
+to = "rx"
+cable = "tp"
+length = "3 m"
+[[segment]]
+from = "tap"
+to = "far"
+cable = "tp"
+length = "25 m"
+[drive]
+kind = "source"
+node = "src"
+resistance = "120 ohm"
+waveform = { step = "3.3 V", rise = "10 ns", delay = "20 ns" }
+[[probe]]
+name = "receiver"
+node = "rx"
+[[probe]]
+name = "AC terminator"
+node = "far"
+"#;
+
+#[test]
+fn shunt_capacitance_and_rc_terminations_pass_verify() {
+    // Core against the exact reference (the capacitors exactly, 1/(sC), in the frequency
+    // domain) with the default tolerances: 5 % max, 1 % rms of the step, first edge within
+    // one sample, final value within 0.2 % of the DC point (the capacitors are open at DC).
+    let plant = parse_plant(REACTIVE, "reactive.toml", Path::new(".")).unwrap();
+    let c = compile(&plant, "reactive.toml", ProfileKind::Wide).unwrap();
+    assert_eq!(c.elements.len(), 2, "one bilinear capacitor per reactive load");
+    let (v, _) = tidewire_host::verify::verify(&plant, "reactive.toml", &c, &[], &|_| {}).unwrap();
+    for p in &v.probes {
+        assert!(
+            p.pass(),
+            "{}: max {} rms {} final {} vs {}",
+            p.name,
+            p.max_error,
+            p.rms_error,
+            p.final_core,
+            p.final_expected
+        );
+    }
+}

@@ -2,7 +2,7 @@
 #![allow(dead_code)]
 
 use proptest::prelude::*;
-use tidewire_core::{Drive, Element, Junction, Line, Network, Probe, ProbeKind, Shunt, Side};
+use tidewire_core::{Drive, Element, Junction, Line, LineLoss, Network, Probe, ProbeKind, Shunt, Side};
 
 /// An owned network description for tests.
 #[derive(Debug, Clone)]
@@ -10,6 +10,7 @@ pub struct Owned {
     pub lines: Vec<Line>,
     pub junctions: Vec<Junction>,
     pub elements: Vec<Element>,
+    pub losses: Vec<LineLoss>,
     pub drive: Drive,
     pub probes: Vec<Probe>,
     pub io_shift: u8,
@@ -21,7 +22,7 @@ impl Owned {
             lines: &self.lines,
             junctions: &self.junctions,
             elements: &self.elements,
-            losses: &[],
+            losses: &self.losses,
             drive: self.drive,
             probes: &self.probes,
             io_shift: self.io_shift,
@@ -155,6 +156,7 @@ pub fn network(loads: Loads, max_delay: u32, io_shift: u8) -> impl Strategy<Valu
                     lines,
                     junctions,
                     elements,
+                    losses: Vec::new(),
                     drive: Drive::Source { junction: 0, milliohm: rs },
                     probes,
                     io_shift,
@@ -343,4 +345,45 @@ impl Twin {
     pub fn energy(&self) -> f64 {
         self.rings.iter().enumerate().map(|(p, r)| r.iter().map(|w| w * w).sum::<f64>() / self.z(p)).sum()
     }
+}
+
+/// Random loss filters (1–3 attenuating sections each) on some of the lines of `net`.
+pub fn with_losses(net: Owned) -> impl Strategy<Value = Owned> {
+    let n = net.lines.len();
+    proptest::collection::vec(
+        (any::<prop::sample::Index>(), proptest::collection::vec((0.05f64..0.995, 0.0f64..1.0), 1..=3)),
+        0..=n.min(4),
+    )
+    .prop_map(move |specs| {
+        let mut out = net.clone();
+        for (i, sections) in specs {
+            let line = i.index(n) as u16;
+            if out.losses.iter().any(|l| l.line == line) {
+                continue;
+            }
+            let mut l = LineLoss { line, sections: sections.len() as u8, poles: [0; 6], zeros: [0; 6] };
+            for (k, (a, t)) in sections.iter().enumerate() {
+                // zero anywhere in (−0.9, a): the section only attenuates
+                let b = a - (a + 0.9) * t.clamp(0.01, 0.99);
+                l.poles[k] = (a * (1u64 << 30) as f64) as u32;
+                l.zeros[k] = (b * (1u64 << 30) as f64) as i32;
+            }
+            out.losses.push(l);
+        }
+        out
+    })
+}
+
+/// Samples a zero-input first-order section with pole `a` needs to reach exactly zero from
+/// |y| <= 2^32 with truncation toward zero: |y| shrinks by the factor a while a·|y| < |y| − 1,
+/// then by at least one LSB per sample, so ln(2^32)/(1 − a) + 1/(1 − a) samples suffice.
+pub fn filter_decay(net: &Owned) -> usize {
+    net.losses
+        .iter()
+        .flat_map(|l| l.poles.iter().take(l.sections as usize))
+        .map(|p| {
+            let a = *p as f64 / (1u64 << 30) as f64;
+            ((32.0 * std::f64::consts::LN_2 + 1.0) / (1.0 - a)).ceil() as usize
+        })
+        .sum()
 }
