@@ -17,11 +17,11 @@ pub struct Part {
 /// The two part classes the core targets. Costs: straight-line fits through the measured
 /// instructions per sample of the xtask's bus plants (2, 8, 32 ports; about one junction per
 /// two ports, so the junction cost is folded into the per-port figure), from
-/// `cargo run -p xtask -- firmware` on 2026-12-02: M0 narrow 456.8 / 1107.4 instructions at
-/// 2 / 8 ports, M4 wide 418 / 1126 / 3638 at 2 / 8 / 32 ports.
+/// `cargo run -p xtask -- firmware` on 2026-12-02: M0 narrow 436.0 / 1116.5 / 3654.1
+/// instructions at 2 / 8 / 32 ports, M4 wide 415 / 1120 / 3600.
 pub const PARTS: [Part; 2] = [
-    Part { name: "Cortex-M0 class (narrow profile)", clock_hz: 48e6, cost: Some((108.4, 0.0, 240.0)) },
-    Part { name: "Cortex-M4 class (wide profile)", clock_hz: 168e6, cost: Some((104.7, 0.0, 288.0)) },
+    Part { name: "Cortex-M0 class (narrow profile)", clock_hz: 48e6, cost: Some((105.7, 0.0, 270.6)) },
+    Part { name: "Cortex-M4 class (wide profile)", clock_hz: 168e6, cost: Some((103.3, 0.0, 293.3)) },
 ];
 
 /// One line per part: instructions per sample, the largest sample rate, and how that
