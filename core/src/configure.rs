@@ -125,7 +125,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                         return Err(BuildError::ZeroResistance { junction });
                     }
                 }
-                Junction::Series { milliohm } => {
+                Junction::Series { .. } | Junction::SeriesInductor { .. } => {
                     if ends != 2 {
                         return Err(BuildError::SeriesNeedsTwoEnds { junction, ends });
                     }
@@ -142,8 +142,11 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                     if let Some(slot) = series_z.get_mut(j) {
                         *slot = z1;
                     }
-                    if milliohm == 0 {
-                        return Err(BuildError::ZeroResistance { junction });
+                    match *junc {
+                        Junction::Series { milliohm: 0 } | Junction::SeriesInductor { port_milliohm: 0, .. } => {
+                            return Err(BuildError::ZeroResistance { junction });
+                        }
+                        _ => {}
                     }
                 }
             }
@@ -156,7 +159,9 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                 let j = junction as usize;
                 match net.junctions.get(j) {
                     None => return Err(BuildError::IndexOutOfRange { table: Table::Junctions, index: junction }),
-                    Some(Junction::Series { .. }) => return Err(BuildError::DriveOnSeries { junction }),
+                    Some(Junction::Series { .. } | Junction::SeriesInductor { .. }) => {
+                        return Err(BuildError::DriveOnSeries { junction })
+                    }
                     Some(_) => {}
                 }
                 if milliohm == 0 {
@@ -168,7 +173,9 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                 let j = junction as usize;
                 match net.junctions.get(j) {
                     None => return Err(BuildError::IndexOutOfRange { table: Table::Junctions, index: junction }),
-                    Some(Junction::Series { .. }) => return Err(BuildError::DriveOnSeries { junction }),
+                    Some(Junction::Series { .. } | Junction::SeriesInductor { .. }) => {
+                        return Err(BuildError::DriveOnSeries { junction })
+                    }
                     Some(Junction::Node { shunt: Shunt::Open }) if ends_at(j) == 1 && elems_at(j) == 0 => {}
                     Some(_) => return Err(BuildError::BadRigNode { junction }),
                 }
@@ -375,6 +382,23 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                     let z = series_z.get(j).copied().unwrap_or(0) as u128;
                     let c = ((2 * z) << P::SERIES_FRAC).checked_div(2 * z + milliohm as u128).unwrap_or(0);
                     JunctionRt::Series { p: p as u16, q: q as u16, c: c as u32 }
+                }
+                Junction::SeriesInductor { port_milliohm, milliohm } => {
+                    let (p, q) = (first, first + 1);
+                    // c = 2Z/ΣR and rho = R_L/ΣR, both rounded down, so c + rho <= 1: the
+                    // quantized adaptor is a passive one (lossless for c + rho = 1, a slightly
+                    // different R_L, plus the winding resistance).
+                    let z = series_z.get(j).copied().unwrap_or(0) as u128;
+                    let sum = 2 * z + port_milliohm as u128 + milliohm as u128;
+                    let c = ((2 * z) << P::CHOKE_FRAC).checked_div(sum).unwrap_or(0);
+                    // Without winding resistance the adaptor must stay lossless (c + rho = 1
+                    // exactly), or the rounding would act as a resistor at DC.
+                    let rho = if milliohm == 0 {
+                        (1u128 << P::CHOKE_FRAC).saturating_sub(c)
+                    } else {
+                        ((port_milliohm as u128) << P::CHOKE_FRAC).checked_div(sum).unwrap_or(0)
+                    };
+                    JunctionRt::SeriesL { p: p as u16, q: q as u16, c: c as u32, rho: rho as u32, s: 0 }
                 }
             };
             set(&mut self.juncs, j, rt);

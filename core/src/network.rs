@@ -52,6 +52,13 @@ pub enum Junction {
     Node { shunt: Shunt },
     /// A resistor in series between exactly two line ends (series two-port adaptor).
     Series { milliohm: u32 },
+    /// An inductor (a choke) in series between exactly two line ends of equal impedance,
+    /// with its winding resistance: port resistance 2L/T (bilinear transform, b[n] =
+    /// −a[n−1]) and `milliohm` in series. Three-port series adaptor: x = b1 − b2 − b_L,
+    /// a1 = b1 − c·x, a2 = b2 + c·x, a_L = b_L + c_L·x with c = 2Z/ΣR, c_L = 2R_L/ΣR,
+    /// ΣR = 2Z + R_L + R. The core keeps the inductor's state scaled to voltage,
+    /// s = −(2Z/R_L)·b_L, so that y = c·x = c·(b1 − b2) + (R_L/ΣR)·s and s' = 2y − s.
+    SeriesInductor { port_milliohm: u32, milliohm: u32 },
 }
 
 /// What drives the network.

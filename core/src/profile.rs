@@ -58,6 +58,8 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     fn sub(v: Self::Wave, b: Self::Wave) -> Self::Wave;
     /// a = sat(−b) (exact short).
     fn neg(b: Self::Wave) -> Self::Wave;
+    /// A stored i32 back to a wave (values stored came from waves, so no clipping happens).
+    fn wave_from_i32(x: i32) -> Self::Wave;
     /// Largest total node weight the profile's division handles (larger shunts are capped
     /// there, which changes a near-short by less than 2^-15 of its reflection).
     const TOTAL_MAX: u64;
@@ -70,6 +72,19 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     /// (coefficients in `LOSS_FRAC` bits, all < 1). With x = 0 the output shrinks strictly,
     /// so a section cannot sustain a limit cycle.
     fn loss_section(x: Self::Wave, x1: Self::Wave, y1: Self::Wave, g: u32, gb: i32, a: u32) -> Self::Wave;
+    /// Fractional bits of the series-inductor coefficients (c, rho < 1).
+    const CHOKE_FRAC: u32;
+    /// Series inductor with its state kept in voltage scale: s = −(2Z/R_L)·b_L, so a large
+    /// inductor does not need a huge wave. y = c·(b1 − b2) + rho·s exactly, then
+    /// a1 = trunc(b1 − y), a2 = trunc(b2 + y), s' = trunc(2y − s), each toward zero from its
+    /// exact value and saturated (c = 2Z/ΣR, rho = R_L/ΣR, c + rho <= 1 keeps it passive).
+    fn series_l(
+        b1: Self::Wave,
+        b2: Self::Wave,
+        s: Self::Wave,
+        c: u32,
+        rho: u32,
+    ) -> (Self::Wave, Self::Wave, Self::Wave);
     /// Input code to wave: sat(code · 2^shift).
     fn from_code(code: i16, shift: u32) -> Self::Wave;
     /// Wave (or a sum of two waves, as i32) to output code: sat(trunc(x / 2^shift)).
@@ -156,6 +171,7 @@ impl Profile for Wide {
     const MAX_IO_SHIFT: u8 = 15;
     const TOTAL_MAX: u64 = 1 << 62;
     const LOSS_FRAC: u32 = 30;
+    const CHOKE_FRAC: u32 = 29;
 
     #[inline(always)]
     fn node_scatter(b: &[i32], g: &[u32], a: &mut [i32], e: i32, g_src: u32, recip: u32, shift: u32, total: u64) {
@@ -186,6 +202,10 @@ impl Profile for Wide {
         b.saturating_neg()
     }
     #[inline(always)]
+    fn wave_from_i32(x: i32) -> i32 {
+        x
+    }
+    #[inline(always)]
     fn series(b1: i32, b2: i32, c: u32) -> (i32, i32) {
         // |x| < 2^32 and c <= 2^30: |c·x| <= 2^62; |b·2^30| <= 2^61: exact in i64.
         let x = (b1 as i64).wrapping_sub(b2 as i64);
@@ -197,6 +217,22 @@ impl Profile for Wide {
             m.clamp(i32::MIN as i64, i32::MAX as i64) as i32
         };
         (t(n1), t(n2))
+    }
+    #[inline(always)]
+    fn series_l(b1: i32, b2: i32, s: i32, c: u32, rho: u32) -> (i32, i32, i32) {
+        // c·(b1 − b2) <= 2^61, rho·s <= 2^60, so 2y + s·2^29 < 2^63: exact in i64.
+        let y = (c as i64)
+            .wrapping_mul((b1 as i64).wrapping_sub(b2 as i64))
+            .wrapping_add((rho as i64).wrapping_mul(s as i64));
+        let t = |n: i64| {
+            apply_sign64((n.unsigned_abs() >> Self::CHOKE_FRAC) as i64, n >> 63).clamp(i32::MIN as i64, i32::MAX as i64)
+                as i32
+        };
+        (
+            t((b1 as i64).wrapping_shl(Self::CHOKE_FRAC).wrapping_sub(y)),
+            t((b2 as i64).wrapping_shl(Self::CHOKE_FRAC).wrapping_add(y)),
+            t(y.wrapping_shl(1).wrapping_sub((s as i64).wrapping_shl(Self::CHOKE_FRAC))),
+        )
     }
     #[inline(always)]
     fn loss_section(x: i32, x1: i32, y1: i32, g: u32, gb: i32, a: u32) -> i32 {
@@ -248,6 +284,7 @@ impl Profile for Narrow {
     const MAX_IO_SHIFT: u8 = 0;
     const TOTAL_MAX: u64 = (1 << 30) - 1;
     const LOSS_FRAC: u32 = 14;
+    const CHOKE_FRAC: u32 = 13;
 
     #[inline(always)]
     fn node_scatter(b: &[i16], g: &[u32], a: &mut [i16], e: i16, g_src: u32, recip: u32, shift: u32, total: u64) {
@@ -274,6 +311,10 @@ impl Profile for Narrow {
         b.saturating_neg()
     }
     #[inline(always)]
+    fn wave_from_i32(x: i32) -> i16 {
+        sat_i16(x)
+    }
+    #[inline(always)]
     fn series(b1: i16, b2: i16, c: u32) -> (i16, i16) {
         // |x| < 2^16 and c <= 2^14: |c·x| <= 2^30; |b·2^14| <= 2^29: exact in i32.
         let x = (b1 as i32).wrapping_sub(b2 as i32);
@@ -282,6 +323,19 @@ impl Profile for Narrow {
         let n2 = (b2 as i32).wrapping_shl(Self::SERIES_FRAC).wrapping_add(cx);
         let t = |n: i32| sat_i16(apply_sign32((n.unsigned_abs() >> Self::SERIES_FRAC) as i32, n >> 31));
         (t(n1), t(n2))
+    }
+    #[inline(always)]
+    fn series_l(b1: i16, b2: i16, s: i16, c: u32, rho: u32) -> (i16, i16, i16) {
+        // c·(b1 − b2) < 2^29, rho·s <= 2^28, so 2y + s·2^13 < 2^31: exact in i32.
+        let y = (c as i32)
+            .wrapping_mul((b1 as i32).wrapping_sub(b2 as i32))
+            .wrapping_add((rho as i32).wrapping_mul(s as i32));
+        let t = |n: i32| sat_i16(apply_sign32((n.unsigned_abs() >> Self::CHOKE_FRAC) as i32, n >> 31));
+        (
+            t((b1 as i32).wrapping_shl(Self::CHOKE_FRAC).wrapping_sub(y)),
+            t((b2 as i32).wrapping_shl(Self::CHOKE_FRAC).wrapping_add(y)),
+            t(y.wrapping_shl(1).wrapping_sub((s as i32).wrapping_shl(Self::CHOKE_FRAC))),
+        )
     }
     #[inline(always)]
     fn loss_section(x: i16, x1: i16, y1: i16, g: u32, gb: i32, a: u32) -> i16 {

@@ -52,6 +52,14 @@ pub(crate) enum JunctionRt {
         q: u16,
         c: u32,
     },
+    /// Series inductor: coefficients and its state s = −(2Z/R_L)·b_L.
+    SeriesL {
+        p: u16,
+        q: u16,
+        c: u32,
+        rho: u32,
+        s: i32,
+    },
     Rig {
         port: u16,
     },
@@ -186,6 +194,11 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.hist.iter_mut().for_each(|w| *w = P::ZERO);
         self.probe_out.iter_mut().for_each(|w| *w = 0);
         self.hist_pos = 0;
+        for j in self.juncs.iter_mut() {
+            if let JunctionRt::SeriesL { s, .. } = j {
+                *s = 0;
+            }
+        }
         for l in self.losses.iter_mut() {
             l.x1 = [P::ZERO; MAX_LOSS_SECTIONS];
             l.y1 = [P::ZERO; MAX_LOSS_SECTIONS];
@@ -256,7 +269,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     #[inline(always)]
     fn scatter(&mut self, e: P::Wave, rig_back: P::Wave) {
         let n = self.n_juncs.min(JUNCS);
-        for j in self.juncs.iter().take(n) {
+        for j in self.juncs.iter_mut().take(n) {
             match *j {
                 JunctionRt::Node { first, count, mode, g_src, recip, shift, total, .. } => {
                     let lo = first as usize;
@@ -288,6 +301,20 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                     }
                     if let Some(x) = self.a.get_mut(q as usize) {
                         *x = a2;
+                    }
+                }
+                JunctionRt::SeriesL { p, q, c, rho, s } => {
+                    let b1 = self.b.get(p as usize).copied().unwrap_or(P::ZERO);
+                    let b2 = self.b.get(q as usize).copied().unwrap_or(P::ZERO);
+                    let (a1, a2, s_next) = P::series_l(b1, b2, P::wave_from_i32(s), c, rho);
+                    if let Some(x) = self.a.get_mut(p as usize) {
+                        *x = a1;
+                    }
+                    if let Some(x) = self.a.get_mut(q as usize) {
+                        *x = a2;
+                    }
+                    if let JunctionRt::SeriesL { s: state, .. } = j {
+                        *state = s_next.into();
                     }
                 }
                 JunctionRt::Rig { port } => {

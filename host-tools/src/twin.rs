@@ -41,6 +41,8 @@ pub fn run(c: &Compiled, samples: usize, record: &[u16]) -> Run {
     let mut a = vec![0.0; 2 * nl];
     let mut b = vec![0.0; 2 * nl];
     let mut el_state = vec![0.0; c.elements.len()];
+    // In-line chokes: the inductor's wave b_L per junction.
+    let mut choke = vec![0.0; c.junctions.len()];
     // Loss filters at both ends of lossy lines: (port, sections (a, g, gb), state (x1, y1)).
     let mut filters: Vec<Filter> = vec![];
     for l in &c.losses {
@@ -102,6 +104,16 @@ pub fn run(c: &Compiled, samples: usize, record: &[u16]) -> Run {
         }
         for (j, junc) in c.junctions.iter().enumerate() {
             match junc {
+                Junction::SeriesInductor { port_milliohm, milliohm } => {
+                    let (p, q) = (at[j][0], at[j][1]);
+                    let (rl, r) = (*port_milliohm as f64 / 1000.0, *milliohm as f64 / 1000.0);
+                    // x = b1 − b2 − b_L, I = 2x/(Z1 + Z2 + R_L + R); a1 = b1 − Z1·I,
+                    // a2 = b2 + Z2·I, a_L = b_L + R_L·I; bilinear inductor: next b_L = −a_L.
+                    let i = 2.0 * (b[p] - b[q] - choke[j]) / (z[p / 2] + z[q / 2] + rl + r);
+                    a[p] = b[p] - z[p / 2] * i;
+                    a[q] = b[q] + z[q / 2] * i;
+                    choke[j] = -(choke[j] + rl * i);
+                }
                 Junction::Series { milliohm } => {
                     let (p, q) = (at[j][0], at[j][1]);
                     let r = *milliohm as f64 / 1000.0;

@@ -24,7 +24,15 @@ fn one_line(c: CableType, length: f64, emf: Waveform, rs: f64, load: Load, rate:
         duration: 1e-6,
         cables: vec![c],
         nodes: vec![node("feed", Load::Open), node("far", load)],
-        segments: vec![Segment { name: "run".into(), from: 0, to: 1, cable: 0, length, span: Span::default() }],
+        segments: vec![Segment {
+            name: "run".into(),
+            from: 0,
+            to: 1,
+            cable: 0,
+            length,
+            span: Span::default(),
+            inline: None,
+        }],
         drive: Drive::Source { node: 0, emf, rs },
         probes: vec![
             Probe { name: "v far".into(), kind: ProbeKind::Voltage(1) },

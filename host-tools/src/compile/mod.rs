@@ -300,8 +300,7 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
 
     // Events.
     let mut events = Vec::new();
-    let mut brk = break_junction.into_iter();
-    for e in &plant.events {
+    for (ei, e) in plant.events.iter().enumerate() {
         let sample = (e.at / dt).round() as usize;
         let action = match e.action {
             EventAction::SetLoad(n, load) => {
@@ -324,8 +323,8 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
                 }
                 CoreAction::SetShunt(node_junction[n], shunt)
             }
-            EventAction::Break { .. } => match brk.next() {
-                Some(j) => CoreAction::Break(j),
+            EventAction::Break { .. } => match break_junction.iter().find(|(k, _)| *k == ei) {
+                Some((_, j)) => CoreAction::Break(*j),
                 None => continue,
             },
         };

@@ -63,15 +63,15 @@ impl<'p> Builder<'p> {
     }
 
     /// Lay out segment `si`; `cuts` are (event index, distance) of breaks; `min_first`
-    /// is the rig latency when one end is the rig port. Returns the break junctions in the
-    /// order of `cuts`.
+    /// is the rig latency when one end is the rig port. Returns (event index, junction) of
+    /// every break.
     pub fn segment(
         &mut self,
         si: usize,
         seg: &Segment,
         cuts: &[(usize, f64)],
         rig_latency: Option<u32>,
-    ) -> Result<Vec<JunctionId>, PlantError> {
+    ) -> Result<Vec<(usize, JunctionId)>, PlantError> {
         let cable = &self.plant.cables[seg.cable];
         let tau = seg.length / cable.velocity;
         let exact = tau / self.dt;
@@ -109,15 +109,26 @@ impl<'p> Builder<'p> {
         });
 
         // Sub-runs between breaks: [0, d1], [d1, d2], ..., [dk, length].
-        let mut cut_d: Vec<(usize, f64)> = cuts.to_vec();
+        // Cut points: breaks (an open node the event splits) and an in-line choke (a series
+        // inductor junction, port resistance 2L/T, between two runs of the same cable).
+        let mut cut_d: Vec<(Option<usize>, f64)> = cuts.iter().map(|(e, d)| (Some(*e), *d)).collect();
+        if let Some(inl) = seg.inline {
+            cut_d.push((None, inl.at));
+        }
         cut_d.sort_by(|a, b| a.1.total_cmp(&b.1));
         let mut bounds = vec![0.0];
         bounds.extend(cut_d.iter().map(|c| c.1));
         bounds.push(seg.length);
         let mut ends = vec![seg.from as JunctionId];
-        for (k, _) in cut_d.iter().enumerate() {
-            let _ = k;
-            ends.push(self.new_junction(Junction::Node { shunt: Shunt::Open })?);
+        for (event, _) in cut_d.iter() {
+            let j = match (event, seg.inline) {
+                (None, Some(inl)) => Junction::SeriesInductor {
+                    port_milliohm: to_milliohm(2.0 * inl.inductance / self.dt),
+                    milliohm: (inl.resistance * 1000.0).round().clamp(0.0, u32::MAX as f64) as u32,
+                },
+                _ => Junction::Node { shunt: Shunt::Open },
+            };
+            ends.push(self.new_junction(j)?);
         }
         ends.push(seg.to as JunctionId);
         // Whole samples per sub-run, keeping the segment's total delay.
@@ -158,7 +169,7 @@ impl<'p> Builder<'p> {
         }
         let _ = si;
         self.pieces.push(pieces);
-        Ok(cut_d.iter().enumerate().map(|(k, _)| ends[k + 1]).collect())
+        Ok(cut_d.iter().enumerate().filter_map(|(k, (e, _))| e.map(|e| (e, ends[k + 1]))).collect())
     }
 
     fn plant_rig_node(&self) -> Option<usize> {

@@ -16,6 +16,9 @@ fn junction(j: &Junction) -> String {
     match j {
         Junction::Node { shunt: s } => format!("Junction::Node {{ shunt: {} }}", shunt(s)),
         Junction::Series { milliohm } => format!("Junction::Series {{ milliohm: {milliohm} }}"),
+        Junction::SeriesInductor { port_milliohm, milliohm } => {
+            format!("Junction::SeriesInductor {{ port_milliohm: {port_milliohm}, milliohm: {milliohm} }}")
+        }
         _ => "Junction::Node { shunt: Shunt::Open }".into(),
     }
 }

@@ -90,6 +90,18 @@ pub struct Node {
     pub span: Span,
 }
 
+/// A lumped element in series inside a segment: a choke (inductance L in series with its
+/// winding resistance R), `at` metres from the segment's `from` end.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Inline {
+    /// H (> 0).
+    pub inductance: f64,
+    /// Ω (>= 0).
+    pub resistance: f64,
+    /// Metres from the `from` end, strictly inside the segment.
+    pub at: f64,
+}
+
 /// A length of one cable type between two nodes.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Segment {
@@ -100,6 +112,8 @@ pub struct Segment {
     /// Length in metres (> 0).
     pub length: f64,
     pub span: Span,
+    /// A series element inside the segment, if any.
+    pub inline: Option<Inline>,
 }
 
 /// The EMF waveform of a test source, in volts against seconds.

@@ -34,10 +34,16 @@ fn load_conductance(load: Load) -> f64 {
     }
 }
 
-/// Loop resistance of segment k, ohms.
+/// Loop resistance of segment k, ohms (with the winding resistance of an in-line choke).
 fn resistance(plant: &Plant, k: usize) -> f64 {
     let seg = &plant.segments[k];
-    plant.cables[seg.cable].r_per_m * seg.length
+    plant.cables[seg.cable].r_per_m * seg.length + seg.inline.map_or(0.0, |i| i.resistance)
+}
+
+/// Series inductance of segment k at DC, H: L'·l plus an in-line choke's.
+fn inductance(plant: &Plant, k: usize) -> f64 {
+    let seg = &plant.segments[k];
+    plant.cables[seg.cable].l_per_m() * seg.length + seg.inline.map_or(0.0, |i| i.inductance)
 }
 
 /// Solve a real linear system; `None` when singular or not finite.
@@ -143,7 +149,7 @@ fn segment_current(plant: &Plant, v: &[f64], emf: f64, k: usize, end: End) -> Re
         return Ok((v[here] - v[far]) / r);
     }
     let phi = inductive_potentials(plant, v, emf, k)?;
-    let l = plant.cables[seg.cable].l_per_m() * seg.length;
+    let l = inductance(plant, k);
     Ok((phi[here] - phi[far]) / l)
 }
 
@@ -179,7 +185,7 @@ fn inductive_potentials(plant: &Plant, v: &[f64], emf: f64, k: usize) -> Result<
     }
     for (j, seg) in plant.segments.iter().enumerate() {
         if lossless(j) {
-            let w = 1.0 / (plant.cables[seg.cable].l_per_m() * seg.length);
+            let w = 1.0 / inductance(plant, j);
             let (p, q) = (seg.from, seg.to);
             a[(p, p)] += w;
             a[(q, q)] += w;
@@ -245,6 +251,7 @@ mod tests {
                     cable: c,
                     length,
                     span: Span::default(),
+                    inline: None,
                 })
                 .collect(),
             drive: Drive::Source {

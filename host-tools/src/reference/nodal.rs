@@ -35,9 +35,14 @@ pub(crate) fn load_admittance(load: Load, s: Complex64) -> Complex64 {
 }
 
 /// The solved plant at one complex frequency: node voltages and segment two-ports.
+///
+/// A segment with an in-line choke is two two-ports (from..at, at..to) with the choke's
+/// series admittance 1/(R + sL) between two internal nodes; `ends[k]` names, for each end of
+/// segment k, the two-port at that end and the node at its other side.
 pub(crate) struct Solution {
     pub voltages: Vec<Complex64>,
     pub ports: Vec<TwoPort>,
+    pub ends: Vec<[(TwoPort, usize); 2]>,
 }
 
 impl Solution {
@@ -52,8 +57,12 @@ impl Solution {
                     End::From => (seg.from, seg.to),
                     End::To => (seg.to, seg.from),
                 };
-                let tp = self.ports[k];
-                tp.y11 * self.voltages[here] + tp.y12 * self.voltages[far]
+                let (tp, other) = match end {
+                    End::From => self.ends[k][0],
+                    End::To => self.ends[k][1],
+                };
+                let _ = (far, &self.ports);
+                tp.y11 * self.voltages[here] + tp.y12 * self.voltages[other]
             }
         }
     }
@@ -62,18 +71,43 @@ impl Solution {
 /// Solve the nodal equations of a checked plant at s (Re s > 0 or s on the jω axis away
 /// from 0), per volt of drive EMF.
 pub(crate) fn solve(plant: &Plant, s: Complex64) -> Result<Solution, ReferenceError> {
-    let n = plant.nodes.len();
+    let inner = 2 * plant.segments.iter().filter(|s| s.inline.is_some()).count();
+    let n = plant.nodes.len() + inner;
     let (sigma, f_hz) = (s.re, s.im / (2.0 * PI));
     let mut a = DMatrix::<Complex64>::zeros(n, n);
     let mut b = DVector::<Complex64>::zeros(n);
     let mut ports = Vec::with_capacity(plant.segments.len());
+    let mut ends = Vec::with_capacity(plant.segments.len());
+    let mut next = plant.nodes.len();
+    let stamp = |a: &mut DMatrix<Complex64>, p: usize, q: usize, y11: Complex64, y12: Complex64| {
+        a[(p, p)] += y11;
+        a[(q, q)] += y11;
+        a[(p, q)] += y12;
+        a[(q, p)] += y12;
+    };
     for seg in &plant.segments {
-        let tp = two_port(&plant.cables[seg.cable], seg.length, s);
-        a[(seg.from, seg.from)] += tp.y11;
-        a[(seg.to, seg.to)] += tp.y11;
-        a[(seg.from, seg.to)] += tp.y12;
-        a[(seg.to, seg.from)] += tp.y12;
-        ports.push(tp);
+        let cable = &plant.cables[seg.cable];
+        match seg.inline {
+            None => {
+                let tp = two_port(cable, seg.length, s);
+                stamp(&mut a, seg.from, seg.to, tp.y11, tp.y12);
+                ports.push(tp);
+                ends.push([(tp, seg.to), (tp, seg.from)]);
+            }
+            Some(inl) => {
+                // from —[line, at]— m1 —[R + sL]— m2 —[line, length − at]— to
+                let (m1, m2) = (next, next + 1);
+                next += 2;
+                let t1 = two_port(cable, inl.at, s);
+                let t2 = two_port(cable, seg.length - inl.at, s);
+                stamp(&mut a, seg.from, m1, t1.y11, t1.y12);
+                stamp(&mut a, m2, seg.to, t2.y11, t2.y12);
+                let y = 1.0 / (Complex64::new(inl.resistance, 0.0) + s * inl.inductance);
+                stamp(&mut a, m1, m2, y, -y);
+                ports.push(t1);
+                ends.push([(t1, m1), (t2, m2)]);
+            }
+        }
     }
     for (i, node) in plant.nodes.iter().enumerate() {
         a[(i, i)] += load_admittance(node.load, s);
@@ -97,7 +131,7 @@ pub(crate) fn solve(plant: &Plant, s: Complex64) -> Result<Solution, ReferenceEr
     if v.iter().any(|x| !x.re.is_finite() || !x.im.is_finite()) {
         return Err(ReferenceError::Singular { sigma, f_hz });
     }
-    Ok(Solution { voltages: v.iter().copied().collect(), ports })
+    Ok(Solution { voltages: v.iter().copied().collect(), ports, ends })
 }
 
 #[cfg(test)]
@@ -121,7 +155,15 @@ mod tests {
                 source: "unit test".into(),
             }],
             nodes: vec![node("a", Load::Open), node("b", load)],
-            segments: vec![Segment { name: "s".into(), from: 0, to: 1, cable: 0, length, span: Span::default() }],
+            segments: vec![Segment {
+                name: "s".into(),
+                from: 0,
+                to: 1,
+                cable: 0,
+                length,
+                span: Span::default(),
+                inline: None,
+            }],
             drive: Drive::Source { node: 0, emf: Waveform::Step { amplitude: 1.0, delay: 0.0, rise: 0.0 }, rs },
             probes: vec![Probe { name: "i".into(), kind: ProbeKind::Current(0, End::To) }],
             tolerances: Tolerances::default(),

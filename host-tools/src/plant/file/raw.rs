@@ -86,6 +86,16 @@ pub struct RawSegment {
     pub to: Text,
     pub cable: Text,
     pub length: Raw,
+    pub inline: Option<Spanned<RawInline>>,
+}
+
+/// `inline = { inductance = "4.7 uH", resistance = "0.2 ohm", at = "12 m" }`
+#[derive(Debug, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct RawInline {
+    pub inductance: Raw,
+    pub resistance: Option<Raw>,
+    pub at: Raw,
 }
 
 #[derive(Debug, Deserialize)]

@@ -10,7 +10,7 @@ use super::locate::Source;
 use super::raw::{RawLattice, RawNode, RawSegment, Text};
 use super::values::{load, positive};
 use crate::plant::error::PlantError;
-use crate::plant::model::{Load, Node, NodeId, Segment, SegmentId, Span};
+use crate::plant::model::{Inline, Load, Node, NodeId, Segment, SegmentId, Span};
 use crate::plant::units::UnitKind;
 
 /// Nodes and segments with their name indexes, plus each node's key span.
@@ -139,8 +139,36 @@ impl Topology {
         }
         let cable = cables.resolve(src, &s.cable, &path("cable"))?;
         let length = positive(src, &s.length, UnitKind::Length, &path("length"), "length")?;
+        let inline = match &s.inline {
+            None => None,
+            Some(i) => {
+                let r = i.get_ref();
+                let inductance =
+                    positive(src, &r.inductance, UnitKind::Inductance, &path("inline.inductance"), "inductance")?;
+                let resistance = match &r.resistance {
+                    Some(x) => super::values::non_negative(
+                        src,
+                        x,
+                        UnitKind::Resistance,
+                        &path("inline.resistance"),
+                        "resistance",
+                    )?,
+                    None => 0.0,
+                };
+                let at = positive(src, &r.at, UnitKind::Length, &path("inline.at"), "position")?;
+                if at >= length {
+                    return Err(src.error(
+                        r.at.span(),
+                        path("inline.at"),
+                        format!("the in-line element sits {at} m along a segment of {length} m"),
+                        "place it strictly inside the segment (0 < at < length)",
+                    ));
+                }
+                Some(Inline { inductance, resistance, at })
+            }
+        };
         self.segment_index.insert(name.clone(), self.segments.len());
-        self.segments.push(Segment { name, from, to, cable, length, span: span_of(src, raw.span()) });
+        self.segments.push(Segment { name, from, to, cable, length, span: span_of(src, raw.span()), inline });
         Ok(())
     }
 
