@@ -204,21 +204,32 @@ impl<'p> Builder<'p> {
         for (k, c) in cuts.iter().enumerate() {
             let j = self.new_junction(Junction::Series { milliohm: to_milliohm(r / cuts.len() as f64) })?;
             self.push_line(pieces, z, c - prev_s, prev_j, j, start_m, len_m, prev_s, *c, d);
-            self.add_loss(cable, pieces);
+            self.add_loss(cable, pieces)?;
             prev_j = j;
             prev_s = *c;
             let _ = k;
         }
         self.push_line(pieces, z, d - prev_s, prev_j, b, start_m, len_m, prev_s, d, d);
-        self.add_loss(cable, pieces);
+        self.add_loss(cable, pieces)?;
         Ok(())
     }
 
-    /// Design the loss filter of the line just pushed (its own length of the cable).
-    fn add_loss(&mut self, cable: &crate::plant::CableType, pieces: &[LinePiece]) {
-        let Some(p) = pieces.last() else { return };
+    /// Design the loss filter of the line just pushed (its own length of the cable), and
+    /// check its quantized gain stays at or below 1 up to Nyquist before anything is written.
+    fn add_loss(&mut self, cable: &crate::plant::CableType, pieces: &[LinePiece]) -> Result<(), PlantError> {
+        let Some(p) = pieces.last() else { return Ok(()) };
         let fs = 1.0 / self.dt;
         if let Some(d) = super::loss::design(cable, p.end_m - p.start_m, fs, p.line, self.frac) {
+            if d.peak_gain > 1.0 + 1e-9 {
+                let seg = &self.plant.segments[self.pieces.len()];
+                return Err(err(
+                    self.file,
+                    seg.span,
+                    format!("segment[{}]", seg.name),
+                    format!("the loss filter of this segment would gain {:.6} after quantization", d.peak_gain),
+                    "this is a compiler fault; lower the loss or the sample rate and report the plant",
+                ));
+            }
             let extra = d.extra_delay.round().max(0.0) as u32;
             if let Some(l) = self.lines.last_mut() {
                 l.delay += extra;
@@ -231,6 +242,7 @@ impl<'p> Builder<'p> {
             }
             self.losses.push(d.loss);
         }
+        Ok(())
     }
 
     #[allow(clippy::too_many_arguments)]
