@@ -18,9 +18,13 @@
 //!   conductance G_s and optionally a test source (EMF E behind R_s):
 //!   v = (Σ 2·G_k·b_k + E/R_s) / (Σ G_k + G_s + 1/R_s), and every port takes a_k = v − b_k.
 //!   A short has v = 0, a_k = −b_k exactly; an open end alone reflects a = b.
-//! * A **series junction** joins two line ends through a resistor R:
+//! * A **series junction** joins two line ends of equal impedance through a resistor R:
 //!   I = 2(b1 − b2)/(Z1 + Z2 + R), a1 = b1 − Z1·I, a2 = b2 + Z2·I.
-//!   This lets the host lump a cable's conductor resistance so DC obeys Ohm's law.
+//!   This lets the host lump a cable's conductor resistance so DC obeys Ohm's law; a
+//!   series inductor (a choke) is the same junction with a bilinear inductor port.
+//! * **Elements** (bilinear capacitors and inductors, optionally behind a resistor) hang
+//!   from nodes; **loss filters** (attenuating first-order sections) act on the waves
+//!   arriving at the ends of lossy lines.
 //! * A **rig port** is a node with one line end where a real device is attached through a
 //!   physical resistor R_ref = Z0 to a DAC: the core reads the pin voltage v, computes
 //!   a = v − b and drives the DAC at 2·b. The rig's ADC-to-DAC latency L is taken out of
@@ -33,16 +37,19 @@
 //! i16 codes; waves carry `io_shift` more fractional bits (wave = code·2^io_shift).
 //!
 //! Every line has one integer weight g = floor(2^c/Z0) used at both of its ends. At a node
-//! the sum 2·Σ g_k·b_k + g_src·E is exact in double width; the node voltage is reached only
-//! by steps that truncate magnitudes (a reciprocal of the total rounded down, floors on the
-//! magnitude), so |v_q| <= |v_exact| with the same sign. Then a_k = v_q − b_k exactly,
-//! saturated. With E = 0 the stored energy E = Σ_lines g·(wave²) changes at a node by
-//! g_lines·v_q² − g_total·v_q·v_exact <= g_total·v_q·(v_q − v_exact) <= 0: the quantized
-//! network is passive for every topology, loops included, and a plant where every path has
-//! loss decays to exactly zero (no limit cycles). A series junction between lines of equal
-//! impedance changes the energy by 2g·y·(y − x) <= 0 for the same reason (y = c·x truncated,
-//! c <= 1). Between unequal impedances its two coefficients are rounded separately; the
-//! property tests cover that case.
+//! the sum 2·Σ g_k·b_k + g_src·E is exact in double width; the quotient by the node's total
+//! weight is formed from a reciprocal rounded down and made exact by two correction steps
+//! (floor and "remainder nonzero"), and every outgoing wave is its exact value
+//! a_k = v_exact − b_k truncated toward zero, then saturated. So |a_k,q| <= |a_k,exact| port
+//! by port: with E = 0 the stored energy Σ_lines g·(wave²) cannot grow at any junction (the
+//! exact node is passive), for every topology, loops included, and wherever the exact value is
+//! not an integer the truncation removes energy — a plant in which every path has loss decays
+//! to exactly zero, with no limit cycle. Series junctions (equal impedances), series inductors,
+//! reactive elements and loss sections follow the same rule: exact double-width value,
+//! truncated toward zero once, with coefficients rounded so that the quantized element is
+//! itself passive (their modules state the argument). Rounding to nearest, or rounding the
+//! node voltage alone, does not have this property: a lossy node would then reflect a
+//! one-LSB wave losslessly, and the property tests find such limit cycles.
 //!
 //! ## Real-time guarantees
 //! `step` does O(ports + junctions) work, independent of the delays (ring buffers, no data
