@@ -11,7 +11,7 @@
 //! * v = a + b, i = (a − b)/Z0,
 //!
 //! with `a` the wave entering the line and `b` the wave leaving it toward the junction;
-//! current i flows into the line. A line delays each direction: b_far[n] = a_near[n − D]
+//! current i flows into the line. A line delays each direction: `b_far[n] = a_near[n − D]`
 //! (method of characteristics: v + Z0·i leaving one end arrives unchanged D samples later).
 //!
 //! * A **node** joins ports k (conductance G_k = 1/Z_k) in parallel, with a shunt
