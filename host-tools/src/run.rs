@@ -6,7 +6,7 @@
 
 use crate::compile::{Compiled, CoreAction, HostDrive, ProfileKind};
 use crate::twin::Run;
-use tidewire_core::{Narrow, Profile, Side, Solver, Wide};
+use tidewire_core::{Narrow, Profile, Solver, Wide};
 
 /// Host capacity: line ends, junctions, delay storage (waves).
 pub const HOST_PORTS: usize = 4096;
@@ -150,6 +150,5 @@ fn drive<P: Profile, const A: usize, const B: usize, const C: usize, const D: us
             progress(n);
         }
     }
-    let _ = Side::A;
     Ok(out)
 }

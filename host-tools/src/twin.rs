@@ -144,11 +144,10 @@ pub fn run(c: &Compiled, samples: usize, record: &[u16]) -> Run {
                         num += 2.0 * el_state[k] * g;
                         den += g;
                     }
+                    // drive_j is set only for a source or a rig port's device model.
                     if drive_j == Some(j) {
-                        if let Drive::Source { .. } | Drive::Rig { .. } = c.drive {
-                            num += e * g_src;
-                            den += g_src;
-                        }
+                        num += e * g_src;
+                        den += g_src;
                     }
                     let v = match st.shunt[j] {
                         Shunt::Short => 0.0,

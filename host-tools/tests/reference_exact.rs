@@ -343,7 +343,6 @@ fn a_line_fitted_to_the_cat5e_formula_gives_s21_within_a_tenth_of_a_db() {
     // reference's |S21| meets the formula within 0.1 dB at the published table frequencies
     // 1, 4, 10, 16, 31.25, 62.5 and 100 MHz.
     let freqs = [1.0, 4.0, 10.0, 16.0, 31.25, 62.5, 100.0];
-    let db_per_np = 20.0 / std::f64::consts::LN_10;
     let (length, v) = (100.0, 0.68 * C0);
     // Gauss-Newton on (k_c, k_d, R_dc) against the exact |S21| itself (the line's own
     // dispersion and low-frequency impedance included), from the plain fit as the start. The
@@ -354,7 +353,6 @@ fn a_line_fitted_to_the_cat5e_formula_gives_s21_within_a_tenth_of_a_db() {
         -20.0 * segment_s21(&cable(100.0, v, p[2], Some(m)), length, f * 1e6, 100.0).norm().log10()
     };
     let start = fit_cat5e(&freqs);
-    let _ = db_per_np;
     let mut p = [start.k_c, start.k_d, 0.01];
     for _ in 0..10 {
         let r: Vec<f64> = freqs.iter().map(|f| il_of(p, *f) - cat5e_db(*f)).collect();

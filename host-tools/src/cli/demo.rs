@@ -45,7 +45,6 @@ pub(super) fn run(out: &Path) -> Result<i32, Failure> {
     // The drive-to-motor plant: peak motor terminal voltage against cable length.
     let motor_path = out.join("drive-to-motor.toml");
     crate::emit::write_atomic(&motor_path, MOTOR_PLANT.as_bytes()).map_err(|e| io_failure(&motor_path, e))?;
-    let motor = parse_plant(MOTOR_PLANT, &motor_path.display().to_string(), out)?;
     println!("\n!! {}", super::inspect::CAUTION);
     let sweep_svg = out.join("motor-sweep.svg");
     super::sweep::run(
@@ -58,6 +57,5 @@ pub(super) fn run(out: &Path) -> Result<i32, Failure> {
         Some(&sweep_svg),
         ProfileKind::Wide,
     )?;
-    let _ = motor;
     Ok(if v.pass() { 0 } else { 1 })
 }

@@ -194,7 +194,7 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
             })
             .collect();
         let min_first = rig.and_then(|(n, lat)| (n == seg.from || n == seg.to).then_some(lat));
-        let breaks = b.segment(si, seg, &cuts, min_first)?;
+        let breaks = b.segment(seg, &cuts, min_first)?;
         break_junction.extend(breaks);
     }
     if let Some((node, lat)) = rig {
@@ -318,9 +318,6 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
                         ))
                     }
                 };
-                if elements.iter().any(|el| el.junction as usize == n) && shunt == Shunt::Short {
-                    // A short across a capacitor is still a short; the element keeps its state.
-                }
                 CoreAction::SetShunt(node_junction[n], shunt)
             }
             EventAction::Break { .. } => match break_junction.iter().find(|(k, _)| *k == ei) {

@@ -67,7 +67,6 @@ impl<'p> Builder<'p> {
     /// every break.
     pub fn segment(
         &mut self,
-        si: usize,
         seg: &Segment,
         cuts: &[(usize, f64)],
         rig_latency: Option<u32>,
@@ -167,7 +166,6 @@ impl<'p> Builder<'p> {
             t.sections = sections_total;
             t.r_dropped = dropped;
         }
-        let _ = si;
         self.pieces.push(pieces);
         Ok(cut_d.iter().enumerate().filter_map(|(k, (e, _))| e.map(|e| (e, ends[k + 1]))).collect())
     }
@@ -201,13 +199,12 @@ impl<'p> Builder<'p> {
         cuts.dedup();
         let mut prev_j = a;
         let mut prev_s = 0u32;
-        for (k, c) in cuts.iter().enumerate() {
+        for c in &cuts {
             let j = self.new_junction(Junction::Series { milliohm: to_milliohm(r / cuts.len() as f64) })?;
             self.push_line(pieces, z, c - prev_s, prev_j, j, start_m, len_m, prev_s, *c, d);
             self.add_loss(cable, pieces)?;
             prev_j = j;
             prev_s = *c;
-            let _ = k;
         }
         self.push_line(pieces, z, d - prev_s, prev_j, b, start_m, len_m, prev_s, d, d);
         self.add_loss(cable, pieces)?;

@@ -41,7 +41,6 @@ pub(crate) fn load_admittance(load: Load, s: Complex64) -> Complex64 {
 /// segment k, the two-port at that end and the node at its other side.
 pub(crate) struct Solution {
     pub voltages: Vec<Complex64>,
-    pub ports: Vec<TwoPort>,
     pub ends: Vec<[(TwoPort, usize); 2]>,
 }
 
@@ -53,15 +52,10 @@ impl Solution {
             ProbeKind::Voltage(n) => self.voltages[n],
             ProbeKind::Current(k, end) => {
                 let seg = &plant.segments[k];
-                let (here, far) = match end {
-                    End::From => (seg.from, seg.to),
-                    End::To => (seg.to, seg.from),
+                let (here, (tp, other)) = match end {
+                    End::From => (seg.from, self.ends[k][0]),
+                    End::To => (seg.to, self.ends[k][1]),
                 };
-                let (tp, other) = match end {
-                    End::From => self.ends[k][0],
-                    End::To => self.ends[k][1],
-                };
-                let _ = (far, &self.ports);
                 tp.y11 * self.voltages[here] + tp.y12 * self.voltages[other]
             }
         }
@@ -76,7 +70,6 @@ pub(crate) fn solve(plant: &Plant, s: Complex64) -> Result<Solution, ReferenceEr
     let (sigma, f_hz) = (s.re, s.im / (2.0 * PI));
     let mut a = DMatrix::<Complex64>::zeros(n, n);
     let mut b = DVector::<Complex64>::zeros(n);
-    let mut ports = Vec::with_capacity(plant.segments.len());
     let mut ends = Vec::with_capacity(plant.segments.len());
     let mut next = plant.nodes.len();
     let stamp = |a: &mut DMatrix<Complex64>, p: usize, q: usize, y11: Complex64, y12: Complex64| {
@@ -91,7 +84,6 @@ pub(crate) fn solve(plant: &Plant, s: Complex64) -> Result<Solution, ReferenceEr
             None => {
                 let tp = two_port(cable, seg.length, s);
                 stamp(&mut a, seg.from, seg.to, tp.y11, tp.y12);
-                ports.push(tp);
                 ends.push([(tp, seg.to), (tp, seg.from)]);
             }
             Some(inl) => {
@@ -104,7 +96,6 @@ pub(crate) fn solve(plant: &Plant, s: Complex64) -> Result<Solution, ReferenceEr
                 stamp(&mut a, m2, seg.to, t2.y11, t2.y12);
                 let y = 1.0 / (Complex64::new(inl.resistance, 0.0) + s * inl.inductance);
                 stamp(&mut a, m1, m2, y, -y);
-                ports.push(t1);
                 ends.push([(t1, m1), (t2, m2)]);
             }
         }
@@ -131,7 +122,7 @@ pub(crate) fn solve(plant: &Plant, s: Complex64) -> Result<Solution, ReferenceEr
     if v.iter().any(|x| !x.re.is_finite() || !x.im.is_finite()) {
         return Err(ReferenceError::Singular { sigma, f_hz });
     }
-    Ok(Solution { voltages: v.iter().copied().collect(), ports, ends })
+    Ok(Solution { voltages: v.iter().copied().collect(), ends })
 }
 
 #[cfg(test)]
