@@ -17,11 +17,11 @@ pub struct Part {
 /// The two part classes the core targets. Costs: straight-line fits through the measured
 /// instructions per sample of the xtask's bus plants (2, 8, 32 ports; about one junction per
 /// two ports, so the junction cost is folded into the per-port figure), from
-/// `cargo run -p xtask -- firmware` on 2026-12-02: M0 narrow 436.0 / 1116.5 / 3654.1
-/// instructions at 2 / 8 / 32 ports, M4 wide 415 / 1120 / 3600.
+/// `cargo run -p xtask -- firmware` on 2026-12-02: M0 narrow 415.0 / 1098.5 / 3610.0
+/// instructions at 2 / 8 / 32 ports, M4 wide 425 / 1095 / 3591.
 pub const PARTS: [Part; 2] = [
-    Part { name: "Cortex-M0 class (narrow profile)", clock_hz: 48e6, cost: Some((105.7, 0.0, 270.6)) },
-    Part { name: "Cortex-M4 class (wide profile)", clock_hz: 168e6, cost: Some((103.3, 0.0, 293.3)) },
+    Part { name: "Cortex-M0 class (narrow profile)", clock_hz: 48e6, cost: Some((104.6, 0.0, 261.5)) },
+    Part { name: "Cortex-M4 class (wide profile)", clock_hz: 168e6, cost: Some((104.0, 0.0, 263.0)) },
 ];
 
 /// One line per part: instructions per sample, the largest sample rate, and how that
