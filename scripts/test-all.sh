@@ -7,7 +7,31 @@ cd "$(dirname "$0")/.."
 
 step() { printf '\n==> %s\n' "$*"; }
 
-step "toolchain targets"
+step "what this script cannot install"
+# A Rust toolchain at least as new as the workspace's rust-version (one fact, one place:
+# read it from Cargo.toml) and a C linker for the host builds. Check before anything runs.
+need_rust=$(sed -n 's/^rust-version *= *"\([0-9.]*\)".*/\1/p' Cargo.toml | head -n 1)
+if ! command -v cargo >/dev/null 2>&1 || ! command -v rustup >/dev/null 2>&1; then
+  echo "Rust is missing: install rustup (https://rustup.rs) and a toolchain >= $need_rust, then rerun" >&2
+  exit 1
+fi
+have_rust=$(rustc --version | sed -n 's/^rustc \([0-9][0-9.]*\).*/\1/p')
+if [ "$(printf '%s\n%s\n' "$need_rust" "$have_rust" | sort -V | head -n 1)" != "$need_rust" ]; then
+  echo "rustc $have_rust is older than the workspace's rust-version $need_rust: run 'rustup update stable'" >&2
+  exit 1
+fi
+if ! command -v cc >/dev/null 2>&1; then
+  echo "no C linker (cc) found: install one (Debian/Ubuntu: sudo apt-get install build-essential)" >&2
+  exit 1
+fi
+echo "rustc $have_rust (workspace needs >= $need_rust), linker $(command -v cc)"
+
+step "toolchain components and targets"
+for c in rustfmt clippy; do
+  if ! rustup component list --installed | grep -q "^$c"; then
+    rustup component add "$c"
+  fi
+done
 for t in thumbv6m-none-eabi thumbv7em-none-eabihf; do
   if ! rustup target list --installed | grep -qx "$t"; then
     rustup target add "$t"

@@ -2,7 +2,8 @@
 //! core, and the compiled plant against hand calculation from the cable's nominal values.
 use std::path::Path;
 use tidewire::core::{image, Solver, Wide};
-use tidewire::host::compile::{compile, ProfileKind};
+use tidewire::host::analysis::prepare;
+use tidewire::host::compile::ProfileKind;
 use tidewire::host::emit::{image_bytes, rust_source};
 use tidewire::host::plant::load_plant;
 
@@ -18,7 +19,7 @@ fn plant(name: &str) -> (tidewire::host::plant::Plant, String) {
 #[test]
 fn image_and_rust_source_give_the_same_solver() {
     let (p, file) = plant("bench-rig.toml");
-    let c = compile(&p, &file, ProfileKind::Wide).unwrap();
+    let c = prepare(&p, &file, ProfileKind::Wide).unwrap().0;
     // The checked-in Rust source is what `tidewire compile --rust` writes today
     // (regenerate with: tidewire compile examples/plants/bench-rig.toml --rust tests/generated/bench_rig_wide.rs).
     let fresh = rust_source(&c.network(), &p.name);
@@ -54,31 +55,31 @@ fn image_and_rust_source_give_the_same_solver() {
 #[test]
 fn compiled_delays_and_dc_point_match_hand_calculation() {
     // Bench rig: 100 m of CAN-class cable, 5 ns/m and 70 mΩ/m per conductor (ISO 11898-2
-    // table, found, quoted in shared/REFERENCES.md): tau = 500 ns = 50 samples at 100 MHz,
+    // table, found, quoted in docs/references.md): tau = 500 ns = 50 samples at 100 MHz,
     // loop resistance 2 · 0.07 · 100 = 14 Ω. Device 2 V behind 45 Ω, far end 120 Ω:
     // V_far = 2 · 120 / (45 + 14 + 120) = 1.34078 V [closed form].
     let (p, file) = plant("bench-rig.toml");
-    let c = compile(&p, &file, ProfileKind::Wide).unwrap();
+    let c = prepare(&p, &file, ProfileKind::Wide).unwrap().0;
     let seg = &c.report.segments[0];
     assert!((seg.tau - 500e-9).abs() < 1e-15);
-    let total: u32 = c.segment_pieces[0].iter().map(|pc| c.lines[pc.line as usize].delay).sum();
+    let total: u32 = c.segment_pieces[0].iter().map(|pc| c.net.lines[pc.line as usize].delay).sum();
     assert_eq!(total, 50);
     assert!((total as f64 * c.dt - seg.tau).abs() <= seg.error_s.abs() + 1e-15);
     assert!((seg.r_total - 14.0).abs() < 1e-9);
-    let run = tidewire::host::run::run_core(&c, 6000, &[], &|_| {}).unwrap();
-    let far = *run.run.probes[1].last().unwrap();
+    let run = tidewire::host::host_core::run_core(&c, 6000, &[], &|_| {}).unwrap();
+    let far = *run.recording.probes[1].last().unwrap();
     let want = 2.0 * 120.0 / (45.0 + 14.0 + 120.0);
     // Within the ADC quantization of the pin (one code of 5 V / 32768) and 0.1 %.
-    assert!((far - want).abs() < 1e-3 * want + 2.0 * c.volts_per_code as f64, "far end {far} V, hand {want} V");
+    assert!((far - want).abs() < 1e-3 * want + 2.0 * c.net.volts_per_code as f64, "far end {far} V, hand {want} V");
 
     // Packaging line: 60 m of 120 Ω cable at VF 0.66 (RS-485 class [practice]) at 1 GHz:
     // tau = 60 / (0.66 · 299792458) = 303.24 ns -> 303 samples, error -0.24 ns.
     let (p, file) = plant("packaging-line.toml");
-    let c = compile(&p, &file, ProfileKind::Wide).unwrap();
+    let c = prepare(&p, &file, ProfileKind::Wide).unwrap().0;
     let seg = &c.report.segments[0];
     let tau = 60.0 / (0.66 * 299_792_458.0);
     assert!((seg.tau - tau).abs() < 1e-15);
-    let total: u32 = c.segment_pieces[0].iter().map(|pc| c.lines[pc.line as usize].delay).sum();
+    let total: u32 = c.segment_pieces[0].iter().map(|pc| c.net.lines[pc.line as usize].delay).sum();
     assert_eq!(total, 303);
     assert!((seg.error_s - (303e-9 - tau)).abs() < 1e-15);
     assert!(seg.error_s.abs() <= 0.5 * c.dt);

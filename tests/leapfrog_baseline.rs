@@ -1,7 +1,7 @@
 //! Checks of the leapfrog baseline that `benches/versus_leapfrog.rs` measures the core
 //! against: before its cost is compared, it must solve the same physics.
 //!
-//! Numbers: the step into a mismatched line of REFERENCES.md (Ulaby, Fundamentals of Applied
+//! Numbers: the step into a mismatched line of docs/references.md (Ulaby, Fundamentals of Applied
 //! Electromagnetics, problem 2.75): E = 60 V, Rs = 100 Ω, Z0 = 50 Ω, one-way delay T.
 //! With v = 2e8 m/s, dt = 10 ns and 100 m, T = 50 steps and the grid has 50 cells.
 
@@ -43,7 +43,7 @@ fn plateau(trace: &[f64], range: std::ops::Range<usize>, want: f64, tol: f64, wh
 fn first_wave_is_e_z0_over_rs_plus_z0() {
     // Closed form (voltage divider of the source resistance and the line's input impedance
     // Z0 before any reflection returns): V+ = E·Z0/(Rs + Z0) = 60·50/150 = 20 V
-    // [closed form; REFERENCES.md "First wave launched by a source"].
+    // [closed form; docs/references.md, "Junctions and terminations"].
     let out = run(&setup(100.0, FarEnd::Open), 4 * T);
     let v0: Vec<f64> = out.iter().map(|o| o.0).collect();
     let mid: Vec<f64> = out.iter().map(|o| o.1).collect();
@@ -67,7 +67,7 @@ fn open_end_doubles_the_wave_and_the_source_echo_follows() {
 
 #[test]
 fn resistive_load_follows_the_worked_example() {
-    // REFERENCES.md worked example (Ulaby problem 2.75, RL = 25 Ω, published solution set):
+    // docs/references.md worked example (Ulaby problem 2.75, RL = 25 Ω, published solution set):
     // load voltage 13.333, 11.852, 12.016, 11.998 V after T, 3T, 5T, 7T; source end 20,
     // 11.111, 12.099 V after 0, 2T, 4T. The published values carry 3 decimals: ± 1 mV.
     let out = run(&setup(100.0, FarEnd::Resistor(25.0)), 10 * T);

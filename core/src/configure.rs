@@ -241,12 +241,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                 if pole >= 1 << 30 || zero >= pole || zero <= -(1 << 30) {
                     return Err(bad);
                 }
-                let a = pole >> (30 - P::LOSS_FRAC);
-                let b = zero >> (30 - P::LOSS_FRAC); // floor: b only moves away from a
-                                                     // g = floor((1 − a)/(1 − b)), g·b rounded up: the DC gain (g − gb)/(1 − a)
-                                                     // is at most 1 and the effective zero gb/g stays at or above b.
-                let g = ((one - a) << P::LOSS_FRAC) / (one - b).max(1);
-                let gb = (g * b).div_euclid(one) + ((g * b).rem_euclid(one) != 0) as i64;
+                let (a, g, gb) = crate::quantize::loss_section(pole, zero, P::LOSS_FRAC);
                 // Still a section that only attenuates: 0 < a, effective zero below the pole.
                 if a <= 0 || g <= 0 || gb * one >= a * g || g >= 1 << 31 {
                     return Err(bad);

@@ -17,11 +17,9 @@
 //! the topology. Every failure is an error value, never a panic.
 
 use crate::error::BuildError;
-use crate::network::{Drive, Element, Junction, Line, LineLoss, Network, Probe, MAX_PROBES};
 use crate::profile::Profile;
 use crate::solver::Solver;
 use core::fmt;
-use serde::Deserialize;
 
 /// First four bytes of every image.
 pub const MAGIC: [u8; 4] = *b"TIDW";
@@ -96,34 +94,9 @@ impl fmt::Display for ImageError {
 
 impl core::error::Error for ImageError {}
 
-/// A network decoded from an image into fixed-capacity storage (`L` lines, `J` junctions).
-#[derive(Debug, Clone, PartialEq, Deserialize)]
-pub struct ImageNetwork<const L: usize, const J: usize> {
-    lines: heapless::Vec<Line, L>,
-    junctions: heapless::Vec<Junction, J>,
-    elements: heapless::Vec<Element, L>,
-    losses: heapless::Vec<LineLoss, L>,
-    drive: Drive,
-    probes: heapless::Vec<Probe, MAX_PROBES>,
-    io_shift: u8,
-    volts_per_code: f32,
-}
-
-impl<const L: usize, const J: usize> ImageNetwork<L, J> {
-    /// A borrowed view to build a solver from.
-    pub fn network(&self) -> Network<'_> {
-        Network {
-            lines: &self.lines,
-            junctions: &self.junctions,
-            elements: &self.elements,
-            losses: &self.losses,
-            drive: self.drive,
-            probes: &self.probes,
-            io_shift: self.io_shift,
-            volts_per_code: self.volts_per_code,
-        }
-    }
-}
+/// A network decoded from an image into fixed-capacity storage (`L` lines, `J` junctions);
+/// [`crate::OwnedNetwork::network`] gives the view to build a solver from.
+pub type ImageNetwork<const L: usize, const J: usize> = crate::owned::HeaplessNetwork<L, J>;
 
 /// Check the header and CRC of `bytes` and return the body.
 pub fn body(bytes: &[u8]) -> Result<&[u8], ImageError> {

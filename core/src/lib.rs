@@ -65,7 +65,9 @@ pub mod configure;
 pub mod error;
 pub mod image;
 pub mod network;
+pub mod owned;
 pub mod profile;
+pub mod quantize;
 pub mod solver;
 
 pub use error::{BuildError, ConfigError, Table};
@@ -73,5 +75,6 @@ pub use network::{
     Drive, Element, ElementKind, Junction, JunctionId, Line, LineId, LineLoss, Network, Probe, ProbeKind, Shunt, Side,
     MAX_LOSS_SECTIONS, MAX_PROBES, MAX_RIG_LATENCY,
 };
+pub use owned::{HeaplessNetwork, OwnedNetwork};
 pub use profile::{Narrow, Profile, Wide};
 pub use solver::Solver;

@@ -1,12 +1,15 @@
 //! tidewire host tools: plant files, the physics compiler, floating-point references,
 //! verification and plots. Everything that needs `std` or floating point lives here; the
 //! real-time solver is `tidewire-core`.
+pub mod analysis;
 pub mod cli;
 pub mod compile;
 pub mod emit;
+pub mod files;
+pub mod host_core;
 pub mod plant;
 pub mod plot;
 pub mod reference;
-pub mod run;
+pub mod si;
 pub mod twin;
 pub mod verify;

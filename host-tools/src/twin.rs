@@ -15,7 +15,7 @@ use tidewire_core::{Drive, ElementKind, Junction, ProbeKind, Shunt, Side};
 /// Time series of one run: per probe (V or A), and the a-waves at both ends of every line
 /// (for the lattice view), if recorded.
 #[derive(Debug, Clone, PartialEq, Default)]
-pub struct Run {
+pub struct Recording {
     pub probes: Vec<Vec<f64>>,
     /// `line_a[line][n] = (a at end A, a at end B)` in volts, when recorded.
     pub line_a: Vec<Vec<(f64, f64)>>,
@@ -32,52 +32,53 @@ struct State {
 }
 
 /// Run the twin for `samples` samples; record line-end waves of the lines in `record`.
-pub fn run(c: &Compiled, samples: usize, record: &[u16]) -> Run {
-    let nl = c.lines.len();
-    let z: Vec<f64> = c.lines.iter().map(|l| l.z_milliohm as f64 / 1000.0).collect();
+pub fn run(c: &Compiled, samples: usize, record: &[u16]) -> Recording {
+    let nl = c.net.lines.len();
+    let z: Vec<f64> = c.net.lines.iter().map(|l| l.z_milliohm as f64 / 1000.0).collect();
     // rings[2l + s]: waves travelling towards end s of line l.
-    let mut rings: Vec<Vec<f64>> = (0..2 * nl).map(|p| vec![0.0; c.lines[p / 2].delay as usize]).collect();
+    let mut rings: Vec<Vec<f64>> = (0..2 * nl).map(|p| vec![0.0; c.net.lines[p / 2].delay as usize]).collect();
     let mut pos = vec![0usize; 2 * nl];
     let mut a = vec![0.0; 2 * nl];
     let mut b = vec![0.0; 2 * nl];
-    let mut el_state = vec![0.0; c.elements.len()];
+    let mut el_state = vec![0.0; c.net.elements.len()];
     // In-line chokes: the inductor's wave b_L per junction.
-    let mut choke = vec![0.0; c.junctions.len()];
+    let mut choke = vec![0.0; c.net.junctions.len()];
     // Loss filters at both ends of lossy lines: (port, sections (a, g, gb), state (x1, y1)).
     let mut filters: Vec<Filter> = vec![];
-    for l in &c.losses {
+    for l in &c.net.losses {
         let q = crate::compile::loss::quantized(l, 30);
         for side in 0..2 {
             filters.push((2 * l.line as usize + side, q.clone(), vec![(0.0, 0.0); q.len()]));
         }
     }
-    let mut el_a = vec![0.0; c.elements.len()];
+    let mut el_a = vec![0.0; c.net.elements.len()];
     let mut st = State {
         shunt: c
+            .net
             .junctions
             .iter()
             .map(|j| if let Junction::Node { shunt } = j { *shunt } else { Shunt::Open })
             .collect(),
-        broken: vec![false; c.junctions.len()],
+        broken: vec![false; c.net.junctions.len()],
     };
     // Ports of each junction.
-    let mut at: Vec<Vec<usize>> = vec![vec![]; c.junctions.len()];
-    for (i, l) in c.lines.iter().enumerate() {
+    let mut at: Vec<Vec<usize>> = vec![vec![]; c.net.junctions.len()];
+    for (i, l) in c.net.lines.iter().enumerate() {
         at[l.a as usize].push(2 * i);
         at[l.b as usize].push(2 * i + 1);
     }
-    let mut els_at: Vec<Vec<usize>> = vec![vec![]; c.junctions.len()];
-    for (k, e) in c.elements.iter().enumerate() {
+    let mut els_at: Vec<Vec<usize>> = vec![vec![]; c.net.junctions.len()];
+    for (k, e) in c.net.elements.iter().enumerate() {
         els_at[e.junction as usize].push(k);
     }
-    let (drive_j, g_src) = match (c.drive, &c.host_drive) {
+    let (drive_j, g_src) = match (c.net.drive, &c.host_drive) {
         (Drive::Source { junction, milliohm }, _) => (Some(junction as usize), 1000.0 / milliohm as f64),
         (Drive::Rig { junction, .. }, HostDrive::Rig { dut_resistance, .. }) => {
             (Some(junction as usize), 1.0 / dut_resistance)
         }
         _ => (None, 0.0),
     };
-    let mut out = Run { probes: vec![Vec::with_capacity(samples); c.probes.len()], ..Run::default() };
+    let mut out = Recording { probes: vec![Vec::with_capacity(samples); c.net.probes.len()], ..Recording::default() };
     out.line_a = vec![Vec::with_capacity(samples); record.len()];
     let mut ev = c.events.iter().peekable();
     for n in 0..samples {
@@ -102,7 +103,7 @@ pub fn run(c: &Compiled, samples: usize, record: &[u16]) -> Run {
             }
             b[*port] = x;
         }
-        for (j, junc) in c.junctions.iter().enumerate() {
+        for (j, junc) in c.net.junctions.iter().enumerate() {
             match junc {
                 Junction::SeriesInductor { port_milliohm, milliohm } => {
                     let (p, q) = (at[j][0], at[j][1]);
@@ -139,7 +140,7 @@ pub fn run(c: &Compiled, samples: usize, record: &[u16]) -> Run {
                         den += 1.0 / z[p / 2];
                     }
                     for &k in &els_at[j] {
-                        let el = &c.elements[k];
+                        let el = &c.net.elements[k];
                         let g = 1000.0 / (el.port_milliohm as f64 + el.series_milliohm as f64);
                         num += 2.0 * el_state[k] * g;
                         den += g;
@@ -163,7 +164,7 @@ pub fn run(c: &Compiled, samples: usize, record: &[u16]) -> Run {
                 }
             }
         }
-        for (k, pr) in c.probes.iter().enumerate() {
+        for (k, pr) in c.net.probes.iter().enumerate() {
             let p = 2 * pr.line as usize + (pr.side == Side::B) as usize;
             let val = if pr.kind == ProbeKind::Current { (a[p] - b[p]) / z[p / 2] } else { a[p] + b[p] };
             out.probes[k].push(val);
@@ -173,7 +174,7 @@ pub fn run(c: &Compiled, samples: usize, record: &[u16]) -> Run {
             out.line_a[k].push((a[2 * l], a[2 * l + 1]));
         }
         // Reactances: a_c = b + μ·(a − b), μ = R_p/(R_p + R_s); next state a_c (−a_c for L).
-        for (k, el) in c.elements.iter().enumerate() {
+        for (k, el) in c.net.elements.iter().enumerate() {
             let mu = el.port_milliohm as f64 / (el.port_milliohm as f64 + el.series_milliohm as f64);
             let ac = el_state[k] + mu * (el_a[k] - el_state[k]);
             el_state[k] = if el.kind == ElementKind::Inductor { -ac } else { ac };

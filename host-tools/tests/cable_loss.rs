@@ -3,7 +3,8 @@
 //! exact reference.
 use rustfft::{num_complex::Complex64, FftPlanner};
 use std::path::Path;
-use tidewire_host::compile::{compile, ProfileKind};
+use tidewire_host::analysis::prepare;
+use tidewire_host::compile::ProfileKind;
 use tidewire_host::plant::parse_plant;
 use tidewire_host::plant::presets::cat5e_insertion_loss_db_per_100m;
 use tidewire_host::reference::{exact_response, ExactOptions};
@@ -11,7 +12,7 @@ use tidewire_host::reference::{exact_response, ExactOptions};
 /// 100 m of the Cat 5e preset between matched 100 Ω ends at 250 MHz. The preset's loss is
 /// fitted to the TIA-568 insertion-loss formula IL(f) = 1.967·sqrt(f) + 0.023·f +
 /// 0.050/sqrt(f) dB/100 m (f in MHz) [memory for the formula; it reproduces the published
-/// table, see shared/REFERENCES.md]; its DC resistance is set to 0 here because the formula
+/// table, see docs/references.md]; its DC resistance is set to 0 here because the formula
 /// is the cable's insertion loss between matched ends, which the fit already carries.
 fn plant(waveform: &str, duration: &str) -> String {
     format!(
@@ -44,21 +45,21 @@ node = "far"
 }
 
 #[test]
-fn emulated_insertion_loss_follows_the_cat5e_formula_within_half_a_db() {
+fn emulated_insertion_loss_follows_the_cat5e_formula_within_half_a_db_wide_and_1_25_db_narrow() {
     // A one-sample 1 V pulse: the far end's response over 32768 samples (131 us, long
     // after every filter tail has died) is the impulse response; between matched ends
     // V_far = H·E/2, so IL(f) = −20·log10|2·V_far(f)/E(f)|. Checked from 1 MHz to 40 % of the
     // sample rate (100 MHz), both profiles.
     let text = plant(r#"{ pulse = "1 V", width = "4 ns", rise = "0 s", delay = "0 s" }"#, "131.072 us");
     let p = parse_plant(&text, "cat5e.toml", Path::new(".")).unwrap();
-    for (profile, tol) in [(ProfileKind::Wide, 0.5), (ProfileKind::Narrow, 1.5)] {
-        let c = compile(&p, "cat5e.toml", profile).unwrap();
+    for (profile, tol) in [(ProfileKind::Wide, 0.5), (ProfileKind::Narrow, 1.25)] {
+        let c = prepare(&p, "cat5e.toml", profile).unwrap().0;
         let n = c.samples;
         assert_eq!(n, 32768);
-        let run = tidewire_host::run::run_core(&c, n, &[], &|_| {}).unwrap();
+        let run = tidewire_host::host_core::run_core(&c, n, &[], &|_| {}).unwrap();
         let mut planner = FftPlanner::<f64>::new();
         let fft = planner.plan_fft_forward(n);
-        let mut v: Vec<Complex64> = run.run.probes[0].iter().map(|x| Complex64::new(*x, 0.0)).collect();
+        let mut v: Vec<Complex64> = run.recording.probes[0].iter().map(|x| Complex64::new(*x, 0.0)).collect();
         let mut e: Vec<Complex64> = (0..n).map(|k| Complex64::new(c.host_drive.emf_at(k), 0.0)).collect();
         fft.process(&mut v);
         fft.process(&mut e);
@@ -72,7 +73,9 @@ fn emulated_insertion_loss_follows_the_cat5e_formula_within_half_a_db() {
                 worst = (f, err);
             }
         }
-        // The narrow profile's 14-bit filter coefficients and 16-bit waves hold it to 1.5 dB.
+        // The narrow profile's 14-bit filter coefficients and 16-bit waves hold it to
+        // 1.25 dB (measured 1.156 dB at 1 MHz; wide 0.178 dB).
+        eprintln!("{profile:?}: largest miss {:.3} dB at {:.2} MHz", worst.1, worst.0 / 1e6);
         assert!(worst.1 < tol, "{profile:?}: {:.3} dB off the formula at {:.2} MHz", worst.1, worst.0 / 1e6);
     }
 }
@@ -83,11 +86,12 @@ fn step_response_is_within_two_percent_of_the_exact_reference() {
     // core against the exact reference (telegrapher's equations with the same loss), 4 us.
     let text = plant(r#"{ step = "1 V", rise = "10 ns", delay = "0 s" }"#, "4 us");
     let p = parse_plant(&text, "cat5e.toml", Path::new(".")).unwrap();
-    let c = compile(&p, "cat5e.toml", ProfileKind::Wide).unwrap();
-    let run = tidewire_host::run::run_core(&c, c.samples, &[], &|_| {}).unwrap();
+    let c = prepare(&p, "cat5e.toml", ProfileKind::Wide).unwrap().0;
+    let run = tidewire_host::host_core::run_core(&c, c.samples, &[], &|_| {}).unwrap();
     let ex = exact_response(&p, &ExactOptions::for_plant(&p)).unwrap();
-    let worst = run.run.probes[0].iter().zip(&ex.traces[0].values).map(|(a, b)| (a - b).abs()).fold(0.0, f64::max);
+    let worst =
+        run.recording.probes[0].iter().zip(&ex.traces[0].values).map(|(a, b)| (a - b).abs()).fold(0.0, f64::max);
     assert!(worst < 0.02, "largest difference {worst} V of the 1 V step");
     // The loss is really there: at the end of the run the far end is still below E/2.
-    assert!(*run.run.probes[0].last().unwrap() < 0.495);
+    assert!(*run.recording.probes[0].last().unwrap() < 0.495);
 }

@@ -128,7 +128,7 @@ fn failed_writes_leave_nothing_half_written() {
 #[test]
 fn motor_cable_sweep_reproduces_the_critical_length_rule() {
     // Critical length l_c = v·t_rise/2 (Persson, IEEE Trans. IA 28(5), 1992 [memory];
-    // shared/REFERENCES.md): 100 ns rise at v = 1.5e8 m/s gives 7.5 m. Far beyond l_c the
+    // docs/references.md): 100 ns rise at v = 1.5e8 m/s gives 7.5 m. Far beyond l_c the
     // wave reaches the motor whole and reflects: peak = (1 + Γ_L)·Z0/(Z0 + Rs) of the step
     // with Γ_L = (2000 − 80)/(2000 + 80) for the demo's 80 Ω cable, 2 kΩ motor and 4 Ω
     // drive [closed form] = 1.831; well below l_c the peak stays near the step.
@@ -173,4 +173,49 @@ fn motor_cable_sweep_reproduces_the_critical_length_rule() {
     let (l_short, p_short) = rows[0];
     assert!(l_short == 1.0 && p_short < 1.2, "1 m: {p_short}");
     assert!(std::fs::read_to_string(&svg).unwrap().contains("critical length"));
+}
+
+#[test]
+fn simulate_output_reads_back_as_a_samples_waveform() {
+    // The CSV `simulate` writes (time, then one column per probe) drives another plant: the
+    // column after time becomes the drive's samples, one per sample period.
+    let out = tmp("roundtrip");
+    let p = plants().into_iter().find(|p| p.to_string_lossy().contains("packaging-line")).unwrap();
+    let csv = out.join("run.csv");
+    tidewire()
+        .args(["simulate", p.to_str().unwrap(), "--samples", "300", "--csv", csv.to_str().unwrap()])
+        .assert()
+        .success();
+    let written = std::fs::read_to_string(&csv).unwrap();
+    let first_probe: Vec<f64> =
+        written.lines().skip(1).map(|l| l.split(',').nth(1).unwrap().trim().parse().unwrap()).collect();
+    assert_eq!(first_probe.len(), 300);
+    let sample_rate =
+        std::fs::read_to_string(&p).unwrap().lines().find(|l| l.starts_with("sample_rate")).unwrap().to_string();
+    let plant = format!(
+        "[plant]\nname = \"replay\"\n{sample_rate}\nduration = \"100 ns\"\n[node.a]\n[node.b]\nload = \"100 ohm\"\n\
+         [[segment]]\nfrom = \"a\"\nto = \"b\"\ncable = \"twisted-pair-120\"\nlength = \"3 m\"\n\
+         [drive]\nkind = \"source\"\nnode = \"a\"\nresistance = \"50 ohm\"\nwaveform = {{ samples = \"run.csv\" }}\n"
+    );
+    let plant_path = out.join("replay.toml");
+    std::fs::write(&plant_path, &plant).unwrap();
+    let read = tidewire_host::plant::load_plant(&plant_path).unwrap();
+    let tidewire_host::plant::Drive::Source { emf, .. } = read.drive else { panic!("a source drive") };
+    assert_eq!(emf, tidewire_host::plant::Waveform::Samples(first_probe));
+
+    // A time column that does not step by the sample period is refused at its line.
+    let lines: Vec<&str> = written.lines().collect();
+    let later_time = lines[5].split(',').next().unwrap();
+    let skewed: String = lines
+        .iter()
+        .enumerate()
+        .map(|(i, l)| {
+            let l = if i == 3 { format!("{later_time},{}", l.split_once(',').unwrap().1) } else { l.to_string() };
+            l + "\n"
+        })
+        .collect();
+    std::fs::write(&csv, skewed).unwrap();
+    let e = tidewire_host::plant::load_plant(&plant_path).unwrap_err();
+    assert_eq!((e.line, e.field.as_str()), (4, "drive.waveform.samples"), "{e}");
+    assert!(e.message.contains("sample rate"), "{e}");
 }

@@ -1,7 +1,8 @@
 //! Faults injected while the plant runs, and drive waveforms, end to end (plant file →
 //! compiler → core on the host).
 use std::path::Path;
-use tidewire_host::compile::{compile, ProfileKind};
+use tidewire_host::analysis::prepare;
+use tidewire_host::compile::ProfileKind;
 use tidewire_host::plant::{parse_plant, Waveform};
 
 const BREAK_PLANT: &str = r#"
@@ -43,10 +44,10 @@ fn a_break_at_distance_d_echoes_at_the_drive_2d_over_v_after_the_event() {
     // drive 2·d/v = 2·60/(0.66·c) = 606.5 ns after the event. Checked within one sample.
     for profile in [ProfileKind::Wide, ProfileKind::Narrow] {
         let plant = parse_plant(BREAK_PLANT, "break.toml", Path::new(".")).unwrap();
-        let c = compile(&plant, "break.toml", profile).unwrap();
+        let c = prepare(&plant, "break.toml", profile).unwrap().0;
         assert_eq!(c.events.len(), 1);
-        let run = tidewire_host::run::run_core(&c, c.samples, &[], &|_| {}).unwrap();
-        let v = &run.run.probes[0];
+        let run = tidewire_host::host_core::run_core(&c, c.samples, &[], &|_| {}).unwrap();
+        let v = &run.recording.probes[0];
         let dt = c.dt;
         let t_e = 2e-6;
         let start = (t_e / dt).round() as usize;

@@ -116,7 +116,7 @@ fn drive_to_motor_exceeds_the_critical_length_and_warns() {
     assert_eq!((amplitude, rise), (680.0, 100e-9));
     let s = &p.segments[segment(&p, "motor-feed")];
     let v = p.cables[s.cable].velocity;
-    // l_c = v·t_rise/2 = 7.5 m for v = 1.5e8 m/s, 0.1 us (REFERENCES.md, [closed form]).
+    // l_c = v·t_rise/2 = 7.5 m for v = 1.5e8 m/s, 0.1 us (docs/references.md, [closed form]).
     let l_c = v * rise / 2.0;
     assert!(close(l_c, 7.5, 1e-12), "{l_c}");
     assert!(s.length > 10.0 * l_c);
@@ -161,7 +161,7 @@ fn bench_rig_is_a_rig_port_on_can_cable() {
     assert!(close(p.cables[s.cable].velocity, 2e8, 1e-12));
     // arrival = "10 ns" at 100 MHz is one sample.
     assert!(close(p.tolerances.arrival_samples, 1.0, 1e-12));
-    // The compiler needs the first round trip > latency + 1 samples (ARCHITECTURE.md).
+    // The compiler needs the first round trip > latency + 1 samples (docs/references.md, "Rig port").
     let round_trip = 2.0 * s.length / p.cables[s.cable].velocity * p.sample_rate;
     assert!(round_trip > 3.0);
 }
@@ -264,7 +264,7 @@ fn delay_per_metre_and_loss_coefficients() {
 #[test]
 fn loss_points_in_a_file_reproduce_the_rg213_table() {
     // RG-213 class: 4.9 / 8.9 / 16.3 / 24.7 dB/100 m at 50 / 150 / 450 / 850 MHz (found,
-    // REFERENCES.md). The two-term fit stays within 0.5 dB/100 m of every point.
+    // docs/references.md). The two-term fit stays within 0.5 dB/100 m of every point.
     let p = parse(&with_cable(
         "impedance = \"50 ohm\"\nvelocity_factor = 0.66\nloss = [\n\
          { at = \"50 MHz\", attenuation = \"4.9 dB/100m\" },\n\
@@ -324,7 +324,7 @@ fn a_missing_plant_file_is_an_error_not_a_panic() {
 }
 
 // ---------------------------------------------------------------------------------------
-// Presets against REFERENCES.md
+// Presets against docs/references.md
 
 #[test]
 fn preset_values_match_the_reference_list() {
@@ -363,7 +363,7 @@ fn preset_values_match_the_reference_list() {
     assert_eq!(can.z0, 120.0);
     assert!(close(1.0 / can.velocity, 5e-9, 1e-12));
     assert!(close(can.r_per_m, 2.0 * 0.070, 1e-12));
-    // Motor cable: v = 1.5e8 m/s (REFERENCES.md example); impedance is a demo value.
+    // Motor cable: v = 1.5e8 m/s (docs/references.md example); impedance is a demo value.
     assert_eq!(get("motor-cable").velocity, 1.5e8);
     assert!(get("motor-cable").source.contains("demo"));
     // Wire pairs: 18 AWG 20.9 mohm/m, 20 AWG 33.3 mohm/m per conductor [memory].
@@ -389,7 +389,7 @@ fn rg213_preset_fit_is_within_half_a_db_of_its_table() {
 
 #[test]
 fn cat5e_formula_reproduces_the_published_table() {
-    // TIA-568 Cat 5e insertion loss table (found, REFERENCES.md), dB per 100 m.
+    // TIA-568 Cat 5e insertion loss table (found, docs/references.md), dB per 100 m.
     for (mhz, db) in [(1.0, 2.0), (4.0, 4.1), (10.0, 6.5), (16.0, 8.2), (31.25, 11.7), (62.5, 17.0), (100.0, 22.0)] {
         let got = cat5e_insertion_loss_db_per_100m(mhz * 1e6);
         assert!((got - db).abs() <= 0.1, "{mhz} MHz: {got} vs {db}");

@@ -60,7 +60,7 @@ fn peak(values: &[f64]) -> f64 {
 #[test]
 fn ulaby_step_into_mismatched_line_follows_the_bounce_series() {
     // Source: Ulaby, Fundamentals of Applied Electromagnetics, problem 2.75 (worked in a
-    // published solution set; /work/shared/REFERENCES.md). Vg = 60 V, Rg = 100, Z0 = 50,
+    // published solution set; docs/references.md). Vg = 60 V, Rg = 100, Z0 = 50,
     // RL = 25, T = 5 ns; at 1 GHz T is 5 samples, on the grid.
     let c = cable(50.0, 2.0e8, 0.0, None);
     let plant = one_line(c, 1.0, step(60.0, 0.0), 100.0, Load::Resistor(25.0), 1.0e9);
@@ -81,7 +81,7 @@ fn ulaby_step_into_mismatched_line_follows_the_bounce_series() {
         let got = feed[2 * k * t + t]; // middle of [2kT, 2(k+1)T)
         assert!((got - want).abs() <= 1e-6 * want, "feed plateau {k}: {got} vs {want}");
     }
-    // The published rounded values, REFERENCES.md: 13.333, 11.852, 12.016, 11.998 V at the
+    // The published rounded values, docs/references.md: 13.333, 11.852, 12.016, 11.998 V at the
     // load and 20, 11.111, 12.099 V at the source end.
     for (got, want) in [10, 20, 30, 40].iter().map(|&m| load[m]).zip([13.333, 11.852, 12.016, 11.998]) {
         assert!((got - want).abs() < 6e-4, "{got} vs published {want}");
@@ -119,7 +119,7 @@ fn lossy_line_settles_to_ohms_law() {
 }
 
 /// TIA-568 category 5e insertion loss, dB per 100 m, f in MHz [memory for the formula]
-/// (REFERENCES.md). Local to this test on purpose.
+/// (docs/references.md). Local to this test on purpose.
 fn cat5e_db(f_mhz: f64) -> f64 {
     1.967 * f_mhz.sqrt() + 0.023 * f_mhz + 0.050 / f_mhz.sqrt()
 }
@@ -161,7 +161,7 @@ fn cat5e_fit_reproduces_the_insertion_loss_curve_within_what_the_model_can_reach
     for &f in &freqs {
         let il = -20.0 * segment_s21(&c, length, f * 1e6, 100.0).norm().log10();
         let fitted = db_per_np * length * (loss.k_c * (f * 1e6).sqrt() + loss.k_d * f * 1e6);
-        // Source: TIA-568 cat 5e formula [memory for the formula], REFERENCES.md. The brief
+        // Source: TIA-568 cat 5e formula [memory for the formula], docs/references.md. The brief
         // asked for 0.1 dB; the exact causal line cannot reach it: the 0.05/sqrt(f) term is
         // not representable by k_c·sqrt(f) + k_d·f (fit residual 0.043 dB at 1 MHz), and the
         // internal reactance above puts the line about 0.11–0.16 dB below the formula.
@@ -179,7 +179,7 @@ fn cat5e_fit_reproduces_the_insertion_loss_curve_within_what_the_model_can_reach
 #[test]
 fn motor_cable_longer_than_the_critical_length_nearly_doubles_the_edge() {
     // Source: critical length l_c = v·t_rise/2 (Persson, IEEE Trans. IA 28(5), 1992
-    // [memory]; REFERENCES.md): 680 V, 0.1 us 10–90 % rise, v = 1.5e8 m/s, l_c = 7.5 m.
+    // [memory]; docs/references.md): 680 V, 0.1 us 10–90 % rise, v = 1.5e8 m/s, l_c = 7.5 m.
     // The motor is an open end at edge frequencies; the drive is ~1 ohm; cable 80 ohm.
     let c = cable(80.0, 1.5e8, 0.0, None);
     let e = 680.0;
@@ -336,7 +336,7 @@ fn dc_currents_are_the_low_frequency_limit_of_the_line_solution() {
 #[test]
 fn a_line_fitted_to_the_cat5e_formula_gives_s21_within_a_tenth_of_a_db() {
     // The line "described by" the TIA-568 Category 5e insertion-loss formula [memory for the
-    // formula; REFERENCES.md]: a causal cable model whose |S21| over 100 m is fitted to the
+    // formula; docs/references.md]: a causal cable model whose |S21| over 100 m is fitted to the
     // formula: k_c and k_d are fitted (least squares over the table frequencies) to the exact
     // line's own |S21|, so the causal skin term's internal reactance, which lowers the
     // attenuation by k_c²·v/(2·pi) per metre [closed form, see above], is part of the fit. Then the exact

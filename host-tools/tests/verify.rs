@@ -2,7 +2,8 @@
 //! plant, and a verify that must fail.
 use assert_cmd::Command;
 use std::path::Path;
-use tidewire_host::compile::{compile, ProfileKind};
+use tidewire_host::analysis::prepare;
+use tidewire_host::compile::ProfileKind;
 use tidewire_host::plant::parse_plant;
 use tidewire_host::reference::{exact_response, ExactOptions};
 
@@ -57,7 +58,7 @@ end = "to"
 #[test]
 fn twin_and_exact_reference_agree_on_a_lossless_on_grid_plant() {
     let plant = parse_plant(ON_GRID, "on-grid.toml", Path::new(".")).unwrap();
-    let c = compile(&plant, "on-grid.toml", ProfileKind::Wide).unwrap();
+    let c = prepare(&plant, "on-grid.toml", ProfileKind::Wide).unwrap().0;
     let tw = tidewire_host::twin::run(&c, c.samples, &[]);
     let ex = exact_response(&plant, &ExactOptions::for_plant(&plant)).unwrap();
     let mut worst = 0.0f64;
@@ -69,11 +70,11 @@ fn twin_and_exact_reference_agree_on_a_lossless_on_grid_plant() {
     }
     assert!(worst < 1e-9, "twin vs exact: {worst:e} of the 1 V step");
     // And the core is close to both (arithmetic error only).
-    let core = tidewire_host::run::run_core(&c, c.samples, &[], &|_| {}).unwrap();
+    let core = tidewire_host::host_core::run_core(&c, c.samples, &[], &|_| {}).unwrap();
     for (k, t) in ex.traces.iter().enumerate() {
         let scale = if t.unit == "A" { 1.0 / 50.0 } else { 1.0 };
-        let e = core.run.probes[k].iter().zip(&t.values).map(|(a, b)| (a - b).abs() / scale).fold(0.0, f64::max);
-        assert!(e < 2.0 * c.volts_per_code as f64, "core vs exact {e:e}");
+        let e = core.recording.probes[k].iter().zip(&t.values).map(|(a, b)| (a - b).abs() / scale).fold(0.0, f64::max);
+        assert!(e < 2.0 * c.net.volts_per_code as f64, "core vs exact {e:e}");
     }
 }
 
@@ -156,8 +157,8 @@ fn shunt_capacitance_and_rc_terminations_pass_verify() {
     // domain) with the default tolerances: 5 % max, 1 % rms of the step, first edge within
     // one sample, final value within 0.2 % of the DC point (the capacitors are open at DC).
     let plant = parse_plant(REACTIVE, "reactive.toml", Path::new(".")).unwrap();
-    let c = compile(&plant, "reactive.toml", ProfileKind::Wide).unwrap();
-    assert_eq!(c.elements.len(), 2, "one bilinear capacitor per reactive load");
+    let c = prepare(&plant, "reactive.toml", ProfileKind::Wide).unwrap().0;
+    assert_eq!(c.net.elements.len(), 2, "one bilinear capacitor per reactive load");
     let (v, _) = tidewire_host::verify::verify(&plant, "reactive.toml", &c, &[], &|_| {}).unwrap();
     for p in &v.probes {
         assert!(
@@ -215,8 +216,8 @@ fn series_inductance_in_line_passes_verify() {
     // reference (the choke as 1/(R + sL) between two internal nodes), default tolerances.
     // [closed form] DC: 5 V · 120/(120 + 0.5 + 120) at the far end.
     let plant = parse_plant(CHOKE, "choke.toml", Path::new(".")).unwrap();
-    let c = compile(&plant, "choke.toml", ProfileKind::Wide).unwrap();
-    assert!(c.junctions.iter().any(|j| matches!(j, tidewire_core::Junction::SeriesInductor { .. })));
+    let c = prepare(&plant, "choke.toml", ProfileKind::Wide).unwrap().0;
+    assert!(c.net.junctions.iter().any(|j| matches!(j, tidewire_core::Junction::SeriesInductor { .. })));
     let (v, _) = tidewire_host::verify::verify(&plant, "choke.toml", &c, &[], &|_| {}).unwrap();
     for p in &v.probes {
         assert!(

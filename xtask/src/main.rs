@@ -6,11 +6,14 @@
 //!   comparison of the two stimuli), compare every hash with the host core, print the table.
 //! * `firmware --inject-panic`: build with a panicking `unwrap` on the per-sample path; succeeds
 //!   only if both links fail on the undefined panic symbol.
+//! * `soak [--cases N] [--hours H]`: the property suites with many cases, for hours if asked
+//!   (see `soak.rs`).
 mod gen;
 mod host;
 mod parts;
 mod plants;
 mod run;
+mod soak;
 #[path = "../../examples/firmware/src/stimulus.rs"]
 #[allow(dead_code)]
 mod stimulus;
@@ -32,7 +35,8 @@ fn main() -> ExitCode {
     let result = match args.iter().map(String::as_str).collect::<Vec<_>>().as_slice() {
         ["firmware"] => firmware(false),
         ["firmware", "--inject-panic"] => firmware(true),
-        _ => Err("usage: cargo run -p xtask -- firmware [--inject-panic]".into()),
+        ["soak", rest @ ..] => soak::soak(rest),
+        _ => Err("usage: cargo run -p xtask -- firmware [--inject-panic] | soak [--cases N] [--hours H]".into()),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

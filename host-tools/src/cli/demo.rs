@@ -1,9 +1,10 @@
 //! `tidewire demo`: the main job on a built-in demo plant.
+use super::compile_cmd::write_outputs;
 use super::inspect::report_text;
-use super::output::write_outputs;
 use super::verify_cmd::{verdict_text, verify_and_write};
 use super::{io_failure, Failure};
-use crate::compile::{compile, ProfileKind};
+use crate::analysis::prepare;
+use crate::compile::ProfileKind;
 use crate::plant::parse_plant;
 use std::path::Path;
 
@@ -21,18 +22,18 @@ pub(super) fn run(out: &Path) -> Result<i32, Failure> {
     let plant = parse_plant(DEMO_PLANT, &file, out)?;
     println!("tidewire demo: the built-in plant \"{}\", written to {}\n", plant.name, plant_path.display());
 
-    let c = compile(&plant, &file, ProfileKind::Wide)?;
-    print!("{}", report_text(&plant, &c, &file));
+    let (c, a) = prepare(&plant, &file, ProfileKind::Wide)?;
+    print!("{}", report_text(&plant, &c, &a, &file));
     println!();
     write_outputs(&c, &plant.name, Some(&out.join("plant-wide.bin")), Some(&out.join("plant-wide.rs")))?;
-    let narrow = compile(&plant, &file, ProfileKind::Narrow)?;
+    let (narrow, _) = prepare(&plant, &file, ProfileKind::Narrow)?;
     write_outputs(&narrow, &plant.name, Some(&out.join("plant-narrow.bin")), None)?;
 
     let csv = out.join("simulate.csv");
-    let r = crate::run::run_core(&c, c.samples, &[], &|_| {})
+    let r = crate::host_core::run_core(&c, c.samples, &[], &|_| {})
         .map_err(|e| Failure { code: 2, message: format!("error: {e}") })?;
-    let bytes =
-        super::simulate::probes_csv(&c.probe_names, c.dt, &[("", &r.run.probes)]).map_err(|e| io_failure(&csv, e))?;
+    let bytes = super::simulate::probes_csv(&c.probe_names, c.dt, &[("", &r.recording.probes)])
+        .map_err(|e| io_failure(&csv, e))?;
     crate::emit::write_atomic(&csv, &bytes).map_err(|e| io_failure(&csv, e))?;
     println!("wrote simulation  {} ({} samples, fixed-point core)", csv.display(), c.samples);
 

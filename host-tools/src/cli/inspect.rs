@@ -1,5 +1,6 @@
 //! `tidewire inspect`: what the compiled emulation will be, in the engineer's units.
-use super::{load_and_compile, Failure};
+use super::{load_and_prepare, Failure};
+use crate::analysis::Analysis;
 use crate::compile::{Compiled, ProfileKind};
 use crate::plant::Plant;
 use std::fmt::Write as _;
@@ -15,28 +16,10 @@ connects to drive outputs, mains or other hazardous voltages must be designed, b
 people under your local electrical codes and licensed practice (isolation, enclosures, interlocks, discharge). \
 Never attach a low-voltage rig port directly to such a circuit.";
 
-fn eng(v: f64, unit: &str) -> String {
-    let a = v.abs();
-    let (s, p) = if a == 0.0 {
-        (1.0, "")
-    } else if a < 1e-6 {
-        (1e9, "n")
-    } else if a < 1e-3 {
-        (1e6, "u")
-    } else if a < 1.0 {
-        (1e3, "m")
-    } else if a < 1e3 {
-        (1.0, "")
-    } else if a < 1e6 {
-        (1e-3, "k")
-    } else {
-        (1e-6, "M")
-    };
-    format!("{:.4} {p}{unit}", v * s)
-}
+use crate::si::format as eng;
 
 /// The report as text.
-pub fn report_text(plant: &Plant, c: &Compiled, file: &str) -> String {
+pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> String {
     let r = &c.report;
     let mut s = String::new();
     let _ = writeln!(s, "== {} ==  [{}]", plant.name, file);
@@ -49,7 +32,7 @@ pub fn report_text(plant: &Plant, c: &Compiled, file: &str) -> String {
         c.samples,
         eng(c.samples as f64 * c.dt, "s")
     );
-    if r.peak_emf >= CAUTION_VOLTS {
+    if a.peak_emf >= CAUTION_VOLTS {
         let _ = writeln!(s, "\n!! {CAUTION}");
     }
     for n in &r.notes {
@@ -96,9 +79,9 @@ pub fn report_text(plant: &Plant, c: &Compiled, file: &str) -> String {
     for g in &r.reflections {
         let _ = writeln!(s, "   {:<14} <- {:<18} Γ = {:+.4}", g.node, g.segment, g.gamma);
     }
-    if !r.dc.is_empty() {
+    if !a.dc.is_empty() {
         let _ = writeln!(s, "\n-- DC operating point, drive at its final value");
-        for (n, v) in &r.dc {
+        for (n, v) in &a.dc {
             let _ = writeln!(s, "   {:<14} {}", n, eng(*v, "V"));
         }
     }
@@ -106,21 +89,21 @@ pub fn report_text(plant: &Plant, c: &Compiled, file: &str) -> String {
     let _ = writeln!(
         s,
         "   one I/O code = {}, waves carry {} more fraction bits (one wave LSB = {})",
-        eng(c.volts_per_code as f64, "V"),
-        c.io_shift,
+        eng(c.net.volts_per_code as f64, "V"),
+        c.net.io_shift,
         eng(c.volts_per_lsb(), "V")
     );
     let _ = writeln!(
         s,
         "   largest wave {} (f64 twin, this drive); wave range {}; headroom x{:.1}",
-        eng(r.peak_wave, "V"),
-        eng(r.wave_range, "V"),
-        r.headroom
+        eng(a.peak_wave, "V"),
+        eng(a.wave_range, "V"),
+        a.headroom
     );
     let _ = writeln!(
         s,
         "   largest line impedance error from weight quantization: {:.2e} (relative)",
-        r.max_impedance_error
+        a.max_impedance_error
     );
     let worst = r.segments.iter().map(|t| (t.error_s / t.tau).abs()).fold(0.0, f64::max);
     let _ = writeln!(s, "   largest delay quantization error: {:.3} % of a segment's delay", 100.0 * worst);
@@ -133,17 +116,17 @@ pub fn report_text(plant: &Plant, c: &Compiled, file: &str) -> String {
         r.ports, r.junctions, r.memory_waves
     );
     let _ = writeln!(s, "   RAM about {wide_kb:.1} KiB (wide) / {narrow_kb:.1} KiB (narrow)");
-    for b in crate::compile::budget::budgets(r.ports, r.junctions, 1.0 / c.dt) {
+    for b in crate::analysis::budget::budgets(r.ports, r.junctions, 1.0 / c.dt) {
         let _ = writeln!(s, "   {b}");
     }
-    for w in &r.warnings {
+    for w in &a.warnings {
         let _ = writeln!(s, "\n!! warning: {w}");
     }
     s
 }
 
 pub(super) fn run(path: &Path, profile: ProfileKind) -> Result<i32, Failure> {
-    let (plant, c) = load_and_compile(path, profile)?;
-    print!("{}", report_text(&plant, &c, &path.display().to_string()));
+    let (plant, c, a) = load_and_prepare(path, profile)?;
+    print!("{}", report_text(&plant, &c, &a, &path.display().to_string()));
     Ok(0)
 }

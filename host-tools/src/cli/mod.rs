@@ -1,13 +1,14 @@
 //! The `tidewire` command line. Exit codes: 0 success (verify: pass), 1 verify failed,
 //! 2 bad input or a failed write (a located message on stderr, nothing half-written).
+mod compile_cmd;
 mod demo;
 mod inspect;
-mod output;
 mod simulate;
-pub mod sweep;
+mod sweep;
 mod verify_cmd;
 
-use crate::compile::{compile, Compiled, ProfileKind};
+use crate::analysis::{prepare, Analysis};
+use crate::compile::{Compiled, ProfileKind};
 use crate::plant::{load_plant, Plant, PlantError};
 use clap::{Parser, Subcommand, ValueEnum};
 use std::path::{Path, PathBuf};
@@ -128,11 +129,12 @@ pub(crate) fn io_failure(path: &Path, e: impl std::fmt::Display) -> Failure {
     Failure { code: 2, message: format!("error: {}: {e}", path.display()) }
 }
 
-pub(crate) fn load_and_compile(path: &Path, profile: ProfileKind) -> Result<(Plant, Compiled), Failure> {
+/// Read the plant file at `path`, compile and analyse it.
+pub(crate) fn load_and_prepare(path: &Path, profile: ProfileKind) -> Result<(Plant, Compiled, Analysis), Failure> {
     let plant = load_plant(path)?;
     let file = path.display().to_string();
-    let c = compile(&plant, &file, profile)?;
-    Ok((plant, c))
+    let (c, a) = prepare(&plant, &file, profile)?;
+    Ok((plant, c, a))
 }
 
 /// Run the command line; returns the process exit code.
@@ -147,7 +149,7 @@ pub fn main() -> i32 {
     let r = match cli.command {
         Command::Inspect { plant, profile } => inspect::run(&plant, profile.into()),
         Command::Compile { plant, image, rust, profile } => {
-            output::compile_cmd(&plant, image.as_deref(), rust.as_deref(), profile.into())
+            compile_cmd::run(&plant, image.as_deref(), rust.as_deref(), profile.into())
         }
         Command::Simulate { plant, samples, csv, profile } => simulate::run(&plant, samples, &csv, profile.into()),
         Command::Verify { plant, svg, lattice, csv, profile } => {

@@ -1,8 +1,8 @@
 //! `tidewire simulate`: the real fixed-point core on the host, probes to CSV.
-use super::output::progress;
-use super::{io_failure, load_and_compile, Failure};
+use super::compile_cmd::progress;
+use super::{io_failure, load_and_prepare, Failure};
 use crate::compile::ProfileKind;
-use crate::run::run_core;
+use crate::host_core::run_core;
 use std::path::Path;
 
 /// CSV of time (s) and each probe (V or A): header names carry the unit.
@@ -33,7 +33,7 @@ pub(crate) fn probes_csv(
 }
 
 pub(super) fn run(path: &Path, samples: Option<usize>, csv_path: &Path, profile: ProfileKind) -> Result<i32, Failure> {
-    let (plant, c) = load_and_compile(path, profile)?;
+    let (plant, c, _) = load_and_prepare(path, profile)?;
     if samples == Some(0) {
         return Err(Failure { code: 2, message: "error: --samples must be at least 1".into() });
     }
@@ -42,7 +42,7 @@ pub(super) fn run(path: &Path, samples: Option<usize>, csv_path: &Path, profile:
     let r = run_core(&c, n, &[], &|k| pb.set_position(k as u64))
         .map_err(|e| Failure { code: 2, message: format!("error: {e}") })?;
     pb.finish_and_clear();
-    let bytes = probes_csv(&c.probe_names, c.dt, &[("", &r.run.probes)]).map_err(|e| io_failure(csv_path, e))?;
+    let bytes = probes_csv(&c.probe_names, c.dt, &[("", &r.recording.probes)]).map_err(|e| io_failure(csv_path, e))?;
     crate::emit::write_atomic(csv_path, &bytes).map_err(|e| io_failure(csv_path, e))?;
     println!("simulated {} samples of \"{}\" ({} profile) -> {}", n, plant.name, c.profile.name(), csv_path.display());
     Ok(0)

@@ -1,53 +1,10 @@
-//! `tidewire sweep`: one segment's length varied, the peak of one probe from the fixed-point
-//! core at each length — for example the motor terminal voltage against cable length,
-//! beside the critical length l_c = v·t_rise/2 of the drive's edge.
+//! `tidewire sweep`: the command around `crate::analysis::sweep` (arguments, table, SVG).
 use super::{io_failure, Failure};
-use crate::compile::{compile, ProfileKind};
-use crate::plant::{load_plant, Drive, Plant, Waveform};
+use crate::analysis::sweep::{rise_of, sweep, SweepError};
+use crate::compile::ProfileKind;
+use crate::plant::load_plant;
 use crate::plot::{write_sweep, SweepPlot};
 use std::path::Path;
-
-/// One point of a sweep: length (m) and the probe's peak over the run, as a multiple of the
-/// drive's step.
-pub struct SweepPoint {
-    pub length: f64,
-    pub peak_ratio: f64,
-}
-
-/// The drive's 10–90 % rise time, if its waveform has one.
-fn rise_of(plant: &Plant) -> Option<f64> {
-    let w = match &plant.drive {
-        Drive::Source { emf, .. } => emf,
-        Drive::Rig { stimulus, .. } => stimulus,
-    };
-    match w {
-        Waveform::Step { rise, .. } | Waveform::Pulse { rise, .. } | Waveform::Pwm { rise, .. } => Some(*rise),
-        Waveform::Samples(_) => None,
-    }
-}
-
-/// Run the sweep.
-pub fn sweep(
-    plant: &Plant,
-    file: &str,
-    segment: usize,
-    probe: usize,
-    lengths: &[f64],
-    profile: ProfileKind,
-) -> Result<Vec<SweepPoint>, Failure> {
-    let mut out = vec![];
-    for &len in lengths {
-        let mut p = plant.clone();
-        p.segments[segment].length = len;
-        let c = compile(&p, file, profile)?;
-        let r = crate::run::run_core(&c, c.samples, &[], &|_| {})
-            .map_err(|e| Failure { code: 2, message: format!("error: {e}") })?;
-        let step = c.host_drive.emf().iter().fold(0.0f64, |m, x| m.max(x.abs()));
-        let peak = r.run.probes[probe].iter().fold(0.0f64, |m, x| m.max(x.abs()));
-        out.push(SweepPoint { length: len, peak_ratio: peak / step });
-    }
-    Ok(out)
-}
 
 #[allow(clippy::too_many_arguments)]
 pub(super) fn run(
@@ -79,7 +36,10 @@ pub(super) fn run(
         return Err(bad("--from must be > 0, --to above it, and --steps at least 2".into()));
     }
     let lengths: Vec<f64> = (0..steps).map(|k| from * (to / from).powf(k as f64 / (steps - 1) as f64)).collect();
-    let pts = sweep(&plant, &file, si, pi, &lengths, profile)?;
+    let pts = sweep(&plant, &file, si, pi, &lengths, profile).map_err(|e| match e {
+        SweepError::Plant(e) => Failure::from(e),
+        SweepError::Run(e) => Failure { code: 2, message: format!("error: {e}") },
+    })?;
     let v = plant.cables[plant.segments[si].cable].velocity;
     let lc = rise_of(&plant).map(|r| v * r / 2.0);
     println!("== sweep: {} ==  peak of \"{probe}\" against the length of \"{segment}\"", plant.name);

@@ -1,7 +1,7 @@
 //! `tidewire verify`: figures, pictures, verdict.
-use super::output::progress;
+use super::compile_cmd::progress;
 use super::simulate::probes_csv;
-use super::{io_failure, load_and_compile, Failure};
+use super::{io_failure, load_and_prepare, Failure};
 use crate::compile::{Compiled, ProfileKind};
 use crate::plant::Plant;
 use crate::plot::{write_lattice, write_waveforms, LatticeMap, Series, WaveformPlot};
@@ -17,19 +17,7 @@ fn ok(b: bool) -> &'static str {
     }
 }
 
-fn si(v: f64, unit: &str) -> String {
-    let a = v.abs();
-    let (s, p) = if a == 0.0 || a >= 1.0 {
-        (1.0, "")
-    } else if a >= 1e-3 {
-        (1e3, "m")
-    } else if a >= 1e-6 {
-        (1e6, "u")
-    } else {
-        (1e9, "n")
-    };
-    format!("{:.4} {p}{unit}", v * s)
-}
+use crate::si::format as si;
 
 /// The verdict as text.
 pub fn verdict_text(plant: &Plant, c: &Compiled, v: &Verification) -> String {
@@ -126,7 +114,7 @@ pub(crate) fn write_svg(path: &Path, c: &Compiled, tr: &Traces) -> Result<(), Fa
             unit,
             emulated: Series {
                 label: "tidewire core",
-                values: &tr.core.run.probes[k][..tr.exact_len.min(tr.core.run.probes[k].len())],
+                values: &tr.core.recording.probes[k][..tr.exact_len.min(tr.core.recording.probes[k].len())],
             },
             reference: Series { label: "exact reference", values: &tr.exact[k] },
             extra: vec![],
@@ -143,7 +131,7 @@ pub(crate) fn write_lattice_svg(
     lp: &lattice::Path,
     tr: &Traces,
 ) -> Result<(), Failure> {
-    let (positions, values) = lattice::map(c, lp, &tr.core.run.line_a);
+    let (positions, values) = lattice::map(c, lp, &tr.core.recording.line_a);
     let names: Vec<(f64, &str)> = lp.boundaries.iter().map(|(x, n)| (*x, n.as_str())).collect();
     let title = format!("{}: voltage along the path (tidewire core)", plant.name);
     let map = LatticeMap { title: &title, dt: c.dt, positions: &positions, values: &values, boundaries: &names };
@@ -177,7 +165,7 @@ pub(crate) fn verify_and_write(
         let bytes = probes_csv(
             &c.probe_names,
             c.dt,
-            &[("core", &tr.core.run.probes), ("twin", &tr.twin.probes), ("exact", &tr.exact)],
+            &[("core", &tr.core.recording.probes), ("twin", &tr.twin.probes), ("exact", &tr.exact)],
         )
         .map_err(|e| io_failure(p, e))?;
         crate::emit::write_atomic(p, &bytes).map_err(|e| io_failure(p, e))?;
@@ -192,7 +180,7 @@ pub(super) fn run(
     csv: Option<&Path>,
     profile: ProfileKind,
 ) -> Result<i32, Failure> {
-    let (plant, c) = load_and_compile(path, profile)?;
+    let (plant, c, _) = load_and_prepare(path, profile)?;
     let v = verify_and_write(&plant, &c, &path.display().to_string(), svg, lat, csv)?;
     print!("{}", verdict_text(&plant, &c, &v));
     for p in [svg, lat, csv].into_iter().flatten() {

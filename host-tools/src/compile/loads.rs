@@ -7,7 +7,7 @@ use tidewire_core::{ElementKind, Shunt};
 pub(super) type ElementSpec = (ElementKind, u32, u32);
 
 /// A load as (shunt, [(element kind, port mΩ, series mΩ)]). A capacitor C at sample period
-/// T is the bilinear-transform port of resistance T/(2C) (shared/REFERENCES.md, wave
+/// T is the bilinear-transform port of resistance T/(2C) (docs/references.md, wave
 /// digital filters).
 pub(super) fn realize(
     load: &Load,

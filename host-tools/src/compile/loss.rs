@@ -141,18 +141,14 @@ fn shelves(x: &[f64], fs: f64) -> Vec<(f64, f64)> {
 }
 
 /// The core's quantization of a designed filter at `frac` coefficient bits, as
-/// (a, g, gb) fractions of one per section, computed with the core's integer rules:
-/// g = floor((1 − a)/(1 − b)), gb = ceil(g·b).
+/// (a, g, gb) fractions of one per section: the core's own
+/// `tidewire_core::quantize::loss_section`.
 pub fn quantized(loss: &LineLoss, frac: u32) -> Vec<(f64, f64, f64)> {
-    let one = 1u128 << frac;
+    let one = (1u64 << frac) as f64;
     (0..loss.sections as usize)
         .map(|k| {
-            let one = one as i128;
-            let a = (loss.poles[k] >> (30 - frac)) as i128;
-            let b = (loss.zeros[k] >> (30 - frac)) as i128;
-            let g = ((one - a) << frac) / (one - b).max(1);
-            let gb = (g * b).div_euclid(one) + ((g * b).rem_euclid(one) != 0) as i128;
-            (a as f64 / one as f64, g as f64 / one as f64, gb as f64 / one as f64)
+            let (a, g, gb) = tidewire_core::quantize::loss_section(loss.poles[k] as i64, loss.zeros[k] as i64, frac);
+            (a as f64 / one, g as f64 / one, gb as f64 / one)
         })
         .collect()
 }

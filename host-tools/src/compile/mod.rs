@@ -12,20 +12,23 @@
 //!   (port resistance T/(2C)); series and parallel RC terminations;
 //! * rig port: the rig's latency is taken out of the first line by the core; the
 //!   compiler keeps that line long enough;
-//! * fixed point: the scale (volts per I/O code) is chosen from the largest wave of the
-//!   f64 twin for the plant's own drive, with headroom (see [`scale`]).
-pub mod budget;
+//! * fixed point: compile leaves the scale at one volt per I/O code with no fraction bits;
+//!   the analysis stage (`crate::analysis::prepare`) chooses it from a run of the f64 twin.
+//!
+//! This is a pure stage: it imports neither the twin nor the host core runner, and runs
+//! nothing. Every figure that needs a run is the analysis stage's.
 mod loads;
 pub mod loss;
 mod report;
-mod scale;
 mod segments;
 
-pub use report::{Report, SegmentTiming};
+pub use report::{Reflection, Report, SegmentTiming};
 pub use segments::{LinePiece, SECTION_R_OVER_Z0};
 
 use crate::plant::{Drive as PlantDrive, End, EventAction, Load, Plant, PlantError, ProbeKind as PlantProbe, Span};
-use tidewire_core::{Drive, Element, Junction, JunctionId, Line, LineLoss, Network, Probe, ProbeKind, Shunt, Side};
+use tidewire_core::{
+    Drive, Element, Junction, JunctionId, Line, LineLoss, Network, OwnedNetwork, Probe, ProbeKind, Shunt, Side,
+};
 
 /// Which number profile a configuration is compiled for.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -85,18 +88,15 @@ impl HostDrive {
     }
 }
 
+/// The core's owned network in host vectors.
+pub type HostNetwork = OwnedNetwork<Vec<Line>, Vec<Junction>, Vec<Element>, Vec<LineLoss>, Vec<Probe>>;
+
 /// A compiled plant: the core network and what the host needs to run and explain it.
 #[derive(Debug, Clone, PartialEq)]
 pub struct Compiled {
     pub profile: ProfileKind,
-    pub lines: Vec<Line>,
-    pub junctions: Vec<Junction>,
-    pub elements: Vec<Element>,
-    pub losses: Vec<LineLoss>,
-    pub probes: Vec<Probe>,
-    pub drive: Drive,
-    pub io_shift: u8,
-    pub volts_per_code: f32,
+    /// The core network, owned (the core's one owned network type).
+    pub net: HostNetwork,
     /// Sample period, s.
     pub dt: f64,
     /// Samples of a default run (the plant's duration).
@@ -115,21 +115,12 @@ pub struct Compiled {
 impl Compiled {
     /// The core network (borrowing this configuration).
     pub fn network(&self) -> Network<'_> {
-        Network {
-            lines: &self.lines,
-            junctions: &self.junctions,
-            elements: &self.elements,
-            losses: &self.losses,
-            drive: self.drive,
-            probes: &self.probes,
-            io_shift: self.io_shift,
-            volts_per_code: self.volts_per_code,
-        }
+        self.net.network()
     }
 
     /// Volts per wave LSB.
     pub fn volts_per_lsb(&self) -> f64 {
-        self.volts_per_code as f64 / (1u64 << self.io_shift) as f64
+        self.net.volts_per_code as f64 / (1u64 << self.net.io_shift) as f64
     }
 }
 
@@ -151,7 +142,9 @@ pub(crate) fn err(
     }
 }
 
-/// Compile `plant` (read from `file`, for error messages) for `profile`.
+/// Compile `plant` (read from `file`, for error messages) for `profile`. The result's
+/// scale is one volt per code with no fraction bits until `crate::analysis::analyse` sets
+/// it; use `crate::analysis::prepare` for a configuration ready to load.
 pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compiled, PlantError> {
     let dt = 1.0 / plant.sample_rate;
     let samples = ((plant.duration / dt).round() as usize).max(1);
@@ -331,14 +324,7 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
 
     let mut compiled = Compiled {
         profile,
-        lines,
-        junctions,
-        elements,
-        losses,
-        probes,
-        drive,
-        io_shift: 0,
-        volts_per_code: 1.0,
+        net: HostNetwork { lines, junctions, elements, losses, drive, probes, io_shift: 0, volts_per_code: 1.0 },
         dt,
         samples,
         node_junction,
@@ -348,8 +334,7 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
         probe_names,
         report: Report { segments: report_segments, ..Report::default() },
     };
-    scale::choose(&mut compiled, plant, file)?;
-    report::fill(&mut compiled, plant, file)?;
+    report::fill(&mut compiled, plant);
     Ok(compiled)
 }
 

@@ -1,7 +1,8 @@
-//! What `inspect` tells an engineer about a compiled plant: timing error per segment,
-//! reflection coefficients, the DC operating point, coefficient error, storage and work.
+//! The static facts of a compiled plant: timing error per segment, reflection coefficients
+//! and storage. Figures that need a run (scale, DC point, coefficient error) are the
+//! analysis stage's (`crate::analysis`).
 use super::Compiled;
-use crate::plant::{Drive as PlantDrive, Load, Plant, PlantError};
+use crate::plant::{Drive as PlantDrive, Load, Plant};
 
 /// Timing of one segment.
 #[derive(Debug, Clone, PartialEq)]
@@ -42,27 +43,15 @@ pub struct Reflection {
     pub gamma: f64,
 }
 
-/// The compile report.
+/// The compile report: static facts only.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct Report {
     pub segments: Vec<SegmentTiming>,
     pub reflections: Vec<Reflection>,
-    /// Node name and DC voltage for the drive's final EMF.
-    pub dc: Vec<(String, f64)>,
-    pub peak_emf: f64,
-    pub peak_wave: f64,
-    pub peak_probe_voltage: f64,
-    /// Largest wave the profile holds at the chosen scale, V.
-    pub wave_range: f64,
-    /// wave_range / peak_wave.
-    pub headroom: f64,
-    /// Largest relative error of a line impedance after weight quantization.
-    pub max_impedance_error: f64,
     pub ports: usize,
     pub junctions: usize,
     /// Delay storage, waves.
     pub memory_waves: usize,
-    pub warnings: Vec<String>,
     pub notes: Vec<String>,
 }
 
@@ -83,7 +72,7 @@ fn load_r(load: &Load) -> f64 {
     }
 }
 
-pub(super) fn fill(c: &mut Compiled, plant: &Plant, file: &str) -> Result<(), PlantError> {
+pub(super) fn fill(c: &mut Compiled, plant: &Plant) {
     let r = &mut c.report;
     r.notes = plant.notes.clone();
     for (ni, node) in plant.nodes.iter().enumerate() {
@@ -105,40 +94,9 @@ pub(super) fn fill(c: &mut Compiled, plant: &Plant, file: &str) -> Result<(), Pl
             r.reflections.push(Reflection { node: node.name.clone(), segment: plant.segments[s].name.clone(), gamma });
         }
     }
-    let e_final = match &c.host_drive {
-        super::HostDrive::Source { emf } | super::HostDrive::Rig { emf, .. } => emf.last().copied().unwrap_or(0.0),
-    };
-    if let Ok(v) = crate::reference::dc_operating_point(plant, e_final) {
-        r.dc = plant.nodes.iter().map(|n| n.name.clone()).zip(v).collect();
-    }
     let (ports, juncs, mem) = crate::emit::capacities(&c.network());
     let r = &mut c.report;
     r.ports = ports;
     r.junctions = juncs;
     r.memory_waves = mem;
-    if ports > crate::run::HOST_PORTS || juncs > crate::run::HOST_JUNCTIONS || mem > crate::run::HOST_MEMORY {
-        return Err(super::err(
-            file,
-            Default::default(),
-            "plant",
-            format!("plant needs {ports} line ends, {juncs} junctions, {mem} waves of delay storage; the host tier holds {}, {}, {}", crate::run::HOST_PORTS, crate::run::HOST_JUNCTIONS, crate::run::HOST_MEMORY),
-            "lower the sample rate or shorten the plant",
-        ));
-    }
-    let cr = crate::run::run_core(c, 0, &[], &|_| {}).map_err(|e| {
-        super::err(
-            file,
-            Default::default(),
-            "plant",
-            e.to_string(),
-            "this is a compiler limitation; please report the plant",
-        )
-    })?;
-    c.report.max_impedance_error = c
-        .lines
-        .iter()
-        .zip(&cr.effective_z)
-        .map(|(l, ze)| (ze / (l.z_milliohm as f64 / 1000.0) - 1.0).abs())
-        .fold(0.0, f64::max);
-    Ok(())
 }

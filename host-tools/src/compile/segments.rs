@@ -6,7 +6,7 @@ use tidewire_core::{Junction, JunctionId, Line, LineLoss, Shunt};
 /// Largest R/Z0 of one lumped section. Each section puts its resistance R/n in its middle;
 /// a finer cut makes the lumped line approach the distributed one. The value 0.05 keeps one
 /// section's step-response error well under 1 % (the reference table in
-/// shared/REFERENCES.md gives 0.05 % matched / 0.8 % mismatched at R/Z0 = 0.1 for one
+/// docs/references.md gives 0.05 % matched / 0.8 % mismatched at R/Z0 = 0.1 for one
 /// three-point section [computed, numerical Laplace inversion]).
 pub const SECTION_R_OVER_Z0: f64 = 0.05;
 /// At most this many sections per segment (storage stays bounded).

@@ -1,6 +1,6 @@
 //! Built-in cable types with nominal values, each with the source of its numbers.
 //!
-//! Every number here comes from the project's reference list (`shared/REFERENCES.md`) and
+//! Every number here comes from the project's reference list (`docs/references.md`) and
 //! keeps its tag there: **found** (re-read in a published table), **[memory]** (recalled),
 //! **[practice]** (common practice, no single source), **[demo]** (a value of our own for a
 //! demonstration, no source). A plant file names a preset with `preset = "cat5e"` or
@@ -64,7 +64,7 @@ pub fn cat6_insertion_loss_db_per_100m(f_hz: f64) -> f64 {
     1.808 * f.sqrt() + 0.017 * f + 0.2 / f.sqrt()
 }
 
-/// The frequencies of the coax attenuation tables in REFERENCES.md, Hz.
+/// The frequencies of the coax attenuation tables in docs/references.md, Hz.
 pub const COAX_TABLE_HZ: [f64; 4] = [50e6, 150e6, 450e6, 850e6];
 /// RG-58 class attenuation at [`COAX_TABLE_HZ`], dB/100 m (amateur radio handbook tables, found).
 pub const RG58_DB_PER_100M: [f64; 4] = [10.8, 20.0, 35.5, 58.2];
@@ -211,7 +211,7 @@ fn can_bus_120() -> CableType {
 }
 
 /// Shielded cable from a motor drive to its motor, for the drive demo. Source says only
-/// v = 1.5e8 m/s (REFERENCES.md example numbers); the impedance and resistance are demo
+/// v = 1.5e8 m/s (docs/references.md example numbers); the impedance and resistance are demo
 /// values of our own [demo, practice] for a cable of a few mm².
 fn motor_cable() -> CableType {
     let mut c = cable(
@@ -220,7 +220,7 @@ fn motor_cable() -> CableType {
         1.0,
         0.01,
         None,
-        "motor cable for the drive demo: v = 1.5e8 m/s (REFERENCES.md example); 80 ohm and \
+        "motor cable for the drive demo: v = 1.5e8 m/s (docs/references.md example); 80 ohm and \
          10 mohm/m loop are demo values [demo, practice], not from a datasheet",
     );
     c.velocity = 1.5e8;

@@ -11,7 +11,7 @@ use plotters::coord::Shift;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
-use super::style::{self, Scale};
+use super::style::{self, Scale, LEFT_MARGIN, X_LABEL_H, Y_LABEL_W};
 use super::{check_dt, write_atomic, DrawResult, PlotError};
 
 /// Colour levels on each side of zero; the map uses 2 * LEVELS + 1 colours.
@@ -31,9 +31,6 @@ const HEADER_H: u32 = 44;
 /// Room above the map for up to three rows of boundary names.
 const NAME_ROWS: i32 = 3;
 const NAME_ROW_PX: i32 = 20;
-const X_LABEL_H: u32 = 52;
-const Y_LABEL_W: u32 = 84;
-const LEFT_MARGIN: u32 = 12;
 
 /// A distance-versus-time map of the voltage along a path.
 #[derive(Clone, Debug)]

@@ -4,8 +4,8 @@
 //! The pictures take plain `f64` data, so they depend on nothing else in the crate. They are
 //! drawn with `plotters`' SVG backend without any font stack: the SVG holds `<text>`
 //! elements and the viewer renders the glyphs, while plotters lays labels out with its
-//! built-in width estimate. Every file is written atomically (temporary file in the same
-//! directory, then rename), and long traces are thinned with a min/max-per-bucket
+//! built-in width estimate. Every file is written atomically (`crate::files`), and long
+//! traces are thinned with a min/max-per-bucket
 //! decimation that keeps edges and peaks, so files stay small.
 
 mod lattice;
@@ -17,10 +17,7 @@ pub use lattice::{diverging_level, level_colour, write_lattice, LatticeMap, LEVE
 pub use sweep::{write_sweep, SweepPlot};
 pub use waveforms::{write_waveforms, WaveformPlot};
 
-use std::fs::{self, OpenOptions};
-use std::io::Write;
 use std::path::{Path, PathBuf};
-use std::sync::atomic::{AtomicU64, Ordering};
 
 /// Most points drawn per trace; beyond this a trace is decimated.
 pub const MAX_TRACE_POINTS: usize = 4000;
@@ -141,36 +138,12 @@ fn check_dt(path: &Path, what: &str, dt: f64) -> Result<(), PlotError> {
     }
 }
 
-/// Distinguishes temporary files of concurrent writes from one process.
-static TEMP_COUNTER: AtomicU64 = AtomicU64::new(0);
-
-/// Writes `contents` to `path` atomically: a temporary file in the same directory is
-/// written, flushed and renamed over `path`, so readers see the old file or the new one,
-/// never a half-written one; on failure the temporary file is removed.
+/// Writes `contents` to `path` with the crate's atomic writer ([`crate::files`]), so
+/// readers see the old file or the new one, never a half-written one.
 fn write_atomic(path: &Path, contents: &str) -> Result<(), PlotError> {
-    let io_err = |source| PlotError::Io { path: path.to_path_buf(), source };
-    let name = path.file_name().ok_or_else(|| PlotError::data(path, "the path names no file"))?;
-    let dir = match path.parent() {
-        Some(d) if !d.as_os_str().is_empty() => d,
-        _ => Path::new("."),
-    };
-    let tmp = dir.join(format!(
-        ".{}.{}-{}.tmp",
-        name.to_string_lossy(),
-        std::process::id(),
-        TEMP_COUNTER.fetch_add(1, Ordering::Relaxed)
-    ));
-    let result = (|| {
-        let mut file = OpenOptions::new().write(true).create_new(true).open(&tmp)?;
-        file.write_all(contents.as_bytes())?;
-        file.sync_all()?;
-        drop(file);
-        fs::rename(&tmp, path)
-    })();
-    if let Err(e) = result {
-        // The temporary file may not exist (e.g. the directory is missing); nothing to undo then.
-        let _ = fs::remove_file(&tmp);
-        return Err(io_err(e));
+    if path.file_name().is_none() {
+        return Err(PlotError::data(path, "the path names no file"));
     }
-    Ok(())
+    crate::files::write_atomic(path, contents.as_bytes())
+        .map_err(|source| PlotError::Io { path: path.to_path_buf(), source })
 }

@@ -9,6 +9,14 @@ use plotters::style::text_anchor::{HPos, Pos, VPos};
 use plotters::style::{Color, FontDesc, FontStyle, IntoFont, RGBColor};
 
 use super::DrawResult;
+pub(crate) use crate::si::Scale;
+
+/// Height of the x axis area under a plot region (tick labels and axis description).
+pub(crate) const X_LABEL_H: u32 = 52;
+/// Width of the y axis area left of a plot region: with [`LEFT_MARGIN`], its left edge.
+pub(crate) const Y_LABEL_W: u32 = 84;
+/// Margin left of the y axis area.
+pub(crate) const LEFT_MARGIN: u32 = 12;
 
 /// Plotters' SVG backend writes `font-size = size / 1.24` (it reserves line spacing in the
 /// size it is given), so a label meant to be N px tall on screen is requested at N * 1.24.
@@ -82,45 +90,6 @@ pub(crate) fn font(px: f64) -> FontDesc<'static> {
 /// layout without a font stack (0.7 em per character, em = size / 1.24^2).
 pub(crate) fn text_width(text: &str, px: f64) -> f64 {
     0.7 * px / SVG_FONT_SCALE * text.chars().count() as f64
-}
-
-/// An engineering scale: values are divided by `factor` and the unit gets `prefix`.
-#[derive(Clone, Copy, Debug, PartialEq)]
-pub(crate) struct Scale {
-    pub factor: f64,
-    pub prefix: &'static str,
-}
-
-/// Prefixes from nano to mega; "µ" is U+00B5, the micro sign.
-const PREFIXES: [(f64, &str); 6] = [(1e-9, "n"), (1e-6, "µ"), (1e-3, "m"), (1.0, ""), (1e3, "k"), (1e6, "M")];
-
-impl Scale {
-    /// The largest prefix that keeps `max_abs` at or above 1 (so 0.0042 V reads 4.2 mV);
-    /// the base unit for zero or non-finite input.
-    pub(crate) fn for_magnitude(max_abs: f64) -> Scale {
-        let mut chosen = Scale { factor: 1.0, prefix: "" };
-        if !(max_abs.is_finite() && max_abs > 0.0) {
-            return chosen;
-        }
-        chosen = Scale { factor: PREFIXES[0].0, prefix: PREFIXES[0].1 };
-        for (factor, prefix) in PREFIXES {
-            // A small tolerance so that 0.999999e-6 still reads 1 µs, not 999.999 ns.
-            if max_abs >= factor * (1.0 - 1e-9) {
-                chosen = Scale { factor, prefix };
-            }
-        }
-        chosen
-    }
-
-    /// Time axes use ns, µs, ms or s only.
-    pub(crate) fn for_time(t_max: f64) -> Scale {
-        let s = Scale::for_magnitude(t_max);
-        if s.factor > 1.0 {
-            Scale { factor: 1.0, prefix: "" }
-        } else {
-            s
-        }
-    }
 }
 
 /// The quantity name shown on a value axis for a unit symbol.

@@ -8,14 +8,11 @@ use plotters::coord::Shift;
 use plotters::prelude::*;
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 
-use super::style::{self, Entry};
+use super::style::{self, Entry, LEFT_MARGIN, X_LABEL_H, Y_LABEL_W};
 use super::{decimate_indices, write_atomic, DrawResult, PlotError};
 
 const WIDTH: u32 = 1000;
 const PLOT_H: u32 = 540;
-const X_LABEL_H: u32 = 52;
-const Y_LABEL_W: u32 = 84;
-const LEFT_MARGIN: u32 = 12;
 const RIGHT_MARGIN: u32 = 28;
 /// Above this many points a series is drawn without point markers.
 const MAX_MARKED_POINTS: usize = 120;

@@ -7,7 +7,7 @@ use plotters::coord::types::RangedCoordf64;
 use plotters::coord::Shift;
 use plotters::prelude::*;
 
-use super::style::{self, Entry, Scale, Trace};
+use super::style::{self, Entry, Scale, Trace, LEFT_MARGIN, X_LABEL_H, Y_LABEL_W};
 use super::{check_dt, check_finite, decimate, write_atomic, DrawResult, PlotError, Series};
 
 /// Picture width in pixels.
@@ -16,10 +16,6 @@ const WIDTH: u32 = 1100;
 const MAIN_PLOT_H: u32 = 330;
 /// Height of the error panel's plot region (below its header).
 const ERROR_PLOT_H: u32 = 190;
-/// Left edge of the plot region: the y label area plus margin.
-const Y_LABEL_W: u32 = 84;
-const LEFT_MARGIN: u32 = 12;
-const X_LABEL_H: u32 = 52;
 
 /// The waveforms of one probe.
 #[derive(Clone, Debug)]

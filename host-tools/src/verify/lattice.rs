@@ -51,7 +51,7 @@ pub fn map(c: &Compiled, path: &Path, line_a: &[Vec<(f64, f64)>]) -> (Vec<f64>, 
     let mut positions = vec![];
     let mut cols: Vec<(usize, usize, bool, usize)> = vec![]; // (record index, k, reversed, D)
     for (ri, (line, rev, s, e)) in path.lines.iter().enumerate() {
-        let d = c.lines[*line as usize].delay as usize;
+        let d = c.net.lines[*line as usize].delay as usize;
         for k in 0..d {
             positions.push(s + (e - s) * k as f64 / d as f64);
             // k counts from the path's start of this line.

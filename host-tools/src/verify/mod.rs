@@ -15,9 +15,9 @@ pub mod lattice;
 pub mod metrics;
 
 use crate::compile::Compiled;
+use crate::host_core::{run_core, CoreRun};
 use crate::plant::{Plant, PlantError, ProbeKind};
 use crate::reference::{exact_response, ExactOptions};
-use crate::run::{run_core, CoreRun};
 use crate::twin;
 
 /// Figures of one probe.
@@ -62,7 +62,7 @@ impl ProbeFigures {
 #[derive(Debug, Clone, PartialEq)]
 pub struct Traces {
     pub core: CoreRun,
-    pub twin: twin::Run,
+    pub twin: twin::Recording,
     pub exact: Vec<Vec<f64>>,
     pub dt: f64,
     /// Samples compared against the exact reference.
@@ -120,7 +120,7 @@ pub fn verify(
     let tol = plant.tolerances;
     let mut probes = vec![];
     for (k, p) in plant.probes.iter().enumerate() {
-        let cr = &core.run.probes[k];
+        let cr = &core.recording.probes[k];
         let tr = &tw.probes[k];
         let xr = &exact[k];
         let is_v = matches!(p.kind, ProbeKind::Voltage(_));

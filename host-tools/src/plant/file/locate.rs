@@ -40,16 +40,46 @@ impl<'a> Source<'a> {
         }
     }
 
-    /// A TOML syntax or shape error, placed by toml's own span.
-    pub fn toml_error(&self, err: &toml::de::Error) -> PlantError {
+    /// A TOML syntax or shape error, placed by toml's own span. The field is the exact path
+    /// the deserializer was at (for a misspelt key, ending in that key); only a syntax
+    /// error, where no table was read, falls back to the table header and key of its line.
+    pub fn toml_error(&self, err: serde_path_to_error::Error<toml::de::Error>) -> PlantError {
+        let field = deserializer_path(err.path());
+        let err = err.into_inner();
         let span = err.span().unwrap_or(0..0);
         // toml sometimes puts a second line of detail in its message; keep one line.
         let message: Vec<&str> = err.message().lines().map(str::trim).collect();
         let message = message.join("; ");
-        let field = context_path(self.text, span.start);
+        // The path ends at a misspelt key already (serde reads the key before refusing it);
+        // a key refused at the top level has no path yet.
+        let field = match (field, unknown_key(&message)) {
+            (Some(f), _) => f,
+            (None, Some(k)) => k.to_string(),
+            (None, None) => context_path(self.text, span.start),
+        };
         let hint = toml_hint(&message);
         self.error(span, field, message, hint)
     }
+}
+
+/// The deserializer's path as a dotted field name (`node.plc`, `segment`), without list
+/// indices and without the span wrappers' private keys; `None` at the document's top.
+fn deserializer_path(path: &serde_path_to_error::Path) -> Option<String> {
+    use serde_path_to_error::Segment;
+    let parts: Vec<&str> = path
+        .iter()
+        .filter_map(|s| match s {
+            Segment::Map { key } if !key.starts_with("$__") => Some(key.as_str()),
+            Segment::Enum { variant } => Some(variant.as_str()),
+            _ => None,
+        })
+        .collect();
+    (!parts.is_empty()).then(|| parts.join("."))
+}
+
+/// The key named by serde's "unknown field `x`" message.
+fn unknown_key(message: &str) -> Option<&str> {
+    message.strip_prefix("unknown field `")?.split('`').next()
 }
 
 fn floor_char_boundary(text: &str, mut i: usize) -> usize {
@@ -59,8 +89,8 @@ fn floor_char_boundary(text: &str, mut i: usize) -> usize {
     i
 }
 
-/// A best-effort field path for a byte offset: the last table header before it, plus the
-/// key of the line it sits on (`node.plc.laod`).
+/// The field of a syntax error at a byte offset (no table was deserialized yet): the last
+/// table header before it, plus the key of the line it sits on (`plant.name`).
 fn context_path(text: &str, offset: usize) -> String {
     let offset = floor_char_boundary(text, offset.min(text.len()));
     let line_start = text[..offset].rfind('\n').map_or(0, |i| i + 1);

@@ -62,13 +62,17 @@
 //! Checks beyond the shape of each value: every node has a segment and is reachable from
 //! the drive node; names are unique; a cable's speed does not exceed light; a segment joins
 //! two different nodes; the lattice path is a connected walk; an event's break lies inside
-//! its segment. Samples files hold one value in volts per line, an optional header first.
+//! its segment. Samples files hold one value in volts per line, an optional header first, or
+//! are the CSV that `tidewire simulate` writes (time, then volts).
 
 mod cables;
 mod drive;
+mod events;
 mod locate;
 pub mod loss;
+mod probes;
 mod raw;
+mod tolerances;
 mod topology;
 mod values;
 
@@ -104,7 +108,9 @@ pub fn load_plant(path: &Path) -> Result<Plant, PlantError> {
 /// relative paths (samples files) are resolved.
 pub fn parse_plant(text: &str, file_name: &str, base_dir: &Path) -> Result<Plant, PlantError> {
     let src = Source { text, file: file_name };
-    let raw: RawFile = toml::from_str(text).map_err(|e| src.toml_error(&e))?;
+    // serde_path_to_error records the field path the deserializer was in when it failed.
+    let raw: RawFile =
+        serde_path_to_error::deserialize(toml::Deserializer::new(text)).map_err(|e| src.toml_error(e))?;
 
     let header = raw.plant.get_ref();
     let sample_rate =
@@ -135,14 +141,14 @@ pub fn parse_plant(text: &str, file_name: &str, base_dir: &Path) -> Result<Plant
             "add [drive] with kind = \"source\" (or \"rig\"), node, and its waveform",
         ));
     };
-    let drive = drive::drive(&src, raw_drive, &topo, base_dir)?;
+    let drive = drive::drive(&src, raw_drive, &topo, base_dir, sample_rate)?;
     let drive_node = match &drive {
         crate::plant::model::Drive::Source { node, .. } | crate::plant::model::Drive::Rig { node, .. } => *node,
     };
     topo.check_reachable(&src, drive_node)?;
-    let probes = drive::probes(&src, &raw.probe, &topo)?;
-    let tolerances = drive::tolerances(&src, raw.verify.as_ref(), sample_rate)?;
-    let events = drive::events(&src, &raw.event, &topo)?;
+    let probes = probes::probes(&src, &raw.probe, &topo)?;
+    let tolerances = tolerances::tolerances(&src, raw.verify.as_ref(), sample_rate)?;
+    let events = events::events(&src, &raw.event, &topo)?;
     let lattice_path = topo.lattice_path(&src, raw.lattice.as_ref(), drive_node)?;
 
     Ok(Plant {

@@ -155,6 +155,7 @@ pub fn waveform(
     raw: &toml::Spanned<RawWaveform>,
     field: &str,
     base_dir: &Path,
+    sample_rate: f64,
 ) -> Result<Waveform, PlantError> {
     let w = raw.get_ref();
     let sub = |name: &str| format!("{field}.{name}");
@@ -189,7 +190,7 @@ pub fn waveform(
                     ));
                 }
             }
-            return read_samples(src, path, &sub("samples"), base_dir).map(Waveform::Samples);
+            return read_samples(src, path, &sub("samples"), base_dir, sample_rate).map(Waveform::Samples);
         }
         _ => {
             return Err(src.error(
@@ -286,11 +287,17 @@ fn pwm(
 
 /// One value in volts per line; an optional non-numeric first line (a header), blank lines
 /// and `#` comments are skipped.
+/// A samples file, read with `csv`: either one column of volts (an optional header line
+/// first), or the CSV that `tidewire simulate` writes — a header whose first column is
+/// time in seconds, then the volts in the next column (further columns are ignored). With a
+/// time column, its step must be the plant's sample period. Blank lines and `#` comments
+/// are skipped.
 fn read_samples(
     src: &Source,
     path: &toml::Spanned<String>,
     field: &str,
     base_dir: &Path,
+    sample_rate: f64,
 ) -> Result<Vec<f64>, PlantError> {
     let full = base_dir.join(path.get_ref());
     let shown = full.display().to_string();
@@ -302,38 +309,76 @@ fn read_samples(
             "the path is relative to the plant file's folder",
         )
     })?;
-    let at = |line: usize, message: String| PlantError {
+    let at = |line: u64, message: String| PlantError {
         file: shown.clone(),
-        line,
+        line: line as usize,
         column: 1,
         field: field.to_string(),
         message,
-        hint: "write one value in volts per line (an optional header line first)".into(),
+        hint: "write one value in volts per line (an optional header line first), or give the CSV \
+               that `tidewire simulate` writes (time in s, then volts)"
+            .into(),
     };
+    let mut reader = csv::ReaderBuilder::new()
+        .has_headers(false)
+        .flexible(true)
+        .comment(Some(b'#'))
+        .trim(csv::Trim::All)
+        .from_reader(text.as_bytes());
+    // None until the first record is seen; then whether column 0 is time.
+    let mut time_column: Option<bool> = None;
     let mut values = Vec::new();
-    for (i, line) in text.lines().enumerate() {
-        let line = line.trim();
-        if line.is_empty() || line.starts_with('#') {
-            continue;
+    let mut times = Vec::new();
+    for record in reader.records() {
+        let record = record.map_err(|e| {
+            let line = e.position().map_or(1, |p| p.line());
+            at(line, format!("not readable as CSV: {e}"))
+        })?;
+        let line = record.position().map_or(1, |p| p.line());
+        let cell = |k: usize| record.get(k).unwrap_or("");
+        if time_column.is_none() {
+            let is_header = cell(0).parse::<f64>().is_err();
+            let timed = record.len() >= 2 && cell(0).to_lowercase().starts_with("time");
+            if record.len() >= 2 && !timed {
+                return Err(at(line, format!("{} columns, but the first is not headed \"time (s)\"", record.len())));
+            }
+            time_column = Some(timed);
+            if is_header {
+                continue;
+            }
         }
-        match line.parse::<f64>() {
-            Ok(v) if v.is_finite() => values.push(v),
-            Ok(_) => return Err(at(i + 1, format!("sample \"{line}\" is not finite"))),
-            Err(_) if values.is_empty() && i == first_content_line(&text) => {}
-            Err(_) => return Err(at(i + 1, format!("\"{line}\" is not a number of volts"))),
+        let timed = time_column == Some(true);
+        let v = cell(usize::from(timed));
+        match v.parse::<f64>() {
+            Ok(x) if x.is_finite() => values.push(x),
+            Ok(_) => return Err(at(line, format!("sample \"{v}\" is not finite"))),
+            Err(_) => return Err(at(line, format!("\"{v}\" is not a number of volts"))),
+        }
+        if timed {
+            match cell(0).parse::<f64>() {
+                Ok(t) if t.is_finite() => times.push((line, t)),
+                _ => return Err(at(line, format!("time \"{}\" is not a number of seconds", cell(0)))),
+            }
         }
     }
     if values.is_empty() {
         return Err(at(1, "the samples file holds no values".into()));
     }
+    // The time column must step by the sample period: the samples are used one per sample.
+    // Allowed slack: a quarter period, or the 7 significant digits simulate writes.
+    let dt = 1.0 / sample_rate;
+    if let Some(&(_, t0)) = times.first() {
+        for (k, &(line, t)) in times.iter().enumerate() {
+            let expected = t0 + k as f64 * dt;
+            if (t - expected).abs() > (0.25 * dt).max(1e-6 * t.abs()) {
+                return Err(at(
+                    line,
+                    format!(
+                        "time {t:e} s, but one sample per period of the plant's sample rate puts it at {expected:e} s"
+                    ),
+                ));
+            }
+        }
+    }
     Ok(values)
-}
-
-fn first_content_line(text: &str) -> usize {
-    text.lines()
-        .position(|l| {
-            let l = l.trim();
-            !l.is_empty() && !l.starts_with('#')
-        })
-        .unwrap_or(0)
 }

@@ -1,11 +1,11 @@
-//! Run the real fixed-point core on the host over a compiled plant's drive and events.
+//! The host core runner: the real fixed-point core run on the host over a compiled plant's drive and events.
 //!
 //! The solver is the same `tidewire-core` code the rig runs, at a host capacity tier; it
 //! lives on a worker thread with a large stack so its fixed arrays never touch the main
 //! stack.
 
 use crate::compile::{Compiled, CoreAction, HostDrive, ProfileKind};
-use crate::twin::Run;
+use crate::twin::Recording;
 use tidewire_core::{Narrow, Profile, Solver, Wide};
 
 /// Host capacity: line ends, junctions, delay storage (waves).
@@ -14,29 +14,20 @@ pub const HOST_JUNCTIONS: usize = 2048;
 pub const HOST_MEMORY: usize = 1 << 21;
 
 /// Why a host run failed.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum RunError {
     /// The core refused the network.
+    #[error("the core refused the compiled network: {0}")]
     Build(tidewire_core::BuildError),
     /// The worker thread could not start or died.
+    #[error("host run failed: {0}")]
     Thread(String),
 }
-
-impl std::fmt::Display for RunError {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        match self {
-            RunError::Build(e) => write!(f, "the core refused the compiled network: {e}"),
-            RunError::Thread(e) => write!(f, "host run failed: {e}"),
-        }
-    }
-}
-
-impl std::error::Error for RunError {}
 
 /// What the core produced: probe traces (V, A), the drive output codes, line-end waves.
 #[derive(Debug, Clone, PartialEq, Default)]
 pub struct CoreRun {
-    pub run: Run,
+    pub recording: Recording,
     /// The drive's output code per sample (source node voltage, or DAC drive at a rig port).
     pub drive_out: Vec<i16>,
     /// The drive's input code per sample.
@@ -83,15 +74,15 @@ fn drive<P: Profile, const A: usize, const B: usize, const C: usize, const D: us
     progress: &(dyn Fn(usize) + Sync),
 ) -> Result<CoreRun, RunError> {
     s.load(&c.network()).map_err(RunError::Build)?;
-    let vpc = c.volts_per_code as f64;
+    let vpc = c.net.volts_per_code as f64;
     let lsb = c.volts_per_lsb();
-    let z: Vec<f64> = c.lines.iter().map(|l| l.z_milliohm as f64 / 1000.0).collect();
+    let z: Vec<f64> = c.net.lines.iter().map(|l| l.z_milliohm as f64 / 1000.0).collect();
     let mut out = CoreRun {
-        run: Run { probes: vec![Vec::with_capacity(samples); c.probes.len()], ..Run::default() },
-        effective_z: (0..c.lines.len()).map(|l| s.effective_impedance(l)).collect(),
+        recording: Recording { probes: vec![Vec::with_capacity(samples); c.net.probes.len()], ..Recording::default() },
+        effective_z: (0..c.net.lines.len()).map(|l| s.effective_impedance(l)).collect(),
         ..CoreRun::default()
     };
-    out.run.line_a = vec![Vec::with_capacity(samples); record.len()];
+    out.recording.line_a = vec![Vec::with_capacity(samples); record.len()];
     let mut ev = c.events.iter().peekable();
     let mut dac_history: std::collections::VecDeque<i16> = std::collections::VecDeque::new();
     for n in 0..samples {
@@ -132,19 +123,19 @@ fn drive<P: Profile, const A: usize, const B: usize, const C: usize, const D: us
         }
         out.drive_out.push(o);
         out.drive_in.push(input);
-        for k in 0..c.probes.len() {
+        for k in 0..c.net.probes.len() {
             let raw = s.probe_raw(k) as f64 * lsb;
-            let v = if c.probes[k].kind == tidewire_core::ProbeKind::Current {
-                raw / z[c.probes[k].line as usize]
+            let v = if c.net.probes[k].kind == tidewire_core::ProbeKind::Current {
+                raw / z[c.net.probes[k].line as usize]
             } else {
                 raw
             };
-            out.run.probes[k].push(v);
+            out.recording.probes[k].push(v);
         }
         for (k, l) in record.iter().enumerate() {
             let (aa, _) = s.line_end_waves(*l as usize, false);
             let (ab, _) = s.line_end_waves(*l as usize, true);
-            out.run.line_a[k].push((aa as f64 * lsb, ab as f64 * lsb));
+            out.recording.line_a[k].push((aa as f64 * lsb, ab as f64 * lsb));
         }
         if n % 4096 == 0 {
             progress(n);

@@ -1,5 +1,5 @@
 //! `tidewire compile`, and the shared writers of the commands.
-use super::{io_failure, load_and_compile, Failure};
+use super::{io_failure, load_and_prepare, Failure};
 use crate::compile::{Compiled, ProfileKind};
 use crate::emit::{write_image, write_rust_source};
 use std::path::Path;
@@ -22,7 +22,7 @@ pub(crate) fn write_outputs(
     Ok(())
 }
 
-pub(super) fn compile_cmd(
+pub(super) fn run(
     path: &Path,
     image: Option<&Path>,
     rust: Option<&Path>,
@@ -31,7 +31,7 @@ pub(super) fn compile_cmd(
     if image.is_none() && rust.is_none() {
         return Err(Failure { code: 2, message: "error: compile needs --image OUT.bin and/or --rust OUT.rs".into() });
     }
-    let (plant, c) = load_and_compile(path, profile)?;
+    let (plant, c, _) = load_and_prepare(path, profile)?;
     write_outputs(&c, &plant.name, image, rust)?;
     Ok(0)
 }

@@ -10,13 +10,14 @@
 //! * narrow: io_shift = 0 (waves are codes), one code covers max(|E|, V, W)·1.25/32767 V;
 //! * rig port: the ADC fixes one code = full scale / 32768, and the report says whether the
 //!   plant's waves fit.
-use super::{err, Compiled, HostDrive, ProfileKind};
+use super::Analysis;
+use crate::compile::{err, Compiled, HostDrive, ProfileKind};
 use crate::plant::{Drive as PlantDrive, Plant, PlantError, Span};
 
 /// Fractional bits of a wide wave below one I/O code.
 pub const WIDE_IO_SHIFT: u8 = 12;
 
-pub(super) fn choose(c: &mut Compiled, plant: &Plant, file: &str) -> Result<(), PlantError> {
+pub(super) fn choose(c: &mut Compiled, plant: &Plant, file: &str, a: &mut Analysis) -> Result<(), PlantError> {
     let twin = crate::twin::run(c, c.samples, &[]);
     let peak_emf = c.host_drive.emf().iter().fold(0.0f64, |m, x| m.max(x.abs()));
     let peak_v = twin
@@ -27,9 +28,9 @@ pub(super) fn choose(c: &mut Compiled, plant: &Plant, file: &str) -> Result<(), 
         .flat_map(|(t, _)| t.iter())
         .fold(0.0f64, |m, x| m.max(x.abs()));
     let peak_w = twin.peak_wave;
-    c.report.peak_emf = peak_emf;
-    c.report.peak_wave = peak_w;
-    c.report.peak_probe_voltage = peak_v;
+    a.peak_emf = peak_emf;
+    a.peak_wave = peak_w;
+    a.peak_probe_voltage = peak_v;
     if peak_emf == 0.0 {
         return Err(err(
             file,
@@ -46,29 +47,29 @@ pub(super) fn choose(c: &mut Compiled, plant: &Plant, file: &str) -> Result<(), 
         (_, ProfileKind::Wide) => (WIDE_IO_SHIFT, peak_emf.max(peak_v) * 1.1 / 32767.0),
         (_, ProfileKind::Narrow) => (0, peak_emf.max(peak_v).max(peak_w) * 1.25 / 32767.0),
     };
-    c.io_shift = io_shift;
-    c.volts_per_code = vpc as f32;
+    c.net.io_shift = io_shift;
+    c.net.volts_per_code = vpc as f32;
     let wave_range =
         vpc * (1u64 << (if c.profile == ProfileKind::Wide { 31 } else { 15 })) as f64 / (1u64 << io_shift) as f64;
-    c.report.wave_range = wave_range;
-    c.report.headroom = wave_range / peak_w.max(1e-300);
+    a.wave_range = wave_range;
+    a.headroom = wave_range / peak_w.max(1e-300);
     if let HostDrive::Rig { .. } = c.host_drive {
         if let PlantDrive::Rig { dac_full_scale, adc_full_scale, .. } = plant.drive {
             if peak_v > adc_full_scale {
-                c.report.warnings.push(format!(
+                a.warnings.push(format!(
                     "the pin reaches {peak_v:.3} V, above the ADC full scale of {adc_full_scale} V: readings will clip"
                 ));
             }
             if 2.0 * peak_w > dac_full_scale {
-                c.report.warnings.push(format!(
+                a.warnings.push(format!(
                     "the DAC must drive 2·b up to {:.3} V, above its full scale of {dac_full_scale} V",
                     2.0 * peak_w
                 ));
             }
         }
     }
-    if c.report.headroom < 1.0 {
-        c.report.warnings.push(format!(
+    if a.headroom < 1.0 {
+        a.warnings.push(format!(
             "waves reach {peak_w:.3} V but the {} profile holds only {wave_range:.3} V at this scale: they will saturate",
             c.profile.name()
         ));
