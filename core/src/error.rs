@@ -5,10 +5,15 @@ use core::fmt;
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum Table {
+    /// Lines.
     Lines,
+    /// Junctions.
     Junctions,
+    /// Probes.
     Probes,
+    /// Delay storage, waves (the solver's `MEM` capacity).
     DelayStorage,
+    /// Line ends plus element ports (the solver's `PORTS` capacity).
     Ports,
     /// Line ends with loss filters (the solver's `LOSSES` capacity).
     Losses,
@@ -20,42 +25,104 @@ pub enum Table {
 #[non_exhaustive]
 pub enum BuildError {
     /// A line's characteristic impedance is zero.
-    ZeroImpedance { line: u16 },
+    ZeroImpedance {
+        /// Index of the line.
+        line: u16,
+    },
     /// A line's delay is zero samples.
-    ZeroDelay { line: u16 },
+    ZeroDelay {
+        /// Index of the line.
+        line: u16,
+    },
     /// A resistance (shunt, series or source) is zero; use `Shunt::Short` for a short.
-    ZeroResistance { junction: u16 },
+    ZeroResistance {
+        /// Index of the junction.
+        junction: u16,
+    },
     /// A line end names a junction that does not exist.
-    JunctionOutOfRange { line: u16, junction: u16 },
+    JunctionOutOfRange {
+        /// Index of the line.
+        line: u16,
+        /// Index of the junction.
+        junction: u16,
+    },
     /// The drive or a probe names a junction or line that does not exist.
-    IndexOutOfRange { table: Table, index: u16 },
+    IndexOutOfRange {
+        /// The table the index points into.
+        table: Table,
+        /// The index that does not exist.
+        index: u16,
+    },
     /// A node has no line end: nothing can reach it.
-    DanglingJunction { junction: u16 },
+    DanglingJunction {
+        /// Index of the junction.
+        junction: u16,
+    },
     /// A series junction must join exactly two line ends.
-    SeriesNeedsTwoEnds { junction: u16, ends: u16 },
+    SeriesNeedsTwoEnds {
+        /// Index of the junction.
+        junction: u16,
+        /// Line ends the junction has.
+        ends: u16,
+    },
     /// A series junction joins two lines of different impedance. Split one sample of
     /// the first line off as a line of its own impedance instead (the host compiler does).
-    SeriesImpedanceMismatch { junction: u16 },
+    SeriesImpedanceMismatch {
+        /// Index of the junction.
+        junction: u16,
+    },
     /// A reactive element hangs from something that is not a node, or has zero port
     /// resistance.
-    BadElement { element: u16 },
+    BadElement {
+        /// Index of the element.
+        element: u16,
+    },
     /// A loss filter names no line, a line twice, has 0 or too many sections, or a
     /// section that is not an attenuating shelf (needs 0 <= zero < pole < 1).
-    BadLoss { loss: u16 },
+    BadLoss {
+        /// Index of the loss filter.
+        loss: u16,
+    },
     /// A rig port node must hold exactly one line end and no shunt.
-    BadRigNode { junction: u16 },
+    BadRigNode {
+        /// Index of the junction.
+        junction: u16,
+    },
     /// A drive is placed on a series junction.
-    DriveOnSeries { junction: u16 },
+    DriveOnSeries {
+        /// Index of the junction.
+        junction: u16,
+    },
     /// More entries than the solver's capacity.
-    CapacityExceeded { table: Table, needed: u32, capacity: u32 },
+    CapacityExceeded {
+        /// The table the index points into.
+        table: Table,
+        /// Entries the network needs.
+        needed: u32,
+        /// Entries the solver holds.
+        capacity: u32,
+    },
     /// An integer coefficient does not fit its format (an impedance far outside the range
     /// of the others at its node, or a node with a vanishing total conductance).
-    CoefficientOutOfRange { junction: u16 },
+    CoefficientOutOfRange {
+        /// Index of the junction.
+        junction: u16,
+    },
     /// The rig latency is not shorter than the first line's delay (the line towards the
     /// rig port keeps delay − latency >= 1 samples), or exceeds MAX_RIG_LATENCY.
-    RigLatencyTooLong { latency: u16, delay: u32 },
+    RigLatencyTooLong {
+        /// The rig latency, samples.
+        latency: u16,
+        /// The first line's delay, samples.
+        delay: u32,
+    },
     /// `io_shift` is larger than the number profile allows.
-    IoShiftTooLarge { io_shift: u8, max: u8 },
+    IoShiftTooLarge {
+        /// The network's `io_shift`.
+        io_shift: u8,
+        /// The largest `io_shift` the profile allows.
+        max: u8,
+    },
 }
 
 impl fmt::Display for BuildError {
@@ -108,9 +175,15 @@ impl core::error::Error for BuildError {}
 #[non_exhaustive]
 pub enum ConfigError {
     /// No such junction, or it is not a plain node (series junction or rig port).
-    NotANode { junction: u16 },
+    NotANode {
+        /// Index of the junction.
+        junction: u16,
+    },
     /// The new shunt's coefficient does not fit (resistance zero or too far out of range).
-    CoefficientOutOfRange { junction: u16 },
+    CoefficientOutOfRange {
+        /// Index of the junction.
+        junction: u16,
+    },
 }
 
 impl fmt::Display for ConfigError {

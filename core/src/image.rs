@@ -51,17 +51,36 @@ pub fn header(body: &[u8]) -> [u8; HEADER_LEN] {
 #[non_exhaustive]
 pub enum ImageError {
     /// Fewer bytes than a header.
-    Truncated { len: usize },
+    Truncated {
+        /// Bytes given.
+        len: usize,
+    },
     /// The first four bytes are not `TIDW`.
     BadMagic,
     /// A format version this core does not read.
-    UnsupportedVersion { found: u16 },
+    UnsupportedVersion {
+        /// The image's format version.
+        found: u16,
+    },
     /// Reserved flags set.
-    UnknownFlags { flags: u16 },
+    UnknownFlags {
+        /// The reserved flags that are set.
+        flags: u16,
+    },
     /// The declared body length does not match the bytes given.
-    LengthMismatch { declared: u32, actual: usize },
+    LengthMismatch {
+        /// Body length the header declares, bytes.
+        declared: u32,
+        /// Body bytes given.
+        actual: usize,
+    },
     /// The body's CRC does not match the header.
-    CrcMismatch { stored: u32, computed: u32 },
+    CrcMismatch {
+        /// CRC-32 in the header.
+        stored: u32,
+        /// CRC-32 of the body.
+        computed: u32,
+    },
     /// The body does not decode (corrupt, or more entries than the capacity).
     Body,
     /// The body has bytes after the network.

@@ -40,7 +40,10 @@ pub enum Shunt {
     /// Exact short: v = 0, every port reflects a_k = −b_k.
     Short,
     /// A resistor to return, in milliohms (> 0).
-    Resistor { milliohm: u32 },
+    Resistor {
+        /// Resistance to return, milliohms (> 0).
+        milliohm: u32,
+    },
 }
 
 /// A scattering junction.
@@ -49,16 +52,27 @@ pub enum Shunt {
 #[non_exhaustive]
 pub enum Junction {
     /// A node joining any number (>= 1) of line ends in parallel, with a shunt one-port.
-    Node { shunt: Shunt },
+    Node {
+        /// The one-port from the node to return.
+        shunt: Shunt,
+    },
     /// A resistor in series between exactly two line ends (series two-port adaptor).
-    Series { milliohm: u32 },
+    Series {
+        /// The series resistor, milliohms (> 0).
+        milliohm: u32,
+    },
     /// An inductor (a choke) in series between exactly two line ends of equal impedance,
     /// with its winding resistance: port resistance 2L/T (bilinear transform, b[n] =
     /// −a[n−1]) and `milliohm` in series. Three-port series adaptor: x = b1 − b2 − b_L,
     /// a1 = b1 − c·x, a2 = b2 + c·x, a_L = b_L + c_L·x with c = 2Z/ΣR, c_L = 2R_L/ΣR,
     /// ΣR = 2Z + R_L + R. The core keeps the inductor's state scaled to voltage,
     /// s = −(2Z/R_L)·b_L, so that y = c·x = c·(b1 − b2) + (R_L/ΣR)·s and s' = 2y − s.
-    SeriesInductor { port_milliohm: u32, milliohm: u32 },
+    SeriesInductor {
+        /// Port resistance of the inductor, 2L/T, milliohms (> 0).
+        port_milliohm: u32,
+        /// Winding resistance in series, milliohms (0: none).
+        milliohm: u32,
+    },
 }
 
 /// What drives the network.
@@ -70,11 +84,21 @@ pub enum Drive {
     None,
     /// A test source at a node: EMF from the input stream behind `milliohm` (> 0).
     /// The step output is the node voltage there.
-    Source { junction: JunctionId, milliohm: u32 },
+    Source {
+        /// The node the source drives.
+        junction: JunctionId,
+        /// Source resistance, milliohms (> 0).
+        milliohm: u32,
+    },
     /// A rig port at a node with exactly one line end. The input is the measured pin voltage,
     /// the output is the DAC drive 2·b; `latency` (samples, <= [`MAX_RIG_LATENCY`]) is the
     /// rig's ADC-to-DAC latency, taken out of the attached line's round trip.
-    Rig { junction: JunctionId, latency: u16 },
+    Rig {
+        /// The rig port node.
+        junction: JunctionId,
+        /// The rig's ADC-to-DAC latency, samples.
+        latency: u16,
+    },
 }
 
 /// The largest rig latency the core can take out of a line, in samples.
@@ -103,6 +127,7 @@ pub enum ElementKind {
 pub struct Element {
     /// The node it hangs from.
     pub junction: JunctionId,
+    /// Capacitor or inductor.
     pub kind: ElementKind,
     /// Port resistance of the reactance, milliohms (> 0): T/(2C) or 2L/T.
     pub port_milliohm: u32,
@@ -123,10 +148,13 @@ pub const MAX_LOSS_SECTIONS: usize = 6;
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct LineLoss {
+    /// The lossy line.
     pub line: LineId,
     /// Sections in use (1..=MAX_LOSS_SECTIONS).
     pub sections: u8,
+    /// Pole a_k of each section in Q30 (a_k·2^30, 0 < a_k < 1).
     pub poles: [u32; MAX_LOSS_SECTIONS],
+    /// Zero b_k of each section in Q30 (b_k·2^30, −1 < b_k < a_k).
     pub zeros: [i32; MAX_LOSS_SECTIONS],
 }
 
@@ -134,7 +162,9 @@ pub struct LineLoss {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub enum Side {
+    /// End A (the line's `a` junction).
     A,
+    /// End B (the line's `b` junction).
     B,
 }
 
@@ -153,8 +183,11 @@ pub enum ProbeKind {
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Probe {
+    /// Voltage or current.
     pub kind: ProbeKind,
+    /// The line it reads.
     pub line: LineId,
+    /// Which end of that line.
     pub side: Side,
 }
 
@@ -163,14 +196,19 @@ pub const MAX_PROBES: usize = 8;
 
 /// A whole network, borrowed.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Network<'a> {
+    /// Lines (delays and impedances).
     pub lines: &'a [Line],
+    /// Junctions: nodes and series junctions, named by index from the lines.
     pub junctions: &'a [Junction],
     /// Reactive one-ports at nodes.
     pub elements: &'a [Element],
     /// Loss filters of lossy lines (at most one per line).
     pub losses: &'a [LineLoss],
+    /// The drive.
     pub drive: Drive,
+    /// Probes read out each sample (at most [`MAX_PROBES`]).
     pub probes: &'a [Probe],
     /// Waves carry `io_shift` more fractional bits than I/O codes: wave = code · 2^io_shift.
     pub io_shift: u8,
