@@ -5,10 +5,9 @@
 //! field path (for example `segment[plc-tap1].length`), a one-line message and a one-line
 //! hint. The command line prints it and exits with [`PlantError::exit_code`].
 
-use std::fmt;
-
 /// A plant file that cannot be read, with its location and a fix hint.
-#[derive(Debug, Clone, PartialEq, Eq)]
+#[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
+#[error("{file}{}: {}{message}{}", place(*.line, *.column), field_prefix(.field), hint_line(.hint))]
 pub struct PlantError {
     /// The file as named to the reader (plant file, or a samples file it refers to).
     pub file: String,
@@ -32,25 +31,32 @@ impl PlantError {
     }
 }
 
-impl fmt::Display for PlantError {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        write!(f, "{}", self.file)?;
-        if self.line > 0 {
-            write!(f, ":{}:{}", self.line, self.column)?;
-        }
-        write!(f, ": ")?;
-        if !self.field.is_empty() {
-            write!(f, "{}: ", self.field)?;
-        }
-        write!(f, "{}", self.message)?;
-        if !self.hint.is_empty() {
-            write!(f, "\n  hint: {}", self.hint)?;
-        }
-        Ok(())
+/// ":line:column" when the place is known.
+fn place(line: usize, column: usize) -> String {
+    if line > 0 {
+        format!(":{line}:{column}")
+    } else {
+        String::new()
     }
 }
 
-impl std::error::Error for PlantError {}
+/// "field: " when a field is named.
+fn field_prefix(field: &str) -> String {
+    if field.is_empty() {
+        String::new()
+    } else {
+        format!("{field}: ")
+    }
+}
+
+/// The hint on its own indented line, when there is one.
+fn hint_line(hint: &str) -> String {
+    if hint.is_empty() {
+        String::new()
+    } else {
+        format!("\n  hint: {hint}")
+    }
+}
 
 #[cfg(test)]
 mod tests {

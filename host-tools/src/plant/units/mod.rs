@@ -10,8 +10,6 @@
 //! their per-metre forms, nepers per metre for attenuation (1 Np = 20/ln 10 dB ≈ 8.686 dB),
 //! and plain fractions for percentages.
 
-use std::fmt;
-
 mod kind;
 
 pub use kind::UnitKind;
@@ -23,51 +21,30 @@ pub const DB_PER_NEPER: f64 = 8.685_889_638_065_037;
 const FOOT: f64 = 0.3048;
 
 /// Why a quantity string could not be read.
-#[derive(Debug, Clone, PartialEq)]
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
 pub enum UnitError {
     /// The text is empty.
+    #[error("empty value, expected {}", .expected.describe())]
     Empty { expected: UnitKind },
     /// No number could be read at the start of the text.
+    #[error("\"{text}\" does not start with a number, expected {}", .expected.describe())]
     BadNumber { text: String, expected: UnitKind },
     /// The number is infinite or not a number.
+    #[error("\"{text}\" is not a finite number")]
     NotFinite { text: String },
     /// A number without a unit where the field needs one.
+    #[error("{value} has no unit, expected {}", .expected.describe())]
     MissingUnit { value: f64, expected: UnitKind },
     /// A unit where the field takes a plain number.
+    #[error("unit `{unit}` given, but this field is a plain number")]
     UnexpectedUnit { unit: String },
     /// A known unit of another kind, for example `m` where ohm is expected.
+    #[error("unit `{unit}` is {}, but this field expects {}", .found.short_name(), .expected.describe())]
     WrongUnit { unit: String, found: UnitKind, expected: UnitKind },
     /// A unit this reader does not know.
+    #[error("unknown unit `{unit}`, expected {}", .expected.describe())]
     UnknownUnit { unit: String, expected: UnitKind },
 }
-
-impl fmt::Display for UnitError {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        match self {
-            UnitError::Empty { expected } => {
-                write!(f, "empty value, expected {}", expected.describe())
-            }
-            UnitError::BadNumber { text, expected } => {
-                write!(f, "\"{text}\" does not start with a number, expected {}", expected.describe())
-            }
-            UnitError::NotFinite { text } => write!(f, "\"{text}\" is not a finite number"),
-            UnitError::MissingUnit { value, expected } => {
-                write!(f, "{value} has no unit, expected {}", expected.describe())
-            }
-            UnitError::UnexpectedUnit { unit } => {
-                write!(f, "unit `{unit}` given, but this field is a plain number")
-            }
-            UnitError::WrongUnit { unit, found, expected } => {
-                write!(f, "unit `{unit}` is {}, but this field expects {}", found.short_name(), expected.describe())
-            }
-            UnitError::UnknownUnit { unit, expected } => {
-                write!(f, "unknown unit `{unit}`, expected {}", expected.describe())
-            }
-        }
-    }
-}
-
-impl std::error::Error for UnitError {}
 
 /// Base units that take an SI prefix, with the kind they measure on their own.
 const PREFIXABLE: &[(&str, UnitKind)] = &[
