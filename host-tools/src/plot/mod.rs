@@ -1,12 +1,12 @@
 //! SVG pictures of emulation results: probe waveforms against the exact reference, the
 //! distance-versus-time (lattice) map of a path, and x-y sweeps.
 //!
-//! The pictures take plain `f64` data, so they depend on nothing else in the crate. They are
-//! drawn with `plotters`' SVG backend without any font stack: the SVG holds `<text>`
-//! elements and the viewer renders the glyphs, while plotters lays labels out with its
-//! built-in width estimate. Every file is written atomically (`crate::files`), and long
-//! traces are thinned with a min/max-per-bucket
-//! decimation that keeps edges and peaks, so files stay small.
+//! The pictures take plain `f64` data and use only the crate's file writer and SI
+//! formatter. They are drawn with `plotters`' SVG backend without any font stack: the SVG
+//! holds `<text>` elements and the viewer renders the glyphs, while plotters lays labels out
+//! with its built-in width estimate. Every file is written atomically (`crate::files`), and
+//! long traces are thinned with a min/max-per-bucket decimation that keeps edges and peaks,
+//! so files stay small.
 
 mod lattice;
 mod style;
