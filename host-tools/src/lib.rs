@@ -7,6 +7,7 @@ pub mod emit;
 pub mod plant;
 pub mod plot;
 pub mod reference;
+pub mod rig;
 pub mod run;
 pub mod twin;
 pub mod verify;

@@ -81,7 +81,9 @@ impl<const CAP: usize> Capture<CAP> {
             }
             let filled = filled + 1;
             self.state = if filled >= self.length {
-                CaptureState::Done { start, length: self.length, columns: cols as u8 }
+                let mut probes = [0u8; MAX_CAPTURE_PROBES];
+                probes.iter_mut().zip(self.probes.iter()).for_each(|(d, s)| *d = *s);
+                CaptureState::Done { start, length: self.length, columns: cols as u8, probes }
             } else {
                 CaptureState::Filling { start, filled }
             };

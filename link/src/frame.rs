@@ -62,7 +62,7 @@ pub struct Frame<'a> {
 /// Unpack one frame in place (`packed` without its delimiter): COBS, length, CRC. The
 /// version is returned, not judged: the caller answers another version with its own.
 pub fn unpack(packed: &mut [u8]) -> Result<Frame<'_>, LinkError> {
-    let n = cobs::decode_in_place(packed).map_err(|_| LinkError::Framing)?;
+    let n = cobs_decode_in_place(packed).ok_or(LinkError::Framing)?;
     let raw = packed.get(..n).ok_or(LinkError::Framing)?;
     if n < HEAD + TAIL {
         return Err(LinkError::Truncated);
@@ -77,6 +77,43 @@ pub fn unpack(packed: &mut [u8]) -> Result<Frame<'_>, LinkError> {
     }
     let (head, body) = covered.split_at(HEAD);
     Ok(Frame { version: head[0], seq: u16::from_le_bytes([head[1], head[2]]), body })
+}
+
+/// COBS decoding in place, written with checked indexing so that no panic is reachable
+/// from a received byte (the `cobs` crate's decoder indexes directly, which the firmware's
+/// no-panic link check cannot see through). Encoding uses the `cobs` crate; the tests check
+/// this decoder against its decoder on random input.
+///
+/// Each block is a code byte c (1..=255) followed by c − 1 data bytes; a block with c < 255
+/// that is not the last one stands for its data followed by a zero. Returns the decoded
+/// length, or None for a zero byte or a block running past the end.
+pub fn cobs_decode_in_place(buf: &mut [u8]) -> Option<usize> {
+    let (mut src, mut dst) = (0usize, 0usize);
+    let end = buf.len();
+    if end == 0 {
+        return None;
+    }
+    while src < end {
+        let code = *buf.get(src)? as usize;
+        if code == 0 || src + code > end {
+            return None;
+        }
+        src += 1;
+        for _ in 1..code {
+            let b = *buf.get(src)?;
+            if b == 0 {
+                return None;
+            }
+            *buf.get_mut(dst)? = b;
+            src += 1;
+            dst += 1;
+        }
+        if code != 0xff && src < end {
+            *buf.get_mut(dst)? = 0;
+            dst += 1;
+        }
+    }
+    Some(dst)
 }
 
 /// Collects wire bytes into packed frames.

@@ -128,8 +128,18 @@ pub struct Hello {
 pub enum CaptureState {
     Idle,
     Armed,
-    Filling { start: u64, filled: u32 },
-    Done { start: u64, length: u32, columns: u8 },
+    Filling {
+        start: u64,
+        filled: u32,
+    },
+    /// Finished: `length` samples from sample `start` of `columns` probes, which are
+    /// `probes[..columns]` (plant probe numbers).
+    Done {
+        start: u64,
+        length: u32,
+        columns: u8,
+        probes: [u8; MAX_CAPTURE_PROBES],
+    },
 }
 
 /// Counters and state of the rig.

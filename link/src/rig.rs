@@ -148,7 +148,8 @@ impl<
         let n = self.samples;
         let solver = &mut self.solvers[self.active & 1];
         let mut applied = false;
-        while let Some(&(at, action)) = self.events.first() {
+        // The queue is sorted latest first: the next event is the last one.
+        while let Some(&(at, action)) = self.events.last() {
             if at > n {
                 break;
             }
@@ -158,7 +159,7 @@ impl<
                 Action::Break { junction } => solver.set_broken(junction, true),
                 Action::Join { junction } => solver.set_broken(junction, false),
             };
-            self.events.remove(0);
+            self.events.pop();
             applied = true;
         }
         let out = solver.step(input);
@@ -398,9 +399,18 @@ impl<
         if self.events.is_full() {
             return Err(LinkError::QueueFull);
         }
-        // Keep the queue sorted by sample; equal samples keep their order of arrival.
-        let pos = self.events.iter().position(|(t, _)| *t > at).unwrap_or(self.events.len());
-        self.events.insert(pos, (at, action)).map_err(|_| LinkError::QueueFull)?;
+        // Keep the queue sorted latest first (the next event at the end); among equal samples
+        // the earlier arrival stays nearer the end, so it is applied first.
+        self.events.push((at, action)).map_err(|_| LinkError::QueueFull)?;
+        let s = self.events.as_mut_slice();
+        let mut i = s.len().saturating_sub(1);
+        while i > 0 {
+            match s.get_mut(i - 1..=i) {
+                Some([before, new]) if before.0 <= new.0 => core::mem::swap(before, new),
+                _ => break,
+            }
+            i -= 1;
+        }
         Ok(Reply::Ok)
     }
 

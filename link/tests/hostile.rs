@@ -202,3 +202,18 @@ proptest! {
         }
     }
 }
+
+proptest! {
+    /// The link's own COBS decoder agrees with the `cobs` crate: on its encodings of any
+    /// data, and on any zero-free bytes (same result or both refuse).
+    #[test]
+    fn cobs_decoder_agrees_with_the_cobs_crate(data in proptest::collection::vec(any::<u8>(), 1..600), junk in proptest::collection::vec(1u8..=255, 1..300)) {
+        let mut enc = cobs::encode_vec(&data);
+        let n = tidewire_link::frame::cobs_decode_in_place(&mut enc);
+        prop_assert_eq!(n.map(|n| enc[..n].to_vec()), Some(data));
+        let theirs = cobs::decode_vec(&junk).ok();
+        let mut mine = junk.clone();
+        let n = tidewire_link::frame::cobs_decode_in_place(&mut mine);
+        prop_assert_eq!(n.map(|n| mine[..n].to_vec()), theirs);
+    }
+}

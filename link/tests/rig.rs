@@ -56,7 +56,7 @@ fn capture_at_sample_equals_the_direct_run_bit_for_bit() {
     let want = direct(200);
     assert_eq!(dac, want.iter().map(|w| w.0).collect::<Vec<_>>());
     let st = r.status();
-    assert_eq!(st.capture, CaptureState::Done { start: 0, length: 150, columns: 2 });
+    assert_eq!(st.capture, CaptureState::Done { start: 0, length: 150, columns: 2, probes: [0, 1, 0, 0] });
     assert_eq!(st.samples, 200);
     assert_eq!(st.events_pending, 0);
     let p0 = read_all(&mut r, 0, 150);
@@ -78,7 +78,7 @@ fn capture_on_event_and_on_level_start_where_they_should() {
     (0..100).for_each(|_| {
         tick(&mut r);
     });
-    assert_eq!(r.status().capture, CaptureState::Done { start: 40, length: 20, columns: 1 });
+    assert_eq!(r.status().capture, CaptureState::Done { start: 40, length: 20, columns: 1, probes: [1, 0, 0, 0] });
     assert_eq!(read_all(&mut r, 0, 20), want[40..60].iter().map(|w| w.2).collect::<Vec<_>>());
 
     // Level: the first sample where probe 0 rises to half its final value or more.
@@ -91,7 +91,7 @@ fn capture_on_event_and_on_level_start_where_they_should() {
     (0..200).for_each(|_| {
         tick(&mut r);
     });
-    assert_eq!(r.status().capture, CaptureState::Done { start: first as u64, length: 5, columns: 1 });
+    assert_eq!(r.status().capture, CaptureState::Done { start: first as u64, length: 5, columns: 1, probes: [0; 4] });
 }
 
 #[test]

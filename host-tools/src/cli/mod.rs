@@ -3,6 +3,7 @@
 mod demo;
 mod inspect;
 mod output;
+mod rig;
 mod simulate;
 pub mod sweep;
 mod verify_cmd;
@@ -104,6 +105,8 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "wide")]
         profile: ProfileArg,
     },
+    /// Drive a rig over its control link: load, start, stop, schedule, capture, status.
+    Rig(rig::RigArgs),
     /// The main job on a built-in demo plant: inspect, compile, simulate, verify.
     Demo {
         /// Folder for the files the demo writes.
@@ -157,6 +160,7 @@ pub fn main() -> i32 {
             sweep::run(&plant, &segment, &probe, from, to, steps, svg.as_deref(), profile.into())
         }
         Command::Demo { out } => demo::run(&out),
+        Command::Rig(args) => rig::run(args),
     };
     match r {
         Ok(code) => code,
