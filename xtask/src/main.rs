@@ -6,10 +6,12 @@
 //!   comparison of the two stimuli), compare every hash with the host core, print the table.
 //! * `firmware --inject-panic`: build with a panicking `unwrap` on the per-sample path; succeeds
 //!   only if both links fail on the undefined panic symbol.
+//! * `rig`: the rig firmware in QEMU driven by `tidewire rig` end to end (see `rig.rs`).
 mod gen;
 mod host;
 mod parts;
 mod plants;
+mod rig;
 mod run;
 #[path = "../../examples/firmware/src/stimulus.rs"]
 #[allow(dead_code)]
@@ -32,7 +34,8 @@ fn main() -> ExitCode {
     let result = match args.iter().map(String::as_str).collect::<Vec<_>>().as_slice() {
         ["firmware"] => firmware(false),
         ["firmware", "--inject-panic"] => firmware(true),
-        _ => Err("usage: cargo run -p xtask -- firmware [--inject-panic]".into()),
+        ["rig"] => rig::rig(),
+        _ => Err("usage: cargo run -p xtask -- firmware [--inject-panic] | rig".into()),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

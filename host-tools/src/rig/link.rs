@@ -46,6 +46,18 @@ pub struct RigConnection {
     pending: Vec<u8>,
     seq: u16,
     timeout: Duration,
+    /// The TCP stream, to shut down on drop (the reader thread holds a clone of it).
+    tcp: Option<TcpStream>,
+}
+
+impl Drop for RigConnection {
+    fn drop(&mut self) {
+        // Ends the reader thread and frees the rig's port for the next client (an emulated
+        // UART serves one connection at a time).
+        if let Some(s) = &self.tcp {
+            let _ = s.shutdown(std::net::Shutdown::Both);
+        }
+    }
 }
 
 impl RigConnection {
@@ -59,12 +71,14 @@ impl RigConnection {
                 !target.starts_with('/') && target.rsplit_once(':').is_some_and(|(_, p)| p.parse::<u16>().is_ok());
             looks_tcp.then_some(target)
         });
+        let mut tcp_handle = None;
         let (reader, writer): (Box<dyn Read + Send>, Box<dyn Write + Send>) = match tcp {
             Some(addr) => {
                 let addrs: Vec<_> = std::net::ToSocketAddrs::to_socket_addrs(addr).map_err(connect)?.collect();
                 let first = addrs.first().ok_or_else(|| connect(std::io::Error::other("no address")))?;
                 let s = TcpStream::connect_timeout(first, timeout).map_err(connect)?;
                 let _ = s.set_nodelay(true);
+                tcp_handle = Some(s.try_clone().map_err(connect)?);
                 (Box::new(s.try_clone().map_err(connect)?), Box::new(s))
             }
             None => {
@@ -91,6 +105,7 @@ impl RigConnection {
             pending: vec![],
             seq: 0,
             timeout,
+            tcp: tcp_handle,
         })
     }
 
