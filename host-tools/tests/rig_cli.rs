@@ -65,3 +65,35 @@ fn bad_arguments_are_exit_2_before_any_connection() {
         assert!(!err.contains("panicked"), "{args:?}: {err}");
     }
 }
+
+#[test]
+fn rate_says_whether_a_part_keeps_up_and_names_unknown_parts() {
+    let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/plants");
+    let plant = dir.join("rig-break.toml");
+    // 14 line ends at 100 MS/s: about 1 700 instructions per sample, far from real time on
+    // a 168 MHz part, and the plant's 60 m segment cannot be sampled at the ~98 kS/s it keeps.
+    let a = tidewire().args(["rate", plant.to_str().unwrap(), "--part", "stm32f407"]).assert().code(1);
+    let out = String::from_utf8_lossy(&a.get_output().stdout).into_owned();
+    assert!(out.contains("slower than real time") && out.contains("no real-time rate"), "{out}");
+    assert!(out.contains("RAM: solver about") && out.contains("flash: rig firmware"), "{out}");
+    // A long line sampled slowly: real time on every part, and a highest rate is found.
+    let text = std::fs::read_to_string(dir.join("bench-rig.toml")).unwrap();
+    let slow = text
+        .replace("sample_rate = \"100 MHz\"", "sample_rate = \"20 kHz\"")
+        .replace("duration = \"10 us\"", "duration = \"20 ms\"")
+        .replace("length = \"100 m\"", "length = \"40 km\"")
+        .replace("rise = \"50 ns\", delay = \"200 ns\"", "rise = \"200 us\", delay = \"400 us\"")
+        .replace("arrival = \"10 ns\"", "arrival = \"100 us\"");
+    let d = std::env::temp_dir().join(format!("tidewire-rate-{}", std::process::id()));
+    std::fs::create_dir_all(&d).unwrap();
+    let p = d.join("long-line.toml");
+    std::fs::write(&p, slow).unwrap();
+    for part in ["m0", "m4", "stm32f407"] {
+        let a = tidewire().args(["rate", p.to_str().unwrap(), "--part", part]).assert();
+        let out = String::from_utf8_lossy(&a.get_output().stdout).into_owned();
+        assert!(out.contains("runs in real time") && out.contains("highest real-time rate"), "{part}: {out}");
+        assert!(out.contains("tolerances at"), "{part}: {out}");
+    }
+    let a = tidewire().args(["rate", plant.to_str().unwrap(), "--part", "z80"]).assert().code(2);
+    assert!(String::from_utf8_lossy(&a.get_output().stderr).contains("parts: m0, m4, stm32f407"));
+}

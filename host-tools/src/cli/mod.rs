@@ -3,6 +3,7 @@
 mod demo;
 mod inspect;
 mod output;
+mod rate;
 mod rig;
 mod simulate;
 pub mod sweep;
@@ -105,6 +106,13 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "wide")]
         profile: ProfileArg,
     },
+    /// Can a part run this plant in real time? Highest rate, RAM, flash, tolerances there.
+    Rate {
+        plant: PathBuf,
+        /// The part: m0, m4 (the emulated parts) or stm32f407 (the reference board).
+        #[arg(long)]
+        part: String,
+    },
     /// Drive a rig over its control link: load, start, stop, schedule, capture, status.
     Rig(rig::RigArgs),
     /// The main job on a built-in demo plant: inspect, compile, simulate, verify.
@@ -161,6 +169,7 @@ pub fn main() -> i32 {
         }
         Command::Demo { out } => demo::run(&out),
         Command::Rig(args) => rig::run(args),
+        Command::Rate { plant, part } => rate::run(&plant, &part),
     };
     match r {
         Ok(code) => code,

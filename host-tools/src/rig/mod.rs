@@ -2,6 +2,7 @@
 //! or a serial device ([`link`]), and the jobs built on it ([`session`]): image and device
 //! model uploads, plant events, capture read-back.
 pub mod link;
+pub mod parts;
 pub mod session;
 
 pub use link::{RigConnection, RigError};
