@@ -395,7 +395,9 @@ fn read(
     let row_err = |e: csv::Error| io_failure(csv, e);
     w.write_record(&header).map_err(row_err)?;
     for n in 0..len {
-        let mut row = vec![(start + n as u64).to_string(), format!("{:.6e}", (start + n as u64) as f64 * dt)];
+        // Without the plant the sample period is unknown: the time column stays empty.
+        let time = if comp.is_some() { format!("{:.6e}", (start + n as u64) as f64 * dt) } else { String::new() };
+        let mut row = vec![(start + n as u64).to_string(), time];
         if comp.is_some() {
             row.extend((0..cols.len()).map(|k| scale(k, cols[k][n]).map_or(String::new(), |v| format!("{v:.6e}"))));
         }
