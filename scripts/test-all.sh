@@ -67,6 +67,12 @@ step "firmware on emulated Cortex-M0 and Cortex-M4"
 cargo run -p xtask -- firmware
 cargo run -p xtask -- firmware --inject-panic
 
+step "rig end to end on the emulated Cortex-M4 (control link, capture, overruns)"
+cargo run -p xtask -- rig
+
+step "rig firmware for the reference board (STM32F407 Discovery; build only)"
+(cd examples/rig-board && cargo build --release)
+
 step "main job on the built-in demo plant"
 cargo run --release -p tidewire-host -- demo --out target/demo-check
 

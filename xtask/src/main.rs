@@ -8,10 +8,12 @@
 //!   only if both links fail on the undefined panic symbol.
 //! * `soak [--cases N] [--hours H]`: the property suites with many cases, for hours if asked
 //!   (see `soak.rs`).
+//! * `rig`: the rig firmware in QEMU driven by `tidewire rig` end to end (see `rig.rs`).
 mod gen;
 mod host;
 mod parts;
 mod plants;
+mod rig;
 mod run;
 mod soak;
 #[path = "../../examples/firmware/src/stimulus.rs"]
@@ -36,7 +38,8 @@ fn main() -> ExitCode {
         ["firmware"] => firmware(false),
         ["firmware", "--inject-panic"] => firmware(true),
         ["soak", rest @ ..] => soak::soak(rest),
-        _ => Err("usage: cargo run -p xtask -- firmware [--inject-panic] | soak [--cases N] [--hours H]".into()),
+        ["rig"] => rig::rig(),
+        _ => Err("usage: cargo run -p xtask -- firmware [--inject-panic] | soak [--cases N] [--hours H] | rig".into()),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

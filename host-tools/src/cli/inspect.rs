@@ -108,8 +108,8 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
     let worst = r.segments.iter().map(|t| (t.error_s / t.tau).abs()).fold(0.0, f64::max);
     let _ = writeln!(s, "   largest delay quantization error: {:.3} % of a segment's delay", 100.0 * worst);
     let _ = writeln!(s, "\n-- storage and work per sample");
-    let wide_kb = (r.memory_waves * 4 + r.ports * 30) as f64 / 1024.0;
-    let narrow_kb = (r.memory_waves * 2 + r.ports * 26) as f64 / 1024.0;
+    let wide_kb = r.ram_bytes(ProfileKind::Wide) as f64 / 1024.0;
+    let narrow_kb = r.ram_bytes(ProfileKind::Narrow) as f64 / 1024.0;
     let _ = writeln!(
         s,
         "   {} line ends (port updates per sample), {} junctions, {} waves of delay storage",

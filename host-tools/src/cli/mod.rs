@@ -3,6 +3,8 @@
 mod compile_cmd;
 mod demo;
 mod inspect;
+mod rate;
+mod rig;
 mod simulate;
 mod sweep;
 mod verify_cmd;
@@ -105,6 +107,15 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "wide")]
         profile: ProfileArg,
     },
+    /// Can a part run this plant in real time? Highest rate, RAM, flash, tolerances there.
+    Rate {
+        plant: PathBuf,
+        /// The part: m0, m4 (the emulated parts) or stm32f407 (the reference board).
+        #[arg(long)]
+        part: String,
+    },
+    /// Drive a rig over its control link: load, start, stop, schedule, capture, status.
+    Rig(rig::RigArgs),
     /// The main job on a built-in demo plant: inspect, compile, simulate, verify.
     Demo {
         /// Folder for the files the demo writes.
@@ -159,6 +170,8 @@ pub fn main() -> i32 {
             sweep::run(&plant, &segment, &probe, from, to, steps, svg.as_deref(), profile.into())
         }
         Command::Demo { out } => demo::run(&out),
+        Command::Rig(args) => rig::run(args),
+        Command::Rate { plant, part } => rate::run(&plant, &part),
     };
     match r {
         Ok(code) => code,

@@ -55,6 +55,17 @@ pub struct Report {
     pub notes: Vec<String>,
 }
 
+impl Report {
+    /// Solver RAM for this network, bytes (approximate): delay storage plus per-port state
+    /// (wide: 4-byte waves, about 30 bytes per port; narrow: 2-byte waves, about 26).
+    pub fn ram_bytes(&self, profile: super::ProfileKind) -> usize {
+        match profile {
+            super::ProfileKind::Wide => self.memory_waves * 4 + self.ports * 30,
+            super::ProfileKind::Narrow => self.memory_waves * 2 + self.ports * 26,
+        }
+    }
+}
+
 fn parallel(zs: &[f64]) -> f64 {
     let g: f64 = zs.iter().map(|z| if z.is_infinite() { 0.0 } else { 1.0 / z }).sum();
     if g == 0.0 {

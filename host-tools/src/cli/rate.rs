@@ -1,0 +1,121 @@
+//! `tidewire rate PLANT --part NAME`: can this part run this plant in real time, and at what
+//! rate? The part's measured cost model (instructions per sample from the line ends and
+//! junctions, `rig::parts`) gives the highest rate at one instruction per cycle; the plant is
+//! compiled again at that rate (fewer samples of delay, perhaps coarser lumping) until the
+//! rate and the network agree; then RAM, flash, and the plant's tolerances at that rate.
+//!
+//! Exit codes: 0 the part runs the plant in real time at some rate that passes the
+//! tolerances; 1 it does not (too slow, too little memory, or the tolerances fail at the rate
+//! it can keep); 2 bad input.
+use super::Failure;
+use crate::compile::{compile, Compiled};
+use crate::plant::{load_plant, Plant};
+use crate::rig::parts::{find, RigPart, RIG_PARTS};
+use std::path::Path;
+
+fn si_rate(hz: f64) -> String {
+    if hz >= 1e6 {
+        format!("{:.3} MS/s", hz / 1e6)
+    } else if hz >= 1e3 {
+        format!("{:.2} kS/s", hz / 1e3)
+    } else {
+        format!("{hz:.1} S/s")
+    }
+}
+
+/// The highest rate the part keeps, compiled at that rate: (rate, network there).
+fn settle(plant: &Plant, file: &str, part: &RigPart, start: &Compiled) -> Result<(f64, Compiled), String> {
+    let cost = |c: &Compiled| part.instructions(c.report.ports, c.report.junctions).map(|i| part.clock_hz / i);
+    let mut rate = cost(start).ok_or("the part has no measured cost model")?;
+    let mut best = None;
+    // The network shrinks (or stays) as the rate falls, so the part's rate rises or stays:
+    // a few rounds reach a rate the part keeps with the network compiled at it.
+    for _ in 0..8 {
+        let mut p = plant.clone();
+        p.sample_rate = rate;
+        let c = compile(&p, file, part.profile).map_err(|e| format!("at {}: {e}", si_rate(rate)))?;
+        let keeps = cost(&c).ok_or("the part has no measured cost model")?;
+        if keeps >= rate {
+            best = Some((rate, c));
+            break;
+        }
+        rate = keeps * 0.999;
+    }
+    best.ok_or_else(|| format!("no rate found that the part keeps (last tried {})", si_rate(rate)))
+}
+
+pub(super) fn run(path: &Path, part_name: &str) -> Result<i32, Failure> {
+    let Some(part) = find(part_name) else {
+        let names: Vec<&str> = RIG_PARTS.iter().map(|p| p.name).collect();
+        return Err(Failure {
+            code: 2,
+            message: format!("error: unknown part {part_name:?}; parts: {}", names.join(", ")),
+        });
+    };
+    let plant = load_plant(path)?;
+    let file = path.display().to_string();
+    let own = compile(&plant, &file, part.profile)?;
+    let fs = plant.sample_rate;
+    println!("== {} on {} ==", plant.name, part.name);
+    println!("   part: {}; {} KiB RAM, {} KiB flash", part.description, part.ram / 1024, part.flash / 1024);
+    let instr = part.instructions(own.report.ports, own.report.junctions).unwrap_or(f64::NAN);
+    let keeps = part.clock_hz / instr;
+    println!(
+        "   at the plant's rate {}: {} line ends, {} junctions, about {:.0} instructions per sample -> the part keeps {}",
+        si_rate(fs),
+        own.report.ports,
+        own.report.junctions,
+        instr,
+        si_rate(keeps)
+    );
+    if keeps >= fs {
+        println!("   the plant's own rate runs in real time ({:.1}x headroom)", keeps / fs);
+    } else {
+        println!("   the plant's own rate runs {:.0}x slower than real time", fs / keeps);
+    }
+    let (rate, c) = match settle(&plant, &file, part, &own) {
+        Ok((r, c)) => {
+            println!("   highest real-time rate: {} ({} line ends compiled at that rate)", si_rate(r), c.report.ports);
+            (Some(r), c)
+        }
+        Err(e) => {
+            println!("   no real-time rate: {e}");
+            (None, own)
+        }
+    };
+    let ram = c.report.ram_bytes(part.profile);
+    let image = crate::emit::image_bytes(&c.network()).len();
+    let ram_ok = ram <= part.ram;
+    println!(
+        "   RAM: solver about {:.1} KiB of {} KiB{}",
+        ram as f64 / 1024.0,
+        part.ram / 1024,
+        if ram_ok { "" } else { "  -- DOES NOT FIT" }
+    );
+    match part.firmware_flash {
+        Some(f) => println!(
+            "   flash: rig firmware {:.1} KiB of {} KiB (measured: {}); plant image {image} bytes, loaded at run time",
+            f as f64 / 1024.0,
+            part.flash / 1024,
+            part.firmware_source
+        ),
+        None => println!(
+            "   flash: {} ({} KiB on the part); plant image {image} bytes",
+            part.firmware_source,
+            part.flash / 1024
+        ),
+    }
+    let Some(rate) = rate else { return Ok(1) };
+    let mut p = plant.clone();
+    p.sample_rate = rate;
+    let (v, _) = crate::verify::verify(&p, &file, &c, &[], &|_| {})?;
+    let worst = v.probes.iter().map(|f| f.max_error / f.norm).fold(0.0, f64::max);
+    println!(
+        "   tolerances at {}: {} (largest error {:.2} % of the step, allowed {:.2} %)",
+        si_rate(rate),
+        if v.pass() { "PASS" } else { "FAIL" },
+        100.0 * worst,
+        100.0 * plant.tolerances.max_error
+    );
+    Ok(if v.pass() && ram_ok { 0 } else { 1 })
+}

@@ -1,0 +1,85 @@
+//! The parts a rig can run on: clock, memory, and the measured firmware figures that say how
+//! fast a plant runs there. This table is the one place these part figures live; the
+//! instructions per port update are the measured cost models of `analysis::budget::PARTS`
+//! (from `cargo run -p xtask -- firmware`), not copies of them.
+
+use crate::analysis::budget::{Part as CostClass, PARTS as COST_CLASSES};
+use crate::compile::ProfileKind;
+
+/// One part.
+pub struct RigPart {
+    /// Name on the command line.
+    pub name: &'static str,
+    pub description: &'static str,
+    /// Core clock, Hz (one instruction per cycle is assumed: an upper bound on the rate).
+    pub clock_hz: f64,
+    /// RAM and flash for the rig, bytes.
+    pub ram: usize,
+    pub flash: usize,
+    /// Number profile the part runs.
+    pub profile: ProfileKind,
+    /// Index into `analysis::budget::PARTS` (the measured cost model).
+    cost: usize,
+    /// Flash used by the rig firmware for this part (text + data of the release build), or
+    /// None where no rig firmware exists for the part.
+    pub firmware_flash: Option<usize>,
+    /// Where that figure comes from.
+    pub firmware_source: &'static str,
+}
+
+impl RigPart {
+    /// The measured cost model: instructions per sample = per_port · ports + per_junction ·
+    /// junctions + base.
+    pub fn cost(&self) -> Option<(f64, f64, f64)> {
+        COST_CLASSES.get(self.cost).and_then(|c: &CostClass| c.cost)
+    }
+
+    /// Instructions per sample for a network of `ports` line ends and `junctions` junctions.
+    pub fn instructions(&self, ports: usize, junctions: usize) -> Option<f64> {
+        self.cost().map(|(p, j, b)| p * ports as f64 + j * junctions as f64 + b)
+    }
+}
+
+/// The parts `tidewire rate --part` knows.
+pub const RIG_PARTS: [RigPart; 3] = [
+    RigPart {
+        name: "m0",
+        description: "emulated Cortex-M0 (QEMU microbit, nRF51 at 16 MHz), narrow profile",
+        clock_hz: 16e6,
+        ram: 16 * 1024,
+        flash: 256 * 1024,
+        profile: ProfileKind::Narrow,
+        cost: 0,
+        firmware_flash: None,
+        firmware_source: "no rig firmware for this part",
+    },
+    RigPart {
+        name: "m4",
+        description: "emulated Cortex-M4 (QEMU mps2-an386 at 25 MHz), wide profile",
+        clock_hz: 25e6,
+        ram: 4 * 1024 * 1024,
+        flash: 4 * 1024 * 1024,
+        profile: ProfileKind::Wide,
+        cost: 1,
+        // llvm-size of examples/rig (release, 2026-12-02): text 63 964 + data 151 992 bytes.
+        firmware_flash: Some(63_964 + 151_992),
+        firmware_source: "llvm-size examples/rig/target/thumbv7em-none-eabihf/release/tidewire-rig",
+    },
+    RigPart {
+        name: "stm32f407",
+        description: "STM32F407 Discovery (Cortex-M4F at 168 MHz), wide profile",
+        clock_hz: 168e6,
+        ram: 128 * 1024,
+        flash: 1024 * 1024,
+        profile: ProfileKind::Wide,
+        cost: 1,
+        // llvm-size of examples/rig-board (release, 2026-12-02): text 62 128 + data 70 072 bytes.
+        firmware_flash: Some(62_128 + 70_072),
+        firmware_source: "llvm-size examples/rig-board/target/thumbv7em-none-eabihf/release/tidewire-rig-board",
+    },
+];
+
+/// Find a part by name.
+pub fn find(name: &str) -> Option<&'static RigPart> {
+    RIG_PARTS.iter().find(|p| p.name.eq_ignore_ascii_case(name))
+}
