@@ -4,6 +4,7 @@
 pub mod cli;
 pub mod compile;
 pub mod emit;
+pub mod extract;
 pub mod plant;
 pub mod plot;
 pub mod reference;

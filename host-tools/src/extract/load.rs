@@ -1,0 +1,190 @@
+//! The far end: which load ends the extracted line.
+//!
+//! Peeling ends one of two ways. If the record runs out first, the last uniform run goes on
+//! beyond the record, and within the record a resistor of the run's impedance is the same
+//! thing (a matched line and a resistor reflect alike), so the last run becomes a resistor.
+//! If a strong reflector ends the peeling (|k| ≥ 0.95), the end is open (k > 0), short
+//! (k < 0), a resistor found from the settled voltage, or a capacitor (which first
+//! reflects like a short, then like an open). Each candidate is run through the exact
+//! reference and the one closest to the capture is kept; the capacitance is fitted by a
+//! golden-section search on ln C.
+
+use super::merge::Run;
+use super::peel::Ending;
+
+/// The load at the end of the extracted line.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum EndLoad {
+    Open,
+    Short,
+    Resistor(f64),
+    Capacitor(f64),
+    ParallelRc { r: f64, c: f64 },
+}
+
+impl EndLoad {
+    /// The load as a plant file writes it.
+    pub fn plant_text(&self) -> String {
+        use super::plant_out::eng;
+        match self {
+            EndLoad::Open => "\"open\"".into(),
+            EndLoad::Short => "\"short\"".into(),
+            EndLoad::Resistor(r) => format!("\"{}\"", eng(*r, "ohm")),
+            EndLoad::Capacitor(c) => format!("{{ capacitor = \"{}\" }}", eng(*c, "F")),
+            EndLoad::ParallelRc { r, c } => format!(
+                "{{ resistor = \"{}\", capacitor = \"{}\", wiring = \"parallel\" }}",
+                eng(*r, "ohm"),
+                eng(*c, "F")
+            ),
+        }
+    }
+
+    /// One line for reports.
+    pub fn describe(&self) -> String {
+        use super::plant_out::eng;
+        match self {
+            EndLoad::Open => "open".into(),
+            EndLoad::Short => "short".into(),
+            EndLoad::Resistor(r) => format!("resistor {}", eng(*r, "ohm")),
+            EndLoad::Capacitor(c) => format!("capacitor {}", eng(*c, "F")),
+            EndLoad::ParallelRc { r, c } => format!("{} parallel to {}", eng(*r, "ohm"), eng(*c, "F")),
+        }
+    }
+}
+
+/// What the end identification needs to know about the capture.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub struct Tail {
+    /// Settled port voltage (mean of the last 5 % of the record), V.
+    pub settled: f64,
+    /// EMF step, V.
+    pub emf: f64,
+    /// Source resistance, ohm.
+    pub rs: f64,
+    /// DC loop resistance of the cable per metre, ohm/m (0 when lossless).
+    pub r_per_m: f64,
+    /// One-way travel time of one metre, s/m.
+    pub s_per_m: f64,
+    /// Sample interval and record length, s.
+    pub dt: f64,
+    pub record: f64,
+}
+
+impl Tail {
+    /// The resistance the settled voltage implies at the end of `length` m of cable:
+    /// v = emf·R/(Rs + R) at DC, so R = Rs·v/(emf − v), less the cable's loop resistance.
+    pub fn dc_resistance(&self, length: f64) -> Option<f64> {
+        let x = self.settled / self.emf;
+        if !(x > 0.0 && x < 0.999) {
+            return None;
+        }
+        let r = self.rs * x / (1.0 - x) - self.r_per_m * length;
+        (r > 0.0).then_some(r)
+    }
+}
+
+/// The uniform runs that stay lines, and where the load sits (m from the port).
+pub fn lines_before_end(runs: &[Run], ending: Ending, layer: f64, origin: usize) -> (Vec<Run>, Option<f64>) {
+    match ending {
+        Ending::Record => {
+            if runs.len() <= 1 {
+                // One run over the whole record: a line of it, matched at the record's end.
+                (runs.to_vec(), None)
+            } else {
+                (runs[..runs.len() - 1].to_vec(), None)
+            }
+        }
+        Ending::Reflector { at, .. } => {
+            let x_end = (at as f64 - origin as f64) * layer;
+            let mut lines: Vec<Run> = runs.iter().copied().filter(|r| r.start < x_end).collect();
+            // A run of less than two layers just before the end is the end's own edge.
+            while lines.len() > 1 && x_end - lines[lines.len() - 1].start < 2.0 * layer {
+                lines.pop();
+            }
+            if let Some(last) = lines.last_mut() {
+                last.end = x_end;
+            }
+            (lines, Some(x_end))
+        }
+    }
+}
+
+/// Candidate loads for an ending, before any fit (capacitances are fitted later).
+pub fn candidates(runs: &[Run], lines: &[Run], ending: Ending, tail: &Tail) -> Vec<EndLoad> {
+    let length: f64 = lines.iter().map(Run::length).sum();
+    let dc = tail.dc_resistance(length);
+    let mut c = Vec::new();
+    match ending {
+        Ending::Record => {
+            let last = runs.last().map_or(tail.rs, |r| r.z);
+            c.push(EndLoad::Resistor(last));
+            if let Some(r) = dc {
+                c.push(EndLoad::Resistor(r));
+            }
+        }
+        Ending::Reflector { k, .. } => {
+            if k > 0.0 {
+                c.push(EndLoad::Open);
+                if let Some(r) = dc {
+                    c.push(EndLoad::Resistor(r));
+                }
+            } else {
+                c.push(EndLoad::Short);
+                if let Some(r) = dc {
+                    c.push(EndLoad::Resistor(r));
+                }
+                c.push(EndLoad::Capacitor(f64::NAN));
+                if let Some(r) = dc {
+                    c.push(EndLoad::ParallelRc { r, c: f64::NAN });
+                }
+            }
+        }
+    }
+    c
+}
+
+/// Golden-section search for the minimum of `f` on [lo, hi].
+pub fn golden(mut lo: f64, mut hi: f64, iterations: usize, mut f: impl FnMut(f64) -> f64) -> f64 {
+    let g = (5f64.sqrt() - 1.0) / 2.0;
+    let mut a = hi - g * (hi - lo);
+    let mut b = lo + g * (hi - lo);
+    let (mut fa, mut fb) = (f(a), f(b));
+    for _ in 0..iterations {
+        if fa < fb {
+            hi = b;
+            b = a;
+            fb = fa;
+            a = hi - g * (hi - lo);
+            fa = f(a);
+        } else {
+            lo = a;
+            a = b;
+            fa = fb;
+            b = lo + g * (hi - lo);
+            fb = f(b);
+        }
+    }
+    if fa < fb {
+        a
+    } else {
+        b
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn golden_finds_the_minimum_of_a_parabola() {
+        let x = golden(-3.0, 5.0, 60, |x| (x - 1.25) * (x - 1.25));
+        assert!((x - 1.25).abs() < 1e-6, "{x}");
+    }
+
+    #[test]
+    fn dc_resistance_inverts_the_divider() {
+        // v = emf·R/(Rs + R) [closed form]: 50 ohm source, 150 ohm end: 0.75 of the EMF.
+        let t = Tail { settled: 0.75, emf: 1.0, rs: 50.0, r_per_m: 0.0, s_per_m: 5e-9, dt: 1e-9, record: 1e-6 };
+        assert!((t.dc_resistance(10.0).unwrap() - 150.0).abs() < 1e-9);
+    }
+}
