@@ -64,14 +64,32 @@ fn add_noise(v: &mut [f64], sigma: f64, seed: u64) {
 }
 
 fn opts(rs: f64, emf: f64) -> Options {
-    Options { rs, emf, cable: lossless_cable(0.66), preset: None, rise: None, tolerance: 0.03, smooth: None }
+    Options {
+        rs,
+        emf,
+        cable: lossless_cable(0.66),
+        preset: None,
+        rise: None,
+        tolerance: 0.03,
+        smooth: None,
+        refine: 12,
+    }
 }
 
 fn show(name: &str, x: &Extraction) {
     println!("== {name}: smooth {} ending {:?} load {:?}", x.smooth, x.profile.ending, x.load);
+    println!(
+        "   edge start {:e} rise {:e} offset {:e} noise {:e}",
+        x.edge.start, x.edge.rise, x.edge.offset, x.edge.noise
+    );
+    println!("   runs {:?}", x.runs.iter().map(|r| (r.start, r.z)).collect::<Vec<_>>());
     for r in &x.lines {
         println!("   {:8.3} .. {:8.3} m  {:8.3} ohm", r.start, r.end, r.z);
     }
+    println!(
+        "   fit rms {:.4} -> {:.4} V in {} steps",
+        x.refined.rms_before, x.refined.rms_after, x.refined.iterations
+    );
     println!("   exact max {:.3} % rms {:.3} %", 100.0 * x.roundtrip.exact_max, 100.0 * x.roundtrip.exact_rms);
     match &x.roundtrip.core {
         Ok((_, m, r)) => println!("   core max {:.3} % rms {:.3} %", 100.0 * m, 100.0 * r),

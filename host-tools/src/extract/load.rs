@@ -97,8 +97,21 @@ pub fn lines_before_end(runs: &[Run], ending: Ending, layer: f64, origin: usize)
         Ending::Reflector { at, .. } => {
             let x_end = (at as f64 - origin as f64) * layer;
             let mut lines: Vec<Run> = runs.iter().copied().filter(|r| r.start < x_end).collect();
-            // A run of less than two layers just before the end is the end's own edge.
-            while lines.len() > 1 && x_end - lines[lines.len() - 1].start < 2.0 * layer {
+            // A run of less than two layers just before the end is the end's own edge, and
+            // so are runs climbing to many times the impedance before them (an open end
+            // seen through the band limit).
+            // The level to compare with: the median impedance of the first half of the runs.
+            let mut zs: Vec<f64> = lines[..lines.len().div_ceil(2)].iter().map(|r| r.z).collect();
+            zs.sort_by(f64::total_cmp);
+            let typical = zs.get(zs.len() / 2).copied().unwrap_or(0.0);
+            let mut x_end = x_end;
+            while lines.len() > 1 {
+                let last = lines[lines.len() - 1];
+                if last.z > 4.0 * typical {
+                    x_end = last.start;
+                } else if x_end - last.start >= 2.0 * layer {
+                    break;
+                }
                 lines.pop();
             }
             if let Some(last) = lines.last_mut() {
@@ -109,33 +122,43 @@ pub fn lines_before_end(runs: &[Run], ending: Ending, layer: f64, origin: usize)
     }
 }
 
-/// Candidate loads for an ending, before any fit (capacitances are fitted later).
-pub fn candidates(runs: &[Run], lines: &[Run], ending: Ending, tail: &Tail) -> Vec<EndLoad> {
+/// Candidate ends: the lines to keep and the load after them (capacitances NaN: to be
+/// fitted, or a starting value).
+pub fn candidates(runs: &[Run], lines: &[Run], ending: Ending, tail: &Tail) -> Vec<(Vec<Run>, EndLoad)> {
     let length: f64 = lines.iter().map(Run::length).sum();
     let dc = tail.dc_resistance(length);
-    let mut c = Vec::new();
+    let mut c: Vec<(Vec<Run>, EndLoad)> = Vec::new();
+    let keep = |load| (lines.to_vec(), load);
     match ending {
         Ending::Record => {
             let last = runs.last().map_or(tail.rs, |r| r.z);
-            c.push(EndLoad::Resistor(last));
+            c.push(keep(EndLoad::Resistor(last)));
             if let Some(r) = dc {
-                c.push(EndLoad::Resistor(r));
+                c.push(keep(EndLoad::Resistor(r)));
             }
         }
         Ending::Reflector { k, .. } => {
-            if k > 0.0 {
-                c.push(EndLoad::Open);
+            c.push(keep(if k > 0.0 { EndLoad::Open } else { EndLoad::Short }));
+            if let Some(r) = dc {
+                c.push(keep(EndLoad::Resistor(r)));
+            }
+            if k < 0.0 {
+                c.push(keep(EndLoad::Capacitor(f64::NAN)));
                 if let Some(r) = dc {
-                    c.push(EndLoad::Resistor(r));
+                    c.push(keep(EndLoad::ParallelRc { r, c: f64::NAN }));
                 }
-            } else {
-                c.push(EndLoad::Short);
-                if let Some(r) = dc {
-                    c.push(EndLoad::Resistor(r));
-                }
-                c.push(EndLoad::Capacitor(f64::NAN));
-                if let Some(r) = dc {
-                    c.push(EndLoad::ParallelRc { r, c: f64::NAN });
+            }
+            // A capacitor shows as a short run of low impedance before an open: its
+            // capacitance is that run's, C = τ/Z = length/(v·Z).
+            if let [.., before, last] = lines {
+                if last.z < 0.7 * before.z {
+                    let cap = last.length() * tail.s_per_m / last.z;
+                    let shorter = lines[..lines.len() - 1].to_vec();
+                    c.push((shorter.clone(), EndLoad::Capacitor(cap)));
+                    let len2: f64 = shorter.iter().map(Run::length).sum();
+                    if let Some(r) = tail.dc_resistance(len2) {
+                        c.push((shorter, EndLoad::ParallelRc { r, c: cap }));
+                    }
                 }
             }
         }

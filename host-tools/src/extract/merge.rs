@@ -111,6 +111,22 @@ pub fn merge(z: &[f64], layer: f64, origin: usize, tol: f64, persist: usize) -> 
             });
         }
     }
+    absorb_short(runs, persist as f64 * layer)
+}
+
+/// Runs shorter than `min` (an edge's ringing) go to the neighbour closer in impedance.
+fn absorb_short(mut runs: Vec<Run>, min: f64) -> Vec<Run> {
+    while runs.len() > 1 {
+        let Some(i) = (0..runs.len()).find(|&i| runs[i].length() < min) else { break };
+        let dist = |j: usize| (runs[j].z / runs[i].z).ln().abs();
+        let into_prev = i > 0 && (i + 1 == runs.len() || dist(i - 1) <= dist(i + 1));
+        if into_prev {
+            runs[i - 1].end = runs[i].end;
+        } else {
+            runs[i + 1].start = runs[i].start;
+        }
+        runs.remove(i);
+    }
     runs
 }
 

@@ -13,6 +13,7 @@ pub mod load;
 pub mod merge;
 pub mod peel;
 pub mod plant_out;
+pub mod refine;
 pub mod roundtrip;
 
 pub use capture::{parse_capture, read_capture, Capture};
@@ -42,6 +43,8 @@ pub struct Options {
     pub tolerance: f64,
     /// Gaussian smoothing of the impulse response in samples (None: from the noise).
     pub smooth: Option<f64>,
+    /// Most Levenberg–Marquardt steps of the final fit (0: keep the peeled values).
+    pub refine: usize,
 }
 
 /// Everything extraction found, and the plant it wrote.
@@ -56,6 +59,8 @@ pub struct Extraction {
     /// The runs kept as lines, and the load at their end.
     pub lines: Vec<Run>,
     pub load: EndLoad,
+    /// The fit of the runs and the load to the whole capture.
+    pub refined: refine::Refined,
     /// The plant file's text and the plant the project's loader reads from it.
     pub text: String,
     pub plant: Plant,
@@ -186,24 +191,29 @@ pub fn extract(cap: &Capture, opts: &Options, how: Vec<String>, out_name: &str) 
     };
     let fr = frame(cap, opts, &edge);
     let target = &edge.volts;
-    let cost = |load: EndLoad| -> Result<f64, PlantError> {
-        let v = exact_port(&model_plant(&fr, &lines, load), n)
+    let cost = |lines: &[Run], load: EndLoad| -> Result<f64, PlantError> {
+        let v = exact_port(&model_plant(&fr, lines, load), n)
             .map_err(|e| internal(cap, "the exact reference failed", e))?;
         Ok(distance(&v, target).1)
     };
-    let mut best: Option<(EndLoad, f64)> = None;
-    let z_last = lines.last().map_or(opts.rs, |r| r.z);
-    for cand in load::candidates(&runs, &lines, profile.ending, &tail) {
+    let mut best: Option<(Vec<Run>, EndLoad, f64)> = None;
+    for (cand_lines, cand) in load::candidates(&runs, &lines, profile.ending, &tail) {
+        let z_last = cand_lines.last().map_or(opts.rs, |r| r.z);
         let fitted = match cand {
-            EndLoad::Capacitor(_) | EndLoad::ParallelRc { .. } => {
-                // ln C between a tenth of a sample and the whole record per Z of the last run.
-                let (lo, hi) = ((0.1 * cap.dt / z_last).ln(), (tail.record / z_last).ln());
+            EndLoad::Capacitor(c0) | EndLoad::ParallelRc { c: c0, .. } => {
+                // ln C within a decade of the starting value, or between a tenth of a
+                // sample and the whole record per Z of the last run.
+                let (lo, hi) = if c0.is_finite() {
+                    ((c0 / 10.0).ln(), (c0 * 10.0).ln())
+                } else {
+                    ((0.1 * cap.dt / z_last).ln(), (tail.record / z_last).ln())
+                };
                 let mut err = None;
                 let make = |lc: f64| match cand {
                     EndLoad::ParallelRc { r, .. } => EndLoad::ParallelRc { r, c: lc.exp() },
                     _ => EndLoad::Capacitor(lc.exp()),
                 };
-                let lc = load::golden(lo, hi, 24, |lc| match cost(make(lc)) {
+                let lc = load::golden(lo, hi, 24, |lc| match cost(&cand_lines, make(lc)) {
                     Ok(e) => e,
                     Err(e) => {
                         err = Some(e);
@@ -217,13 +227,24 @@ pub fn extract(cap: &Capture, opts: &Options, how: Vec<String>, out_name: &str) 
             }
             other => other,
         };
-        let e = cost(fitted)?;
-        // A more complex load must be clearly better (10 %) to be kept.
-        if best.is_none_or(|(_, b)| e < 0.9 * b) {
-            best = Some((fitted, e));
+        // Each candidate gets a short fit of its own (the edge and the runs move with the
+        // load), then the best goes on to the full fit.
+        let short = refine::refine(&fr, &cand_lines, fitted, target, 1.05 * layer, opts.refine.min(3))
+            .map_err(|e| internal(cap, "the exact reference failed while fitting", e))?;
+        let e = short.rms_after;
+        // A later (more complex) candidate must be clearly better (10 %) to be kept.
+        if best.as_ref().is_none_or(|b| e < 0.9 * b.2) {
+            best = Some((cand_lines, fitted, e));
         }
     }
-    let load = best.map_or(EndLoad::Open, |b| b.0);
+    let (lines, load) = match best {
+        Some((l, ld, _)) if !l.is_empty() => (l, ld),
+        _ => (lines, EndLoad::Open),
+    };
+    // The compiler needs every segment at least half a sample long: one layer.
+    let refined = refine::refine(&fr, &lines, load, target, 1.05 * layer, opts.refine)
+        .map_err(|e| internal(cap, "the exact reference failed while fitting", e))?;
+    let (lines, load) = (refined.lines.clone(), refined.load);
     let header = plant_out::Header {
         name: &format!(
             "extracted from {}",
@@ -236,8 +257,8 @@ pub fn extract(cap: &Capture, opts: &Options, how: Vec<String>, out_name: &str) 
         preset: opts.preset.as_deref(),
         rs: opts.rs,
         emf: opts.emf,
-        rise: edge.rise,
-        delay: edge.start,
+        rise: refined.rise,
+        delay: refined.delay,
     };
     let text = plant_out::plant_text(&header, &lines, load);
     let plant = parse_plant(&text, out_name, Path::new("."))?;
@@ -249,5 +270,5 @@ pub fn extract(cap: &Capture, opts: &Options, how: Vec<String>, out_name: &str) 
         (v, cm / opts.emf.abs(), cr / opts.emf.abs())
     });
     let roundtrip = RoundTrip { exact, exact_max: m / opts.emf.abs(), exact_rms: r / opts.emf.abs(), core };
-    Ok(Extraction { edge, smooth, profile, runs, lines, load, text, plant, roundtrip })
+    Ok(Extraction { edge, smooth, profile, runs, lines, load, refined, text, plant, roundtrip })
 }
