@@ -1,6 +1,7 @@
 //! The `tidewire` command line. Exit codes: 0 success (verify: pass), 1 verify failed,
 //! 2 bad input or a failed write (a located message on stderr, nothing half-written).
 mod demo;
+mod extract;
 mod inspect;
 mod output;
 mod simulate;
@@ -104,6 +105,9 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "wide")]
         profile: ProfileArg,
     },
+    /// From a step response captured at the driven port to a plant file (layer peeling),
+    /// with the impedance against distance and the round trip checked.
+    Extract(extract::ExtractArgs),
     /// The main job on a built-in demo plant: inspect, compile, simulate, verify.
     Demo {
         /// Folder for the files the demo writes.
@@ -157,6 +161,7 @@ pub fn main() -> i32 {
             sweep::run(&plant, &segment, &probe, from, to, steps, svg.as_deref(), profile.into())
         }
         Command::Demo { out } => demo::run(&out),
+        Command::Extract(args) => extract::run(&args),
     };
     match r {
         Ok(code) => code,

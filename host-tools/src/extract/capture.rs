@@ -118,7 +118,17 @@ pub fn parse_capture(text: &str, file: &str) -> Result<Capture, PlantError> {
         if record.iter().all(|f| f.is_empty()) {
             continue;
         }
-        let field_offset = |i: usize| start + record.range(i).map_or(0, |r| r.start);
+        // The record's ranges are of its trimmed fields; place errors on the raw line.
+        let field_offset = |i: usize| -> usize {
+            let line = &text[start.min(text.len())..];
+            let line = &line[..line.find('\n').unwrap_or(line.len())];
+            let mut at = 0;
+            for _ in 0..i {
+                at = line[at..].find(',').map_or(line.len(), |c| at + c + 1);
+            }
+            let lead = line[at..].len() - line[at..].trim_start().len();
+            start + at + lead
+        };
         if record.len() < 2 {
             let end = start + record.as_slice().len();
             return Err(located(

@@ -83,6 +83,32 @@ impl Tail {
     }
 }
 
+/// The ending, with a record-long peel that nonetheless shows an end: a run over 20 times
+/// the line's impedance (open) or under a twentieth of it (short). Loss compensation can
+/// carry the peel past an open end, where the layers then climb without bound.
+pub fn effective_ending(runs: &[Run], ending: Ending, layer: f64, origin: usize) -> Ending {
+    if ending != Ending::Record || runs.len() < 2 {
+        return ending;
+    }
+    let typical = runs[0].z;
+    for (i, r) in runs.iter().enumerate().skip(1) {
+        let k = if r.z > 20.0 * typical {
+            1.0
+        } else if r.z < typical / 20.0 {
+            -1.0
+        } else {
+            continue;
+        };
+        // The end is where the climb (or the fall) toward it began.
+        let mut first = i;
+        while first > 1 && (runs[first - 1].z / typical).ln() * k > 0.4 {
+            first -= 1;
+        }
+        return Ending::Reflector { at: (runs[first].start / layer).round() as usize + origin, k };
+    }
+    ending
+}
+
 /// The uniform runs that stay lines, and where the load sits (m from the port).
 pub fn lines_before_end(runs: &[Run], ending: Ending, layer: f64, origin: usize) -> (Vec<Run>, Option<f64>) {
     match ending {
@@ -122,6 +148,30 @@ pub fn lines_before_end(runs: &[Run], ending: Ending, layer: f64, origin: usize)
     }
 }
 
+/// After the fit: neighbours of the same impedance (within `tol`) become one run, and
+/// trailing runs of over 100 times the line's impedance, fitted as lines, are an open end.
+pub fn tidy(lines: &[Run], load: EndLoad, tol: f64) -> (Vec<Run>, EndLoad) {
+    let mut out: Vec<Run> = Vec::with_capacity(lines.len());
+    for r in lines {
+        match out.last_mut() {
+            Some(last) if (r.z / last.z).ln().abs() < (1.0 + tol).ln() => {
+                // Keep the impedance of the longer part: both are the same cable.
+                let z = if r.length() > last.length() { r.z } else { last.z };
+                *last = Run { start: last.start, end: r.end, z };
+            }
+            _ => out.push(*r),
+        }
+    }
+    let typical = out.first().map_or(1.0, |r| r.z);
+    if let Some(i) = out.iter().position(|r| r.z > 100.0 * typical) {
+        if i > 0 {
+            out.truncate(i);
+            return (out, EndLoad::Open);
+        }
+    }
+    (out, load)
+}
+
 /// Candidate ends: the lines to keep and the load after them (capacitances NaN: to be
 /// fitted, or a starting value).
 pub fn candidates(runs: &[Run], lines: &[Run], ending: Ending, tail: &Tail) -> Vec<(Vec<Run>, EndLoad)> {
@@ -142,8 +192,9 @@ pub fn candidates(runs: &[Run], lines: &[Run], ending: Ending, tail: &Tail) -> V
             if let Some(r) = dc {
                 c.push(keep(EndLoad::Resistor(r)));
             }
+            // A small capacitor at a band-limited end can read as open as well as short.
+            c.push(keep(EndLoad::Capacitor(f64::NAN)));
             if k < 0.0 {
-                c.push(keep(EndLoad::Capacitor(f64::NAN)));
                 if let Some(r) = dc {
                     c.push(keep(EndLoad::ParallelRc { r, c: f64::NAN }));
                 }

@@ -15,6 +15,7 @@ pub mod peel;
 pub mod plant_out;
 pub mod refine;
 pub mod roundtrip;
+pub mod view;
 
 pub use capture::{parse_capture, read_capture, Capture};
 
@@ -89,19 +90,22 @@ pub fn profile_of(cap: &Capture, opts: &Options) -> Result<(edge::Edge, f64, Pro
     // A slow edge carries nothing above its own bandwidth: smooth to its scale too.
     let by_rise = 0.3 * edge.rise / 0.8 / cap.dt;
     let smooth = opts.smooth.unwrap_or(by_noise.max(by_rise));
-    let profile = peel_capture(&edge, opts, cap.dt, smooth);
-    let layer = opts.cable.velocity * cap.dt / 2.0;
+    let profile = compensated(cap, opts, &edge, smooth)?;
+    Ok((edge, smooth, profile))
+}
+
+/// Peel with `edge`, and divide out the loss drift when the cable is lossy.
+fn compensated(cap: &Capture, opts: &Options, edge: &edge::Edge, smooth: f64) -> Result<Profile, PlantError> {
+    let mut p = peel_capture(edge, opts, cap.dt, smooth);
     if opts.cable.r_per_m > 0.0 || opts.cable.loss.is_some() {
-        let drift = loss_drift(cap, &edge, opts, smooth, layer)?;
-        let mut p = profile;
+        let drift = loss_drift(cap, edge, opts, smooth, p.layer)?;
         for (j, z) in p.z.iter_mut().enumerate() {
             if let Some(g) = drift.get(j) {
                 *z /= g;
             }
         }
-        return Ok((edge, smooth, p));
     }
-    Ok((edge, smooth, profile))
+    Ok(p)
 }
 
 fn peel_capture(edge: &edge::Edge, opts: &Options, dt: f64, smooth: f64) -> Profile {
@@ -174,7 +178,8 @@ pub fn extract(cap: &Capture, opts: &Options, how: Vec<String>, out_name: &str) 
             "capture longer after the step",
         ));
     }
-    let (mut lines, _end) = load::lines_before_end(&runs, profile.ending, layer, profile.origin);
+    let ending = load::effective_ending(&runs, profile.ending, layer, profile.origin);
+    let (mut lines, _end) = load::lines_before_end(&runs, ending, layer, profile.origin);
     if lines.is_empty() {
         lines = vec![runs[0]];
     }
@@ -197,7 +202,7 @@ pub fn extract(cap: &Capture, opts: &Options, how: Vec<String>, out_name: &str) 
         Ok(distance(&v, target).1)
     };
     let mut best: Option<(Vec<Run>, EndLoad, f64)> = None;
-    for (cand_lines, cand) in load::candidates(&runs, &lines, profile.ending, &tail) {
+    for (cand_lines, cand) in load::candidates(&runs, &lines, ending, &tail) {
         let z_last = cand_lines.last().map_or(opts.rs, |r| r.z);
         let fitted = match cand {
             EndLoad::Capacitor(c0) | EndLoad::ParallelRc { c: c0, .. } => {
@@ -244,6 +249,17 @@ pub fn extract(cap: &Capture, opts: &Options, how: Vec<String>, out_name: &str) 
     // The compiler needs every segment at least half a sample long: one layer.
     let refined = refine::refine(&fr, &lines, load, target, 1.05 * layer, opts.refine)
         .map_err(|e| internal(cap, "the exact reference failed while fitting", e))?;
+    let (tidied, tidy_load) = load::tidy(&refined.lines, refined.load, opts.tolerance / 2.0);
+    let refined = if tidied.len() < refined.lines.len() || tidy_load != refined.load {
+        let f = Frame {
+            emf: Waveform::Step { amplitude: opts.emf, delay: refined.delay, rise: refined.rise },
+            ..fr.clone()
+        };
+        refine::refine(&f, &tidied, tidy_load, target, 1.05 * layer, 4)
+            .map_err(|e| internal(cap, "the exact reference failed while fitting", e))?
+    } else {
+        refined
+    };
     let (lines, load) = (refined.lines.clone(), refined.load);
     let header = plant_out::Header {
         name: &format!(
@@ -261,6 +277,10 @@ pub fn extract(cap: &Capture, opts: &Options, how: Vec<String>, out_name: &str) 
         delay: refined.delay,
     };
     let text = plant_out::plant_text(&header, &lines, load);
+    // The profile shown is peeled again with the fitted edge: the edge read off the
+    // samples is only as good as a sampled ramp's corners.
+    let fitted_edge = edge::Edge { start: refined.delay, rise: refined.rise, ..edge.clone() };
+    let profile = compensated(cap, opts, &fitted_edge, smooth)?;
     let plant = parse_plant(&text, out_name, Path::new("."))?;
     let exact =
         exact_port(&plant, n).map_err(|e| internal(cap, "the exact reference failed on the extracted plant", e))?;
