@@ -5,8 +5,10 @@ pub mod analysis;
 pub mod cli;
 pub mod compile;
 pub mod emit;
+pub mod extract;
 pub mod files;
 pub mod host_core;
+
 pub mod plant;
 pub mod plot;
 pub mod reference;

@@ -2,6 +2,7 @@
 //! 2 bad input or a failed write (a located message on stderr, nothing half-written).
 mod compile_cmd;
 mod demo;
+mod extract;
 mod inspect;
 mod rate;
 mod rig;
@@ -116,6 +117,9 @@ pub enum Command {
     },
     /// Drive a rig over its control link: load, start, stop, schedule, capture, status.
     Rig(rig::RigArgs),
+    /// From a step response captured at the driven port to a plant file (layer peeling),
+    /// with the impedance against distance and the round trip checked.
+    Extract(extract::ExtractArgs),
     /// The main job on a built-in demo plant: inspect, compile, simulate, verify.
     Demo {
         /// Folder for the files the demo writes.
@@ -172,6 +176,7 @@ pub fn main() -> i32 {
         Command::Demo { out } => demo::run(&out),
         Command::Rig(args) => rig::run(args),
         Command::Rate { plant, part } => rate::run(&plant, &part),
+        Command::Extract(args) => extract::run(&args),
     };
     match r {
         Ok(code) => code,

@@ -9,11 +9,13 @@
 //! so files stay small.
 
 mod lattice;
+mod profile;
 mod style;
 mod sweep;
 mod waveforms;
 
 pub use lattice::{diverging_level, level_colour, write_lattice, LatticeMap, LEVELS};
+pub use profile::{write_profile, Mark, ProfilePlot};
 pub use sweep::{write_sweep, SweepPlot};
 pub use waveforms::{write_waveforms, WaveformPlot};
 

@@ -1,0 +1,176 @@
+//! Refinement: the merged runs and the load, fitted to the capture as a whole.
+//!
+//! Peeling gives each run's impedance and boundaries from the first arrival of each echo;
+//! noise and the band limit leave them slightly off, and a branched plant's equivalent
+//! line is only approximately a few uniform runs. So the runs' ln Z and lengths and the
+//! load's values are fitted to the whole capture by Levenberg–Marquardt least squares
+//! (Jacobian by forward differences, damping on the diagonal of JᵀJ), with the exact
+//! reference as the model. The runs' count and order stay as peeling found them.
+
+use super::load::EndLoad;
+use super::merge::Run;
+use super::roundtrip::{exact_port, model_plant, Frame};
+use crate::plant::Waveform;
+use nalgebra::{DMatrix, DVector};
+
+/// Fitted runs and load, and the rms residual before and after, V.
+#[derive(Debug, Clone, PartialEq)]
+pub struct Refined {
+    pub lines: Vec<Run>,
+    pub load: EndLoad,
+    /// The EMF step's start and 10–90 % rise, s (fitted too when the rise is not zero: a
+    /// ramp's corners are hard to read on a sampled edge).
+    pub delay: f64,
+    pub rise: f64,
+    pub rms_before: f64,
+    pub rms_after: f64,
+    pub iterations: usize,
+}
+
+/// Bounds that keep a fit step inside what the reference accepts: impedances and
+/// resistances in ohm, capacitances in farad.
+const Z_MIN: f64 = 1e-2;
+const Z_MAX: f64 = 1e7;
+const C_MIN: f64 = 1e-16;
+const C_MAX: f64 = 1e-2;
+
+fn pack(lines: &[Run], load: EndLoad) -> Vec<f64> {
+    let mut p: Vec<f64> = Vec::new();
+    for r in lines {
+        p.push(r.z.ln());
+        p.push(r.length());
+    }
+    match load {
+        EndLoad::Resistor(r) => p.push(r.ln()),
+        EndLoad::Capacitor(c) => p.push(c.ln()),
+        EndLoad::ParallelRc { r, c } => {
+            p.push(r.ln());
+            p.push(c.ln());
+        }
+        EndLoad::Open | EndLoad::Short => {}
+    }
+    p
+}
+
+fn unpack(p: &[f64], count: usize, load: EndLoad, min_len: f64) -> (Vec<Run>, EndLoad) {
+    let mut lines = Vec::with_capacity(count);
+    let mut x = 0.0;
+    for i in 0..count {
+        let len = p[2 * i + 1].max(min_len);
+        lines.push(Run { start: x, end: x + len, z: p[2 * i].exp().clamp(Z_MIN, Z_MAX) });
+        x += len;
+    }
+    let rest = &p[2 * count..];
+    let load = match load {
+        EndLoad::Resistor(_) => EndLoad::Resistor(rest[0].exp().clamp(Z_MIN, Z_MAX)),
+        EndLoad::Capacitor(_) => EndLoad::Capacitor(rest[0].exp().clamp(C_MIN, C_MAX)),
+        EndLoad::ParallelRc { .. } => {
+            EndLoad::ParallelRc { r: rest[0].exp().clamp(Z_MIN, Z_MAX), c: rest[1].exp().clamp(C_MIN, C_MAX) }
+        }
+        other => other,
+    };
+    (lines, load)
+}
+
+fn step_of(frame: &Frame) -> (f64, f64, f64) {
+    match frame.emf {
+        Waveform::Step { amplitude, delay, rise } => (amplitude, delay, rise),
+        _ => (0.0, 0.0, 0.0),
+    }
+}
+
+/// Fit `lines` and `load` to `target` (the capture without offset), at most `max_iter`
+/// Levenberg–Marquardt steps. Lengths stay at least `min_len` m (the compiler's half sample).
+pub fn refine(
+    frame: &Frame,
+    lines: &[Run],
+    load: EndLoad,
+    target: &[f64],
+    min_len: f64,
+    max_iter: usize,
+) -> Result<Refined, String> {
+    let n = target.len();
+    let count = lines.len();
+    let (emf, delay0, rise0) = step_of(frame);
+    let fit_edge = rise0 > 0.0;
+    let edge_of = |p: &[f64]| -> (f64, f64) {
+        if fit_edge {
+            let e = &p[p.len() - 2..];
+            (e[0].max(0.0), e[1].max(1e-3 / frame.sample_rate))
+        } else {
+            (delay0, rise0)
+        }
+    };
+    let residual = |p: &[f64]| -> Result<DVector<f64>, String> {
+        let (l, ld) = unpack(p, count, load, min_len);
+        let (delay, rise) = edge_of(p);
+        let f = Frame { emf: Waveform::Step { amplitude: emf, delay, rise }, ..frame.clone() };
+        let v = exact_port(&model_plant(&f, &l, ld), n)?;
+        Ok(DVector::from_iterator(n, (0..n).map(|k| v.get(k).copied().unwrap_or(0.0) - target[k])))
+    };
+    let mut p = pack(lines, load);
+    if fit_edge {
+        p.extend([delay0, rise0]);
+    }
+    let mut r = residual(&p)?;
+    let rms = |r: &DVector<f64>| (r.norm_squared() / n as f64).sqrt();
+    let rms_before = rms(&r);
+    let mut lambda = 1e-3;
+    let mut iterations = 0;
+    for _ in 0..max_iter {
+        iterations += 1;
+        let m = p.len();
+        let mut jac = DMatrix::<f64>::zeros(n, m);
+        for i in 0..m {
+            // Steps: 1e-4 in ln Z, ln R, ln C; 1 mm (or 0.1 % of it) in a length; a
+            // hundredth of a sample in the edge's start and rise.
+            let h = if fit_edge && i + 2 >= m {
+                0.01 / frame.sample_rate
+            } else if i < 2 * count && i % 2 == 1 {
+                (1e-3 * p[i]).max(1e-3)
+            } else {
+                1e-4
+            };
+            let mut q = p.clone();
+            q[i] += h;
+            let rq = residual(&q)?;
+            jac.set_column(i, &((rq - &r) / h));
+        }
+        let a = jac.transpose() * &jac;
+        let g = jac.transpose() * &r;
+        let cost = r.norm_squared();
+        let mut improved = false;
+        for _ in 0..6 {
+            let mut damped = a.clone();
+            for i in 0..m {
+                damped[(i, i)] += lambda * a[(i, i)].max(1e-12);
+            }
+            let Some(step) = damped.lu().solve(&(-&g)) else {
+                lambda *= 10.0;
+                continue;
+            };
+            let q: Vec<f64> = p.iter().zip(step.iter()).map(|(a, b)| a + b).collect();
+            // A step the reference refuses is a step that failed.
+            let Ok(rq) = residual(&q) else {
+                lambda *= 5.0;
+                continue;
+            };
+            if rq.norm_squared() < cost {
+                let gain = 1.0 - rq.norm_squared() / cost;
+                p = q;
+                r = rq;
+                lambda = (lambda / 3.0).max(1e-9);
+                improved = gain > 1e-4;
+                break;
+            }
+            lambda *= 5.0;
+        }
+        if !improved {
+            break;
+        }
+    }
+    let (delay, rise) = edge_of(&p);
+    let end = if fit_edge { p.len() - 2 } else { p.len() };
+    let (lines, load) = unpack(&p[..end], count, load, min_len);
+    Ok(Refined { lines, load, delay, rise, rms_before, rms_after: rms(&r), iterations })
+}
