@@ -51,6 +51,9 @@ pub enum BuildError {
     /// An integer coefficient does not fit its format (an impedance far outside the range
     /// of the others at its node, or a node with a vanishing total conductance).
     CoefficientOutOfRange { junction: u16 },
+    /// A junction's quantized coefficients are not those of a passive junction (checked at
+    /// load from the integer coefficients themselves; see `configure`'s `passive` module).
+    NotPassive { junction: u16 },
     /// The rig latency is not shorter than the first line's delay (the line towards the
     /// rig port keeps delay − latency >= 1 samples), or exceeds MAX_RIG_LATENCY.
     RigLatencyTooLong { latency: u16, delay: u32 },
@@ -89,6 +92,9 @@ impl fmt::Display for BuildError {
             }
             CoefficientOutOfRange { junction } => {
                 write!(f, "junction {junction}: coefficient out of range of its format")
+            }
+            NotPassive { junction } => {
+                write!(f, "junction {junction}: its quantized coefficients would not be passive")
             }
             RigLatencyTooLong { latency, delay } => write!(
                 f,
