@@ -15,6 +15,7 @@
 //! * fixed point: the scale (volts per I/O code) is chosen from the largest wave of the
 //!   f64 twin for the plant's own drive, with headroom (see [`scale`]).
 pub mod budget;
+mod core_check;
 mod loads;
 pub mod loss;
 mod report;
@@ -349,6 +350,7 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
         report: Report { segments: report_segments, ..Report::default() },
     };
     scale::choose(&mut compiled, plant, file)?;
+    core_check::check(&compiled, plant, file)?;
     report::fill(&mut compiled, plant, file)?;
     Ok(compiled)
 }
