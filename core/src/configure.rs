@@ -28,6 +28,11 @@ fn set<T>(slot: &mut [T], i: usize, v: T) {
     }
 }
 
+/// Index of a line end in `port_of`: 2·line + side (saturating; lines < 2^16).
+pub(crate) fn end_index(line: usize, side_b: bool) -> usize {
+    line.saturating_mul(2).saturating_add(usize::from(side_b))
+}
+
 /// `table[i]` as an index (0 if out of range, unreachable after validation; no panic path).
 fn at(table: &[u16], i: usize) -> usize {
     table.get(i).copied().unwrap_or(0) as usize
@@ -54,12 +59,13 @@ pub fn quantize_loss_section<P: Profile>(pole: u32, zero: i32) -> Option<(u32, i
     if pole >= 1 << 30 || zero >= pole || zero <= -(1 << 30) {
         return None;
     }
-    let a = pole >> (30 - P::LOSS_FRAC);
-    let b = zero >> (30 - P::LOSS_FRAC);
-    // |(one − a)·one| < 2^61 and one − b in [1, 2^31]: exact.
-    let g = ((one - a) << P::LOSS_FRAC).checked_div(one - b)?;
-    let gb = (g * b).div_euclid(one) + ((g * b).rem_euclid(one) != 0) as i64;
-    if a <= 0 || g <= 0 || gb * one >= a * g || g >= 1 << 31 {
+    let gap = 30u32.checked_sub(P::LOSS_FRAC)?;
+    let (a, b) = (pole.checked_shr(gap)?, zero.checked_shr(gap)?);
+    // (one − a)·one < 2^60 and one − b in [1, 2^31]: every step is exact (checked anyway).
+    let g = one.checked_sub(a)?.checked_shl(P::LOSS_FRAC)?.checked_div(one.checked_sub(b)?)?;
+    let gb_exact = g.checked_mul(b)?;
+    let gb = gb_exact.checked_div_euclid(one)?.checked_add(i64::from(gb_exact.checked_rem_euclid(one)? != 0))?;
+    if a <= 0 || g <= 0 || gb.checked_mul(one)? >= a.checked_mul(g)? || g >= 1 << 31 {
         return None;
     }
     Some((u32::try_from(g).ok()?, i32::try_from(gb).ok()?, u32::try_from(a).ok()?))
@@ -72,7 +78,7 @@ pub fn quantize_loss_section<P: Profile>(pole: u32, zero: i32) -> Option<(u32, i
 pub fn check<P: Profile>(net: &Network<'_>) -> Result<u32, BuildError> {
     let shape = shape::check::<P>(net, usize::MAX, usize::MAX, usize::MAX)?;
     let k = weights::shift::<P>(net, &shape)?;
-    let c = TOP - k;
+    let c = TOP.saturating_sub(k); // k <= TOP
     for l in net.lines {
         line_weight(l.z_milliohm, k, l.a)?;
     }
@@ -88,7 +94,7 @@ pub fn check<P: Profile>(net: &Network<'_>) -> Result<u32, BuildError> {
         if !ok {
             return Err(BuildError::NotPassive { junction: j as u16 });
         }
-        first += count;
+        first = first.saturating_add(count); // <= ports <= 2^16
     }
     for (n, e) in net.elements.iter().enumerate() {
         if !passive::element_ok::<P>(element_mu::<P>(e.port_milliohm, e.series_milliohm)) {
@@ -109,22 +115,18 @@ fn line_weight(z_milliohm: u32, k: u32, junction: u16) -> Result<u32, BuildError
 
 /// Σ and min of the port weights (line ends, element ports; no source) of junction `j`.
 fn port_weights(net: &Network<'_>, j: usize, k: u32) -> (u64, u64) {
-    let ends = net.lines.iter().flat_map(|l| {
-        let n = (l.a as usize == j) as usize + (l.b as usize == j) as usize;
-        core::iter::repeat_n(weight(u64::from(l.z_milliohm), k), n)
-    });
-    let elems = net
-        .elements
-        .iter()
-        .filter(|e| e.junction as usize == j)
-        .map(|e| weight(u64::from(e.port_milliohm) + u64::from(e.series_milliohm), k));
+    let ends =
+        net.lines.iter().flat_map(|l| core::iter::repeat_n(weight(u64::from(l.z_milliohm), k), shape::ends_of(l, j)));
+    let elems =
+        net.elements.iter().filter(|e| e.junction as usize == j).map(|e| weight(weights::element_milliohm(e), k));
     ends.chain(elems).fold((0u64, u64::MAX), |(s, m), g| (s.saturating_add(g), m.min(g)))
 }
 
 /// μ = R_p/(R_p + R_s) in `SERIES_FRAC` bits, rounded down (<= 1).
 fn element_mu<P: Profile>(port_milliohm: u32, series_milliohm: u32) -> u32 {
     let rp = u128::from(port_milliohm);
-    let mu = (rp << P::SERIES_FRAC).checked_div(rp + u128::from(series_milliohm)).unwrap_or(0);
+    // rp, series < 2^32: the shift and the sum are exact in u128.
+    let mu = (rp << P::SERIES_FRAC).checked_div(rp.saturating_add(u128::from(series_milliohm))).unwrap_or(0);
     u32::try_from(mu).unwrap_or(0)
 }
 
@@ -190,12 +192,14 @@ fn junction_record<P: Profile>(
                 shift: 0,
                 total: 0,
             };
-            apply_shunt::<P>(&mut rt, shunt, TOP - k).map_err(|_| out_of_range)?;
+            apply_shunt::<P>(&mut rt, shunt, TOP.saturating_sub(k)).map_err(|_| out_of_range)?;
             rt
         }
         Junction::Series { milliohm } => {
             // Both ends have impedance z (shape check); c = 2Z/(2Z + R) <= 1, rounded down.
-            let c = ((2 * z) << P::SERIES_FRAC).checked_div(2 * z + u128::from(milliohm)).unwrap_or(0);
+            // z, milliohm < 2^32: every term below is exact in u128.
+            let two_z = z.saturating_mul(2);
+            let c = (two_z << P::SERIES_FRAC).checked_div(two_z.saturating_add(u128::from(milliohm))).unwrap_or(0);
             JunctionRt::Series {
                 p: first16,
                 q: first16.wrapping_add(1),
@@ -206,8 +210,10 @@ fn junction_record<P: Profile>(
             // c = 2Z/ΣR and rho = R_L/ΣR, both rounded down, so c + rho <= 1: the quantized
             // adaptor is a passive one (lossless for c + rho = 1, a slightly different R_L,
             // plus the winding resistance).
-            let sum = 2 * z + u128::from(port_milliohm) + u128::from(milliohm);
-            let c = ((2 * z) << P::CHOKE_FRAC).checked_div(sum).unwrap_or(0);
+            // z, port_milliohm, milliohm < 2^32: every term below is exact in u128.
+            let two_z = z.saturating_mul(2);
+            let sum = two_z.saturating_add(u128::from(port_milliohm)).saturating_add(u128::from(milliohm));
+            let c = (two_z << P::CHOKE_FRAC).checked_div(sum).unwrap_or(0);
             // Without winding resistance the adaptor must stay lossless (c + rho = 1 exactly),
             // or the rounding would act as a resistor at DC.
             let rho = if milliohm == 0 {
@@ -246,7 +252,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     fn load_inner(&mut self, net: &Network<'_>) -> Result<(), BuildError> {
         let shape = shape::check::<P>(net, PORTS, JUNCS, LOSSES)?;
         let k = weights::shift::<P>(net, &shape)?;
-        self.exponent = TOP - k;
+        self.exponent = TOP.saturating_sub(k); // k <= TOP
         self.layout_ports(net);
         self.build_losses(net)?;
         self.build_rings(net, &shape)?;
@@ -268,12 +274,12 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         for j in 0..net.junctions.len() {
             for (i, l) in net.lines.iter().enumerate() {
                 if l.a as usize == j {
-                    set(&mut self.port_of, 2 * i, p as u16);
-                    p += 1;
+                    set(&mut self.port_of, end_index(i, false), p as u16);
+                    p = p.saturating_add(1); // <= ports <= 2^16
                 }
                 if l.b as usize == j {
-                    set(&mut self.port_of, 2 * i + 1, p as u16);
-                    p += 1;
+                    set(&mut self.port_of, end_index(i, true), p as u16);
+                    p = p.saturating_add(1); // <= ports <= 2^16
                 }
             }
             for (k, e) in net.elements.iter().enumerate() {
@@ -281,7 +287,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                     let mu = element_mu::<P>(e.port_milliohm, e.series_milliohm);
                     let negate = matches!(e.kind, ElementKind::Inductor);
                     set(&mut self.elements, k, ElementRt { port: p as u16, mu, negate });
-                    p += 1;
+                    p = p.saturating_add(1); // <= ports <= 2^16
                 }
             }
         }
@@ -296,10 +302,10 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         for (k, ll) in net.losses.iter().enumerate() {
             let li = ll.line as usize;
             for side in 0..2 {
-                let port = at(&self.port_of, 2 * li + side) as u16;
+                let port = at(&self.port_of, end_index(li, side == 1)) as u16;
                 let rt = loss_record::<P>(ll, port).ok_or(BuildError::BadLoss { loss: k as u16 })?;
                 set(&mut self.losses, nloss, rt);
-                nloss += 1;
+                nloss = nloss.saturating_add(1);
             }
         }
         self.n_losses = nloss;
@@ -320,7 +326,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             Ok(())
         };
         for (i, l) in net.lines.iter().enumerate() {
-            let (pa, pb) = (at(&self.port_of, 2 * i), at(&self.port_of, 2 * i + 1));
+            let (pa, pb) = (at(&self.port_of, end_index(i, false)), at(&self.port_of, end_index(i, true)));
             set(&mut self.partner, pa, pb as u16);
             set(&mut self.partner, pb, pa as u16);
             let (mut d_into_a, mut d_into_b) = (l.delay, l.delay);
@@ -354,11 +360,11 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     fn build_weights(&mut self, net: &Network<'_>, k: u32) -> Result<(), BuildError> {
         for (i, l) in net.lines.iter().enumerate() {
             let g = line_weight(l.z_milliohm, k, l.a)?;
-            set(&mut self.g, at(&self.port_of, 2 * i), g);
-            set(&mut self.g, at(&self.port_of, 2 * i + 1), g);
+            set(&mut self.g, at(&self.port_of, end_index(i, false)), g);
+            set(&mut self.g, at(&self.port_of, end_index(i, true)), g);
         }
         for (n, e) in net.elements.iter().enumerate() {
-            let g = weight(u64::from(e.port_milliohm) + u64::from(e.series_milliohm), k);
+            let g = weight(weights::element_milliohm(e), k);
             let g = u32::try_from(g).map_err(|_| BuildError::BadElement { element: n as u16 })?;
             let port = self.elements.get(n).map_or(0, |el| el.port as usize);
             set(&mut self.g, port, g);
@@ -374,7 +380,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             let sum = self.port_weight_sum(first, count);
             let rt = junction_record::<P>(net, shape, j, *junc, first, count, sum, k)?;
             set(&mut self.juncs, j, rt);
-            first += count;
+            first = first.saturating_add(count); // <= ports <= 2^16
         }
         self.n_juncs = net.junctions.len();
         Ok(())
@@ -388,7 +394,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     fn build_probes(&mut self, net: &Network<'_>) {
         for (k, pr) in net.probes.iter().enumerate() {
             let z_milliohm = net.lines.get(pr.line as usize).map_or(1, |l| l.z_milliohm);
-            let port = at(&self.port_of, 2 * pr.line as usize + (pr.side == Side::B) as usize) as u16;
+            let port = at(&self.port_of, end_index(pr.line as usize, pr.side == Side::B)) as u16;
             set(&mut self.probes, k, ProbeRt { current: pr.kind == ProbeKind::Current, port, z_milliohm });
         }
         self.n_probes = net.probes.len();
@@ -492,7 +498,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     /// The integer weight of line `line` (0 if it does not exist).
     pub fn line_weight(&self, line: usize) -> u32 {
         if line < self.n_lines {
-            self.port_of.get(2 * line).and_then(|p| self.g.get(*p as usize)).copied().unwrap_or(0)
+            self.port_of.get(end_index(line, false)).and_then(|p| self.g.get(*p as usize)).copied().unwrap_or(0)
         } else {
             0
         }
@@ -532,7 +538,10 @@ fn apply_shunt<P: Profile>(rt: &mut JunctionRt, shunt: Shunt, c: u32) -> Result<
         Shunt::Open => 0,
         Shunt::Short => 0,
         Shunt::Resistor { milliohm: 0 } => return Err(()),
-        Shunt::Resistor { milliohm } => ((1u128 << c) / milliohm as u128).min(u64::MAX as u128 / 2) as u64,
+        Shunt::Resistor { milliohm } => {
+            let g = (1u128 << c.min(TOP)).checked_div(u128::from(milliohm)).unwrap_or(0);
+            u64::try_from(g).unwrap_or(u64::MAX).min(u64::MAX >> 1)
+        }
     };
     let is_short = matches!(shunt, Shunt::Short);
     // A shunt so strong that the total passes the profile's division range is capped: the

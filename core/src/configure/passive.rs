@@ -44,7 +44,7 @@ pub(crate) fn node_ok<P: Profile>(rt: &JunctionRt, port_sum: u64, port_min: u64)
 pub(crate) fn two_port_ok<P: Profile>(rt: &JunctionRt) -> bool {
     match *rt {
         JunctionRt::Series { c, .. } => u64::from(c) <= 1u64 << P::SERIES_FRAC,
-        JunctionRt::SeriesL { c, rho, .. } => u64::from(c) + u64::from(rho) <= 1u64 << P::CHOKE_FRAC,
+        JunctionRt::SeriesL { c, rho, .. } => u64::from(c).saturating_add(u64::from(rho)) <= 1u64 << P::CHOKE_FRAC,
         JunctionRt::Rig { .. } => true,
         JunctionRt::Node { .. } | JunctionRt::Unused => false,
     }
@@ -63,7 +63,14 @@ pub(crate) fn loss_ok<P: Profile>(l: &LossRt<P::Wave>) -> bool {
         && n >= 1
         && l.g.iter().zip(l.gb.iter()).zip(l.a.iter()).take(n).all(|((g, gb), a)| {
             let (g, gb, a) = (i64::from(*g), i64::from(*gb), i64::from(*a));
-            // Each product below is < 2^31·2^31: exact in i64.
-            a > 0 && a < one && g > 0 && g <= one && gb >= -g && gb * one < a * g && g - gb <= one - a
+            // Every operand is a u32 or i32, so each product is < 2^62 and each difference
+            // < 2^33: exact in i64 (saturating only to satisfy the lint).
+            a > 0
+                && a < one
+                && g > 0
+                && g <= one
+                && gb >= g.saturating_neg()
+                && gb.saturating_mul(one) < a.saturating_mul(g)
+                && g.saturating_sub(gb) <= one.saturating_sub(a)
         })
 }

@@ -37,9 +37,18 @@ pub(crate) fn cap(table: Table, needed: usize, capacity: usize) -> Result<(), Bu
     }
 }
 
+/// How many ends of line `l` are at junction `j` (0, 1 or 2).
+pub(crate) fn ends_of(l: &crate::network::Line, j: usize) -> usize {
+    match (l.a as usize == j, l.b as usize == j) {
+        (true, true) => 2,
+        (false, false) => 0,
+        _ => 1,
+    }
+}
+
 /// Line ends attached to junction `j`.
 pub(crate) fn ends_at(net: &Network<'_>, j: usize) -> usize {
-    net.lines.iter().map(|l| (l.a as usize == j) as usize + (l.b as usize == j) as usize).sum()
+    net.lines.iter().map(|l| ends_of(l, j)).fold(0, usize::saturating_add)
 }
 
 /// Reactive elements hanging from junction `j`.
@@ -49,7 +58,7 @@ pub(crate) fn elems_at(net: &Network<'_>, j: usize) -> usize {
 
 /// Ports (line ends and element ports) of junction `j`.
 pub(crate) fn ports_at(net: &Network<'_>, j: usize) -> usize {
-    ends_at(net, j) + elems_at(net, j)
+    ends_at(net, j).saturating_add(elems_at(net, j))
 }
 
 /// The impedance (milliohms) of the first line end at junction `j` (0 if none).

@@ -16,9 +16,14 @@ use crate::profile::Profile;
 /// Largest exponent of the weight unit: floor(2^62 / Z) fits a u64 for Z >= 1 mΩ.
 pub(crate) const TOP: u32 = 62;
 
-/// floor(2^TOP / milliohm) (milliohm >= 1; 0 is treated as 1, refused earlier anyway).
+/// floor(2^TOP / milliohm) (0, refused earlier anyway, is treated as 1).
 pub(crate) fn w_top(milliohm: u64) -> u64 {
-    (1u64 << TOP) / milliohm.max(1)
+    (1u64 << TOP).checked_div(milliohm).unwrap_or(1u64 << TOP)
+}
+
+/// An element's port resistance plus its series resistor (< 2^33: exact in u64).
+pub(crate) fn element_milliohm(e: &crate::network::Element) -> u64 {
+    u64::from(e.port_milliohm).saturating_add(u64::from(e.series_milliohm))
 }
 
 /// The weight of resistance `milliohm` at exponent c = TOP − k.
@@ -28,15 +33,12 @@ pub(crate) fn weight(milliohm: u64, k: u32) -> u64 {
 
 /// Every port weight of scattering node `j` at shift k, then the source weight (0 if none).
 fn node_weights<'a>(net: &'a Network<'_>, shape: &'a Shape, j: usize, k: u32) -> impl Iterator<Item = u64> + 'a {
-    let ends = net.lines.iter().flat_map(move |l| {
-        let n = (l.a as usize == j) as usize + (l.b as usize == j) as usize;
-        core::iter::repeat_n(weight(u64::from(l.z_milliohm), k), n)
-    });
-    let elems = net
-        .elements
+    let ends = net
+        .lines
         .iter()
-        .filter(move |e| e.junction as usize == j)
-        .map(move |e| weight(u64::from(e.port_milliohm) + u64::from(e.series_milliohm), k));
+        .flat_map(move |l| core::iter::repeat_n(weight(u64::from(l.z_milliohm), k), super::shape::ends_of(l, j)));
+    let elems =
+        net.elements.iter().filter(move |e| e.junction as usize == j).map(move |e| weight(element_milliohm(e), k));
     let src = shape.src.filter(|s| s.0 == j).map(|s| weight(u64::from(s.1), k));
     ends.chain(elems).chain(src)
 }
@@ -55,7 +57,7 @@ pub(crate) fn shift<P: Profile>(net: &Network<'_>, shape: &Shape) -> Result<u32,
     let nodes = || (0..net.junctions.len()).filter(|j| shape.is_scatter_node(net, *j));
     let mut k = 0u32;
     while k < TOP && nodes().any(|j| node_sum(net, shape, j, k) > budget) {
-        k += 1;
+        k = k.saturating_add(1);
     }
     for j in nodes() {
         let junction = j as u16; // j < 2^16 (shape check)
