@@ -10,7 +10,9 @@ use tidewire_core::profile::reciprocal;
 use tidewire_core::{Narrow, Profile, Wide};
 
 fn config() -> ProptestConfig {
-    ProptestConfig { cases: 2048, ..ProptestConfig::default() }
+    // `PROPTEST_CASES` (the soak command) raises the count.
+    let cases = std::env::var("PROPTEST_CASES").ok().and_then(|c| c.parse().ok()).unwrap_or(2048);
+    ProptestConfig { cases, ..ProptestConfig::default() }
 }
 
 /// Largest and smallest wave of profile P.

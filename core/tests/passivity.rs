@@ -16,7 +16,9 @@ type WideSolver = Solver<Wide, 64, 32, 16384, 64>;
 type NarrowSolver = Solver<Narrow, 64, 32, 16384, 64>;
 
 fn config() -> ProptestConfig {
-    ProptestConfig { cases: 256, ..ProptestConfig::default() }
+    // `PROPTEST_CASES` (the soak command) raises the count.
+    let cases = std::env::var("PROPTEST_CASES").ok().and_then(|c| c.parse().ok()).unwrap_or(256);
+    ProptestConfig { cases, ..ProptestConfig::default() }
 }
 
 /// Samples after which the fixed-point plant must be exactly zero.

@@ -4,8 +4,13 @@
 //!   `examples/firmware/plants/gen/`, build the firmware for the Cortex-M4 and the Cortex-M0,
 //!   run both on QEMU (`-icount shift=0` for the instruction table, `shift=6` for an exact
 //!   comparison of the two stimuli), compare every hash with the host core, print the table.
+//!   It writes the table to `docs/firmware-figures.json` and renders the README's table
+//!   from it (between `<!-- figures:begin -->` and `<!-- figures:end -->`).
 //! * `firmware --inject-panic`: build with a panicking `unwrap` on the per-sample path; succeeds
 //!   only if both links fail on the undefined panic symbol.
+//! * `soak [cases]`: the core's property tests (passivity, loader, oracles) in release with
+//!   many cases (default 20 000 per property): the long runs that stay out of the test command.
+mod figures;
 mod gen;
 mod host;
 mod parts;
@@ -32,7 +37,9 @@ fn main() -> ExitCode {
     let result = match args.iter().map(String::as_str).collect::<Vec<_>>().as_slice() {
         ["firmware"] => firmware(false),
         ["firmware", "--inject-panic"] => firmware(true),
-        _ => Err("usage: cargo run -p xtask -- firmware [--inject-panic]".into()),
+        ["soak"] => soak("20000"),
+        ["soak", cases] if cases.parse::<u32>().is_ok() => soak(cases),
+        _ => Err("usage: cargo run -p xtask -- firmware [--inject-panic] | soak [cases]".into()),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
@@ -170,5 +177,43 @@ fn firmware(inject: bool) -> Result<(), String> {
     }
     println!("all {checked} firmware hashes equal the host's\n");
     table::print(&rows, &clocks);
+    let root = p.crate_dir.parent().and_then(Path::parent).unwrap_or(Path::new(".")).to_path_buf();
+    let figs = table::figures(&rows);
+    figs.write(&root.join("docs/firmware-figures.json"))?;
+    let readme_path = root.join("README.md");
+    let readme = std::fs::read_to_string(&readme_path).map_err(|e| format!("README.md: {e}"))?;
+    let updated = figures::with_table(&readme, &figs.readme_table())?;
+    if updated != readme {
+        figures::write_atomic(&readme_path, &updated)?;
+    }
+    println!("\nwrote docs/firmware-figures.json and the README's table from it");
     Ok(())
+}
+
+/// `PROPTEST_CASES=<cases> cargo test --release -p tidewire-core --test passivity --test loader
+/// --test oracle`.
+fn soak(cases: &str) -> Result<(), String> {
+    let cargo = std::env::var_os("CARGO").unwrap_or_else(|| "cargo".into());
+    eprintln!("xtask: soak: {cases} cases per property, release build");
+    let status = Command::new(cargo)
+        .env("PROPTEST_CASES", cases)
+        .args([
+            "test",
+            "--release",
+            "-p",
+            "tidewire-core",
+            "--test",
+            "passivity",
+            "--test",
+            "loader",
+            "--test",
+            "oracle",
+        ])
+        .status()
+        .map_err(|e| format!("cannot start cargo: {e}"))?;
+    if status.success() {
+        Ok(())
+    } else {
+        Err(format!("soak failed ({status})"))
+    }
 }
