@@ -96,20 +96,21 @@ impl fmt::Display for ImageError {
 
 impl core::error::Error for ImageError {}
 
-/// A network decoded from an image into fixed-capacity storage (`L` lines, `J` junctions).
+/// A network decoded from an image into fixed-capacity storage (`L` lines and elements, `J`
+/// junctions, `K` loss filters; `K` defaults to `L`).
 #[derive(Debug, Clone, PartialEq, Deserialize)]
-pub struct ImageNetwork<const L: usize, const J: usize> {
+pub struct ImageNetwork<const L: usize, const J: usize, const K: usize = L> {
     lines: heapless::Vec<Line, L>,
     junctions: heapless::Vec<Junction, J>,
     elements: heapless::Vec<Element, L>,
-    losses: heapless::Vec<LineLoss, L>,
+    losses: heapless::Vec<LineLoss, K>,
     drive: Drive,
     probes: heapless::Vec<Probe, MAX_PROBES>,
     io_shift: u8,
     volts_per_code: f32,
 }
 
-impl<const L: usize, const J: usize> ImageNetwork<L, J> {
+impl<const L: usize, const J: usize, const K: usize> ImageNetwork<L, J, K> {
     /// A borrowed view to build a solver from.
     pub fn network(&self) -> Network<'_> {
         Network {
@@ -161,8 +162,17 @@ pub fn body(bytes: &[u8]) -> Result<&[u8], ImageError> {
 
 /// Decode an image into fixed-capacity storage.
 pub fn decode<const L: usize, const J: usize>(bytes: &[u8]) -> Result<ImageNetwork<L, J>, ImageError> {
+    decode_sized::<L, J, L>(bytes)
+}
+
+/// [`decode`] with its own capacity `K` for loss filters. A solver decodes with `K` = its
+/// loss-end capacity `LOSSES` (a lossy line takes two of them, so that is room enough), which
+/// keeps the decoded network small on parts with little RAM.
+pub fn decode_sized<const L: usize, const J: usize, const K: usize>(
+    bytes: &[u8],
+) -> Result<ImageNetwork<L, J, K>, ImageError> {
     let body = body(bytes)?;
-    let (net, rest) = postcard::take_from_bytes::<ImageNetwork<L, J>>(body).map_err(|_| ImageError::Body)?;
+    let (net, rest) = postcard::take_from_bytes::<ImageNetwork<L, J, K>>(body).map_err(|_| ImageError::Body)?;
     if !rest.is_empty() {
         return Err(ImageError::TrailingBytes);
     }
@@ -174,7 +184,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
 {
     /// Decode an image and load its network (header, CRC, body, then topology validation).
     pub fn load_image(&mut self, bytes: &[u8]) -> Result<(), ImageError> {
-        let net = decode::<PORTS, JUNCS>(bytes)?;
+        let net = decode_sized::<PORTS, JUNCS, LOSSES>(bytes)?;
         self.load(&net.network()).map_err(ImageError::Network)
     }
 }
