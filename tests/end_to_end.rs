@@ -35,7 +35,13 @@ fn image_and_rust_source_give_the_same_solver() {
     assert_eq!(decoded.network(), generated::NETWORK);
 
     // Both solvers step identically.
-    let mut a: Solver<Wide, { generated::PORTS }, { generated::JUNCTIONS }, { generated::MEMORY }> = Solver::new();
+    let mut a: Solver<
+        Wide,
+        { generated::PORTS },
+        { generated::JUNCTIONS },
+        { generated::MEMORY },
+        { generated::LOSS_ENDS },
+    > = Solver::new();
     a.load(&generated::NETWORK).unwrap();
     let mut b: Solver<Wide, 64, 32, 256> = Solver::new();
     b.load_image(&bytes).unwrap();

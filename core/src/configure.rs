@@ -9,35 +9,16 @@
 //! E = Σ_lines g·(a² + b²) never grows at a junction whose node voltage is quantized toward
 //! zero (see the crate documentation).
 
+mod passive;
+mod shape;
+mod weights;
+
 use crate::error::{BuildError, ConfigError, Table};
-use crate::network::{
-    Drive, ElementKind, Junction, Network, ProbeKind, Shunt, Side, MAX_LOSS_SECTIONS, MAX_PROBES, MAX_RIG_LATENCY,
-};
+use crate::network::{ElementKind, Junction, Network, ProbeKind, Shunt, Side, MAX_LOSS_SECTIONS};
 use crate::profile::{reciprocal, Profile};
 use crate::solver::{DriveRt, ElementRt, JunctionRt, LossRt, Mode, ProbeRt, Solver};
-
-/// Largest exponent of the weight unit: g62 = floor(2^62 / Z) fits a u64 for Z >= 1 mΩ.
-const TOP: u32 = 62;
-
-fn cap(table: Table, needed: usize, capacity: usize) -> Result<(), BuildError> {
-    if needed > capacity {
-        Err(BuildError::CapacityExceeded {
-            table,
-            needed: needed.min(u32::MAX as usize) as u32,
-            capacity: capacity.min(u32::MAX as usize) as u32,
-        })
-    } else {
-        Ok(())
-    }
-}
-
-fn w_top(milliohm: u32) -> u64 {
-    (1u64 << TOP) / milliohm.max(1) as u64
-}
-
-fn w_top_wide(milliohm: u64) -> u64 {
-    (1u64 << TOP) / milliohm.max(1)
-}
+use shape::{cap, ports_at, Shape};
+use weights::{weight, TOP};
 
 /// `slot[i] = v` for an index the checks above keep in range; out of range (unreachable after
 /// validation) it writes nothing instead of panicking, so `load` has no panic path.
@@ -47,12 +28,17 @@ fn set<T>(slot: &mut [T], i: usize, v: T) {
     }
 }
 
+/// Index of a line end in `port_of`: 2·line + side (saturating; lines < 2^16).
+pub(crate) fn end_index(line: usize, side_b: bool) -> usize {
+    line.saturating_mul(2).saturating_add(usize::from(side_b))
+}
+
 /// `table[i]` as an index (0 if out of range, unreachable after validation; no panic path).
 fn at(table: &[u16], i: usize) -> usize {
     table.get(i).copied().unwrap_or(0) as usize
 }
 
-fn mode_of(short: bool, broken: bool) -> Mode {
+pub(crate) fn mode_of(short: bool, broken: bool) -> Mode {
     if broken {
         Mode::Broken
     } else if short {
@@ -62,11 +48,189 @@ fn mode_of(short: bool, broken: bool) -> Mode {
     }
 }
 
+/// One loss section's coefficients from its pole and zero (Q30), in the profile's
+/// `LOSS_FRAC` bits, as `(g, gb, a)`: the one quantization, [`crate::quantize::loss_section`]. `None` for a section that is
+/// not an attenuating shelf (needs −1 < zero < pole < 1 and a > 0 after quantization).
+pub fn quantize_loss_section<P: Profile>(pole: u32, zero: i32) -> Option<(u32, i32, u32)> {
+    let (a, g, gb) = crate::quantize::loss_section(i64::from(pole), i64::from(zero), P::LOSS_FRAC)?;
+    let one = 1i64.checked_shl(P::LOSS_FRAC)?;
+    // Still a section that only attenuates: 0 < a, effective zero below the pole.
+    if a <= 0 || g <= 0 || gb.checked_mul(one)? >= a.checked_mul(g)? || g >= 1 << 31 {
+        return None;
+    }
+    Some((u32::try_from(g).ok()?, i32::try_from(gb).ok()?, u32::try_from(a).ok()?))
+}
+
+/// Check everything `load` checks that does not depend on a solver's capacities: the shape,
+/// the weight unit and the passivity of every quantized junction, element and loss section.
+/// The host compiler calls this so a plant the core would refuse is refused with a located
+/// error. Returns the weight exponent c.
+pub fn check<P: Profile>(net: &Network<'_>) -> Result<u32, BuildError> {
+    let shape = shape::check::<P>(net, usize::MAX, usize::MAX, usize::MAX)?;
+    let k = weights::shift::<P>(net, &shape)?;
+    let c = TOP.saturating_sub(k); // k <= TOP
+    for l in net.lines {
+        line_weight(l.z_milliohm, k, l.a)?;
+    }
+    let mut first = 0usize;
+    for (j, junc) in net.junctions.iter().enumerate() {
+        let count = ports_at(net, j);
+        let (sum, min) = port_weights(net, j, k);
+        let rt = junction_record::<P>(net, &shape, j, *junc, first, count, sum, k)?;
+        let ok = match rt {
+            JunctionRt::Node { .. } => passive::node_ok::<P>(&rt, sum, min),
+            _ => passive::two_port_ok::<P>(&rt),
+        };
+        if !ok {
+            return Err(BuildError::NotPassive { junction: j as u16 });
+        }
+        first = first.saturating_add(count); // <= ports <= 2^16
+    }
+    for (n, e) in net.elements.iter().enumerate() {
+        if !passive::element_ok::<P>(element_mu::<P>(e.port_milliohm, e.series_milliohm)) {
+            return Err(BuildError::BadElement { element: n as u16 });
+        }
+    }
+    for (n, ll) in net.losses.iter().enumerate() {
+        loss_record::<P>(ll, 0).ok_or(BuildError::BadLoss { loss: n as u16 })?;
+    }
+    Ok(c)
+}
+
+/// A line's weight as stored (u32), or an error if it does not fit (a line whose ends meet
+/// no scattering node, so the node budget did not bound it).
+fn line_weight(z_milliohm: u32, k: u32, junction: u16) -> Result<u32, BuildError> {
+    u32::try_from(weight(u64::from(z_milliohm), k)).map_err(|_| BuildError::CoefficientOutOfRange { junction })
+}
+
+/// Σ and min of the port weights (line ends, element ports; no source) of junction `j`.
+fn port_weights(net: &Network<'_>, j: usize, k: u32) -> (u64, u64) {
+    let ends =
+        net.lines.iter().flat_map(|l| core::iter::repeat_n(weight(u64::from(l.z_milliohm), k), shape::ends_of(l, j)));
+    let elems =
+        net.elements.iter().filter(|e| e.junction as usize == j).map(|e| weight(weights::element_milliohm(e), k));
+    ends.chain(elems).fold((0u64, u64::MAX), |(s, m), g| (s.saturating_add(g), m.min(g)))
+}
+
+/// μ = R_p/(R_p + R_s) in `SERIES_FRAC` bits, rounded down (<= 1).
+fn element_mu<P: Profile>(port_milliohm: u32, series_milliohm: u32) -> u32 {
+    let rp = u128::from(port_milliohm);
+    // rp, series < 2^32: the shift and the sum are exact in u128.
+    let mu = (rp << P::SERIES_FRAC).checked_div(rp.saturating_add(u128::from(series_milliohm))).unwrap_or(0);
+    u32::try_from(mu).unwrap_or(0)
+}
+
+/// The run-time record of one loss filter (`None` if a section does not quantize to an
+/// attenuating shelf, see [`quantize_loss_section`]).
+fn loss_record<P: Profile>(ll: &crate::network::LineLoss, port: u16) -> Option<LossRt<P::Wave>> {
+    let mut rt = LossRt {
+        port,
+        sections: ll.sections,
+        g: [0; MAX_LOSS_SECTIONS],
+        gb: [0; MAX_LOSS_SECTIONS],
+        a: [0; MAX_LOSS_SECTIONS],
+        x1: [P::ZERO; MAX_LOSS_SECTIONS],
+        y1: [P::ZERO; MAX_LOSS_SECTIONS],
+    };
+    let n = ll.sections as usize;
+    if n == 0 || n > MAX_LOSS_SECTIONS {
+        return None;
+    }
+    let coefs = ll.poles.iter().zip(ll.zeros.iter()).zip(rt.g.iter_mut().zip(rt.gb.iter_mut()).zip(rt.a.iter_mut()));
+    for ((pole, zero), ((rg, rgb), ra)) in coefs.take(n) {
+        (*rg, *rgb, *ra) = quantize_loss_section::<P>(*pole, *zero)?;
+    }
+    passive::loss_ok::<P>(&rt).then_some(rt)
+}
+
+/// The run-time record of junction `j` (whose ports start at `first`), with the sum of its
+/// port weights `port_sum` at shift k.
+#[allow(clippy::too_many_arguments)]
+fn junction_record<P: Profile>(
+    net: &Network<'_>,
+    shape: &Shape,
+    j: usize,
+    junc: Junction,
+    first: usize,
+    count: usize,
+    port_sum: u64,
+    k: u32,
+) -> Result<JunctionRt, BuildError> {
+    let junction = j as u16; // j < 2^16 (shape check)
+    let out_of_range = BuildError::CoefficientOutOfRange { junction };
+    let (first16, count16) =
+        (u16::try_from(first).map_err(|_| out_of_range)?, u16::try_from(count).map_err(|_| out_of_range)?);
+    if shape.rig.is_some_and(|r| r.0 == j) {
+        return Ok(JunctionRt::Rig { port: first16 });
+    }
+    let z = u128::from(shape::first_z(net, j));
+    Ok(match junc {
+        Junction::Node { shunt } => {
+            let g_src = match shape.src {
+                Some((sj, mohm)) if sj == j => u32::try_from(weight(u64::from(mohm), k)).map_err(|_| out_of_range)?,
+                _ => 0,
+            };
+            let mut rt = JunctionRt::Node {
+                first: first16,
+                count: count16,
+                mode: Mode::Scatter,
+                short: false,
+                broken: false,
+                g_src,
+                g_ports: port_sum.checked_add(u64::from(g_src)).ok_or(out_of_range)?,
+                recip: 0,
+                shift: 0,
+                total: 0,
+            };
+            apply_shunt::<P>(&mut rt, shunt, TOP.saturating_sub(k)).map_err(|_| out_of_range)?;
+            rt
+        }
+        Junction::Series { milliohm } => {
+            // Both ends have impedance z (shape check); c = 2Z/(2Z + R) <= 1, rounded down.
+            // z, milliohm < 2^32: every term below is exact in u128.
+            let two_z = z.saturating_mul(2);
+            let c = (two_z << P::SERIES_FRAC).checked_div(two_z.saturating_add(u128::from(milliohm))).unwrap_or(0);
+            JunctionRt::Series {
+                p: first16,
+                q: first16.wrapping_add(1),
+                c: u32::try_from(c).map_err(|_| out_of_range)?,
+            }
+        }
+        Junction::SeriesInductor { port_milliohm, milliohm } => {
+            // c = 2Z/ΣR and rho = R_L/ΣR, both rounded down, so c + rho <= 1: the quantized
+            // adaptor is a passive one (lossless for c + rho = 1, a slightly different R_L,
+            // plus the winding resistance).
+            // z, port_milliohm, milliohm < 2^32: every term below is exact in u128.
+            let two_z = z.saturating_mul(2);
+            let sum = two_z.saturating_add(u128::from(port_milliohm)).saturating_add(u128::from(milliohm));
+            let c = (two_z << P::CHOKE_FRAC).checked_div(sum).unwrap_or(0);
+            // Without winding resistance the adaptor must stay lossless (c + rho = 1 exactly),
+            // or the rounding would act as a resistor at DC.
+            let rho = if milliohm == 0 {
+                (1u128 << P::CHOKE_FRAC).saturating_sub(c)
+            } else {
+                (u128::from(port_milliohm) << P::CHOKE_FRAC).checked_div(sum).unwrap_or(0)
+            };
+            JunctionRt::SeriesL {
+                p: first16,
+                q: first16.wrapping_add(1),
+                c: u32::try_from(c).map_err(|_| out_of_range)?,
+                rho: u32::try_from(rho).map_err(|_| out_of_range)?,
+                s: 0,
+            }
+        }
+    })
+}
+
 impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const LOSSES: usize>
     Solver<P, PORTS, JUNCS, MEM, LOSSES>
 {
     /// Validate `net`, compute every coefficient and reset the state. On error the solver is
     /// left empty (it steps as a network without drive).
+    ///
+    /// Phases: the shape against the capacities (nothing written yet), the weight unit, the
+    /// port layout, loss filters, delay rings, weights, junction records, probes and drive,
+    /// and last a check that every quantized junction, element and loss section is passive.
     pub fn load(&mut self, net: &Network<'_>) -> Result<(), BuildError> {
         let r = self.load_inner(net);
         if r.is_err() {
@@ -76,365 +240,194 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     }
 
     fn load_inner(&mut self, net: &Network<'_>) -> Result<(), BuildError> {
-        let nl = net.lines.len();
-        let nj = net.junctions.len();
-        let ne = net.elements.len();
-        cap(Table::Ports, nl * 2 + ne, PORTS)?;
-        cap(Table::Junctions, nj, JUNCS)?;
-        cap(Table::Probes, net.probes.len(), MAX_PROBES)?;
-        cap(Table::Lines, nl, u16::MAX as usize)?;
-        if net.io_shift > P::MAX_IO_SHIFT {
-            return Err(BuildError::IoShiftTooLarge { io_shift: net.io_shift, max: P::MAX_IO_SHIFT });
-        }
-        for (i, l) in net.lines.iter().enumerate() {
-            let line = i as u16;
-            if l.z_milliohm == 0 {
-                return Err(BuildError::ZeroImpedance { line });
-            }
-            if l.delay == 0 {
-                return Err(BuildError::ZeroDelay { line });
-            }
-            for j in [l.a, l.b] {
-                if j as usize >= nj {
-                    return Err(BuildError::JunctionOutOfRange { line, junction: j });
-                }
-            }
-        }
-        let ends_at =
-            |j: usize| net.lines.iter().map(|l| (l.a as usize == j) as u16 + (l.b as usize == j) as u16).sum::<u16>();
-        let elems_at = |j: usize| net.elements.iter().filter(|e| e.junction as usize == j).count() as u16;
-        let ports_at = |j: usize| ends_at(j) + elems_at(j);
-        for (k, e) in net.elements.iter().enumerate() {
-            let ok = matches!(net.junctions.get(e.junction as usize), Some(Junction::Node { .. }));
-            if !ok || e.port_milliohm == 0 {
-                return Err(BuildError::BadElement { element: k as u16 });
-            }
-        }
+        let shape = shape::check::<P>(net, PORTS, JUNCS, LOSSES)?;
+        let k = weights::shift::<P>(net, &shape)?;
+        self.exponent = TOP.saturating_sub(k); // k <= TOP
+        self.layout_ports(net);
+        self.build_losses(net)?;
+        self.build_rings(net, &shape)?;
+        self.build_weights(net, k)?;
+        self.build_junctions(net, &shape, k)?;
+        self.build_probes(net);
+        self.build_drive(net, &shape);
+        self.check_passive()?;
+        self.io_shift = u32::from(net.io_shift);
+        self.volts_per_code = net.volts_per_code;
+        self.reset();
+        Ok(())
+    }
 
-        // Junction shape checks.
-        let mut series_z = [0u32; JUNCS];
-        for (j, junc) in net.junctions.iter().enumerate() {
-            let junction = j as u16;
-            let ends = ends_at(j);
-            match *junc {
-                Junction::Node { shunt } => {
-                    if ends == 0 {
-                        return Err(BuildError::DanglingJunction { junction });
-                    }
-                    if let Shunt::Resistor { milliohm: 0 } = shunt {
-                        return Err(BuildError::ZeroResistance { junction });
-                    }
-                }
-                Junction::Series { .. } | Junction::SeriesInductor { .. } => {
-                    if ends != 2 {
-                        return Err(BuildError::SeriesNeedsTwoEnds { junction, ends });
-                    }
-                    let mut zs = net
-                        .lines
-                        .iter()
-                        .flat_map(|l| [(l.a, l.z_milliohm), (l.b, l.z_milliohm)])
-                        .filter(|(jj, _)| *jj as usize == j)
-                        .map(|(_, z)| z);
-                    let (z1, z2) = (zs.next().unwrap_or(0), zs.next().unwrap_or(0));
-                    if z1 != z2 {
-                        return Err(BuildError::SeriesImpedanceMismatch { junction });
-                    }
-                    if let Some(slot) = series_z.get_mut(j) {
-                        *slot = z1;
-                    }
-                    match *junc {
-                        Junction::Series { milliohm: 0 } | Junction::SeriesInductor { port_milliohm: 0, .. } => {
-                            return Err(BuildError::ZeroResistance { junction });
-                        }
-                        _ => {}
-                    }
-                }
-            }
-        }
-
-        // Drive checks.
-        let (src_j, src_mohm, rig) = match net.drive {
-            Drive::None => (None, 0, None),
-            Drive::Source { junction, milliohm } => {
-                let j = junction as usize;
-                match net.junctions.get(j) {
-                    None => return Err(BuildError::IndexOutOfRange { table: Table::Junctions, index: junction }),
-                    Some(Junction::Series { .. } | Junction::SeriesInductor { .. }) => {
-                        return Err(BuildError::DriveOnSeries { junction })
-                    }
-                    Some(_) => {}
-                }
-                if milliohm == 0 {
-                    return Err(BuildError::ZeroResistance { junction });
-                }
-                (Some(j), milliohm, None)
-            }
-            Drive::Rig { junction, latency } => {
-                let j = junction as usize;
-                match net.junctions.get(j) {
-                    None => return Err(BuildError::IndexOutOfRange { table: Table::Junctions, index: junction }),
-                    Some(Junction::Series { .. } | Junction::SeriesInductor { .. }) => {
-                        return Err(BuildError::DriveOnSeries { junction })
-                    }
-                    Some(Junction::Node { shunt: Shunt::Open }) if ends_at(j) == 1 && elems_at(j) == 0 => {}
-                    Some(_) => return Err(BuildError::BadRigNode { junction }),
-                }
-                let line = net.lines.iter().position(|l| l.a as usize == j || l.b as usize == j);
-                let delay = line.and_then(|i| net.lines.get(i)).map_or(0, |l| l.delay);
-                if latency > MAX_RIG_LATENCY || delay < latency as u32 + 1 {
-                    return Err(BuildError::RigLatencyTooLong { latency, delay });
-                }
-                (None, 0, Some((j, latency, line.unwrap_or(0))))
-            }
-        };
-
-        // Port layout: ports grouped by junction, in junction order.
+    /// Ports grouped by junction, in junction order: each junction's line ends, then its
+    /// element ports. `port_of[2·line + side]` is the port of a line end.
+    fn layout_ports(&mut self, net: &Network<'_>) {
         let mut p = 0usize;
-        for j in 0..nj {
+        for j in 0..net.junctions.len() {
             for (i, l) in net.lines.iter().enumerate() {
                 if l.a as usize == j {
-                    set(&mut self.port_of, 2 * i, p as u16);
-                    p += 1;
+                    set(&mut self.port_of, end_index(i, false), p as u16);
+                    p = p.saturating_add(1); // <= ports <= 2^16
                 }
                 if l.b as usize == j {
-                    set(&mut self.port_of, 2 * i + 1, p as u16);
-                    p += 1;
+                    set(&mut self.port_of, end_index(i, true), p as u16);
+                    p = p.saturating_add(1); // <= ports <= 2^16
                 }
             }
             for (k, e) in net.elements.iter().enumerate() {
                 if e.junction as usize == j {
-                    let rp = e.port_milliohm as u128;
-                    let mu = (rp << P::SERIES_FRAC).checked_div(rp + e.series_milliohm as u128).unwrap_or(0);
+                    let mu = element_mu::<P>(e.port_milliohm, e.series_milliohm);
                     let negate = matches!(e.kind, ElementKind::Inductor);
-                    set(&mut self.elements, k, ElementRt { port: p as u16, mu: mu as u32, negate });
-                    p += 1;
+                    set(&mut self.elements, k, ElementRt { port: p as u16, mu, negate });
+                    p = p.saturating_add(1); // <= ports <= 2^16
                 }
             }
         }
-        self.n_elements = ne;
+        self.n_elements = net.elements.len();
+        self.n_ports = p;
+        self.n_lines = net.lines.len();
+    }
 
-        // Loss filters: one per lossy line, applied at both of its ends.
-        cap(Table::Losses, 2 * net.losses.len(), LOSSES)?;
+    /// Loss filters: one per lossy line, applied at both of its ends.
+    fn build_losses(&mut self, net: &Network<'_>) -> Result<(), BuildError> {
         let mut nloss = 0usize;
         for (k, ll) in net.losses.iter().enumerate() {
-            let bad = BuildError::BadLoss { loss: k as u16 };
             let li = ll.line as usize;
-            let n = ll.sections as usize;
-            if li >= nl || n == 0 || n > MAX_LOSS_SECTIONS || net.losses.iter().take(k).any(|o| o.line == ll.line) {
-                return Err(bad);
-            }
-            let mut rt = LossRt {
-                port: 0,
-                sections: ll.sections,
-                g: [0; MAX_LOSS_SECTIONS],
-                gb: [0; MAX_LOSS_SECTIONS],
-                a: [0; MAX_LOSS_SECTIONS],
-                x1: [P::ZERO; MAX_LOSS_SECTIONS],
-                y1: [P::ZERO; MAX_LOSS_SECTIONS],
-            };
-            let one = 1u64 << P::LOSS_FRAC;
-            let coefs =
-                ll.poles.iter().zip(ll.zeros.iter()).zip(rt.g.iter_mut().zip(rt.gb.iter_mut()).zip(rt.a.iter_mut()));
-            for ((pole, zero), ((rg, rgb), ra)) in coefs.take(n) {
-                let (pole, zero) = (*pole as i64, *zero as i64);
-                let one = one as i64;
-                if pole >= 1 << 30 || zero >= pole || zero <= -(1 << 30) {
-                    return Err(bad);
-                }
-                let (a, g, gb) = crate::quantize::loss_section(pole, zero, P::LOSS_FRAC);
-                // Still a section that only attenuates: 0 < a, effective zero below the pole.
-                if a <= 0 || g <= 0 || gb * one >= a * g || g >= 1 << 31 {
-                    return Err(bad);
-                }
-                *rg = g as u32;
-                *rgb = gb as i32;
-                *ra = a as u32;
-            }
             for side in 0..2 {
-                let mut r = rt;
-                r.port = at(&self.port_of, 2 * li + side) as u16;
-                set(&mut self.losses, nloss, r);
-                nloss += 1;
+                let port = at(&self.port_of, end_index(li, side == 1)) as u16;
+                let rt = loss_record::<P>(ll, port).ok_or(BuildError::BadLoss { loss: k as u16 })?;
+                set(&mut self.losses, nloss, rt);
+                nloss = nloss.saturating_add(1);
             }
         }
         self.n_losses = nloss;
-        self.n_ports = p;
-        self.n_lines = nl;
+        Ok(())
+    }
 
-        // Rings and weights. The ring a port reads from carries the wave towards it.
+    /// Rings: the ring a port reads from carries the wave towards it. Each reactance keeps its
+    /// state in a ring of one sample that feeds itself. Every end is formed with checked
+    /// arithmetic (a 32-bit `usize` cannot wrap) and checked against `MEM`.
+    fn build_rings(&mut self, net: &Network<'_>, shape: &Shape) -> Result<(), BuildError> {
         let mut mem = 0usize;
+        let place = |s: &mut Self, port: usize, d: u32, mem: &mut usize| -> Result<(), BuildError> {
+            let end = usize::try_from(d).ok().and_then(|d| mem.checked_add(d)).unwrap_or(usize::MAX);
+            cap(Table::DelayStorage, end, MEM.min(u32::MAX as usize))?;
+            set(&mut s.start, port, *mem as u32);
+            set(&mut s.end, port, end as u32);
+            *mem = end;
+            Ok(())
+        };
         for (i, l) in net.lines.iter().enumerate() {
-            let (pa, pb) = (at(&self.port_of, 2 * i), at(&self.port_of, 2 * i + 1));
+            let (pa, pb) = (at(&self.port_of, end_index(i, false)), at(&self.port_of, end_index(i, true)));
             set(&mut self.partner, pa, pb as u16);
             set(&mut self.partner, pb, pa as u16);
             let (mut d_into_a, mut d_into_b) = (l.delay, l.delay);
-            if let Some((rj, lat, rl)) = rig {
+            if let Some((rj, lat, rl)) = shape.rig {
                 if rl == i {
                     // The latency comes out of the direction towards the rig port only, so
                     // every wave inside the plant keeps its physical timing relative to the
                     // pin's ADC samples; the early return is what the DAC latency delays.
-                    let (d_in, d_out) = (l.delay - lat as u32, l.delay);
+                    // delay > latency (shape check), so d_in >= 1.
+                    let d_in = l.delay.saturating_sub(u32::from(lat)).max(1);
                     if l.a as usize == rj {
-                        (d_into_a, d_into_b) = (d_in, d_out);
+                        d_into_a = d_in;
                     } else {
-                        (d_into_b, d_into_a) = (d_in, d_out);
+                        d_into_b = d_in;
                     }
                 }
             }
-            for (port, d) in [(pa, d_into_a), (pb, d_into_b)] {
-                let end = mem + d as usize;
-                cap(Table::DelayStorage, end, MEM)?;
-                set(&mut self.start, port, mem as u32);
-                set(&mut self.end, port, end as u32);
-                mem = end;
-            }
+            place(self, pa, d_into_a, &mut mem)?;
+            place(self, pb, d_into_b, &mut mem)?;
         }
-        // Each reactance keeps its state in a ring of one sample that feeds itself.
-        for el in self.elements.iter().take(ne) {
-            let port = el.port as usize;
-            cap(Table::DelayStorage, mem + 1, MEM)?;
+        for n in 0..self.n_elements.min(PORTS) {
+            let port = self.elements.get(n).map_or(0, |e| e.port as usize);
             set(&mut self.partner, port, port as u16);
-            set(&mut self.start, port, mem as u32);
-            set(&mut self.end, port, mem as u32 + 1);
-            mem += 1;
+            place(self, port, 1, &mut mem)?;
         }
         self.mem_used = mem;
+        Ok(())
+    }
 
-        // Weight exponent: the largest c with every node's Σ g + g_src within the budget.
-        let budget = 1u64 << P::WEIGHT_BITS;
-        let node_sum = |j: usize, k: u32| -> u64 {
-            let mut s: u64 = net
-                .lines
-                .iter()
-                .map(|l| ((l.a as usize == j) as u64 + (l.b as usize == j) as u64) * (w_top(l.z_milliohm) >> k))
-                .sum();
-            s += net
-                .elements
-                .iter()
-                .filter(|e| e.junction as usize == j)
-                .map(|e| w_top_wide(e.port_milliohm as u64 + e.series_milliohm as u64) >> k)
-                .sum::<u64>();
-            if src_j == Some(j) {
-                s += w_top(src_mohm) >> k;
-            }
-            s
-        };
-        let is_scatter_node =
-            |j: usize| matches!(net.junctions.get(j), Some(Junction::Node { .. })) && rig.is_none_or(|r| r.0 != j);
-        let mut k = 0u32;
-        while k < TOP && (0..nj).any(|j| is_scatter_node(j) && node_sum(j, k) > budget) {
-            k += 1;
-        }
-        let c = TOP - k;
-        self.exponent = c;
+    /// Port weights at shift k: a line's weight at both of its ends, element ports their own.
+    fn build_weights(&mut self, net: &Network<'_>, k: u32) -> Result<(), BuildError> {
         for (i, l) in net.lines.iter().enumerate() {
-            let g = w_top(l.z_milliohm) >> k;
-            set(&mut self.g, at(&self.port_of, 2 * i), g as u32);
-            set(&mut self.g, at(&self.port_of, 2 * i + 1), g as u32);
+            let g = line_weight(l.z_milliohm, k, l.a)?;
+            set(&mut self.g, at(&self.port_of, end_index(i, false)), g);
+            set(&mut self.g, at(&self.port_of, end_index(i, true)), g);
         }
-        for (el, e) in self.elements.iter().zip(net.elements.iter()) {
-            set(
-                &mut self.g,
-                el.port as usize,
-                (w_top_wide(e.port_milliohm as u64 + e.series_milliohm as u64) >> k) as u32,
-            );
+        for (n, e) in net.elements.iter().enumerate() {
+            let g = weight(weights::element_milliohm(e), k);
+            let g = u32::try_from(g).map_err(|_| BuildError::BadElement { element: n as u16 })?;
+            let port = self.elements.get(n).map_or(0, |el| el.port as usize);
+            set(&mut self.g, port, g);
         }
+        Ok(())
+    }
 
-        // Junction run-time records.
+    /// Junction run-time records.
+    fn build_junctions(&mut self, net: &Network<'_>, shape: &Shape, k: u32) -> Result<(), BuildError> {
         let mut first = 0usize;
         for (j, junc) in net.junctions.iter().enumerate() {
-            let junction = j as u16;
-            let count = ports_at(j) as usize;
-            let rt = match *junc {
-                _ if rig.is_some_and(|r| r.0 == j) => JunctionRt::Rig { port: first as u16 },
-                Junction::Node { shunt } => {
-                    if (first..first + count).any(|q| self.g.get(q).is_none_or(|g| *g == 0)) {
-                        return Err(BuildError::CoefficientOutOfRange { junction });
-                    }
-                    let g_src = if src_j == Some(j) { (w_top(src_mohm) >> k) as u32 } else { 0 };
-                    let g_ports =
-                        self.g.get(first..first + count).unwrap_or(&[]).iter().map(|g| *g as u64).sum::<u64>()
-                            + g_src as u64;
-                    let mut rt = JunctionRt::Node {
-                        first: first as u16,
-                        count: count as u16,
-                        mode: Mode::Scatter,
-                        short: false,
-                        broken: false,
-                        g_src,
-                        g_ports,
-                        recip: 0,
-                        shift: 0,
-                        total: 0,
-                    };
-                    apply_shunt::<P>(&mut rt, shunt, c).map_err(|_| BuildError::CoefficientOutOfRange { junction })?;
-                    rt
-                }
-                Junction::Series { milliohm } => {
-                    let (p, q) = (first, first + 1);
-                    // Both ends of a series junction belong to lines of equal impedance (checked
-                    // above); c = 2Z/(2Z + R) <= 1, rounded down.
-                    let z = series_z.get(j).copied().unwrap_or(0) as u128;
-                    let c = ((2 * z) << P::SERIES_FRAC).checked_div(2 * z + milliohm as u128).unwrap_or(0);
-                    JunctionRt::Series { p: p as u16, q: q as u16, c: c as u32 }
-                }
-                Junction::SeriesInductor { port_milliohm, milliohm } => {
-                    let (p, q) = (first, first + 1);
-                    // c = 2Z/ΣR and rho = R_L/ΣR, both rounded down, so c + rho <= 1: the
-                    // quantized adaptor is a passive one (lossless for c + rho = 1, a slightly
-                    // different R_L, plus the winding resistance).
-                    let z = series_z.get(j).copied().unwrap_or(0) as u128;
-                    let sum = 2 * z + port_milliohm as u128 + milliohm as u128;
-                    let c = ((2 * z) << P::CHOKE_FRAC).checked_div(sum).unwrap_or(0);
-                    // Without winding resistance the adaptor must stay lossless (c + rho = 1
-                    // exactly), or the rounding would act as a resistor at DC.
-                    let rho = if milliohm == 0 {
-                        (1u128 << P::CHOKE_FRAC).saturating_sub(c)
-                    } else {
-                        ((port_milliohm as u128) << P::CHOKE_FRAC).checked_div(sum).unwrap_or(0)
-                    };
-                    JunctionRt::SeriesL { p: p as u16, q: q as u16, c: c as u32, rho: rho as u32, s: 0 }
-                }
-            };
+            let count = ports_at(net, j);
+            let sum = self.port_weight_sum(first, count);
+            let rt = junction_record::<P>(net, shape, j, *junc, first, count, sum, k)?;
             set(&mut self.juncs, j, rt);
-            first += count;
+            first = first.saturating_add(count); // <= ports <= 2^16
         }
-        self.n_juncs = nj;
+        self.n_juncs = net.junctions.len();
+        Ok(())
+    }
 
-        // Probes.
+    /// Σ of the stored weights of ports first..first + count (saturating; checked later).
+    fn port_weight_sum(&self, first: usize, count: usize) -> u64 {
+        self.g.iter().skip(first).take(count).fold(0u64, |s, g| s.saturating_add(u64::from(*g)))
+    }
+
+    fn build_probes(&mut self, net: &Network<'_>) {
         for (k, pr) in net.probes.iter().enumerate() {
-            let l = net
-                .lines
-                .get(pr.line as usize)
-                .ok_or(BuildError::IndexOutOfRange { table: Table::Probes, index: k as u16 })?;
-            let port = at(&self.port_of, 2 * pr.line as usize + (pr.side == Side::B) as usize) as u16;
-            set(
-                &mut self.probes,
-                k,
-                ProbeRt { current: pr.kind == ProbeKind::Current, port, z_milliohm: l.z_milliohm },
-            );
+            let z_milliohm = net.lines.get(pr.line as usize).map_or(1, |l| l.z_milliohm);
+            let port = at(&self.port_of, end_index(pr.line as usize, pr.side == Side::B)) as u16;
+            set(&mut self.probes, k, ProbeRt { current: pr.kind == ProbeKind::Current, port, z_milliohm });
         }
         self.n_probes = net.probes.len();
+    }
 
-        // Drive.
-        let port_at = |j: usize| {
-            let mut first = 0usize;
-            for jj in 0..j {
-                first += ports_at(jj) as usize;
-            }
-            first as u16
-        };
-        self.drive = match (src_j, rig) {
-            (Some(j), _) => DriveRt::Source { port: port_at(j) },
+    fn build_drive(&mut self, net: &Network<'_>, shape: &Shape) {
+        let port_at = |j: usize| (0..j).map(|jj| ports_at(net, jj)).sum::<usize>() as u16;
+        self.rig_latency = 0;
+        self.drive = match (shape.src, shape.rig) {
+            (Some((j, _)), _) => DriveRt::Source { port: port_at(j) },
             (None, Some((j, lat, _))) => {
                 self.rig_latency = lat as usize;
                 DriveRt::Rig { port: port_at(j) }
             }
             _ => DriveRt::None,
         };
-        self.io_shift = net.io_shift as u32;
-        self.volts_per_code = net.volts_per_code;
-        self.reset();
+    }
+
+    /// The last phase: every record as built is passive (see the `passive` module), checked
+    /// from its integer coefficients.
+    fn check_passive(&self) -> Result<(), BuildError> {
+        for (j, rt) in self.juncs.iter().enumerate().take(self.n_juncs) {
+            let ok = match *rt {
+                JunctionRt::Node { first, count, .. } => {
+                    let ports = self.g.iter().skip(first as usize).take(count as usize);
+                    let in_range = (first as usize).saturating_add(count as usize) <= self.n_ports;
+                    let min = ports.clone().map(|g| u64::from(*g)).min().unwrap_or(0);
+                    in_range && passive::node_ok::<P>(rt, self.port_weight_sum(first as usize, count as usize), min)
+                }
+                _ => passive::two_port_ok::<P>(rt),
+            };
+            if !ok {
+                return Err(BuildError::NotPassive { junction: j as u16 });
+            }
+        }
+        for (n, el) in self.elements.iter().enumerate().take(self.n_elements) {
+            if !passive::element_ok::<P>(el.mu) {
+                return Err(BuildError::BadElement { element: n as u16 });
+            }
+        }
+        if let Some(bad) = self.losses.iter().take(self.n_losses).position(|l| !passive::loss_ok::<P>(l)) {
+            return Err(BuildError::BadLoss { loss: (bad / 2) as u16 });
+        }
         Ok(())
     }
 
@@ -457,15 +450,20 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     pub fn set_shunt(&mut self, junction: u16, shunt: Shunt) -> Result<(), ConfigError> {
         let c = self.exponent;
         let j = junction as usize;
-        match self.juncs.get_mut(j).filter(|_| j < self.n_juncs) {
-            Some(rt @ JunctionRt::Node { .. }) => {
-                let mut new = *rt;
-                apply_shunt::<P>(&mut new, shunt, c).map_err(|_| ConfigError::CoefficientOutOfRange { junction })?;
-                *rt = new;
-                Ok(())
-            }
-            _ => Err(ConfigError::NotANode { junction }),
+        let refused = ConfigError::CoefficientOutOfRange { junction };
+        let Some(rt @ JunctionRt::Node { first, count, .. }) = self.juncs.get(j).copied().filter(|_| j < self.n_juncs)
+        else {
+            return Err(ConfigError::NotANode { junction });
+        };
+        let mut new = rt;
+        apply_shunt::<P>(&mut new, shunt, c).map_err(|_| refused)?;
+        let (lo, n) = (first as usize, count as usize);
+        let min = self.g.iter().skip(lo).take(n).map(|g| u64::from(*g)).min().unwrap_or(0);
+        if !passive::node_ok::<P>(&new, self.port_weight_sum(lo, n), min) {
+            return Err(refused);
         }
+        set(&mut self.juncs, j, new);
+        Ok(())
     }
 
     /// Split a node into open ends (`true`: every port reflects a = b, as a broken cable
@@ -490,7 +488,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     /// The integer weight of line `line` (0 if it does not exist).
     pub fn line_weight(&self, line: usize) -> u32 {
         if line < self.n_lines {
-            self.port_of.get(2 * line).and_then(|p| self.g.get(*p as usize)).copied().unwrap_or(0)
+            self.port_of.get(end_index(line, false)).and_then(|p| self.g.get(*p as usize)).copied().unwrap_or(0)
         } else {
             0
         }
@@ -530,7 +528,10 @@ fn apply_shunt<P: Profile>(rt: &mut JunctionRt, shunt: Shunt, c: u32) -> Result<
         Shunt::Open => 0,
         Shunt::Short => 0,
         Shunt::Resistor { milliohm: 0 } => return Err(()),
-        Shunt::Resistor { milliohm } => ((1u128 << c) / milliohm as u128).min(u64::MAX as u128 / 2) as u64,
+        Shunt::Resistor { milliohm } => {
+            let g = (1u128 << c.min(TOP)).checked_div(u128::from(milliohm)).unwrap_or(0);
+            u64::try_from(g).unwrap_or(u64::MAX).min(u64::MAX >> 1)
+        }
     };
     let is_short = matches!(shunt, Shunt::Short);
     // A shunt so strong that the total passes the profile's division range is capped: the

@@ -108,6 +108,12 @@ pub enum BuildError {
         /// Index of the junction.
         junction: u16,
     },
+    /// A junction's quantized coefficients are not those of a passive junction (checked at
+    /// load from the integer coefficients themselves; see `configure`'s `passive` module).
+    NotPassive {
+        /// Index of the junction.
+        junction: u16,
+    },
     /// The rig latency is not shorter than the first line's delay (the line towards the
     /// rig port keeps delay − latency >= 1 samples), or exceeds MAX_RIG_LATENCY.
     RigLatencyTooLong {
@@ -156,6 +162,9 @@ impl fmt::Display for BuildError {
             }
             CoefficientOutOfRange { junction } => {
                 write!(f, "junction {junction}: coefficient out of range of its format")
+            }
+            NotPassive { junction } => {
+                write!(f, "junction {junction}: its quantized coefficients would not be passive")
             }
             RigLatencyTooLong { latency, delay } => write!(
                 f,

@@ -113,9 +113,10 @@ impl fmt::Display for ImageError {
 
 impl core::error::Error for ImageError {}
 
-/// A network decoded from an image into fixed-capacity storage (`L` lines, `J` junctions);
-/// [`crate::OwnedNetwork::network`] gives the view to build a solver from.
-pub type ImageNetwork<const L: usize, const J: usize> = crate::owned::HeaplessNetwork<L, J>;
+/// A network decoded from an image into fixed-capacity storage (`L` lines and elements, `J`
+/// junctions, `K` loss filters; `K` defaults to `L`); [`crate::OwnedNetwork::network`] gives
+/// the view to build a solver from.
+pub type ImageNetwork<const L: usize, const J: usize, const K: usize = L> = crate::owned::HeaplessNetwork<L, J, K>;
 
 /// Check the header and CRC of `bytes` and return the body.
 pub fn body(bytes: &[u8]) -> Result<&[u8], ImageError> {
@@ -123,9 +124,12 @@ pub fn body(bytes: &[u8]) -> Result<&[u8], ImageError> {
         (Some(h), Some(b)) => (h, b),
         _ => return Err(ImageError::Truncated { len: bytes.len() }),
     };
-    let u16_at = |i: usize| u16::from_le_bytes([head[i], head[i + 1]]);
-    let u32_at = |i: usize| u32::from_le_bytes([head[i], head[i + 1], head[i + 2], head[i + 3]]);
-    if head[0..4] != MAGIC {
+    // Fixed offsets inside the 16-byte header (length checked above); `get` keeps the
+    // restriction lints satisfied without a panic path.
+    let field = |i: usize, n: usize| head.get(i..i.saturating_add(n)).unwrap_or(&[]);
+    let u16_at = |i: usize| field(i, 2).try_into().map_or(0, u16::from_le_bytes);
+    let u32_at = |i: usize| field(i, 4).try_into().map_or(0, u32::from_le_bytes);
+    if field(0, 4) != MAGIC {
         return Err(ImageError::BadMagic);
     }
     let version = u16_at(4);
@@ -150,8 +154,17 @@ pub fn body(bytes: &[u8]) -> Result<&[u8], ImageError> {
 
 /// Decode an image into fixed-capacity storage.
 pub fn decode<const L: usize, const J: usize>(bytes: &[u8]) -> Result<ImageNetwork<L, J>, ImageError> {
+    decode_sized::<L, J, L>(bytes)
+}
+
+/// [`decode`] with its own capacity `K` for loss filters. A solver decodes with `K` = its
+/// loss-end capacity `LOSSES` (a lossy line takes two of them, so that is room enough), which
+/// keeps the decoded network small on parts with little RAM.
+pub fn decode_sized<const L: usize, const J: usize, const K: usize>(
+    bytes: &[u8],
+) -> Result<ImageNetwork<L, J, K>, ImageError> {
     let body = body(bytes)?;
-    let (net, rest) = postcard::take_from_bytes::<ImageNetwork<L, J>>(body).map_err(|_| ImageError::Body)?;
+    let (net, rest) = postcard::take_from_bytes::<ImageNetwork<L, J, K>>(body).map_err(|_| ImageError::Body)?;
     if !rest.is_empty() {
         return Err(ImageError::TrailingBytes);
     }
@@ -163,7 +176,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
 {
     /// Decode an image and load its network (header, CRC, body, then topology validation).
     pub fn load_image(&mut self, bytes: &[u8]) -> Result<(), ImageError> {
-        let net = decode::<PORTS, JUNCS>(bytes)?;
+        let net = decode_sized::<PORTS, JUNCS, LOSSES>(bytes)?;
         self.load(&net.network()).map_err(ImageError::Network)
     }
 }

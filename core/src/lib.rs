@@ -58,6 +58,11 @@
 //! with integer arithmetic, in `load` and in [`Solver::set_shunt`].
 #![no_std]
 #![forbid(unsafe_code)]
+// Panics are ruled out by the compiler as well as by the firmware's link check: no indexing
+// or slicing that can fail, no arithmetic that can overflow, divide by zero or shift too far
+// (every operation is checked, wrapping with its range argued, or saturating). Unit tests may
+// index.
+#![cfg_attr(not(test), deny(clippy::indexing_slicing, clippy::arithmetic_side_effects))]
 #![deny(missing_docs)]
 
 pub mod configure;

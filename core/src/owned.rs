@@ -55,12 +55,12 @@ where
     }
 }
 
-/// A network in fixed-capacity storage: `L` lines (and at most `L` elements and loss
-/// filters), `J` junctions, [`MAX_PROBES`] probes. What the image reader decodes into.
-pub type HeaplessNetwork<const L: usize, const J: usize> = OwnedNetwork<
+/// A network in fixed-capacity storage: `L` lines (and at most `L` elements), `J` junctions,
+/// `K` loss filters (default `L`), [`MAX_PROBES`] probes. What the image reader decodes into.
+pub type HeaplessNetwork<const L: usize, const J: usize, const K: usize = L> = OwnedNetwork<
     heapless::Vec<Line, L>,
     heapless::Vec<Junction, J>,
     heapless::Vec<Element, L>,
-    heapless::Vec<LineLoss, L>,
+    heapless::Vec<LineLoss, K>,
     heapless::Vec<Probe, MAX_PROBES>,
 >;

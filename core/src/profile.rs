@@ -184,7 +184,7 @@ impl Profile for Wide {
         let (q, nz) = floor_div64(acc.unsigned_abs(), recip, shift, total);
         // floor(acc/total): q for acc >= 0, −(q + nz) for acc < 0.
         let neg = (acc < 0) as u64;
-        let fl = apply_sign64(q.wrapping_add(nz & neg) as i64, -(neg as i64));
+        let fl = apply_sign64(q.wrapping_add(nz & neg) as i64, (neg as i64).wrapping_neg());
         for (ak, bk) in a.iter_mut().zip(b.iter()) {
             // v − b = (fl − b) + frac, frac > 0 iff nz: truncation toward zero adds 1 to a
             // negative integer part when there is a fraction.
@@ -296,7 +296,7 @@ impl Profile for Narrow {
         let acc = acc.wrapping_shl(1).wrapping_add((g_src as i32).wrapping_mul(e as i32));
         let (q, nz) = floor_div32(acc.unsigned_abs(), recip, shift, total as u32);
         let neg = (acc < 0) as u32;
-        let fl = apply_sign32(q.wrapping_add(nz & neg) as i32, -(neg as i32));
+        let fl = apply_sign32(q.wrapping_add(nz & neg) as i32, (neg as i32).wrapping_neg());
         for (ak, bk) in a.iter_mut().zip(b.iter()) {
             let m = fl.wrapping_sub(*bk as i32);
             *ak = sat_i16(m.wrapping_add(((m < 0) as u32 & nz) as i32));
@@ -365,11 +365,11 @@ impl Profile for Narrow {
     }
     #[inline(always)]
     fn sum(a: i16, b: i16) -> i32 {
-        a as i32 + b as i32
+        (a as i32).wrapping_add(b as i32) // two i16: exact in i32
     }
     #[inline(always)]
     fn diff(a: i16, b: i16) -> i32 {
-        a as i32 - b as i32
+        (a as i32).wrapping_sub(b as i32) // two i16: exact in i32
     }
 }
 
@@ -382,17 +382,17 @@ pub fn reciprocal(total: u64, recip_bits: u32) -> Option<(u32, u32)> {
     if total < 2 {
         return None;
     }
-    let n = 63 - total.leading_zeros(); // 2^n <= total < 2^(n+1), n >= 1
-    let mut p = recip_bits + n;
-    let mut r = (1u128 << p) / total as u128;
-    if r >> recip_bits != 0 {
+    let n = 63u32.saturating_sub(total.leading_zeros()); // 2^n <= total < 2^(n+1), n >= 1
+    let mut p = recip_bits.checked_add(n)?; // <= 32 + 63 < 128
+    let mut r = 1u128.checked_shl(p)?.checked_div(u128::from(total))?;
+    if r.checked_shr(recip_bits)? != 0 {
         // total is a power of two: 2^p/total = 2^recip_bits does not fit; one bit less.
-        p -= 1;
-        r = (1u128 << p) / total as u128;
+        p = p.checked_sub(1)?;
+        r = 1u128.checked_shl(p)?.checked_div(u128::from(total))?;
     }
-    let shift = p - recip_bits;
+    let shift = p.checked_sub(recip_bits)?;
     // The accumulator magnitude product is < 2^(2·RECIP_BITS); a shift past that is zero.
-    if shift >= 2 * recip_bits || shift >= 64 {
+    if shift >= recip_bits.saturating_mul(2) || shift >= 64 {
         return Some((0, 0));
     }
     Some((r as u32, shift))

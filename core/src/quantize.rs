@@ -10,13 +10,18 @@
 ///   is at most 1 and the effective zero gb/g stays at or above b_q, so the quantized
 ///   section still only attenuates.
 ///
-/// Valid for `frac` <= 30 and −2^30 < `zero` < `pole` < 2^30 (the core refuses other
-/// sections before calling this): then 0 <= g <= 2^frac and every product fits an i64.
-pub fn loss_section(pole: i64, zero: i64, frac: u32) -> (i64, i64, i64) {
-    let one = 1i64 << frac;
-    let a = pole >> (30 - frac);
-    let b = zero >> (30 - frac);
-    let g = ((one - a) << frac) / (one - b).max(1);
-    let gb = (g * b).div_euclid(one) + ((g * b).rem_euclid(one) != 0) as i64;
-    (a, g, gb)
+/// `None` for `frac` > 30 or a section outside −2^30 < `zero` < `pole` < 2^30. Within those
+/// ranges (one − a)·one < 2^60 and one − b is in [1, 2^31]: every step is exact (checked
+/// arithmetic all the same, so no input can panic or wrap).
+pub fn loss_section(pole: i64, zero: i64, frac: u32) -> Option<(i64, i64, i64)> {
+    if pole >= 1 << 30 || zero >= pole || zero <= -(1 << 30) {
+        return None;
+    }
+    let gap = 30u32.checked_sub(frac)?;
+    let one = 1i64.checked_shl(frac)?;
+    let (a, b) = (pole.checked_shr(gap)?, zero.checked_shr(gap)?);
+    let g = one.checked_sub(a)?.checked_shl(frac)?.checked_div(one.checked_sub(b)?)?;
+    let gb_exact = g.checked_mul(b)?;
+    let gb = gb_exact.checked_div_euclid(one)?.checked_add(i64::from(gb_exact.checked_rem_euclid(one)? != 0))?;
+    Some((a, g, gb))
 }

@@ -224,7 +224,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             }
             let back = self.hist_pos.wrapping_sub(self.rig_latency) & (HIST - 1);
             rig_back = self.hist.get(back).copied().unwrap_or(P::ZERO);
-            self.hist_pos = (self.hist_pos + 1) & (HIST - 1);
+            self.hist_pos = self.hist_pos.wrapping_add(1) & (HIST - 1);
         }
 
         self.scatter(e, rig_back);
@@ -273,7 +273,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             match *j {
                 JunctionRt::Node { first, count, mode, g_src, recip, shift, total, .. } => {
                     let lo = first as usize;
-                    let hi = lo + count as usize;
+                    let hi = lo.saturating_add(count as usize);
                     let (Some(bs), Some(gs), Some(as_)) =
                         (self.b.get(lo..hi), self.g.get(lo..hi), self.a.get_mut(lo..hi))
                     else {
@@ -411,7 +411,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         if line >= self.n_lines {
             return (0, 0);
         }
-        let p = self.port_of.get(2 * line + side_b as usize).copied().unwrap_or(0) as usize;
+        let p = self.port_of.get(crate::configure::end_index(line, side_b)).copied().unwrap_or(0) as usize;
         let a = self.a.get(p).copied().unwrap_or(P::ZERO).into();
         let b = self.b.get(p).copied().unwrap_or(P::ZERO).into();
         (a, b)

@@ -9,6 +9,8 @@ pub const PORTS: usize = 8;
 pub const JUNCTIONS: usize = 5;
 /// Delay storage (waves) a solver needs.
 pub const MEMORY: usize = 100;
+/// Line ends with a loss filter a solver needs (its `LOSSES`).
+pub const LOSS_ENDS: usize = 0;
 
 static LINES: [Line; 4] = [
     Line { z_milliohm: 120000, delay: 8, a: 0, b: 2 },

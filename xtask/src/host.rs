@@ -9,10 +9,11 @@ use tidewire_host::emit::image_bytes;
 const PORTS: usize = 256;
 const JUNCS: usize = 256;
 const MEM: usize = 1 << 16;
+const LOSSES: usize = 256;
 
 /// Hashes for (load path, seed index): `[source seed0, source seed1, image seed0, image seed1]`.
 fn hashes_for<P: Profile>(plant: &TestPlant) -> Result<[u32; 4], String> {
-    let mut s: Box<Solver<P, PORTS, JUNCS, MEM>> = Box::new(Solver::new());
+    let mut s: Box<Solver<P, PORTS, JUNCS, MEM, LOSSES>> = Box::new(Solver::new());
     let mut out = [0u32; 4];
     s.load(&plant.network()).map_err(|e| format!("host load of {}: {e}", plant.name))?;
     for (i, seed) in SEEDS.iter().enumerate() {

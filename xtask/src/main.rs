@@ -4,11 +4,14 @@
 //!   `examples/firmware/plants/gen/`, build the firmware for the Cortex-M4 and the Cortex-M0,
 //!   run both on QEMU (`-icount shift=0` for the instruction table, `shift=6` for an exact
 //!   comparison of the two stimuli), compare every hash with the host core, print the table.
+//!   It writes the table to `docs/firmware-figures.json` and renders the README's table
+//!   from it (between `<!-- figures:begin -->` and `<!-- figures:end -->`).
 //! * `firmware --inject-panic`: build with a panicking `unwrap` on the per-sample path; succeeds
 //!   only if both links fail on the undefined panic symbol.
 //! * `soak [--cases N] [--hours H]`: the property suites with many cases, for hours if asked
 //!   (see `soak.rs`).
 //! * `rig`: the rig firmware in QEMU driven by `tidewire rig` end to end (see `rig.rs`).
+mod figures;
 mod gen;
 mod host;
 mod parts;
@@ -177,5 +180,15 @@ fn firmware(inject: bool) -> Result<(), String> {
     }
     println!("all {checked} firmware hashes equal the host's\n");
     table::print(&rows, &clocks);
+    let root = p.crate_dir.parent().and_then(Path::parent).unwrap_or(Path::new(".")).to_path_buf();
+    let figs = table::figures(&rows);
+    figs.write(&root.join("docs/firmware-figures.json"))?;
+    let readme_path = root.join("README.md");
+    let readme = std::fs::read_to_string(&readme_path).map_err(|e| format!("README.md: {e}"))?;
+    let updated = figures::with_table(&readme, &figs.readme_table())?;
+    if updated != readme {
+        figures::write_atomic(&readme_path, &updated)?;
+    }
+    println!("\nwrote docs/firmware-figures.json and the README's table from it");
     Ok(())
 }

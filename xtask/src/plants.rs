@@ -3,7 +3,10 @@
 //! A [`TestPlant`] owns its tables, so a plant from any source can join the list: one built
 //! here, or (later) one from the host compiler through [`TestPlant::from_network`].
 
-use tidewire_core::{Drive, Element, Junction, Line, LineLoss, Network, Probe, ProbeKind, Shunt, Side, MAX_PROBES};
+use tidewire_core::{
+    Drive, Element, ElementKind, Junction, Line, LineLoss, Network, Probe, ProbeKind, Shunt, Side, MAX_LOSS_SECTIONS,
+    MAX_PROBES,
+};
 
 /// A network with owned tables.
 #[derive(Debug, Clone)]
@@ -63,18 +66,25 @@ const DROP_OHMS: [u32; 5] = [75, 120, 50, 90, 150];
 /// Delay of the last trunk line into the far-end termination.
 const END_DELAY: u32 = 37;
 
-/// A field bus: a 100 Ω trunk from a 50 Ω source, `taps` taps, a 300 Ω far end.
+/// A field bus as real plants are built: a 100 Ω trunk from a **rig port** (latency 2
+/// samples) into a 300 Ω far end, `taps` taps, and what real plants use on the way.
 ///
-/// Each tap adds 3 lines (6 ports): two trunk halves joined by a 1.5 Ω series junction (the
-/// lumped conductor resistance of that span), then a tap node with a drop line whose far end
-/// is, in turn, matched, open, 10 Ω, shorted, or twice its impedance. The last trunk line
-/// adds 2 ports, so `taps` = 0, 1, 5 give 2, 8 and 32 ports.
+/// Each tap adds two trunk halves joined by a series junction, a tap node and a drop line
+/// whose far end is, in turn: matched; a receiver's input capacitance (a bilinear capacitor
+/// element, one more port); 10 Ω; shorted; an AC termination R + C (an element with a series
+/// resistor, one more port). The series junction is the lumped conductor resistance (1.5 Ω),
+/// except at every third tap a choke (a series inductor of port resistance 200 Ω with its
+/// 1.5 Ω winding resistance). The first trunk line and every drop line carry a loss filter
+/// (two first-order sections). Ports: 2 + 6 per tap + elements, so `taps` = 0, 1, 5 give 2, 9
+/// and 34 ports; [`test_plants`] adds larger ones.
 pub fn bus(name: &str, taps: usize, io_shift: u8) -> TestPlant {
     const MOHM: u32 = 1000;
     let trunk_z = 100 * MOHM;
     let mut lines = Vec::new();
     let mut junctions = vec![Junction::Node { shunt: Shunt::Open }];
     let mut probes = vec![Probe { kind: ProbeKind::Current, line: 0, side: Side::A }];
+    let mut elements = Vec::new();
+    let mut losses = vec![loss(0)];
     let mut at: u16 = 0; // the trunk node the next segment starts from
     fn add_junction(junctions: &mut Vec<Junction>, j: Junction) -> u16 {
         junctions.push(j);
@@ -82,20 +92,42 @@ pub fn bus(name: &str, taps: usize, io_shift: u8) -> TestPlant {
     }
     for t in 0..taps {
         let d = |k: usize| TRUNK_DELAYS[k % TRUNK_DELAYS.len()];
-        let series = add_junction(&mut junctions, Junction::Series { milliohm: 1500 });
+        let joint = if t % 3 == 2 {
+            Junction::SeriesInductor { port_milliohm: 200 * MOHM, milliohm: 1500 }
+        } else {
+            Junction::Series { milliohm: 1500 }
+        };
+        let series = add_junction(&mut junctions, joint);
         lines.push(Line { z_milliohm: trunk_z, delay: d(2 * t), a: at, b: series });
         let tap = add_junction(&mut junctions, Junction::Node { shunt: Shunt::Open });
         lines.push(Line { z_milliohm: trunk_z, delay: d(2 * t + 1), a: series, b: tap });
         let z = DROP_OHMS[t % 5] * MOHM;
         let end = match t % 5 {
             0 => Shunt::Resistor { milliohm: z },
-            1 => Shunt::Open,
             2 => Shunt::Resistor { milliohm: 10 * MOHM },
             3 => Shunt::Short,
-            _ => Shunt::Resistor { milliohm: 2 * z },
+            _ => Shunt::Open,
         };
         let drop_end = add_junction(&mut junctions, Junction::Node { shunt: end });
+        match t % 5 {
+            // Receiver input capacitance: port resistance T/(2C) = 250 Ω.
+            1 => elements.push(Element {
+                junction: drop_end,
+                kind: ElementKind::Capacitor,
+                port_milliohm: 250 * MOHM,
+                series_milliohm: 0,
+            }),
+            // AC termination: the drop's impedance in series with a capacitor of port 50 Ω.
+            4 => elements.push(Element {
+                junction: drop_end,
+                kind: ElementKind::Capacitor,
+                port_milliohm: 50 * MOHM,
+                series_milliohm: z,
+            }),
+            _ => {}
+        }
         lines.push(Line { z_milliohm: z, delay: DROP_DELAYS[t % 5], a: tap, b: drop_end });
+        losses.push(loss((lines.len() - 1) as u16));
         if probes.len() < MAX_PROBES - 1 {
             probes.push(Probe { kind: ProbeKind::Voltage, line: (lines.len() - 1) as u16, side: Side::B });
         }
@@ -108,13 +140,26 @@ pub fn bus(name: &str, taps: usize, io_shift: u8) -> TestPlant {
         name: name.into(),
         lines,
         junctions,
-        elements: Vec::new(),
-        losses: Vec::new(),
-        drive: Drive::Source { junction: 0, milliohm: 50 * MOHM },
+        elements,
+        losses,
+        drive: Drive::Rig { junction: 0, latency: 2 },
         probes,
         io_shift,
         volts_per_code: 1.0 / 4096.0,
     }
+}
+
+/// A two-section loss filter for `line` (poles and zeros in Q30: a gentle high-frequency
+/// roll-off of the kind the compiler fits to a cable's skin-effect loss).
+fn loss(line: u16) -> LineLoss {
+    let q30 = |x: f64| (x * (1u64 << 30) as f64) as i64;
+    let mut poles = [0u32; MAX_LOSS_SECTIONS];
+    let mut zeros = [0i32; MAX_LOSS_SECTIONS];
+    poles[0] = q30(0.60) as u32;
+    zeros[0] = q30(0.55) as i32;
+    poles[1] = q30(0.90) as u32;
+    zeros[1] = q30(0.88) as i32;
+    LineLoss { line, sections: 2, poles, zeros }
 }
 
 /// The profiles a plant is generated for, with the `io_shift` each one uses.
@@ -124,11 +169,13 @@ pub const PROFILES: [(&str, u8); 2] = [("wide", 4), ("narrow", 0)];
 pub fn test_plants(profile: &str, io_shift: u8) -> Vec<TestPlant> {
     // A host-compiled plant goes here as well, e.g.
     // `TestPlant::from_network(&format!("c_{profile}"), &compiled.network())`.
-    [0usize, 1, 5]
+    // 2, 9 and 34 ports on both parts, 86 ports on the M4 only (see `gen::fits_m0`).
+    [0usize, 1, 5, 13]
         .iter()
         .map(|&taps| {
-            let ports = 2 + 6 * taps;
-            bus(&format!("p{ports}_{profile}"), taps, io_shift)
+            let mut p = bus("", taps, io_shift);
+            p.name = format!("p{}_{profile}", p.ports());
+            p
         })
         .collect()
 }

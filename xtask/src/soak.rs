@@ -7,7 +7,12 @@ use std::process::Command;
 use std::time::{Duration, Instant};
 
 /// (package, test target) of every property suite.
-const SUITES: [(&str, &str); 2] = [("tidewire-core", "passivity"), ("tidewire-host", "image_loader")];
+const SUITES: [(&str, &str); 4] = [
+    ("tidewire-core", "passivity"),
+    ("tidewire-core", "loader"),
+    ("tidewire-core", "oracle"),
+    ("tidewire-host", "image_loader"),
+];
 
 pub fn soak(args: &[&str]) -> Result<(), String> {
     let mut cases: u64 = 20_000;

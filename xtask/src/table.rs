@@ -13,7 +13,11 @@ use crate::run::Report;
 /// One line of the table.
 pub struct Row {
     part: &'static str,
+    machine: &'static str,
     profile: String,
+    /// `generic` (the data-driven solver) or `specialised`.
+    form: &'static str,
+    junctions: usize,
     plant: String,
     ports: usize,
     ram: u32,
@@ -68,7 +72,10 @@ pub fn row(part: &Part, profile: &str, plant: &TestPlant, coarse: &Report, fine:
     let ports = plant.ports();
     Ok(Row {
         part: part.name,
+        machine: part.machine,
         profile: profile.to_string(),
+        form: "generic",
+        junctions: plant.junctions.len(),
         plant: plant.name.clone(),
         ports,
         ram: coarse.ram.get(&(profile.to_string(), plant.name.clone())).copied().unwrap_or(0),
@@ -86,13 +93,14 @@ pub fn print(rows: &[Row], clocks: &[(&str, f64)]) {
         println!("{part}: SysTick measured at {:.4} MHz (calibration loop, -icount shift=0)", hz / 1e6);
     }
     println!();
-    println!("| part | profile | plant | ports | solver RAM (B) | instr/sample | instr/port-update | stimuli equal (shift 0) | seed1 − seed0 instr (shift 6) |");
-    println!("|---|---|---|---:|---:|---:|---:|---|---:|");
+    println!("| part | profile | form | plant | ports | solver RAM (B) | instr/sample | instr/port-update | stimuli equal (shift 0) | seed1 − seed0 instr (shift 6) |");
+    println!("|---|---|---|---|---:|---:|---:|---:|---|---:|");
     for r in rows {
         println!(
-            "| {} | {} | {} | {} | {} | {:.1} | {:.2} | {} | {:.1} |",
+            "| {} | {} | {} | {} | {} | {} | {:.1} | {:.2} | {} | {:.1} |",
             r.part,
             r.profile,
+            r.form,
             r.plant,
             r.ports,
             r.ram,
@@ -106,4 +114,31 @@ pub fn print(rows: &[Row], clocks: &[(&str, f64)]) {
         "\n({} samples per timed block from rest; the stimulus loop alone is subtracted)",
         rows.first().map_or(0, |r| r.samples)
     );
+}
+
+/// The rows as the figures file stores them.
+pub fn figures(rows: &[Row]) -> crate::figures::Figures {
+    crate::figures::Figures {
+        command: "cargo run -p xtask -- firmware".into(),
+        method: "QEMU -icount shift=0, SysTick around 1024-sample blocks from rest, the stimulus loop \
+                 subtracted; data independence at -icount shift=6 (docs/firmware.md)"
+            .into(),
+        rows: rows
+            .iter()
+            .map(|r| crate::figures::FigureRow {
+                part: r.part.into(),
+                machine: r.machine.into(),
+                profile: r.profile.clone(),
+                form: r.form.into(),
+                plant: r.plant.clone(),
+                ports: r.ports,
+                junctions: r.junctions,
+                solver_ram_bytes: r.ram,
+                instructions_per_sample: (r.per_sample * 10.0).round() / 10.0,
+                instructions_per_port_update: (r.per_port * 100.0).round() / 100.0,
+                stimuli_equal: r.equal_coarse,
+                stimulus_difference: (r.fine_diff * 10.0).round() / 10.0,
+            })
+            .collect(),
+    }
 }

@@ -63,9 +63,9 @@ pub fn time_baseline(syst: &mut SYST, seed: u32) -> u32 {
 
 /// Ticks of `TIMED` calls of `step` (plus the stimulus loop) from rest.
 #[inline(never)]
-fn time_steps<P: Profile, const PO: usize, const J: usize, const M: usize>(
+fn time_steps<P: Profile, const PO: usize, const J: usize, const M: usize, const L: usize>(
     syst: &mut SYST,
-    solver: &mut Solver<P, PO, J, M>,
+    solver: &mut Solver<P, PO, J, M, L>,
     seed: u32,
 ) -> u32 {
     solver.reset();
@@ -86,8 +86,8 @@ fn time_steps<P: Profile, const PO: usize, const J: usize, const M: usize>(
 /// `Solver::load`, out of line: its temporaries (on the M0 several KB) live in this frame
 /// only while loading, not in `run_plant`'s for the whole run.
 #[inline(never)]
-fn load<P: Profile, const PO: usize, const J: usize, const M: usize>(
-    solver: &mut Solver<P, PO, J, M>,
+fn load<P: Profile, const PO: usize, const J: usize, const M: usize, const L: usize>(
+    solver: &mut Solver<P, PO, J, M, L>,
     net: &Network<'static>,
 ) -> bool {
     solver.load(net).is_ok()
@@ -95,8 +95,8 @@ fn load<P: Profile, const PO: usize, const J: usize, const M: usize>(
 
 /// `Solver::load_image`, out of line for the same reason (the decoded network is a local).
 #[inline(never)]
-fn load_image<P: Profile, const PO: usize, const J: usize, const M: usize>(
-    solver: &mut Solver<P, PO, J, M>,
+fn load_image<P: Profile, const PO: usize, const J: usize, const M: usize, const L: usize>(
+    solver: &mut Solver<P, PO, J, M, L>,
     image: &[u8],
 ) -> bool {
     solver.load_image(image).is_ok()
@@ -104,7 +104,7 @@ fn load_image<P: Profile, const PO: usize, const J: usize, const M: usize>(
 
 /// Run one plant: hashes from both load paths, then timings. Returns false on a load error.
 #[inline(never)]
-pub fn run_plant<P: Profile, const PO: usize, const J: usize, const M: usize>(
+pub fn run_plant<P: Profile, const PO: usize, const J: usize, const M: usize, const L: usize>(
     syst: &mut SYST,
     out: &mut Out,
     profile: &str,
@@ -113,8 +113,8 @@ pub fn run_plant<P: Profile, const PO: usize, const J: usize, const M: usize>(
     image: &[u8],
 ) -> bool {
     // On the stack: the frame is given back before the next plant runs.
-    let mut solver: Solver<P, PO, J, M> = Solver::new();
-    out.str("RAM").word(profile).word(name).hex(core::mem::size_of::<Solver<P, PO, J, M>>() as u32).nl();
+    let mut solver: Solver<P, PO, J, M, L> = Solver::new();
+    out.str("RAM").word(profile).word(name).hex(core::mem::size_of::<Solver<P, PO, J, M, L>>() as u32).nl();
     for from_image in [false, true] {
         let source = if from_image { "image" } else { "source" };
         let ok = if from_image { load_image(&mut solver, image) } else { load(&mut solver, net) };

@@ -49,7 +49,13 @@ pub extern "Rust" fn tidewire_firmware_panic_is_reachable() -> ! {
 /// Run one generated plant module `$m` on profile `$p` (`Wide` or `Narrow`).
 macro_rules! run {
     ($syst:ident, $out:ident, $ok:ident, $p:ident, $m:ident, $name:literal) => {
-        $ok &= bench::run_plant::<$p, { plants::$m::PORTS }, { plants::$m::JUNCTIONS }, { plants::$m::MEMORY }>(
+        $ok &= bench::run_plant::<
+            $p,
+            { plants::$m::PORTS },
+            { plants::$m::JUNCTIONS },
+            { plants::$m::MEMORY },
+            { plants::$m::LOSS_ENDS },
+        >(
             &mut $syst,
             &mut $out,
             stringify!($p),

@@ -73,8 +73,8 @@ impl Fnv {
 }
 
 /// Reset `solver`, run the stimulus of `seed` through it and hash every output sample.
-pub fn run_hashed<P: Profile, const PO: usize, const J: usize, const M: usize>(
-    solver: &mut Solver<P, PO, J, M>,
+pub fn run_hashed<P: Profile, const PO: usize, const J: usize, const M: usize, const L: usize>(
+    solver: &mut Solver<P, PO, J, M, L>,
     seed: u32,
     len: u32,
 ) -> u32 {

@@ -1,52 +1,135 @@
-//! Sample budget on microcontrollers, from measured instruction counts.
+//! Sample budget on microcontrollers, from the measured instruction counts in
+//! `docs/firmware-figures.json` (written by `cargo run -p xtask -- firmware`; QEMU with
+//! `-icount shift=0`, one instruction per virtual nanosecond, see docs/firmware.md). Nothing
+//! here is copied by hand: the file is embedded at build time and fitted here.
 //!
-//! The counts come from `cargo run -p xtask -- firmware` (QEMU with `-icount shift=0`,
-//! one instruction per virtual nanosecond; see docs/firmware.md). Instructions per sample
-//! ≈ PER_PORT · ports + PER_JUNCTION · junctions + BASE; at one instruction per cycle a
-//! part at clock f sustains f / instructions samples per second (an upper bound: wait
-//! states and the rig's own I/O come on top).
+//! Model: instructions per sample ≈ per_port · ports + base, a least-squares line through the
+//! measured plants of one part, profile and form (the test plants have about one junction per
+//! two ports, so the junction cost is folded into the per-port figure). At one instruction per
+//! cycle a part at clock f sustains f / instructions samples per second: an upper bound, wait
+//! states and the rig's own I/O come on top.
 
-/// A part class: name, clock the budget is stated at, and its measured cost model
-/// (instructions per port update, per junction, per sample), or `None` if not measured.
-pub struct Part {
-    pub name: &'static str,
-    pub clock_hz: f64,
-    pub cost: Option<(f64, f64, f64)>,
+use serde::Deserialize;
+
+/// The figures file, as the firmware run wrote it.
+const FIGURES: &str = include_str!("../../../docs/firmware-figures.json");
+
+#[derive(Deserialize)]
+struct Figures {
+    rows: Vec<Row>,
 }
 
-/// The two part classes the core targets. Costs: straight-line fits through the measured
-/// instructions per sample of the xtask's bus plants (2, 8, 32 ports; about one junction per
-/// two ports, so the junction cost is folded into the per-port figure), from
-/// `cargo run -p xtask -- firmware` on 2026-12-02: M0 narrow 415.0 / 1098.5 / 3610.0
-/// instructions at 2 / 8 / 32 ports, M4 wide 425 / 1095 / 3591.
+#[derive(Deserialize)]
+struct Row {
+    part: String,
+    machine: String,
+    profile: String,
+    form: String,
+    ports: usize,
+    instructions_per_sample: f64,
+}
+
+/// A part class the budget is stated for: the figures' part, profile and form, and the clock
+/// assumed for a typical member of the class (not measured: QEMU counts instructions).
+pub struct Part {
+    pub name: &'static str,
+    /// `part` in the figures file.
+    pub figures_part: &'static str,
+    pub profile: &'static str,
+    pub form: &'static str,
+    pub clock_hz: f64,
+}
+
+/// The two part classes the core targets, with the clock assumed for each [practice].
 pub const PARTS: [Part; 2] = [
-    Part { name: "Cortex-M0 class (narrow profile)", clock_hz: 48e6, cost: Some((104.6, 0.0, 261.5)) },
-    Part { name: "Cortex-M4 class (wide profile)", clock_hz: 168e6, cost: Some((104.0, 0.0, 263.0)) },
+    Part { name: "Cortex-M0 class", figures_part: "M0", profile: "narrow", form: "generic", clock_hz: 48e6 },
+    Part { name: "Cortex-M4 class", figures_part: "M4", profile: "wide", form: "generic", clock_hz: 168e6 },
 ];
 
-/// One line per part: instructions per sample, the largest sample rate, and how that
-/// compares with the plant's own sample rate `fs`.
-pub fn budgets(ports: usize, junctions: usize, fs: f64) -> Vec<String> {
+/// Least-squares (per_port, base, machine, largest measured plant) for one part, profile and
+/// form, or `None` if the figures hold fewer than two plants of it.
+fn fit(part: &Part) -> Option<(f64, f64, String, usize)> {
+    let figs: Figures = serde_json::from_str(FIGURES).ok()?;
+    let rows: Vec<&Row> = figs
+        .rows
+        .iter()
+        .filter(|r| r.part == part.figures_part && r.profile == part.profile && r.form == part.form)
+        .collect();
+    if rows.len() < 2 {
+        return None;
+    }
+    let n = rows.len() as f64;
+    let (sx, sy) = rows.iter().fold((0.0, 0.0), |(sx, sy), r| (sx + r.ports as f64, sy + r.instructions_per_sample));
+    let (mx, my) = (sx / n, sy / n);
+    let sxx: f64 = rows.iter().map(|r| (r.ports as f64 - mx).powi(2)).sum();
+    let sxy: f64 = rows.iter().map(|r| (r.ports as f64 - mx) * (r.instructions_per_sample - my)).sum();
+    if sxx == 0.0 {
+        return None;
+    }
+    let slope = sxy / sxx;
+    let largest = rows.iter().map(|r| r.ports).max().unwrap_or(0);
+    Some((slope, my - slope * mx, rows[0].machine.clone(), largest))
+}
+
+/// Instructions per sample for a network of `ports` line ends on `part`, from the fit to the
+/// figures file; `None` if the figures do not hold that part, profile and form.
+pub fn instructions_per_sample(part: &Part, ports: usize) -> Option<f64> {
+    fit(part).map(|(per_port, base, _, _)| per_port * ports as f64 + base)
+}
+
+/// One line per part: what it assumes (part, profile, form, clock), instructions per sample,
+/// the largest sample rate, and how that compares with the plant's own sample rate `fs`.
+pub fn budgets(ports: usize, _junctions: usize, fs: f64) -> Vec<String> {
     PARTS
         .iter()
-        .map(|p| match p.cost {
-            Some((per_port, per_junction, base)) => {
-                let instr = per_port * ports as f64 + per_junction * junctions as f64 + base;
-                let rate = p.clock_hz / instr;
-                let verdict = if rate >= fs {
-                    "real time".to_string()
-                } else {
-                    format!("{:.0}x slower than real time at this plant's rate", fs / rate)
-                };
-                format!(
-                    "{} at {:.0} MHz: about {:.0} instructions per sample, at most {:.1} kS/s ({verdict})",
-                    p.name,
-                    p.clock_hz / 1e6,
-                    instr,
-                    rate / 1e3
-                )
+        .map(|p| {
+            let what = format!("{} at {:.0} MHz ({} profile, {} form)", p.name, p.clock_hz / 1e6, p.profile, p.form);
+            match fit(p) {
+                Some((per_port, base, machine, largest)) => {
+                    let instr = per_port * ports as f64 + base;
+                    let rate = p.clock_hz / instr;
+                    let verdict = if rate >= fs {
+                        "real time".to_string()
+                    } else {
+                        format!("{:.0}x slower than real time at this plant's rate", fs / rate)
+                    };
+                    let beyond = if ports > largest {
+                        format!(", extrapolated beyond the {largest}-port plant measured")
+                    } else {
+                        String::new()
+                    };
+                    format!(
+                        "{what}: about {instr:.0} instructions per sample, at most {:.1} kS/s ({verdict}); \
+                         counts from docs/firmware-figures.json, {} on QEMU {machine}{beyond}",
+                        rate / 1e3,
+                        p.figures_part
+                    )
+                }
+                None => format!("{what}: not in docs/firmware-figures.json"),
             }
-            None => format!("{} at {:.0} MHz: not measured yet", p.name, p.clock_hz / 1e6),
         })
         .collect()
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    /// The fit reproduces every measured plant it was fitted to within 10 % (the cost is close
+    /// to linear in the ports), and the budget names part, clock, profile and form.
+    #[test]
+    fn budget_follows_the_figures_file() {
+        let figs: Figures = serde_json::from_str(FIGURES).unwrap();
+        for p in &PARTS {
+            let (per_port, base, _, _) = fit(p).expect("the figures hold this part");
+            for r in figs.rows.iter().filter(|r| r.part == p.figures_part && r.profile == p.profile && r.form == p.form)
+            {
+                let model = per_port * r.ports as f64 + base;
+                assert!((model / r.instructions_per_sample - 1.0).abs() < 0.10, "{} {} ports", p.name, r.ports);
+            }
+        }
+        let lines = budgets(32, 16, 100e6);
+        assert!(lines[1].contains("Cortex-M4 class at 168 MHz (wide profile, generic form)"), "{}", lines[1]);
+        assert!(lines[0].contains("Cortex-M0 class at 48 MHz (narrow profile, generic form)"), "{}", lines[0]);
+    }
 }

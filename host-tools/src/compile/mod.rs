@@ -17,6 +17,7 @@
 //!
 //! This is a pure stage: it imports neither the twin nor the host core runner, and runs
 //! nothing. Every figure that needs a run is the analysis stage's.
+mod core_check;
 mod loads;
 pub mod loss;
 mod report;
@@ -334,6 +335,7 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
         probe_names,
         report: Report { segments: report_segments, ..Report::default() },
     };
+    core_check::check(&compiled, plant, file)?;
     report::fill(&mut compiled, plant);
     Ok(compiled)
 }

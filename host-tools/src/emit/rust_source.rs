@@ -40,7 +40,8 @@ pub fn capacities(net: &Network<'_>) -> (usize, usize, usize) {
 }
 
 /// Rust source defining `pub static NETWORK: Network<'static>` and the capacities
-/// `PORTS`, `JUNCTIONS`, `MEMORY` for `Solver<_, PORTS, JUNCTIONS, MEMORY>`.
+/// `PORTS`, `JUNCTIONS`, `MEMORY`, `LOSS_ENDS` for
+/// `Solver<_, PORTS, JUNCTIONS, MEMORY, LOSS_ENDS>`.
 pub fn rust_source(net: &Network<'_>, title: &str) -> String {
     let mut s = String::new();
     let (ports, juncs, mem) = capacities(net);
@@ -50,7 +51,12 @@ pub fn rust_source(net: &Network<'_>, title: &str) -> String {
     let _ = writeln!(s, "use tidewire_core::{{Drive, Element, ElementKind, Junction, Line, LineLoss, Network, Probe, ProbeKind, Shunt, Side}};\n");
     let _ = writeln!(s, "/// Line ends a solver needs.\npub const PORTS: usize = {ports};");
     let _ = writeln!(s, "/// Junctions a solver needs.\npub const JUNCTIONS: usize = {juncs};");
-    let _ = writeln!(s, "/// Delay storage (waves) a solver needs.\npub const MEMORY: usize = {mem};\n");
+    let _ = writeln!(s, "/// Delay storage (waves) a solver needs.\npub const MEMORY: usize = {mem};");
+    let _ = writeln!(
+        s,
+        "/// Line ends with a loss filter a solver needs (its `LOSSES`).\npub const LOSS_ENDS: usize = {};\n",
+        2 * net.losses.len()
+    );
     let _ = writeln!(s, "static LINES: [Line; {}] = [", net.lines.len());
     for l in net.lines {
         let _ = writeln!(s, "    Line {{ z_milliohm: {}, delay: {}, a: {}, b: {} }},", l.z_milliohm, l.delay, l.a, l.b);

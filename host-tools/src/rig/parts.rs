@@ -3,7 +3,7 @@
 //! instructions per port update are the measured cost models of `analysis::budget::PARTS`
 //! (from `cargo run -p xtask -- firmware`), not copies of them.
 
-use crate::analysis::budget::{Part as CostClass, PARTS as COST_CLASSES};
+use crate::analysis::budget::{instructions_per_sample, PARTS as COST_CLASSES};
 use crate::compile::ProfileKind;
 
 /// One part.
@@ -28,15 +28,11 @@ pub struct RigPart {
 }
 
 impl RigPart {
-    /// The measured cost model: instructions per sample = per_port · ports + per_junction ·
-    /// junctions + base.
-    pub fn cost(&self) -> Option<(f64, f64, f64)> {
-        COST_CLASSES.get(self.cost).and_then(|c: &CostClass| c.cost)
-    }
-
-    /// Instructions per sample for a network of `ports` line ends and `junctions` junctions.
-    pub fn instructions(&self, ports: usize, junctions: usize) -> Option<f64> {
-        self.cost().map(|(p, j, b)| p * ports as f64 + j * junctions as f64 + b)
+    /// Instructions per sample for a network of `ports` line ends (the measured cost model of
+    /// the part's class: a least-squares line through the firmware figures; the junctions are
+    /// folded into the per-port cost there).
+    pub fn instructions(&self, ports: usize, _junctions: usize) -> Option<f64> {
+        COST_CLASSES.get(self.cost).and_then(|c| instructions_per_sample(c, ports))
     }
 }
 

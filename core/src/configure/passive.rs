@@ -1,0 +1,76 @@
+//! The last phase of `load` (and of `set_shunt`): every quantized junction is checked to be
+//! passive, from its integer coefficients, instead of being assumed so from how they were
+//! computed. A network that fails is refused ([`crate::BuildError::NotPassive`]).
+//!
+//! Conditions, per junction kind (waves a, b; weights g; with E = 0 the source is a port of
+//! weight g_src):
+//! * **node**: every port weight g_k >= 1; Σ g_k + g_src <= 2^WEIGHT_BITS (the accumulator
+//!   2·Σ g_k·b_k + g_src·e is exact and |v| < 2·max|b|); total >= Σ g_k + g_src (the shunt
+//!   conductance is >= 0, which is exactly the condition for Σ g_k·a_k² <= Σ g_k·b_k² of the
+//!   exact node); total <= `TOTAL_MAX`; and the reciprocal is the one [`reciprocal`] gives
+//!   for that total (rounded down and normalized, the premise of the two-step exact
+//!   division). Then every a_k is the exact value truncated toward zero, so the quantized
+//!   node is passive too.
+//! * **series** (equal impedances): 0 <= c <= 1, since a1² + a2² = b1² + b2² − 2c(1 − c)·x².
+//! * **series inductor**: c + rho <= 1 (the three-port series adaptor with a non-negative
+//!   extra resistance).
+//! * **element adaptor**: 0 <= μ <= 1.
+//! * **loss section**: 0 < a < 1, g > 0, −g <= gb, gb/g < a (effective zero below the pole)
+//!   and g − gb <= 1 − a (DC gain <= 1): then |H(e^jω)| falls monotonically from H(1) <= 1.
+
+use crate::network::MAX_LOSS_SECTIONS;
+use crate::profile::{reciprocal, Profile};
+use crate::solver::{JunctionRt, LossRt};
+
+/// A node record with the sum and smallest of its port weights (without the source).
+pub(crate) fn node_ok<P: Profile>(rt: &JunctionRt, port_sum: u64, port_min: u64) -> bool {
+    let JunctionRt::Node { g_src, g_ports, recip, shift, total, mode, short, broken, .. } = *rt else {
+        return false;
+    };
+    let Some(with_src) = port_sum.checked_add(u64::from(g_src)) else {
+        return false;
+    };
+    let coefficients = port_min >= 1
+        && with_src == g_ports
+        && with_src <= 1u64 << P::WEIGHT_BITS
+        && total >= with_src
+        && total <= P::TOTAL_MAX;
+    let division = short || reciprocal(total, P::RECIP_BITS) == Some((recip, shift));
+    let mode_ok = mode == super::mode_of(short, broken);
+    coefficients && division && mode_ok
+}
+
+/// A series, series-inductor or rig record.
+pub(crate) fn two_port_ok<P: Profile>(rt: &JunctionRt) -> bool {
+    match *rt {
+        JunctionRt::Series { c, .. } => u64::from(c) <= 1u64 << P::SERIES_FRAC,
+        JunctionRt::SeriesL { c, rho, .. } => u64::from(c).saturating_add(u64::from(rho)) <= 1u64 << P::CHOKE_FRAC,
+        JunctionRt::Rig { .. } => true,
+        JunctionRt::Node { .. } | JunctionRt::Unused => false,
+    }
+}
+
+/// A reactive element's adaptor coefficient.
+pub(crate) fn element_ok<P: Profile>(mu: u32) -> bool {
+    u64::from(mu) <= 1u64 << P::SERIES_FRAC
+}
+
+/// Every section of one loss filter.
+pub(crate) fn loss_ok<P: Profile>(l: &LossRt<P::Wave>) -> bool {
+    let one = 1i64 << P::LOSS_FRAC;
+    let n = (l.sections as usize).min(MAX_LOSS_SECTIONS);
+    l.sections as usize == n
+        && n >= 1
+        && l.g.iter().zip(l.gb.iter()).zip(l.a.iter()).take(n).all(|((g, gb), a)| {
+            let (g, gb, a) = (i64::from(*g), i64::from(*gb), i64::from(*a));
+            // Every operand is a u32 or i32, so each product is < 2^62 and each difference
+            // < 2^33: exact in i64 (saturating only to satisfy the lint).
+            a > 0
+                && a < one
+                && g > 0
+                && g <= one
+                && gb >= g.saturating_neg()
+                && gb.saturating_mul(one) < a.saturating_mul(g)
+                && g.saturating_sub(gb) <= one.saturating_sub(a)
+        })
+}

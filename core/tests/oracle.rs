@@ -1,0 +1,207 @@
+//! Exact oracles for every fixed-point operation of both profiles: each operation's result is
+//! compared with the same formula evaluated in i128 (no overflow possible), over random
+//! inputs covering the operation's whole documented range. This is the check that the
+//! double-width arithmetic is exact where the docs say so, and that every outgoing quantity
+//! is its exact value truncated toward zero, then saturated.
+
+use proptest::prelude::*;
+use tidewire_core::configure::quantize_loss_section;
+use tidewire_core::profile::reciprocal;
+use tidewire_core::{Narrow, Profile, Wide};
+
+fn config() -> ProptestConfig {
+    // `PROPTEST_CASES` (the soak command) raises the count.
+    let cases = std::env::var("PROPTEST_CASES").ok().and_then(|c| c.parse().ok()).unwrap_or(2048);
+    ProptestConfig { cases, ..ProptestConfig::default() }
+}
+
+/// Largest and smallest wave of profile P.
+fn wave_range<P: Profile>() -> (i128, i128) {
+    (P::wave_from_i32(i32::MIN).into() as i128, P::wave_from_i32(i32::MAX).into() as i128)
+}
+
+/// A wave from a uniform u32 spread over the profile's whole range.
+fn wave<P: Profile>(u: u32) -> P::Wave {
+    let (lo, hi) = wave_range::<P>();
+    let span = (hi - lo + 1) as u128;
+    P::wave_from_i32((lo + (u as u128 % span) as i128) as i32)
+}
+
+fn w<P: Profile>(x: P::Wave) -> i128 {
+    x.into() as i128
+}
+
+/// trunc(n / 2^f) toward zero, then saturated to the profile's wave range.
+fn trunc_sat<P: Profile>(n: i128, f: u32) -> i128 {
+    let (lo, hi) = wave_range::<P>();
+    (n / (1i128 << f)).clamp(lo, hi)
+}
+
+fn check_series<P: Profile>(u1: u32, u2: u32, c: u64) -> Result<(), TestCaseError> {
+    let c = (c % ((1u64 << P::SERIES_FRAC) + 1)) as u32;
+    let (b1, b2) = (wave::<P>(u1), wave::<P>(u2));
+    let (a1, a2) = P::series(b1, b2, c);
+    let x = w::<P>(b1) - w::<P>(b2);
+    let f = P::SERIES_FRAC;
+    prop_assert_eq!(w::<P>(a1), trunc_sat::<P>((w::<P>(b1) << f) - c as i128 * x, f));
+    prop_assert_eq!(w::<P>(a2), trunc_sat::<P>((w::<P>(b2) << f) + c as i128 * x, f));
+    Ok(())
+}
+
+fn check_series_l<P: Profile>(u: [u32; 3], c: u64, rho: u64) -> Result<(), TestCaseError> {
+    let one = 1u64 << P::CHOKE_FRAC;
+    let c = c % (one + 1);
+    let rho = rho % (one - c + 1); // c + rho <= 1
+    let (b1, b2, s) = (wave::<P>(u[0]), wave::<P>(u[1]), wave::<P>(u[2]));
+    let (a1, a2, s2) = P::series_l(b1, b2, s, c as u32, rho as u32);
+    let f = P::CHOKE_FRAC;
+    let y = c as i128 * (w::<P>(b1) - w::<P>(b2)) + rho as i128 * w::<P>(s);
+    prop_assert_eq!(w::<P>(a1), trunc_sat::<P>((w::<P>(b1) << f) - y, f));
+    prop_assert_eq!(w::<P>(a2), trunc_sat::<P>((w::<P>(b2) << f) + y, f));
+    prop_assert_eq!(w::<P>(s2), trunc_sat::<P>(2 * y - (w::<P>(s) << f), f));
+    Ok(())
+}
+
+fn check_adapt<P: Profile>(u1: u32, u2: u32, mu: u64, negate: bool) -> Result<(), TestCaseError> {
+    let mu = (mu % ((1u64 << P::SERIES_FRAC) + 1)) as u32;
+    let (b, a) = (wave::<P>(u1), wave::<P>(u2));
+    let got = P::adapt(b, a, mu, negate);
+    let f = P::SERIES_FRAC;
+    let m = ((w::<P>(b) << f) + mu as i128 * (w::<P>(a) - w::<P>(b))) / (1i128 << f);
+    let (lo, hi) = wave_range::<P>();
+    prop_assert_eq!(w::<P>(got), (if negate { -m } else { m }).clamp(lo, hi));
+    Ok(())
+}
+
+fn check_loss<P: Profile>(pole: u32, zero_frac: f64, u: [u32; 3]) -> Result<(), TestCaseError> {
+    let pole = pole % (1 << 30);
+    let zero = ((pole as f64) * (2.0 * zero_frac - 1.0)) as i32;
+    let Some((g, gb, a)) = quantize_loss_section::<P>(pole, zero) else {
+        return Ok(()); // refused by the loader; not an input of the per-sample path
+    };
+    let (x, x1, y1) = (wave::<P>(u[0]), wave::<P>(u[1]), wave::<P>(u[2]));
+    let y = P::loss_section(x, x1, y1, g, gb, a);
+    let n = g as i128 * w::<P>(x) - gb as i128 * w::<P>(x1) + a as i128 * w::<P>(y1);
+    prop_assert_eq!(w::<P>(y), trunc_sat::<P>(n, P::LOSS_FRAC));
+    Ok(())
+}
+
+/// A node: up to 8 ports, weights with Σ g + g_src <= 2^WEIGHT_BITS, a total between that sum
+/// and `TOTAL_MAX` (a shunt of any strength), any waves and source EMF.
+fn check_node<P: Profile>(
+    ports: &[(u32, u32)],
+    src: (u32, u32),
+    shunt: u64,
+    strong: bool,
+) -> Result<(), TestCaseError> {
+    let budget = 1u64 << P::WEIGHT_BITS;
+    let n = ports.len() as u64 + 1;
+    // Weights split the budget among ports and source at random, each >= 1.
+    let share = (budget / n).max(1);
+    let g: Vec<u32> = ports.iter().map(|(gu, _)| (1 + *gu as u64 % share) as u32).collect();
+    let g_src = (src.0 as u64 % share) as u32;
+    let sum: u64 = g.iter().map(|x| *x as u64).sum::<u64>() + g_src as u64;
+    prop_assume!(sum >= 2);
+    let extra = if strong { shunt % (P::TOTAL_MAX - sum + 1) } else { shunt % (4 * sum) };
+    let total = (sum + extra).min(P::TOTAL_MAX);
+    let Some((r, s)) = reciprocal(total, P::RECIP_BITS) else {
+        return Err(TestCaseError::fail("no reciprocal"));
+    };
+    let b: Vec<P::Wave> = ports.iter().map(|(_, bu)| wave::<P>(*bu)).collect();
+    let e = wave::<P>(src.1);
+    let mut a = vec![P::ZERO; b.len()];
+    P::node_scatter(&b, &g, &mut a, e, g_src, r, s, total);
+    let num: i128 =
+        2 * b.iter().zip(&g).map(|(b, g)| w::<P>(*b) * *g as i128).sum::<i128>() + g_src as i128 * w::<P>(e);
+    let (lo, hi) = wave_range::<P>();
+    for (k, bk) in b.iter().enumerate() {
+        let want = ((num - w::<P>(*bk) * total as i128) / total as i128).clamp(lo, hi);
+        prop_assert_eq!(w::<P>(a[k]), want, "port {} of {:?}, g {:?}, total {}", k, b, g, total);
+    }
+    Ok(())
+}
+
+fn check_codes<P: Profile>(code: i16, u: u32, u2: u32, shift: u8) -> Result<(), TestCaseError> {
+    let shift = (shift % (P::MAX_IO_SHIFT + 1)) as u32;
+    let (lo, hi) = wave_range::<P>();
+    prop_assert_eq!(w::<P>(P::from_code(code, shift)), ((code as i128) << shift).clamp(lo, hi));
+    let x = u as i32;
+    let want = (x as i128 / (1i128 << shift)).clamp(i16::MIN as i128, i16::MAX as i128);
+    if P::MAX_IO_SHIFT > 0 || shift == 0 {
+        prop_assert_eq!(P::to_code(x, shift) as i128, want);
+    }
+    let (a, b) = (wave::<P>(u), wave::<P>(u2));
+    let i32r = |v: i128| v.clamp(i32::MIN as i128, i32::MAX as i128);
+    prop_assert_eq!(P::sum(a, b) as i128, i32r(w::<P>(a) + w::<P>(b)));
+    prop_assert_eq!(P::diff(a, b) as i128, i32r(w::<P>(a) - w::<P>(b)));
+    prop_assert_eq!(w::<P>(P::sub(a, b)), (w::<P>(a) - w::<P>(b)).clamp(lo, hi));
+    prop_assert_eq!(w::<P>(P::neg(a)), (-w::<P>(a)).clamp(lo, hi));
+    Ok(())
+}
+
+/// Ports (weight, wave), source (weight, EMF), shunt weight, strong shunt.
+type NodeInputs = (Vec<(u32, u32)>, (u32, u32), u64, bool);
+
+fn node_inputs() -> impl Strategy<Value = NodeInputs> {
+    (
+        proptest::collection::vec((any::<u32>(), any::<u32>()), 1..9),
+        (any::<u32>(), any::<u32>()),
+        any::<u64>(),
+        any::<bool>(),
+    )
+}
+
+proptest! {
+    #![proptest_config(config())]
+
+    #[test]
+    fn series_is_exact_then_truncated(u1: u32, u2: u32, c: u64) {
+        check_series::<Wide>(u1, u2, c)?;
+        check_series::<Narrow>(u1, u2, c)?;
+    }
+
+    #[test]
+    fn series_inductor_is_exact_then_truncated(u: [u32; 3], c: u64, rho: u64) {
+        check_series_l::<Wide>(u, c, rho)?;
+        check_series_l::<Narrow>(u, c, rho)?;
+    }
+
+    #[test]
+    fn element_adaptor_is_exact_then_truncated(u1: u32, u2: u32, mu: u64, negate: bool) {
+        check_adapt::<Wide>(u1, u2, mu, negate)?;
+        check_adapt::<Narrow>(u1, u2, mu, negate)?;
+    }
+
+    #[test]
+    fn loss_section_is_exact_then_truncated(pole: u32, zero_frac in 0.0f64..1.0, u: [u32; 3]) {
+        check_loss::<Wide>(pole, zero_frac, u)?;
+        check_loss::<Narrow>(pole, zero_frac, u)?;
+    }
+
+    #[test]
+    fn node_is_exact_then_truncated((ports, src, shunt, strong) in node_inputs()) {
+        check_node::<Wide>(&ports, src, shunt, strong)?;
+        check_node::<Narrow>(&ports, src, shunt, strong)?;
+    }
+
+    #[test]
+    fn codes_and_sums_are_exact_then_saturated(code: i16, u: u32, u2: u32, shift: u8) {
+        check_codes::<Wide>(code, u, u2, shift)?;
+        check_codes::<Narrow>(code, u, u2, shift)?;
+    }
+
+    #[test]
+    fn reciprocal_is_floor_and_normalized(t in 2u64..u64::MAX) {
+        for bits in [16u32, 32] {
+            let (r, s) = reciprocal(t, bits).unwrap();
+            if r == 0 {
+                prop_assert_eq!(s, 0);
+                continue;
+            }
+            let p = bits + s;
+            prop_assert!(r >> (bits - 1) == 1);
+            prop_assert!((r as u128) * t as u128 <= 1u128 << p);
+            prop_assert!((r as u128 + 1) * t as u128 > 1u128 << p);
+        }
+    }
+}
