@@ -10,7 +10,7 @@
 //! | 6 | 2 | flags (0; reserved) |
 //! | 8 | 4 | body length in bytes |
 //! | 12 | 4 | CRC-32 (ISO-HDLC, the common zlib/Ethernet one) of the body |
-//! | 16 | n | body: the [`Network`] in postcard encoding |
+//! | 16 | n | body: the [`Network`](crate::Network) in postcard encoding |
 //!
 //! Decoding checks everything before it builds anything: length, magic, version, CRC, then
 //! the body is decoded into fixed-capacity storage, then [`crate::Solver::load`] validates

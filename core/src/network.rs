@@ -16,7 +16,7 @@ pub type LineId = u16;
 /// A lossless transmission line: characteristic impedance and one-way delay in samples.
 ///
 /// In each direction the wave leaving one end arrives unchanged at the other end `delay`
-/// samples later: b_far[n] = a_near[n − delay] (method of characteristics).
+/// samples later: `b_far[n] = a_near[n − delay]` (method of characteristics).
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 pub struct Line {
@@ -62,8 +62,8 @@ pub enum Junction {
         milliohm: u32,
     },
     /// An inductor (a choke) in series between exactly two line ends of equal impedance,
-    /// with its winding resistance: port resistance 2L/T (bilinear transform, b[n] =
-    /// −a[n−1]) and `milliohm` in series. Three-port series adaptor: x = b1 − b2 − b_L,
+    /// with its winding resistance: port resistance 2L/T (bilinear transform, `b[n] =
+    /// −a[n−1]`) and `milliohm` in series. Three-port series adaptor: x = b1 − b2 − b_L,
     /// a1 = b1 − c·x, a2 = b2 + c·x, a_L = b_L + c_L·x with c = 2Z/ΣR, c_L = 2R_L/ΣR,
     /// ΣR = 2Z + R_L + R. The core keeps the inductor's state scaled to voltage,
     /// s = −(2Z/R_L)·b_L, so that y = c·x = c·(b1 − b2) + (R_L/ΣR)·s and s' = 2y − s.
@@ -109,9 +109,9 @@ pub const MAX_RIG_LATENCY: u16 = 63;
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[non_exhaustive]
 pub enum ElementKind {
-    /// A capacitor: port resistance T/(2C), b[n] = a[n − 1] (bilinear transform).
+    /// A capacitor: port resistance T/(2C), `b[n] = a[n − 1]` (bilinear transform).
     Capacitor,
-    /// An inductor: port resistance 2L/T, b[n] = −a[n − 1] (bilinear transform).
+    /// An inductor: port resistance 2L/T, `b[n] = −a[n − 1]` (bilinear transform).
     Inductor,
 }
 

@@ -3,7 +3,7 @@
 
 /// One loss section's coefficients at `frac` fraction bits, from its pole `a` and zero `b`
 /// in Q30 (`pole` = a·2^30, `zero` = b·2^30): returns `(a_q, g, gb)` as integers of
-/// 2^frac, the section being y[n] = g·x[n] − gb·x[n−1] + a_q·y[n−1] (all over 2^frac).
+/// 2^frac, the section being `y[n] = g·x[n] − gb·x[n−1] + a_q·y[n−1]` (all over 2^frac).
 ///
 /// * a_q = floor(a·2^frac), b_q = floor(b·2^frac): b only moves away from a;
 /// * g = floor((1 − a_q)/(1 − b_q)) and gb = ceil(g·b_q): the DC gain (g − gb)/(1 − a_q)

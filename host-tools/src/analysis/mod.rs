@@ -4,9 +4,9 @@
 //! This stage takes its output and runs things on it:
 //!
 //! * the fixed-point scale, chosen from the f64 twin's largest wave for the plant's own
-//!   drive ([`scale`]);
+//!   drive (`scale.rs`);
 //! * the DC operating point from the exact reference, and the coefficients the core really
-//!   chose, by loading the network into the host core ([`checks`]);
+//!   chose, by loading the network into the host core (`checks.rs`);
 //! * the sample budget on microcontrollers ([`budget`]);
 //! * a segment's length swept, with the host core at each length ([`sweep`]).
 //!

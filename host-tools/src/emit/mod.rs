@@ -1,6 +1,6 @@
 //! The two outputs for the core: a binary image a rig loads at run time, and Rust source
 //! with the network as a `static` for firmware that includes it at build time. Both carry
-//! the same [`Network`], so the same plant gives the same solver either way.
+//! the same [`Network`](tidewire_core::Network), so the same plant gives the same solver either way.
 mod image;
 mod rust_source;
 
