@@ -222,7 +222,7 @@ pub fn extract(cap: &Capture, opts: &Options, how: Vec<String>, out_name: &str) 
                     EndLoad::ParallelRc { r, .. } => EndLoad::ParallelRc { r, c: lc.exp() },
                     _ => EndLoad::Capacitor(lc.exp()),
                 };
-                let lc = load::golden(lo, hi, 24, |lc| match cost(&cand_lines, make(lc)) {
+                let lc = load::golden(lo, hi, 16, |lc| match cost(&cand_lines, make(lc)) {
                     Ok(e) => e,
                     Err(e) => {
                         err = Some(e);
@@ -260,7 +260,10 @@ pub fn extract(cap: &Capture, opts: &Options, how: Vec<String>, out_name: &str) 
         _ => (lines, EndLoad::Open),
     };
     // The compiler needs every segment at least half a sample long: one layer.
-    let refined = refine::refine(&fr, &lines, load, target, 1.05 * layer, opts.refine, true)
+    // Many runs (a branched plant's equivalent line) get fewer steps: each step costs a
+    // reference run per parameter, and peeling has already placed them well.
+    let steps = if lines.len() > MAX_LINES_IN_SHORT_FIT { opts.refine.min(3) } else { opts.refine };
+    let refined = refine::refine(&fr, &lines, load, target, 1.05 * layer, steps, true)
         .map_err(|e| internal(cap, "the exact reference failed while fitting", e))?;
     let (tidied, tidy_load) = load::tidy(&refined.lines, refined.load, opts.tolerance / 2.0);
     let refined = if tidied.len() < refined.lines.len() || tidy_load != refined.load {
