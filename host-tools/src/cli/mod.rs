@@ -73,6 +73,9 @@ pub enum Command {
         csv: PathBuf,
         #[arg(long, value_enum, default_value = "wide")]
         profile: ProfileArg,
+        /// Impedance against distance seen from the probe at the drive (exact reference).
+        #[arg(long, value_name = "OUT.svg")]
+        profile_svg: Option<PathBuf>,
     },
     /// Compare the core with the exact reference and the f64 twin; judge the tolerances.
     Verify {
@@ -86,6 +89,9 @@ pub enum Command {
         csv: Option<PathBuf>,
         #[arg(long, value_enum, default_value = "wide")]
         profile: ProfileArg,
+        /// Impedance against distance seen from the probe at the drive (exact reference).
+        #[arg(long, value_name = "OUT.svg")]
+        profile_svg: Option<PathBuf>,
     },
     /// Vary one segment's length and report the peak of one probe (e.g. motor terminal
     /// voltage against cable length).
@@ -152,6 +158,17 @@ pub(crate) fn load_and_prepare(path: &Path, profile: ProfileKind) -> Result<(Pla
     Ok((plant, c, a))
 }
 
+/// After `simulate` or `verify` (exit `code`): the view against distance, if asked for.
+fn profile_view(path: &Path, svg: Option<&Path>, code: i32) -> Result<i32, Failure> {
+    if let Some(svg) = svg {
+        let plant = load_plant(path)?;
+        crate::extract::plant_view::write_plant_profile(&plant, &path.display().to_string(), svg)
+            .map_err(|e| Failure { code: 2, message: format!("error: {e}") })?;
+        println!("wrote {}", svg.display());
+    }
+    Ok(code)
+}
+
 /// Run the command line; returns the process exit code.
 pub fn main() -> i32 {
     let cli = match Cli::try_parse() {
@@ -166,9 +183,13 @@ pub fn main() -> i32 {
         Command::Compile { plant, image, rust, profile } => {
             compile_cmd::run(&plant, image.as_deref(), rust.as_deref(), profile.into())
         }
-        Command::Simulate { plant, samples, csv, profile } => simulate::run(&plant, samples, &csv, profile.into()),
-        Command::Verify { plant, svg, lattice, csv, profile } => {
+        Command::Simulate { plant, samples, csv, profile, profile_svg } => {
+            simulate::run(&plant, samples, &csv, profile.into())
+                .and_then(|c| profile_view(&plant, profile_svg.as_deref(), c))
+        }
+        Command::Verify { plant, svg, lattice, csv, profile, profile_svg } => {
             verify_cmd::run(&plant, svg.as_deref(), lattice.as_deref(), csv.as_deref(), profile.into())
+                .and_then(|c| profile_view(&plant, profile_svg.as_deref(), c))
         }
         Command::Sweep { plant, segment, probe, from, to, steps, svg, profile } => {
             sweep::run(&plant, &segment, &probe, from, to, steps, svg.as_deref(), profile.into())

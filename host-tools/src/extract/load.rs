@@ -83,8 +83,9 @@ impl Tail {
     }
 }
 
-/// The ending, with a record-long peel that nonetheless shows an end: a run over 20 times
-/// the line's impedance (open) or under a twentieth of it (short). Loss compensation can
+/// The ending, with a record-long peel that nonetheless shows an end: a run over 5 times
+/// the first run's impedance (open-like) or under a fifth of it (short-like); the settled
+/// voltage then still offers a resistor among the candidates. Loss compensation can
 /// carry the peel past an open end, where the layers then climb without bound.
 pub fn effective_ending(runs: &[Run], ending: Ending, layer: f64, origin: usize) -> Ending {
     if ending != Ending::Record || runs.len() < 2 {
@@ -92,9 +93,9 @@ pub fn effective_ending(runs: &[Run], ending: Ending, layer: f64, origin: usize)
     }
     let typical = runs[0].z;
     for (i, r) in runs.iter().enumerate().skip(1) {
-        let k = if r.z > 20.0 * typical {
+        let k = if r.z > 5.0 * typical {
             1.0
-        } else if r.z < typical / 20.0 {
+        } else if r.z < typical / 5.0 {
             -1.0
         } else {
             continue;

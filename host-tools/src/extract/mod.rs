@@ -13,6 +13,7 @@ pub mod load;
 pub mod merge;
 pub mod peel;
 pub mod plant_out;
+pub mod plant_view;
 pub mod refine;
 pub mod roundtrip;
 pub mod view;
@@ -25,6 +26,9 @@ use merge::Run;
 use peel::Profile;
 use roundtrip::{distance, exact_port, model_plant, Frame, RoundTrip};
 use std::path::Path;
+
+/// Most runs whose lines still move in the quick fit that compares candidate ends.
+const MAX_LINES_IN_SHORT_FIT: usize = 6;
 
 /// How to read the capture and build the plant.
 #[derive(Debug, Clone, PartialEq)]
@@ -218,7 +222,7 @@ pub fn extract(cap: &Capture, opts: &Options, how: Vec<String>, out_name: &str) 
                     EndLoad::ParallelRc { r, .. } => EndLoad::ParallelRc { r, c: lc.exp() },
                     _ => EndLoad::Capacitor(lc.exp()),
                 };
-                let lc = load::golden(lo, hi, 24, |lc| match cost(&cand_lines, make(lc)) {
+                let lc = load::golden(lo, hi, 16, |lc| match cost(&cand_lines, make(lc)) {
                     Ok(e) => e,
                     Err(e) => {
                         err = Some(e);
@@ -233,9 +237,18 @@ pub fn extract(cap: &Capture, opts: &Options, how: Vec<String>, out_name: &str) 
             other => other,
         };
         // Each candidate gets a short fit of its own (the edge and the runs move with the
-        // load), then the best goes on to the full fit.
-        let short = refine::refine(&fr, &cand_lines, fitted, target, 1.05 * layer, opts.refine.min(3))
-            .map_err(|e| internal(cap, "the exact reference failed while fitting", e))?;
+        // load; the runs only when few, to bound the time), then the best goes on to the
+        // full fit.
+        let short = refine::refine(
+            &fr,
+            &cand_lines,
+            fitted,
+            target,
+            1.05 * layer,
+            opts.refine.min(3),
+            cand_lines.len() <= MAX_LINES_IN_SHORT_FIT,
+        )
+        .map_err(|e| internal(cap, "the exact reference failed while fitting", e))?;
         let e = short.rms_after;
         // A later (more complex) candidate must be clearly better (10 %) to be kept.
         if best.as_ref().is_none_or(|b| e < 0.9 * b.2) {
@@ -247,7 +260,10 @@ pub fn extract(cap: &Capture, opts: &Options, how: Vec<String>, out_name: &str) 
         _ => (lines, EndLoad::Open),
     };
     // The compiler needs every segment at least half a sample long: one layer.
-    let refined = refine::refine(&fr, &lines, load, target, 1.05 * layer, opts.refine)
+    // Many runs (a branched plant's equivalent line) get fewer steps: each step costs a
+    // reference run per parameter, and peeling has already placed them well.
+    let steps = if lines.len() > MAX_LINES_IN_SHORT_FIT { opts.refine.min(3) } else { opts.refine };
+    let refined = refine::refine(&fr, &lines, load, target, 1.05 * layer, steps, true)
         .map_err(|e| internal(cap, "the exact reference failed while fitting", e))?;
     let (tidied, tidy_load) = load::tidy(&refined.lines, refined.load, opts.tolerance / 2.0);
     let refined = if tidied.len() < refined.lines.len() || tidy_load != refined.load {
@@ -255,7 +271,7 @@ pub fn extract(cap: &Capture, opts: &Options, how: Vec<String>, out_name: &str) 
             emf: Waveform::Step { amplitude: opts.emf, delay: refined.delay, rise: refined.rise },
             ..fr.clone()
         };
-        refine::refine(&f, &tidied, tidy_load, target, 1.05 * layer, 4)
+        refine::refine(&f, &tidied, tidy_load, target, 1.05 * layer, 4, true)
             .map_err(|e| internal(cap, "the exact reference failed while fitting", e))?
     } else {
         refined

@@ -81,6 +81,7 @@ fn step_of(frame: &Frame) -> (f64, f64, f64) {
 
 /// Fit `lines` and `load` to `target` (the capture without offset), at most `max_iter`
 /// Levenberg–Marquardt steps. Lengths stay at least `min_len` m (the compiler's half sample).
+/// With `fit_lines` false only the load and the edge move (a quick fit to compare ends).
 pub fn refine(
     frame: &Frame,
     lines: &[Run],
@@ -88,6 +89,7 @@ pub fn refine(
     target: &[f64],
     min_len: f64,
     max_iter: usize,
+    fit_lines: bool,
 ) -> Result<Refined, String> {
     let n = target.len();
     let count = lines.len();
@@ -119,12 +121,16 @@ pub fn refine(
     let mut iterations = 0;
     for _ in 0..max_iter {
         iterations += 1;
-        let m = p.len();
+        let free: Vec<usize> = (if fit_lines { 0 } else { 2 * count }..p.len()).collect();
+        let m = free.len();
+        if m == 0 {
+            break;
+        }
         let mut jac = DMatrix::<f64>::zeros(n, m);
-        for i in 0..m {
+        for (col, &i) in free.iter().enumerate() {
             // Steps: 1e-4 in ln Z, ln R, ln C; 1 mm (or 0.1 % of it) in a length; a
             // hundredth of a sample in the edge's start and rise.
-            let h = if fit_edge && i + 2 >= m {
+            let h = if fit_edge && i + 2 >= p.len() {
                 0.01 / frame.sample_rate
             } else if i < 2 * count && i % 2 == 1 {
                 (1e-3 * p[i]).max(1e-3)
@@ -134,7 +140,7 @@ pub fn refine(
             let mut q = p.clone();
             q[i] += h;
             let rq = residual(&q)?;
-            jac.set_column(i, &((rq - &r) / h));
+            jac.set_column(col, &((rq - &r) / h));
         }
         let a = jac.transpose() * &jac;
         let g = jac.transpose() * &r;
@@ -149,7 +155,10 @@ pub fn refine(
                 lambda *= 10.0;
                 continue;
             };
-            let q: Vec<f64> = p.iter().zip(step.iter()).map(|(a, b)| a + b).collect();
+            let mut q = p.clone();
+            for (col, &i) in free.iter().enumerate() {
+                q[i] += step[col];
+            }
             // A step the reference refuses is a step that failed.
             let Ok(rq) = residual(&q) else {
                 lambda *= 5.0;
