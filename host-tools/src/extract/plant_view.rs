@@ -28,7 +28,7 @@ pub fn write_plant_profile(plant: &Plant, file: &str, path: &Path) -> Result<(),
     let dt = 1.0 / plant.sample_rate;
     let samples = ((plant.duration / dt).ceil() as usize).clamp(64, super::capture::MAX_SAMPLES);
     // Enough quiet samples before the step for the edge finder (it looks at the first 8).
-    let lead = 16;
+    let lead = 24;
     let mut step = plant.clone();
     step.events.clear();
     step.probes = vec![plant.probes[probe].clone()];
