@@ -6,9 +6,9 @@
 //! mains or anything above the converters' range; follow local codes and licensed practice.
 use super::{io_failure, load_and_prepare, Failure, ProfileArg};
 use crate::compile::{Compiled, ProfileKind};
+use crate::host_core::run_core;
 use crate::rig::session::{self, plant_events};
 use crate::rig::{RigConnection, RigError};
-use crate::host_core::run_core;
 use clap::{Args, Subcommand};
 use std::path::{Path, PathBuf};
 use std::time::{Duration, Instant};
