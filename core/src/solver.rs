@@ -93,6 +93,17 @@ pub(crate) enum DriveRt {
     Rig { port: u16 },
 }
 
+/// One port's delay ring, packed so the line pass reads one record per port: the ring
+/// occupies `mem[start..end]`, `cursor` is where this sample's wave is written, and
+/// `partner` is the port whose outgoing wave a travels towards this one.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) struct Ring {
+    pub cursor: u32,
+    pub start: u32,
+    pub end: u32,
+    pub partner: u32,
+}
+
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub(crate) struct ProbeRt {
     pub current: bool,
@@ -112,10 +123,7 @@ pub(crate) struct ProbeRt {
 /// `Solver::new()` is `const`, so a solver can live in a `static`.
 pub struct Solver<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const LOSSES: usize = 0> {
     pub(crate) g: [u32; PORTS],
-    pub(crate) cursor: [u32; PORTS],
-    pub(crate) start: [u32; PORTS],
-    pub(crate) end: [u32; PORTS],
-    pub(crate) partner: [u16; PORTS],
+    pub(crate) rings: [Ring; PORTS],
     pub(crate) port_of: [u16; PORTS],
     pub(crate) a: [P::Wave; PORTS],
     pub(crate) b: [P::Wave; PORTS],
@@ -148,10 +156,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     pub const fn new() -> Self {
         Solver {
             g: [0; PORTS],
-            cursor: [0; PORTS],
-            start: [0; PORTS],
-            end: [0; PORTS],
-            partner: [0; PORTS],
+            rings: [Ring { cursor: 0, start: 0, end: 0, partner: 0 }; PORTS],
             port_of: [0; PORTS],
             a: [P::ZERO; PORTS],
             b: [P::ZERO; PORTS],
@@ -203,8 +208,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             l.x1 = [P::ZERO; MAX_LOSS_SECTIONS];
             l.y1 = [P::ZERO; MAX_LOSS_SECTIONS];
         }
-        for (c, s) in self.cursor.iter_mut().zip(self.start.iter()) {
-            *c = *s;
+        for r in self.rings.iter_mut() {
+            r.cursor = r.start;
         }
     }
 
@@ -331,22 +336,14 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     #[inline(always)]
     fn propagate(&mut self) {
         let n = self.n_ports.min(PORTS);
-        let rings = self
-            .cursor
-            .iter_mut()
-            .zip(self.start.iter())
-            .zip(self.end.iter())
-            .zip(self.partner.iter())
-            .zip(self.b.iter_mut())
-            .take(n);
-        for ((((c, s), e), p), b) in rings {
-            let val = self.a.get(*p as usize).copied().unwrap_or(P::ZERO);
-            if let Some(m) = self.mem.get_mut(*c as usize) {
+        for (r, b) in self.rings.iter_mut().zip(self.b.iter_mut()).take(n) {
+            let val = self.a.get(r.partner as usize).copied().unwrap_or(P::ZERO);
+            if let Some(m) = self.mem.get_mut(r.cursor as usize) {
                 *m = val;
             }
-            let next = c.wrapping_add(1);
-            *c = if next == *e { *s } else { next };
-            *b = self.mem.get(*c as usize).copied().unwrap_or(P::ZERO);
+            let next = r.cursor.wrapping_add(1);
+            r.cursor = if next == r.end { r.start } else { next };
+            *b = self.mem.get(r.cursor as usize).copied().unwrap_or(P::ZERO);
         }
         // Lossy lines: the wave arriving at each end passes the line's loss filter (an LTI
         // filter commutes with the delay, so filtering at the arrival is the same line).
