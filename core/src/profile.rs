@@ -29,6 +29,10 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     const SERIES_FRAC: u32;
     /// Largest `io_shift` the wave range leaves room for.
     const MAX_IO_SHIFT: u8;
+    /// Whether the solver runs nodes of 1 to 3 ports through fixed-size arrays (unrolled).
+    /// Only [`Wide`]: unrolled, the [`Narrow`] node's saturations become ARMv6-M branches
+    /// whose count depends on the data (the firmware's two-stimulus check finds it).
+    const FIXED_NODES: bool;
 
     /// Parallel node: with the exact node voltage v = (2·Σ g_k·b_k + g_src·e) / total,
     /// every outgoing wave is a_k = trunc(v − b_k) (toward zero), saturated.
@@ -200,6 +204,7 @@ impl Profile for Wide {
     const RECIP_BITS: u32 = 32;
     const SERIES_FRAC: u32 = 30;
     const MAX_IO_SHIFT: u8 = 15;
+    const FIXED_NODES: bool = true;
     const TOTAL_MAX: u64 = 1 << 62;
     const LOSS_FRAC: u32 = 30;
     const CHOKE_FRAC: u32 = 29;
@@ -303,6 +308,7 @@ impl Profile for Narrow {
     const RECIP_BITS: u32 = 16;
     const SERIES_FRAC: u32 = 14;
     const MAX_IO_SHIFT: u8 = 0;
+    const FIXED_NODES: bool = false;
     const TOTAL_MAX: u64 = (1 << 30) - 1;
     const LOSS_FRAC: u32 = 14;
     const CHOKE_FRAC: u32 = 13;
@@ -532,6 +538,24 @@ mod tests {
         let half = 1u32 << (Narrow::SERIES_FRAC - 1);
         assert_eq!(Narrow::series(-3, 0, half), (-1, -1));
         assert_eq!(Narrow::series(i16::MAX, i16::MIN, 1 << Narrow::SERIES_FRAC), (i16::MIN, i16::MAX));
+    }
+
+    #[test]
+    fn one_compare_saturation_and_biased_shift_equal_their_definitions() {
+        let mut t: i64 = 0x1234_5678_9abc_def1;
+        let edges64 = [i64::MIN + 1, -(1 << 62), i32::MIN as i64 - 1, i32::MIN as i64, -1, 0, 1, i32::MAX as i64];
+        for k in 0..20_000 {
+            // xorshift64, then every magnitude from 2^0 to 2^62
+            t ^= t << 13;
+            t ^= t >> 7;
+            t ^= t << 17;
+            let n = if k < edges64.len() { edges64[k] } else { t >> (k % 63) };
+            assert_eq!(sat64_to_i32(n), n.clamp(i32::MIN as i64, i32::MAX as i64) as i32, "{n}");
+            for f in [13u32, 14, 29, 30] {
+                let want = apply_sign64((n.unsigned_abs() >> f) as i64, n >> 63);
+                assert_eq!(trunc_shr64(n, f), want, "{n} >> {f}");
+            }
+        }
     }
 
     #[test]

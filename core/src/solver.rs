@@ -278,23 +278,39 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             match *j {
                 JunctionRt::Node { first, count, mode, g_src, recip, shift, total, .. } => {
                     let lo = first as usize;
-                    let hi = lo.saturating_add(count as usize);
-                    let (Some(bs), Some(gs), Some(as_)) =
-                        (self.b.get(lo..hi), self.g.get(lo..hi), self.a.get_mut(lo..hi))
-                    else {
-                        continue;
-                    };
-                    match mode {
-                        Mode::Scatter => {
-                            // v = (2·Σ G_k·b_k + E·G_src) / G_total;  a_k = trunc(v − b_k)
-                            P::node_scatter(bs, gs, as_, e, g_src, recip, shift, total);
-                        }
-                        Mode::Short => {
-                            for (ak, bk) in as_.iter_mut().zip(bs.iter()) {
-                                *ak = P::neg(*bk);
+                    let (b, g, a) = (&self.b, &self.g, &mut self.a);
+                    if mode == Mode::Scatter {
+                        // v = (2·Σ G_k·b_k + E·G_src) / G_total;  a_k = trunc(v − b_k).
+                        // Nodes of 1, 2 and 3 ports (line ends, drops, taps: most of a
+                        // plant) run on fixed-size arrays, so the compiler unrolls them
+                        // exactly (in the profiles that ask for it, `Profile::FIXED_NODES`); the arithmetic is
+                        // the same `node_scatter`.
+                        let c = (e, g_src, recip, shift, total);
+                        match if P::FIXED_NODES { count } else { 0 } {
+                            1 => node_fixed::<P, 1>(b, g, a, lo, c),
+                            2 => node_fixed::<P, 2>(b, g, a, lo, c),
+                            3 => node_fixed::<P, 3>(b, g, a, lo, c),
+                            _ => {
+                                let hi = lo.saturating_add(count as usize);
+                                if let (Some(bs), Some(gs), Some(as_)) =
+                                    (b.get(lo..hi), g.get(lo..hi), a.get_mut(lo..hi))
+                                {
+                                    P::node_scatter(bs, gs, as_, e, g_src, recip, shift, total);
+                                }
                             }
                         }
-                        Mode::Broken => as_.copy_from_slice(bs),
+                        continue;
+                    }
+                    let hi = lo.saturating_add(count as usize);
+                    let (Some(bs), Some(as_)) = (b.get(lo..hi), a.get_mut(lo..hi)) else {
+                        continue;
+                    };
+                    if mode == Mode::Short {
+                        for (ak, bk) in as_.iter_mut().zip(bs.iter()) {
+                            *ak = P::neg(*bk);
+                        }
+                    } else {
+                        as_.copy_from_slice(bs);
                     }
                 }
                 JunctionRt::Series { p, q, c } => {
@@ -447,6 +463,27 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             *y = self.step(*x);
             *p = self.probe_raw(k);
         }
+    }
+}
+
+/// A scattering node of exactly `N` ports starting at port `lo`: the waves, weights and
+/// outputs as `[_; N]` arrays, so `node_scatter` is unrolled for this count. `c` holds
+/// (E, g_src, recip, shift, total). A range past the tables (impossible after `load`) does
+/// nothing.
+#[inline(always)]
+fn node_fixed<P: Profile, const N: usize>(
+    b: &[P::Wave],
+    g: &[u32],
+    a: &mut [P::Wave],
+    lo: usize,
+    c: (P::Wave, u32, u32, u32, u64),
+) {
+    let bs = b.get(lo..).and_then(|s| s.first_chunk::<N>());
+    let gs = g.get(lo..).and_then(|s| s.first_chunk::<N>());
+    let as_ = a.get_mut(lo..).and_then(|s| s.first_chunk_mut::<N>());
+    if let (Some(bs), Some(gs), Some(as_)) = (bs, gs, as_) {
+        let (e, g_src, recip, shift, total) = c;
+        P::node_scatter(bs, gs, as_, e, g_src, recip, shift, total);
     }
 }
 
