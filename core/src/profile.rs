@@ -152,6 +152,16 @@ fn trunc_shr64(n: i64, f: u32) -> i64 {
     n.wrapping_add(bias).wrapping_shr(f)
 }
 
+/// trunc(n / 2^f) toward zero, f < 32: the same value as sign(n)·(|n| >> f), by the biased
+/// arithmetic shift of [`trunc_shr64`] (for n < 0 the bias cannot overflow).
+#[inline(always)]
+fn trunc_shr32(n: i32, f: u32) -> i32 {
+    // 2^f − 1 for n < 0, else 0: the sign mask shifted down logically (no compare, so no
+    // branch on ARMv6-M).
+    let bias = ((n >> 31) as u32).checked_shr(32u32.wrapping_sub(f)).unwrap_or(0) as i32;
+    n.wrapping_add(bias).wrapping_shr(f)
+}
+
 /// A product of a coefficient known to be below 2^31 (validated at load) and a wave, as one
 /// 32x32->64 signed multiply (`SMULL`): casting the coefficient to i32 first keeps its value.
 #[inline(always)]
@@ -348,7 +358,7 @@ impl Profile for Narrow {
         let cx = (c as i32).wrapping_mul(x);
         let n1 = (b1 as i32).wrapping_shl(Self::SERIES_FRAC).wrapping_sub(cx);
         let n2 = (b2 as i32).wrapping_shl(Self::SERIES_FRAC).wrapping_add(cx);
-        let t = |n: i32| sat_i16(apply_sign32((n.unsigned_abs() >> Self::SERIES_FRAC) as i32, n >> 31));
+        let t = |n: i32| sat_i16(trunc_shr32(n, Self::SERIES_FRAC));
         (t(n1), t(n2))
     }
     #[inline(always)]
@@ -357,7 +367,7 @@ impl Profile for Narrow {
         let y = (c as i32)
             .wrapping_mul((b1 as i32).wrapping_sub(b2 as i32))
             .wrapping_add((rho as i32).wrapping_mul(s as i32));
-        let t = |n: i32| sat_i16(apply_sign32((n.unsigned_abs() >> Self::CHOKE_FRAC) as i32, n >> 31));
+        let t = |n: i32| sat_i16(trunc_shr32(n, Self::CHOKE_FRAC));
         (
             t((b1 as i32).wrapping_shl(Self::CHOKE_FRAC).wrapping_sub(y)),
             t((b2 as i32).wrapping_shl(Self::CHOKE_FRAC).wrapping_add(y)),
@@ -371,7 +381,7 @@ impl Profile for Narrow {
             .wrapping_mul(x as i32)
             .wrapping_sub(gb.wrapping_mul(x1 as i32))
             .wrapping_add((a as i32).wrapping_mul(y1 as i32));
-        sat_i16(apply_sign32((n.unsigned_abs() >> Self::LOSS_FRAC) as i32, n >> 31))
+        sat_i16(trunc_shr32(n, Self::LOSS_FRAC))
     }
     #[inline(always)]
     fn adapt(b: i16, a: i16, mu: u32, negate: bool) -> i16 {
@@ -379,7 +389,7 @@ impl Profile for Narrow {
         let n = (b as i32)
             .wrapping_shl(Self::SERIES_FRAC)
             .wrapping_add((mu as i32).wrapping_mul((a as i32).wrapping_sub(b as i32)));
-        let m = apply_sign32((n.unsigned_abs() >> Self::SERIES_FRAC) as i32, n >> 31);
+        let m = trunc_shr32(n, Self::SERIES_FRAC);
         sat_i16(if negate { m.wrapping_neg() } else { m })
     }
     #[inline(always)]
@@ -551,6 +561,11 @@ mod tests {
             t ^= t << 17;
             let n = if k < edges64.len() { edges64[k] } else { t >> (k % 63) };
             assert_eq!(sat64_to_i32(n), n.clamp(i32::MIN as i64, i32::MAX as i64) as i32, "{n}");
+            let n32 = n as i32;
+            for f in [0u32, 13, 14, 31] {
+                let want = apply_sign32((n32.unsigned_abs() >> f) as i32, n32 >> 31);
+                assert_eq!(trunc_shr32(n32, f), want, "{n32} >> {f}");
+            }
             for f in [13u32, 14, 29, 30] {
                 let want = apply_sign64((n.unsigned_abs() >> f) as i64, n >> 63);
                 assert_eq!(trunc_shr64(n, f), want, "{n} >> {f}");
