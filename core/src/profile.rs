@@ -148,7 +148,8 @@ fn sat64_to_i32(t: i64) -> i32 {
 /// floors), so the shift rounds it up, toward zero; n < 0 cannot overflow by the addition.
 #[inline(always)]
 fn trunc_shr64(n: i64, f: u32) -> i64 {
-    let bias = (n >> 63) & 1i64.wrapping_shl(f).wrapping_sub(1);
+    // 2^f − 1 for n < 0, else 0: the sign mask shifted down logically (see `trunc_shr32`).
+    let bias = ((n >> 63) as u64).checked_shr(64u32.wrapping_sub(f)).unwrap_or(0) as i64;
     n.wrapping_add(bias).wrapping_shr(f)
 }
 
