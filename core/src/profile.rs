@@ -30,8 +30,9 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     /// Largest `io_shift` the wave range leaves room for.
     const MAX_IO_SHIFT: u8;
     /// Whether the solver runs nodes of 1 to 3 ports through fixed-size arrays (unrolled).
-    /// Only [`Wide`]: unrolled, the [`Narrow`] node's saturations become ARMv6-M branches
-    /// whose count depends on the data (the firmware's two-stimulus check finds it).
+    /// Only [`Wide`]: unrolled, the [`Narrow`] node's compares (correction steps, saturation)
+    /// become ARMv6-M branches whose count depends on the data (the firmware's two-stimulus
+    /// check finds it; branch-free masks for either alone did not remove it).
     const FIXED_NODES: bool;
 
     /// Parallel node: with the exact node voltage v = (2·Σ g_k·b_k + g_src·e) / total,
