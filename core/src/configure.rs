@@ -310,15 +310,21 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         let place = |s: &mut Self, port: usize, d: u32, mem: &mut usize| -> Result<(), BuildError> {
             let end = usize::try_from(d).ok().and_then(|d| mem.checked_add(d)).unwrap_or(usize::MAX);
             cap(Table::DelayStorage, end, MEM.min(u32::MAX as usize))?;
-            set(&mut s.start, port, *mem as u32);
-            set(&mut s.end, port, end as u32);
+            if let Some(r) = s.rings.get_mut(port) {
+                r.start = *mem as u32;
+                r.end = end as u32;
+            }
             *mem = end;
             Ok(())
         };
         for (i, l) in net.lines.iter().enumerate() {
             let (pa, pb) = (at(&self.port_of, end_index(i, false)), at(&self.port_of, end_index(i, true)));
-            set(&mut self.partner, pa, pb as u16);
-            set(&mut self.partner, pb, pa as u16);
+            if let Some(r) = self.rings.get_mut(pa) {
+                r.partner = pb as u32;
+            }
+            if let Some(r) = self.rings.get_mut(pb) {
+                r.partner = pa as u32;
+            }
             let (mut d_into_a, mut d_into_b) = (l.delay, l.delay);
             if let Some((rj, lat, rl)) = shape.rig {
                 if rl == i {
@@ -339,7 +345,9 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         }
         for n in 0..self.n_elements.min(PORTS) {
             let port = self.elements.get(n).map_or(0, |e| e.port as usize);
-            set(&mut self.partner, port, port as u16);
+            if let Some(r) = self.rings.get_mut(port) {
+                r.partner = port as u32;
+            }
             place(self, port, 1, &mut mem)?;
         }
         self.mem_used = mem;

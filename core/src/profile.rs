@@ -29,6 +29,11 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     const SERIES_FRAC: u32;
     /// Largest `io_shift` the wave range leaves room for.
     const MAX_IO_SHIFT: u8;
+    /// Whether the solver runs nodes of 1 to 3 ports through fixed-size arrays (unrolled).
+    /// Only [`Wide`]: unrolled, the [`Narrow`] node's compares (correction steps, saturation)
+    /// become ARMv6-M branches whose count depends on the data (the firmware's two-stimulus
+    /// check finds it; branch-free masks for either alone did not remove it).
+    const FIXED_NODES: bool;
 
     /// Parallel node: with the exact node voltage v = (2·Σ g_k·b_k + g_src·e) / total,
     /// every outgoing wave is a_k = trunc(v − b_k) (toward zero), saturated.
@@ -124,6 +129,48 @@ fn sat_i16(x: i32) -> i16 {
     x.clamp(i16::MIN as i32, i16::MAX as i32) as i16
 }
 
+/// `t` saturated to i32, the same value as `t.clamp(i32::MIN, i32::MAX)`: t fits exactly when
+/// its high word is the sign extension of its low word; otherwise the sign of the high word
+/// picks MAX (0 ^ MAX) or MIN (−1 ^ MAX). One compare and a conditional select on Thumb-2,
+/// where the 64-bit clamp takes two 64-bit compares.
+#[inline(always)]
+fn sat64_to_i32(t: i64) -> i32 {
+    let lo = t as i32;
+    let hi = (t >> 32) as i32;
+    if hi == lo >> 31 {
+        lo
+    } else {
+        (hi >> 31) ^ i32::MAX
+    }
+}
+
+/// trunc(n / 2^f) toward zero, for |n| < 2^63 and f < 63: the same value as
+/// sign(n)·(|n| >> f). A negative n gets 2^f − 1 added before the arithmetic shift (which
+/// floors), so the shift rounds it up, toward zero; n < 0 cannot overflow by the addition.
+#[inline(always)]
+fn trunc_shr64(n: i64, f: u32) -> i64 {
+    // 2^f − 1 for n < 0, else 0: the sign mask shifted down logically (see `trunc_shr32`).
+    let bias = ((n >> 63) as u64).checked_shr(64u32.wrapping_sub(f)).unwrap_or(0) as i64;
+    n.wrapping_add(bias).wrapping_shr(f)
+}
+
+/// trunc(n / 2^f) toward zero, f < 32: the same value as sign(n)·(|n| >> f), by the biased
+/// arithmetic shift of [`trunc_shr64`] (for n < 0 the bias cannot overflow).
+#[inline(always)]
+fn trunc_shr32(n: i32, f: u32) -> i32 {
+    // 2^f − 1 for n < 0, else 0: the sign mask shifted down logically (no compare, so no
+    // branch on ARMv6-M).
+    let bias = ((n >> 31) as u32).checked_shr(32u32.wrapping_sub(f)).unwrap_or(0) as i32;
+    n.wrapping_add(bias).wrapping_shr(f)
+}
+
+/// A product of a coefficient known to be below 2^31 (validated at load) and a wave, as one
+/// 32x32->64 signed multiply (`SMULL`): casting the coefficient to i32 first keeps its value.
+#[inline(always)]
+fn mul_c(c: u32, x: i32) -> i64 {
+    i64::from(c as i32).wrapping_mul(i64::from(x))
+}
+
 /// floor(mag / total) and (remainder != 0) as 0/1, for mag < 2^63, total < 2^62.5.
 ///
 /// The estimate mag·recip/2^(32+shift), from two 32x32->64 products with floors, is at most
@@ -169,6 +216,7 @@ impl Profile for Wide {
     const RECIP_BITS: u32 = 32;
     const SERIES_FRAC: u32 = 30;
     const MAX_IO_SHIFT: u8 = 15;
+    const FIXED_NODES: bool = true;
     const TOTAL_MAX: u64 = 1 << 62;
     const LOSS_FRAC: u32 = 30;
     const CHOKE_FRAC: u32 = 29;
@@ -176,11 +224,12 @@ impl Profile for Wide {
     #[inline(always)]
     fn node_scatter(b: &[i32], g: &[u32], a: &mut [i32], e: i32, g_src: u32, recip: u32, shift: u32, total: u64) {
         // |Σ g·b| <= 2^30 · 2^31 with Σ g + g_src <= 2^30, so 2·Σ + g_src·e <= 2^62: exact.
+        // Every port weight and g_src is <= 2^30 (node budget), so `mul_c` keeps them exact.
         let mut acc: i64 = 0;
         for (bk, gk) in b.iter().zip(g.iter()) {
-            acc = acc.wrapping_add((*gk as i64).wrapping_mul(*bk as i64));
+            acc = acc.wrapping_add(mul_c(*gk, *bk));
         }
-        let acc = acc.wrapping_shl(1).wrapping_add((g_src as i64).wrapping_mul(e as i64));
+        let acc = acc.wrapping_shl(1).wrapping_add(mul_c(g_src, e));
         let (q, nz) = floor_div64(acc.unsigned_abs(), recip, shift, total);
         // floor(acc/total): q for acc >= 0, −(q + nz) for acc < 0.
         let neg = (acc < 0) as u64;
@@ -190,7 +239,7 @@ impl Profile for Wide {
             // negative integer part when there is a fraction.
             let m = fl.wrapping_sub(*bk as i64);
             let t = m.wrapping_add(((m < 0) as u64 & nz) as i64);
-            *ak = t.clamp(i32::MIN as i64, i32::MAX as i64) as i32;
+            *ak = sat64_to_i32(t);
         }
     }
     #[inline(always)]
@@ -208,26 +257,19 @@ impl Profile for Wide {
     #[inline(always)]
     fn series(b1: i32, b2: i32, c: u32) -> (i32, i32) {
         // |x| < 2^32 and c <= 2^30: |c·x| <= 2^62; |b·2^30| <= 2^61: exact in i64.
-        let x = (b1 as i64).wrapping_sub(b2 as i64);
-        let cx = (c as i64).wrapping_mul(x);
+        // c·x = c·b1 − c·b2: two 32x32 products (each <= 2^61) instead of a 32x64 one.
+        let cx = mul_c(c, b1).wrapping_sub(mul_c(c, b2));
         let n1 = (b1 as i64).wrapping_shl(Self::SERIES_FRAC).wrapping_sub(cx);
         let n2 = (b2 as i64).wrapping_shl(Self::SERIES_FRAC).wrapping_add(cx);
-        let t = |n: i64| {
-            let m = apply_sign64((n.unsigned_abs() >> Self::SERIES_FRAC) as i64, n >> 63);
-            m.clamp(i32::MIN as i64, i32::MAX as i64) as i32
-        };
+        let t = |n: i64| sat64_to_i32(trunc_shr64(n, Self::SERIES_FRAC));
         (t(n1), t(n2))
     }
     #[inline(always)]
     fn series_l(b1: i32, b2: i32, s: i32, c: u32, rho: u32) -> (i32, i32, i32) {
         // c·(b1 − b2) <= 2^61, rho·s <= 2^60, so 2y + s·2^29 < 2^63: exact in i64.
-        let y = (c as i64)
-            .wrapping_mul((b1 as i64).wrapping_sub(b2 as i64))
-            .wrapping_add((rho as i64).wrapping_mul(s as i64));
-        let t = |n: i64| {
-            apply_sign64((n.unsigned_abs() >> Self::CHOKE_FRAC) as i64, n >> 63).clamp(i32::MIN as i64, i32::MAX as i64)
-                as i32
-        };
+        // c, rho <= 2^29 (c + rho <= 1): `mul_c` keeps them exact.
+        let y = mul_c(c, b1).wrapping_sub(mul_c(c, b2)).wrapping_add(mul_c(rho, s));
+        let t = |n: i64| sat64_to_i32(trunc_shr64(n, Self::CHOKE_FRAC));
         (
             t((b1 as i64).wrapping_shl(Self::CHOKE_FRAC).wrapping_sub(y)),
             t((b2 as i64).wrapping_shl(Self::CHOKE_FRAC).wrapping_add(y)),
@@ -237,22 +279,18 @@ impl Profile for Wide {
     #[inline(always)]
     fn loss_section(x: i32, x1: i32, y1: i32, g: u32, gb: i32, a: u32) -> i32 {
         // Each product < 2^30·2^31 = 2^61; three of them < 2^63: exact in i64.
-        let n = (g as i64)
-            .wrapping_mul(x as i64)
-            .wrapping_sub((gb as i64).wrapping_mul(x1 as i64))
-            .wrapping_add((a as i64).wrapping_mul(y1 as i64));
-        let m = apply_sign64((n.unsigned_abs() >> Self::LOSS_FRAC) as i64, n >> 63);
-        m.clamp(i32::MIN as i64, i32::MAX as i64) as i32
+        // g <= 1 and a < 1 (checked at load): `mul_c` keeps them exact.
+        let n = mul_c(g, x).wrapping_sub(i64::from(gb).wrapping_mul(i64::from(x1))).wrapping_add(mul_c(a, y1));
+        sat64_to_i32(trunc_shr64(n, Self::LOSS_FRAC))
     }
     #[inline(always)]
     fn adapt(b: i32, a: i32, mu: u32, negate: bool) -> i32 {
-        // |b·2^30| <= 2^61, |μ·(a − b)| <= 2^30·2^32: exact in i64.
-        let n = (b as i64)
-            .wrapping_shl(Self::SERIES_FRAC)
-            .wrapping_add((mu as i64).wrapping_mul((a as i64).wrapping_sub(b as i64)));
-        let m = apply_sign64((n.unsigned_abs() >> Self::SERIES_FRAC) as i64, n >> 63);
+        // |b·2^30| <= 2^61, |μ·(a − b)| <= 2^30·2^32: exact in i64; μ <= 1 (checked at
+        // load), so μ·(a − b) = μ·a − μ·b as two 32x32 products.
+        let n = (b as i64).wrapping_shl(Self::SERIES_FRAC).wrapping_add(mul_c(mu, a).wrapping_sub(mul_c(mu, b)));
+        let m = trunc_shr64(n, Self::SERIES_FRAC);
         let m = if negate { m.wrapping_neg() } else { m };
-        m.clamp(i32::MIN as i64, i32::MAX as i64) as i32
+        sat64_to_i32(m)
     }
     #[inline(always)]
     fn from_code(code: i16, shift: u32) -> i32 {
@@ -282,6 +320,7 @@ impl Profile for Narrow {
     const RECIP_BITS: u32 = 16;
     const SERIES_FRAC: u32 = 14;
     const MAX_IO_SHIFT: u8 = 0;
+    const FIXED_NODES: bool = false;
     const TOTAL_MAX: u64 = (1 << 30) - 1;
     const LOSS_FRAC: u32 = 14;
     const CHOKE_FRAC: u32 = 13;
@@ -321,7 +360,7 @@ impl Profile for Narrow {
         let cx = (c as i32).wrapping_mul(x);
         let n1 = (b1 as i32).wrapping_shl(Self::SERIES_FRAC).wrapping_sub(cx);
         let n2 = (b2 as i32).wrapping_shl(Self::SERIES_FRAC).wrapping_add(cx);
-        let t = |n: i32| sat_i16(apply_sign32((n.unsigned_abs() >> Self::SERIES_FRAC) as i32, n >> 31));
+        let t = |n: i32| sat_i16(trunc_shr32(n, Self::SERIES_FRAC));
         (t(n1), t(n2))
     }
     #[inline(always)]
@@ -330,7 +369,7 @@ impl Profile for Narrow {
         let y = (c as i32)
             .wrapping_mul((b1 as i32).wrapping_sub(b2 as i32))
             .wrapping_add((rho as i32).wrapping_mul(s as i32));
-        let t = |n: i32| sat_i16(apply_sign32((n.unsigned_abs() >> Self::CHOKE_FRAC) as i32, n >> 31));
+        let t = |n: i32| sat_i16(trunc_shr32(n, Self::CHOKE_FRAC));
         (
             t((b1 as i32).wrapping_shl(Self::CHOKE_FRAC).wrapping_sub(y)),
             t((b2 as i32).wrapping_shl(Self::CHOKE_FRAC).wrapping_add(y)),
@@ -344,7 +383,7 @@ impl Profile for Narrow {
             .wrapping_mul(x as i32)
             .wrapping_sub(gb.wrapping_mul(x1 as i32))
             .wrapping_add((a as i32).wrapping_mul(y1 as i32));
-        sat_i16(apply_sign32((n.unsigned_abs() >> Self::LOSS_FRAC) as i32, n >> 31))
+        sat_i16(trunc_shr32(n, Self::LOSS_FRAC))
     }
     #[inline(always)]
     fn adapt(b: i16, a: i16, mu: u32, negate: bool) -> i16 {
@@ -352,7 +391,7 @@ impl Profile for Narrow {
         let n = (b as i32)
             .wrapping_shl(Self::SERIES_FRAC)
             .wrapping_add((mu as i32).wrapping_mul((a as i32).wrapping_sub(b as i32)));
-        let m = apply_sign32((n.unsigned_abs() >> Self::SERIES_FRAC) as i32, n >> 31);
+        let m = trunc_shr32(n, Self::SERIES_FRAC);
         sat_i16(if negate { m.wrapping_neg() } else { m })
     }
     #[inline(always)]
@@ -511,6 +550,29 @@ mod tests {
         let half = 1u32 << (Narrow::SERIES_FRAC - 1);
         assert_eq!(Narrow::series(-3, 0, half), (-1, -1));
         assert_eq!(Narrow::series(i16::MAX, i16::MIN, 1 << Narrow::SERIES_FRAC), (i16::MIN, i16::MAX));
+    }
+
+    #[test]
+    fn one_compare_saturation_and_biased_shift_equal_their_definitions() {
+        let mut t: i64 = 0x1234_5678_9abc_def1;
+        let edges64 = [i64::MIN + 1, -(1 << 62), i32::MIN as i64 - 1, i32::MIN as i64, -1, 0, 1, i32::MAX as i64];
+        for k in 0..20_000 {
+            // xorshift64, then every magnitude from 2^0 to 2^62
+            t ^= t << 13;
+            t ^= t >> 7;
+            t ^= t << 17;
+            let n = if k < edges64.len() { edges64[k] } else { t >> (k % 63) };
+            assert_eq!(sat64_to_i32(n), n.clamp(i32::MIN as i64, i32::MAX as i64) as i32, "{n}");
+            let n32 = n as i32;
+            for f in [0u32, 13, 14, 31] {
+                let want = apply_sign32((n32.unsigned_abs() >> f) as i32, n32 >> 31);
+                assert_eq!(trunc_shr32(n32, f), want, "{n32} >> {f}");
+            }
+            for f in [13u32, 14, 29, 30] {
+                let want = apply_sign64((n.unsigned_abs() >> f) as i64, n >> 63);
+                assert_eq!(trunc_shr64(n, f), want, "{n} >> {f}");
+            }
+        }
     }
 
     #[test]

@@ -93,6 +93,17 @@ pub(crate) enum DriveRt {
     Rig { port: u16 },
 }
 
+/// One port's delay ring, packed so the line pass reads one record per port: the ring
+/// occupies `mem[start..end]`, `cursor` is where this sample's wave is written, and
+/// `partner` is the port whose outgoing wave a travels towards this one.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub(crate) struct Ring {
+    pub cursor: u32,
+    pub start: u32,
+    pub end: u32,
+    pub partner: u32,
+}
+
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub(crate) struct ProbeRt {
     pub current: bool,
@@ -112,10 +123,7 @@ pub(crate) struct ProbeRt {
 /// `Solver::new()` is `const`, so a solver can live in a `static`.
 pub struct Solver<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const LOSSES: usize = 0> {
     pub(crate) g: [u32; PORTS],
-    pub(crate) cursor: [u32; PORTS],
-    pub(crate) start: [u32; PORTS],
-    pub(crate) end: [u32; PORTS],
-    pub(crate) partner: [u16; PORTS],
+    pub(crate) rings: [Ring; PORTS],
     pub(crate) port_of: [u16; PORTS],
     pub(crate) a: [P::Wave; PORTS],
     pub(crate) b: [P::Wave; PORTS],
@@ -148,10 +156,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     pub const fn new() -> Self {
         Solver {
             g: [0; PORTS],
-            cursor: [0; PORTS],
-            start: [0; PORTS],
-            end: [0; PORTS],
-            partner: [0; PORTS],
+            rings: [Ring { cursor: 0, start: 0, end: 0, partner: 0 }; PORTS],
             port_of: [0; PORTS],
             a: [P::ZERO; PORTS],
             b: [P::ZERO; PORTS],
@@ -203,8 +208,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             l.x1 = [P::ZERO; MAX_LOSS_SECTIONS];
             l.y1 = [P::ZERO; MAX_LOSS_SECTIONS];
         }
-        for (c, s) in self.cursor.iter_mut().zip(self.start.iter()) {
-            *c = *s;
+        for r in self.rings.iter_mut() {
+            r.cursor = r.start;
         }
     }
 
@@ -273,23 +278,39 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             match *j {
                 JunctionRt::Node { first, count, mode, g_src, recip, shift, total, .. } => {
                     let lo = first as usize;
-                    let hi = lo.saturating_add(count as usize);
-                    let (Some(bs), Some(gs), Some(as_)) =
-                        (self.b.get(lo..hi), self.g.get(lo..hi), self.a.get_mut(lo..hi))
-                    else {
-                        continue;
-                    };
-                    match mode {
-                        Mode::Scatter => {
-                            // v = (2·Σ G_k·b_k + E·G_src) / G_total;  a_k = trunc(v − b_k)
-                            P::node_scatter(bs, gs, as_, e, g_src, recip, shift, total);
-                        }
-                        Mode::Short => {
-                            for (ak, bk) in as_.iter_mut().zip(bs.iter()) {
-                                *ak = P::neg(*bk);
+                    let (b, g, a) = (&self.b, &self.g, &mut self.a);
+                    if mode == Mode::Scatter {
+                        // v = (2·Σ G_k·b_k + E·G_src) / G_total;  a_k = trunc(v − b_k).
+                        // Nodes of 1, 2 and 3 ports (line ends, drops, taps: most of a
+                        // plant) run on fixed-size arrays, so the compiler unrolls them
+                        // exactly (in the profiles that ask for it, `Profile::FIXED_NODES`); the arithmetic is
+                        // the same `node_scatter`.
+                        let c = (e, g_src, recip, shift, total);
+                        match if P::FIXED_NODES { count } else { 0 } {
+                            1 => node_fixed::<P, 1>(b, g, a, lo, c),
+                            2 => node_fixed::<P, 2>(b, g, a, lo, c),
+                            3 => node_fixed::<P, 3>(b, g, a, lo, c),
+                            _ => {
+                                let hi = lo.saturating_add(count as usize);
+                                if let (Some(bs), Some(gs), Some(as_)) =
+                                    (b.get(lo..hi), g.get(lo..hi), a.get_mut(lo..hi))
+                                {
+                                    P::node_scatter(bs, gs, as_, e, g_src, recip, shift, total);
+                                }
                             }
                         }
-                        Mode::Broken => as_.copy_from_slice(bs),
+                        continue;
+                    }
+                    let hi = lo.saturating_add(count as usize);
+                    let (Some(bs), Some(as_)) = (b.get(lo..hi), a.get_mut(lo..hi)) else {
+                        continue;
+                    };
+                    if mode == Mode::Short {
+                        for (ak, bk) in as_.iter_mut().zip(bs.iter()) {
+                            *ak = P::neg(*bk);
+                        }
+                    } else {
+                        as_.copy_from_slice(bs);
                     }
                 }
                 JunctionRt::Series { p, q, c } => {
@@ -331,22 +352,14 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     #[inline(always)]
     fn propagate(&mut self) {
         let n = self.n_ports.min(PORTS);
-        let rings = self
-            .cursor
-            .iter_mut()
-            .zip(self.start.iter())
-            .zip(self.end.iter())
-            .zip(self.partner.iter())
-            .zip(self.b.iter_mut())
-            .take(n);
-        for ((((c, s), e), p), b) in rings {
-            let val = self.a.get(*p as usize).copied().unwrap_or(P::ZERO);
-            if let Some(m) = self.mem.get_mut(*c as usize) {
+        for (r, b) in self.rings.iter_mut().zip(self.b.iter_mut()).take(n) {
+            let val = self.a.get(r.partner as usize).copied().unwrap_or(P::ZERO);
+            if let Some(m) = self.mem.get_mut(r.cursor as usize) {
                 *m = val;
             }
-            let next = c.wrapping_add(1);
-            *c = if next == *e { *s } else { next };
-            *b = self.mem.get(*c as usize).copied().unwrap_or(P::ZERO);
+            let next = r.cursor.wrapping_add(1);
+            r.cursor = if next == r.end { r.start } else { next };
+            *b = self.mem.get(r.cursor as usize).copied().unwrap_or(P::ZERO);
         }
         // Lossy lines: the wave arriving at each end passes the line's loss filter (an LTI
         // filter commutes with the delay, so filtering at the arrival is the same line).
@@ -450,6 +463,27 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             *y = self.step(*x);
             *p = self.probe_raw(k);
         }
+    }
+}
+
+/// A scattering node of exactly `N` ports starting at port `lo`: the waves, weights and
+/// outputs as `[_; N]` arrays, so `node_scatter` is unrolled for this count. `c` holds
+/// (E, g_src, recip, shift, total). A range past the tables (impossible after `load`) does
+/// nothing.
+#[inline(always)]
+fn node_fixed<P: Profile, const N: usize>(
+    b: &[P::Wave],
+    g: &[u32],
+    a: &mut [P::Wave],
+    lo: usize,
+    c: (P::Wave, u32, u32, u32, u64),
+) {
+    let bs = b.get(lo..).and_then(|s| s.first_chunk::<N>());
+    let gs = g.get(lo..).and_then(|s| s.first_chunk::<N>());
+    let as_ = a.get_mut(lo..).and_then(|s| s.first_chunk_mut::<N>());
+    if let (Some(bs), Some(gs), Some(as_)) = (bs, gs, as_) {
+        let (e, g_src, recip, shift, total) = c;
+        P::node_scatter(bs, gs, as_, e, g_src, recip, shift, total);
     }
 }
 
