@@ -10,6 +10,7 @@ pub mod host_core;
 pub mod plant;
 pub mod plot;
 pub mod reference;
+pub mod runfile;
 pub mod si;
 pub mod twin;
 pub mod verify;

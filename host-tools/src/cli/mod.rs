@@ -3,6 +3,8 @@
 mod compile_cmd;
 mod demo;
 mod inspect;
+mod json;
+mod outputs;
 mod simulate;
 mod sweep;
 mod verify_cmd;
@@ -47,6 +49,9 @@ pub enum Command {
     /// Validate a plant and report timing, reflections, DC point, fixed-point scale, storage.
     Inspect {
         plant: PathBuf,
+        /// Also write the report for machines (schema: docs/json-output.md).
+        #[arg(long, value_name = "OUT.json")]
+        json: Option<PathBuf>,
         #[arg(long, value_enum, default_value = "wide")]
         profile: ProfileArg,
     },
@@ -60,14 +65,18 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "wide")]
         profile: ProfileArg,
     },
-    /// Run the fixed-point core on the host over the plant's drive; write probes as CSV.
+    /// Run the fixed-point core on the host over the plant's drive; stream probes to CSV
+    /// and/or a compact run file (docs/run-file.md) as it runs.
     Simulate {
         plant: PathBuf,
         /// Samples to run (default: the plant's duration).
         #[arg(long)]
-        samples: Option<usize>,
+        samples: Option<u64>,
         #[arg(long, value_name = "OUT.csv")]
-        csv: PathBuf,
+        csv: Option<PathBuf>,
+        /// The core's probe integers, 4 bytes per value, exact (docs/run-file.md).
+        #[arg(long, value_name = "OUT.twrun")]
+        bin: Option<PathBuf>,
         #[arg(long, value_enum, default_value = "wide")]
         profile: ProfileArg,
     },
@@ -81,6 +90,12 @@ pub enum Command {
         lattice: Option<PathBuf>,
         #[arg(long, value_name = "OUT.csv")]
         csv: Option<PathBuf>,
+        /// Figures and verdict for machines (schema: docs/json-output.md).
+        #[arg(long, value_name = "OUT.json")]
+        json: Option<PathBuf>,
+        /// Samples to run and compare (default: the plant's duration).
+        #[arg(long)]
+        samples: Option<u64>,
         #[arg(long, value_enum, default_value = "wide")]
         profile: ProfileArg,
     },
@@ -147,13 +162,22 @@ pub fn main() -> i32 {
         }
     };
     let r = match cli.command {
-        Command::Inspect { plant, profile } => inspect::run(&plant, profile.into()),
+        Command::Inspect { plant, json, profile } => inspect::run(&plant, json.as_deref(), profile.into()),
         Command::Compile { plant, image, rust, profile } => {
             compile_cmd::run(&plant, image.as_deref(), rust.as_deref(), profile.into())
         }
-        Command::Simulate { plant, samples, csv, profile } => simulate::run(&plant, samples, &csv, profile.into()),
-        Command::Verify { plant, svg, lattice, csv, profile } => {
-            verify_cmd::run(&plant, svg.as_deref(), lattice.as_deref(), csv.as_deref(), profile.into())
+        Command::Simulate { plant, samples, csv, bin, profile } => {
+            let out = simulate::SimOutputs { csv: csv.as_deref(), bin: bin.as_deref() };
+            simulate::run(&plant, samples, out, profile.into())
+        }
+        Command::Verify { plant, svg, lattice, csv, json, samples, profile } => {
+            let out = verify_cmd::VerifyOutputs {
+                svg: svg.as_deref(),
+                lattice: lattice.as_deref(),
+                csv: csv.as_deref(),
+                json: json.as_deref(),
+            };
+            verify_cmd::run(&plant, out, samples, profile.into())
         }
         Command::Sweep { plant, segment, probe, from, to, steps, svg, profile } => {
             sweep::run(&plant, &segment, &probe, from, to, steps, svg.as_deref(), profile.into())
