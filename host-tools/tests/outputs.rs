@@ -220,8 +220,9 @@ fn a_pwm_drive_is_judged_without_a_final_value_and_a_real_error_still_fails() {
     // The end of the run is mid-period: judged as a final value it would fail by far.
     let ef = doc["probes"][0]["final_value"]["error_fraction"].as_f64().unwrap();
     assert!(ef.abs() > 10.0 * doc["tolerances"]["final_error_fraction"].as_f64().unwrap(), "{ef}");
-    // A deliberate error: a tolerance the 16-bit I/O cannot meet still fails the plant.
-    let strict = PWM_PLANT.to_string() + "[verify]\nmax_error = \"0.0001 %\"\n";
+    // A deliberate error: the largest error against the exact reference (1.3 % of the
+    // step here, from the one-sample edge model) is judged against a 0.5 % limit.
+    let strict = PWM_PLANT.to_string() + "[verify]\nmax_error = \"0.5 %\"\n";
     std::fs::write(&p, strict).unwrap();
     tidewire().args(["verify", s(&p), "--json", s(&j)]).assert().code(1);
     assert_eq!(json(&j)["verdict"], "fail");

@@ -83,8 +83,8 @@ impl<'p> Builder<'p> {
                 field,
                 format!("segment is {:.3} ns long, shorter than half a sample ({:.3} ns)", tau * 1e9, self.dt * 0.5e9),
                 format!(
-                    "raise plant.sample_rate to at least {:.1} MHz, or merge this segment into a neighbour",
-                    need / 1e6
+                    "raise plant.sample_rate to at least \"{}\", or merge this segment into a neighbour",
+                    crate::si::at_least(need, "Hz")
                 ),
             ));
         }
