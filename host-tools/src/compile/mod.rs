@@ -149,7 +149,7 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
     let dt = 1.0 / plant.sample_rate;
     let exact_samples = (plant.duration / dt).round();
     // Checked before anything is sized by it (the drive's samples, the twin's traces).
-    if !(exact_samples <= MAX_PLANT_SAMPLES as f64) {
+    if exact_samples.is_nan() || exact_samples > MAX_PLANT_SAMPLES as f64 {
         return Err(err(
             file,
             Span::default(),
@@ -316,7 +316,7 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
     for (ei, e) in plant.events.iter().enumerate() {
         let sample = (e.at / dt).round();
         // An event at or after the end of the run would never act: say so, not ignore it.
-        if !(sample < samples as f64) {
+        if sample.is_nan() || sample >= samples as f64 {
             return Err(err(
                 file,
                 e.span,
