@@ -61,8 +61,8 @@ pub(super) fn capacity(c: &Compiled, plant: &Plant, file: &str) -> Result<(), Pl
             format!("{length_hint}lower plant.sample_rate to at most \"{}\"", si::at_most(fs_max, "Hz")),
         ));
     }
-    let span = longest.and_then(|(i, _)| plant.segments.get(i)).map_or(Span::default(), |s| s.span);
-    let field = "plant.sample_rate";
+    // Line ends and junctions come from every segment and node: no one place to point at.
+    let (span, field) = (Span::default(), "segment");
     Err(err(
         file,
         span,
