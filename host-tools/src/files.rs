@@ -15,6 +15,7 @@
 use std::cell::RefCell;
 use std::io::Write;
 use std::path::{Path, PathBuf};
+use std::sync::Mutex;
 use tempfile::NamedTempFile;
 
 /// Why an output path is refused before any work.
@@ -113,10 +114,46 @@ pub fn check_outputs(inputs: &[&Path], outputs: &[(&str, &Path)]) -> Result<(), 
     Ok(())
 }
 
+/// Every temporary of this process that is not yet renamed or deleted, so that a signal
+/// handler can delete them ([`remove_temporaries`]): a run stopped with Ctrl-C or `kill`
+/// leaves no orphan temporary (`kill -9` cannot be caught).
+static LIVE: Mutex<Vec<PathBuf>> = Mutex::new(vec![]);
+
+/// A temporary's entry in [`LIVE`], removed when this guard drops.
+struct Live(PathBuf);
+
+impl Live {
+    fn new(p: &Path) -> Live {
+        if let Ok(mut v) = LIVE.lock() {
+            v.push(p.to_path_buf());
+        }
+        Live(p.to_path_buf())
+    }
+}
+
+impl Drop for Live {
+    fn drop(&mut self) {
+        if let Ok(mut v) = LIVE.lock() {
+            v.retain(|p| *p != self.0);
+        }
+    }
+}
+
+/// Delete every temporary this process still holds (for a signal handler; the process
+/// should exit right after).
+pub fn remove_temporaries() {
+    if let Ok(v) = LIVE.lock() {
+        for p in v.iter() {
+            let _ = std::fs::remove_file(p);
+        }
+    }
+}
+
 /// A staged output: its temporary and where it goes.
 struct Staged {
     tmp: NamedTempFile,
     target: PathBuf,
+    _live: Live,
 }
 
 thread_local! {
@@ -142,10 +179,11 @@ impl Batch {
     /// returned handle, then commit.
     pub fn stream(&self, path: &Path) -> std::io::Result<std::fs::File> {
         let tmp = temporary(path)?;
+        let live = Live::new(tmp.path());
         let f = tmp.as_file().try_clone()?;
         BATCH.with(|b| {
             if let Some(v) = b.borrow_mut().as_mut() {
-                v.push(Staged { tmp, target: path.to_path_buf() });
+                v.push(Staged { tmp, target: path.to_path_buf(), _live: live });
             }
         });
         Ok(f)
@@ -195,15 +233,16 @@ fn temporary(path: &Path) -> std::io::Result<NamedTempFile> {
 /// Write `bytes` to `path` atomically; inside an open [`Batch`], stage it for the commit.
 pub fn write_atomic(path: &Path, bytes: &[u8]) -> std::io::Result<()> {
     let mut tmp = temporary(path)?;
+    let live = Live::new(tmp.path());
     tmp.write_all(bytes)?;
     let staged = BATCH.with(|b| match b.borrow_mut().as_mut() {
         Some(v) => {
-            v.push(Staged { tmp, target: path.to_path_buf() });
+            v.push(Staged { tmp, target: path.to_path_buf(), _live: live });
             None
         }
-        None => Some(tmp),
+        None => Some((tmp, live)),
     });
-    if let Some(tmp) = staged {
+    if let Some((tmp, _live)) = staged {
         tmp.as_file().sync_all()?;
         tmp.persist(path).map_err(|e| e.error)?;
     }

@@ -227,3 +227,32 @@ fn a_pwm_drive_is_judged_without_a_final_value_and_a_real_error_still_fails() {
     tidewire().args(["verify", s(&p), "--json", s(&j)]).assert().code(1);
     assert_eq!(json(&j)["verdict"], "fail");
 }
+
+#[cfg(unix)]
+#[test]
+fn a_run_stopped_by_a_signal_leaves_no_temporary_and_the_old_output_intact() {
+    let (d, p) = setup("signal", "bench-rig.toml");
+    let out = d.join("run.csv");
+    std::fs::write(&out, b"previous run").unwrap();
+    let bin = assert_cmd::cargo::cargo_bin("tidewire");
+    let mut child = std::process::Command::new(bin)
+        .args(["simulate", s(&p), "--samples", "2000000000", "--csv", s(&out)])
+        .stdout(std::process::Stdio::null())
+        .stderr(std::process::Stdio::null())
+        .spawn()
+        .unwrap();
+    // Wait until the run is streaming into its temporary, then stop it as `kill` does.
+    let started = std::time::Instant::now();
+    let has_tmp = || std::fs::read_dir(&d).unwrap().any(|e| e.unwrap().file_name().to_string_lossy().ends_with(".tmp"));
+    while !has_tmp() && started.elapsed() < std::time::Duration::from_secs(60) {
+        std::thread::sleep(std::time::Duration::from_millis(20));
+    }
+    assert!(has_tmp(), "the run streams into a temporary beside the target");
+    let pid = child.id().to_string();
+    let killed = std::process::Command::new("kill").args(["-TERM", &pid]).status().unwrap();
+    assert!(killed.success());
+    let status = child.wait().unwrap();
+    assert_eq!(status.code(), Some(130), "{status:?}");
+    assert!(!has_tmp(), "no temporary left");
+    assert_eq!(std::fs::read(&out).unwrap(), b"previous run", "the old output is intact");
+}

@@ -161,6 +161,12 @@ pub fn main() -> i32 {
             return if e.use_stderr() { 2 } else { 0 };
         }
     };
+    // Ctrl-C or a termination signal: delete the temporaries of unfinished outputs (the
+    // targets are untouched until the final rename), then exit as an interrupted command.
+    let _ = ctrlc::set_handler(|| {
+        crate::files::remove_temporaries();
+        std::process::exit(130);
+    });
     let r = match cli.command {
         Command::Inspect { plant, json, profile } => inspect::run(&plant, json.as_deref(), profile.into()),
         Command::Compile { plant, image, rust, profile } => {
