@@ -17,6 +17,7 @@ mod soak;
 #[path = "../../examples/firmware/src/stimulus.rs"]
 #[allow(dead_code)]
 mod stimulus;
+mod stream;
 mod table;
 mod tools;
 
@@ -36,7 +37,11 @@ fn main() -> ExitCode {
         ["firmware"] => firmware(false),
         ["firmware", "--inject-panic"] => firmware(true),
         ["soak", rest @ ..] => soak::soak(rest),
-        _ => Err("usage: cargo run -p xtask -- firmware [--inject-panic] | soak [--cases N] [--hours H]".into()),
+        ["stream", rest @ ..] => stream::stream(rest),
+        _ => Err(
+            "usage: cargo run -p xtask -- firmware [--inject-panic] | soak [--cases N] [--hours H] | stream [--samples N]"
+                .into(),
+        ),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
