@@ -58,6 +58,15 @@ fn an_output_on_an_input_or_two_outputs_on_one_path_are_refused_before_work() {
     let x = d.join("x");
     refused(&d, &["compile", s(&p), "--image", s(&x), "--rust", s(&x)], "given for both --image and --rust");
     refused(&d, &["simulate", s(&p), "--csv", s(&x), "--bin", s(&x)], "given for both");
+    // A samples file the plant reads is an input too.
+    let stim = d.join("stim.csv");
+    tidewire().args(["simulate", s(&p), "--samples", "50", "--csv", s(&stim)]).assert().success();
+    let text = std::fs::read_to_string(&p).unwrap();
+    let start = text.find("waveform = {").expect("the demo plant has a waveform");
+    let end = start + text[start..].find('\n').unwrap();
+    let replay = format!("{}waveform = {{ samples = \"stim.csv\" }}{}", &text[..start], &text[end..]);
+    std::fs::write(&p, replay).unwrap();
+    refused(&d, &["simulate", s(&p), "--samples", "10", "--csv", s(&stim)], "also the input");
 }
 
 #[test]
