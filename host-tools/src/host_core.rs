@@ -36,30 +36,94 @@ pub struct CoreRun {
     pub effective_z: Vec<f64>,
 }
 
+/// One sample as the core produced it, for a [`run_core_with`] sink.
+pub struct SampleOut<'a> {
+    /// Sample index.
+    pub n: usize,
+    /// Probe values (V or A).
+    pub probes: &'a [f64],
+    /// The probes as the core's integers (value = raw × [`probe_scales`]).
+    pub raw: &'a [i32],
+    /// The drive's output and input codes.
+    pub drive_out: i16,
+    pub drive_in: i16,
+    /// Per recorded line, its entering waves at the two ends (V).
+    pub line_a: &'a [(f64, f64)],
+}
+
 /// Run the core for `samples` samples, recording the line-end waves of `record`, calling
-/// `progress(n)` every 4096 samples.
+/// `progress(n)` every 4096 samples. Holds the whole run in memory: for long runs use
+/// [`run_core_with`], which hands each sample to a sink.
 pub fn run_core(
     c: &Compiled,
     samples: usize,
     record: &[u16],
     progress: &(dyn Fn(usize) + Sync),
 ) -> Result<CoreRun, RunError> {
+    let mut out = CoreRun {
+        recording: Recording { probes: vec![Vec::with_capacity(samples); c.net.probes.len()], ..Recording::default() },
+        ..CoreRun::default()
+    };
+    out.recording.line_a = vec![Vec::with_capacity(samples); record.len()];
+    let mut sink = |s: SampleOut<'_>| -> Result<(), RunError> {
+        out.drive_out.push(s.drive_out);
+        out.drive_in.push(s.drive_in);
+        for (t, v) in out.recording.probes.iter_mut().zip(s.probes) {
+            t.push(*v);
+        }
+        for (t, v) in out.recording.line_a.iter_mut().zip(s.line_a) {
+            t.push(*v);
+        }
+        if s.n.is_multiple_of(4096) {
+            progress(s.n);
+        }
+        Ok(())
+    };
+    out.effective_z = run_core_with(c, samples, record, &mut sink)?;
+    Ok(out)
+}
+
+/// Run the core for `samples` samples and hand each sample to `sink` (on the worker
+/// thread) as it is computed: memory independent of the run length. A sink error stops the
+/// run. Returns the per-line effective impedances the core chose.
+pub fn run_core_with(
+    c: &Compiled,
+    samples: usize,
+    record: &[u16],
+    sink: &mut (dyn FnMut(SampleOut<'_>) -> Result<(), RunError> + Send),
+) -> Result<Vec<f64>, RunError> {
     std::thread::scope(|scope| {
         let h = std::thread::Builder::new()
             .stack_size(64 << 20)
             .spawn_scoped(scope, || match c.profile {
                 ProfileKind::Wide => {
                     let mut s = Box::new(Solver::<Wide, HOST_PORTS, HOST_JUNCTIONS, HOST_MEMORY, HOST_PORTS>::new());
-                    drive(&mut s, c, samples, record, progress)
+                    drive(&mut s, c, samples, record, sink)
                 }
                 ProfileKind::Narrow => {
                     let mut s = Box::new(Solver::<Narrow, HOST_PORTS, HOST_JUNCTIONS, HOST_MEMORY, HOST_PORTS>::new());
-                    drive(&mut s, c, samples, record, progress)
+                    drive(&mut s, c, samples, record, sink)
                 }
             })
             .map_err(|e| RunError::Thread(e.to_string()))?;
         h.join().map_err(|_| RunError::Thread("worker panicked".into()))?
     })
+}
+
+/// Per probe, volts (or amperes) per unit of the core's raw probe integer: one wave LSB,
+/// divided by the line impedance for a current probe (i = (a − b)/Z0).
+pub fn probe_scales(c: &Compiled) -> Vec<f64> {
+    let lsb = c.volts_per_lsb();
+    c.net
+        .probes
+        .iter()
+        .map(|p| match p.kind {
+            tidewire_core::ProbeKind::Current => {
+                lsb / (c.net.lines.get(p.line as usize).map_or(1.0, |l| l.z_milliohm as f64 / 1000.0))
+            }
+            _ => lsb,
+        })
+        .collect()
 }
 
 fn code(volts: f64, vpc: f64) -> i16 {
@@ -71,18 +135,16 @@ fn drive<P: Profile, const A: usize, const B: usize, const C: usize, const D: us
     c: &Compiled,
     samples: usize,
     record: &[u16],
-    progress: &(dyn Fn(usize) + Sync),
-) -> Result<CoreRun, RunError> {
+    sink: &mut (dyn FnMut(SampleOut<'_>) -> Result<(), RunError> + Send),
+) -> Result<Vec<f64>, RunError> {
     s.load(&c.network()).map_err(RunError::Build)?;
     let vpc = c.net.volts_per_code as f64;
     let lsb = c.volts_per_lsb();
     let z: Vec<f64> = c.net.lines.iter().map(|l| l.z_milliohm as f64 / 1000.0).collect();
-    let mut out = CoreRun {
-        recording: Recording { probes: vec![Vec::with_capacity(samples); c.net.probes.len()], ..Recording::default() },
-        effective_z: (0..c.net.lines.len()).map(|l| s.effective_impedance(l)).collect(),
-        ..CoreRun::default()
-    };
-    out.recording.line_a = vec![Vec::with_capacity(samples); record.len()];
+    let effective_z = (0..c.net.lines.len()).map(|l| s.effective_impedance(l)).collect();
+    let mut probes = vec![0.0; c.net.probes.len()];
+    let mut raw = vec![0i32; c.net.probes.len()];
+    let mut line_a = vec![(0.0, 0.0); record.len()];
     let mut ev = c.events.iter().peekable();
     let mut dac_history: std::collections::VecDeque<i16> = std::collections::VecDeque::new();
     for n in 0..samples {
@@ -121,25 +183,22 @@ fn drive<P: Profile, const A: usize, const B: usize, const C: usize, const D: us
                 dac_history.pop_front();
             }
         }
-        out.drive_out.push(o);
-        out.drive_in.push(input);
-        for k in 0..c.net.probes.len() {
-            let raw = s.probe_raw(k) as f64 * lsb;
+        for (k, slot) in probes.iter_mut().enumerate() {
+            raw[k] = s.probe_raw(k);
+            let raw = raw[k] as f64 * lsb;
             let v = if c.net.probes[k].kind == tidewire_core::ProbeKind::Current {
                 raw / z[c.net.probes[k].line as usize]
             } else {
                 raw
             };
-            out.recording.probes[k].push(v);
+            *slot = v;
         }
         for (k, l) in record.iter().enumerate() {
             let (aa, _) = s.line_end_waves(*l as usize, false);
             let (ab, _) = s.line_end_waves(*l as usize, true);
-            out.recording.line_a[k].push((aa as f64 * lsb, ab as f64 * lsb));
+            line_a[k] = (aa as f64 * lsb, ab as f64 * lsb);
         }
-        if n % 4096 == 0 {
-            progress(n);
-        }
+        sink(SampleOut { n, probes: &probes, raw: &raw, drive_out: o, drive_in: input, line_a: &line_a })?;
     }
-    Ok(out)
+    Ok(effective_z)
 }

@@ -13,6 +13,7 @@ pub mod plant;
 pub mod plot;
 pub mod reference;
 pub mod rig;
+pub mod runfile;
 pub mod si;
 pub mod twin;
 pub mod verify;

@@ -48,6 +48,37 @@ pub fn format(v: f64, unit: &str) -> String {
     format!("{:.4} {}{unit}", v / s.factor, s.prefix)
 }
 
+/// `v` rounded *up* to three significant figures, with its prefix (e.g. 989.3e3 Hz reads
+/// "990 kHz"): for hints that name a least value that passes (rounding down could name a
+/// value that fails).
+pub fn at_least(v: f64, unit: &str) -> String {
+    three_figures(v, unit, f64::ceil)
+}
+
+/// `v` rounded *down* to three significant figures, with its prefix: for hints that name a
+/// largest value that passes.
+pub fn at_most(v: f64, unit: &str) -> String {
+    three_figures(v, unit, f64::floor)
+}
+
+fn three_figures(v: f64, unit: &str, round: fn(f64) -> f64) -> String {
+    if !(v.is_finite() && v > 0.0) {
+        return format!("{v} {unit}");
+    }
+    // Round in the value's own decade, then pick the prefix for the rounded value (990 kHz
+    // rounded up may become 1 MHz).
+    let decade = v.log10().floor() as i32;
+    let step = 10f64.powi(decade - 2);
+    // A quotient off by one ulp can only move the result one step further the safe way.
+    let r = round(v / step) * step;
+    let sc = Scale::for_magnitude(r);
+    let x = r / sc.factor;
+    let decimals = (2 - x.log10().floor() as i32).max(0) as usize;
+    let text = format!("{x:.decimals$}");
+    let text = if text.contains('.') { text.trim_end_matches('0').trim_end_matches('.').to_string() } else { text };
+    format!("{text} {}{unit}", sc.prefix)
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -60,5 +91,16 @@ mod tests {
         assert_eq!(format(0.0125, "V"), "12.5000 mV");
         assert_eq!(format(200e6, "Hz"), "200.0000 MHz");
         assert_eq!(format(1500.0, "V"), "1.5000 kV");
+    }
+
+    #[test]
+    fn least_and_largest_values_round_the_safe_way() {
+        assert_eq!(at_least(989.3e3, "Hz"), "990 kHz");
+        assert_eq!(at_least(199_999.0, "Hz"), "200 kHz");
+        assert_eq!(at_least(200_001.0, "Hz"), "201 kHz");
+        assert_eq!(at_least(999.5e3, "Hz"), "1 MHz");
+        assert_eq!(at_most(4.2949e6, "ohm"), "4.29 Mohm");
+        assert_eq!(at_most(141.39e6, "Hz"), "141 MHz");
+        assert_eq!(at_least(0.5, "s"), "500 ms");
     }
 }

@@ -92,13 +92,14 @@ fn every_demo_plant_passes_verify_within_its_tolerances() {
 
 #[test]
 fn verify_fails_when_a_tolerance_is_tighter_than_the_emulation_reaches() {
-    // The same bench rig with max error 0.001 % of the step: the delay quantization and the
-    // ADC's 0.15 mV codes alone exceed that, so verify must say FAIL and exit 1.
+    // The same bench rig with max error 0.1 % of the step (2 mV, above one 0.15 mV ADC code,
+    // so the limit is not refused as finer than the I/O): the delay quantization alone
+    // exceeds it (0.25-1.2 % here), so verify must say FAIL and exit 1.
     let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/plants");
     let text = std::fs::read_to_string(dir.join("bench-rig.toml")).unwrap();
     let start = text.find("max_error").expect("bench rig sets max_error");
     let end = start + text[start..].find('\n').unwrap();
-    let tight = format!("{}max_error = \"0.001 %\"{}", &text[..start], &text[end..]);
+    let tight = format!("{}max_error = \"0.1 %\"{}", &text[..start], &text[end..]);
     let tmp = std::env::temp_dir().join(format!("tidewire-tight-{}.toml", std::process::id()));
     std::fs::write(&tmp, tight).unwrap();
     let a = Command::cargo_bin("tidewire").unwrap().args(["verify", tmp.to_str().unwrap()]).assert().code(1);

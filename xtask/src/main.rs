@@ -11,6 +11,7 @@
 //! * `soak [--cases N] [--hours H]`: the property suites with many cases, for hours if asked
 //!   (see `soak.rs`).
 //! * `rig`: the rig firmware in QEMU driven by `tidewire rig` end to end (see `rig.rs`).
+//! * `stream [--samples N]`: streaming `simulate` measured: time, output size, peak memory.
 mod figures;
 mod gen;
 mod host;
@@ -22,6 +23,7 @@ mod soak;
 #[path = "../../examples/firmware/src/stimulus.rs"]
 #[allow(dead_code)]
 mod stimulus;
+mod stream;
 mod table;
 mod tools;
 
@@ -42,7 +44,9 @@ fn main() -> ExitCode {
         ["firmware", "--inject-panic"] => firmware(true),
         ["soak", rest @ ..] => soak::soak(rest),
         ["rig"] => rig::rig(),
-        _ => Err("usage: cargo run -p xtask -- firmware [--inject-panic] | soak [--cases N] [--hours H] | rig".into()),
+        ["stream", rest @ ..] => stream::stream(rest),
+        _ => Err("usage: cargo run -p xtask -- firmware [--inject-panic] | soak [--cases N] [--hours H] | rig | stream [--samples N]"
+            .into()),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -15,6 +15,7 @@
 pub mod budget;
 mod checks;
 mod scale;
+pub mod sense;
 pub mod sweep;
 
 pub use scale::WIDE_IO_SHIFT;
@@ -42,7 +43,9 @@ pub struct Analysis {
 /// Analyse a compiled plant: set its fixed-point scale and return the run figures.
 pub fn analyse(c: &mut Compiled, plant: &Plant, file: &str) -> Result<Analysis, PlantError> {
     let mut a = Analysis::default();
+    sense::capacity(c, plant, file)?;
     scale::choose(c, plant, file, &mut a)?;
+    sense::after_scale(c, plant, file, &mut a)?;
     checks::fill(c, plant, file, &mut a)?;
     Ok(a)
 }

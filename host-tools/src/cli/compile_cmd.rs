@@ -31,8 +31,12 @@ pub(super) fn run(
     if image.is_none() && rust.is_none() {
         return Err(Failure { code: 2, message: "error: compile needs --image OUT.bin and/or --rust OUT.rs".into() });
     }
+    let named: Vec<(&str, &Path)> =
+        [("--image", image), ("--rust", rust)].into_iter().filter_map(|(k, p)| p.map(|p| (k, p))).collect();
+    let batch = super::outputs::guard(path, &named)?;
     let (plant, c, _) = load_and_prepare(path, profile)?;
     write_outputs(&c, &plant.name, image, rust)?;
+    super::outputs::commit(batch)?;
     Ok(0)
 }
 
@@ -43,7 +47,9 @@ pub(crate) fn progress(total: usize, what: &str) -> indicatif::ProgressBar {
         return indicatif::ProgressBar::hidden();
     }
     let pb = indicatif::ProgressBar::new(total as u64);
-    if let Ok(style) = indicatif::ProgressStyle::with_template("{msg:>10} [{bar:36}] {pos}/{len} samples") {
+    if let Ok(style) =
+        indicatif::ProgressStyle::with_template("{msg:>10} [{bar:36}] {pos}/{len} samples, about {eta} left")
+    {
         pb.set_style(style.progress_chars("=> "));
     }
     pb.set_message(what.to_string());

@@ -58,5 +58,5 @@ pub(super) fn run(out: &Path) -> Result<i32, Failure> {
         Some(&sweep_svg),
         ProfileKind::Wide,
     )?;
-    Ok(if v.pass() { 0 } else { 1 })
+    Ok(if super::verify_cmd::run_pass(&plant, &v) { 0 } else { 1 })
 }

@@ -135,6 +135,11 @@ fn same_file(a: &Path, b: &Path) -> bool {
 
 pub(super) fn run(a: &ExtractArgs) -> Result<i32, Failure> {
     let opts = options(a)?;
+    let mut outs: Vec<(&str, &Path)> = vec![("--out", a.out.as_path())];
+    if let Some(svg) = &a.svg {
+        outs.push(("--svg", svg.as_path()));
+    }
+    super::precheck_outputs(&[a.capture.as_path()], &outs)?;
     for (name, out) in [("--out", Some(&a.out)), ("--svg", a.svg.as_ref())] {
         if let Some(out) = out {
             if same_file(out, &a.capture) {

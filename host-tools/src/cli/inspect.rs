@@ -125,8 +125,19 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
     s
 }
 
-pub(super) fn run(path: &Path, profile: ProfileKind) -> Result<i32, Failure> {
+pub(super) fn run(path: &Path, json: Option<&Path>, profile: ProfileKind) -> Result<i32, Failure> {
+    let named: Vec<(&str, &Path)> = json.map(|p| ("--json", p)).into_iter().collect();
+    let batch = super::outputs::guard(path, &named)?;
     let (plant, c, a) = load_and_prepare(path, profile)?;
-    print!("{}", report_text(&plant, &c, &a, &path.display().to_string()));
+    let file = path.display().to_string();
+    if let Some(p) = json {
+        let doc = super::json::inspect_json(&plant, &c, &a, &file);
+        crate::files::write_atomic(p, &super::json::to_bytes(&doc)).map_err(|e| super::io_failure(p, e))?;
+    }
+    let written = super::outputs::commit(batch)?;
+    print!("{}", report_text(&plant, &c, &a, &file));
+    for p in written {
+        println!("wrote {}", p.display());
+    }
     Ok(0)
 }

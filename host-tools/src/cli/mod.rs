@@ -4,6 +4,8 @@ mod compile_cmd;
 mod demo;
 mod extract;
 mod inspect;
+mod json;
+mod outputs;
 mod rate;
 mod rig;
 mod simulate;
@@ -50,6 +52,9 @@ pub enum Command {
     /// Validate a plant and report timing, reflections, DC point, fixed-point scale, storage.
     Inspect {
         plant: PathBuf,
+        /// Also write the report for machines (schema: docs/json-output.md).
+        #[arg(long, value_name = "OUT.json")]
+        json: Option<PathBuf>,
         #[arg(long, value_enum, default_value = "wide")]
         profile: ProfileArg,
     },
@@ -63,14 +68,18 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "wide")]
         profile: ProfileArg,
     },
-    /// Run the fixed-point core on the host over the plant's drive; write probes as CSV.
+    /// Run the fixed-point core on the host over the plant's drive; stream probes to CSV
+    /// and/or a compact run file (docs/run-file.md) as it runs.
     Simulate {
         plant: PathBuf,
         /// Samples to run (default: the plant's duration).
         #[arg(long)]
-        samples: Option<usize>,
+        samples: Option<u64>,
         #[arg(long, value_name = "OUT.csv")]
-        csv: PathBuf,
+        csv: Option<PathBuf>,
+        /// The core's probe integers, 4 bytes per value, exact (docs/run-file.md).
+        #[arg(long, value_name = "OUT.twrun")]
+        bin: Option<PathBuf>,
         #[arg(long, value_enum, default_value = "wide")]
         profile: ProfileArg,
         /// Impedance against distance seen from the probe at the drive (exact reference).
@@ -87,6 +96,12 @@ pub enum Command {
         lattice: Option<PathBuf>,
         #[arg(long, value_name = "OUT.csv")]
         csv: Option<PathBuf>,
+        /// Figures and verdict for machines (schema: docs/json-output.md).
+        #[arg(long, value_name = "OUT.json")]
+        json: Option<PathBuf>,
+        /// Samples to run and compare (default: the plant's duration).
+        #[arg(long)]
+        samples: Option<u64>,
         #[arg(long, value_enum, default_value = "wide")]
         profile: ProfileArg,
         /// Impedance against distance seen from the probe at the drive (exact reference).
@@ -159,6 +174,20 @@ pub(crate) fn load_and_prepare(path: &Path, profile: ProfileKind) -> Result<(Pla
 }
 
 /// After `simulate` or `verify` (exit `code`): the view against distance, if asked for.
+/// Refuse, before any work, an output that is an input, two outputs on one path, or a target
+/// that must not be replaced (a link, a device, a folder, a read-only file): `files`' rules.
+pub(crate) fn precheck_outputs(inputs: &[&Path], outputs: &[(&str, &Path)]) -> Result<(), Failure> {
+    crate::files::check_outputs(inputs, outputs).map_err(|e| Failure { code: 2, message: format!("error: {e}") })
+}
+
+/// The outputs of `simulate` / `verify` named on the command line, with the profile picture.
+fn with_profile<'a>(mut outs: Vec<(&'a str, &'a Path)>, svg: Option<&'a Path>) -> Vec<(&'a str, &'a Path)> {
+    if let Some(svg) = svg {
+        outs.push(("--profile-svg", svg));
+    }
+    outs
+}
+
 fn profile_view(path: &Path, svg: Option<&Path>, code: i32) -> Result<i32, Failure> {
     if let Some(svg) = svg {
         let plant = load_plant(path)?;
@@ -178,17 +207,43 @@ pub fn main() -> i32 {
             return if e.use_stderr() { 2 } else { 0 };
         }
     };
+    // Ctrl-C or a termination signal: delete the temporaries of unfinished outputs (the
+    // targets are untouched until the final rename), then exit as an interrupted command.
+    let _ = ctrlc::set_handler(|| {
+        crate::files::remove_temporaries();
+        std::process::exit(130);
+    });
     let r = match cli.command {
-        Command::Inspect { plant, profile } => inspect::run(&plant, profile.into()),
+        Command::Inspect { plant, json, profile } => inspect::run(&plant, json.as_deref(), profile.into()),
         Command::Compile { plant, image, rust, profile } => {
             compile_cmd::run(&plant, image.as_deref(), rust.as_deref(), profile.into())
         }
-        Command::Simulate { plant, samples, csv, profile, profile_svg } => {
-            simulate::run(&plant, samples, &csv, profile.into())
+        Command::Simulate { plant, samples, csv, bin, profile, profile_svg } => {
+            let named = [("--csv", csv.as_deref()), ("--bin", bin.as_deref())];
+            let outs =
+                with_profile(named.into_iter().filter_map(|(n, p)| Some((n, p?))).collect(), profile_svg.as_deref());
+            let out = simulate::SimOutputs { csv: csv.as_deref(), bin: bin.as_deref() };
+            precheck_outputs(&[plant.as_path()], &outs)
+                .and_then(|()| simulate::run(&plant, samples, out, profile.into()))
                 .and_then(|c| profile_view(&plant, profile_svg.as_deref(), c))
         }
-        Command::Verify { plant, svg, lattice, csv, profile, profile_svg } => {
-            verify_cmd::run(&plant, svg.as_deref(), lattice.as_deref(), csv.as_deref(), profile.into())
+        Command::Verify { plant, svg, lattice, csv, json, samples, profile, profile_svg } => {
+            let out = verify_cmd::VerifyOutputs {
+                svg: svg.as_deref(),
+                lattice: lattice.as_deref(),
+                csv: csv.as_deref(),
+                json: json.as_deref(),
+            };
+            let named = [
+                ("--svg", svg.as_deref()),
+                ("--lattice", lattice.as_deref()),
+                ("--csv", csv.as_deref()),
+                ("--json", json.as_deref()),
+            ];
+            let outs =
+                with_profile(named.into_iter().filter_map(|(n, p)| Some((n, p?))).collect(), profile_svg.as_deref());
+            precheck_outputs(&[plant.as_path()], &outs)
+                .and_then(|()| verify_cmd::run(&plant, out, samples, profile.into()))
                 .and_then(|c| profile_view(&plant, profile_svg.as_deref(), c))
         }
         Command::Sweep { plant, segment, probe, from, to, steps, svg, profile } => {

@@ -349,6 +349,11 @@ fn read(
     check: bool,
     wait: Duration,
 ) -> Result<i32, Failure> {
+    let mut outs: Vec<(&str, &Path)> = vec![("--csv", csv)];
+    if let Some(svg) = svg {
+        outs.push(("--svg", svg));
+    }
+    super::precheck_outputs(&[], &outs)?;
     let deadline = Instant::now() + wait;
     loop {
         match session::status(c)?.capture {

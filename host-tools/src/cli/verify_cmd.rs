@@ -19,6 +19,17 @@ fn ok(b: bool) -> &'static str {
 
 use crate::si::format as si;
 
+/// A probe's verdict: the final-value check counts only when the drive settles to DC
+/// (a periodic drive ends at some point of its period, not at a final value).
+pub(crate) fn probe_pass(p: &crate::verify::ProbeFigures, settles: bool) -> bool {
+    p.pass_max && p.pass_rms && p.pass_arrival && (p.pass_final || !settles)
+}
+
+/// The run's verdict (see [`probe_pass`]).
+pub(crate) fn run_pass(plant: &Plant, v: &Verification) -> bool {
+    v.probes.iter().all(|p| probe_pass(p, plant.drive.settles_to_dc()))
+}
+
 /// The verdict as text.
 pub fn verdict_text(plant: &Plant, c: &Compiled, v: &Verification) -> String {
     let t = &v.tolerances;
@@ -72,15 +83,23 @@ pub fn verdict_text(plant: &Plant, c: &Compiled, v: &Verification) -> String {
             t.arrival_samples,
             ok(p.pass_arrival)
         );
-        let _ = writeln!(
-            s,
-            "   final value      core {}, expected {} ({:+.3} %)   limit {:.2} %   {}",
-            si(p.final_core, u),
-            si(p.final_expected, u),
-            pct(p.final_core - p.final_expected),
-            100.0 * t.final_error,
-            ok(p.pass_final)
-        );
+        if plant.drive.settles_to_dc() {
+            let _ = writeln!(
+                s,
+                "   final value      core {}, expected {} ({:+.3} %)   limit {:.2} %   {}",
+                si(p.final_core, u),
+                si(p.final_expected, u),
+                pct(p.final_core - p.final_expected),
+                100.0 * t.final_error,
+                ok(p.pass_final)
+            );
+        } else {
+            let _ = writeln!(
+                s,
+                "   final value      not checked: the drive is periodic (PWM) and has no DC final value (core ends at {})",
+                si(p.final_core, u)
+            );
+        }
         let st = |x: Option<f64>| x.map_or("not settled".to_string(), |v| si(v, "s"));
         let _ = writeln!(
             s,
@@ -90,7 +109,7 @@ pub fn verdict_text(plant: &Plant, c: &Compiled, v: &Verification) -> String {
         );
         let _ =
             writeln!(s, "   overshoot        {:+.2} %, undershoot {:.2} %", 100.0 * p.overshoot, 100.0 * p.undershoot);
-        if !p.pass() {
+        if !probe_pass(p, plant.drive.settles_to_dc()) {
             fails += 1;
         }
     }
@@ -173,18 +192,67 @@ pub(crate) fn verify_and_write(
     Ok(v)
 }
 
+/// Where `verify` writes.
+pub(super) struct VerifyOutputs<'a> {
+    pub svg: Option<&'a Path>,
+    pub lattice: Option<&'a Path>,
+    pub csv: Option<&'a Path>,
+    pub json: Option<&'a Path>,
+}
+
+/// Most samples `verify` compares: it holds the core, twin and exact traces of every probe
+/// in memory, and the exact reference's cost grows with the run; checked before any work.
+pub const MAX_VERIFY_SAMPLES: u64 = 10_000_000;
+
 pub(super) fn run(
     path: &Path,
-    svg: Option<&Path>,
-    lat: Option<&Path>,
-    csv: Option<&Path>,
+    out: VerifyOutputs<'_>,
+    samples: Option<u64>,
     profile: ProfileKind,
 ) -> Result<i32, Failure> {
-    let (plant, c, _) = load_and_prepare(path, profile)?;
-    let v = verify_and_write(&plant, &c, &path.display().to_string(), svg, lat, csv)?;
+    let named: Vec<(&str, &Path)> =
+        [("--svg", out.svg), ("--lattice", out.lattice), ("--csv", out.csv), ("--json", out.json)]
+            .into_iter()
+            .filter_map(|(k, p)| p.map(|p| (k, p)))
+            .collect();
+    let batch = super::outputs::guard(path, &named)?;
+    if let Some(n) = samples {
+        if n == 0 || n > MAX_VERIFY_SAMPLES {
+            return Err(Failure {
+                code: 2,
+                message: format!(
+                    "error: --samples {n}: verify compares from 1 to {MAX_VERIFY_SAMPLES} samples (it holds every \
+                     trace in memory)\n  hint: use e.g. --samples {}, or `simulate` for longer runs (it streams)",
+                    n.clamp(1, MAX_VERIFY_SAMPLES)
+                ),
+            });
+        }
+    }
+    let (plant, mut c, _) = load_and_prepare(path, profile)?;
+    if let Some(n) = samples {
+        c.samples = n as usize;
+    } else if c.samples as u64 > MAX_VERIFY_SAMPLES {
+        return Err(Failure {
+            code: 2,
+            message: format!(
+                "error: {}: the plant's duration is {} samples; verify compares at most {MAX_VERIFY_SAMPLES}\n  \
+                 hint: pass --samples {MAX_VERIFY_SAMPLES} (or fewer), or shorten `duration`",
+                path.display(),
+                c.samples
+            ),
+        });
+    }
+    let file = path.display().to_string();
+    let v = verify_and_write(&plant, &c, &file, out.svg, out.lattice, out.csv)?;
+    let pass = run_pass(&plant, &v);
+    if let Some(p) = out.json {
+        let doc = super::json::verify_json(&plant, &c, &v, &file, pass);
+        crate::files::write_atomic(p, &super::json::to_bytes(&doc)).map_err(|e| io_failure(p, e))?;
+    }
+    let written = super::outputs::commit(batch)?;
     print!("{}", verdict_text(&plant, &c, &v));
-    for p in [svg, lat, csv].into_iter().flatten() {
+    for p in written {
         println!("wrote {}", p.display());
     }
-    Ok(if v.pass() { 0 } else { 1 })
+    Ok(if pass { 0 } else { 1 })
 }

@@ -148,7 +148,24 @@ pub(crate) fn err(
 /// it; use `crate::analysis::prepare` for a configuration ready to load.
 pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compiled, PlantError> {
     let dt = 1.0 / plant.sample_rate;
-    let samples = ((plant.duration / dt).round() as usize).max(1);
+    let exact_samples = (plant.duration / dt).round();
+    // Checked before anything is sized by it (the drive's samples, the twin's traces).
+    if exact_samples.is_nan() || exact_samples > MAX_PLANT_SAMPLES as f64 {
+        return Err(err(
+            file,
+            Span::default(),
+            "plant.duration",
+            format!(
+                "a duration of {} is {exact_samples:e} samples at this sample rate; a plant's run holds at most {MAX_PLANT_SAMPLES} samples",
+                crate::si::format(plant.duration, "s")
+            ),
+            format!(
+                "set duration to at most \"{}\" (longer runs: `simulate --samples N` streams)",
+                crate::si::at_most(MAX_PLANT_SAMPLES as f64 * dt, "s")
+            ),
+        ));
+    }
+    let samples = (exact_samples as usize).max(1);
     let frac = match profile {
         ProfileKind::Wide => <tidewire_core::Wide as tidewire_core::Profile>::LOSS_FRAC,
         ProfileKind::Narrow => <tidewire_core::Narrow as tidewire_core::Profile>::LOSS_FRAC,
@@ -213,7 +230,10 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
     // Drive.
     let (drive, host_drive) = match &plant.drive {
         PlantDrive::Source { node, emf, rs } => (
-            Drive::Source { junction: node_junction[*node], milliohm: to_milliohm(*rs) },
+            Drive::Source {
+                junction: node_junction[*node],
+                milliohm: checked_milliohm(*rs, file, plant.nodes[*node].span, "drive.resistance")?,
+            },
             HostDrive::Source { emf: emf.sample(dt, samples) },
         ),
         PlantDrive::Rig { node, r_ref, latency, stimulus, dut_resistance, .. } => {
@@ -295,13 +315,32 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
     // Events.
     let mut events = Vec::new();
     for (ei, e) in plant.events.iter().enumerate() {
-        let sample = (e.at / dt).round() as usize;
+        let sample = (e.at / dt).round();
+        // An event at or after the end of the run would never act: say so, not ignore it.
+        if sample.is_nan() || sample >= samples as f64 {
+            return Err(err(
+                file,
+                e.span,
+                "event.at",
+                format!(
+                    "the event at {} is outside the run, which ends at {} (plant.duration)",
+                    crate::si::format(e.at, "s"),
+                    crate::si::format(samples as f64 * dt, "s")
+                ),
+                format!(
+                    "move it to at most at = \"{}\", or set plant.duration to at least \"{}\"",
+                    crate::si::at_most((samples - 1) as f64 * dt, "s"),
+                    crate::si::at_least(e.at + 2.0 * dt, "s")
+                ),
+            ));
+        }
+        let sample = sample as usize;
         let action = match e.action {
             EventAction::SetLoad(n, load) => {
                 let shunt = match load {
                     Load::Open => Shunt::Open,
                     Load::Short => Shunt::Short,
-                    Load::Resistor(r) => Shunt::Resistor { milliohm: to_milliohm(r) },
+                    Load::Resistor(r) => Shunt::Resistor { milliohm: checked_milliohm(r, file, e.span, "event.load")? },
                     _ => {
                         return Err(err(
                             file,
@@ -340,7 +379,45 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
     Ok(compiled)
 }
 
-/// Ohms to the core's milliohms, rounded, at least 1.
+/// Most samples of a plant's own run (its duration): `verify`, the fixed-point scale and
+/// the drive hold every sample of it in memory. `simulate --samples` streams past it.
+pub const MAX_PLANT_SAMPLES: usize = 10_000_000;
+
+/// The core's resistances are whole milliohms in a `u32`: 1 mΩ to 4 294 967.295 Ω.
+pub const MIN_OHM: f64 = 1e-3;
+pub const MAX_OHM: f64 = u32::MAX as f64 / 1000.0;
+
+/// A resistance from the plant file in the core's milliohms, or a located error when it
+/// is outside the range the core holds (never clamped silently: a clamped load makes the
+/// core disagree with the physics by the clamp).
+pub(crate) fn checked_milliohm(ohm: f64, file: &str, span: Span, field: &str) -> Result<u32, PlantError> {
+    let shown = crate::si::format(ohm, "ohm");
+    if ohm.is_finite() && ohm < MIN_OHM * (1.0 - 1e-9) {
+        return Err(err(
+            file,
+            span,
+            field,
+            format!("{shown} is below the smallest resistance the core holds, 1 mohm"),
+            "write at least \"1 mohm\", or \"short\" for a dead short",
+        ));
+    }
+    if !ohm.is_finite() || ohm > MAX_OHM {
+        return Err(err(
+            file,
+            span,
+            field,
+            format!("{shown} is above the largest resistance the core holds, {}", crate::si::at_most(MAX_OHM, "ohm")),
+            format!(
+                "write at most \"{}\", or \"open\" (against any cable's impedance that is an open to within 0.01 %)",
+                crate::si::at_most(MAX_OHM, "ohm")
+            ),
+        ));
+    }
+    Ok(to_milliohm(ohm))
+}
+
+/// Ohms to the core's milliohms, rounded, at least 1 (for values the compiler derived;
+/// values from the plant file go through [`checked_milliohm`]).
 pub fn to_milliohm(ohm: f64) -> u32 {
     (ohm * 1000.0).round().clamp(1.0, u32::MAX as f64) as u32
 }

@@ -30,6 +30,10 @@ pub(super) struct Builder<'p> {
     pub junctions: Vec<Junction>,
     pub pieces: Vec<Vec<LinePiece>>,
     pub timings: Vec<SegmentTiming>,
+    /// Loss designs by (cable index, line length bits): the fit depends only on the cable,
+    /// the length, the sample rate and the profile (fixed per build), so a chain of equal
+    /// segments of one cable fits once, not once per segment.
+    loss_cache: std::collections::HashMap<(usize, u64), Option<super::loss::LossDesign>>,
 }
 
 impl<'p> Builder<'p> {
@@ -44,6 +48,7 @@ impl<'p> Builder<'p> {
             junctions: vec![],
             pieces: vec![],
             timings: vec![],
+            loss_cache: Default::default(),
         }
     }
 
@@ -83,8 +88,8 @@ impl<'p> Builder<'p> {
                 field,
                 format!("segment is {:.3} ns long, shorter than half a sample ({:.3} ns)", tau * 1e9, self.dt * 0.5e9),
                 format!(
-                    "raise plant.sample_rate to at least {:.1} MHz, or merge this segment into a neighbour",
-                    need / 1e6
+                    "raise plant.sample_rate to at least \"{}\", or merge this segment into a neighbour",
+                    crate::si::at_least(need, "Hz")
                 ),
             ));
         }
@@ -216,7 +221,19 @@ impl<'p> Builder<'p> {
     fn add_loss(&mut self, cable: &crate::plant::CableType, pieces: &[LinePiece]) -> Result<(), PlantError> {
         let Some(p) = pieces.last() else { return Ok(()) };
         let fs = 1.0 / self.dt;
-        if let Some(d) = super::loss::design(cable, p.end_m - p.start_m, fs, p.line, self.frac) {
+        let length = p.end_m - p.start_m;
+        let cable_id = self.plant.cables.iter().position(|c| std::ptr::eq(c, cable)).unwrap_or(usize::MAX);
+        let key = (cable_id, length.to_bits());
+        let design = match self.loss_cache.get(&key) {
+            Some(d) => d.clone(),
+            None => {
+                let d = super::loss::design(cable, length, fs, p.line, self.frac);
+                self.loss_cache.insert(key, d.clone());
+                d
+            }
+        };
+        if let Some(mut d) = design {
+            d.loss.line = p.line;
             if d.peak_gain > 1.0 + 1e-9 {
                 let seg = &self.plant.segments[self.pieces.len()];
                 return Err(err(

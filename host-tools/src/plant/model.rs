@@ -191,6 +191,13 @@ impl Waveform {
         }
     }
 
+    /// Whether the waveform settles to a DC value, so that the end of a run can be judged
+    /// against the DC operating point. A PWM drive is periodic: the end of its run is some
+    /// point in a period, not a final value.
+    pub fn settles_to_dc(&self) -> bool {
+        !matches!(self, Waveform::Pwm { .. })
+    }
+
     /// The largest magnitude the waveform reaches, V.
     pub fn peak(&self) -> f64 {
         match self {
@@ -222,6 +229,16 @@ pub enum Drive {
         stimulus: Waveform,
         dut_resistance: f64,
     },
+}
+
+impl Drive {
+    /// Whether the drive settles to a DC value (see [`Waveform::settles_to_dc`]).
+    pub fn settles_to_dc(&self) -> bool {
+        match self {
+            Drive::Source { emf, .. } => emf.settles_to_dc(),
+            Drive::Rig { stimulus, .. } => stimulus.settles_to_dc(),
+        }
+    }
 }
 
 /// Which end of a segment.

@@ -51,9 +51,22 @@ fn arrival(src: &Source, raw: &Raw, sample_rate: f64) -> Result<f64, PlantError>
     } else {
         units::parse_quantity(t, UnitKind::Time).map_err(|e| bad(e.to_string()))? * sample_rate
     };
-    if samples >= 0.0 {
-        Ok(samples)
-    } else {
-        Err(bad(format!("arrival tolerance must not be negative, got {}", written(raw))))
+    if samples.is_nan() || samples < 0.0 {
+        return Err(bad(format!("arrival tolerance must not be negative, got {}", written(raw))));
     }
+    // Edges are found on the sample grid (interpolated between two samples): a tolerance
+    // below one sample judges the interpolation, not the emulation. The small margin lets
+    // "10 ns" at 100 MHz pass although 10e-9·100e6 is not exactly 1 in binary.
+    if samples < 1.0 - 1e-9 {
+        return Err(src.error(
+            raw.span(),
+            field,
+            format!(
+                "an arrival tolerance of {samples:.3} samples is below one sample ({}): edges are only located on the sample grid",
+                crate::si::format(1.0 / sample_rate, "s")
+            ),
+            format!("write arrival = \"1 sample\" (= {} at this sample rate) or more", crate::si::format(1.0 / sample_rate, "s")),
+        ));
+    }
+    Ok(samples)
 }

@@ -287,6 +287,30 @@ fn pwm(
 
 /// One value in volts per line; an optional non-numeric first line (a header), blank lines
 /// and `#` comments are skipped.
+/// Largest samples file read: 64 MiB is about 4 million rows of simulate's CSV, far more
+/// than any drive stimulus needs; checked before reading so a device such as `/dev/zero`
+/// or a huge file cannot exhaust memory.
+pub const MAX_SAMPLES_FILE: u64 = 64 << 20;
+
+/// Read a regular file of at most [`MAX_SAMPLES_FILE`] bytes as text.
+fn read_limited(path: &Path) -> std::io::Result<String> {
+    use std::io::Read;
+    let meta = std::fs::metadata(path)?;
+    if !meta.is_file() {
+        return Err(std::io::Error::other("not a regular file (a device, pipe or folder)"));
+    }
+    if meta.len() > MAX_SAMPLES_FILE {
+        return Err(std::io::Error::other(format!("{} bytes, more than the limit of {MAX_SAMPLES_FILE}", meta.len())));
+    }
+    let mut text = String::new();
+    // `take` also bounds a file that grows while it is read.
+    std::fs::File::open(path)?.take(MAX_SAMPLES_FILE + 1).read_to_string(&mut text)?;
+    if text.len() as u64 > MAX_SAMPLES_FILE {
+        return Err(std::io::Error::other(format!("more than the limit of {MAX_SAMPLES_FILE} bytes")));
+    }
+    Ok(text)
+}
+
 /// A samples file, read with `csv`: either one column of volts (an optional header line
 /// first), or the CSV that `tidewire simulate` writes — a header whose first column is
 /// time in seconds, then the volts in the next column (further columns are ignored). With a
@@ -301,12 +325,15 @@ fn read_samples(
 ) -> Result<Vec<f64>, PlantError> {
     let full = base_dir.join(path.get_ref());
     let shown = full.display().to_string();
-    let text = std::fs::read_to_string(&full).map_err(|e| {
+    let text = read_limited(&full).map_err(|e| {
         src.error(
             path.span(),
             field,
             format!("cannot read samples file {shown}: {e}"),
-            "the path is relative to the plant file's folder",
+            format!(
+                "give a regular file of at most {} MiB; the path is relative to the plant file's folder",
+                MAX_SAMPLES_FILE >> 20
+            ),
         )
     })?;
     let at = |line: u64, message: String| PlantError {

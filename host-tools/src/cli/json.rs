@@ -1,0 +1,184 @@
+//! Results for machines: `verify --json` and `inspect --json`. The schema is documented in
+//! `docs/json-output.md`; its `schema` field names the version, bumped on any change that
+//! renames or removes a field (new fields may appear without a bump).
+use crate::analysis::Analysis;
+use crate::compile::{Compiled, CoreAction};
+use crate::plant::{EventAction, Plant};
+use crate::verify::Verification;
+use serde_json::{json, Value};
+
+/// Schema names and versions.
+pub const VERIFY_SCHEMA: &str = "tidewire-verify/1";
+pub const INSPECT_SCHEMA: &str = "tidewire-inspect/1";
+
+/// A float as JSON: finite values as numbers, anything else as null (JSON has no inf/NaN).
+fn num(x: f64) -> Value {
+    if x.is_finite() {
+        json!(x)
+    } else {
+        Value::Null
+    }
+}
+
+fn opt(x: Option<f64>) -> Value {
+    x.map_or(Value::Null, num)
+}
+
+/// The run's scheduled events, in plant-file order, each with the sample it acts before.
+fn events(plant: &Plant, c: &Compiled, v: Option<&Verification>) -> Vec<Value> {
+    plant
+        .events
+        .iter()
+        .zip(c.events.iter().map(Some).chain(std::iter::repeat(None)))
+        .map(|(e, ce)| {
+            let (kind, target) = match &e.action {
+                EventAction::SetLoad(n, _) => ("set-load", plant.nodes.get(*n).map(|n| n.name.clone())),
+                EventAction::Break { segment, .. } => ("break", plant.segments.get(*segment).map(|s| s.name.clone())),
+            };
+            let sample = ce.map(|c| c.sample);
+            let core_kind = ce.map(|c| match c.action {
+                CoreAction::SetShunt(..) => "shunt",
+                CoreAction::Break(_) => "break",
+            });
+            let mut o = json!({
+                "kind": kind,
+                "target": target,
+                "time_s": num(e.at),
+                "sample": sample,
+                "core_action": core_kind,
+            });
+            if let Some(v) = v {
+                // Whether the exact reference covers the run after this event (the verify
+                // module states how far it compares; after that only the twin is compared).
+                o["compared_with_exact_after"] = json!(sample.is_some_and(|s| s < v.exact_samples));
+            }
+            o
+        })
+        .collect()
+}
+
+/// `verify --json`: the verdict, the figures of each probe and the events.
+pub fn verify_json(plant: &Plant, c: &Compiled, v: &Verification, file: &str, pass: bool) -> Value {
+    let t = &v.tolerances;
+    let settles = plant.drive.settles_to_dc();
+    let probes: Vec<Value> = v
+        .probes
+        .iter()
+        .map(|p| {
+            json!({
+                "name": p.name,
+                "unit": p.unit,
+                "norm": num(p.norm),
+                "compared_samples": v.exact_samples.min(v.samples),
+                "max_error": num(p.max_error),
+                "rms_error": num(p.rms_error),
+                "max_error_fraction": num(p.max_error / p.norm),
+                "rms_error_fraction": num(p.rms_error / p.norm),
+                "arithmetic_error": num(p.arithmetic_error),
+                "model_error": num(p.model_error),
+                "arrival": {
+                    "core_samples": opt(p.arrival_core),
+                    "exact_samples": opt(p.arrival_exact),
+                },
+                "final_value": {
+                    "checked": settles,
+                    "core": num(p.final_core),
+                    "expected": num(p.final_expected),
+                    "error_fraction": num((p.final_core - p.final_expected) / p.norm),
+                },
+                "settling_s": { "to_1_percent": opt(p.settle_1), "to_5_percent": opt(p.settle_5) },
+                "overshoot_fraction": num(p.overshoot),
+                "undershoot_fraction": num(p.undershoot),
+                "pass": {
+                    "max_error": p.pass_max,
+                    "rms_error": p.pass_rms,
+                    "arrival": p.pass_arrival,
+                    "final_value": if settles { json!(p.pass_final) } else { Value::Null },
+                },
+                "verdict": if super::verify_cmd::probe_pass(p, settles) { "pass" } else { "fail" },
+            })
+        })
+        .collect();
+    json!({
+        "schema": VERIFY_SCHEMA,
+        "verdict": if pass { "pass" } else { "fail" },
+        "plant": plant.name,
+        "file": file,
+        "profile": c.profile.name(),
+        "sample_period_s": num(c.dt),
+        "samples": v.samples,
+        "exact_samples": v.exact_samples,
+        "drive_step": num(v.step),
+        "drive_settles_to_dc": settles,
+        "tolerances": {
+            "max_error_fraction": num(t.max_error),
+            "rms_error_fraction": num(t.rms_error),
+            "final_error_fraction": num(t.final_error),
+            "arrival_samples": num(t.arrival_samples),
+        },
+        "probes": probes,
+        "events": events(plant, c, Some(v)),
+    })
+}
+
+/// `inspect --json`: per segment the model and its timing error, the fixed point, warnings.
+pub fn inspect_json(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Value {
+    let r = &c.report;
+    let segments: Vec<Value> = r
+        .segments
+        .iter()
+        .map(|t| {
+            json!({
+                "name": t.name,
+                "cable": t.cable,
+                "length_m": num(t.length),
+                "z0_ohm": num(t.z0),
+                "delay_exact_s": num(t.tau),
+                "delay_samples": t.delay,
+                "timing_error_s": num(t.error_s),
+                "timing_error_fraction": num(t.error_s / t.tau),
+                "loop_resistance_ohm": num(t.r_total),
+                "sections": t.sections,
+                "resistance_dropped": t.r_dropped,
+                "loss_fit_error_db": opt(t.loss_fit_db),
+                "loss_at_0_4_fs_db": num(t.loss_edge_db),
+                "dispersion_s": num(t.dispersion_s),
+                "dispersion_samples": t.dispersion_samples,
+            })
+        })
+        .collect();
+    let reflections: Vec<Value> =
+        r.reflections.iter().map(|g| json!({ "node": g.node, "segment": g.segment, "gamma": num(g.gamma) })).collect();
+    let dc: Vec<Value> = a.dc.iter().map(|(n, v)| json!({ "node": n, "volts": num(*v) })).collect();
+    json!({
+        "schema": INSPECT_SCHEMA,
+        "plant": plant.name,
+        "file": file,
+        "profile": c.profile.name(),
+        "sample_rate_hz": num(1.0 / c.dt),
+        "samples": c.samples,
+        "segments": segments,
+        "reflections": reflections,
+        "dc_point": dc,
+        "fixed_point": {
+            "volts_per_code": num(c.net.volts_per_code as f64),
+            "io_shift": c.net.io_shift,
+            "volts_per_lsb": num(c.volts_per_lsb()),
+            "peak_wave_v": num(a.peak_wave),
+            "wave_range_v": num(a.wave_range),
+            "headroom": num(a.headroom),
+            "max_impedance_error": num(a.max_impedance_error),
+        },
+        "storage": { "ports": r.ports, "junctions": r.junctions, "memory_waves": r.memory_waves },
+        "events": events(plant, c, None),
+        "notes": r.notes,
+        "warnings": a.warnings,
+    })
+}
+
+/// The JSON text as written to a file (pretty, with a final newline).
+pub fn to_bytes(v: &Value) -> Vec<u8> {
+    let mut b = serde_json::to_vec_pretty(v).unwrap_or_default();
+    b.push(b'\n');
+    b
+}
