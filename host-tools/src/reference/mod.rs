@@ -18,6 +18,7 @@ mod error;
 mod laplace;
 pub mod line;
 mod nodal;
+mod sparse;
 
 pub use error::ReferenceError;
 pub use line::{segment_s21, DIELECTRIC_REF_HZ};
@@ -116,8 +117,10 @@ pub fn exact_response(plant: &Plant, opts: &ExactOptions) -> Result<ExactRun, Re
     let dt = 1.0 / plant.sample_rate;
     let drive = check::thevenin(plant).emf.sample(dt, opts.samples);
     let plan = laplace::Plan::new(opts.samples, dt, opts.wrap_level);
+    let network = nodal::Network::new(plant);
+    let one = Complex64::new(1.0, 0.0);
     let inverted = laplace::invert(&plan, &drive, dt, plant.probes.len(), |s| {
-        let sol = nodal::solve(plant, s)?;
+        let sol = network.solve(s, one, &[])?;
         Ok(plant.probes.iter().map(|p| sol.probe(plant, p.kind)).collect())
     })?;
     // The relative bound of the plan applies to each trace's peak over the record and the
