@@ -8,11 +8,13 @@
 //!   only if both links fail on the undefined panic symbol.
 //! * `soak [--cases N] [--hours H]`: the property suites with many cases, for hours if asked
 //!   (see `soak.rs`).
+//! * `scale` (use `--release`): verify time and peak memory of generated plants (see `scale.rs`).
 mod gen;
 mod host;
 mod parts;
 mod plants;
 mod run;
+mod scale;
 mod soak;
 #[path = "../../examples/firmware/src/stimulus.rs"]
 #[allow(dead_code)]
@@ -36,7 +38,11 @@ fn main() -> ExitCode {
         ["firmware"] => firmware(false),
         ["firmware", "--inject-panic"] => firmware(true),
         ["soak", rest @ ..] => soak::soak(rest),
-        _ => Err("usage: cargo run -p xtask -- firmware [--inject-panic] | soak [--cases N] [--hours H]".into()),
+        ["scale"] => scale::scale(),
+        ["scale-one", path] => scale::one(path),
+        _ => {
+            Err("usage: cargo run -p xtask -- firmware [--inject-panic] | soak [--cases N] [--hours H] | scale".into())
+        }
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

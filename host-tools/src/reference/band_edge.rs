@@ -17,7 +17,6 @@
 //! Without it the band-limited ringing (Gibbs) of an off-grid edge would be multiplied by
 //! up to exp(sigma·n·dt) and change with the record length.
 
-use num_complex::Complex64;
 use realfft::RealFftPlanner;
 use std::f64::consts::PI;
 

@@ -100,27 +100,40 @@ pub(crate) fn invert<E: Send>(
 ) -> Result<Inverted, E> {
     let big = plan.n_fft;
     let half = big / 2;
-    let mut planner = RealFftPlanner::<f64>::new();
-    let forward = planner.plan_fft_forward(big);
-    let inverse = planner.plan_fft_inverse(big);
     // The input is held at its last value past n: a step stays a step, so the record has no
     // artificial edge at n whose band-limited ringing would reach back into the output.
     let last = x.last().copied().unwrap_or(0.0);
-    let mut damped: Vec<f64> =
-        (0..big).map(|k| x.get(k).copied().unwrap_or(last) * (-plan.sigma * k as f64 * dt).exp()).collect();
-    let mut spectrum = forward.make_output_vec();
-    // Lengths match by construction (planner of length `big`), so this cannot fail.
-    let _ = forward.process(&mut damped, &mut spectrum);
-    drop(damped);
-    // Bin-major products X(s_k)·H_c(s_k); bins 0 and N/2 take Re H (see the module notes).
-    let mut products = vec![Complex64::new(0.0, 0.0); (half + 1) * channels];
-    products.par_chunks_mut(BINS_PER_TASK * channels.max(1)).enumerate().try_for_each(|(task, chunk)| {
-        for (i, bin) in chunk.chunks_mut(channels.max(1)).enumerate() {
+    // Each plan keeps twiddles of about the record's size, so the forward plan is dropped
+    // before the inverse one is made (they never live together).
+    let spectrum = {
+        let forward = RealFftPlanner::<f64>::new().plan_fft_forward(big);
+        let mut damped: Vec<f64> =
+            (0..big).map(|k| x.get(k).copied().unwrap_or(last) * (-plan.sigma * k as f64 * dt).exp()).collect();
+        let mut spectrum = forward.make_output_vec();
+        // Lengths match by construction (planner of length `big`), so this cannot fail.
+        let _ = forward.process(&mut damped, &mut spectrum);
+        spectrum
+    };
+    // Per channel, the products X(s_k)·H_c(s_k); bins 0 and N/2 take Re H (see the module
+    // notes). Each task fills one run of bins in every channel.
+    let mut products = vec![vec![Complex64::new(0.0, 0.0); half + 1]; channels];
+    let mut tasks: Vec<Vec<&mut [Complex64]>> = Vec::new();
+    for channel in products.iter_mut() {
+        for (t, chunk) in channel.chunks_mut(BINS_PER_TASK).enumerate() {
+            if tasks.len() <= t {
+                tasks.push(Vec::with_capacity(channels));
+            }
+            tasks[t].push(chunk);
+        }
+    }
+    tasks.into_par_iter().enumerate().try_for_each(|(task, mut chunks)| {
+        for i in 0..chunks.first().map_or(0, |c| c.len()) {
             let k = task * BINS_PER_TASK + i;
             let hk = h(plan.s(k, dt))?;
-            for (c, y) in bin.iter_mut().enumerate() {
+            for (c, chunk) in chunks.iter_mut().enumerate() {
                 let hc = hk.get(c).copied().unwrap_or_default();
-                *y = if k == 0 || k == half { Complex64::new((spectrum[k] * hc.re).re, 0.0) } else { spectrum[k] * hc };
+                chunk[i] =
+                    if k == 0 || k == half { Complex64::new(spectrum[k].re * hc.re, 0.0) } else { spectrum[k] * hc };
             }
         }
         Ok(())
@@ -136,21 +149,23 @@ pub(crate) fn invert<E: Send>(
     }
     let n = x.len();
     let mut inverted = Inverted { values: Vec::new(), record_peaks: Vec::new(), edge_peaks: Vec::new() };
-    let mut input = inverse.make_input_vec();
+    let inverse = RealFftPlanner::<f64>::new().plan_fft_inverse(big);
     let mut output = inverse.make_output_vec();
-    for (c, im_h) in edge.into_iter().enumerate() {
-        for (k, y) in input.iter_mut().enumerate() {
-            *y = products[k * channels + c];
-        }
-        // Bins 0 and N/2 are real by construction, so the inverse cannot refuse them.
+    for mut input in products {
+        // Bins 0 and N/2 are real by construction, so the inverse cannot refuse them; the
+        // channel's products are consumed in place.
         let _ = inverse.process(&mut input, &mut output);
+        drop(input);
         let undamped = |m: usize| output[m] / big as f64 * (plan.sigma * m as f64 * dt).exp();
         // The end of the record holds the band-limited precursors of the next period,
         // magnified by the undamping; the first half is the response itself.
         inverted.record_peaks.push((0..half).fold(0.0, |p: f64, m| p.max(undamped(m).abs())));
+        inverted.values.push((0..n).map(undamped).collect());
+    }
+    drop((output, inverse));
+    for im_h in edge {
         let edge = band_edge::correction(x, big, dt, &rule, &im_h);
         inverted.edge_peaks.push(edge.iter().fold(0.0, |p, v| p.max(v.abs())));
-        inverted.values.push((0..n).map(undamped).collect());
     }
     Ok(inverted)
 }
