@@ -66,7 +66,7 @@ impl Solution {
 /// Solve the nodal equations of a checked plant at s (Re s > 0 or s on the jω axis away
 /// from 0), per volt of drive EMF.
 pub(crate) fn solve(plant: &Plant, s: Complex64) -> Result<Solution, ReferenceError> {
-    Network::new(plant).solve(s, Complex64::new(1.0, 0.0), &[])
+    Network::new(plant).solve(s, Complex64::new(1.0, 0.0), &[], &[])
 }
 
 /// One two-port or admittance between unknowns p and q at one frequency (q = p for a
@@ -187,13 +187,15 @@ impl<'a> Network<'a> {
         (st, ends)
     }
 
-    /// Solve at s for a drive EMF `emf` plus currents `inject` (node, A) injected into
-    /// nodes; the node voltages are linear in both.
+    /// Solve at s for a drive EMF `emf`, currents `inject` (node, A) injected into nodes,
+    /// and voltages `forced` (node, V) at shorted nodes (a source in place of the short;
+    /// ignored at other nodes); the voltages are linear in all three.
     pub fn solve(
         &self,
         s: Complex64,
         emf: Complex64,
         inject: &[(usize, Complex64)],
+        forced: &[(usize, Complex64)],
     ) -> Result<Solution, ReferenceError> {
         let (sigma, f_hz) = (s.re, s.im / (2.0 * PI));
         let (st, ends) = self.stamps(s);
@@ -206,6 +208,20 @@ impl<'a> Network<'a> {
         for &(node, i) in inject {
             if let Some(u) = self.unknown.get(node).copied().flatten() {
                 b[u] += i;
+            }
+        }
+        let forced_at = |node: usize| -> Complex64 {
+            forced.iter().filter(|f| f.0 == node && self.unknown[node].is_none()).map(|f| f.1).sum()
+        };
+        if !forced.is_empty() {
+            // A known voltage V_p at a shorted node moves −Y12·V_p to the right-hand side of
+            // each neighbouring unknown.
+            for t in st.iter().filter(|t| t.p != t.q) {
+                match (self.unknown[t.p], self.unknown[t.q]) {
+                    (None, Some(q)) => b[q] -= t.y12 * forced_at(t.p),
+                    (Some(p), None) => b[p] -= t.y12 * forced_at(t.q),
+                    _ => {}
+                }
             }
         }
         let mut vals = vec![Complex64::new(0.0, 0.0); self.pattern.values_len()];
