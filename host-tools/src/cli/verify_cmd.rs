@@ -4,7 +4,7 @@ use super::simulate::probes_csv;
 use super::{io_failure, load_and_prepare, Failure};
 use crate::compile::{Compiled, ProfileKind};
 use crate::plant::Plant;
-use crate::plot::{write_lattice, write_waveforms, LatticeMap, Series, WaveformPlot};
+use crate::plot::{write_lattice_marked, write_waveforms_marked, EventMark, LatticeMap, Series, WaveformPlot};
 use crate::verify::{lattice, verify, Traces, Verification};
 use std::fmt::Write as _;
 use std::path::Path;
@@ -144,8 +144,17 @@ pub fn verdict_text(plant: &Plant, c: &Compiled, v: &Verification) -> String {
     s
 }
 
+/// The events inside the run, as picture marks.
+fn event_marks(v: &Verification) -> Vec<EventMark> {
+    v.events
+        .iter()
+        .enumerate()
+        .map(|(i, e)| EventMark { at: e.at, label: format!("event {}: {}", i + 1, e.action) })
+        .collect()
+}
+
 /// Write the waveform picture.
-pub(crate) fn write_svg(path: &Path, c: &Compiled, tr: &Traces) -> Result<(), Failure> {
+pub(crate) fn write_svg(path: &Path, c: &Compiled, tr: &Traces, marks: &[EventMark]) -> Result<(), Failure> {
     let plots: Vec<WaveformPlot> = c
         .probe_names
         .iter()
@@ -162,7 +171,7 @@ pub(crate) fn write_svg(path: &Path, c: &Compiled, tr: &Traces) -> Result<(), Fa
             extra: vec![],
         })
         .collect();
-    write_waveforms(path, &plots).map_err(|e| io_failure(path, e))
+    write_waveforms_marked(path, &plots, marks).map_err(|e| io_failure(path, e))
 }
 
 /// Write the lattice picture.
@@ -172,12 +181,13 @@ pub(crate) fn write_lattice_svg(
     c: &Compiled,
     lp: &lattice::Path,
     tr: &Traces,
+    marks: &[EventMark],
 ) -> Result<(), Failure> {
     let (positions, values) = lattice::map(c, lp, &tr.core.recording.line_a);
     let names: Vec<(f64, &str)> = lp.boundaries.iter().map(|(x, n)| (*x, n.as_str())).collect();
     let title = format!("{}: voltage along the path (tidewire core)", plant.name);
     let map = LatticeMap { title: &title, dt: c.dt, positions: &positions, values: &values, boundaries: &names };
-    write_lattice(path, &map).map_err(|e| io_failure(path, e))
+    write_lattice_marked(path, &map, marks).map_err(|e| io_failure(path, e))
 }
 
 /// Run verify and write the requested files; returns (verification, lattice path).
@@ -198,10 +208,10 @@ pub(crate) fn verify_and_write(
     let (v, tr) = verify(plant, file, c, &record, &|k| pb.set_position(k as u64))?;
     pb.finish_and_clear();
     if let Some(p) = svg {
-        write_svg(p, c, &tr)?;
+        write_svg(p, c, &tr, &event_marks(&v))?;
     }
     if let (Some(p), Some(lp)) = (lat, &lp) {
-        write_lattice_svg(p, plant, c, lp, &tr)?;
+        write_lattice_svg(p, plant, c, lp, &tr, &event_marks(&v))?;
     }
     if let Some(p) = csv {
         let bytes = probes_csv(
