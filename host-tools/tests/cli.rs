@@ -173,6 +173,14 @@ fn motor_cable_sweep_reproduces_the_critical_length_rule() {
     let (l_short, p_short) = rows[0];
     assert!(l_short == 1.0 && p_short < 1.2, "1 m: {p_short}");
     assert!(std::fs::read_to_string(&svg).unwrap().contains("critical length"));
+    // The exact reference is beside the core at every point: at 120 m (a whole number of
+    // samples) it meets the same closed form.
+    let exact_120 = text
+        .lines()
+        .find(|l| l.trim_start().starts_with("120.00 m"))
+        .and_then(|l| l.split_whitespace().nth(3)?.parse::<f64>().ok())
+        .unwrap();
+    assert!((exact_120 - far).abs() < 0.02 * far, "exact at 120 m: {exact_120} vs {far}");
 }
 
 #[test]

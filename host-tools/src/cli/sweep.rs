@@ -118,7 +118,7 @@ pub(super) fn run(
     }
     let fails = pts.iter().filter(|p| !p.pass).count();
     if fails > 0 {
-        println!("   {fails} of {} points outside the plant's tolerances (ringed in the picture)", pts.len());
+        println!("   outside the plant's tolerances: {fails} of {} points (ringed in the picture)", pts.len());
     }
     if let Some(out) = svg {
         let core: Vec<(f64, f64)> = pts.iter().map(|p| (p.value, p.peak_ratio)).collect();
