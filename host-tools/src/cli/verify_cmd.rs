@@ -37,7 +37,12 @@ pub fn verdict_text(plant: &Plant, c: &Compiled, v: &Verification) -> String {
         v.exact_samples,
         v.wrap_bound
     );
-    if !v.events.is_empty() {
+    if v.exact_samples < v.samples {
+        let _ = writeln!(
+            s,
+            "   the exact reference cannot follow this plant's events (two breaks of one segment): after the first one, only the twin is compared"
+        );
+    } else if !v.events.is_empty() {
         let _ = writeln!(
             s,
             "   scheduled events followed in the exact reference (compensation method): figures cover the whole run"
@@ -85,6 +90,7 @@ pub fn verdict_text(plant: &Plant, c: &Compiled, v: &Verification) -> String {
         } else {
             let against = match p.final_check {
                 crate::verify::FinalCheck::DcPoint => "DC point",
+                crate::verify::FinalCheck::TwinEnd => "twin at the end",
                 _ => "exact at the end",
             };
             let _ = writeln!(
