@@ -173,6 +173,14 @@ fn motor_cable_sweep_reproduces_the_critical_length_rule() {
     let (l_short, p_short) = rows[0];
     assert!(l_short == 1.0 && p_short < 1.2, "1 m: {p_short}");
     assert!(std::fs::read_to_string(&svg).unwrap().contains("critical length"));
+    // The exact reference is beside the core at every point: at 120 m (a whole number of
+    // samples) it meets the same closed form.
+    let exact_120 = text
+        .lines()
+        .find(|l| l.trim_start().starts_with("120.00 m"))
+        .and_then(|l| l.split_whitespace().nth(3)?.parse::<f64>().ok())
+        .unwrap();
+    assert!((exact_120 - far).abs() < 0.02 * far, "exact at 120 m: {exact_120} vs {far}");
 }
 
 #[test]
@@ -218,4 +226,33 @@ fn simulate_output_reads_back_as_a_samples_waveform() {
     let e = tidewire_host::plant::load_plant(&plant_path).unwrap_err();
     assert_eq!((e.line, e.field.as_str()), (4, "drive.waveform.samples"), "{e}");
     assert!(e.message.contains("sample rate"), "{e}");
+}
+
+#[test]
+fn sweep_takes_units_other_parameters_and_refuses_nonsense() {
+    let p = plants().into_iter().find(|p| p.to_string_lossy().contains("drive-to-motor")).unwrap();
+    let p = p.to_str().unwrap();
+    // A node's load as the parameter, values with units; the exact column is there and a
+    // matched motor (80 ohm, the cable's impedance) takes no reflection: peak = Z0/(Z0 + Rs)
+    // of the step = 80/84 [closed form].
+    let a = tidewire()
+        .args(["sweep", p, "--node", "motor", "--probe", "motor terminals", "--from", "80 ohm", "--to", "8 kohm"])
+        .args(["--steps", "3"])
+        .assert()
+        .success();
+    let text = String::from_utf8_lossy(&a.get_output().stdout).into_owned();
+    assert!(text.contains("load resistance of node \"motor\"") && !text.contains("critical length"), "{text}");
+    let first = text.lines().find(|l| l.trim_start().starts_with("80.00")).unwrap();
+    let exact: f64 = first.split_whitespace().nth(3).unwrap().parse().unwrap();
+    assert!((exact - 80.0 / 84.0).abs() < 0.01, "{first}");
+    for bad in [
+        vec!["--segment", "motor-feed", "--from", "3 V"],
+        vec!["--segment", "motor-feed", "--steps", "100000000"],
+        vec!["--segment", "motor-feed", "--node", "motor"],
+        vec!["--cable", "no-such-cable"],
+    ] {
+        let out = tidewire().args(["sweep", p, "--probe", "motor terminals"]).args(&bad).assert().code(2);
+        let err = String::from_utf8_lossy(&out.get_output().stderr).into_owned();
+        assert!(!err.is_empty() && !err.contains("panicked"), "{bad:?}: {err}");
+    }
 }

@@ -300,6 +300,7 @@ fn bad_data_is_an_error_naming_series_and_sample() {
         x_markers: vec![],
         y_markers: vec![],
         log_x: true,
+        failed: ("fails", vec![]),
     };
     let msg = write_sweep(&dir.join("s.svg"), &sweep).expect_err("log of 0").to_string();
     assert!(msg.contains("x = 0") && msg.contains("logarithmic"), "{msg}");
@@ -444,6 +445,7 @@ fn sweep_svg_has_series_markers_and_log_axis() {
             x_markers: vec![(7.5, "critical length 7.5 m"), (30.0, "critical length at 400 ns")],
             y_markers: vec![(1200.0, "2 × step"), (600.0, "step")],
             log_x,
+            failed: ("fails", vec![]),
         };
         let path = dir.join(if log_x { "peak_log.svg" } else { "peak_lin.svg" });
         write_sweep(&path, &plot).expect("write");

@@ -12,6 +12,7 @@
 //!   (see `soak.rs`).
 //! * `rig`: the rig firmware in QEMU driven by `tidewire rig` end to end (see `rig.rs`).
 //! * `stream [--samples N]`: streaming `simulate` measured: time, output size, peak memory.
+//! * `scale` (use `--release`): verify time and peak memory of generated plants (see `scale.rs`).
 mod figures;
 mod gen;
 mod host;
@@ -19,6 +20,7 @@ mod parts;
 mod plants;
 mod rig;
 mod run;
+mod scale;
 mod soak;
 #[path = "../../examples/firmware/src/stimulus.rs"]
 #[allow(dead_code)]
@@ -45,7 +47,9 @@ fn main() -> ExitCode {
         ["soak", rest @ ..] => soak::soak(rest),
         ["rig"] => rig::rig(),
         ["stream", rest @ ..] => stream::stream(rest),
-        _ => Err("usage: cargo run -p xtask -- firmware [--inject-panic] | soak [--cases N] [--hours H] | rig | stream [--samples N]"
+        ["scale"] => scale::scale(),
+        ["scale-one", path] => scale::one(path),
+        _ => Err("usage: cargo run -p xtask -- firmware [--inject-panic] | soak [--cases N] [--hours H] | rig | stream [--samples N] | scale"
             .into()),
     };
     match result {

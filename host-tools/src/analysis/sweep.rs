@@ -1,26 +1,70 @@
-//! One segment's length varied, the peak of one probe from the fixed-point core at each
-//! length — for example the motor terminal voltage against cable length, beside the
-//! critical length l_c = v·t_rise/2 of the drive's edge.
+//! One parameter of the plant varied — a segment's length, a node's load resistance or a
+//! cable's characteristic impedance — and at each value the peak of one probe from the
+//! fixed-point core beside the exact reference, with the plant's tolerances judged at each
+//! point. Points run in parallel (rayon); each is a whole compile + core run + exact run.
 use crate::compile::ProfileKind;
 use crate::host_core::{run_core, RunError};
-use crate::plant::{Drive, Plant, PlantError, Waveform};
+use crate::plant::{Drive, Load, Plant, PlantError, Waveform};
+use crate::reference::{exact_response, ExactOptions, ReferenceError};
+use rayon::prelude::*;
 
-/// One point of a sweep: length (m) and the probe's peak over the run, as a multiple of the
-/// drive's step.
+/// What a sweep varies.
+#[derive(Debug, Clone, Copy, PartialEq)]
+pub enum Parameter {
+    /// The length of segment k, m.
+    Length(usize),
+    /// The load of node k becomes a resistor of the swept value, ohms.
+    LoadResistance(usize),
+    /// The characteristic impedance of cable k, ohms.
+    CableImpedance(usize),
+}
+
+impl Parameter {
+    /// Unit symbol of the swept value.
+    pub fn unit(self) -> &'static str {
+        match self {
+            Parameter::Length(_) => "m",
+            Parameter::LoadResistance(_) | Parameter::CableImpedance(_) => "Ω",
+        }
+    }
+
+    /// The plant with the parameter set to `value`.
+    pub fn apply(self, plant: &Plant, value: f64) -> Plant {
+        let mut p = plant.clone();
+        match self {
+            Parameter::Length(k) => p.segments[k].length = value,
+            Parameter::LoadResistance(k) => p.nodes[k].load = Load::Resistor(value),
+            Parameter::CableImpedance(k) => p.cables[k].z0 = value,
+        }
+        p
+    }
+}
+
+/// One point of a sweep: the swept value, the probe's peak over the run from the core and
+/// from the exact reference (multiples of the drive's step), and the verdict there.
+#[derive(Debug, Clone, PartialEq)]
 pub struct SweepPoint {
-    pub length: f64,
+    pub value: f64,
     pub peak_ratio: f64,
+    pub exact_peak_ratio: f64,
+    /// Largest |core − exact| of the probe, fraction of the drive's step.
+    pub max_error: f64,
+    /// Within the plant's `max_error` and `rms_error` tolerances at this point.
+    pub pass: bool,
 }
 
 /// Why a sweep stopped.
 #[derive(Debug, thiserror::Error)]
 pub enum SweepError {
-    /// The plant at one of the lengths does not compile.
+    /// The plant at one of the values does not compile.
     #[error(transparent)]
     Plant(#[from] PlantError),
     /// The host core could not run it.
     #[error(transparent)]
     Run(#[from] RunError),
+    /// The exact reference could not be computed.
+    #[error(transparent)]
+    Reference(#[from] ReferenceError),
 }
 
 /// The drive's 10–90 % rise time, if its waveform has one.
@@ -35,24 +79,43 @@ pub fn rise_of(plant: &Plant) -> Option<f64> {
     }
 }
 
-/// Run the sweep: segment `segment` at each of `lengths`, the peak of probe `probe`.
+/// Run the sweep: `parameter` at each of `values`, the peak of probe `probe`.
 pub fn sweep(
     plant: &Plant,
     file: &str,
-    segment: usize,
+    parameter: Parameter,
     probe: usize,
-    lengths: &[f64],
+    values: &[f64],
     profile: ProfileKind,
 ) -> Result<Vec<SweepPoint>, SweepError> {
-    let mut out = vec![];
-    for &len in lengths {
-        let mut p = plant.clone();
-        p.segments[segment].length = len;
-        let (c, _) = super::prepare(&p, file, profile)?;
-        let r = run_core(&c, c.samples, &[], &|_| {})?;
-        let step = c.host_drive.emf().iter().fold(0.0f64, |m, x| m.max(x.abs()));
-        let peak = r.recording.probes[probe].iter().fold(0.0f64, |m, x| m.max(x.abs()));
-        out.push(SweepPoint { length: len, peak_ratio: peak / step });
-    }
-    Ok(out)
+    values
+        .par_iter()
+        .map(|&value| {
+            let p = parameter.apply(plant, value);
+            let (c, _) = super::prepare(&p, file, profile)?;
+            let r = run_core(&c, c.samples, &[], &|_| {})?;
+            let ex = exact_response(&p, &ExactOptions { samples: c.samples.max(1), ..ExactOptions::for_plant(&p) })?;
+            let step = c.host_drive.emf().iter().fold(0.0f64, |m, x| m.max(x.abs())).max(f64::MIN_POSITIVE);
+            let core = &r.recording.probes[probe];
+            let exact = &ex.traces[probe].values;
+            let peak = |x: &[f64]| x.iter().fold(0.0f64, |m, v| m.max(v.abs()));
+            let (max_error, rms_error) = errors(core, exact);
+            let tol = p.tolerances;
+            Ok(SweepPoint {
+                value,
+                peak_ratio: peak(core) / step,
+                exact_peak_ratio: peak(exact) / step,
+                max_error: max_error / step,
+                pass: max_error <= tol.max_error * step && rms_error <= tol.rms_error * step,
+            })
+        })
+        .collect()
+}
+
+/// Largest and RMS |a − b| over the common length.
+fn errors(a: &[f64], b: &[f64]) -> (f64, f64) {
+    let n = a.len().min(b.len()).max(1);
+    let (max, sq) =
+        a.iter().zip(b).fold((0.0f64, 0.0f64), |(m, s), (x, y)| (m.max((x - y).abs()), s + (x - y) * (x - y)));
+    (max, (sq / n as f64).sqrt())
 }

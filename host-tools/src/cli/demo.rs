@@ -48,12 +48,13 @@ pub(super) fn run(out: &Path) -> Result<i32, Failure> {
     crate::emit::write_atomic(&motor_path, MOTOR_PLANT.as_bytes()).map_err(|e| io_failure(&motor_path, e))?;
     println!("\n!! {}", super::inspect::CAUTION);
     let sweep_svg = out.join("motor-sweep.svg");
+    let target = super::sweep::Target { segment: Some("motor-feed".into()), node: None, cable: None };
     super::sweep::run(
         &motor_path,
-        "motor-feed",
+        &target,
         "motor terminals",
-        1.0,
-        200.0,
+        "1 m",
+        "200 m",
         16,
         Some(&sweep_svg),
         ProfileKind::Wide,

@@ -51,6 +51,22 @@ fn events(plant: &Plant, c: &Compiled, v: Option<&Verification>) -> Vec<Value> {
                 // Whether the exact reference covers the run after this event (the verify
                 // module states how far it compares; after that only the twin is compared).
                 o["compared_with_exact_after"] = json!(sample.is_some_and(|s| s < v.exact_samples));
+                // Core − exact figures from this event to the next (or the end), per probe,
+                // where the verify module compared them.
+                if let Some(f) = sample.and_then(|s| v.events.iter().find(|f| f.sample == s)) {
+                    o["after"] = json!({
+                        "compared_samples": f.compared,
+                        "action": f.action,
+                        "probes": f.probes.iter().map(|p| json!({
+                            "name": p.name,
+                            "unit": p.unit,
+                            "max_error": num(p.max_error),
+                            "rms_error": num(p.rms_error),
+                            "pass_max": p.pass_max,
+                            "pass_rms": p.pass_rms,
+                        })).collect::<Vec<_>>(),
+                    });
+                }
             }
             o
         })

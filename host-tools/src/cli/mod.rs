@@ -112,16 +112,23 @@ pub enum Command {
     /// voltage against cable length).
     Sweep {
         plant: PathBuf,
+        /// Vary this segment's length (values in metres: "10 m", "0.2 km").
+        #[arg(long, conflicts_with_all = ["node", "cable"])]
+        segment: Option<String>,
+        /// Vary this node's load as a resistor (values in ohms: "50 ohm", "1 kohm").
+        #[arg(long, conflicts_with = "cable")]
+        node: Option<String>,
+        /// Vary this cable's characteristic impedance (values in ohms).
         #[arg(long)]
-        segment: String,
+        cable: Option<String>,
         #[arg(long)]
         probe: String,
-        /// Shortest length, metres.
-        #[arg(long, default_value_t = 1.0)]
-        from: f64,
-        /// Longest length, metres.
-        #[arg(long, default_value_t = 200.0)]
-        to: f64,
+        /// First value, with its unit.
+        #[arg(long, default_value = "1 m")]
+        from: String,
+        /// Last value, with its unit.
+        #[arg(long, default_value = "200 m")]
+        to: String,
         #[arg(long, default_value_t = 16)]
         steps: usize,
         #[arg(long, value_name = "OUT.svg")]
@@ -246,8 +253,9 @@ pub fn main() -> i32 {
                 .and_then(|()| verify_cmd::run(&plant, out, samples, profile.into()))
                 .and_then(|c| profile_view(&plant, profile_svg.as_deref(), c))
         }
-        Command::Sweep { plant, segment, probe, from, to, steps, svg, profile } => {
-            sweep::run(&plant, &segment, &probe, from, to, steps, svg.as_deref(), profile.into())
+        Command::Sweep { plant, segment, node, cable, probe, from, to, steps, svg, profile } => {
+            let target = sweep::Target { segment, node, cable };
+            sweep::run(&plant, &target, &probe, &from, &to, steps, svg.as_deref(), profile.into())
         }
         Command::Demo { out } => demo::run(&out),
         Command::Rig(args) => rig::run(args),

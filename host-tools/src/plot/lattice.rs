@@ -189,6 +189,12 @@ fn check(path: &Path, map: &LatticeMap) -> Result<(), PlotError> {
 /// time samples, columns = positions (metres); colour map diverging around 0 with a
 /// labelled colour bar, segment/node boundaries marked and named on the distance axis.
 pub fn write_lattice(path: &Path, map: &LatticeMap) -> Result<(), PlotError> {
+    write_lattice_marked(path, map, &[])
+}
+
+/// [`write_lattice`] with each scheduled event marked by a line across the map at its time,
+/// labelled at the map's left edge.
+pub fn write_lattice_marked(path: &Path, map: &LatticeMap, marks: &[super::EventMark]) -> Result<(), PlotError> {
     check(path, map)?;
     let vmax = map.values.iter().flatten().fold(0.0f64, |m, v| m.max(v.abs()));
     let (mut bx, mut bt) = (MAX_CELLS_X, MAX_CELLS_T);
@@ -201,7 +207,7 @@ pub fn write_lattice(path: &Path, map: &LatticeMap) -> Result<(), PlotError> {
     let mut svg = String::new();
     {
         let root = SVGBackend::with_string(&mut svg, (WIDTH, HEIGHT)).into_drawing_area();
-        draw(&root, map, &grid, vmax).map_err(|e| PlotError::draw(path, e))?;
+        draw(&root, map, &grid, vmax, marks).map_err(|e| PlotError::draw(path, e))?;
         root.present().map_err(|e| PlotError::draw(path, e))?;
     }
     write_atomic(path, &style::apply_dashes(&svg, &[style::X_MARKER]))
@@ -212,7 +218,13 @@ fn rgb(level: i32) -> RGBColor {
     RGBColor(r, g, b)
 }
 
-fn draw(root: &DrawingArea<SVGBackend<'_>, Shift>, map: &LatticeMap, grid: &Grid, vmax: f64) -> DrawResult {
+fn draw(
+    root: &DrawingArea<SVGBackend<'_>, Shift>,
+    map: &LatticeMap,
+    grid: &Grid,
+    vmax: f64,
+    marks: &[super::EventMark],
+) -> DrawResult {
     root.fill(&style::PAPER)?;
     let x0 = (LEFT_MARGIN + Y_LABEL_W) as i32;
     style::draw_header(root, Some(map.title), &[], x0)?;
@@ -301,6 +313,17 @@ fn draw(root: &DrawingArea<SVGBackend<'_>, Shift>, map: &LatticeMap, grid: &Grid
         ))?;
         // A short tick from the name down to the map edge ties the name to its line.
         root.draw(&PathElement::new(vec![(px, y + 1), (px, py)], style::INK.stroke_width(1)))?;
+    }
+
+    for m in marks.iter().filter(|m| m.at >= 0.0 && m.at / ts.factor <= t_range.end) {
+        let t = m.at / ts.factor;
+        chart.draw_series(LineSeries::new([(x_range.start, t), (x_range.end, t)], style::INK.stroke_width(2)))?;
+        let (px, py) = chart.backend_coord(&(x_range.start, t));
+        root.draw(&Text::new(
+            m.label.clone(),
+            (px + 4, py - 2),
+            style::font(style::TICK_PX).color(&style::INK).pos(Pos::new(HPos::Left, VPos::Bottom)),
+        ))?;
     }
 
     draw_colour_bar(&bar_area, top, vmax)

@@ -14,10 +14,18 @@ mod style;
 mod sweep;
 mod waveforms;
 
-pub use lattice::{diverging_level, level_colour, write_lattice, LatticeMap, LEVELS};
+pub use lattice::{diverging_level, level_colour, write_lattice, write_lattice_marked, LatticeMap, LEVELS};
 pub use profile::{write_profile, Mark, ProfilePlot};
 pub use sweep::{write_sweep, SweepPlot};
-pub use waveforms::{write_waveforms, WaveformPlot};
+pub use waveforms::{write_waveforms, write_waveforms_marked, WaveformPlot};
+
+/// A scheduled event marked on a picture: a line across the time axis at `at` seconds,
+/// labelled.
+#[derive(Debug, Clone, PartialEq)]
+pub struct EventMark {
+    pub at: f64,
+    pub label: String,
+}
 
 use std::path::{Path, PathBuf};
 

@@ -34,6 +34,9 @@ pub struct SweepPlot<'a> {
     pub y_markers: Vec<(f64, &'a str)>,
     /// Logarithmic x axis (all x must then be positive).
     pub log_x: bool,
+    /// Points marked as failing a tolerance (drawn as large red rings), with the label
+    /// of their legend entry.
+    pub failed: (&'a str, Vec<(f64, f64)>),
 }
 
 fn check(path: &Path, plot: &SweepPlot) -> Result<(), PlotError> {
@@ -81,13 +84,19 @@ fn check(path: &Path, plot: &SweepPlot) -> Result<(), PlotError> {
     Ok(())
 }
 
+/// Rings around points that fail a tolerance.
+const FAILED: style::Trace = style::Trace { colour: RGBColor(0xC8, 0x1E, 0x1E), width: 2, dash: None };
+
 /// An x-y sweep plot, e.g. peak motor terminal voltage against cable length, with optional
 /// vertical marker lines (e.g. the critical length) and horizontal reference lines (e.g. 2x
 /// the step).
 pub fn write_sweep(path: &Path, plot: &SweepPlot) -> Result<(), PlotError> {
     check(path, plot)?;
-    let entries: Vec<Entry> =
+    let mut entries: Vec<Entry> =
         plot.series.iter().enumerate().map(|(i, (name, _))| (name.to_string(), style::sweep_trace(i))).collect();
+    if !plot.failed.1.is_empty() {
+        entries.push((plot.failed.0.to_string(), FAILED));
+    }
     let x0 = (LEFT_MARGIN + Y_LABEL_W) as i32;
     let header = style::header_height(true, &entries, x0, WIDTH as i32) as u32;
 
@@ -210,6 +219,7 @@ where
             chart.draw_series(pts.iter().map(|&p| Circle::new(p, 3, trace.colour.filled())))?;
         }
     }
+    chart.draw_series(plot.failed.1.iter().map(|&p| Circle::new(p, 8, FAILED.colour.stroke_width(FAILED.width))))?;
     Ok(())
 }
 

@@ -6,6 +6,7 @@ use std::path::Path;
 use plotters::coord::types::RangedCoordf64;
 use plotters::coord::Shift;
 use plotters::prelude::*;
+use plotters::style::text_anchor::{HPos, Pos, VPos};
 
 use super::style::{self, Entry, Scale, Trace, LEFT_MARGIN, X_LABEL_H, Y_LABEL_W};
 use super::{check_dt, check_finite, decimate, write_atomic, DrawResult, PlotError, Series};
@@ -38,6 +39,16 @@ pub struct WaveformPlot<'a> {
 /// (emulated - reference) in a second panel beneath; x axis time with an engineering unit
 /// chosen from the range (ns/µs/ms), y axis volts/amps. One panel pair per probe, stacked.
 pub fn write_waveforms(path: &Path, plots: &[WaveformPlot]) -> Result<(), PlotError> {
+    write_waveforms_marked(path, plots, &[])
+}
+
+/// [`write_waveforms`] with each scheduled event marked by a vertical line across both
+/// panels of every probe, labelled in the upper panel.
+pub fn write_waveforms_marked(
+    path: &Path,
+    plots: &[WaveformPlot],
+    marks: &[super::EventMark],
+) -> Result<(), PlotError> {
     if plots.is_empty() {
         return Err(PlotError::data(path, "no waveform plots given"));
     }
@@ -49,7 +60,7 @@ pub fn write_waveforms(path: &Path, plots: &[WaveformPlot]) -> Result<(), PlotEr
     let mut svg = String::new();
     {
         let root = SVGBackend::with_string(&mut svg, (WIDTH, height)).into_drawing_area();
-        draw_all(&root, plots, &layouts).map_err(|e| PlotError::draw(path, e))?;
+        draw_all(&root, plots, &layouts, marks).map_err(|e| PlotError::draw(path, e))?;
         root.present().map_err(|e| PlotError::draw(path, e))?;
     }
     let mut traces = vec![style::EMULATED, style::REFERENCE, style::ERROR];
@@ -129,13 +140,18 @@ fn min_max<'v>(traces: impl Iterator<Item = &'v [f64]>) -> (f64, f64) {
     traces.flatten().fold((f64::INFINITY, f64::NEG_INFINITY), |(lo, hi), &v| (lo.min(v), hi.max(v)))
 }
 
-fn draw_all(root: &DrawingArea<SVGBackend<'_>, Shift>, plots: &[WaveformPlot], layouts: &[Layout]) -> DrawResult {
+fn draw_all(
+    root: &DrawingArea<SVGBackend<'_>, Shift>,
+    plots: &[WaveformPlot],
+    layouts: &[Layout],
+    marks: &[super::EventMark],
+) -> DrawResult {
     root.fill(&style::PAPER)?;
     let mut rest = root.clone();
     for (p, l) in plots.iter().zip(layouts) {
         let (main, below) = rest.split_vertically(l.main_header + MAIN_PLOT_H);
         let (err, below) = below.split_vertically(l.error_header + ERROR_PLOT_H);
-        draw_probe(&main, &err, p, l)?;
+        draw_probe(&main, &err, p, l, marks)?;
         rest = below;
     }
     Ok(())
@@ -147,6 +163,7 @@ fn draw_probe(
     err_area: &DrawingArea<SVGBackend<'_>, Shift>,
     p: &WaveformPlot,
     l: &Layout,
+    marks: &[super::EventMark],
 ) -> DrawResult {
     let x0 = (LEFT_MARGIN + Y_LABEL_W) as i32;
     let n = std::iter::once(p.emulated.values.len())
@@ -180,6 +197,18 @@ fn draw_probe(
         ))?;
     }
 
+    let in_range = |m: &&super::EventMark| m.at >= 0.0 && m.at / ts.factor <= x_range.end;
+    for m in marks.iter().filter(in_range) {
+        let x = m.at / ts.factor;
+        chart.draw_series(LineSeries::new([(x, y_lo), (x, y_hi)], style::INK.stroke_width(2)))?;
+        let (px, py) = chart.backend_coord(&(x, y_hi));
+        main.draw(&Text::new(
+            m.label.clone(),
+            (px + 4, py + 2),
+            style::font(style::TICK_PX).color(&style::INK).pos(Pos::new(HPos::Left, VPos::Top)),
+        ))?;
+    }
+
     // Lower panel: the error with its own scale, around a zero line.
     let err = error_trace(p);
     let peak = max_abs(&err);
@@ -190,6 +219,10 @@ fn draw_probe(
     let err_desc = format!("error ({}{})", es.prefix, p.unit);
     let mut chart = panel(err_area, l.error_header, x_range.clone(), e_lo..e_hi, &time_desc, &err_desc)?;
     chart.draw_series(LineSeries::new([(x_range.start, 0.0), (x_range.end, 0.0)], style::ZERO_LINE.stroke_width(1)))?;
+    for m in marks.iter().filter(in_range) {
+        let x = m.at / ts.factor;
+        chart.draw_series(LineSeries::new([(x, e_lo), (x, e_hi)], style::INK.stroke_width(2)))?;
+    }
     let pts = decimate(&err, p.dt, super::MAX_TRACE_POINTS);
     chart.draw_series(LineSeries::new(
         pts.into_iter().map(|(t, v)| (t / ts.factor, v / es.factor)),

@@ -17,8 +17,7 @@
 //! Without it the band-limited ringing (Gibbs) of an off-grid edge would be multiplied by
 //! up to exp(sigma·n·dt) and change with the record length.
 
-use num_complex::Complex64;
-use rustfft::FftPlanner;
+use realfft::RealFftPlanner;
 use std::f64::consts::PI;
 
 /// Number of Gauss–Legendre points on the band edge.
@@ -56,33 +55,73 @@ pub(crate) fn edge_rule(sigma: f64) -> Vec<(f64, f64)> {
     gauss_legendre(EDGE_POINTS).into_iter().map(|(x, w)| (x * sigma, w * sigma)).collect()
 }
 
-/// The term x * (g_sigma − g_0) for outputs m < n, from the input held over the record
-/// (`x_held`, N samples) and Im H at the edge points (`im_h[i]` at `rule[i]`).
-pub(crate) fn correction(x_held: &[f64], n: usize, dt: f64, rule: &[(f64, f64)], im_h: &[f64]) -> Vec<f64> {
-    let big = x_held.len();
-    // Offsets j from −(N−1) to n−1 are the ones that reach outputs m < n.
-    let span = big - 1 + n;
-    let dg = |j: i64| -> f64 {
-        let sum: f64 = rule.iter().zip(im_h).map(|(&(r, w), &im)| w * im * (r * j as f64 * dt).exp()).sum();
+/// The term x * (g_sigma − g_0) for outputs m < n, for the input `x` (n samples) held at
+/// its last value over a record of `big` samples, and Im H at the edge points (`im_h[i]`
+/// at `rule[i]`).
+///
+/// With dg[j] = (dt/pi)·sum_i w_i·Im H_i·rho_i^j, rho_i = −exp(r_i·dt), the sum splits into
+/// the first n inputs (an FFT convolution over offsets −(n−1)..n−1, memory O(n)) and the
+/// held tail k = n..big−1, whose offsets form a geometric series per rule point:
+/// sum_{j=a..b} rho^j = (rho^(b+1) − rho^a)/(rho − 1). So the record length never enters
+/// the memory, only the time of 16 closed forms per output.
+pub(crate) fn correction(x: &[f64], big: usize, dt: f64, rule: &[(f64, f64)], im_h: &[f64]) -> Vec<f64> {
+    let n = x.len();
+    if n == 0 {
+        return Vec::new();
+    }
+    let coef: Vec<(f64, f64)> = rule.iter().zip(im_h).map(|(&(r, w), &im)| (r, dt / PI * w * im)).collect();
+    // rho^j = (−1)^j·exp(r·j·dt), for any integer j.
+    let pow = |r: f64, j: i64| -> f64 {
         let sign = if j.rem_euclid(2) == 0 { 1.0 } else { -1.0 };
-        dt / PI * sign * sum
+        sign * (r * j as f64 * dt).exp()
     };
-    let len = (big + span).next_power_of_two();
-    let mut a: Vec<Complex64> = (0..len).map(|k| Complex64::new(if k < big { x_held[k] } else { 0.0 }, 0.0)).collect();
-    let mut b: Vec<Complex64> = (0..len)
-        .map(|i| {
-            let v = if i < span { dg(i as i64 - (big as i64 - 1)) } else { 0.0 };
-            Complex64::new(v, 0.0)
-        })
-        .collect();
-    let mut planner = FftPlanner::<f64>::new();
+    let dg = |j: i64| -> f64 { coef.iter().map(|&(r, c)| c * pow(r, j)).sum() };
+    // Offsets j = i − (n − 1) for i < 2n − 1 reach outputs m < n from inputs k < n.
+    let span = 2 * n - 1;
+    let len = (n + span).next_power_of_two();
+    let mut planner = RealFftPlanner::<f64>::new();
     let forward = planner.plan_fft_forward(len);
-    forward.process(&mut a);
-    forward.process(&mut b);
-    let mut c: Vec<Complex64> = a.iter().zip(&b).map(|(p, q)| p * q).collect();
-    planner.plan_fft_inverse(len).process(&mut c);
-    // conv[m + N − 1] = sum_k x[k]·dg[m − k].
-    (0..n).map(|m| c[m + big - 1].re / len as f64).collect()
+    let inverse = planner.plan_fft_inverse(len);
+    let mut a: Vec<f64> = (0..len).map(|k| x.get(k).copied().unwrap_or(0.0)).collect();
+    let mut b: Vec<f64> = (0..len).map(|i| if i < span { dg(i as i64 - (n as i64 - 1)) } else { 0.0 }).collect();
+    let mut fa = forward.make_output_vec();
+    let mut fb = forward.make_output_vec();
+    // Buffer lengths come from the planner, so these cannot fail.
+    let _ = forward.process(&mut a, &mut fa);
+    let _ = forward.process(&mut b, &mut fb);
+    drop((a, b));
+    for (p, q) in fa.iter_mut().zip(&fb) {
+        *p *= q;
+    }
+    drop(fb);
+    if let Some(v) = fa.first_mut() {
+        v.im = 0.0;
+    }
+    if let Some(v) = fa.last_mut() {
+        v.im = 0.0;
+    }
+    let mut conv = inverse.make_output_vec();
+    let _ = inverse.process(&mut fa, &mut conv);
+    let last = x[n - 1];
+    (0..n)
+        .map(|m| {
+            // conv[m + n − 1] = sum_{k<n} x[k]·dg[m − k]; the held tail adds
+            // last·sum_{j = m−big+1 .. m−n} dg[j].
+            let head = conv[m + n - 1] / len as f64;
+            let (lo, hi) = (m as i64 - big as i64 + 1, m as i64 - n as i64);
+            let tail: f64 = if hi < lo {
+                0.0
+            } else {
+                coef.iter()
+                    .map(|&(r, c)| {
+                        let rho = -(r * dt).exp();
+                        c * (pow(r, hi + 1) - pow(r, lo)) / (rho - 1.0)
+                    })
+                    .sum()
+            };
+            head + last * tail
+        })
+        .collect()
 }
 
 #[cfg(test)]
@@ -99,5 +138,23 @@ mod tests {
         assert!((x31 - 1.0 / 32.0).abs() < 1e-14);
         let e: f64 = rule.iter().map(|&(x, w)| w * (5.0 * x).exp()).sum();
         assert!((e - (5f64.exp() - 1.0) / 5.0).abs() < 1e-12);
+    }
+
+    #[test]
+    fn split_correction_equals_the_direct_sum_over_the_held_record() {
+        // [closed form] sum_{k<big} x_held[k]·dg[m − k], summed term by term.
+        let (dt, big) = (1e-9, 256usize);
+        let x: Vec<f64> = (0..20).map(|k| ((k * 7) % 5) as f64 - 1.0).collect();
+        let rule = edge_rule(2.0e7);
+        let im_h: Vec<f64> = (0..rule.len()).map(|i| 0.1 + 0.01 * i as f64).collect();
+        let dg = |j: i64| -> f64 {
+            let s: f64 = rule.iter().zip(&im_h).map(|(&(r, w), &im)| w * im * (r * j as f64 * dt).exp()).sum();
+            dt / PI * if j.rem_euclid(2) == 0 { 1.0 } else { -1.0 } * s
+        };
+        let got = correction(&x, big, dt, &rule, &im_h);
+        for (m, g) in got.iter().enumerate() {
+            let want: f64 = (0..big).map(|k| x.get(k).copied().unwrap_or(x[19]) * dg(m as i64 - k as i64)).sum();
+            assert!((g - want).abs() < 1e-12 * (1.0 + want.abs()), "m {m}: {g} vs {want}");
+        }
     }
 }

@@ -12,6 +12,9 @@ use crate::plant::Span;
 #[non_exhaustive]
 pub enum ReferenceError {
     /// The plant has no probes, so there is nothing to compute.
+    /// A scheduled event the exact reference cannot follow.
+    #[error("the exact reference cannot follow this event: {0}")]
+    Unsupported(String),
     #[error("the plant has no probes, so the reference has nothing to compute")]
     NoProbes,
     /// A run of zero samples was asked for.

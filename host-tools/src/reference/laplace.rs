@@ -26,7 +26,8 @@
 
 use super::band_edge;
 use num_complex::Complex64;
-use rustfft::FftPlanner;
+use rayon::prelude::*;
+use realfft::RealFftPlanner;
 use std::f64::consts::PI;
 
 /// Record length and damping of one inversion.
@@ -80,44 +81,64 @@ pub(crate) struct Inverted {
     pub edge_peaks: Vec<f64>,
 }
 
+/// Bins solved per parallel task (large enough to amortize the task, small enough to
+/// balance two to many cores).
+const BINS_PER_TASK: usize = 2048;
+
 /// Responses of `channels` outputs to input `x` (length n of the plan).
 ///
-/// `h(s)` returns the transfer of every channel at s; an error from it stops the inversion.
-pub(crate) fn invert<E>(
+/// `h(s)` returns the transfer of every channel at s; it is called for the N/2 + 1 bins in
+/// parallel (rayon), and an error from any call stops the inversion. Memory: the half
+/// spectrum times H for every channel (16 bytes per bin and channel) plus one channel's
+/// real record at a time; the input is damped into a real FFT and never held twice.
+pub(crate) fn invert<E: Send>(
     plan: &Plan,
     x: &[f64],
     dt: f64,
     channels: usize,
-    mut h: impl FnMut(Complex64) -> Result<Vec<Complex64>, E>,
+    h: impl Fn(Complex64) -> Result<Vec<Complex64>, E> + Sync,
 ) -> Result<Inverted, E> {
     let big = plan.n_fft;
     let half = big / 2;
-    let mut planner = FftPlanner::<f64>::new();
-    let forward = planner.plan_fft_forward(big);
-    let inverse = planner.plan_fft_inverse(big);
     // The input is held at its last value past n: a step stays a step, so the record has no
     // artificial edge at n whose band-limited ringing would reach back into the output.
     let last = x.last().copied().unwrap_or(0.0);
-    let x_held: Vec<f64> = (0..big).map(|k| x.get(k).copied().unwrap_or(last)).collect();
-    let mut spectrum: Vec<Complex64> = x_held
-        .iter()
-        .enumerate()
-        .map(|(k, xk)| Complex64::new(xk * (-plan.sigma * k as f64 * dt).exp(), 0.0))
-        .collect();
-    forward.process(&mut spectrum);
-    let mut out: Vec<Vec<Complex64>> = vec![vec![Complex64::new(0.0, 0.0); big]; channels];
-    for k in 0..=half {
-        let hk = h(plan.s(k, dt))?;
-        for (c, y) in out.iter_mut().enumerate() {
-            let hc = hk.get(c).copied().unwrap_or_default();
-            if k == 0 || k == half {
-                y[k] = spectrum[k] * hc.re;
-            } else {
-                y[k] = spectrum[k] * hc;
-                y[big - k] = spectrum[big - k] * hc.conj();
+    // Each plan keeps twiddles of about the record's size, so the forward plan is dropped
+    // before the inverse one is made (they never live together).
+    let spectrum = {
+        let forward = RealFftPlanner::<f64>::new().plan_fft_forward(big);
+        let mut damped: Vec<f64> =
+            (0..big).map(|k| x.get(k).copied().unwrap_or(last) * (-plan.sigma * k as f64 * dt).exp()).collect();
+        let mut spectrum = forward.make_output_vec();
+        // Lengths match by construction (planner of length `big`), so this cannot fail.
+        let _ = forward.process(&mut damped, &mut spectrum);
+        spectrum
+    };
+    // Per channel, the products X(s_k)·H_c(s_k); bins 0 and N/2 take Re H (see the module
+    // notes). Each task fills one run of bins in every channel.
+    let mut products = vec![vec![Complex64::new(0.0, 0.0); half + 1]; channels];
+    let mut tasks: Vec<Vec<&mut [Complex64]>> = Vec::new();
+    for channel in products.iter_mut() {
+        for (t, chunk) in channel.chunks_mut(BINS_PER_TASK).enumerate() {
+            if tasks.len() <= t {
+                tasks.push(Vec::with_capacity(channels));
             }
+            tasks[t].push(chunk);
         }
     }
+    tasks.into_par_iter().enumerate().try_for_each(|(task, mut chunks)| {
+        for i in 0..chunks.first().map_or(0, |c| c.len()) {
+            let k = task * BINS_PER_TASK + i;
+            let hk = h(plan.s(k, dt))?;
+            for (c, chunk) in chunks.iter_mut().enumerate() {
+                let hc = hk.get(c).copied().unwrap_or_default();
+                chunk[i] =
+                    if k == 0 || k == half { Complex64::new(spectrum[k].re * hc.re, 0.0) } else { spectrum[k] * hc };
+            }
+        }
+        Ok(())
+    })?;
+    drop(spectrum);
     let rule = band_edge::edge_rule(plan.sigma);
     let mut edge = vec![Vec::with_capacity(rule.len()); channels];
     for &(r, _) in &rule {
@@ -128,15 +149,23 @@ pub(crate) fn invert<E>(
     }
     let n = x.len();
     let mut inverted = Inverted { values: Vec::new(), record_peaks: Vec::new(), edge_peaks: Vec::new() };
-    for (mut y, im_h) in out.into_iter().zip(edge) {
-        inverse.process(&mut y);
-        let full: Vec<f64> = (0..big).map(|m| y[m].re / big as f64 * (plan.sigma * m as f64 * dt).exp()).collect();
+    let inverse = RealFftPlanner::<f64>::new().plan_fft_inverse(big);
+    let mut output = inverse.make_output_vec();
+    for mut input in products {
+        // Bins 0 and N/2 are real by construction, so the inverse cannot refuse them; the
+        // channel's products are consumed in place.
+        let _ = inverse.process(&mut input, &mut output);
+        drop(input);
+        let undamped = |m: usize| output[m] / big as f64 * (plan.sigma * m as f64 * dt).exp();
         // The end of the record holds the band-limited precursors of the next period,
         // magnified by the undamping; the first half is the response itself.
-        inverted.record_peaks.push(full[..half].iter().fold(0.0, |p, v| p.max(v.abs())));
-        let edge = band_edge::correction(&x_held, n, dt, &rule, &im_h);
+        inverted.record_peaks.push((0..half).fold(0.0, |p: f64, m| p.max(undamped(m).abs())));
+        inverted.values.push((0..n).map(undamped).collect());
+    }
+    drop((output, inverse));
+    for im_h in edge {
+        let edge = band_edge::correction(x, big, dt, &rule, &im_h);
         inverted.edge_peaks.push(edge.iter().fold(0.0, |p, v| p.max(v.abs())));
-        inverted.values.push(full[..n].to_vec());
     }
     Ok(inverted)
 }

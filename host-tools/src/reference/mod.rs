@@ -7,17 +7,19 @@
 //!
 //! The drive is an EMF behind a resistance ([`Drive::Source`](crate::plant::Drive), or a
 //! rig's device under test: stimulus behind `dut_resistance`). Every transfer function is
-//! per volt of that EMF. The reference is linear and time-invariant: scheduled
-//! [`events`](crate::plant::Plant::events) are not modelled; it describes the plant as it
-//! starts.
+//! per volt of that EMF. Between scheduled [`events`](crate::plant::Plant::events) the
+//! plant is linear and time-invariant; the events themselves are followed stage by stage
+//! by the compensation method ([`events`]), so the reference covers the whole run.
 
 mod band_edge;
 mod check;
 mod dc;
 mod error;
+mod events;
 mod laplace;
 pub mod line;
 mod nodal;
+mod sparse;
 
 pub use error::ReferenceError;
 pub use line::{segment_s21, DIELECTRIC_REF_HZ};
@@ -116,19 +118,25 @@ pub fn exact_response(plant: &Plant, opts: &ExactOptions) -> Result<ExactRun, Re
     let dt = 1.0 / plant.sample_rate;
     let drive = check::thevenin(plant).emf.sample(dt, opts.samples);
     let plan = laplace::Plan::new(opts.samples, dt, opts.wrap_level);
-    let inverted = laplace::invert(&plan, &drive, dt, plant.probes.len(), |s| {
-        let sol = nodal::solve(plant, s)?;
-        Ok(plant.probes.iter().map(|p| sol.probe(plant, p.kind)).collect())
-    })?;
-    // The relative bound of the plan applies to each trace's peak over the record and the
-    // band-edge term is absolute; express both against the drive's peak so that one number
-    // covers every trace.
     let drive_peak = drive.iter().fold(0.0, |p: f64, v| p.max(v.abs()));
-    let largest = inverted.record_peaks.iter().fold(0.0, |p: f64, v| p.max(*v));
-    let scale = if drive_peak > 0.0 { (largest / drive_peak).max(1.0) } else { 1.0 };
-    let edge = inverted.edge_peaks.iter().fold(0.0, |p: f64, v| p.max(*v));
-    let wrap_bound = plan.wrap_bound() * scale + if drive_peak > 0.0 { edge / drive_peak } else { 0.0 };
-    let values = inverted.values;
+    let (values, wrap_bound) = if plant.events.is_empty() {
+        let network = nodal::Network::new(plant);
+        let one = Complex64::new(1.0, 0.0);
+        let inverted = laplace::invert(&plan, &drive, dt, plant.probes.len(), |s| {
+            let sol = network.solve(s, one, &[], &[])?;
+            Ok(plant.probes.iter().map(|p| sol.probe(plant, p.kind)).collect())
+        })?;
+        // The relative bound of the plan applies to each trace's peak over the record and the
+        // band-edge term is absolute; express both against the drive's peak so that one number
+        // covers every trace.
+        let largest = inverted.record_peaks.iter().fold(0.0, |p: f64, v| p.max(*v));
+        let scale = if drive_peak > 0.0 { (largest / drive_peak).max(1.0) } else { 1.0 };
+        let edge = inverted.edge_peaks.iter().fold(0.0, |p: f64, v| p.max(*v));
+        (inverted.values, plan.wrap_bound() * scale + if drive_peak > 0.0 { edge / drive_peak } else { 0.0 })
+    } else {
+        let (values, absolute) = events::staged_response(plant, &plan, dt, &drive)?;
+        (values, if drive_peak > 0.0 { absolute / drive_peak } else { absolute })
+    };
     let traces = plant
         .probes
         .iter()
@@ -150,6 +158,15 @@ pub fn exact_response(plant: &Plant, opts: &ExactOptions) -> Result<ExactRun, Re
 pub fn dc_operating_point(plant: &Plant, emf: f64) -> Result<Vec<f64>, ReferenceError> {
     check::check_plant(plant)?;
     dc::node_voltages(plant, emf)
+}
+
+/// Node voltages at DC (as [`dc_operating_point`]) of the plant as it is after every
+/// scheduled event that falls inside a run of `samples` samples: the state a drive that
+/// settles to `emf` leads to. Breaks leave both sides open; node indices keep their meaning.
+pub fn dc_operating_point_after_events(plant: &Plant, emf: f64, samples: usize) -> Result<Vec<f64>, ReferenceError> {
+    check::check_plant(plant)?;
+    let after = events::final_plant(plant, 1.0 / plant.sample_rate, samples)?;
+    dc::node_voltages(&after, emf)
 }
 
 /// Transfer from drive EMF to probe `probe` at complex frequency `s` (V/V or A/V).

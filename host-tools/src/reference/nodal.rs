@@ -15,6 +15,7 @@
 
 use super::check::thevenin;
 use super::line::{two_port, TwoPort};
+use super::sparse::Pattern;
 use super::ReferenceError;
 use crate::plant::{End, Load, Plant, ProbeKind};
 use nalgebra::{DMatrix, DVector};
@@ -65,64 +66,211 @@ impl Solution {
 /// Solve the nodal equations of a checked plant at s (Re s > 0 or s on the jω axis away
 /// from 0), per volt of drive EMF.
 pub(crate) fn solve(plant: &Plant, s: Complex64) -> Result<Solution, ReferenceError> {
-    let inner = 2 * plant.segments.iter().filter(|s| s.inline.is_some()).count();
-    let n = plant.nodes.len() + inner;
-    let (sigma, f_hz) = (s.re, s.im / (2.0 * PI));
-    let mut a = DMatrix::<Complex64>::zeros(n, n);
-    let mut b = DVector::<Complex64>::zeros(n);
-    let mut ends = Vec::with_capacity(plant.segments.len());
-    let mut next = plant.nodes.len();
-    let stamp = |a: &mut DMatrix<Complex64>, p: usize, q: usize, y11: Complex64, y12: Complex64| {
-        a[(p, p)] += y11;
-        a[(q, q)] += y11;
-        a[(p, q)] += y12;
-        a[(q, p)] += y12;
-    };
-    for seg in &plant.segments {
-        let cable = &plant.cables[seg.cable];
-        match seg.inline {
-            None => {
-                let tp = two_port(cable, seg.length, s);
-                stamp(&mut a, seg.from, seg.to, tp.y11, tp.y12);
-                ends.push([(tp, seg.to), (tp, seg.from)]);
-            }
-            Some(inl) => {
-                // from —[line, at]— m1 —[R + sL]— m2 —[line, length − at]— to
-                let (m1, m2) = (next, next + 1);
-                next += 2;
-                let t1 = two_port(cable, inl.at, s);
-                let t2 = two_port(cable, seg.length - inl.at, s);
-                stamp(&mut a, seg.from, m1, t1.y11, t1.y12);
-                stamp(&mut a, m2, seg.to, t2.y11, t2.y12);
-                let y = 1.0 / (Complex64::new(inl.resistance, 0.0) + s * inl.inductance);
-                stamp(&mut a, m1, m2, y, -y);
-                ends.push([(t1, m1), (t2, m2)]);
+    Network::new(plant).solve(s, Complex64::new(1.0, 0.0), &[], &[])
+}
+
+/// One two-port or admittance between unknowns p and q at one frequency (q = p for a
+/// shunt): the matrix gains y11 at (p, p) and (q, q) and y12 at (p, q) and (q, p).
+struct Stamp {
+    p: usize,
+    q: usize,
+    y11: Complex64,
+    y12: Complex64,
+}
+
+/// The plant's nodal structure, set up once and solved at many frequencies.
+///
+/// Unknowns are the node voltages plus two internal nodes per in-line choke; a shorted
+/// node is an exact constraint v = 0 and is left out of the unknowns (so no precision is
+/// lost next to it). The sparsity pattern and its elimination order ([`super::sparse`])
+/// are fixed here; each frequency refills the values only.
+pub(crate) struct Network<'a> {
+    plant: &'a Plant,
+    /// All voltages: nodes, then the choke's internal nodes.
+    total: usize,
+    /// Unknown index of each voltage, None for a shorted node.
+    unknown: Vec<Option<usize>>,
+    pattern: Pattern,
+    /// Where each frequency's stamps go in the value array (built with `pattern`).
+    slots: Vec<[usize; 3]>,
+}
+
+impl<'a> Network<'a> {
+    /// The structure of a checked plant.
+    pub fn new(plant: &'a Plant) -> Network<'a> {
+        let inner = 2 * plant.segments.iter().filter(|s| s.inline.is_some()).count();
+        let total = plant.nodes.len() + inner;
+        let mut unknown = vec![None; total];
+        let mut count = 0;
+        for (i, u) in unknown.iter_mut().enumerate() {
+            let short = plant.nodes.get(i).is_some_and(|n| n.load == Load::Short);
+            if !short {
+                *u = Some(count);
+                count += 1;
             }
         }
+        let pairs = Self::pairs(plant);
+        let couplings: Vec<(usize, usize)> =
+            pairs.iter().filter_map(|&(p, q)| Some((unknown[p]?, unknown[q]?))).collect();
+        let pattern = Pattern::new(count, &couplings);
+        let slot = |i: Option<usize>, j: Option<usize>| match (i, j) {
+            (Some(i), Some(j)) => pattern.position(i, j),
+            _ => usize::MAX,
+        };
+        let slots = pairs
+            .iter()
+            .map(|&(p, q)| {
+                let (up, uq) = (unknown[p], unknown[q]);
+                if p == q {
+                    [slot(up, up), usize::MAX, usize::MAX]
+                } else {
+                    [slot(up, up), slot(uq, uq), slot(up, uq)]
+                }
+            })
+            .collect();
+        Network { plant, total, unknown, pattern, slots }
     }
-    for (i, node) in plant.nodes.iter().enumerate() {
-        a[(i, i)] += load_admittance(node.load, s);
-    }
-    let drive = thevenin(plant);
-    let g = 1.0 / drive.resistance;
-    a[(drive.node, drive.node)] += g;
-    b[drive.node] += g;
-    for (i, node) in plant.nodes.iter().enumerate() {
-        if node.load == Load::Short {
-            a.row_mut(i).fill(Complex64::new(0.0, 0.0));
-            a.column_mut(i).fill(Complex64::new(0.0, 0.0));
-            a[(i, i)] = Complex64::new(1.0, 0.0);
-            b[i] = Complex64::new(0.0, 0.0);
+
+    /// The (p, q) of every stamp, in the order `stamps` produces them.
+    fn pairs(plant: &Plant) -> Vec<(usize, usize)> {
+        let mut out = Vec::new();
+        let mut next = plant.nodes.len();
+        for seg in &plant.segments {
+            match seg.inline {
+                None => out.push((seg.from, seg.to)),
+                Some(_) => {
+                    out.extend([(seg.from, next), (next + 1, seg.to), (next, next + 1)]);
+                    next += 2;
+                }
+            }
         }
+        out.extend((0..plant.nodes.len()).map(|i| (i, i)));
+        let d = thevenin(plant).node;
+        out.push((d, d));
+        out
     }
-    if a.iter().any(|v| !v.re.is_finite() || !v.im.is_finite()) {
-        return Err(ReferenceError::NonFinite { sigma, f_hz });
+
+    /// Every stamp at s, in `pairs` order, and the segment ends for current probes.
+    fn stamps(&self, s: Complex64) -> (Vec<Stamp>, Vec<[(TwoPort, usize); 2]>) {
+        let plant = self.plant;
+        let mut st = Vec::with_capacity(self.slots.len());
+        let mut ends = Vec::with_capacity(plant.segments.len());
+        let mut next = plant.nodes.len();
+        for seg in &plant.segments {
+            let cable = &plant.cables[seg.cable];
+            match seg.inline {
+                None => {
+                    let tp = two_port(cable, seg.length, s);
+                    st.push(Stamp { p: seg.from, q: seg.to, y11: tp.y11, y12: tp.y12 });
+                    ends.push([(tp, seg.to), (tp, seg.from)]);
+                }
+                Some(inl) => {
+                    // from —[line, at]— m1 —[R + sL]— m2 —[line, length − at]— to
+                    let (m1, m2) = (next, next + 1);
+                    next += 2;
+                    let t1 = two_port(cable, inl.at, s);
+                    let t2 = two_port(cable, seg.length - inl.at, s);
+                    let y = 1.0 / (Complex64::new(inl.resistance, 0.0) + s * inl.inductance);
+                    st.push(Stamp { p: seg.from, q: m1, y11: t1.y11, y12: t1.y12 });
+                    st.push(Stamp { p: m2, q: seg.to, y11: t2.y11, y12: t2.y12 });
+                    st.push(Stamp { p: m1, q: m2, y11: y, y12: -y });
+                    ends.push([(t1, m1), (t2, m2)]);
+                }
+            }
+        }
+        let zero = Complex64::new(0.0, 0.0);
+        for (i, node) in plant.nodes.iter().enumerate() {
+            st.push(Stamp { p: i, q: i, y11: load_admittance(node.load, s), y12: zero });
+        }
+        let drive = thevenin(plant);
+        st.push(Stamp { p: drive.node, q: drive.node, y11: Complex64::new(1.0 / drive.resistance, 0.0), y12: zero });
+        (st, ends)
     }
-    let v = a.lu().solve(&b).ok_or(ReferenceError::Singular { sigma, f_hz })?;
-    if v.iter().any(|x| !x.re.is_finite() || !x.im.is_finite()) {
-        return Err(ReferenceError::Singular { sigma, f_hz });
+
+    /// Solve at s for a drive EMF `emf`, currents `inject` (node, A) injected into nodes,
+    /// and voltages `forced` (node, V) at shorted nodes (a source in place of the short;
+    /// ignored at other nodes); the voltages are linear in all three.
+    pub fn solve(
+        &self,
+        s: Complex64,
+        emf: Complex64,
+        inject: &[(usize, Complex64)],
+        forced: &[(usize, Complex64)],
+    ) -> Result<Solution, ReferenceError> {
+        let (sigma, f_hz) = (s.re, s.im / (2.0 * PI));
+        let (st, ends) = self.stamps(s);
+        let n = self.pattern.len();
+        let mut b = vec![Complex64::new(0.0, 0.0); n];
+        let drive = thevenin(self.plant);
+        if let Some(u) = self.unknown[drive.node] {
+            b[u] += emf / drive.resistance;
+        }
+        for &(node, i) in inject {
+            if let Some(u) = self.unknown.get(node).copied().flatten() {
+                b[u] += i;
+            }
+        }
+        let forced_at = |node: usize| -> Complex64 {
+            forced.iter().filter(|f| f.0 == node && self.unknown[node].is_none()).map(|f| f.1).sum()
+        };
+        if !forced.is_empty() {
+            // A known voltage V_p at a shorted node moves −Y12·V_p to the right-hand side of
+            // each neighbouring unknown.
+            for t in st.iter().filter(|t| t.p != t.q) {
+                match (self.unknown[t.p], self.unknown[t.q]) {
+                    (None, Some(q)) => b[q] -= t.y12 * forced_at(t.p),
+                    (Some(p), None) => b[p] -= t.y12 * forced_at(t.q),
+                    _ => {}
+                }
+            }
+        }
+        let mut vals = vec![Complex64::new(0.0, 0.0); self.pattern.values_len()];
+        for (stamp, slot) in st.iter().zip(&self.slots) {
+            for (k, y) in [(slot[0], stamp.y11), (slot[1], stamp.y11), (slot[2], stamp.y12)] {
+                if k != usize::MAX {
+                    vals[k] += y;
+                }
+            }
+        }
+        if vals.iter().any(|v| !v.re.is_finite() || !v.im.is_finite()) {
+            return Err(ReferenceError::NonFinite { sigma, f_hz });
+        }
+        let x = if self.pattern.factor(&mut vals, 1e-10).is_ok() {
+            self.pattern.solve(&vals, &mut b);
+            b
+        } else {
+            self.dense(&st, b).ok_or(ReferenceError::Singular { sigma, f_hz })?
+        };
+        if x.iter().any(|v| !v.re.is_finite() || !v.im.is_finite()) {
+            return Err(ReferenceError::Singular { sigma, f_hz });
+        }
+        let voltages = self.unknown.iter().map(|u| u.map_or(Complex64::new(0.0, 0.0), |u| x[u])).collect::<Vec<_>>();
+        debug_assert_eq!(voltages.len(), self.total);
+        Ok(Solution { voltages, ends })
     }
-    Ok(Solution { voltages: v.iter().copied().collect(), ends })
+
+    /// Dense LU with partial pivoting of the same system: the fallback for a pivot the
+    /// sparse elimination cannot take (a point on the jω axis, a degenerate plant).
+    fn dense(&self, st: &[Stamp], b: Vec<Complex64>) -> Option<Vec<Complex64>> {
+        let n = b.len();
+        let mut a = DMatrix::<Complex64>::zeros(n, n);
+        for t in st {
+            let (p, q) = (self.unknown[t.p], self.unknown[t.q]);
+            if let Some(p) = p {
+                a[(p, p)] += t.y11;
+            }
+            if t.p != t.q {
+                if let Some(q) = q {
+                    a[(q, q)] += t.y11;
+                }
+                if let (Some(p), Some(q)) = (p, q) {
+                    a[(p, q)] += t.y12;
+                    a[(q, p)] += t.y12;
+                }
+            }
+        }
+        a.lu().solve(&DVector::from_vec(b)).map(|v| v.iter().copied().collect())
+    }
 }
 
 #[cfg(test)]
