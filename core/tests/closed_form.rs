@@ -1,6 +1,6 @@
 //! Closed-form and worked-example checks of the solver. Each test names the source of its
 //! expected values: [closed form] follows from the wave equations alone; the worked example
-//! is the one in shared/REFERENCES.md (Ulaby, Fundamentals of Applied Electromagnetics,
+//! is the one in docs/references.md, "Step into a mismatched line" (Ulaby, Fundamentals of Applied Electromagnetics,
 //! problem 2.75, values found in a published solution set).
 
 use tidewire_core::{Drive, Junction, Line, Narrow, Network, Probe, ProbeKind, Profile, Shunt, Side, Solver, Wide};
@@ -31,7 +31,7 @@ fn run<P: Profile>(net: &Network, input: i16, n: usize) -> Vec<Vec<i32>> {
         .collect()
 }
 
-/// Ulaby problem 2.75 (shared/REFERENCES.md): Vg = 60 V step, Rg = 100 Ω, Z0 = 50 Ω,
+/// Ulaby problem 2.75 (docs/references.md, "Step into a mismatched line"): Vg = 60 V step, Rg = 100 Ω, Z0 = 50 Ω,
 /// RL = 25 Ω, T = 5 ns = 5 samples at 1 GHz. Load voltage at T, 3T, 5T, 7T:
 /// 13.333, 11.852, 12.016, 11.998 V; source end at 0, 2T, 4T: 20, 11.111, 12.099 V;
 /// final 12 V. Checked within 2 LSB of the output code after scaling.
@@ -127,7 +127,7 @@ fn open_end_doubles_short_cancels_matched_reflects_nothing() {
 #[test]
 fn equal_three_way_junction_sends_two_thirds_on_and_one_third_back() {
     // [closed form] A Z0 line meeting two Z0 lines in parallel: Gamma = -1/3, each branch
-    // receives 2/3 of the incident wave (shared/REFERENCES.md, junctions).
+    // receives 2/3 of the incident wave (docs/references.md, "Junctions and terminations").
     // Source matched (Rs = Z0) launches E/2 = 30000·2^12 / 2; branches end matched.
     let lines = [line(120, 4, 0, 1), line(120, 6, 1, 2), line(120, 9, 1, 3)];
     let m = Shunt::Resistor { milliohm: 120 * OHM };
