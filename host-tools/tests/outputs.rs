@@ -231,7 +231,7 @@ fn a_pwm_drive_is_judged_without_a_final_value_and_a_real_error_still_fails() {
     // is the exact reference's at the same sample, and the two agree within the tolerance.
     let fv = &doc["probes"][0]["final_value"];
     let (core, expected) = (fv["core"].as_f64().unwrap(), fv["expected"].as_f64().unwrap());
-    assert!(core.abs() > 1.0, "mid-period, away from 0 V: {core}");
+    assert!(core.abs() > 1.0 && expected.abs() > 1.0, "mid-period, away from 0 V: {core} {expected}");
     let ef = fv["error_fraction"].as_f64().unwrap();
     assert!(ef.abs() < doc["tolerances"]["final_error_fraction"].as_f64().unwrap(), "{ef}");
     // A deliberate error: the largest error against the exact reference (1.3 % of the
