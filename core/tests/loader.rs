@@ -13,62 +13,41 @@ use tidewire_core::{
 type WideSolver = Solver<Wide, 24, 8, 4096, 8>;
 type NarrowSolver = Solver<Narrow, 24, 8, 4096, 8>;
 
-#[derive(Debug, Clone)]
-struct Hostile {
-    lines: Vec<Line>,
-    junctions: Vec<Junction>,
-    elements: Vec<Element>,
-    losses: Vec<LineLoss>,
-    drive: Drive,
-    probes: Vec<Probe>,
-    io_shift: u8,
+mod common;
+
+/// A hostile network is any owned network (the core's one owned network, as the tests hold it).
+use common::{Owned as Hostile, VOLTS_PER_CODE};
+
+/// Bring every index into its table (most generated cases; the rest keep wild indices).
+fn fold_indices(h: &mut Hostile) {
+    let (nl, nj) = (h.lines.len() as u16, h.junctions.len() as u16);
+    for (k, l) in h.lines.iter_mut().enumerate() {
+        // The first lines visit every junction, so few nodes dangle.
+        let a = if k < nj as usize { k as u16 } else { l.a };
+        (l.a, l.b) = (a % nj, l.b % nj);
+    }
+    for e in &mut h.elements {
+        e.junction %= nj;
+    }
+    for l in &mut h.losses {
+        l.line %= nl;
+    }
+    for p in &mut h.probes {
+        p.line %= nl;
+    }
+    match &mut h.drive {
+        Drive::Source { junction, .. } | Drive::Rig { junction, .. } => *junction %= nj,
+        _ => {}
+    }
 }
 
-impl Hostile {
-    fn net(&self) -> Network<'_> {
-        Network {
-            lines: &self.lines,
-            junctions: &self.junctions,
-            elements: &self.elements,
-            losses: &self.losses,
-            drive: self.drive,
-            probes: &self.probes,
-            io_shift: self.io_shift,
-            volts_per_code: 1e-3,
-        }
-    }
-
-    /// Bring every index into its table (most generated cases; the rest keep wild indices).
-    fn fold_indices(&mut self) {
-        let (nl, nj) = (self.lines.len() as u16, self.junctions.len() as u16);
-        for (k, l) in self.lines.iter_mut().enumerate() {
-            // The first lines visit every junction, so few nodes dangle.
-            let a = if k < nj as usize { k as u16 } else { l.a };
-            (l.a, l.b) = (a % nj, l.b % nj);
-        }
-        for e in &mut self.elements {
-            e.junction %= nj;
-        }
-        for l in &mut self.losses {
-            l.line %= nl;
-        }
-        for p in &mut self.probes {
-            p.line %= nl;
-        }
-        match &mut self.drive {
-            Drive::Source { junction, .. } | Drive::Rig { junction, .. } => *junction %= nj,
-            _ => {}
-        }
-    }
-
-    /// The image bytes: a valid header and CRC around the postcard body.
-    fn image(&self) -> Vec<u8> {
-        let mut buf = vec![0u8; 1 << 16];
-        let body = postcard::to_slice(&self.net(), &mut buf).expect("body fits").to_vec();
-        let mut out = header(&body).to_vec();
-        out.extend_from_slice(&body);
-        out
-    }
+/// The image bytes: a valid header and CRC around the postcard body.
+fn image(h: &Hostile) -> Vec<u8> {
+    let mut buf = vec![0u8; 1 << 16];
+    let body = postcard::to_slice(&h.network(), &mut buf).expect("body fits").to_vec();
+    let mut out = header(&body).to_vec();
+    out.extend_from_slice(&body);
+    out
 }
 
 fn resistance() -> impl Strategy<Value = u32> {
@@ -149,9 +128,10 @@ fn hostile() -> impl Strategy<Value = Hostile> {
         prop_oneof![1 => Just(true), 4 => Just(false)],
     )
         .prop_map(|(lines, junctions, elements, losses, drive, probes, io_shift, hostile_indices)| {
-            let mut h = Hostile { lines, junctions, elements, losses, drive, probes, io_shift };
+            let mut h =
+                Hostile { lines, junctions, elements, losses, drive, probes, io_shift, volts_per_code: VOLTS_PER_CODE };
             if !hostile_indices {
-                h.fold_indices();
+                fold_indices(&mut h);
             }
             h
         })
@@ -210,7 +190,7 @@ fn hostile_images_are_refused_or_stay_passive() {
     let strategy = (hostile(), proptest::collection::vec(any::<i16>(), 2000));
     runner
         .run(&strategy, |(h, drive)| {
-            let img = h.image();
+            let img = image(&h);
             let mut w = Box::new(WideSolver::new());
             if w.load_image(&img).is_ok() {
                 accepted_wide.set(accepted_wide.get() + 1);
@@ -250,19 +230,20 @@ fn weight_budget_overflow_is_refused_at_the_node() {
         drive: Drive::Source { junction: 0, milliohm: 4_000_000_000 },
         probes: vec![Probe { kind: ProbeKind::Voltage, line: 16, side: Side::B }],
         io_shift: 12,
+        volts_per_code: VOLTS_PER_CODE,
     };
     let mut w = Box::new(Solver::<Wide, 64, 8, 4096>::new());
-    assert_eq!(w.load(&h.net()), Err(BuildError::CoefficientOutOfRange { junction: 0 }));
+    assert_eq!(w.load(&h.network()), Err(BuildError::CoefficientOutOfRange { junction: 0 }));
     assert_eq!(
-        tidewire_core::configure::check::<Wide>(&h.net()),
+        tidewire_core::configure::check::<Wide>(&h.network()),
         Err(BuildError::CoefficientOutOfRange { junction: 0 })
     );
     let h16 = Hostile { io_shift: 0, ..h.clone() };
     let mut n = Box::new(Solver::<Narrow, 64, 8, 4096>::new());
-    assert_eq!(n.load(&h16.net()), Err(BuildError::CoefficientOutOfRange { junction: 0 }));
+    assert_eq!(n.load(&h16.network()), Err(BuildError::CoefficientOutOfRange { junction: 0 }));
     // With a 40 Ω source the same node is fine: the budget is met without wrapping.
     let h = Hostile { drive: Drive::Source { junction: 0, milliohm: 40_000 }, ..h };
-    w.load(&h.net()).unwrap();
+    w.load(&h.network()).unwrap();
     assert!(w.weight_exponent() < 30);
 }
 

@@ -31,7 +31,7 @@ fn config() -> ProptestConfig {
 /// exact decay and then loses its last LSB-level residue within a few transits of the
 /// plant; we allow 2·n_e + 4·W samples, W the sum of all round trips.
 fn decay_bound(net: &Owned, drive: &[f64]) -> usize {
-    let w = net.delay_sum().max(8) as usize;
+    let w = common::delay_sum(net).max(8) as usize;
     let mut twin = Twin::new(net);
     for x in drive {
         twin.step(*x);
@@ -91,7 +91,7 @@ proptest! {
         let d: Vec<f64> = drive.iter().map(|x| *x as f64 * 4096.0).collect();
         let bound = decay_bound(&switched, &d);
         let mut s = WideSolver::new();
-        s.load(&net.net()).unwrap();
+        s.load(&net.network()).unwrap();
         for (j, sh) in &switches {
             s.set_shunt(*j, *sh).unwrap();
         }
@@ -106,7 +106,7 @@ proptest! {
         let mut s16 = NarrowSolver::new();
         let mut loaded16 = net.clone();
         loaded16.io_shift = 0;
-        s16.load(&loaded16.net()).unwrap();
+        s16.load(&loaded16.network()).unwrap();
         for (j, sh) in &switches {
             s16.set_shunt(*j, *sh).unwrap();
         }
@@ -124,7 +124,7 @@ proptest! {
         // w stores g·w², so after any input sequence every wave obeys
         // g_line·w² <= Σ_n e_n²/(4·Rs), and a probe (a ± b) is at most twice the largest wave.
         let mut s = WideSolver::new();
-        s.load(&net.net()).unwrap();
+        s.load(&net.network()).unwrap();
         let rs = match net.drive { tidewire_core::Drive::Source { milliohm, .. } => milliohm as f64 / 1000.0, _ => unreachable!() };
         let g_min = net.lines.iter().map(|l| 1000.0 / l.z_milliohm as f64).fold(f64::INFINITY, f64::min);
         let mut injected = 0.0f64;
@@ -171,12 +171,12 @@ proptest! {
         // stated: the narrow bound is an observed one, not a derived one, and is stated as 96. The drive stays at 1000 codes so that no narrow wave saturates (the passive
         // gain of a plant with impedance steps from 10 Ω to 1 kΩ can exceed 10).
         let mut s = WideSolver::new();
-        s.load(&net.net()).unwrap();
+        s.load(&net.network()).unwrap();
         let mut twin = Twin::quantized(&net, quantized(&s, Wide::SERIES_FRAC, Wide::TOTAL_MAX));
         let mut net16 = net.clone();
         net16.io_shift = 0;
         let mut s16 = NarrowSolver::new();
-        s16.load(&net16.net()).unwrap();
+        s16.load(&net16.network()).unwrap();
         let mut twin16 = Twin::quantized(&net16, quantized(&s16, Narrow::SERIES_FRAC, Narrow::TOTAL_MAX));
         for n in 0..1500 {
             let x = if n < drive.len() { drive[n] } else { 0 };

@@ -2,36 +2,18 @@
 #![allow(dead_code)]
 
 use proptest::prelude::*;
-use tidewire_core::{Drive, Element, Junction, Line, LineLoss, Network, Probe, ProbeKind, Shunt, Side};
+use tidewire_core::{Drive, Element, Junction, Line, LineLoss, Probe, ProbeKind, Shunt, Side};
 
-/// An owned network description for tests.
-#[derive(Debug, Clone)]
-pub struct Owned {
-    pub lines: Vec<Line>,
-    pub junctions: Vec<Junction>,
-    pub elements: Vec<Element>,
-    pub losses: Vec<LineLoss>,
-    pub drive: Drive,
-    pub probes: Vec<Probe>,
-    pub io_shift: u8,
-}
+/// An owned network for tests: the core's one owned network over `Vec`s (its `network()` is
+/// the view a solver loads).
+pub type Owned = tidewire_core::OwnedNetwork<Vec<Line>, Vec<Junction>, Vec<Element>, Vec<LineLoss>, Vec<Probe>>;
 
-impl Owned {
-    pub fn net(&self) -> Network<'_> {
-        Network {
-            lines: &self.lines,
-            junctions: &self.junctions,
-            elements: &self.elements,
-            losses: &self.losses,
-            drive: self.drive,
-            probes: &self.probes,
-            io_shift: self.io_shift,
-            volts_per_code: 1e-3,
-        }
-    }
-    pub fn delay_sum(&self) -> u32 {
-        self.lines.iter().map(|l| 2 * l.delay).sum()
-    }
+/// Volts per I/O code of every test network (host convenience only; the core never reads it).
+pub const VOLTS_PER_CODE: f32 = 1e-3;
+
+/// Storage the network's rings take, in waves: both directions of every line.
+pub fn delay_sum(net: &Owned) -> u32 {
+    net.lines.iter().map(|l| 2 * l.delay).sum()
 }
 
 /// What terminations the generator may use at nodes.
@@ -160,6 +142,7 @@ pub fn network(loads: Loads, max_delay: u32, io_shift: u8) -> impl Strategy<Valu
                     drive: Drive::Source { junction: 0, milliohm: rs },
                     probes,
                     io_shift,
+                    volts_per_code: VOLTS_PER_CODE,
                 }
             })
     })
