@@ -253,8 +253,7 @@ fn draw(
         .build_cartesian_2d(x_range.clone(), t_range.clone())?;
     let xd = style::tick_decimals(x_range.end - x_range.start);
     let td = style::tick_decimals(t_range.end - t_range.start);
-    chart
-        .configure_mesh()
+    style::ink_axes(&mut chart.configure_mesh())
         .disable_mesh()
         .x_labels(12)
         .y_labels(10)
@@ -262,9 +261,6 @@ fn draw(
         .y_desc(format!("time ({}s)", ts.prefix))
         .x_label_formatter(&|v| style::fmt_num(*v, xd))
         .y_label_formatter(&|v| style::fmt_num(*v, td))
-        .label_style(style::font(style::TICK_PX).color(&style::INK))
-        .axis_desc_style(style::font(style::DESC_PX).color(&style::INK))
-        .axis_style(style::INK.stroke_width(1))
         .draw()?;
 
     // Cells, with runs of equal level along a row merged into one rectangle.
@@ -341,15 +337,12 @@ fn draw_colour_bar(area: &DrawingArea<SVGBackend<'_>, Shift>, top: u32, vmax: f6
         .set_label_area_size(LabelAreaPosition::Right, 80)
         .build_cartesian_2d(0.0..1.0, -top_v..top_v)?;
     let d = style::tick_decimals(2.0 * top_v);
-    bar.configure_mesh()
+    style::ink_axes(&mut bar.configure_mesh())
         .disable_mesh()
         .disable_x_axis()
         .y_labels(9)
         .y_desc(format!("voltage ({}V)", vs.prefix))
         .y_label_formatter(&|v| style::fmt_num(*v, d))
-        .label_style(style::font(style::TICK_PX).color(&style::INK))
-        .axis_desc_style(style::font(style::DESC_PX).color(&style::INK))
-        .axis_style(style::INK.stroke_width(1))
         .draw()?;
     let step = top_v / LEVELS as f64;
     bar.draw_series((-LEVELS..=LEVELS).map(|k| {

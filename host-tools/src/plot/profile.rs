@@ -118,20 +118,13 @@ where
     DB::ErrorType: 'static,
 {
     let (xd, yd) = (style::tick_decimals(x_span), style::tick_decimals(y_span));
-    chart
-        .configure_mesh()
+    style::ink_axes_with_grid(&mut chart.configure_mesh())
         .x_labels(12)
         .y_labels(8)
-        .max_light_lines(4)
         .x_desc(x_desc)
         .y_desc(y_desc)
         .x_label_formatter(&|v| style::fmt_num(*v, xd))
         .y_label_formatter(&|v| style::fmt_num(*v, yd))
-        .label_style(style::font(style::TICK_PX).color(&style::INK))
-        .axis_desc_style(style::font(style::DESC_PX).color(&style::INK))
-        .axis_style(style::INK.stroke_width(1))
-        .bold_line_style(style::GRID_MAJOR.stroke_width(1))
-        .light_line_style(style::GRID_MINOR.stroke_width(1))
         .draw()?;
     Ok(())
 }

@@ -3,7 +3,10 @@
 //! Kept in one place so that the waveform, lattice and sweep pictures share one look and a
 //! colour or size is changed once.
 
+use plotters::chart::MeshStyle;
+use plotters::coord::ranged1d::Ranged;
 use plotters::coord::Shift;
+use plotters::prelude::DrawingBackend;
 use plotters::prelude::{DrawingArea, PathElement, SVGBackend, Text};
 use plotters::style::text_anchor::{HPos, Pos, VPos};
 use plotters::style::{Color, FontDesc, FontStyle, IntoFont, RGBColor};
@@ -82,6 +85,25 @@ pub(crate) const X_MARKER: Trace = Trace { colour: MARKER_X, width: 1, dash: Som
 pub(crate) const Y_MARKER: Trace = Trace { colour: MARKER_Y, width: 1, dash: Some("3 3") };
 
 /// A sans-serif font whose rendered height is `px` pixels in the SVG.
+/// The house look of a chart's axes: tick labels, axis descriptions and the axis lines in ink.
+pub(crate) fn ink_axes<'m, 'a, 'b, X: Ranged, Y: Ranged, DB: DrawingBackend>(
+    mesh: &'m mut MeshStyle<'a, 'b, X, Y, DB>,
+) -> &'m mut MeshStyle<'a, 'b, X, Y, DB> {
+    mesh.label_style(font(TICK_PX).color(&INK))
+        .axis_desc_style(font(DESC_PX).color(&INK))
+        .axis_style(INK.stroke_width(1))
+}
+
+/// [`ink_axes`] with the house grid: major and minor lines, at most four minor per major.
+pub(crate) fn ink_axes_with_grid<'m, 'a, 'b, X: Ranged, Y: Ranged, DB: DrawingBackend>(
+    mesh: &'m mut MeshStyle<'a, 'b, X, Y, DB>,
+) -> &'m mut MeshStyle<'a, 'b, X, Y, DB> {
+    ink_axes(mesh)
+        .max_light_lines(4)
+        .bold_line_style(GRID_MAJOR.stroke_width(1))
+        .light_line_style(GRID_MINOR.stroke_width(1))
+}
+
 pub(crate) fn font(px: f64) -> FontDesc<'static> {
     ("sans-serif", px * SVG_FONT_SCALE).into_font()
 }

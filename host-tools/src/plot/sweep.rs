@@ -158,20 +158,13 @@ where
         .y_label_area_size(Y_LABEL_W)
         .build_cartesian_2d(x_coord, y.clone())?;
     let yd = style::tick_decimals(y.end - y.start);
-    chart
-        .configure_mesh()
+    style::ink_axes_with_grid(&mut chart.configure_mesh())
         .x_labels(12)
         .y_labels(8)
-        .max_light_lines(4)
         .x_desc(plot.x_label)
         .y_desc(plot.y_label)
         .x_label_formatter(&x_fmt)
         .y_label_formatter(&|v| style::fmt_num(*v, yd))
-        .label_style(style::font(style::TICK_PX).color(&style::INK))
-        .axis_desc_style(style::font(style::DESC_PX).color(&style::INK))
-        .axis_style(style::INK.stroke_width(1))
-        .bold_line_style(style::GRID_MAJOR.stroke_width(1))
-        .light_line_style(style::GRID_MINOR.stroke_width(1))
         .draw()?;
 
     // Reference lines first, so the data is drawn over them; then their labels, so that no
