@@ -8,12 +8,14 @@
 //! * the DC operating point from the exact reference, and the coefficients the core really
 //!   chose, by loading the network into the host core (`checks.rs`);
 //! * the sample budget on microcontrollers ([`budget`]);
-//! * a segment's length swept, with the host core at each length ([`sweep`]).
+//! * a segment's length swept, with the host core at each length ([`sweep`]);
+//! * the least sample rate at which verify passes ([`rate_search`]).
 //!
 //! Imports flow one way: `analysis` → `compile`, `twin`, `host_core`, `reference`; none of
 //! those import `analysis`.
 pub mod budget;
 mod checks;
+pub mod rate_search;
 mod scale;
 pub mod sense;
 pub mod sweep;

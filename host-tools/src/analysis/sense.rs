@@ -111,7 +111,8 @@ pub(super) fn after_scale(c: &Compiled, plant: &Plant, file: &str, a: &mut Analy
             si::format(IMPLAUSIBLE_VOLTS, "V"),
         ));
     }
-    for s in &c.report.segments {
+    // Lumped segments have no delay to round: their model error is in the report instead.
+    for s in c.report.segments.iter().filter(|s| s.model == crate::compile::SegmentModel::DelayLine) {
         let rel = s.error_s / s.tau;
         if rel.abs() > TIMING_WARNING {
             a.warnings.push(format!(

@@ -4,7 +4,7 @@
 //! point. Points run in parallel (rayon); each is a whole compile + core run + exact run.
 use crate::compile::ProfileKind;
 use crate::host_core::{run_core, RunError};
-use crate::plant::{Drive, Load, Plant, PlantError, Waveform};
+use crate::plant::{Load, Plant, PlantError};
 use crate::reference::{exact_response, ExactOptions, ReferenceError};
 use rayon::prelude::*;
 
@@ -69,14 +69,7 @@ pub enum SweepError {
 
 /// The drive's 10–90 % rise time, if its waveform has one.
 pub fn rise_of(plant: &Plant) -> Option<f64> {
-    let w = match &plant.drive {
-        Drive::Source { emf, .. } => emf,
-        Drive::Rig { stimulus, .. } => stimulus,
-    };
-    match w {
-        Waveform::Step { rise, .. } | Waveform::Pulse { rise, .. } | Waveform::Pwm { rise, .. } => Some(*rise),
-        Waveform::Samples(_) => None,
-    }
+    crate::compile::model_error::drive_rise(plant)
 }
 
 /// Run the sweep: `parameter` at each of `values`, the peak of probe `probe`.

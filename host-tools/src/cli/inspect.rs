@@ -38,28 +38,82 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
     for n in &r.notes {
         let _ = writeln!(s, "   note: {n}");
     }
-    let _ = writeln!(s, "\n-- segments: delay on the sample grid");
     let _ = writeln!(
         s,
-        "   {:<18} {:<20} {:>9} {:>7} {:>11} {:>6} {:>22} {:>10} {:>4}",
-        "segment", "cable", "length", "Z0", "tau", "delay", "timing error", "R loop", "sec"
+        "\n-- segments: model, delay on the sample grid, model error at a {} edge (!! = over the tolerance)",
+        eng(r.judged_rise, "s")
+    );
+    let _ = writeln!(
+        s,
+        "   {:<18} {:<20} {:>9} {:>7} {:>11} {:>6} {:>22} {:>10} {:>4}  {:<22} {:>8}",
+        "segment", "cable", "length", "Z0", "tau", "delay", "timing error", "R loop", "sec", "model", "error"
     );
     for t in &r.segments {
+        let lumped = t.model != crate::compile::SegmentModel::DelayLine;
+        let timing = if lumped {
+            format!("{:>22}", "(no line)")
+        } else {
+            format!("{:>12} ({:>+6.2} %)", eng(t.error_s, "s"), 100.0 * t.error_s / t.tau)
+        };
         let _ = writeln!(
             s,
-            "   {:<18} {:<20} {:>7.2} m {:>7.1} {:>11} {:>6} {:>12} ({:>+6.2} %) {:>8.3} Ω {:>4}{}",
+            "   {:<18} {:<20} {:>7.2} m {:>7.1} {:>11} {:>6} {} {:>8.3} Ω {:>4}  {:<22} {:>6.2} %{}{}",
             t.name,
             t.cable,
             t.length,
             t.z0,
             eng(t.tau, "s"),
             t.delay,
-            eng(t.error_s, "s"),
-            100.0 * t.error_s / t.tau,
+            timing,
             t.r_total,
             t.sections,
-            if t.r_dropped { "  (R dropped: one-sample segment)" } else { "" }
+            t.model.name(),
+            100.0 * t.model_error,
+            if t.exceeds { " !!" } else { "" },
+            if t.r_dropped && !lumped { "  (R dropped: one-sample segment)" } else { "" }
         );
+    }
+    if r.segments.iter().any(|t| t.model != crate::compile::SegmentModel::DelayLine) {
+        let _ = writeln!(
+            s,
+            "   lumped: a segment under {} samples of delay is its capacitance C'·l at a node (a stub's end load moved to its tap, \
+             the two nodes of a piece joined); its inductance and resistance are neglected, the error column says what that costs",
+            crate::compile::LUMP_BELOW_SAMPLES
+        );
+    }
+    if !r.reactive.is_empty() {
+        let _ = writeln!(s, "\n-- capacitors at nodes (bilinear ports): error against the exact first-order response");
+        for e in &r.reactive {
+            let _ = writeln!(
+                s,
+                "   {:<24} {:>10} through {:>10}  tau {:>10} ({:.2} samples)  error {:>6.2} % of the node's step{}",
+                e.node,
+                eng(e.capacitance, "F"),
+                eng(e.resistance, "Ω"),
+                eng(e.tau, "s"),
+                e.tau / c.dt,
+                100.0 * e.error,
+                if e.exceeds { " !!" } else { "" }
+            );
+        }
+    }
+    match r.shortest_edge {
+        Some(edge) => {
+            let _ = writeln!(
+                s,
+                "   shortest drive edge (10-90 %) this plant honours at {}: {} (every model error above within {:.2} %)",
+                eng(1.0 / c.dt, "Hz"),
+                eng(edge, "s"),
+                100.0 * plant.tolerances.max_error
+            );
+        }
+        None => {
+            let _ = writeln!(
+                s,
+                "   no drive edge up to 10^7 samples keeps every model error above within {:.2} %",
+                100.0 * plant.tolerances.max_error
+            );
+        }
     }
     if r.segments.iter().any(|t| t.loss_fit_db.is_some()) {
         let _ = writeln!(s, "\n-- frequency-dependent loss (filters in the lines, fitted over fs/10^4 .. 0.4 fs)");
@@ -105,7 +159,12 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
         "   largest line impedance error from weight quantization: {:.2e} (relative)",
         a.max_impedance_error
     );
-    let worst = r.segments.iter().map(|t| (t.error_s / t.tau).abs()).fold(0.0, f64::max);
+    let worst = r
+        .segments
+        .iter()
+        .filter(|t| t.model == crate::compile::SegmentModel::DelayLine)
+        .map(|t| (t.error_s / t.tau).abs())
+        .fold(0.0, f64::max);
     let _ = writeln!(s, "   largest delay quantization error: {:.3} % of a segment's delay", 100.0 * worst);
     let _ = writeln!(s, "\n-- storage and work per sample");
     let wide_kb = r.ram_bytes(ProfileKind::Wide) as f64 / 1024.0;

@@ -160,11 +160,28 @@ pub fn inspect_json(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Va
                 "loss_at_0_4_fs_db": num(t.loss_edge_db),
                 "dispersion_s": num(t.dispersion_s),
                 "dispersion_samples": t.dispersion_samples,
+                "model": t.model.key(),
+                "model_error_fraction": num(t.model_error),
+                "exceeds_tolerance": t.exceeds,
             })
         })
         .collect();
     let reflections: Vec<Value> =
         r.reflections.iter().map(|g| json!({ "node": g.node, "segment": g.segment, "gamma": num(g.gamma) })).collect();
+    let reactive: Vec<Value> = r
+        .reactive
+        .iter()
+        .map(|e| {
+            json!({
+                "node": e.node,
+                "capacitance_f": num(e.capacitance),
+                "resistance_ohm": num(e.resistance),
+                "tau_s": num(e.tau),
+                "error_fraction": num(e.error),
+                "exceeds_tolerance": e.exceeds,
+            })
+        })
+        .collect();
     let dc: Vec<Value> = a.dc.iter().map(|(n, v)| json!({ "node": n, "volts": num(*v) })).collect();
     json!({
         "schema": INSPECT_SCHEMA,
@@ -175,6 +192,9 @@ pub fn inspect_json(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Va
         "samples": c.samples,
         "segments": segments,
         "reflections": reflections,
+        "reactive": reactive,
+        "judged_rise_s": num(r.judged_rise),
+        "shortest_edge_s": opt(r.shortest_edge),
         "dc_point": dc,
         "fixed_point": {
             "volts_per_code": num(c.net.volts_per_code as f64),

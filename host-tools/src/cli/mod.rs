@@ -136,12 +136,19 @@ pub enum Command {
         #[arg(long, value_enum, default_value = "wide")]
         profile: ProfileArg,
     },
-    /// Can a part run this plant in real time? Highest rate, RAM, flash, tolerances there.
+    /// Which sample rate does this plant need (verify against the exact reference on a
+    /// ladder of rates), and can a part run it in real time?
     Rate {
         plant: PathBuf,
         /// The part: m0, m4 (the emulated parts) or stm32f407 (the reference board).
         #[arg(long)]
-        part: String,
+        part: Option<String>,
+        /// Lowest rate tried (default: the longest segment is one sample).
+        #[arg(long)]
+        from: Option<String>,
+        /// Highest rate tried (default: four times the plant's rate).
+        #[arg(long)]
+        to: Option<String>,
     },
     /// Drive a rig over its control link: load, start, stop, schedule, capture, status.
     Rig(rig::RigArgs),
@@ -259,7 +266,7 @@ pub fn main() -> i32 {
         }
         Command::Demo { out } => demo::run(&out),
         Command::Rig(args) => rig::run(args),
-        Command::Rate { plant, part } => rate::run(&plant, &part),
+        Command::Rate { plant, part, from, to } => rate::run(&plant, part.as_deref(), from.as_deref(), to.as_deref()),
         Command::Extract(args) => extract::run(&args),
     };
     match r {

@@ -1,14 +1,23 @@
-//! `tidewire rate PLANT --part NAME`: can this part run this plant in real time, and at what
-//! rate? The part's measured cost model (instructions per sample from the line ends and
+//! `tidewire rate PLANT [--part NAME] [--from RATE] [--to RATE]`: which sample rate does the
+//! plant need, and can a part run it in real time?
+//!
+//! The search (`analysis::rate_search`) verifies the plant against the exact reference on a
+//! ladder of rates and bisects to the least passing one; the table gives the error against
+//! rate and, from the measured firmware figures, the cost per sample at each rate.
+//!
+//! With `--part`: the part's measured cost model (instructions per sample from the line ends and
 //! junctions, `rig::parts`) gives the highest rate at one instruction per cycle; the plant is
 //! compiled again at that rate (fewer samples of delay, perhaps coarser lumping) until the
 //! rate and the network agree; then RAM, flash, and the plant's tolerances at that rate.
 //!
-//! Exit codes: 0 the part runs the plant in real time at some rate that passes the
-//! tolerances; 1 it does not (too slow, too little memory, or the tolerances fail at the rate
-//! it can keep); 2 bad input.
+//! Exit codes: without `--part`, 0 when some rate passes and 1 when none does; with
+//! `--part`, 0 the part runs the plant in real time at some rate that passes the
+//! tolerances, 1 it does not (too slow, too little memory, or the tolerances fail at the rate
+//! it can keep); 2 bad input (checked before any work).
 use super::Failure;
-use crate::compile::{compile, Compiled};
+use crate::analysis::rate_search::{self, default_bounds};
+use crate::compile::{compile, Compiled, ProfileKind};
+use crate::plant::units::{parse_quantity, UnitKind};
 use crate::plant::{load_plant, Plant};
 use crate::rig::parts::{find, RigPart, RIG_PARTS};
 use std::path::Path;
@@ -44,17 +53,115 @@ fn settle(plant: &Plant, file: &str, part: &RigPart, start: &Compiled) -> Result
     best.ok_or_else(|| format!("no rate found that the part keeps (last tried {})", si_rate(rate)))
 }
 
-pub(super) fn run(path: &Path, part_name: &str) -> Result<i32, Failure> {
-    let Some(part) = find(part_name) else {
-        let names: Vec<&str> = RIG_PARTS.iter().map(|p| p.name).collect();
-        return Err(Failure {
-            code: 2,
-            message: format!("error: unknown part {part_name:?}; parts: {}", names.join(", ")),
-        });
+pub(super) fn run(path: &Path, part_name: Option<&str>, from: Option<&str>, to: Option<&str>) -> Result<i32, Failure> {
+    let part = match part_name {
+        None => None,
+        Some(name) => Some(find(name).ok_or_else(|| {
+            let names: Vec<&str> = RIG_PARTS.iter().map(|p| p.name).collect();
+            Failure { code: 2, message: format!("error: unknown part {name:?}; parts: {}", names.join(", ")) }
+        })?),
     };
+    let rate_arg = |text: Option<&str>, option: &str| -> Result<Option<f64>, Failure> {
+        text.map(|t| {
+            parse_quantity(t, UnitKind::Frequency)
+                .map_err(|e| Failure { code: 2, message: format!("error: --{option} \"{t}\": {e}") })
+        })
+        .transpose()
+    };
+    let (from, to) = (rate_arg(from, "from")?, rate_arg(to, "to")?);
     let plant = load_plant(path)?;
     let file = path.display().to_string();
-    let own = compile(&plant, &file, part.profile)?;
+    let (lo, hi) = default_bounds(&plant);
+    let (lo, hi) = (from.unwrap_or(lo.min(to.unwrap_or(hi))), to.unwrap_or(hi.max(from.unwrap_or(lo))));
+    rate_search::check_bounds(&plant, &file, lo, hi)?;
+    let profile = part.map_or(ProfileKind::Wide, |p| p.profile);
+    let code = match part {
+        Some(part) => real_time(&plant, &file, part)?,
+        None => {
+            println!("== {} ==", plant.name);
+            0
+        }
+    };
+    let found = search_table(&plant, &file, profile, part, lo, hi)?;
+    Ok(if part.is_some() {
+        code
+    } else if found {
+        0
+    } else {
+        1
+    })
+}
+
+/// The search and its table: error against rate, cost per sample, real time per part.
+fn search_table(
+    plant: &Plant,
+    file: &str,
+    profile: ProfileKind,
+    part: Option<&RigPart>,
+    lo: f64,
+    hi: f64,
+) -> Result<bool, Failure> {
+    let s = rate_search::search(plant, file, profile, lo, hi)?;
+    println!(
+        "\n-- the rate this plant needs: verify ({} profile, core against the exact reference, the plant's tolerances: max {:.2} %, rms {:.2} %) from {} to {}",
+        profile.name(),
+        100.0 * plant.tolerances.max_error,
+        100.0 * plant.tolerances.rms_error,
+        si_rate(lo),
+        si_rate(hi)
+    );
+    let parts: Vec<&RigPart> = match part {
+        Some(p) => vec![p],
+        None => RIG_PARTS.iter().collect(),
+    };
+    println!(
+        "   {:>13} {:>6} {:>9} {:>10} {:>10} {:>7}   instructions per sample (real time?)",
+        "rate", "lumped", "line ends", "worst max", "worst rms", "verdict"
+    );
+    for p in &s.points {
+        let mark = if p.bisected { "~" } else { " " };
+        match &p.outcome {
+            Ok(f) => {
+                let costs: Vec<String> = parts
+                    .iter()
+                    .map(|part| match part.instructions(f.ports, f.junctions) {
+                        Some(i) => format!(
+                            "{} {:.0} ({})",
+                            part.name,
+                            i,
+                            if part.clock_hz / i >= p.rate { "yes" } else { "no" }
+                        ),
+                        None => format!("{} -", part.name),
+                    })
+                    .collect();
+                println!(
+                    "  {mark}{:>13} {:>6} {:>9} {:>9.2} % {:>8.2} % {:>7}   {}",
+                    si_rate(p.rate),
+                    f.lumped,
+                    f.ports,
+                    100.0 * f.max_error,
+                    100.0 * f.rms_error,
+                    if f.pass { "pass" } else { "FAIL" },
+                    costs.join(", ")
+                );
+            }
+            Err(e) => println!("  {mark}{:>13}   not run: {e}", si_rate(p.rate)),
+        }
+    }
+    match s.least_passing {
+        Some(r) => println!(
+            "   least rate found that passes: {} (~ = found by bisection; a rate above it can still fail where delays round badly)",
+            si_rate(r)
+        ),
+        None => println!("   no rate tried passes the plant's tolerances"),
+    }
+    Ok(s.least_passing.is_some())
+}
+
+/// The part's real-time answer (the command's answer before the rate search existed).
+fn real_time(plant: &Plant, file: &str, part: &RigPart) -> Result<i32, Failure> {
+    let file = file.to_string();
+    let own = compile(plant, &file, part.profile)?;
     let fs = plant.sample_rate;
     println!("== {} on {} ==", plant.name, part.name);
     println!("   part: {}; {} KiB RAM, {} KiB flash", part.description, part.ram / 1024, part.flash / 1024);
@@ -73,7 +180,7 @@ pub(super) fn run(path: &Path, part_name: &str) -> Result<i32, Failure> {
     } else {
         println!("   the plant's own rate runs {:.0}x slower than real time", fs / keeps);
     }
-    let (rate, c) = match settle(&plant, &file, part, &own) {
+    let (rate, c) = match settle(plant, &file, part, &own) {
         Ok((r, c)) => {
             println!("   highest real-time rate: {} ({} line ends compiled at that rate)", si_rate(r), c.report.ports);
             (Some(r), c)

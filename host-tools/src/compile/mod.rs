@@ -2,8 +2,9 @@
 //! samples and milliohms, with a report of every error the quantization introduces.
 //!
 //! * delays: each segment's one-way delay τ = length / v is rounded to whole samples; the
-//!   timing error is reported in ns and %; a segment shorter than half a sample is refused
-//!   with the sample rate it would need;
+//!   timing error is reported in ns and %; a segment shorter than
+//!   [`LUMP_BELOW_SAMPLES`] is lumped instead (`lumped.rs`: its C'·l at a node, its end
+//!   nodes joined, the model's error stated per segment);
 //! * conductor resistance: a segment with loop resistance R = r'·length is cut into n
 //!   sections and each section's R/n sits in the middle of the section (series junction
 //!   between two halves of the same cable), so the DC operating point obeys Ohm's law
@@ -20,10 +21,13 @@
 mod core_check;
 mod loads;
 pub mod loss;
+pub mod lumped;
+pub mod model_error;
 mod report;
 mod segments;
 
-pub use report::{Reflection, Report, SegmentTiming};
+pub use lumped::{LumpKind, LUMP_BELOW_SAMPLES};
+pub use report::{ReactiveError, Reflection, Report, SegmentModel, SegmentTiming};
 pub use segments::{LinePiece, SECTION_R_OVER_Z0};
 
 use crate::plant::{Drive as PlantDrive, End, EventAction, Load, Plant, PlantError, ProbeKind as PlantProbe, Span};
@@ -172,21 +176,30 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
     };
     let mut b = segments::Builder::new(plant, file, dt, frac);
 
-    // Junctions for the plant's nodes first, so node n is junction n.
+    // Every node's own load first, so its errors (a capacitor out of the core's range) come
+    // before anything lumping says about the segments.
+    for node in &plant.nodes {
+        loads::realize(&node.load, dt, file, node.span, &format!("node.{}.load", node.name))?;
+    }
+    // Electrically short segments are lumped: their end nodes share one junction.
+    let lump = lumped::plan(plant, file, dt)?;
+    // Junctions for the plant's node classes first, so class k is junction k (a plant with
+    // no lumped segment: node n is junction n).
     let mut node_elements = Vec::new();
-    for (i, node) in plant.nodes.iter().enumerate() {
-        let (shunt, els) = loads::realize(&node.load, dt, file, node.span, &format!("node.{}.load", node.name))?;
+    for k in 0..lump.classes {
+        let (shunt, els) = lumped::class_load(plant, &lump, k, dt, file, None)?;
         b.junctions.push(Junction::Node { shunt });
         for (kind, port, series) in els {
             node_elements.push(Element {
-                junction: i as JunctionId,
+                junction: k as JunctionId,
                 kind,
                 port_milliohm: port,
                 series_milliohm: series,
             });
         }
     }
-    let node_junction: Vec<JunctionId> = (0..plant.nodes.len()).map(|i| i as JunctionId).collect();
+    let node_junction: Vec<JunctionId> = lump.class_of.iter().map(|&k| k as JunctionId).collect();
+    b.node_junction = node_junction.clone();
 
     // The rig port's node and latency, to keep its first line long enough.
     let rig = match &plant.drive {
@@ -204,12 +217,17 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
                 _ => None,
             })
             .collect();
+        if lump.lumped[si].is_some() {
+            b.lumped_segment(seg);
+            continue;
+        }
         let min_first = rig.and_then(|(n, lat)| (n == seg.from || n == seg.to).then_some(lat));
         let breaks = b.segment(seg, &cuts, min_first)?;
         break_junction.extend(breaks);
     }
     if let Some((node, lat)) = rig {
-        let first = b.lines.iter().find(|l| l.a as usize == node || l.b as usize == node);
+        let j = node_junction[node];
+        let first = b.lines.iter().find(|l| l.a == j || l.b == j);
         if let (Some(l), Some(seg)) = (first, plant.segments.iter().find(|s| s.from == node || s.to == node)) {
             if l.delay < lat + 1 {
                 return Err(err(
@@ -248,8 +266,9 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
                     "the emulation is exact only when the reference resistor equals the port's characteristic impedance",
                 ));
             }
-            if let Some(Junction::Node { shunt }) = junctions.get(*node).copied() {
-                if shunt != Shunt::Open || elements.iter().any(|e| e.junction as usize == *node) {
+            let j = node_junction[*node];
+            if let Some(Junction::Node { shunt }) = junctions.get(j as usize).copied() {
+                if shunt != Shunt::Open || elements.iter().any(|e| e.junction == j) {
                     return Err(err(
                         file,
                         plant.nodes[*node].span,
@@ -338,6 +357,13 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
         let action = match e.action {
             EventAction::SetLoad(n, load) => {
                 let shunt = match load {
+                    Load::Open | Load::Short | Load::Resistor(_) if lump.members(lump.class_of[n]).nth(1).is_some() => {
+                        // A node merged with others by lumping: the new load joins theirs.
+                        if let Load::Resistor(r) = load {
+                            checked_milliohm(r, file, e.span, "event.load")?;
+                        }
+                        lumped::class_load(plant, &lump, lump.class_of[n], dt, file, Some((n, load)))?.0
+                    }
                     Load::Open => Shunt::Open,
                     Load::Short => Shunt::Short,
                     Load::Resistor(r) => Shunt::Resistor { milliohm: checked_milliohm(r, file, e.span, "event.load")? },
@@ -375,7 +401,7 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
         report: Report { segments: report_segments, ..Report::default() },
     };
     core_check::check(&compiled, plant, file)?;
-    report::fill(&mut compiled, plant);
+    report::fill(&mut compiled, plant, &lump);
     Ok(compiled)
 }
 

@@ -31,6 +31,57 @@ pub struct SegmentTiming {
     /// to the lines for it.
     pub dispersion_s: f64,
     pub dispersion_samples: u32,
+    /// Which model the segment got.
+    pub model: SegmentModel,
+    /// The model's error at the drive's edge, fraction of the step (`model_error.rs`).
+    pub model_error: f64,
+    /// The error exceeds the plant's tolerance (max_error, or arrival for a delay line).
+    pub exceeds: bool,
+}
+
+/// Which model a segment got.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum SegmentModel {
+    /// Delay lines of whole samples (with lumped resistance and loss filters).
+    DelayLine,
+    /// Lumped elements: shorter than [`super::LUMP_BELOW_SAMPLES`].
+    Lumped(super::LumpKind),
+}
+
+impl SegmentModel {
+    /// Name in reports and JSON.
+    pub fn name(self) -> &'static str {
+        match self {
+            SegmentModel::DelayLine => "delay line",
+            SegmentModel::Lumped(super::LumpKind::Stub { .. }) => "lumped stub",
+            SegmentModel::Lumped(super::LumpKind::Joined) => "lumped, nodes joined",
+        }
+    }
+
+    /// Key in JSON documents.
+    pub fn key(self) -> &'static str {
+        match self {
+            SegmentModel::DelayLine => "delay_line",
+            SegmentModel::Lumped(super::LumpKind::Stub { .. }) => "lumped_stub",
+            SegmentModel::Lumped(super::LumpKind::Joined) => "lumped_joined",
+        }
+    }
+}
+
+/// A bilinear capacitor at a node and its error at the drive's edge.
+#[derive(Debug, Clone, PartialEq)]
+pub struct ReactiveError {
+    /// The plant node(s) of its junction, joined by "+".
+    pub node: String,
+    /// F.
+    pub capacitance: f64,
+    /// Resistance it charges through (node's lines, shunt, source, its series R), ohm.
+    pub resistance: f64,
+    /// Time constant, s.
+    pub tau: f64,
+    /// Largest error against the exact first-order response, fraction of the node's step.
+    pub error: f64,
+    pub exceeds: bool,
 }
 
 /// Reflection coefficient seen by a wave arriving at a node on one segment.
@@ -53,6 +104,13 @@ pub struct Report {
     /// Delay storage, waves.
     pub memory_waves: usize,
     pub notes: Vec<String>,
+    /// Capacitors at nodes and their bilinear error at the drive's edge.
+    pub reactive: Vec<ReactiveError>,
+    /// The 10–90 % edge the model errors are judged at (the drive's, at least 2 samples), s.
+    pub judged_rise: f64,
+    /// The shortest drive edge at which every model error is within max_error (None: none
+    /// up to 10^7 samples).
+    pub shortest_edge: Option<f64>,
 }
 
 impl Report {
@@ -83,7 +141,7 @@ fn load_r(load: &Load) -> f64 {
     }
 }
 
-pub(super) fn fill(c: &mut Compiled, plant: &Plant) {
+pub(super) fn fill(c: &mut Compiled, plant: &Plant, lump: &super::lumped::LumpPlan) {
     let r = &mut c.report;
     r.notes = plant.notes.clone();
     for (ni, node) in plant.nodes.iter().enumerate() {
@@ -110,4 +168,5 @@ pub(super) fn fill(c: &mut Compiled, plant: &Plant) {
     r.ports = ports;
     r.junctions = juncs;
     r.memory_waves = mem;
+    super::model_error::fill(c, plant, lump);
 }

@@ -30,6 +30,8 @@ pub(super) struct Builder<'p> {
     pub junctions: Vec<Junction>,
     pub pieces: Vec<Vec<LinePiece>>,
     pub timings: Vec<SegmentTiming>,
+    /// Plant node → core junction (nodes joined by a lumped segment share one).
+    pub node_junction: Vec<JunctionId>,
     /// Loss designs by (cable index, line length bits): the fit depends only on the cable,
     /// the length, the sample rate and the profile (fixed per build), so a chain of equal
     /// segments of one cable fits once, not once per segment.
@@ -48,6 +50,7 @@ impl<'p> Builder<'p> {
             junctions: vec![],
             pieces: vec![],
             timings: vec![],
+            node_junction: (0..plant.nodes.len()).map(|n| n as JunctionId).collect(),
             loss_cache: Default::default(),
         }
     }
@@ -110,6 +113,9 @@ impl<'p> Builder<'p> {
             loss_edge_db: 0.0,
             dispersion_s: 0.0,
             dispersion_samples: 0,
+            model: super::SegmentModel::DelayLine,
+            model_error: 0.0,
+            exceeds: false,
         });
 
         // Sub-runs between breaks: [0, d1], [d1, d2], ..., [dk, length].
@@ -123,7 +129,7 @@ impl<'p> Builder<'p> {
         let mut bounds = vec![0.0];
         bounds.extend(cut_d.iter().map(|c| c.1));
         bounds.push(seg.length);
-        let mut ends = vec![seg.from as JunctionId];
+        let mut ends = vec![self.node_junction[seg.from]];
         for (event, _) in cut_d.iter() {
             let j = match (event, seg.inline) {
                 (None, Some(inl)) => Junction::SeriesInductor {
@@ -134,7 +140,7 @@ impl<'p> Builder<'p> {
             };
             ends.push(self.new_junction(j)?);
         }
-        ends.push(seg.to as JunctionId);
+        ends.push(self.node_junction[seg.to]);
         // Whole samples per sub-run, keeping the segment's total delay.
         let mut sample_bounds: Vec<u32> =
             bounds.iter().map(|d| ((d / seg.length) * delay as f64).round() as u32).collect();
@@ -158,6 +164,8 @@ impl<'p> Builder<'p> {
             }
             let len = bounds[k + 1] - bounds[k];
             let r = r_total * len / seg.length;
+            // The rig node is never joined to another (`lumped::plan` refuses that), so plant
+            // node ids compare directly here.
             let at_rig = rig_latency.filter(|_| {
                 (k == 0 && self.plant_rig_node() == Some(seg.from))
                     || (k + 2 == bounds.len() && self.plant_rig_node() == Some(seg.to))
@@ -173,6 +181,33 @@ impl<'p> Builder<'p> {
         }
         self.pieces.push(pieces);
         Ok(cut_d.iter().enumerate().filter_map(|(k, (e, _))| e.map(|e| (e, ends[k + 1]))).collect())
+    }
+
+    /// A segment lumped by `lumped.rs`: no line, its timing row only (the report fills its
+    /// model and error), and an empty piece list so segment indices stay aligned.
+    pub fn lumped_segment(&mut self, seg: &Segment) {
+        let cable = &self.plant.cables[seg.cable];
+        let tau = seg.length / cable.velocity;
+        self.timings.push(SegmentTiming {
+            name: seg.name.clone(),
+            cable: cable.name.clone(),
+            length: seg.length,
+            z0: cable.z0,
+            tau,
+            delay: 0,
+            error_s: -tau,
+            r_total: cable.r_per_m * seg.length,
+            sections: 0,
+            r_dropped: cable.r_per_m > 0.0,
+            loss_fit_db: None,
+            loss_edge_db: 0.0,
+            dispersion_s: 0.0,
+            dispersion_samples: 0,
+            model: super::SegmentModel::Lumped(super::LumpKind::Joined),
+            model_error: 0.0,
+            exceeds: false,
+        });
+        self.pieces.push(vec![]);
     }
 
     fn plant_rig_node(&self) -> Option<usize> {
