@@ -26,6 +26,9 @@ pub struct RateFigures {
     pub max_error: f64,
     pub rms_error: f64,
     pub pass: bool,
+    /// The checks that failed, by name ("max", "rms", "final", "arrival", "event"), empty
+    /// when it passes.
+    pub failed: Vec<&'static str>,
     /// Line ends and junctions of the network at this rate (its cost per sample).
     pub ports: usize,
     pub junctions: usize,
@@ -136,6 +139,7 @@ fn try_rate(plant: &Plant, file: &str, profile: ProfileKind, rate: f64, bisected
             max_error: worst(|x| x.max_error),
             rms_error: worst(|x| x.rms_error),
             pass: v.pass(),
+            failed: failed_checks(&v),
             ports: c.report.ports,
             junctions: c.report.junctions,
             lumped: c.report.segments.iter().filter(|t| t.model != SegmentModel::DelayLine).count(),
@@ -143,6 +147,29 @@ fn try_rate(plant: &Plant, file: &str, profile: ProfileKind, rate: f64, bisected
         })
     })();
     RatePoint { rate, outcome, bisected }
+}
+
+/// One of verify's per-probe checks.
+type Check = fn(&crate::verify::ProbeFigures) -> bool;
+
+/// Which of verify's checks failed, in a fixed order.
+fn failed_checks(v: &crate::verify::Verification) -> Vec<&'static str> {
+    let mut out = vec![];
+    let checks: [(&str, Check); 4] = [
+        ("max", |p| p.pass_max),
+        ("rms", |p| p.pass_rms),
+        ("final", |p| p.pass_final),
+        ("arrival", |p| p.pass_arrival),
+    ];
+    for (name, ok) in checks {
+        if !v.probes.iter().all(ok) {
+            out.push(name);
+        }
+    }
+    if !v.events.iter().all(|e| e.probes.iter().all(|p| p.pass_max && p.pass_rms)) {
+        out.push("event");
+    }
+    out
 }
 
 fn passes(p: &RatePoint) -> bool {
