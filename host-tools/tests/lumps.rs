@@ -278,3 +278,36 @@ node = "s"
         }
     }
 }
+
+fn silo_path() -> std::path::PathBuf {
+    Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/plants/silo-sensor-bus.toml")
+}
+
+#[test]
+fn rate_answers_the_rate_a_plant_needs_and_refuses_bad_bounds_with_exit_2() {
+    let out = assert_cmd::Command::cargo_bin("tidewire")
+        .unwrap()
+        .args(["rate", silo_path().to_str().unwrap(), "--from", "4 MHz", "--to", "16 MHz"])
+        .output()
+        .unwrap();
+    let text = String::from_utf8_lossy(&out.stdout);
+    assert_eq!(out.status.code(), Some(0), "{text}");
+    assert!(text.contains("least rate found that passes"), "{text}");
+    assert!(text.contains("8.000 MS/s") && text.contains("FAIL"), "{text}");
+    for (args, says) in [
+        (vec!["--from", "fast"], "--from"),
+        (vec!["--from", "16 MHz", "--to", "4 MHz"], "--to"),
+        (vec!["--to", "1000 GHz"], "samples"),
+        (vec!["--from", "1 Hz", "--to", "1 GHz"], "rungs"),
+        (vec!["--part", "z80"], "unknown part"),
+    ] {
+        let path = silo_path();
+        let mut a = vec!["rate", path.to_str().unwrap()];
+        a.extend(args.iter().copied());
+        let out = assert_cmd::Command::cargo_bin("tidewire").unwrap().args(&a).output().unwrap();
+        let err = String::from_utf8_lossy(&out.stderr);
+        assert_eq!(out.status.code(), Some(2), "{a:?}: {err}");
+        assert!(err.contains(says), "{a:?}: {err}");
+        assert!(out.stdout.is_empty(), "{a:?}: work done before the check");
+    }
+}
