@@ -181,6 +181,78 @@ load = "open"
 }
 
 #[test]
+fn a_short_high_impedance_piece_between_equal_lines_becomes_a_series_inductor() {
+    // 1.5 m of 300 ohm between two 100 ohm runs at 10 MS/s (0.15 samples): as a series
+    // inductor (L = 300 ohm · 7.5 ns = 2.25 uH) its neglected C costs less than the joined
+    // model's neglected L (the piece is inductive against the lines it joins).
+    let text = r#"
+[plant]
+name = "inductive patch"
+sample_rate = "10 MHz"
+duration = "20 us"
+[cable.c]
+impedance = "100 ohm"
+delay = "5 ns/m"
+[cable.hi]
+impedance = "300 ohm"
+delay = "5 ns/m"
+[node.a]
+[node.b]
+[node.c]
+[node.d]
+load = "100 ohm"
+[[segment]]
+from = "a"
+to = "b"
+cable = "c"
+length = "100 m"
+[[segment]]
+name = "patch"
+from = "b"
+to = "c"
+cable = "hi"
+length = "1.5 m"
+[[segment]]
+from = "c"
+to = "d"
+cable = "c"
+length = "100 m"
+[drive]
+kind = "source"
+node = "a"
+resistance = "100 ohm"
+waveform = { step = "1 V", rise = "300 ns" }
+[[probe]]
+name = "a"
+node = "a"
+[[probe]]
+name = "d"
+node = "d"
+"#;
+    let plant = parse_plant(text, "hi.toml", Path::new(".")).unwrap();
+    let (c, _) = prepare(&plant, "hi.toml", ProfileKind::Wide).unwrap();
+    assert_eq!(c.report.segments[1].model, SegmentModel::Lumped(LumpKind::Series));
+    let j = c.node_junction[1] as usize;
+    // 2L/T = 2 · 2.25 uH / 100 ns = 45 ohm [closed form].
+    assert_eq!(c.net.junctions[j], tidewire_core::Junction::SeriesInductor { port_milliohm: 45_000, milliohm: 0 });
+    let (v, _) = verify(&plant, "hi.toml", &c, &[], &|_| {}).unwrap();
+    let series = v.probes.iter().map(|p| p.max_error / p.norm).fold(0.0, f64::max);
+    assert!(v.pass(), "series model: {series}");
+    // The same plant with a probe at b cannot use the series junction (no node to read):
+    // it falls back to the joined model, whose error is larger.
+    let probed = text.replace("[[probe]]\nname = \"a\"\nnode = \"a\"", "[[probe]]\nname = \"b\"\nnode = \"b\"");
+    let plant2 = parse_plant(&probed, "hi.toml", Path::new(".")).unwrap();
+    let (c2, _) = prepare(&plant2, "hi.toml", ProfileKind::Wide).unwrap();
+    assert_eq!(c2.report.segments[1].model, SegmentModel::Lumped(LumpKind::Joined));
+    assert!(c2.report.segments[1].model_error > c.report.segments[1].model_error);
+    let (v2, _) = verify(&plant2, "hi.toml", &c2, &[], &|_| {}).unwrap();
+    let joined = v2.probes.iter().skip(1).map(|p| p.max_error / p.norm).fold(0.0, f64::max);
+    let series_d = v.probes[1].max_error / v.probes[1].norm;
+    println!("far end: series L {:.3} %, joined {:.3} % of the step", 100.0 * series_d, 100.0 * joined);
+    assert!(series_d < joined, "series {series_d} joined {joined}");
+}
+
+#[test]
 fn a_short_segment_with_a_current_probe_is_refused_with_a_rate_that_makes_it_a_line() {
     let text = FAST_CAP.replace("length = \"20 m\"", "length = \"0.5 m\"").replace(
         "[[probe]]\nname = \"at source\"\nnode = \"src\"",

@@ -11,10 +11,16 @@
 //! * **joined**: both ends carry other segments or the drive: the two nodes are merged and
 //!   C'·l sits at the merged node.
 //!
+//! * **series**: a piece whose two nodes carry nothing but one other segment each, of one
+//!   impedance (no load, drive, probe or event), may instead be the core's series-inductor
+//!   junction (L'·l with R'·l in series, between two line ends of equal impedance), its
+//!   C'·l neglected: chosen when that model's stated error is the smaller.
+//!
 //! Chains of short segments merge transitively (union-find over the plant's nodes). The
 //! error each model makes is stated per segment ([`lump_error`]). The general series
 //! inductor between two arbitrary nodes (issue 10 item 2's core element) is not built here:
-//! that needs a new core junction; joined pieces neglect their inductance and say by how much.
+//! that needs a new core junction; joined pieces elsewhere neglect their inductance and say
+//! by how much.
 use super::loads::{realize, ElementSpec};
 use super::{checked_milliohm, err};
 use crate::plant::{Drive, EventAction, Load, Plant, PlantError, ProbeKind};
@@ -36,6 +42,11 @@ pub enum LumpKind {
     },
     /// A piece between two connected nodes: nodes merged, the piece's C there.
     Joined,
+    /// A piece between two line ends of equal impedance and nothing else: its series
+    /// inductance L'·l and resistance R'·l as a series-inductor junction (port 2L/T), its C
+    /// neglected. Chosen over [`LumpKind::Joined`] where its stated error is smaller (a piece
+    /// of higher impedance than the lines it joins).
+    Series,
 }
 
 /// The lumping decided for a plant at one sample period.
@@ -162,7 +173,41 @@ pub fn plan(plant: &Plant, file: &str, dt: f64) -> Result<LumpPlan, PlantError> 
             ));
         }
     }
-    Ok(LumpPlan { class_of, classes, lumped })
+    let mut plan = LumpPlan { class_of, classes, lumped };
+    for si in 0..plant.segments.len() {
+        if plan.lumped[si] == Some(LumpKind::Joined) && series_fits(plant, &plan, si) {
+            let judge = super::model_error::judged_rise(plant, dt);
+            if lump_error(plant, si, LumpKind::Series, judge) < lump_error(plant, si, LumpKind::Joined, judge) {
+                plan.lumped[si] = Some(LumpKind::Series);
+            }
+        }
+    }
+    Ok(plan)
+}
+
+/// Whether lumped segment `si` can be a series-inductor junction: its class is exactly its
+/// two end nodes, each with no load, drive, probe or scheduled load change, and one other
+/// segment each, delay lines of one impedance.
+fn series_fits(plant: &Plant, plan: &LumpPlan, si: usize) -> bool {
+    let seg = &plant.segments[si];
+    if seg.from == seg.to || plan.members(plan.class_of[seg.from]).count() != 2 {
+        return false;
+    }
+    let mut z = vec![];
+    for node in [seg.from, seg.to] {
+        let quiet = plant.nodes[node].load == Load::Open
+            && drive_node(plant) != node
+            && !plant.probes.iter().any(|p| p.kind == ProbeKind::Voltage(node))
+            && !plant.events.iter().any(|e| matches!(e.action, EventAction::SetLoad(n, _) if n == node));
+        let others: Vec<usize> = (0..plant.segments.len())
+            .filter(|&k| k != si && (plant.segments[k].from == node || plant.segments[k].to == node))
+            .collect();
+        if !quiet || others.len() != 1 || plan.lumped[others[0]].is_some() {
+            return false;
+        }
+        z.push(plant.cables[plant.segments[others[0]].cable].z0);
+    }
+    (z[0] - z[1]).abs() <= 1e-9 * z[0]
 }
 
 /// The shunt and elements of class `k`: every member node's load (resistive parts in
@@ -226,6 +271,10 @@ pub(super) fn class_load(
         .sum::<f64>()
         + extra_c;
     let Some(first) = first else { return Ok((Shunt::Open, vec![])) };
+    if series_class(plant, plan, k).is_some() {
+        // A series-inductor junction: no node, no shunt, its C neglected (stated).
+        return Ok((Shunt::Open, vec![]));
+    }
     let node = &plant.nodes[first];
     if short {
         // A short at the node: every other part of the load carries no voltage.
@@ -245,6 +294,12 @@ pub(super) fn class_load(
         },
     };
     Ok((shunt, elements))
+}
+
+/// The series-lumped segment whose class is `k`, if any.
+pub fn series_class(plant: &Plant, plan: &LumpPlan, k: usize) -> Option<usize> {
+    (0..plant.segments.len())
+        .find(|&s| plan.lumped[s] == Some(LumpKind::Series) && plan.class_of[plant.segments[s].from] == k)
 }
 
 /// Admittance of a node's load at angular frequency `w` (None: a short, infinite).
@@ -326,6 +381,14 @@ pub fn lump_error(plant: &Plant, si: usize, kind: LumpKind, rise: f64) -> f64 {
             let series = (zc * theta.sinh()).norm();
             let series_part = if r_side > 0.0 { series / r_side } else { f64::INFINITY };
             series_part + (theta.cosh() - 1.0).norm()
+        }
+        LumpKind::Series => {
+            // Model [1, (R' + jωL')·l; 0, 1]: the neglected shunt sinh θ / Zc ≈ jωC'l
+            // against the larger resistance at either end, and cosh θ − 1 as above.
+            let r_side = side_resistance(plant, seg.from, si).max(side_resistance(plant, seg.to, si));
+            let shunt = (theta.sinh() / zc).norm() * r_side;
+            let series_err = (zc * theta.sinh() - z_series * seg.length).norm() / r_side.max(1e-300);
+            shunt + series_err + (theta.cosh() - 1.0).norm()
         }
     }
 }

@@ -187,6 +187,15 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
     // no lumped segment: node n is junction n).
     let mut node_elements = Vec::new();
     for k in 0..lump.classes {
+        if let Some(si) = lumped::series_class(plant, &lump, k) {
+            // L'·l and R'·l of the piece as a series-inductor junction (port 2L/T).
+            let (seg, cable) = (&plant.segments[si], &plant.cables[plant.segments[si].cable]);
+            b.junctions.push(Junction::SeriesInductor {
+                port_milliohm: to_milliohm(2.0 * cable.l_per_m() * seg.length / dt),
+                milliohm: (cable.r_per_m * seg.length * 1000.0).round().clamp(0.0, u32::MAX as f64) as u32,
+            });
+            continue;
+        }
         let (shunt, els) = lumped::class_load(plant, &lump, k, dt, file, None)?;
         b.junctions.push(Junction::Node { shunt });
         for (kind, port, series) in els {

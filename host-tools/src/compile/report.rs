@@ -55,6 +55,7 @@ impl SegmentModel {
             SegmentModel::DelayLine => "delay line",
             SegmentModel::Lumped(super::LumpKind::Stub { .. }) => "lumped stub",
             SegmentModel::Lumped(super::LumpKind::Joined) => "lumped, nodes joined",
+            SegmentModel::Lumped(super::LumpKind::Series) => "lumped series L",
         }
     }
 
@@ -64,6 +65,7 @@ impl SegmentModel {
             SegmentModel::DelayLine => "delay_line",
             SegmentModel::Lumped(super::LumpKind::Stub { .. }) => "lumped_stub",
             SegmentModel::Lumped(super::LumpKind::Joined) => "lumped_joined",
+            SegmentModel::Lumped(super::LumpKind::Series) => "lumped_series",
         }
     }
 }
