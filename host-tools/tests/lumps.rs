@@ -383,3 +383,61 @@ fn rate_answers_the_rate_a_plant_needs_and_refuses_bad_bounds_with_exit_2() {
         assert!(out.stdout.is_empty(), "{a:?}: work done before the check");
     }
 }
+
+#[test]
+fn a_short_stub_shorted_at_its_end_is_an_inductor_at_the_tap_not_a_short() {
+    // 4.5 m of 100 ohm cable shorted at its end, at 10 MS/s (0.225 samples): L = 100 ohm ·
+    // 22.5 ns = 2.25 uH to return; 2L/T = 45 ohm [closed form]. Lumped as a short the tap
+    // would be dead.
+    let text = r#"
+[plant]
+name = "shorted stub"
+sample_rate = "10 MHz"
+duration = "20 us"
+[cable.c]
+impedance = "100 ohm"
+delay = "5 ns/m"
+[node.a]
+[node.t]
+[node.s]
+load = "short"
+[node.far]
+load = "100 ohm"
+[[segment]]
+from = "a"
+to = "t"
+cable = "c"
+length = "100 m"
+[[segment]]
+from = "t"
+to = "far"
+cable = "c"
+length = "100 m"
+[[segment]]
+name = "stub"
+from = "t"
+to = "s"
+cable = "c"
+length = "4.5 m"
+[drive]
+kind = "source"
+node = "a"
+resistance = "100 ohm"
+waveform = { step = "1 V", rise = "300 ns" }
+[[probe]]
+name = "tap"
+node = "t"
+[[probe]]
+name = "far"
+node = "far"
+"#;
+    let plant = parse_plant(text, "short.toml", Path::new(".")).unwrap();
+    let (c, _) = prepare(&plant, "short.toml", ProfileKind::Wide).unwrap();
+    let j = c.node_junction[1];
+    assert_eq!(c.net.junctions[j as usize], tidewire_core::Junction::Node { shunt: tidewire_core::Shunt::Open });
+    let el = c.net.elements.iter().find(|e| e.junction == j).expect("an element at the tap");
+    assert_eq!((el.kind, el.port_milliohm), (tidewire_core::ElementKind::Inductor, 45_000));
+    assert!(c.report.segments[2].model_error < 0.05 && c.report.segments[2].model_error > 0.0);
+    let (v, _) = verify(&plant, "short.toml", &c, &[], &|_| {}).unwrap();
+    assert!(v.pass(), "{:?}", v.probes.iter().map(|p| p.max_error / p.norm).collect::<Vec<_>>());
+}

@@ -77,7 +77,8 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
         let _ = writeln!(
             s,
             "   lumped: a segment under {} samples of delay is its capacitance C'·l at a node (a stub's end load moved to its tap, \
-             the two nodes of a piece joined); its inductance and resistance are neglected, the error column says what that costs",
+             the two nodes of a piece joined; its inductance and resistance neglected), or its inductance L'·l with its resistance \
+             (a stub shorted at its end; a piece between two equal lines, marked series L); the error column says what that costs",
             crate::compile::LUMP_BELOW_SAMPLES
         );
     }

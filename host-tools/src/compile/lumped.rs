@@ -7,7 +7,8 @@
 //!
 //! * **stub**: one end is a leaf (no other segment, not the drive): the leaf's load moves to
 //!   the tap node (resistors in parallel combine, capacitors become elements there) beside
-//!   the stub's own C'·l;
+//!   the stub's own C'·l; a stub shorted at its leaf becomes an inductor element L'·l with
+//!   R'·l in series at the tap instead (a short there would short the tap);
 //! * **joined**: both ends carry other segments or the drive: the two nodes are merged and
 //!   C'·l sits at the merged node.
 //!
@@ -22,9 +23,10 @@
 //! that needs a new core junction; joined pieces elsewhere neglect their inductance and say
 //! by how much.
 use super::loads::{realize, ElementSpec};
-use super::{checked_milliohm, err};
+use super::{checked_milliohm, err, to_milliohm};
 use crate::plant::{Drive, EventAction, Load, Plant, PlantError, ProbeKind};
 use num_complex::Complex64;
+use tidewire_core::ElementKind;
 use tidewire_core::Shunt;
 
 /// Segments with a one-way delay below this many samples are lumped. One constant: the
@@ -230,6 +232,7 @@ pub(super) fn class_load(
     let mut first = None;
     let has_lumped = plant.segments.iter().zip(&plan.lumped).any(|(s, l)| l.is_some() && plan.class_of[s.from] == k);
     let mut extra_c = 0.0;
+    let mut inductive = vec![];
     for n in plan.members(k) {
         let node = &plant.nodes[n];
         first.get_or_insert(n);
@@ -239,6 +242,22 @@ pub(super) fn class_load(
         };
         // In a class with lumped segments, a capacitor to return joins the lumped C (one
         // element per node, not one per part); it is checked as part of that sum.
+        // A stub shorted at its leaf is an inductor L'·l (with R'·l in series) to return at
+        // the tap, not a short there: its C'·l is left out (the short carries it).
+        let shorted_stub = (0..plant.segments.len()).find(|&s| plan.lumped[s] == Some(LumpKind::Stub { leaf: n }));
+        let load = match (load, shorted_stub) {
+            (Load::Short, Some(si)) if replace.is_none() => {
+                let (seg, cable) = (&plant.segments[si], &plant.cables[plant.segments[si].cable]);
+                elements.push((
+                    ElementKind::Inductor,
+                    to_milliohm(2.0 * cable.l_per_m() * seg.length / dt),
+                    (cable.r_per_m * seg.length * 1000.0).round().clamp(0.0, u32::MAX as f64) as u32,
+                ));
+                inductive.push(si);
+                Load::Open
+            }
+            (l, _) => l,
+        };
         let load = match load {
             Load::Capacitor(c) if has_lumped => {
                 extra_c += c;
@@ -266,8 +285,9 @@ pub(super) fn class_load(
         .segments
         .iter()
         .zip(&plan.lumped)
-        .filter(|(s, l)| l.is_some() && plan.class_of[s.from] == k)
-        .map(|(s, _)| plant.cables[s.cable].c_per_m() * s.length)
+        .enumerate()
+        .filter(|(si, (s, l))| l.is_some() && plan.class_of[s.from] == k && !inductive.contains(si))
+        .map(|(_, (s, _))| plant.cables[s.cable].c_per_m() * s.length)
         .sum::<f64>()
         + extra_c;
     let Some(first) = first else { return Ok((Shunt::Open, vec![])) };
@@ -366,8 +386,11 @@ pub fn lump_error(plant: &Plant, si: usize, kind: LumpKind, rise: f64) -> f64 {
         LumpKind::Stub { leaf } => {
             let t = theta.tanh();
             let Some(yl) = load_admittance(&plant.nodes[leaf].load, w) else {
-                // A shorted stub is an inductor to return; lumped, it shorts the tap.
-                return f64::INFINITY;
+                // A shorted stub: exact Y_in = 1/(Zc·tanh θ), modelled as the inductor and
+                // resistance 1/((R' + jωL')·l); (ωτ)²/3 to leading order.
+                let y_in = 1.0 / (zc * theta.tanh());
+                let y_model = 1.0 / (z_series * seg.length);
+                return (y_model - y_in).norm() / y_in.norm();
             };
             let y_in = (yl + t / zc) / (1.0 + zc * yl * t);
             let y_lump = yl + y_shunt * seg.length;
