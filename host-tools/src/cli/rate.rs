@@ -115,7 +115,7 @@ fn search_table(
         None => RIG_PARTS.iter().collect(),
     };
     println!(
-        "   {:>13} {:>6} {:>9} {:>10} {:>10} {:<16} instructions per sample (real time?)",
+        "   {:>13} {:>6} {:>9} {:>10} {:>10} {:<27} instructions per sample (real time?)",
         "rate", "lumped", "line ends", "worst max", "worst rms", "verdict"
     );
     for p in &s.points {
@@ -135,7 +135,7 @@ fn search_table(
                     })
                     .collect();
                 println!(
-                    "  {mark}{:>13} {:>6} {:>9} {:>9.2} % {:>8.2} % {:<16} {}",
+                    "  {mark}{:>13} {:>6} {:>9} {:>9.2} % {:>8.2} % {:<27} {}",
                     si_rate(p.rate),
                     f.lumped,
                     f.ports,
