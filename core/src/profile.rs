@@ -105,8 +105,9 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     ///
     /// while the drive is on (e != 0) and |trunc(v)| >= `hold_min` (> 0), a port whose
     /// previous outgoing wave (`a[k]` on entry) is the floor or the ceiling of its exact
-    /// a_k = v − b_k keeps that value; every other port gets trunc(a_k) as in
-    /// [`Self::node_scatter`]. With `hold_min = 0`, or e = 0, it *is* [`Self::node_scatter`].
+    /// a_k = v − b_k, and at most |trunc(v)| in magnitude, keeps that value; every other port
+    /// gets trunc(a_k) as in [`Self::node_scatter`]. With `hold_min = 0`, or e = 0, it *is*
+    /// [`Self::node_scatter`].
     ///
     /// Why: at a working point all outgoing waves of a node have one sign, so truncation
     /// toward zero rounds them all the same way, which for small deviations acts like
@@ -114,13 +115,14 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     /// wander by tens of LSB in a lightly damped plant. A held port absorbs a deviation
     /// smaller than one LSB instead, and the plant locks onto a fixed point.
     ///
+    /// A port holds only if its previous value has |a[k]| <= |trunc(v)|.
+    ///
     /// Passivity (see [`hold_threshold`]): a held port differs from its exact value by less
-    /// than one LSB, so it adds at most g_k·(2W + 1) to the stored energy (W the largest
-    /// wave magnitude); the shunt removes g_sh·v² from the exact node, and `hold_min` is the
-    /// least |v| with g_sh·v² >= G·(2W + 1), G the node's port weights. So the stored
-    /// energy still never exceeds what the exact node would leave plus nothing: the node
-    /// stays passive. With e = 0 the rule is the plain one, so the zero-input decay to
-    /// exactly 0 is untouched.
+    /// than one LSB and has |a| <= |v|, so it adds less than 2·g_k·|v| to the stored energy;
+    /// the shunt takes g_sh·v² out of the exact node, and `hold_min` is the least |v| with
+    /// g_sh·|v| >= 2·G, G the node's port weights. So the node never leaves more energy in
+    /// the lines than they brought plus the source's available power: it stays passive. With
+    /// e = 0 the rule is the plain one, so the zero-input decay to exactly 0 is untouched.
     #[allow(clippy::too_many_arguments)]
     fn node_scatter_held(
         b: &[Self::Wave],
@@ -350,43 +352,27 @@ pub fn reciprocal(total: u64, recip_bits: u32) -> Option<(u32, u32)> {
     Some((r as u32, shift))
 }
 
-/// The hold threshold of a node (see [`Profile::node_scatter_held`]): the least |v| (wave
-/// LSB) with g_sh·v² >= G·(2W + 1), where G = `g_ports` − `g_src` (the line and element
-/// port weights), g_sh = `total` − `g_ports` the shunt weight and W = 2^(wave bits − 1) the
-/// largest wave magnitude of profile `P`. 0 (never hold) without a shunt, or when no node
-/// voltage reaches the threshold (|v| <= 2W).
+/// The hold threshold of a node (see [`Profile::node_scatter_held`]): the least integer
+/// |v| >= 1 with g_sh·|v| >= 2·G, where G = `g_ports` − `g_src` (the line and element port
+/// weights) and g_sh = `total` − `g_ports` the shunt weight; 0 (never hold) without a shunt.
 ///
 /// Derivation: the exact node with its shunt as a matched port (b = 0) and the source as a
-/// port (b = e/2) is lossless, so Σ g_k·a_k² (lines) = Σ g_k·b_k² + g_src·e²/4 − g_src·(v −
-/// e/2)² − g_sh·v². Replacing a_k by a held value h_k with |h_k − a_k| < 1 and |h_k| <= W
-/// adds g_k·(h_k² − a_k²) < g_k·(2W + 1); truncated ports add nothing positive. So the
-/// stored energy after the node is at most what the lines brought plus the source's
-/// available power g_src·e²/4 whenever G·(2W + 1) <= g_sh·v².
+/// port (b = e/2) is lossless, so Σ g_k·a_k² (lines) = Σ g_k·b_k² + g_src·e²/4 −
+/// g_src·(v − e/2)² − g_sh·v². A held port keeps h_k, the neighbour of a_k away from zero
+/// (|a_k| < |h_k| < |a_k| + 1), and only if |h_k| <= q = |trunc(v)|; it adds
+/// g_k·(h_k² − a_k²) < g_k·2|h_k| <= 2·g_k·q. Truncated ports add nothing positive. So the
+/// held node leaves at most Σ g_k·b_k² + g_src·e²/4 in the lines whenever
+/// 2·G·q <= g_sh·q² <= g_sh·v², that is q >= 2G/g_sh: it stays passive (the energy bound of
+/// a source with available power g_src·e²/4 holds as for the exact node).
 pub fn hold_threshold<P: Profile>(g_ports: u64, g_src: u32, total: u64) -> u32 {
-    let wave_max = u128::from(P::wave_from_i32(i32::MIN).into().unsigned_abs()); // W
-    let g_lines = u128::from(g_ports.saturating_sub(u64::from(g_src)));
-    let g_sh = u128::from(total.saturating_sub(g_ports));
+    let g_lines = g_ports.saturating_sub(u64::from(g_src));
+    let g_sh = total.saturating_sub(g_ports);
     if g_sh == 0 || g_lines == 0 {
         return 0;
     }
-    // need = G·(2W + 1) < 2^30·2^33: exact in u128. Binary search of the least v in
-    // [1, 2W] with g_sh·v² >= need (g_sh < 2^63, v² <= 2^66: exact in u128).
-    let need = g_lines.saturating_mul(wave_max.saturating_mul(2).saturating_add(1));
-    let top = wave_max.saturating_mul(2);
-    let enough = |v: u128| g_sh.saturating_mul(v.saturating_mul(v)) >= need;
-    if !enough(top) {
-        return 0;
-    }
-    let (mut lo, mut hi) = (1u128, top); // enough(hi) holds; find the least such v
-    while lo < hi {
-        let mid = lo.saturating_add(hi.saturating_sub(lo) / 2);
-        if enough(mid) {
-            hi = mid;
-        } else {
-            lo = mid.saturating_add(1);
-        }
-    }
-    u32::try_from(hi).unwrap_or(0)
+    // ceil(2G/g_sh) with G <= 2^30: at most 2^31, so it fits u32 (saturating all the same).
+    let need = g_lines.saturating_mul(2).div_ceil(g_sh).max(1);
+    u32::try_from(need).unwrap_or(u32::MAX)
 }
 
 #[cfg(test)]

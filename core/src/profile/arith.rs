@@ -182,20 +182,41 @@ macro_rules! junction_rules {
             let neg = (acc < 0) as A;
             let mask = neg.wrapping_neg();
             let fl = (q.wrapping_add(nz & neg) ^ mask).wrapping_sub(mask);
-            // The hold rule (see `Profile::node_scatter_held`): only while driven (e != 0),
-            // at a node whose |trunc(v)| = q has reached its threshold (0: never).
-            let hold = e != 0 && hold_min != 0 && q >= <A as Acc>::from_u32(hold_min);
-            for (ak, bk) in a.iter_mut().zip(b.iter()) {
-                // v − b = (fl − b) + frac, frac > 0 iff nz: the floor is m, the ceiling
-                // m + nz; truncation toward zero takes the ceiling of a negative value.
-                let m = fl.wrapping_sub(A::from(*bk));
-                if hold {
-                    let prev = A::from(*ak);
-                    if prev == m || prev == m.wrapping_add(nz) {
-                        continue; // held: a_k keeps its previous value
-                    }
+            if hold_min == 0 {
+                // No shunt: the plain rule (a branch on the configuration, not on data).
+                for (ak, bk) in a.iter_mut().zip(b.iter()) {
+                    // v − b = (fl − b) + frac, frac > 0 iff nz: truncation toward zero adds
+                    // 1 to a negative integer part when there is a fraction.
+                    let m = fl.wrapping_sub(A::from(*bk));
+                    *ak = $sat(m.wrapping_add(((m < 0) as A) & nz));
                 }
-                *ak = $sat(m.wrapping_add(((m < 0) as A) & nz));
+                return;
+            }
+            // The hold rule (see `Profile::node_scatter_held`), branch-free so that the
+            // instruction count does not depend on the data. Masks are −1 (true) or 0, from
+            // sign bits of differences whose ranges are small (|.| < 2^34 in i64, < 2^19 in
+            // i32): x >= 0 is !(x >> (bits − 1)).
+            let bits = <A>::BITS - 1;
+            let nonneg = |x: A| !(x >> bits);
+            let e_a = A::from(e);
+            // driven (e != 0) and q >= hold_min: a node-wide mask.
+            let node = ((e_a | e_a.wrapping_neg()) >> bits) & nonneg(q.wrapping_sub(<A as Acc>::from_u32(hold_min)));
+            for (ak, bk) in a.iter_mut().zip(b.iter()) {
+                // v − b = (fl − b) + frac, frac > 0 iff nz: the floor is m, the ceiling m + nz;
+                // truncation toward zero takes the ceiling of a negative value.
+                let m = fl.wrapping_sub(A::from(*bk));
+                let t = A::from($sat(m.wrapping_add(((m < 0) as A) & nz)));
+                // Held when the previous wave is the floor or the ceiling (prev − m in
+                // {0, nz}) and |prev| <= q.
+                let prev = A::from(*ak);
+                let d = prev.wrapping_sub(m);
+                let keep = node
+                    & nonneg(d)
+                    & nonneg(nz.wrapping_sub(d))
+                    & nonneg(q.wrapping_sub(prev))
+                    & nonneg(q.wrapping_add(prev));
+                // Both candidates are waves, so the cast is exact.
+                *ak = ((prev & keep) | (t & !keep)) as Self::Wave;
             }
         }
     };
