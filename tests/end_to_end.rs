@@ -90,3 +90,16 @@ fn compiled_delays_and_dc_point_match_hand_calculation() {
     assert!((seg.error_s - (303e-9 - tau)).abs() < 1e-15);
     assert!(seg.error_s.abs() <= 0.5 * c.dt);
 }
+
+#[test]
+fn the_core_tests_packaging_line_networks_are_the_compilers_output() {
+    // core/tests/packaging_line.rs runs these checked-in sources (the core's tests cannot run
+    // the compiler); regenerate with the commands named at the top of that file.
+    let (p, file) = plant("packaging-line.toml");
+    for (kind, name) in [(ProfileKind::Narrow, "narrow"), (ProfileKind::Wide, "wide")] {
+        let c = prepare(&p, &file, kind).unwrap().0;
+        let path = Path::new(env!("CARGO_MANIFEST_DIR")).join(format!("core/tests/generated/packaging_line_{name}.rs"));
+        let checked_in = std::fs::read_to_string(&path).unwrap();
+        assert_eq!(rust_source(&c.network(), &p.name), checked_in, "{} is stale", path.display());
+    }
+}

@@ -15,7 +15,7 @@ mod weights;
 
 use crate::error::{BuildError, ConfigError, Table};
 use crate::network::{ElementKind, Junction, Network, ProbeKind, Shunt, Side, MAX_LOSS_SECTIONS};
-use crate::profile::{reciprocal, Profile};
+use crate::profile::{hold_threshold, reciprocal, Profile};
 use crate::solver::{DriveRt, ElementRt, JunctionRt, LossRt, Mode, ProbeRt, Solver};
 use shape::{cap, ports_at, Shape};
 use weights::{weight, TOP};
@@ -181,6 +181,7 @@ fn junction_record<P: Profile>(
                 recip: 0,
                 shift: 0,
                 total: 0,
+                hold: 0,
             };
             apply_shunt::<P>(&mut rt, shunt, TOP.saturating_sub(k)).map_err(|_| out_of_range)?;
             rt
@@ -529,7 +530,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
 
 /// Put `shunt` into a node record: shunt weight floor(2^c / R), new reciprocal of the total.
 fn apply_shunt<P: Profile>(rt: &mut JunctionRt, shunt: Shunt, c: u32) -> Result<(), ()> {
-    let JunctionRt::Node { g_ports, recip, shift, total: t, mode, short, broken, .. } = rt else {
+    let JunctionRt::Node { g_ports, g_src, recip, shift, total: t, mode, short, broken, hold, .. } = rt else {
         return Err(());
     };
     let g_sh: u64 = match shunt {
@@ -547,6 +548,7 @@ fn apply_shunt<P: Profile>(rt: &mut JunctionRt, shunt: Shunt, c: u32) -> Result<
     let total = g_ports.saturating_add(g_sh).min(P::TOTAL_MAX);
     let (r, s) = if is_short { (0, 0) } else { reciprocal(total, P::RECIP_BITS).ok_or(())? };
     *t = total;
+    *hold = if is_short { 0 } else { hold_threshold::<P>(*g_ports, *g_src, total) };
     *recip = r;
     *shift = s;
     *short = is_short;

@@ -51,6 +51,21 @@
 //! node voltage alone, does not have this property: a lossy node would then reflect a
 //! one-LSB wave losslessly, and the property tests find such limit cycles.
 //!
+//! **Constant drive.** Around a non-zero working point every outgoing wave of a node has one
+//! sign, so truncation toward zero rounds them all the same way; for small deviations the node
+//! then acts as if only v were quantized, and in a lightly damped plant the deviations wander
+//! by tens of LSB without ever settling (the packaging-line example: 40 codes in the narrow
+//! profile). So at nodes with a shunt, while the drive is on (E != 0), a port whose previous
+//! outgoing wave is the floor or the ceiling of its exact value, and no larger than |v|, keeps
+//! it (the hold rule, [`Profile::node_scatter_held`]): a deviation below one LSB is absorbed
+//! and the plant locks onto a fixed point. Holding adds less than 2·g_k·|v| of energy per
+//! port; the shunt dissipates g_sh·v², and the rule applies only where |v| >= 2·G/g_sh
+//! ([`profile::hold_threshold`]), so the node stays passive. With E = 0 the plain rule runs,
+//! so the zero-input argument above holds unchanged. The hold does not reach loops through
+//! series resistors, impedance steps at open nodes or reactances' adaptors: there the narrow
+//! profile can still keep a small oscillation (`core/tests/settle.rs` states the measured
+//! band).
+//!
 //! ## Real-time guarantees
 //! `step` does O(ports + junctions) work, independent of the delays (ring buffers, no data
 //! shifting), no division, no floating point, no allocation, and cannot panic once

@@ -13,6 +13,9 @@
 //! exact double-width sums and quantized once by truncating its magnitude (toward zero), then
 //! saturated. Both steps never increase a magnitude and never flip a sign.
 
+mod arith;
+use arith::Acc;
+
 /// One number profile. Implemented by [`Wide`] and [`Narrow`] only.
 pub trait Profile: Copy + 'static + sealed::Sealed {
     /// A travelling wave (voltage units, `2^-io_shift` I/O codes per LSB).
@@ -97,6 +100,41 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     /// a + b or a − b, for probes, as i32 (saturating in [`Wide`]).
     fn sum(a: Self::Wave, b: Self::Wave) -> i32;
     fn diff(a: Self::Wave, b: Self::Wave) -> i32;
+    /// [`Self::node_scatter`] with the **hold rule** for a node with a shunt, which lets a
+    /// constant drive settle (no oscillation around a working point):
+    ///
+    /// while the drive is on (e != 0) and |trunc(v)| >= `hold_min` (> 0), a port whose
+    /// previous outgoing wave (`a[k]` on entry) is the floor or the ceiling of its exact
+    /// a_k = v − b_k, and at most |trunc(v)| in magnitude, keeps that value; every other port
+    /// gets trunc(a_k) as in [`Self::node_scatter`]. With `hold_min = 0`, or e = 0, it *is*
+    /// [`Self::node_scatter`].
+    ///
+    /// Why: at a working point all outgoing waves of a node have one sign, so truncation
+    /// toward zero rounds them all the same way, which for small deviations acts like
+    /// quantizing v (a node that reflects a small deviation losslessly); the deviations then
+    /// wander by tens of LSB in a lightly damped plant. A held port absorbs a deviation
+    /// smaller than one LSB instead, and the plant locks onto a fixed point.
+    ///
+    /// A port holds only if its previous value has |a[k]| <= |trunc(v)|.
+    ///
+    /// Passivity (see [`hold_threshold`]): a held port differs from its exact value by less
+    /// than one LSB and has |a| <= |v|, so it adds less than 2·g_k·|v| to the stored energy;
+    /// the shunt takes g_sh·v² out of the exact node, and `hold_min` is the least |v| with
+    /// g_sh·|v| >= 2·G, G the node's port weights. So the node never leaves more energy in
+    /// the lines than they brought plus the source's available power: it stays passive. With
+    /// e = 0 the rule is the plain one, so the zero-input decay to exactly 0 is untouched.
+    #[allow(clippy::too_many_arguments)]
+    fn node_scatter_held(
+        b: &[Self::Wave],
+        g: &[u32],
+        a: &mut [Self::Wave],
+        e: Self::Wave,
+        g_src: u32,
+        recip: u32,
+        shift: u32,
+        total: u64,
+        hold_min: u32,
+    );
 }
 
 mod sealed {
@@ -116,10 +154,6 @@ pub struct Wide;
 pub struct Narrow;
 
 /// Branch-free conditional negation: returns `m` with the sign of `s` (s = 0 or −1 mask).
-#[inline(always)]
-fn apply_sign64(m: i64, mask: i64) -> i64 {
-    (m ^ mask).wrapping_sub(mask)
-}
 #[inline(always)]
 fn apply_sign32(m: i32, mask: i32) -> i32 {
     (m ^ mask).wrapping_sub(mask)
@@ -162,13 +196,6 @@ fn trunc_shr32(n: i32, f: u32) -> i32 {
     // branch on ARMv6-M).
     let bias = ((n >> 31) as u32).checked_shr(32u32.wrapping_sub(f)).unwrap_or(0) as i32;
     n.wrapping_add(bias).wrapping_shr(f)
-}
-
-/// A product of a coefficient known to be below 2^31 (validated at load) and a wave, as one
-/// 32x32->64 signed multiply (`SMULL`): casting the coefficient to i32 first keeps its value.
-#[inline(always)]
-fn mul_c(c: u32, x: i32) -> i64 {
-    i64::from(c as i32).wrapping_mul(i64::from(x))
 }
 
 /// floor(mag / total) and (remainder != 0) as 0/1, for mag < 2^63, total < 2^62.5.
@@ -222,27 +249,6 @@ impl Profile for Wide {
     const CHOKE_FRAC: u32 = 29;
 
     #[inline(always)]
-    fn node_scatter(b: &[i32], g: &[u32], a: &mut [i32], e: i32, g_src: u32, recip: u32, shift: u32, total: u64) {
-        // |Σ g·b| <= 2^30 · 2^31 with Σ g + g_src <= 2^30, so 2·Σ + g_src·e <= 2^62: exact.
-        // Every port weight and g_src is <= 2^30 (node budget), so `mul_c` keeps them exact.
-        let mut acc: i64 = 0;
-        for (bk, gk) in b.iter().zip(g.iter()) {
-            acc = acc.wrapping_add(mul_c(*gk, *bk));
-        }
-        let acc = acc.wrapping_shl(1).wrapping_add(mul_c(g_src, e));
-        let (q, nz) = floor_div64(acc.unsigned_abs(), recip, shift, total);
-        // floor(acc/total): q for acc >= 0, −(q + nz) for acc < 0.
-        let neg = (acc < 0) as u64;
-        let fl = apply_sign64(q.wrapping_add(nz & neg) as i64, (neg as i64).wrapping_neg());
-        for (ak, bk) in a.iter_mut().zip(b.iter()) {
-            // v − b = (fl − b) + frac, frac > 0 iff nz: truncation toward zero adds 1 to a
-            // negative integer part when there is a fraction.
-            let m = fl.wrapping_sub(*bk as i64);
-            let t = m.wrapping_add(((m < 0) as u64 & nz) as i64);
-            *ak = sat64_to_i32(t);
-        }
-    }
-    #[inline(always)]
     fn sub(v: i32, b: i32) -> i32 {
         v.saturating_sub(b)
     }
@@ -253,44 +259,6 @@ impl Profile for Wide {
     #[inline(always)]
     fn wave_from_i32(x: i32) -> i32 {
         x
-    }
-    #[inline(always)]
-    fn series(b1: i32, b2: i32, c: u32) -> (i32, i32) {
-        // |x| < 2^32 and c <= 2^30: |c·x| <= 2^62; |b·2^30| <= 2^61: exact in i64.
-        // c·x = c·b1 − c·b2: two 32x32 products (each <= 2^61) instead of a 32x64 one.
-        let cx = mul_c(c, b1).wrapping_sub(mul_c(c, b2));
-        let n1 = (b1 as i64).wrapping_shl(Self::SERIES_FRAC).wrapping_sub(cx);
-        let n2 = (b2 as i64).wrapping_shl(Self::SERIES_FRAC).wrapping_add(cx);
-        let t = |n: i64| sat64_to_i32(trunc_shr64(n, Self::SERIES_FRAC));
-        (t(n1), t(n2))
-    }
-    #[inline(always)]
-    fn series_l(b1: i32, b2: i32, s: i32, c: u32, rho: u32) -> (i32, i32, i32) {
-        // c·(b1 − b2) <= 2^61, rho·s <= 2^60, so 2y + s·2^29 < 2^63: exact in i64.
-        // c, rho <= 2^29 (c + rho <= 1): `mul_c` keeps them exact.
-        let y = mul_c(c, b1).wrapping_sub(mul_c(c, b2)).wrapping_add(mul_c(rho, s));
-        let t = |n: i64| sat64_to_i32(trunc_shr64(n, Self::CHOKE_FRAC));
-        (
-            t((b1 as i64).wrapping_shl(Self::CHOKE_FRAC).wrapping_sub(y)),
-            t((b2 as i64).wrapping_shl(Self::CHOKE_FRAC).wrapping_add(y)),
-            t(y.wrapping_shl(1).wrapping_sub((s as i64).wrapping_shl(Self::CHOKE_FRAC))),
-        )
-    }
-    #[inline(always)]
-    fn loss_section(x: i32, x1: i32, y1: i32, g: u32, gb: i32, a: u32) -> i32 {
-        // Each product < 2^30·2^31 = 2^61; three of them < 2^63: exact in i64.
-        // g <= 1 and a < 1 (checked at load): `mul_c` keeps them exact.
-        let n = mul_c(g, x).wrapping_sub(i64::from(gb).wrapping_mul(i64::from(x1))).wrapping_add(mul_c(a, y1));
-        sat64_to_i32(trunc_shr64(n, Self::LOSS_FRAC))
-    }
-    #[inline(always)]
-    fn adapt(b: i32, a: i32, mu: u32, negate: bool) -> i32 {
-        // |b·2^30| <= 2^61, |μ·(a − b)| <= 2^30·2^32: exact in i64; μ <= 1 (checked at
-        // load), so μ·(a − b) = μ·a − μ·b as two 32x32 products.
-        let n = (b as i64).wrapping_shl(Self::SERIES_FRAC).wrapping_add(mul_c(mu, a).wrapping_sub(mul_c(mu, b)));
-        let m = trunc_shr64(n, Self::SERIES_FRAC);
-        let m = if negate { m.wrapping_neg() } else { m };
-        sat64_to_i32(m)
     }
     #[inline(always)]
     fn from_code(code: i16, shift: u32) -> i32 {
@@ -310,6 +278,8 @@ impl Profile for Wide {
     fn diff(a: i32, b: i32) -> i32 {
         a.saturating_sub(b)
     }
+
+    arith::junction_rules!(i64, trunc_shr64, sat64_to_i32);
 }
 
 impl Profile for Narrow {
@@ -326,22 +296,6 @@ impl Profile for Narrow {
     const CHOKE_FRAC: u32 = 13;
 
     #[inline(always)]
-    fn node_scatter(b: &[i16], g: &[u32], a: &mut [i16], e: i16, g_src: u32, recip: u32, shift: u32, total: u64) {
-        // |Σ g·b| <= 2^14 · 2^15 with Σ g + g_src <= 2^14, so 2·Σ + g_src·e <= 2^30: exact.
-        let mut acc: i32 = 0;
-        for (bk, gk) in b.iter().zip(g.iter()) {
-            acc = acc.wrapping_add((*gk as i32).wrapping_mul(*bk as i32));
-        }
-        let acc = acc.wrapping_shl(1).wrapping_add((g_src as i32).wrapping_mul(e as i32));
-        let (q, nz) = floor_div32(acc.unsigned_abs(), recip, shift, total as u32);
-        let neg = (acc < 0) as u32;
-        let fl = apply_sign32(q.wrapping_add(nz & neg) as i32, (neg as i32).wrapping_neg());
-        for (ak, bk) in a.iter_mut().zip(b.iter()) {
-            let m = fl.wrapping_sub(*bk as i32);
-            *ak = sat_i16(m.wrapping_add(((m < 0) as u32 & nz) as i32));
-        }
-    }
-    #[inline(always)]
     fn sub(v: i16, b: i16) -> i16 {
         v.saturating_sub(b)
     }
@@ -352,47 +306,6 @@ impl Profile for Narrow {
     #[inline(always)]
     fn wave_from_i32(x: i32) -> i16 {
         sat_i16(x)
-    }
-    #[inline(always)]
-    fn series(b1: i16, b2: i16, c: u32) -> (i16, i16) {
-        // |x| < 2^16 and c <= 2^14: |c·x| <= 2^30; |b·2^14| <= 2^29: exact in i32.
-        let x = (b1 as i32).wrapping_sub(b2 as i32);
-        let cx = (c as i32).wrapping_mul(x);
-        let n1 = (b1 as i32).wrapping_shl(Self::SERIES_FRAC).wrapping_sub(cx);
-        let n2 = (b2 as i32).wrapping_shl(Self::SERIES_FRAC).wrapping_add(cx);
-        let t = |n: i32| sat_i16(trunc_shr32(n, Self::SERIES_FRAC));
-        (t(n1), t(n2))
-    }
-    #[inline(always)]
-    fn series_l(b1: i16, b2: i16, s: i16, c: u32, rho: u32) -> (i16, i16, i16) {
-        // c·(b1 − b2) < 2^29, rho·s <= 2^28, so 2y + s·2^13 < 2^31: exact in i32.
-        let y = (c as i32)
-            .wrapping_mul((b1 as i32).wrapping_sub(b2 as i32))
-            .wrapping_add((rho as i32).wrapping_mul(s as i32));
-        let t = |n: i32| sat_i16(trunc_shr32(n, Self::CHOKE_FRAC));
-        (
-            t((b1 as i32).wrapping_shl(Self::CHOKE_FRAC).wrapping_sub(y)),
-            t((b2 as i32).wrapping_shl(Self::CHOKE_FRAC).wrapping_add(y)),
-            t(y.wrapping_shl(1).wrapping_sub((s as i32).wrapping_shl(Self::CHOKE_FRAC))),
-        )
-    }
-    #[inline(always)]
-    fn loss_section(x: i16, x1: i16, y1: i16, g: u32, gb: i32, a: u32) -> i16 {
-        // Each product < 2^14·2^15 = 2^29; three of them < 2^31: exact in i32.
-        let n = (g as i32)
-            .wrapping_mul(x as i32)
-            .wrapping_sub(gb.wrapping_mul(x1 as i32))
-            .wrapping_add((a as i32).wrapping_mul(y1 as i32));
-        sat_i16(trunc_shr32(n, Self::LOSS_FRAC))
-    }
-    #[inline(always)]
-    fn adapt(b: i16, a: i16, mu: u32, negate: bool) -> i16 {
-        // |b·2^14| <= 2^29, |μ·(a − b)| <= 2^14·2^16: exact in i32.
-        let n = (b as i32)
-            .wrapping_shl(Self::SERIES_FRAC)
-            .wrapping_add((mu as i32).wrapping_mul((a as i32).wrapping_sub(b as i32)));
-        let m = trunc_shr32(n, Self::SERIES_FRAC);
-        sat_i16(if negate { m.wrapping_neg() } else { m })
     }
     #[inline(always)]
     fn from_code(code: i16, _shift: u32) -> i16 {
@@ -410,6 +323,8 @@ impl Profile for Narrow {
     fn diff(a: i16, b: i16) -> i32 {
         (a as i32).wrapping_sub(b as i32) // two i16: exact in i32
     }
+
+    arith::junction_rules!(i32, trunc_shr32, sat_i16);
 }
 
 /// Reciprocal of a node's total weight: `recip = floor(2^(RECIP_BITS + shift) / total)` with
@@ -435,6 +350,29 @@ pub fn reciprocal(total: u64, recip_bits: u32) -> Option<(u32, u32)> {
         return Some((0, 0));
     }
     Some((r as u32, shift))
+}
+
+/// The hold threshold of a node (see [`Profile::node_scatter_held`]): the least integer
+/// |v| >= 1 with g_sh·|v| >= 2·G, where G = `g_ports` − `g_src` (the line and element port
+/// weights) and g_sh = `total` − `g_ports` the shunt weight; 0 (never hold) without a shunt.
+///
+/// Derivation: the exact node with its shunt as a matched port (b = 0) and the source as a
+/// port (b = e/2) is lossless, so Σ g_k·a_k² (lines) = Σ g_k·b_k² + g_src·e²/4 −
+/// g_src·(v − e/2)² − g_sh·v². A held port keeps h_k, the neighbour of a_k away from zero
+/// (|a_k| < |h_k| < |a_k| + 1), and only if |h_k| <= q = |trunc(v)|; it adds
+/// g_k·(h_k² − a_k²) < g_k·2|h_k| <= 2·g_k·q. Truncated ports add nothing positive. So the
+/// held node leaves at most Σ g_k·b_k² + g_src·e²/4 in the lines whenever
+/// 2·G·q <= g_sh·q² <= g_sh·v², that is q >= 2G/g_sh: it stays passive (the energy bound of
+/// a source with available power g_src·e²/4 holds as for the exact node).
+pub fn hold_threshold<P: Profile>(g_ports: u64, g_src: u32, total: u64) -> u32 {
+    let g_lines = g_ports.saturating_sub(u64::from(g_src));
+    let g_sh = total.saturating_sub(g_ports);
+    if g_sh == 0 || g_lines == 0 {
+        return 0;
+    }
+    // ceil(2G/g_sh) with G <= 2^30: at most 2^31, so it fits u32 (saturating all the same).
+    let need = g_lines.saturating_mul(2).div_ceil(g_sh).max(1);
+    u32::try_from(need).unwrap_or(u32::MAX)
 }
 
 #[cfg(test)]
@@ -569,7 +507,8 @@ mod tests {
                 assert_eq!(trunc_shr32(n32, f), want, "{n32} >> {f}");
             }
             for f in [13u32, 14, 29, 30] {
-                let want = apply_sign64((n.unsigned_abs() >> f) as i64, n >> 63);
+                let m = (n.unsigned_abs() >> f) as i64;
+                let want = if n < 0 { -m } else { m };
                 assert_eq!(trunc_shr64(n, f), want, "{n} >> {f}");
             }
         }

@@ -46,6 +46,8 @@ pub(crate) enum JunctionRt {
         shift: u32,
         /// The total weight (ports, source and shunt) the node divides by.
         total: u64,
+        /// Hold threshold in wave LSB ([`crate::profile::hold_threshold`]; 0: never hold).
+        hold: u32,
     },
     Series {
         p: u16,
@@ -276,16 +278,18 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         let n = self.n_juncs.min(JUNCS);
         for j in self.juncs.iter_mut().take(n) {
             match *j {
-                JunctionRt::Node { first, count, mode, g_src, recip, shift, total, .. } => {
+                JunctionRt::Node { first, count, mode, g_src, recip, shift, total, hold, .. } => {
                     let lo = first as usize;
                     let (b, g, a) = (&self.b, &self.g, &mut self.a);
                     if mode == Mode::Scatter {
-                        // v = (2·Σ G_k·b_k + E·G_src) / G_total;  a_k = trunc(v − b_k).
+                        // v = (2·Σ G_k·b_k + E·G_src) / G_total;  a_k = trunc(v − b_k), or
+                        // a_k kept while driven at a node with a shunt (the hold rule,
+                        // `Profile::node_scatter_held`: a constant drive settles).
                         // Nodes of 1, 2 and 3 ports (line ends, drops, taps: most of a
                         // plant) run on fixed-size arrays, so the compiler unrolls them
                         // exactly (in the profiles that ask for it, `Profile::FIXED_NODES`); the arithmetic is
                         // the same `node_scatter`.
-                        let c = (e, g_src, recip, shift, total);
+                        let c = (e, g_src, recip, shift, total, hold);
                         match if P::FIXED_NODES { count } else { 0 } {
                             1 => node_fixed::<P, 1>(b, g, a, lo, c),
                             2 => node_fixed::<P, 2>(b, g, a, lo, c),
@@ -295,7 +299,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                                 if let (Some(bs), Some(gs), Some(as_)) =
                                     (b.get(lo..hi), g.get(lo..hi), a.get_mut(lo..hi))
                                 {
-                                    P::node_scatter(bs, gs, as_, e, g_src, recip, shift, total);
+                                    P::node_scatter_held(bs, gs, as_, e, g_src, recip, shift, total, hold);
                                 }
                             }
                         }
@@ -467,23 +471,23 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
 }
 
 /// A scattering node of exactly `N` ports starting at port `lo`: the waves, weights and
-/// outputs as `[_; N]` arrays, so `node_scatter` is unrolled for this count. `c` holds
-/// (E, g_src, recip, shift, total). A range past the tables (impossible after `load`) does
-/// nothing.
+/// outputs as `[_; N]` arrays, so `node_scatter_held` is unrolled for this count. `c` holds
+/// (E, g_src, recip, shift, total, hold). A range past the tables (impossible after `load`)
+/// does nothing.
 #[inline(always)]
 fn node_fixed<P: Profile, const N: usize>(
     b: &[P::Wave],
     g: &[u32],
     a: &mut [P::Wave],
     lo: usize,
-    c: (P::Wave, u32, u32, u32, u64),
+    c: (P::Wave, u32, u32, u32, u64, u32),
 ) {
     let bs = b.get(lo..).and_then(|s| s.first_chunk::<N>());
     let gs = g.get(lo..).and_then(|s| s.first_chunk::<N>());
     let as_ = a.get_mut(lo..).and_then(|s| s.first_chunk_mut::<N>());
     if let (Some(bs), Some(gs), Some(as_)) = (bs, gs, as_) {
-        let (e, g_src, recip, shift, total) = c;
-        P::node_scatter(bs, gs, as_, e, g_src, recip, shift, total);
+        let (e, g_src, recip, shift, total, hold) = c;
+        P::node_scatter_held(bs, gs, as_, e, g_src, recip, shift, total, hold);
     }
 }
 

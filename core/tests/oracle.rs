@@ -6,7 +6,7 @@
 
 use proptest::prelude::*;
 use tidewire_core::configure::quantize_loss_section;
-use tidewire_core::profile::reciprocal;
+use tidewire_core::profile::{hold_threshold, reciprocal};
 use tidewire_core::{Narrow, Profile, Wide};
 
 fn config() -> ProptestConfig {
@@ -114,10 +114,49 @@ fn check_node<P: Profile>(
     let num: i128 =
         2 * b.iter().zip(&g).map(|(b, g)| w::<P>(*b) * *g as i128).sum::<i128>() + g_src as i128 * w::<P>(e);
     let (lo, hi) = wave_range::<P>();
-    for (k, bk) in b.iter().enumerate() {
-        let want = ((num - w::<P>(*bk) * total as i128) / total as i128).clamp(lo, hi);
+    let exact: Vec<i128> = b.iter().map(|bk| num - w::<P>(*bk) * total as i128).collect(); // a_k·total
+    for (k, n) in exact.iter().enumerate() {
+        let want = (n / total as i128).clamp(lo, hi);
         prop_assert_eq!(w::<P>(a[k]), want, "port {} of {:?}, g {:?}, total {}", k, b, g, total);
     }
+    // The held rule, from previous outgoing waves near the exact ones (and a few far): each
+    // port keeps its previous value exactly when the drive is on, |trunc(v)| >= hold_min > 0,
+    // the previous value is the floor or the ceiling of a_k and |prev| <= |trunc(v)|.
+    let hold = hold_threshold::<P>(g.iter().map(|x| *x as u64).sum::<u64>() + g_src as u64, g_src, total);
+    let q = (num / total as i128).abs(); // |trunc(v)|
+    let prev: Vec<P::Wave> = exact
+        .iter()
+        .zip(ports.iter())
+        .map(|(n, (gu, _))| {
+            let t = n.div_euclid(total as i128) + (*gu % 3) as i128 - 1; // floor − 1, floor, floor + 1
+            P::wave_from_i32(t.clamp(i32::MIN as i128, i32::MAX as i128) as i32)
+        })
+        .collect();
+    for hold_min in [0, 1, hold, hold.saturating_add(7)] {
+        let mut a = prev.clone();
+        P::node_scatter_held(&b, &g, &mut a, e, g_src, r, s, total, hold_min);
+        for (k, n) in exact.iter().enumerate() {
+            let p = w::<P>(prev[k]);
+            let (fl, ce) = (n.div_euclid(total as i128), -(-n).div_euclid(total as i128));
+            let held = w::<P>(e) != 0 && hold_min != 0 && q >= hold_min as i128 && (p == fl || p == ce) && p.abs() <= q;
+            let want = if held { p } else { (n / total as i128).clamp(lo, hi) };
+            prop_assert_eq!(w::<P>(a[k]), want, "held port {} hold_min {} prev {}", k, hold_min, p);
+        }
+    }
+    Ok(())
+}
+
+/// The hold threshold is the least |v| >= 1 with g_sh·|v| >= 2·G (0 without a shunt).
+fn check_hold_threshold<P: Profile>(g_lines: u64, g_src: u32, g_sh: u64) -> Result<(), TestCaseError> {
+    let g_ports = g_lines + g_src as u64;
+    let t = hold_threshold::<P>(g_ports, g_src, g_ports + g_sh) as u128;
+    if g_sh == 0 || g_lines == 0 {
+        prop_assert_eq!(t, 0);
+        return Ok(());
+    }
+    let need = 2 * g_lines as u128;
+    prop_assert!(t >= 1 && g_sh as u128 * t >= need, "threshold {} too small", t);
+    prop_assert!(t == 1 || (g_sh as u128) * (t - 1) < need, "threshold {} not the least", t);
     Ok(())
 }
 
@@ -136,6 +175,8 @@ fn check_codes<P: Profile>(code: i16, u: u32, u2: u32, shift: u8) -> Result<(), 
     prop_assert_eq!(P::diff(a, b) as i128, i32r(w::<P>(a) - w::<P>(b)));
     prop_assert_eq!(w::<P>(P::sub(a, b)), (w::<P>(a) - w::<P>(b)).clamp(lo, hi));
     prop_assert_eq!(w::<P>(P::neg(a)), (-w::<P>(a)).clamp(lo, hi));
+    let x = u as i32;
+    prop_assert_eq!(w::<P>(P::wave_from_i32(x)), (x as i128).clamp(lo, hi));
     Ok(())
 }
 
@@ -182,6 +223,12 @@ proptest! {
     fn node_is_exact_then_truncated((ports, src, shunt, strong) in node_inputs()) {
         check_node::<Wide>(&ports, src, shunt, strong)?;
         check_node::<Narrow>(&ports, src, shunt, strong)?;
+    }
+
+    #[test]
+    fn hold_threshold_is_the_least_passive_one(g_lines in 0u64..(1 << 30), g_src in 0u32..(1 << 20), g_sh in prop_oneof![Just(0u64), 1u64..(1 << 40)]) {
+        check_hold_threshold::<Wide>(g_lines, g_src, g_sh)?;
+        check_hold_threshold::<Narrow>(g_lines, g_src, g_sh)?;
     }
 
     #[test]

@@ -7,10 +7,11 @@ use std::process::Command;
 use std::time::{Duration, Instant};
 
 /// (package, test target) of every property suite.
-const SUITES: [(&str, &str); 4] = [
+const SUITES: [(&str, &str); 5] = [
     ("tidewire-core", "passivity"),
     ("tidewire-core", "loader"),
     ("tidewire-core", "oracle"),
+    ("tidewire-core", "settle"),
     ("tidewire-host", "image_loader"),
 ];
 

@@ -10,7 +10,9 @@
 //!   exact node); total <= `TOTAL_MAX`; and the reciprocal is the one [`reciprocal`] gives
 //!   for that total (rounded down and normalized, the premise of the two-step exact
 //!   division). Then every a_k is the exact value truncated toward zero, so the quantized
-//!   node is passive too.
+//!   node is passive too; and the hold threshold is 0 (never hold) or exactly
+//!   [`hold_threshold`] of the node's weights, the least |v| at which the shunt's
+//!   dissipation pays for every held port (see `Profile::node_scatter_held`).
 //! * **series** (equal impedances): 0 <= c <= 1, since a1² + a2² = b1² + b2² − 2c(1 − c)·x².
 //! * **series inductor**: c + rho <= 1 (the three-port series adaptor with a non-negative
 //!   extra resistance).
@@ -19,12 +21,12 @@
 //!   and g − gb <= 1 − a (DC gain <= 1): then |H(e^jω)| falls monotonically from H(1) <= 1.
 
 use crate::network::MAX_LOSS_SECTIONS;
-use crate::profile::{reciprocal, Profile};
+use crate::profile::{hold_threshold, reciprocal, Profile};
 use crate::solver::{JunctionRt, LossRt};
 
 /// A node record with the sum and smallest of its port weights (without the source).
 pub(crate) fn node_ok<P: Profile>(rt: &JunctionRt, port_sum: u64, port_min: u64) -> bool {
-    let JunctionRt::Node { g_src, g_ports, recip, shift, total, mode, short, broken, .. } = *rt else {
+    let JunctionRt::Node { g_src, g_ports, recip, shift, total, mode, short, broken, hold, .. } = *rt else {
         return false;
     };
     let Some(with_src) = port_sum.checked_add(u64::from(g_src)) else {
@@ -36,8 +38,10 @@ pub(crate) fn node_ok<P: Profile>(rt: &JunctionRt, port_sum: u64, port_min: u64)
         && total >= with_src
         && total <= P::TOTAL_MAX;
     let division = short || reciprocal(total, P::RECIP_BITS) == Some((recip, shift));
+    // The hold threshold is the one that keeps the held node passive (or 0, never).
+    let held = hold == 0 || (!short && hold == hold_threshold::<P>(g_ports, g_src, total));
     let mode_ok = mode == super::mode_of(short, broken);
-    coefficients && division && mode_ok
+    coefficients && division && held && mode_ok
 }
 
 /// A series, series-inductor or rig record.

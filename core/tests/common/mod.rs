@@ -29,14 +29,26 @@ pub enum Loads {
     /// join of the two lines has an undamped mode with a current node at the resistor and a
     /// voltage node at the junction, because 74/150 = 37/75 is a ratio of odd numbers.)
     Lossy,
+    /// As `Lossy`, plus up to three extra lines that close loops. A loop can keep an undamped
+    /// mode (see `Lossy`), so a test using these checks what holds with or without one.
+    LossyLoops,
     /// Opens, shorts and resistors anywhere, series resistors on some lines: a plant that
     /// may ring for ever but must never grow.
     Any,
 }
 
+impl Loads {
+    /// Every node has a resistor and every line series resistance.
+    fn lossy(self) -> bool {
+        matches!(self, Loads::Lossy | Loads::LossyLoops)
+    }
+}
+
 fn shunt_strategy(loads: Loads) -> BoxedStrategy<Shunt> {
     match loads {
-        Loads::Lossy => (10_000u32..1_000_000).prop_map(|m| Shunt::Resistor { milliohm: m }).boxed(),
+        Loads::Lossy | Loads::LossyLoops => {
+            (10_000u32..1_000_000).prop_map(|m| Shunt::Resistor { milliohm: m }).boxed()
+        }
         Loads::Any => prop_oneof![
             Just(Shunt::Open),
             Just(Shunt::Short),
@@ -51,6 +63,7 @@ fn shunt_strategy(loads: Loads) -> BoxedStrategy<Shunt> {
 /// Impedances 10 Ω – 1 kΩ, delays 1–`max_delay` samples; a source at node 0.
 pub fn network(loads: Loads, max_delay: u32, io_shift: u8) -> impl Strategy<Value = Owned> {
     let extra_max = if matches!(loads, Loads::Lossy) { 1 } else { 4 };
+    let lossy = loads.lossy();
     (2usize..7, 0usize..extra_max).prop_flat_map(move |(nodes, extra)| {
         let edges = nodes - 1 + extra;
         (
@@ -85,7 +98,7 @@ pub fn network(loads: Loads, max_delay: u32, io_shift: u8) -> impl Strategy<Valu
                         (pick.index(nodes) as u16, ((pick.index(nodes) + 1 + k) % nodes) as u16)
                     };
                     // Every line of a lossy plant carries series resistance.
-                    let kind = if matches!(loads, Loads::Lossy) && kind == 0 { 1 } else { kind };
+                    let kind = if lossy && kind == 0 { 1 } else { kind };
                     match kind {
                         0 => lines.push(Line { z_milliohm: z, delay: d1, a, b }),
                         1 => {
@@ -130,7 +143,7 @@ pub fn network(loads: Loads, max_delay: u32, io_shift: u8) -> impl Strategy<Valu
                         // In a lossy plant every reactance sits behind a resistor: a bare
                         // bilinear capacitor is a short at the Nyquist frequency, which would
                         // give the plant a lossless mode there.
-                        series_milliohm: if matches!(loads, Loads::Lossy) { series.max(1_000) } else { series },
+                        series_milliohm: if lossy { series.max(1_000) } else { series },
                     })
                     .collect();
                 elements.sort_by_key(|e| e.junction);

@@ -1,0 +1,224 @@
+//! The fixed-point arithmetic both profiles share, written once.
+//!
+//! [`Acc`] is a profile's double-width accumulator (`i64` for [`super::Wide`]'s `i32` waves,
+//! `i32` for [`super::Narrow`]'s `i16` waves) with the few primitives whose code differs by
+//! width: coefficient products and the exact node division. [`junction_rules`] writes every
+//! junction rule once over it; both profiles expand it inside their `impl Profile`, so the two
+//! run the same formulas and differ only in widths and fraction bits.
+//!
+//! Range rule: every wrapping operation is exact because its operands are bounded by the
+//! profile's documented ranges (weights and coefficients are checked at load); each rule
+//! states its bound next to its sums. `core/tests/oracle.rs` checks every operation against
+//! the same formula in i128.
+
+/// A profile's double-width accumulator. Implemented for `i64` (waves `i32`) and `i32`
+/// (waves `i16`) only.
+pub(crate) trait Acc: Sized {
+    /// The wave type this accumulator holds exactly.
+    type W;
+    /// c·w exactly, for a coefficient c < 2^31 (`i64`: one 32x32->64 `SMULL`) or c <= 2^15
+    /// (`i32`: one `MULS`, |c·w| < 2^31).
+    fn mul(c: u32, w: Self::W) -> Self;
+    /// c·(x − y) exactly, for c <= 2^30 (`i64`: two 32x32 products, since x − y needs 33
+    /// bits) or c <= 2^14 (`i32`: one product of the 17-bit difference).
+    fn mul_diff(c: u32, x: Self::W, y: Self::W) -> Self;
+    /// A threshold in wave LSB, saturated to the accumulator's range.
+    fn from_u32(x: u32) -> Self;
+    /// floor(|acc| / total) and (remainder != 0) as 0/1, from the node's reciprocal (see
+    /// [`super::reciprocal`]) and two exact correction steps.
+    fn floor_div_abs(acc: Self, recip: u32, shift: u32, total: u64) -> (Self, Self);
+}
+
+impl Acc for i64 {
+    type W = i32;
+    #[inline(always)]
+    fn mul(c: u32, w: i32) -> i64 {
+        // c < 2^31 (validated at load): the cast to i32 keeps its value, so this is one
+        // 32x32->64 signed multiply.
+        i64::from(c as i32).wrapping_mul(i64::from(w))
+    }
+    #[inline(always)]
+    fn mul_diff(c: u32, x: i32, y: i32) -> i64 {
+        // Two 32x32 products (each <= 2^61) instead of a 32x64 one.
+        Self::mul(c, x).wrapping_sub(Self::mul(c, y))
+    }
+    #[inline(always)]
+    fn from_u32(x: u32) -> i64 {
+        i64::from(x)
+    }
+    #[inline(always)]
+    fn floor_div_abs(acc: i64, recip: u32, shift: u32, total: u64) -> (i64, i64) {
+        // |acc| <= 2^62 and total >= 2: q < 2^61, exact as i64.
+        let (q, nz) = super::floor_div64(acc.unsigned_abs(), recip, shift, total);
+        (q as i64, nz as i64)
+    }
+}
+
+impl Acc for i32 {
+    type W = i16;
+    #[inline(always)]
+    fn mul(c: u32, w: i16) -> i32 {
+        (c as i32).wrapping_mul(i32::from(w))
+    }
+    #[inline(always)]
+    fn mul_diff(c: u32, x: i16, y: i16) -> i32 {
+        // |x − y| < 2^16 and c <= 2^14: one product < 2^30.
+        (c as i32).wrapping_mul(i32::from(x).wrapping_sub(i32::from(y)))
+    }
+    #[inline(always)]
+    fn from_u32(x: u32) -> i32 {
+        i32::try_from(x).unwrap_or(i32::MAX)
+    }
+    #[inline(always)]
+    fn floor_div_abs(acc: i32, recip: u32, shift: u32, total: u64) -> (i32, i32) {
+        // |acc| <= 2^30 and total < 2^30 (the narrow node budget): q < 2^29.
+        let (q, nz) = super::floor_div32(acc.unsigned_abs(), recip, shift, total as u32);
+        (q as i32, nz as i32)
+    }
+}
+
+/// The junction rules, written once: expanded inside `impl Profile for Wide` (accumulator
+/// `i64`, `trunc_shr64`, `sat64_to_i32`) and `impl Profile for Narrow` (`i32`,
+/// `trunc_shr32`, `sat_i16`) as the trait's own method bodies. (Written as generic functions
+/// over the accumulator, the same formulas compiled to 125 instead of 110 instructions per
+/// port-update on the M4: the optimizer turned the one-compare saturation into a two-compare
+/// 64-bit clamp and a product into 64x64. As method bodies with plain integer operations it
+/// emits the hand-written code, instruction for instruction.)
+///
+/// Each rule forms its outgoing quantities exactly in the accumulator (ranges argued per
+/// rule; the coefficient bounds are checked at load) and quantizes each once: truncated
+/// toward zero, then saturated to a wave.
+macro_rules! junction_rules {
+    ($acc:ty, $trunc:ident, $sat:ident) => {
+        #[inline(always)]
+        fn node_scatter(
+            b: &[Self::Wave],
+            g: &[u32],
+            a: &mut [Self::Wave],
+            e: Self::Wave,
+            g_src: u32,
+            recip: u32,
+            shift: u32,
+            total: u64,
+        ) {
+            Self::node_scatter_held(b, g, a, e, g_src, recip, shift, total, 0);
+        }
+
+        #[inline(always)]
+        fn series(b1: Self::Wave, b2: Self::Wave, c: u32) -> (Self::Wave, Self::Wave) {
+            // |c·x| <= 2^f·2^(wave bits + 1), |b·2^f| below the same: exact in the
+            // accumulator (i64: <= 2^62; i32: <= 2^30).
+            type A = $acc;
+            let cx = <A as Acc>::mul_diff(c, b1, b2);
+            let n1 = A::from(b1).wrapping_shl(Self::SERIES_FRAC).wrapping_sub(cx);
+            let n2 = A::from(b2).wrapping_shl(Self::SERIES_FRAC).wrapping_add(cx);
+            let t = |n: A| $sat($trunc(n, Self::SERIES_FRAC));
+            (t(n1), t(n2))
+        }
+
+        #[inline(always)]
+        fn series_l(
+            b1: Self::Wave,
+            b2: Self::Wave,
+            s: Self::Wave,
+            c: u32,
+            rho: u32,
+        ) -> (Self::Wave, Self::Wave, Self::Wave) {
+            // i64 (f = 29): c·(b1 − b2) <= 2^61, rho·s <= 2^60, so 2y + s·2^29 < 2^63;
+            // i32 (f = 13): c·(b1 − b2) < 2^29, rho·s <= 2^28, so 2y + s·2^13 < 2^31.
+            type A = $acc;
+            let y = <A as Acc>::mul_diff(c, b1, b2).wrapping_add(<A as Acc>::mul(rho, s));
+            let t = |n: A| $sat($trunc(n, Self::CHOKE_FRAC));
+            (
+                t(A::from(b1).wrapping_shl(Self::CHOKE_FRAC).wrapping_sub(y)),
+                t(A::from(b2).wrapping_shl(Self::CHOKE_FRAC).wrapping_add(y)),
+                t(y.wrapping_shl(1).wrapping_sub(A::from(s).wrapping_shl(Self::CHOKE_FRAC))),
+            )
+        }
+
+        #[inline(always)]
+        fn loss_section(x: Self::Wave, x1: Self::Wave, y1: Self::Wave, g: u32, gb: i32, a: u32) -> Self::Wave {
+            // Each product < 2^f·2^(wave bits); three of them within the accumulator
+            // (g <= 1, |gb| <= 1, a < 1: checked at load).
+            type A = $acc;
+            let n = <A as Acc>::mul(g, x)
+                .wrapping_sub(A::from(gb).wrapping_mul(A::from(x1)))
+                .wrapping_add(<A as Acc>::mul(a, y1));
+            $sat($trunc(n, Self::LOSS_FRAC))
+        }
+
+        #[inline(always)]
+        fn adapt(b: Self::Wave, a: Self::Wave, mu: u32, negate: bool) -> Self::Wave {
+            // |b·2^f| and |μ·(a − b)| <= 2^f·2^(wave bits + 1) (μ <= 1, checked at load).
+            type A = $acc;
+            let n = A::from(b).wrapping_shl(Self::SERIES_FRAC).wrapping_add(<A as Acc>::mul_diff(mu, a, b));
+            let m = $trunc(n, Self::SERIES_FRAC);
+            $sat(if negate { m.wrapping_neg() } else { m })
+        }
+
+        #[inline(always)]
+        fn node_scatter_held(
+            b: &[Self::Wave],
+            g: &[u32],
+            a: &mut [Self::Wave],
+            e: Self::Wave,
+            g_src: u32,
+            recip: u32,
+            shift: u32,
+            total: u64,
+            hold_min: u32,
+        ) {
+            // Σ g + g_src <= 2^WEIGHT_BITS (node budget), so the numerator
+            // 2·Σ g_k·b_k + g_src·e is exact (i64: <= 2^62; i32: <= 2^30).
+            type A = $acc;
+            let mut acc: A = 0;
+            for (bk, gk) in b.iter().zip(g.iter()) {
+                acc = acc.wrapping_add(<A as Acc>::mul(*gk, *bk));
+            }
+            let acc = acc.wrapping_shl(1).wrapping_add(<A as Acc>::mul(g_src, e));
+            let (q, nz) = <A as Acc>::floor_div_abs(acc, recip, shift, total);
+            // floor(acc/total): q for acc >= 0, −(q + nz) for acc < 0, by the branch-free
+            // negation (x ^ mask) − mask.
+            let neg = (acc < 0) as A;
+            let mask = neg.wrapping_neg();
+            let fl = (q.wrapping_add(nz & neg) ^ mask).wrapping_sub(mask);
+            if hold_min == 0 {
+                // No shunt: the plain rule (a branch on the configuration, not on data).
+                for (ak, bk) in a.iter_mut().zip(b.iter()) {
+                    // v − b = (fl − b) + frac, frac > 0 iff nz: truncation toward zero adds
+                    // 1 to a negative integer part when there is a fraction.
+                    let m = fl.wrapping_sub(A::from(*bk));
+                    *ak = $sat(m.wrapping_add(((m < 0) as A) & nz));
+                }
+                return;
+            }
+            // The hold rule (see `Profile::node_scatter_held`), branch-free so that the
+            // instruction count does not depend on the data. Masks are −1 (true) or 0, from
+            // sign bits of differences whose ranges are small (|.| < 2^34 in i64, < 2^19 in
+            // i32): x >= 0 is !(x >> (bits − 1)).
+            let bits = <A>::BITS - 1;
+            let nonneg = |x: A| !(x >> bits);
+            let e_a = A::from(e);
+            // driven (e != 0) and q >= hold_min: a node-wide mask.
+            let node = ((e_a | e_a.wrapping_neg()) >> bits) & nonneg(q.wrapping_sub(<A as Acc>::from_u32(hold_min)));
+            for (ak, bk) in a.iter_mut().zip(b.iter()) {
+                // v − b = (fl − b) + frac, frac > 0 iff nz: the floor is m, the ceiling m + nz;
+                // truncation toward zero takes the ceiling of a negative value.
+                let m = fl.wrapping_sub(A::from(*bk));
+                let t = A::from($sat(m.wrapping_add(((m < 0) as A) & nz)));
+                // Held when the previous wave is the floor or the ceiling (prev − m in
+                // {0, nz}) and |prev| <= q.
+                let prev = A::from(*ak);
+                let d = prev.wrapping_sub(m);
+                let keep = node
+                    & nonneg(d)
+                    & nonneg(nz.wrapping_sub(d))
+                    & nonneg(q.wrapping_sub(prev))
+                    & nonneg(q.wrapping_add(prev));
+                // Both candidates are waves, so the cast is exact.
+                *ak = ((prev & keep) | (t & !keep)) as Self::Wave;
+            }
+        }
+    };
+}
+pub(crate) use junction_rules;

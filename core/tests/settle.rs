@@ -1,0 +1,168 @@
+//! A constant drive settles: no limit cycle around a working point, in both profiles.
+//!
+//! A constant EMF on a plant in which every path has loss has one DC point, and the exact
+//! plant converges to it. The fixed-point plant must too: after the transient, every output
+//! code (the drive's output code and every probe in I/O codes) stays within a band of a
+//! constant: [`BAND_WIDE`] codes in the wide profile, [`BAND_NARROW`] in the narrow one. Plants: random trees and loops (`Loads::Lossy`, `Loads::LossyLoops`), every
+//! element kind (resistive nodes, series resistors between equal and unequal impedances,
+//! capacitors and inductors behind resistors, series inductors with winding resistance, loss
+//! filters), shunts switched while the drive is on.
+//!
+//! The narrow band is wide because the aim (a few codes) is not met for every plant: the hold
+//! rule (`Profile::node_scatter_held`) removes the oscillation where it comes from nodes with
+//! a shunt (the packaging-line example, `packaging_line.rs`: 0-2 codes, was 40), but not where
+//! it comes from a loop through a series resistor, an impedance step at an open node or a
+//! reactance's adaptor. Measured with `PROPTEST_RNG_SEED=12345 PROPTEST_CASES=512` (513
+//! plants), band in narrow codes, plants per band:
+//!
+//! | rule | 0 | 1-2 | 3-4 | 5-9 | 10-19 | >= 20 | widest |
+//! |---|---:|---:|---:|---:|---:|---:|---:|
+//! | plain truncation (before) | 262 | 127 | 54 | 55 | 14 | 1 | 27 |
+//! | with the hold rule | 369 | 91 | 26 | 19 | 7 | 1 | 32 |
+//!
+//! The wide profile (12 more fraction bits) stayed within 1 code in every case, with or
+//! without the hold rule.
+
+mod common;
+
+use common::{network, with_losses, Loads, Owned};
+use proptest::prelude::*;
+use tidewire_core::{Junction, Narrow, Profile, Shunt, Solver, Wide};
+
+/// The solver every case runs on, boxed (its delay storage is large for the stack).
+type Tier<P> = Solver<P, 64, 32, 16384, 64>;
+
+/// The band (I/O codes, peak to peak) every output must stay within after the transient,
+/// wide profile. Measured, not derived (see the table above): at most 1 code in 513 plants.
+const BAND_WIDE: i64 = 1;
+/// The same for the narrow profile: measured, at most 32 codes in 513 plants (95 % within 4
+/// codes); 40 is allowed. This is the aim missed, by up to 28 codes beyond "a few".
+const BAND_NARROW: i64 = 40;
+
+fn config() -> ProptestConfig {
+    // `PROPTEST_CASES` (the soak command) raises the count.
+    let cases = std::env::var("PROPTEST_CASES").ok().and_then(|c| c.parse().ok()).unwrap_or(256);
+    ProptestConfig { cases, ..ProptestConfig::default() }
+}
+
+/// Samples a solver of this plant needs to come to rest (exactly zero) after `fill`
+/// samples of the drive `level`, or `None` if it does not within `limit`.
+fn rest_time<P: Profile>(
+    net: &Owned,
+    switches: &[(u16, Shunt)],
+    level: i16,
+    fill: usize,
+    limit: usize,
+) -> Option<usize> {
+    let mut s = Box::new(Tier::<P>::new());
+    s.load(&net.network()).ok()?;
+    for (j, sh) in switches {
+        s.set_shunt(*j, *sh).ok()?;
+    }
+    for _ in 0..fill {
+        s.step(level);
+    }
+    (0..limit).find(|_| {
+        s.step(0);
+        s.is_at_rest()
+    })
+}
+
+/// The widest peak-to-peak band (I/O codes) of the drive output and every probe over
+/// `window` samples after `transient` samples of the constant drive `level`, with the shunt
+/// `switches` applied at the samples given.
+fn band<P: Profile>(net: &Owned, switches: &[(u16, Shunt, usize)], level: i16, transient: usize, window: usize) -> i64 {
+    let mut s = Box::new(Tier::<P>::new());
+    s.load(&net.network()).unwrap();
+    let shift = net.io_shift as u32;
+    for n in 0..transient {
+        for (j, sh, at) in switches {
+            if *at == n {
+                s.set_shunt(*j, *sh).unwrap();
+            }
+        }
+        s.step(level);
+    }
+    let k = s.probe_count();
+    let mut lo = vec![i64::MAX; k + 1];
+    let mut hi = vec![i64::MIN; k + 1];
+    for _ in 0..window {
+        let out = s.step(level) as i64;
+        let codes = (0..k).map(|p| (s.probe_raw(p) >> shift) as i64).chain(std::iter::once(out));
+        for ((l, h), c) in lo.iter_mut().zip(hi.iter_mut()).zip(codes) {
+            *l = (*l).min(c);
+            *h = (*h).max(c);
+        }
+    }
+    lo.iter().zip(&hi).map(|(l, h)| h - l).max().unwrap_or(0)
+}
+
+/// Some series resistors become series inductors with winding resistance.
+fn with_chokes(net: Owned, picks: Vec<(prop::sample::Index, u32)>) -> Owned {
+    let mut out = net;
+    for (i, port) in picks {
+        let j = i.index(out.junctions.len());
+        if let Junction::Series { milliohm } = out.junctions[j] {
+            out.junctions[j] = Junction::SeriesInductor { port_milliohm: port, milliohm };
+        }
+    }
+    out
+}
+
+fn plant() -> impl Strategy<Value = Owned> {
+    prop_oneof![network(Loads::Lossy, 60, 12), network(Loads::LossyLoops, 60, 12)]
+        .prop_flat_map(with_losses)
+        .prop_flat_map(|net| {
+            proptest::collection::vec((any::<prop::sample::Index>(), 2_000u32..2_000_000), 0..3)
+                .prop_map(move |picks| with_chokes(net.clone(), picks))
+        })
+}
+
+fn check<P: Profile>(
+    net: &Owned,
+    level: i16,
+    events: &[(prop::sample::Index, u32, f64)],
+    allowed: i64,
+) -> Result<(), TestCaseError> {
+    let w = common::delay_sum(net).max(8) as usize;
+    // Shunt switches to other resistors (every path keeps its loss).
+    let mut switched: Vec<(u16, Shunt, f64)> = Vec::new();
+    for (i, r, when) in events {
+        let j = i.index(net.junctions.len());
+        if matches!(net.junctions[j], Junction::Node { .. }) {
+            switched.push((j as u16, Shunt::Resistor { milliohm: *r }, *when));
+        }
+    }
+    let at_start: Vec<(u16, Shunt)> = switched.iter().map(|(j, s, _)| (*j, *s)).collect();
+    // The transient: the deviation from the DC point of the exact plant is a zero-input
+    // response, so the plant's own time to come to rest after the drive stops (measured in
+    // this profile, from the state the drive leaves after 4·W samples) bounds it; twice
+    // that plus four round trips of the whole plant. A plant that never rests keeps an
+    // undamped mode (a loop, see `Loads::LossyLoops`) and is not a case of this property.
+    let rest = rest_time::<P>(net, &at_start, level, 4 * w, 400_000);
+    prop_assume!(rest.is_some(), "undamped loop");
+    let rest = rest.unwrap_or(0);
+    let transient = 2 * rest + 4 * w + 1000;
+    // Events within the first half of the transient, so the remaining half (>= rest) follows.
+    let events: Vec<(u16, Shunt, usize)> =
+        switched.iter().map(|(j, s, when)| (*j, *s, (when * (transient / 2) as f64) as usize)).collect();
+    let got = band::<P>(net, &events, level, transient, 4 * w + 2000);
+    prop_assert!(got <= allowed, "{}: band {} codes after {} samples (level {})", P::NAME, got, transient, level);
+    Ok(())
+}
+
+proptest! {
+    #![proptest_config(config())]
+
+    #[test]
+    fn a_constant_drive_settles_to_a_constant(
+        net in plant(),
+        level in prop_oneof![-4000i16..-100, 100i16..4000],
+        events in proptest::collection::vec((any::<prop::sample::Index>(), 10_000u32..1_000_000, 0.0f64..1.0), 0..3),
+    ) {
+        check::<Wide>(&net, level, &events, BAND_WIDE)?;
+        let mut net16 = net.clone();
+        net16.io_shift = 0;
+        check::<Narrow>(&net16, level, &events, BAND_NARROW)?;
+    }
+}
