@@ -23,8 +23,9 @@ use core::fmt;
 
 /// First four bytes of every image.
 pub const MAGIC: [u8; 4] = *b"TIDW";
-/// The body format this core reads.
-pub const FORMAT_VERSION: u16 = 1;
+/// The body format this core reads (2: every loss filter carries an optional
+/// fractional-delay allpass, and may have no section).
+pub const FORMAT_VERSION: u16 = 2;
 /// Header size in bytes.
 pub const HEADER_LEN: usize = 16;
 

@@ -97,8 +97,12 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     /// a + b or a − b, for probes, as i32 (saturating in [`Wide`]).
     fn sum(a: Self::Wave, b: Self::Wave) -> i32;
     fn diff(a: Self::Wave, b: Self::Wave) -> i32;
+    /// Fractional-delay allpass (lattice, state s, coefficients in `LOSS_FRAC` bits): (y, s') =
+    /// (trunc(a·x + c·s), trunc(c·x − a·s)), saturated; passive for a² + c² <= 1 (`lattice.rs`).
+    fn allpass(x: Self::Wave, s: Self::Wave, a: i32, c: u32) -> (Self::Wave, Self::Wave);
 }
 
+mod lattice;
 mod sealed {
     pub trait Sealed {}
     impl Sealed for super::Wide {}
@@ -310,6 +314,10 @@ impl Profile for Wide {
     fn diff(a: i32, b: i32) -> i32 {
         a.saturating_sub(b)
     }
+    #[inline(always)]
+    fn allpass(x: i32, s: i32, a: i32, c: u32) -> (i32, i32) {
+        lattice::wide(x, s, a, c)
+    }
 }
 
 impl Profile for Narrow {
@@ -409,6 +417,10 @@ impl Profile for Narrow {
     #[inline(always)]
     fn diff(a: i16, b: i16) -> i32 {
         (a as i32).wrapping_sub(b as i32) // two i16: exact in i32
+    }
+    #[inline(always)]
+    fn allpass(x: i16, s: i16, a: i32, c: u32) -> (i16, i16) {
+        lattice::narrow(x, s, a, c)
     }
 }
 

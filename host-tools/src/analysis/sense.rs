@@ -111,7 +111,9 @@ pub(super) fn after_scale(c: &Compiled, plant: &Plant, file: &str, a: &mut Analy
             si::format(IMPLAUSIBLE_VOLTS, "V"),
         ));
     }
-    for s in &c.report.segments {
+    // Only where a delay is still rounded (no fraction: shorter than
+    // `MIN_FRACTIONAL_DELAY`, or at a rig port).
+    for s in c.report.segments.iter().filter(|s| s.fraction.is_none()) {
         let rel = s.error_s / s.tau;
         if rel.abs() > TIMING_WARNING {
             a.warnings.push(format!(

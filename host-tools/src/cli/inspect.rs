@@ -41,25 +41,51 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
     let _ = writeln!(s, "\n-- segments: delay on the sample grid");
     let _ = writeln!(
         s,
-        "   {:<18} {:<20} {:>9} {:>7} {:>11} {:>6} {:>22} {:>10} {:>4}",
+        "   {:<18} {:<20} {:>9} {:>7} {:>11} {:>11} {:>22} {:>10} {:>4}",
         "segment", "cable", "length", "Z0", "tau", "delay", "timing error", "R loop", "sec"
     );
     for t in &r.segments {
+        let delay = match &t.fraction {
+            Some(f) => format!("{}+{:.3}", t.delay, f.realised),
+            None => t.delay.to_string(),
+        };
         let _ = writeln!(
             s,
-            "   {:<18} {:<20} {:>7.2} m {:>7.1} {:>11} {:>6} {:>12} ({:>+6.2} %) {:>8.3} Ω {:>4}{}",
+            "   {:<18} {:<20} {:>7.2} m {:>7.1} {:>11} {:>11} {:>12} ({:>+6.2} %) {:>8.3} Ω {:>4}{}",
             t.name,
             t.cable,
             t.length,
             t.z0,
             eng(t.tau, "s"),
-            t.delay,
+            delay,
             eng(t.error_s, "s"),
             100.0 * t.error_s / t.tau,
             t.r_total,
             t.sections,
             if t.r_dropped { "  (R dropped: one-sample segment)" } else { "" }
         );
+    }
+    if r.segments.iter().any(|t| t.fraction.is_some()) {
+        let _ = writeln!(
+            s,
+            "\n-- fractional delays (model: delay line + fraction; first-order allpass on the arriving waves)"
+        );
+        for t in &r.segments {
+            let Some(f) = &t.fraction else {
+                let _ = writeln!(s, "   {:<18} {} (whole samples)", t.name, t.model());
+                continue;
+            };
+            let _ = writeln!(
+                s,
+                "   {:<18} fraction {:.4} sample(s): timing error {} at low frequency, {} at {} (drive bandwidth), magnitude error {:.1e}",
+                t.name,
+                f.wanted,
+                eng(t.error_s, "s"),
+                eng(t.edge_error_s(c.dt), "s"),
+                eng(f.edge_hz, "Hz"),
+                f.magnitude_error
+            );
+        }
     }
     if r.segments.iter().any(|t| t.loss_fit_db.is_some()) {
         let _ = writeln!(s, "\n-- frequency-dependent loss (filters in the lines, fitted over fs/10^4 .. 0.4 fs)");

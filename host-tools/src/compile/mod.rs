@@ -18,6 +18,7 @@
 //! This is a pure stage: it imports neither the twin nor the host core runner, and runs
 //! nothing. Every figure that needs a run is the analysis stage's.
 mod core_check;
+pub mod fraction;
 mod loads;
 pub mod loss;
 mod report;
@@ -170,7 +171,7 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
         ProfileKind::Wide => <tidewire_core::Wide as tidewire_core::Profile>::LOSS_FRAC,
         ProfileKind::Narrow => <tidewire_core::Narrow as tidewire_core::Profile>::LOSS_FRAC,
     };
-    let mut b = segments::Builder::new(plant, file, dt, frac);
+    let mut b = segments::Builder::new(plant, file, dt, frac, fraction::drive_bandwidth(plant, dt));
 
     // Junctions for the plant's nodes first, so node n is junction n.
     let mut node_elements = Vec::new();
