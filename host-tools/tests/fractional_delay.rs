@@ -92,3 +92,40 @@ fn segments_off_the_grid_follow_the_exact_reference_and_arrive_on_time() {
         }
     }
 }
+
+#[test]
+fn the_fraction_goes_to_the_longest_line_and_short_or_rig_segments_stay_whole() {
+    use tidewire_host::compile::{compile, MIN_FRACTIONAL_DELAY};
+    // 430 m at 2 MS/s: 4.343 samples [closed form: 430 / (0.66 · 299792458) · 2e6], cut into
+    // two lumped-resistance sections (three lines): the rings plus the fraction on the
+    // segment's longest line give the whole delay.
+    let text = plant("twisted-pair-120", "430 m", "2 MHz", "2 us", "40 us");
+    let p = parse_plant(&text, "off-grid.toml", Path::new(".")).unwrap();
+    let c = compile(&p, "off-grid.toml", ProfileKind::Wide).unwrap();
+    let want = 430.0 / (0.66 * 299_792_458.0) * 2e6;
+    let pieces = &c.segment_pieces[0];
+    assert!(pieces.len() >= 2, "lumped sections expected");
+    let rings: u32 = pieces.iter().map(|pc| c.net.lines[pc.line as usize].delay).sum();
+    let t = &c.report.segments[0];
+    let f = t.fraction.expect("a fraction");
+    assert!((0.5..1.5).contains(&f.wanted));
+    assert!((rings as f64 + f.realised - want).abs() < 1e-8, "{rings} + {} vs {want}", f.realised);
+    let longest = pieces.iter().map(|pc| c.net.lines[pc.line as usize].delay).max().unwrap();
+    let with_allpass: Vec<_> = c.net.losses.iter().filter(|l| l.allpass.is_some()).collect();
+    assert_eq!(with_allpass.len(), 1);
+    let line = &c.net.lines[with_allpass[0].line as usize];
+    // Its ring lost a sample to the fraction (d >= 0.5), or kept it.
+    assert!(line.delay + 1 >= longest, "fraction on a line of {} samples, longest {longest}", line.delay);
+    assert_eq!(t.model(), "delay line + fraction");
+
+    // 50 m at 2 MS/s is 0.505 samples: below MIN_FRACTIONAL_DELAY (1.5), it stays one
+    // whole sample, and `inspect` warns of the rounding.
+    assert_eq!(MIN_FRACTIONAL_DELAY, 1.5);
+    let text = plant("twisted-pair-120", "50 m", "2 MHz", "2 us", "40 us");
+    let p = parse_plant(&text, "short.toml", Path::new(".")).unwrap();
+    let c = compile(&p, "short.toml", ProfileKind::Wide).unwrap();
+    assert!(c.report.segments[0].fraction.is_none());
+    assert_eq!(c.report.segments[0].model(), "delay line");
+    let (_, a) = prepare(&p, "short.toml", ProfileKind::Wide).unwrap();
+    assert!(a.warnings.iter().any(|w| w.contains("rounded")), "{:?}", a.warnings);
+}

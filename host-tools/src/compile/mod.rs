@@ -25,7 +25,7 @@ mod report;
 mod segments;
 
 pub use report::{Reflection, Report, SegmentTiming};
-pub use segments::{LinePiece, SECTION_R_OVER_Z0};
+pub use segments::{LinePiece, MIN_FRACTIONAL_DELAY, SECTION_R_OVER_Z0};
 
 use crate::plant::{Drive as PlantDrive, End, EventAction, Load, Plant, PlantError, ProbeKind as PlantProbe, Span};
 use tidewire_core::{
