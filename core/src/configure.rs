@@ -61,6 +61,13 @@ pub fn quantize_loss_section<P: Profile>(pole: u32, zero: i32) -> Option<(u32, i
     Some((u32::try_from(g).ok()?, i32::try_from(gb).ok()?, u32::try_from(a).ok()?))
 }
 
+/// A fractional-delay allpass's lattice coefficients (a, c) from Q30, in the profile's
+/// `LOSS_FRAC` bits, truncated toward zero: the one quantization,
+/// [`crate::quantize::allpass`]. Passivity and range are checked by `load`.
+pub fn quantize_allpass<P: Profile>(a: i32, c: u32) -> Option<(i32, u32)> {
+    crate::quantize::allpass(a, c, P::LOSS_FRAC)
+}
+
 /// Check everything `load` checks that does not depend on a solver's capacities: the shape,
 /// the weight unit and the passivity of every quantized junction, element and loss section.
 /// The host compiler calls this so a plant the core would refuse is refused with a located
@@ -131,10 +138,18 @@ fn loss_record<P: Profile>(ll: &crate::network::LineLoss, port: u16) -> Option<L
         a: [0; MAX_LOSS_SECTIONS],
         x1: [P::ZERO; MAX_LOSS_SECTIONS],
         y1: [P::ZERO; MAX_LOSS_SECTIONS],
+        ap: false,
+        ap_a: 0,
+        ap_c: 0,
+        ap_s: P::ZERO,
     };
     let n = ll.sections as usize;
-    if n == 0 || n > MAX_LOSS_SECTIONS {
+    if (n == 0 && ll.allpass.is_none()) || n > MAX_LOSS_SECTIONS {
         return None;
+    }
+    if let Some(ap) = ll.allpass {
+        (rt.ap_a, rt.ap_c) = quantize_allpass::<P>(ap.a, ap.c)?;
+        rt.ap = true;
     }
     let coefs = ll.poles.iter().zip(ll.zeros.iter()).zip(rt.g.iter_mut().zip(rt.gb.iter_mut()).zip(rt.a.iter_mut()));
     for ((pole, zero), ((rg, rgb), ra)) in coefs.take(n) {

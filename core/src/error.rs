@@ -77,8 +77,10 @@ pub enum BuildError {
         /// Index of the element.
         element: u16,
     },
-    /// A loss filter names no line, a line twice, has 0 or too many sections, or a
-    /// section that is not an attenuating shelf (needs 0 <= zero < pole < 1).
+    /// A loss filter names no line, a line twice, has no section and no allpass, too many
+    /// sections, a section that is not an attenuating shelf (needs 0 <= zero < pole < 1),
+    /// or a fractional-delay allpass that is not passive or whose pole is too close to the
+    /// unit circle (needs a² + c² <= 1, c > 0, |a| <= 1/2 after quantization).
     BadLoss {
         /// Index of the loss filter.
         loss: u16,
@@ -152,7 +154,7 @@ impl fmt::Display for BuildError {
             BadElement { element } => {
                 write!(f, "element {element}: must hang from a node and have a port resistance > 0")
             }
-            BadLoss { loss } => write!(f, "loss filter {loss}: bad line or section coefficients"),
+            BadLoss { loss } => write!(f, "loss filter {loss}: bad line, section or allpass coefficients"),
             BadRigNode { junction } => {
                 write!(f, "rig port junction {junction}: needs exactly one line end and no shunt")
             }

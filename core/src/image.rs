@@ -23,8 +23,9 @@ use core::fmt;
 
 /// First four bytes of every image.
 pub const MAGIC: [u8; 4] = *b"TIDW";
-/// The body format this core reads.
-pub const FORMAT_VERSION: u16 = 1;
+/// The body format this core reads (2: every loss filter carries an optional
+/// fractional-delay allpass, and may have no section).
+pub const FORMAT_VERSION: u16 = 2;
 /// Header size in bytes.
 pub const HEADER_LEN: usize = 16;
 
@@ -175,8 +176,38 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     Solver<P, PORTS, JUNCS, MEM, LOSSES>
 {
     /// Decode an image and load its network (header, CRC, body, then topology validation).
+    ///
+    /// The body is decoded table by table, in [`crate::OwnedNetwork`]'s field order (the
+    /// body's), into locals of this frame, the same values [`decode_sized`] gives with
+    /// `K = LOSSES`: each table is built once here instead of as a whole network moved
+    /// through `Result`s (on a Cortex-M0 with 16 KB of RAM those copies of a 34-port
+    /// network's tables overflowed the stack).
     pub fn load_image(&mut self, bytes: &[u8]) -> Result<(), ImageError> {
-        let net = decode_sized::<PORTS, JUNCS, LOSSES>(bytes)?;
-        self.load(&net.network()).map_err(ImageError::Network)
+        use crate::network::{Drive, Element, Junction, Line, LineLoss, Probe, MAX_PROBES};
+        use serde::Deserialize;
+        let mut de = postcard::Deserializer::from_bytes(body(bytes)?);
+        let e = |_| ImageError::Body;
+        let lines = heapless::Vec::<Line, PORTS>::deserialize(&mut de).map_err(e)?;
+        let junctions = heapless::Vec::<Junction, JUNCS>::deserialize(&mut de).map_err(e)?;
+        let elements = heapless::Vec::<Element, PORTS>::deserialize(&mut de).map_err(e)?;
+        let losses = heapless::Vec::<LineLoss, LOSSES>::deserialize(&mut de).map_err(e)?;
+        let drive = Drive::deserialize(&mut de).map_err(e)?;
+        let probes = heapless::Vec::<Probe, MAX_PROBES>::deserialize(&mut de).map_err(e)?;
+        let io_shift = u8::deserialize(&mut de).map_err(e)?;
+        let volts_per_code = f32::deserialize(&mut de).map_err(e)?;
+        if !de.finalize().map_err(e)?.is_empty() {
+            return Err(ImageError::TrailingBytes);
+        }
+        let net = crate::Network {
+            lines: &lines,
+            junctions: &junctions,
+            elements: &elements,
+            losses: &losses,
+            drive,
+            probes: &probes,
+            io_shift,
+            volts_per_code,
+        };
+        self.load(&net).map_err(ImageError::Network)
     }
 }

@@ -25,6 +25,12 @@
 //! * **Elements** (bilinear capacitors and inductors, optionally behind a resistor) hang
 //!   from nodes; **loss filters** (attenuating first-order sections) act on the waves
 //!   arriving at the ends of lossy lines.
+//! * A **fractional delay** adds d samples (0.5 <= d < 1.5 as the host compiles it) to a
+//!   line of D whole samples: the wave arriving at either end passes a first-order Thiran
+//!   allpass H(z) = (a + z⁻¹)/(1 + a·z⁻¹), a = (1 − d)/(1 + d) (Laakso et al. 1996), whose
+//!   group delay at low frequency is d. It runs as the normalised (Gray–Markel) lattice,
+//!   a lossless two-port between the arriving wave x and a state s:
+//!   y = a·x + c·s, s' = c·x − a·s, c = sqrt(1 − a²).
 //! * A **rig port** is a node with one line end where a real device is attached through a
 //!   physical resistor R_ref = Z0 to a DAC: the core reads the pin voltage v, computes
 //!   a = v − b and drives the DAC at 2·b. The rig's ADC-to-DAC latency L is taken out of
@@ -47,7 +53,12 @@
 //! to exactly zero, with no limit cycle. Series junctions (equal impedances), series inductors,
 //! reactive elements and loss sections follow the same rule: exact double-width value,
 //! truncated toward zero once, with coefficients rounded so that the quantized element is
-//! itself passive (their modules state the argument). Rounding to nearest, or rounding the
+//! itself passive (their modules state the argument). The fractional-delay lattice's
+//! matrix [[a, c], [c, −a]] has norm sqrt(a² + c²); the core truncates a and c toward zero
+//! (F = `LOSS_FRAC` bits) and `load` checks a_q² + c_q² <= 2^(2F) from the integers, so the exact outputs have
+//! y² + s'² <= x² + s², and truncating each toward zero (then saturating) only lowers them:
+//! y_q² + s'_q² <= x² + s², the section's outgoing plus stored energy never exceeds its
+//! incoming plus stored energy (`configure/passive.rs`). Rounding to nearest, or rounding the
 //! node voltage alone, does not have this property: a lossy node would then reflect a
 //! one-LSB wave losslessly, and the property tests find such limit cycles.
 //!
@@ -94,8 +105,8 @@ pub mod solver;
 
 pub use error::{BuildError, ConfigError, Table};
 pub use network::{
-    Drive, Element, ElementKind, Junction, JunctionId, Line, LineId, LineLoss, Network, Probe, ProbeKind, Shunt, Side,
-    MAX_LOSS_SECTIONS, MAX_PROBES, MAX_RIG_LATENCY,
+    Allpass, Drive, Element, ElementKind, Junction, JunctionId, Line, LineId, LineLoss, Network, Probe, ProbeKind,
+    Shunt, Side, MAX_LOSS_SECTIONS, MAX_PROBES, MAX_RIG_LATENCY,
 };
 pub use owned::{HeaplessNetwork, OwnedNetwork};
 pub use profile::{Narrow, Profile, Wide};

@@ -138,8 +138,30 @@ pub struct Element {
 /// The most first-order sections a line's loss filter may have.
 pub const MAX_LOSS_SECTIONS: usize = 6;
 
+/// A first-order Thiran allpass that adds a fraction of a sample to a line's delay
+/// (Laakso, Välimäki, Karjalainen, Laine, "Splitting the unit delay", IEEE Signal Processing
+/// Magazine 13(1), 1996): H(z) = (a + z⁻¹)/(1 + a·z⁻¹) with a = (1 − d)/(1 + d) delays by d
+/// samples at low frequency, d in [0.5, 1.5) (then |a| <= 1/3: the pole −a stays well inside
+/// the unit circle).
+///
+/// Realised as the normalised (Gray–Markel) lattice, a lossless two-port with state s:
+/// y = a·x + c·s, s' = c·x − a·s, c = sqrt(1 − a²) (then Y/X = (a + z⁻¹)/(1 + a·z⁻¹)).
+/// Both coefficients are given in Q30 and quantized toward zero by the core; `load` checks
+/// |a_q| <= 1/2 and a_q² + c_q² <= 1 from the integers (see `configure/passive.rs`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct Allpass {
+    /// a·2^30 (|a| <= 1/2).
+    pub a: i32,
+    /// c·2^30 (0 < c <= 1, a² + c² <= 1).
+    pub c: u32,
+}
+
 /// Frequency-dependent loss of one line: a cascade of first-order shelving sections applied
-/// to every wave arriving at either end (the pure delay stays in the line).
+/// to every wave arriving at either end (the pure delay stays in the line), followed by an
+/// optional fractional-delay [`Allpass`] (an LTI filter commutes with the delay, so filtering
+/// at the arrival is the same line). A lossless line with a fractional delay has
+/// `sections` = 0 and an allpass.
 ///
 /// Section k: H_k(z) = g_k·(1 − b_k·z⁻¹)/(1 − a_k·z⁻¹) with −1 < b_k < a_k < 1, a_k > 0,
 /// given in Q30 (`zeros[k]` = b_k·2^30, `poles[k]` = a_k·2^30). The core computes
@@ -150,12 +172,15 @@ pub const MAX_LOSS_SECTIONS: usize = 6;
 pub struct LineLoss {
     /// The lossy line.
     pub line: LineId,
-    /// Sections in use (1..=MAX_LOSS_SECTIONS).
+    /// Sections in use (0..=MAX_LOSS_SECTIONS; 0 only with an allpass).
     pub sections: u8,
     /// Pole a_k of each section in Q30 (a_k·2^30, 0 < a_k < 1).
     pub poles: [u32; MAX_LOSS_SECTIONS],
     /// Zero b_k of each section in Q30 (b_k·2^30, −1 < b_k < a_k).
     pub zeros: [i32; MAX_LOSS_SECTIONS],
+    /// The fractional part of the line's delay, if any: the wave arriving at either end
+    /// passes this allpass after the loss sections.
+    pub allpass: Option<Allpass>,
 }
 
 /// Which end of a line.
@@ -204,7 +229,7 @@ pub struct Network<'a> {
     pub junctions: &'a [Junction],
     /// Reactive one-ports at nodes.
     pub elements: &'a [Element],
-    /// Loss filters of lossy lines (at most one per line).
+    /// Arrival filters (loss sections, fractional delay) of lines (at most one per line).
     pub losses: &'a [LineLoss],
     /// The drive.
     pub drive: Drive,

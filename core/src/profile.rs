@@ -135,8 +135,12 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
         total: u64,
         hold_min: u32,
     );
+    /// Fractional-delay allpass (lattice, state s, coefficients in `LOSS_FRAC` bits): (y, s') =
+    /// (trunc(a·x + c·s), trunc(c·x − a·s)), saturated; passive for a² + c² <= 1 (`lattice.rs`).
+    fn allpass(x: Self::Wave, s: Self::Wave, a: i32, c: u32) -> (Self::Wave, Self::Wave);
 }
 
+mod lattice;
 mod sealed {
     pub trait Sealed {}
     impl Sealed for super::Wide {}
@@ -280,6 +284,10 @@ impl Profile for Wide {
     }
 
     arith::junction_rules!(i64, trunc_shr64, sat64_to_i32);
+    #[inline(always)]
+    fn allpass(x: i32, s: i32, a: i32, c: u32) -> (i32, i32) {
+        lattice::wide(x, s, a, c)
+    }
 }
 
 impl Profile for Narrow {
@@ -325,6 +333,10 @@ impl Profile for Narrow {
     }
 
     arith::junction_rules!(i32, trunc_shr32, sat_i16);
+    #[inline(always)]
+    fn allpass(x: i16, s: i16, a: i32, c: u32) -> (i16, i16) {
+        lattice::narrow(x, s, a, c)
+    }
 }
 
 /// Reciprocal of a node's total weight: `recip = floor(2^(RECIP_BITS + shift) / total)` with

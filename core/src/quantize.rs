@@ -25,3 +25,15 @@ pub fn loss_section(pole: i64, zero: i64, frac: u32) -> Option<(i64, i64, i64)> 
     let gb = gb_exact.checked_div_euclid(one)?.checked_add(i64::from(gb_exact.checked_rem_euclid(one)? != 0))?;
     Some((a, g, gb))
 }
+
+/// A fractional-delay allpass's lattice coefficients at `frac` fraction bits, from Q30
+/// (`a` = a·2^30, `c` = c·2^30): both truncated toward zero, so |a_q| <= |a| and c_q <= c and
+/// a_q² + c_q² <= a² + c². Returns `(a_q, c_q)`; `None` for `frac` > 30.
+pub fn allpass(a: i32, c: u32, frac: u32) -> Option<(i32, u32)> {
+    let gap = 30u32.checked_sub(frac)?;
+    // Truncation toward zero of a signed value: shift the magnitude.
+    let mag = a.unsigned_abs().checked_shr(gap)?;
+    let aq = i32::try_from(mag).ok()?;
+    let aq = if a < 0 { aq.checked_neg()? } else { aq };
+    Some((aq, c.checked_shr(gap)?))
+}

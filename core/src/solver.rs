@@ -86,6 +86,12 @@ pub(crate) struct LossRt<W: Copy> {
     /// x[n−1] and y[n−1] of each section.
     pub x1: [W; MAX_LOSS_SECTIONS],
     pub y1: [W; MAX_LOSS_SECTIONS],
+    /// Fractional-delay allpass after the sections: whether present, its lattice
+    /// coefficients (a, c) in `LOSS_FRAC` bits, and its state s.
+    pub ap: bool,
+    pub ap_a: i32,
+    pub ap_c: u32,
+    pub ap_s: W,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -174,6 +180,10 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                 a: [0; MAX_LOSS_SECTIONS],
                 x1: [P::ZERO; MAX_LOSS_SECTIONS],
                 y1: [P::ZERO; MAX_LOSS_SECTIONS],
+                ap: false,
+                ap_a: 0,
+                ap_c: 0,
+                ap_s: P::ZERO,
             }; LOSSES],
             n_losses: 0,
             probes: [ProbeRt { current: false, port: 0, z_milliohm: 1 }; MAX_PROBES],
@@ -209,6 +219,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         for l in self.losses.iter_mut() {
             l.x1 = [P::ZERO; MAX_LOSS_SECTIONS];
             l.y1 = [P::ZERO; MAX_LOSS_SECTIONS];
+            l.ap_s = P::ZERO;
         }
         for r in self.rings.iter_mut() {
             r.cursor = r.start;
@@ -365,8 +376,9 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             r.cursor = if next == r.end { r.start } else { next };
             *b = self.mem.get(r.cursor as usize).copied().unwrap_or(P::ZERO);
         }
-        // Lossy lines: the wave arriving at each end passes the line's loss filter (an LTI
-        // filter commutes with the delay, so filtering at the arrival is the same line).
+        // Lossy lines and fractional delays: the wave arriving at each end passes the line's
+        // loss sections, then its allpass (LTI filters commute with the delay, so filtering
+        // at the arrival is the same line).
         let n_loss = self.n_losses.min(LOSSES);
         for l in self.losses.iter_mut().take(n_loss) {
             let Some(b) = self.b.get_mut(l.port as usize) else {
@@ -379,6 +391,12 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                 let y = P::loss_section(x, *x1, *y1, *g, *gb, *a);
                 *x1 = x;
                 *y1 = y;
+                x = y;
+            }
+            if l.ap {
+                // Lattice: y = a·x + c·s, s' = c·x − a·s (`Profile::allpass`).
+                let (y, s_next) = P::allpass(x, l.ap_s, l.ap_a, l.ap_c);
+                l.ap_s = s_next;
                 x = y;
             }
             *b = x;

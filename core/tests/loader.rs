@@ -6,8 +6,8 @@
 use proptest::prelude::*;
 use tidewire_core::image::header;
 use tidewire_core::{
-    BuildError, Drive, Element, ElementKind, Junction, Line, LineLoss, Narrow, Network, Probe, ProbeKind, Profile,
-    Shunt, Side, Solver, Wide, MAX_LOSS_SECTIONS,
+    Allpass, BuildError, Drive, Element, ElementKind, Junction, Line, LineLoss, Narrow, Network, Probe, ProbeKind,
+    Profile, Shunt, Side, Solver, Wide, MAX_LOSS_SECTIONS,
 };
 
 type WideSolver = Solver<Wide, 24, 8, 4096, 8>;
@@ -82,15 +82,30 @@ fn loss() -> impl Strategy<Value = LineLoss> {
         6 => (1u32..(1 << 30), 0.0f64..1.0).prop_map(|(p, f)| (p, (p as f64 * f) as i32 - (1 << 20))),
         1 => (any::<u32>(), any::<i32>()),
     ];
-    (index(6), prop_oneof![12 => 1u8..=3, 1 => 0u8..=255], proptest::collection::vec(section, MAX_LOSS_SECTIONS))
-        .prop_map(|(line, sections, s)| {
+    // Fractional-delay allpasses: none, a lattice near the passive limit (c from the norm,
+    // off by a few LSB either way), or any integers at all.
+    let allpass = prop_oneof![
+        3 => Just(None),
+        3 => (-(1i32 << 29)..=(1 << 29), -3i64..=3).prop_map(|(a, off)| {
+            let c = (((1u128 << 60) - (a as i128 * a as i128) as u128) as f64).sqrt() as i64 + off;
+            Some(Allpass { a, c: c.clamp(0, u32::MAX as i64) as u32 })
+        }),
+        1 => (any::<i32>(), any::<u32>()).prop_map(|(a, c)| Some(Allpass { a, c })),
+    ];
+    (
+        index(6),
+        prop_oneof![12 => 1u8..=3, 3 => Just(0u8), 1 => 0u8..=255],
+        proptest::collection::vec(section, MAX_LOSS_SECTIONS),
+        allpass,
+    )
+        .prop_map(|(line, sections, s, allpass)| {
             let mut poles = [0u32; MAX_LOSS_SECTIONS];
             let mut zeros = [0i32; MAX_LOSS_SECTIONS];
             for (k, (p, z)) in s.into_iter().enumerate() {
                 poles[k] = p;
                 zeros[k] = z;
             }
-            LineLoss { line, sections, poles, zeros }
+            LineLoss { line, sections, poles, zeros, allpass }
         })
 }
 
@@ -270,4 +285,54 @@ fn delays_that_would_wrap_are_refused() {
         s.load(&net),
         Err(BuildError::CapacityExceeded { table: tidewire_core::Table::DelayStorage, .. })
     ));
+}
+
+/// The fractional-delay allpass is checked from its integers: a² + c² <= 1 (at the
+/// profile's `LOSS_FRAC` bits, after truncation toward zero), c > 0, |a| <= 1/2, and a
+/// filter with neither sections nor an allpass is refused.
+#[test]
+fn allpass_coefficients_are_checked_at_load() {
+    let lines = [Line { z_milliohm: 50_000, delay: 4, a: 0, b: 1 }];
+    let junctions = [Junction::Node { shunt: Shunt::Resistor { milliohm: 50_000 } }; 2];
+    let one = 1u32 << 30;
+    let try_load = |ap: Option<Allpass>, sections: u8| {
+        let losses = [LineLoss { line: 0, sections, poles: [1 << 29, 0, 0, 0, 0, 0], zeros: [0; 6], allpass: ap }];
+        let net = Network {
+            lines: &lines,
+            junctions: &junctions,
+            elements: &[],
+            losses: &losses,
+            drive: Drive::Source { junction: 0, milliohm: 50_000 },
+            probes: &[],
+            io_shift: 0,
+            volts_per_code: 1.0,
+        };
+        let wide = Solver::<Wide, 8, 4, 64, 2>::new().load(&net);
+        let narrow = Solver::<Narrow, 8, 4, 64, 2>::new().load(&net);
+        assert_eq!(wide.is_ok(), tidewire_core::configure::check::<Wide>(&net).is_ok());
+        (wide, narrow)
+    };
+    let bad = Err(BuildError::BadLoss { loss: 0 });
+    // A whole-sample allpass (a = 0, c = 1: norm exactly 1) and a quarter-pole one pass,
+    // alone and after a loss section.
+    for sections in [0, 1] {
+        assert_eq!(try_load(Some(Allpass { a: 0, c: one }), sections), (Ok(()), Ok(())));
+        let a = one as i32 / 4;
+        let c = ((1u64 << 60) - (a as u64).pow(2)).isqrt() as u32;
+        assert_eq!(try_load(Some(Allpass { a, c }), sections), (Ok(()), Ok(())));
+        assert_eq!(try_load(Some(Allpass { a: -a, c }), sections), (Ok(()), Ok(())));
+    }
+    // Norm above 1: c one LSB (Q30) too large.
+    assert_eq!(try_load(Some(Allpass { a: 0, c: one + 1 }), 0).0, bad);
+    // Pole beyond 1/2 (a lossless lattice all the same).
+    let a = (one / 2 + (1 << 16)) as i32;
+    let c = ((1u64 << 60) - (a as u64).pow(2)).isqrt() as u32;
+    assert_eq!(try_load(Some(Allpass { a, c }), 0), (bad, bad));
+    assert_eq!(try_load(Some(Allpass { a: -a, c }), 0), (bad, bad));
+    // c = 0 (no path through the lattice), and extreme integers.
+    assert_eq!(try_load(Some(Allpass { a: 0, c: 0 }), 0), (bad, bad));
+    assert_eq!(try_load(Some(Allpass { a: i32::MIN, c: u32::MAX }), 0), (bad, bad));
+    assert_eq!(try_load(Some(Allpass { a: i32::MAX, c: 1 }), 0), (bad, bad));
+    // Neither sections nor an allpass.
+    assert_eq!(try_load(None, 0), (bad, bad));
 }

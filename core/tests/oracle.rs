@@ -86,6 +86,26 @@ fn check_loss<P: Profile>(pole: u32, zero_frac: f64, u: [u32; 3]) -> Result<(), 
     Ok(())
 }
 
+/// The fractional-delay lattice over its whole accepted coefficient range (|a| <= 1/2,
+/// 0 < c, a² + c² <= 1 at `LOSS_FRAC` bits, c taken anywhere up to the norm's limit) and
+/// any waves: y = trunc(a·x + c·s), s' = trunc(c·x − a·s), each then saturated; and the
+/// energy inequality the crate docs argue, y² + s'² <= x² + s², checked in i128.
+fn check_allpass<P: Profile>(au: u32, cu: u32, u: [u32; 2]) -> Result<(), TestCaseError> {
+    let one = 1i128 << P::LOSS_FRAC;
+    let a = (au as i128 % (one + 1)) - one / 2; // in [−1/2, 1/2]
+    let c_max = ((one * one - a * a) as f64).sqrt() as i128;
+    let c_max = (c_max - 2..=c_max + 2).filter(|c| a * a + c * c <= one * one).max().unwrap_or(0);
+    let c = 1 + cu as i128 % c_max; // in [1, c_max]
+    let (x, st) = (wave::<P>(u[0]), wave::<P>(u[1]));
+    let (y, s2) = P::allpass(x, st, a as i32, c as u32);
+    let f = P::LOSS_FRAC;
+    prop_assert_eq!(w::<P>(y), trunc_sat::<P>(a * w::<P>(x) + c * w::<P>(st), f));
+    prop_assert_eq!(w::<P>(s2), trunc_sat::<P>(c * w::<P>(x) - a * w::<P>(st), f));
+    let (xi, si, yi, s2i) = (w::<P>(x), w::<P>(st), w::<P>(y), w::<P>(s2));
+    prop_assert!(yi * yi + s2i * s2i <= xi * xi + si * si, "energy grew: a {} c {} x {} s {}", a, c, xi, si);
+    Ok(())
+}
+
 /// A node: up to 8 ports, weights with Σ g + g_src <= 2^WEIGHT_BITS, a total between that sum
 /// and `TOTAL_MAX` (a shunt of any strength), any waves and source EMF.
 fn check_node<P: Profile>(
@@ -217,6 +237,12 @@ proptest! {
     fn loss_section_is_exact_then_truncated(pole: u32, zero_frac in 0.0f64..1.0, u: [u32; 3]) {
         check_loss::<Wide>(pole, zero_frac, u)?;
         check_loss::<Narrow>(pole, zero_frac, u)?;
+    }
+
+    #[test]
+    fn allpass_is_exact_then_truncated_and_passive(au: u32, cu: u32, u: [u32; 2]) {
+        check_allpass::<Wide>(au, cu, u)?;
+        check_allpass::<Narrow>(au, cu, u)?;
     }
 
     #[test]

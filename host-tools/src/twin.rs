@@ -23,8 +23,9 @@ pub struct Recording {
     pub peak_wave: f64,
 }
 
-/// A loss filter at one line end: port, sections (a, g, gb), state (x[n−1], y[n−1]).
-type Filter = (usize, Vec<(f64, f64, f64)>, Vec<(f64, f64)>);
+/// A line's arrival filter at one end: port, loss sections (a, g, gb), their state
+/// (x[n−1], y[n−1]), and the fractional-delay lattice (a, c, state s) if any.
+type Filter = (usize, Vec<(f64, f64, f64)>, Vec<(f64, f64)>, Option<(f64, f64, f64)>);
 
 struct State {
     shunt: Vec<Shunt>,
@@ -47,8 +48,11 @@ pub fn run(c: &Compiled, samples: usize, record: &[u16]) -> Recording {
     let mut filters: Vec<Filter> = vec![];
     for l in &c.net.losses {
         let q = crate::compile::loss::quantized(l, 30);
+        // The lattice with the core's coefficients truncated at Q30 (the wide profile's).
+        let ap = l.allpass.and_then(|ap| tidewire_core::quantize::allpass(ap.a, ap.c, 30));
+        let ap = ap.map(|(a, c)| (a as f64 / (1u64 << 30) as f64, c as f64 / (1u64 << 30) as f64, 0.0));
         for side in 0..2 {
-            filters.push((2 * l.line as usize + side, q.clone(), vec![(0.0, 0.0); q.len()]));
+            filters.push((2 * l.line as usize + side, q.clone(), vec![(0.0, 0.0); q.len()], ap));
         }
     }
     let mut el_a = vec![0.0; c.net.elements.len()];
@@ -93,12 +97,18 @@ pub fn run(c: &Compiled, samples: usize, record: &[u16]) -> Recording {
             b[p] = rings[p][pos[p]];
         }
         // y = g·x − gb·x[n−1] + a·y[n−1] per section, on the wave arriving at the end.
-        for (port, q, st) in filters.iter_mut() {
+        // Then the fractional delay: y = a·x + c·s, s' = c·x − a·s.
+        for (port, q, st, ap) in filters.iter_mut() {
             let mut x = b[*port];
             for ((a, g, gb), (x1, y1)) in q.iter().zip(st.iter_mut()) {
                 let y = g * x - gb * *x1 + a * *y1;
                 *x1 = x;
                 *y1 = y;
+                x = y;
+            }
+            if let Some((a, c, s)) = ap {
+                let y = *a * x + *c * *s;
+                *s = *c * x - *a * *s;
                 x = y;
             }
             b[*port] = x;

@@ -58,7 +58,12 @@ impl Figures {
     /// The README table: one line per part, profile and form, instructions per sample at each
     /// plant size and per port-update at the largest plant that part runs.
     pub fn readme_table(&self) -> String {
-        let mut sizes: Vec<usize> = self.rows.iter().map(|r| r.ports).collect();
+        // The plants with fractional delays (`p<ports>f_…`) are reported beside their plain
+        // plants in docs/firmware.md, not in this table (one row per size).
+        let plain =
+            Figures { rows: self.rows.iter().filter(|r| !r.plant.contains("f_")).cloned().collect(), ..self.clone() };
+        let rows = &plain.rows;
+        let mut sizes: Vec<usize> = rows.iter().map(|r| r.ports).collect();
         sizes.sort_unstable();
         sizes.dedup();
         let mut out = String::from("| part | profile | form |");
@@ -69,7 +74,7 @@ impl Figures {
         out += &"---:|".repeat(sizes.len() + 1);
         out += "\n";
         let mut keys: Vec<(&str, &str, &str, &str)> = Vec::new();
-        for r in &self.rows {
+        for r in rows {
             let k = (r.part.as_str(), r.machine.as_str(), r.profile.as_str(), r.form.as_str());
             if !keys.contains(&k) {
                 keys.push(k);
@@ -77,7 +82,7 @@ impl Figures {
         }
         for (part, machine, profile, form) in keys {
             let rows: Vec<&FigureRow> =
-                self.rows.iter().filter(|r| r.part == part && r.profile == profile && r.form == form).collect();
+                rows.iter().filter(|r| r.part == part && r.profile == profile && r.form == form).collect();
             out += &format!("| {part} (`{machine}`) | {profile} | {form} |");
             for s in &sizes {
                 match rows.iter().find(|r| r.ports == *s) {

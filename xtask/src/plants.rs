@@ -4,8 +4,8 @@
 //! here, or (later) one from the host compiler through [`TestPlant::from_network`].
 
 use tidewire_core::{
-    Drive, Element, ElementKind, Junction, Line, LineLoss, Network, Probe, ProbeKind, Shunt, Side, MAX_LOSS_SECTIONS,
-    MAX_PROBES,
+    Allpass, Drive, Element, ElementKind, Junction, Line, LineLoss, Network, Probe, ProbeKind, Shunt, Side,
+    MAX_LOSS_SECTIONS, MAX_PROBES,
 };
 
 /// A network with owned tables.
@@ -159,7 +159,37 @@ fn loss(line: u16) -> LineLoss {
     zeros[0] = q30(0.55) as i32;
     poles[1] = q30(0.90) as u32;
     zeros[1] = q30(0.88) as i32;
-    LineLoss { line, sections: 2, poles, zeros }
+    LineLoss { line, sections: 2, poles, zeros, allpass: None }
+}
+
+/// The same plant with a fractional delay on every line (the first-order allpass lattice of
+/// `LineLoss::allpass` on both ends, after the loss sections where a line has them), so
+/// the firmware's no-panic link check and instruction counts cover it: the difference to
+/// the plant without fractions is the cost of its fractional line ends. Fractions d from
+/// 0.55 to 1.45 (a = (1 − d)/(1 + d), c = sqrt(1 − a²), Q30, truncated toward zero).
+pub fn with_fractions(mut p: TestPlant) -> TestPlant {
+    for line in 0..p.lines.len() as u16 {
+        let d = 0.55 + 0.9 * (line as f64 * 0.37).fract();
+        let a = (1.0 - d) / (1.0 + d);
+        let q30 = (1u64 << 30) as f64;
+        let mut c = ((1.0 - a * a).sqrt() * q30).floor() as u32;
+        let a = (a * q30).trunc() as i32;
+        while i128::from(a).pow(2) + i128::from(c).pow(2) > 1i128 << 60 {
+            c -= 1;
+        }
+        let ap = Some(Allpass { a, c });
+        match p.losses.iter_mut().find(|l| l.line == line) {
+            Some(l) => l.allpass = ap,
+            None => p.losses.push(LineLoss {
+                line,
+                sections: 0,
+                poles: [0; MAX_LOSS_SECTIONS],
+                zeros: [0; MAX_LOSS_SECTIONS],
+                allpass: ap,
+            }),
+        }
+    }
+    p
 }
 
 /// The profiles a plant is generated for, with the `io_shift` each one uses.
@@ -170,12 +200,18 @@ pub fn test_plants(profile: &str, io_shift: u8) -> Vec<TestPlant> {
     // A host-compiled plant goes here as well, e.g.
     // `TestPlant::from_network(&format!("c_{profile}"), &compiled.network())`.
     // 2, 9 and 34 ports on both parts, 86 ports on the M4 only (see `gen::fits_m0`).
-    [0usize, 1, 5, 13]
+    // Then the 9-port plant with a fraction on every line (`p9f_<profile>`, 8 fractional
+    // line ends).
+    let mut plants: Vec<TestPlant> = [0usize, 1, 5, 13]
         .iter()
         .map(|&taps| {
             let mut p = bus("", taps, io_shift);
             p.name = format!("p{}_{profile}", p.ports());
             p
         })
-        .collect()
+        .collect();
+    let mut f = with_fractions(bus("", 1, io_shift));
+    f.name = format!("p{}f_{profile}", f.ports());
+    plants.push(f);
+    plants
 }

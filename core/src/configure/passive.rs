@@ -19,6 +19,15 @@
 //! * **element adaptor**: 0 <= μ <= 1.
 //! * **loss section**: 0 < a < 1, g > 0, −g <= gb, gb/g < a (effective zero below the pole)
 //!   and g − gb <= 1 − a (DC gain <= 1): then |H(e^jω)| falls monotonically from H(1) <= 1.
+//! * **fractional-delay allpass** (normalised lattice y = a·x + c·s, s' = c·x − a·s):
+//!   a_q² + c_q² <= 2^(2F) with F = `LOSS_FRAC`, c_q > 0, and |a_q| <= 2^(F−1). The first
+//!   makes the matrix M = [[a, c], [c, −a]] (symmetric, M² = (a² + c²)·I) of norm
+//!   sqrt(a² + c²) <= 1, so the exact outputs satisfy y² + s'² <= x² + s²; each output is
+//!   then truncated toward zero and saturated, which only lowers its magnitude, so
+//!   y_q² + s'_q² <= x² + s²: outgoing plus stored energy never exceeds incoming plus
+//!   stored. With x = 0, |s'_q| = |trunc(a·s)| < |s| for s ≠ 0 (|a| < 1): the state alone
+//!   decays to zero. The bound on |a| keeps the pole −a well inside the unit circle (the
+//!   compiler uses |a| <= 1/3, fractions d in [0.5, 1.5)).
 
 use crate::network::MAX_LOSS_SECTIONS;
 use crate::profile::{hold_threshold, reciprocal, Profile};
@@ -64,7 +73,8 @@ pub(crate) fn loss_ok<P: Profile>(l: &LossRt<P::Wave>) -> bool {
     let one = 1i64 << P::LOSS_FRAC;
     let n = (l.sections as usize).min(MAX_LOSS_SECTIONS);
     l.sections as usize == n
-        && n >= 1
+        && (n >= 1 || l.ap)
+        && (!l.ap || allpass_ok::<P>(l.ap_a, l.ap_c))
         && l.g.iter().zip(l.gb.iter()).zip(l.a.iter()).take(n).all(|((g, gb), a)| {
             let (g, gb, a) = (i64::from(*g), i64::from(*gb), i64::from(*a));
             // Every operand is a u32 or i32, so each product is < 2^62 and each difference
@@ -77,4 +87,14 @@ pub(crate) fn loss_ok<P: Profile>(l: &LossRt<P::Wave>) -> bool {
                 && gb.saturating_mul(one) < a.saturating_mul(g)
                 && g.saturating_sub(gb) <= one.saturating_sub(a)
         })
+}
+
+/// A fractional-delay allpass's integer lattice coefficients (see the module docs).
+pub(crate) fn allpass_ok<P: Profile>(a: i32, c: u32) -> bool {
+    let (a, c) = (i128::from(a), i128::from(c));
+    let one = 1i128 << P::LOSS_FRAC;
+    // |a|, c < 2^32: squares < 2^64, exact in i128 (saturating only for the lint).
+    c > 0
+        && a.saturating_mul(2).abs() <= one
+        && a.saturating_mul(a).saturating_add(c.saturating_mul(c)) <= one.saturating_mul(one)
 }

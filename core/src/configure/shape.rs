@@ -164,7 +164,8 @@ fn losses(net: &Network<'_>) -> Result<(), BuildError> {
     for (k, ll) in net.losses.iter().enumerate() {
         let n = ll.sections as usize;
         let dup = net.losses.iter().take(k).any(|o| o.line == ll.line);
-        if ll.line as usize >= net.lines.len() || n == 0 || n > MAX_LOSS_SECTIONS || dup {
+        let empty = n == 0 && ll.allpass.is_none();
+        if ll.line as usize >= net.lines.len() || empty || n > MAX_LOSS_SECTIONS || dup {
             return Err(BuildError::BadLoss { loss: k as u16 });
         }
     }

@@ -173,6 +173,8 @@ pub struct Twin {
     pos: Vec<usize>,
     a: Vec<f64>,
     b: Vec<f64>,
+    /// Fractional-delay lattice per line end, if any: (a, c, state s).
+    ap: Vec<Option<(f64, f64, f64)>>,
 }
 
 /// The core's integer coefficients: line weights g, exponent c of the weight unit
@@ -183,6 +185,8 @@ pub struct Quantized {
     pub exponent: u32,
     pub series_frac: u32,
     pub total_max: u64,
+    /// Fraction bits of the allpass coefficients (`Profile::LOSS_FRAC`, shared with the loss sections).
+    pub allpass_frac: u32,
 }
 
 impl Quantized {
@@ -204,12 +208,29 @@ impl Twin {
             pos: vec![0; 2 * n],
             a: vec![0.0; 2 * n],
             b: vec![0.0; 2 * n],
+            ap: Self::allpasses(net, 30),
         }
+    }
+
+    /// The lattice coefficients of every line end's allpass, truncated at `frac` bits.
+    fn allpasses(net: &Owned, frac: u32) -> Vec<Option<(f64, f64, f64)>> {
+        let mut ap = vec![None; 2 * net.lines.len()];
+        for l in &net.losses {
+            if let Some(x) = l.allpass {
+                let (a, c) = tidewire_core::quantize::allpass(x.a, x.c, frac).unwrap();
+                let one = (1u64 << frac) as f64;
+                for side in 0..2 {
+                    ap[2 * l.line as usize + side] = Some((a as f64 / one, c as f64 / one, 0.0));
+                }
+            }
+        }
+        ap
     }
 
     /// The same network with the core's quantized coefficients (f64 arithmetic).
     pub fn quantized(net: &Owned, q: Quantized) -> Twin {
         let mut t = Twin::new(net);
+        t.ap = Self::allpasses(net, q.allpass_frac);
         t.coef = Some(q);
         t
     }
@@ -236,6 +257,12 @@ impl Twin {
     pub fn step(&mut self, e: f64) -> Vec<f64> {
         for p in 0..self.b.len() {
             self.b[p] = self.rings[p][self.pos[p]];
+            // Fractional delay on the arriving wave: y = a·x + c·s, s' = c·x − a·s.
+            if let Some((a, c, st)) = &mut self.ap[p] {
+                let x = self.b[p];
+                self.b[p] = *a * x + *c * *st;
+                *st = *c * x - *a * *st;
+            }
         }
         for (j, junc) in self.net.junctions.iter().enumerate() {
             let ports: Vec<usize> = (0..self.b.len())
@@ -337,9 +364,12 @@ impl Twin {
         out
     }
 
-    /// Stored energy Σ g·w² over all ring contents (g = 1/Z).
+    /// Stored energy Σ g·w² over all ring contents and allpass states (g = 1/Z).
     pub fn energy(&self) -> f64 {
-        self.rings.iter().enumerate().map(|(p, r)| r.iter().map(|w| w * w).sum::<f64>() / self.z(p)).sum()
+        let rings: f64 =
+            self.rings.iter().enumerate().map(|(p, r)| r.iter().map(|w| w * w).sum::<f64>() / self.z(p)).sum();
+        let states: f64 = self.ap.iter().enumerate().filter_map(|(p, x)| x.map(|(_, _, s)| s * s / self.z(p))).sum();
+        rings + states
     }
 }
 
@@ -357,7 +387,7 @@ pub fn with_losses(net: Owned) -> impl Strategy<Value = Owned> {
             if out.losses.iter().any(|l| l.line == line) {
                 continue;
             }
-            let mut l = LineLoss { line, sections: sections.len() as u8, poles: [0; 6], zeros: [0; 6] };
+            let mut l = LineLoss { line, sections: sections.len() as u8, poles: [0; 6], zeros: [0; 6], allpass: None };
             for (k, (a, t)) in sections.iter().enumerate() {
                 // zero anywhere in (−0.9, a): the section only attenuates
                 let b = a - (a + 0.9) * t.clamp(0.01, 0.99);
@@ -382,4 +412,35 @@ pub fn filter_decay(net: &Owned) -> usize {
             ((32.0 * std::f64::consts::LN_2 + 1.0) / (1.0 - a)).ceil() as usize
         })
         .sum()
+}
+
+/// The Q30 lattice coefficients of a first-order Thiran allpass of fraction `d`
+/// (a = (1 − d)/(1 + d), c = sqrt(1 − a²), Laakso et al. 1996), truncated toward zero with
+/// a² + c² <= 2^60 made sure in integers.
+pub fn allpass_for(d: f64) -> tidewire_core::Allpass {
+    let a = (1.0 - d) / (1.0 + d);
+    let a30 = (a * (1u64 << 30) as f64).trunc() as i32;
+    let mut c30 = ((1.0 - a * a).sqrt() * (1u64 << 30) as f64).floor() as u32;
+    while (a30 as i128).pow(2) + (c30 as i128).pow(2) > 1i128 << 60 {
+        c30 -= 1;
+    }
+    tidewire_core::Allpass { a: a30, c: c30 }
+}
+
+/// Random fractional delays (d in [0.5, 1.5)) on some of the lines of `net`, added to a
+/// line's loss filter or as a filter of its own.
+pub fn with_fractions(net: Owned) -> impl Strategy<Value = Owned> {
+    let n = net.lines.len();
+    proptest::collection::vec((any::<prop::sample::Index>(), 0.5f64..1.5), 0..=n.min(6)).prop_map(move |specs| {
+        let mut out = net.clone();
+        for (i, d) in specs {
+            let line = i.index(n) as u16;
+            let ap = Some(allpass_for(d));
+            match out.losses.iter_mut().find(|l| l.line == line) {
+                Some(l) => l.allpass = ap,
+                None => out.losses.push(LineLoss { line, sections: 0, poles: [0; 6], zeros: [0; 6], allpass: ap }),
+            }
+        }
+        out
+    })
 }

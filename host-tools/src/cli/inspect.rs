@@ -45,10 +45,14 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
     );
     let _ = writeln!(
         s,
-        "   {:<18} {:<20} {:>9} {:>7} {:>11} {:>6} {:>22} {:>10} {:>4}  {:<22} {:>8}",
+        "   {:<18} {:<20} {:>9} {:>7} {:>11} {:>11} {:>22} {:>10} {:>4}  {:<22} {:>8}",
         "segment", "cable", "length", "Z0", "tau", "delay", "timing error", "R loop", "sec", "model", "error"
     );
     for t in &r.segments {
+        let delay = match &t.fraction {
+            Some(f) => format!("{}+{:.3}", t.delay, f.realised),
+            None => t.delay.to_string(),
+        };
         let lumped = t.model != crate::compile::SegmentModel::DelayLine;
         let timing = if lumped {
             format!("{:>22}", "(no line)")
@@ -57,17 +61,17 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
         };
         let _ = writeln!(
             s,
-            "   {:<18} {:<20} {:>7.2} m {:>7.1} {:>11} {:>6} {} {:>8.3} Ω {:>4}  {:<22} {:>6.2} %{}{}",
+            "   {:<18} {:<20} {:>7.2} m {:>7.1} {:>11} {:>11} {} {:>8.3} Ω {:>4}  {:<22} {:>6.2} %{}{}",
             t.name,
             t.cable,
             t.length,
             t.z0,
             eng(t.tau, "s"),
-            t.delay,
+            delay,
             timing,
             t.r_total,
             t.sections,
-            t.model.name(),
+            t.model_name(),
             100.0 * t.model_error,
             if t.exceeds { " !!" } else { "" },
             if t.r_dropped && !lumped { "  (R dropped: one-sample segment)" } else { "" }
@@ -113,6 +117,28 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
                 s,
                 "   no drive edge up to 10^7 samples keeps every model error above within {:.2} %",
                 100.0 * plant.tolerances.max_error
+            );
+        }
+    }
+    if r.segments.iter().any(|t| t.fraction.is_some()) {
+        let _ = writeln!(
+            s,
+            "\n-- fractional delays (model: delay line + fraction; first-order allpass on the arriving waves)"
+        );
+        for t in &r.segments {
+            let Some(f) = &t.fraction else {
+                let _ = writeln!(s, "   {:<18} {} (whole samples)", t.name, t.model_name());
+                continue;
+            };
+            let _ = writeln!(
+                s,
+                "   {:<18} fraction {:.4} sample(s): timing error {} at low frequency, {} at {} (drive bandwidth), magnitude error {:.1e}",
+                t.name,
+                f.wanted,
+                eng(t.error_s, "s"),
+                eng(t.edge_error_s(c.dt), "s"),
+                eng(f.edge_hz, "Hz"),
+                f.magnitude_error
             );
         }
     }

@@ -203,7 +203,13 @@ pub fn design(cable: &CableType, length: f64, fs: f64, line: u16, frac: u32) -> 
         .min_by(|a, b| cost(a).total_cmp(&cost(b)))
         .unwrap_or_default();
     let sh = shelves(&x, fs);
-    let mut loss = LineLoss { line, sections: n as u8, poles: [0; MAX_LOSS_SECTIONS], zeros: [0; MAX_LOSS_SECTIONS] };
+    let mut loss = LineLoss {
+        line,
+        sections: n as u8,
+        poles: [0; MAX_LOSS_SECTIONS],
+        zeros: [0; MAX_LOSS_SECTIONS],
+        allpass: None,
+    };
     for (k, (a, b)) in sh.iter().enumerate() {
         let q = (1u64 << 30) as f64;
         let step = 1i64 << (30 - frac);
@@ -244,6 +250,7 @@ mod tests {
             sections: 2,
             poles: [900_000_000, 1_000_000_000, 0, 0, 0, 0],
             zeros: [-500_000_000, 999_000_000, 0, 0, 0, 0],
+            allpass: None,
         };
         for frac in [14, 30] {
             let q = quantized(&loss, frac);

@@ -19,6 +19,7 @@
 //! This is a pure stage: it imports neither the twin nor the host core runner, and runs
 //! nothing. Every figure that needs a run is the analysis stage's.
 mod core_check;
+pub mod fraction;
 mod loads;
 pub mod loss;
 pub mod lumped;
@@ -28,7 +29,7 @@ mod segments;
 
 pub use lumped::{LumpKind, LUMP_BELOW_SAMPLES};
 pub use report::{ReactiveError, Reflection, Report, SegmentModel, SegmentTiming};
-pub use segments::{LinePiece, SECTION_R_OVER_Z0};
+pub use segments::{LinePiece, MIN_FRACTIONAL_DELAY, SECTION_R_OVER_Z0};
 
 use crate::plant::{Drive as PlantDrive, End, EventAction, Load, Plant, PlantError, ProbeKind as PlantProbe, Span};
 use tidewire_core::{
@@ -174,7 +175,7 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
         ProfileKind::Wide => <tidewire_core::Wide as tidewire_core::Profile>::LOSS_FRAC,
         ProfileKind::Narrow => <tidewire_core::Narrow as tidewire_core::Profile>::LOSS_FRAC,
     };
-    let mut b = segments::Builder::new(plant, file, dt, frac);
+    let mut b = segments::Builder::new(plant, file, dt, frac, fraction::drive_bandwidth(plant, dt));
 
     // Every node's own load first, so its errors (a capacitor out of the core's range) come
     // before anything lumping says about the segments.

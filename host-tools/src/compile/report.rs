@@ -13,10 +13,14 @@ pub struct SegmentTiming {
     pub z0: f64,
     /// Exact one-way delay, s.
     pub tau: f64,
-    /// Quantized delay, samples.
+    /// Whole samples of the delay (in the line rings, without the samples added for
+    /// dispersion).
     pub delay: u32,
-    /// delay·T − tau, s.
+    /// The realised one-way delay at low frequency minus the wanted one (tau plus the lossy
+    /// cable's in-band extra delay), s.
     pub error_s: f64,
+    /// The fractional part, when the segment has one (model "delay line + fraction").
+    pub fraction: Option<super::fraction::FractionTiming>,
     /// Loop resistance, ohm.
     pub r_total: f64,
     /// Lumped sections.
@@ -84,6 +88,34 @@ pub struct ReactiveError {
     /// Largest error against the exact first-order response, fraction of the node's step.
     pub error: f64,
     pub exceeds: bool,
+}
+
+impl SegmentTiming {
+    /// The model's name in reports: [`SegmentModel::name`], or "delay line + fraction" for a
+    /// delay line with a fractional section.
+    pub fn model_name(&self) -> &'static str {
+        match (&self.fraction, self.model) {
+            (Some(_), SegmentModel::DelayLine) => "delay line + fraction",
+            (_, m) => m.name(),
+        }
+    }
+
+    /// The model's key in JSON documents: [`SegmentModel::key`], or `delay_line_fraction`.
+    pub fn model_key(&self) -> &'static str {
+        match (&self.fraction, self.model) {
+            (Some(_), SegmentModel::DelayLine) => "delay_line_fraction",
+            (_, m) => m.key(),
+        }
+    }
+
+    /// Group-delay error at the drive's bandwidth (`fraction.edge_hz`), s: the realised
+    /// delay there minus the wanted one (equal to `error_s` without a fraction).
+    pub fn edge_error_s(&self, dt: f64) -> f64 {
+        match &self.fraction {
+            Some(f) => self.error_s + (f.at_edge - f.realised) * dt,
+            None => self.error_s,
+        }
+    }
 }
 
 /// Reflection coefficient seen by a wave arriving at a node on one segment.

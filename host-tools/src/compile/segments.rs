@@ -1,7 +1,7 @@
 //! Segments to core lines: delay quantization, lumped conductor resistance, break nodes.
 use super::{err, report::SegmentTiming, to_milliohm};
 use crate::plant::{Plant, PlantError, Segment};
-use tidewire_core::{Junction, JunctionId, Line, LineLoss, Shunt};
+use tidewire_core::{Junction, JunctionId, Line, LineLoss, Shunt, MAX_LOSS_SECTIONS};
 
 /// Largest R/Z0 of one lumped section. Each section puts its resistance R/n in its middle;
 /// a finer cut makes the lumped line approach the distributed one. The value 0.05 keeps one
@@ -11,6 +11,11 @@ use tidewire_core::{Junction, JunctionId, Line, LineLoss, Shunt};
 pub const SECTION_R_OVER_Z0: f64 = 0.05;
 /// At most this many sections per segment (storage stays bounded).
 pub const MAX_SECTIONS: usize = 64;
+/// Smallest one-way delay, in samples, that a line realises with a fraction: its ring of
+/// N >= 1 whole samples plus a fractional-delay allpass of d in [0.5, 1.5)
+/// (`super::fraction`). A segment whose longest line would be shorter keeps a whole-sample
+/// delay (rounded; the timing report says so).
+pub const MIN_FRACTIONAL_DELAY: f64 = 1.0 + super::fraction::MIN_FRACTION;
 
 /// One core line of a segment: where it lies along the segment, in metres from `from`.
 #[derive(Debug, Clone, Copy, PartialEq)]
@@ -24,7 +29,10 @@ pub(super) struct Builder<'p> {
     plant: &'p Plant,
     file: &'p str,
     dt: f64,
+    /// Fraction bits of the profile's loss and allpass coefficients (`Profile::LOSS_FRAC`).
     frac: u32,
+    /// The drive's bandwidth, Hz (where the fraction's group-delay error is reported).
+    edge_hz: f64,
     pub lines: Vec<Line>,
     pub losses: Vec<LineLoss>,
     pub junctions: Vec<Junction>,
@@ -39,12 +47,13 @@ pub(super) struct Builder<'p> {
 }
 
 impl<'p> Builder<'p> {
-    pub fn new(plant: &'p Plant, file: &'p str, dt: f64, frac: u32) -> Self {
+    pub fn new(plant: &'p Plant, file: &'p str, dt: f64, frac: u32, edge_hz: f64) -> Self {
         Builder {
             plant,
             file,
             dt,
             frac,
+            edge_hz,
             lines: vec![],
             losses: vec![],
             junctions: vec![],
@@ -106,6 +115,7 @@ impl<'p> Builder<'p> {
             tau,
             delay,
             error_s: delay as f64 * self.dt - tau,
+            fraction: None,
             r_total,
             sections: 0,
             r_dropped: false,
@@ -179,6 +189,9 @@ impl<'p> Builder<'p> {
             t.sections = sections_total;
             t.r_dropped = dropped;
         }
+        if rig_latency.is_none() {
+            self.add_fraction(&pieces, exact);
+        }
         self.pieces.push(pieces);
         Ok(cut_d.iter().enumerate().filter_map(|(k, (e, _))| e.map(|e| (e, ends[k + 1]))).collect())
     }
@@ -206,8 +219,52 @@ impl<'p> Builder<'p> {
             model: super::SegmentModel::Lumped(super::LumpKind::Joined),
             model_error: 0.0,
             exceeds: false,
+            fraction: None,
         });
         self.pieces.push(vec![]);
+    }
+
+    /// Give the segment just laid out (`pieces`, wanted delay `exact` samples plus the lossy
+    /// cable's extra delay) its fractional part: the residual r = wanted − whole samples goes
+    /// to the segment's longest line, whose ring becomes N = floor(D − 0.5) for its share
+    /// D = delay + r, with an allpass of d = D − N in [0.5, 1.5). Lines with D below
+    /// [`MIN_FRACTIONAL_DELAY`] and residuals within `WHOLE_TOLERANCE` stay whole. Segments
+    /// at a rig port stay whole (the rig's latency is taken out of that line's ring).
+    fn add_fraction(&mut self, pieces: &[LinePiece], exact: f64) {
+        use super::fraction::{design, timing, WHOLE_TOLERANCE};
+        let Some(t) = self.timings.last_mut() else { return };
+        let wanted = exact + t.dispersion_s / self.dt;
+        // u64: a huge segment's delays saturate at u32::MAX each (the capacity check refuses
+        // such a plant later, with a located error).
+        let whole: u64 = pieces.iter().map(|p| u64::from(self.lines[p.line as usize].delay)).sum();
+        let r = wanted - whole as f64;
+        let longest = pieces.iter().map(|p| p.line as usize).max_by_key(|l| (self.lines[*l].delay, usize::MAX - *l));
+        let Some(li) = longest else { return };
+        let share = self.lines[li].delay as f64 + r;
+        // The realised delay without a fraction (the old error, kept when nothing changes).
+        t.error_s = (whole as f64 - wanted) * self.dt;
+        if r.abs() <= WHOLE_TOLERANCE || !(MIN_FRACTIONAL_DELAY..u32::MAX as f64).contains(&share) {
+            return;
+        }
+        let ring = (share - 0.5).floor().max(1.0) as u32;
+        let d = share - ring as f64;
+        let ft = timing(d, self.frac, self.edge_hz, self.dt);
+        let whole_new = whole.saturating_sub(u64::from(self.lines[li].delay)) + u64::from(ring);
+        self.lines[li].delay = ring;
+        t.error_s = (whole_new as f64 + ft.realised - wanted) * self.dt;
+        t.delay = u32::try_from(whole_new.saturating_sub(u64::from(t.dispersion_samples))).unwrap_or(u32::MAX);
+        t.fraction = Some(ft);
+        let ap = Some(design(d));
+        match self.losses.iter_mut().find(|l| l.line as usize == li) {
+            Some(l) => l.allpass = ap,
+            None => self.losses.push(LineLoss {
+                line: li as u16,
+                sections: 0,
+                poles: [0; MAX_LOSS_SECTIONS],
+                zeros: [0; MAX_LOSS_SECTIONS],
+                allpass: ap,
+            }),
+        }
     }
 
     fn plant_rig_node(&self) -> Option<usize> {
