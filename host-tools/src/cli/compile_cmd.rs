@@ -1,7 +1,7 @@
 //! `tidewire compile`, and the shared writers of the commands.
 use super::{io_failure, load_and_prepare, Failure};
 use crate::compile::{Compiled, ProfileKind};
-use crate::emit::{write_image, write_rust_source};
+use crate::emit::{plant_rust_source, switched_junctions, write_atomic, write_image, EmitError};
 use std::path::Path;
 
 /// Write the image and/or Rust source of `c`.
@@ -16,10 +16,23 @@ pub(crate) fn write_outputs(
         println!("wrote image       {} ({} profile)", p.display(), c.profile.name());
     }
     if let Some(p) = rust {
-        write_rust_source(p, &c.network(), title).map_err(|e| io_failure(p, e))?;
-        println!("wrote Rust source {}", p.display());
+        let text = plant_source(c, title, p)?;
+        write_atomic(p, text.as_bytes()).map_err(|e| io_failure(p, e))?;
+        println!("wrote Rust source {} (NETWORK for the generic Solver, and specialised::Plant)", p.display());
     }
     Ok(())
+}
+
+/// The `--rust` output: the network as `static`s for the generic solver, then the
+/// plant-specialised solver. Nothing is written when the specialised form is refused.
+pub(crate) fn plant_source(c: &Compiled, title: &str, out: &Path) -> Result<String, Failure> {
+    plant_rust_source(&c.network(), c.profile, &switched_junctions(c), title).map_err(|e| {
+        let at = match &e {
+            EmitError::Unsupported { junction: Some(j), .. } => format!(" (core junction {j})"),
+            _ => String::new(),
+        };
+        Failure { code: 2, message: format!("error: {}: --rust: {e}{at}; no file written", out.display()) }
+    })
 }
 
 pub(super) fn run(
