@@ -110,7 +110,12 @@ pub fn run_plant<P: Profile, const PO: usize, const J: usize, const M: usize, co
 ) -> bool {
     // On the stack: the frame is given back before the next plant runs.
     let mut solver: Solver<P, PO, J, M, L> = Solver::new();
-    out.str("RAM").word(profile).word(name).word("generic").hex(core::mem::size_of::<Solver<P, PO, J, M, L>>() as u32).nl();
+    out.str("RAM")
+        .word(profile)
+        .word(name)
+        .word("generic")
+        .hex(core::mem::size_of::<Solver<P, PO, J, M, L>>() as u32)
+        .nl();
     for from_image in [false, true] {
         let source = if from_image { "image" } else { "source" };
         let ok = if from_image { load_image(&mut solver, image) } else { load(&mut solver, net) };

@@ -55,14 +55,7 @@ macro_rules! run {
             { plants::$m::JUNCTIONS },
             { plants::$m::MEMORY },
             { plants::$m::LOSS_ENDS },
-        >(
-            &mut $syst,
-            &mut $out,
-            stringify!($p),
-            $name,
-            &plants::$m::NETWORK,
-            plants::$m::IMAGE,
-        );
+        >(&mut $syst, &mut $out, stringify!($p), $name, &plants::$m::NETWORK, plants::$m::IMAGE);
         $ok &= bench::run_specialised::<plants::$m::specialised::Plant>(&mut $syst, &mut $out, stringify!($p), $name);
     };
 }
