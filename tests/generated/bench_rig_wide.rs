@@ -103,39 +103,39 @@ pub mod specialised {
         fn step(&mut self, input: i16) -> i16 {
             let n = self.n;
             let e: W = P::from_code(input, IO_SHIFT);
-            let b0: W = self.mem[(n.wrapping_add(127) & MASK) as usize];
-            let b1: W = self.mem[(n.wrapping_add(5) & MASK) as usize];
-            let b2: W = self.mem[(n.wrapping_add(13) & MASK) as usize];
-            let b3: W = self.mem[(n.wrapping_add(21) & MASK) as usize];
-            let b4: W = self.mem[(n.wrapping_add(38) & MASK) as usize];
-            let b5: W = self.mem[(n.wrapping_add(55) & MASK) as usize];
-            let b6: W = self.mem[(n.wrapping_add(72) & MASK) as usize];
-            let b7: W = self.mem[(n.wrapping_add(89) & MASK) as usize];
+            let b0: W = self.mem[(n.wrapping_add(0) & MASK) as usize];
             // rig port: the pin was read while the DAC showed the wave of `latency` samples ago
             self.hist[(n as usize) & (HIST - 1)] = b0;
             let rig_back = self.hist[(n.wrapping_sub(2) as usize) & (HIST - 1)];
             // junction 0: rig port, a = v − b[n − latency]
             let a0 = P::sub(e, rig_back);
+            self.mem[(n.wrapping_add(24) & MASK) as usize] = a0;
+            let b1: W = self.mem[(n.wrapping_add(7) & MASK) as usize];
             // junction 1: node of 1 port(s), fixed
             let [a1] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b1], &[586406201u32], &mut o, e, 0u32, 3932160003u32, 30u32, 1172812402u64); o };
+            self.mem[(n.wrapping_add(105) & MASK) as usize] = a1;
+            let b2: W = self.mem[(n.wrapping_add(16) & MASK) as usize];
+            let b3: W = self.mem[(n.wrapping_add(25) & MASK) as usize];
             // junction 2: series resistor, c = 1053260299
             let (a2, a3) = P::series(b2, b3, 1053260299u32);
+            self.mem[(n.wrapping_add(6) & MASK) as usize] = a2;
+            self.mem[(n.wrapping_add(60) & MASK) as usize] = a3;
+            let b4: W = self.mem[(n.wrapping_add(43) & MASK) as usize];
+            let b5: W = self.mem[(n.wrapping_add(61) & MASK) as usize];
             // junction 3: series resistor, c = 1053260299
             let (a4, a5) = P::series(b4, b5, 1053260299u32);
+            self.mem[(n.wrapping_add(42) & MASK) as usize] = a4;
+            self.mem[(n.wrapping_add(96) & MASK) as usize] = a5;
+            let b6: W = self.mem[(n.wrapping_add(79) & MASK) as usize];
+            let b7: W = self.mem[(n.wrapping_add(97) & MASK) as usize];
             // junction 4: series resistor, c = 1053260299
             let (a6, a7) = P::series(b6, b7, 1053260299u32);
+            self.mem[(n.wrapping_add(78) & MASK) as usize] = a6;
+            self.mem[(n.wrapping_add(15) & MASK) as usize] = a7;
             self.probes[0] = P::sum(a0, b0);
             self.probes[1] = P::sum(a1, b1);
             self.probes[2] = P::diff(a0, b0);
             let output = P::to_code(P::sum(b0, b0), IO_SHIFT);
-            self.mem[(n.wrapping_add(5) & MASK) as usize] = a2;
-            self.mem[(n.wrapping_add(13) & MASK) as usize] = a7;
-            self.mem[(n.wrapping_add(21) & MASK) as usize] = a0;
-            self.mem[(n.wrapping_add(38) & MASK) as usize] = a4;
-            self.mem[(n.wrapping_add(55) & MASK) as usize] = a3;
-            self.mem[(n.wrapping_add(72) & MASK) as usize] = a6;
-            self.mem[(n.wrapping_add(89) & MASK) as usize] = a5;
-            self.mem[(n.wrapping_add(97) & MASK) as usize] = a1;
             self.n = n.wrapping_add(1);
             output
         }
@@ -150,7 +150,7 @@ pub mod specialised {
 
         fn rig_drive(&self) -> i16 {
             let n = self.n;
-            let b: W = self.mem[(n.wrapping_add(127) & MASK) as usize];
+            let b: W = self.mem[(n.wrapping_add(0) & MASK) as usize];
             P::to_code(P::sum(b, b), IO_SHIFT)
         }
 

@@ -137,104 +137,104 @@ pub mod specialised {
             let n = self.n;
             let e: W = P::from_code(input, IO_SHIFT);
             let b0: W = self.b[0];
-            let b1: W = self.b[1];
-            let b2: W = self.mem[(n.wrapping_add(14) & MASK) as usize];
-            let b3: W = self.mem[(n.wrapping_add(19) & MASK) as usize];
-            let b4: W = self.b[2];
-            let b5: W = self.mem[(n.wrapping_add(25) & MASK) as usize];
-            let b6: W = self.mem[(n.wrapping_add(38) & MASK) as usize];
-            let b7: W = self.mem[(n.wrapping_add(43) & MASK) as usize];
-            let b8: W = self.b[3];
-            let b9: W = self.mem[(n.wrapping_add(50) & MASK) as usize];
-            let b10: W = self.mem[(n.wrapping_add(53) & MASK) as usize];
-            let b11: W = self.mem[(n.wrapping_add(59) & MASK) as usize];
-            let b12: W = self.b[4];
-            let b13: W = self.mem[(n.wrapping_add(62) & MASK) as usize];
-            let b14: W = self.b[5];
-            let b15: W = self.mem[(n.wrapping_add(68) & MASK) as usize];
-            let b16: W = self.b[6];
-            let b17: W = self.b[7];
-            let b18: W = self.b[8];
-            let b19: W = self.b[9];
-            let b20: W = self.b[10];
-            let b21: W = self.b[11];
-            let b22: W = self.b[12];
-            let b23: W = self.b[13];
-            let b24: W = self.b[14];
-            let b25: W = self.b[15];
-            let b26: W = self.b[16];
-            let b27: W = self.b[17];
-            let b28: W = self.b[18];
             // junction 0: node of 1 port(s), fixed
             let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[2684u32], &mut o, e, 5368u32, 33337u32, 12u32, 8052u64); o };
+            self.mem[(n.wrapping_add(120) & MASK) as usize] = a0;
+            let b1: W = self.b[1];
+            let b2: W = self.mem[(n.wrapping_add(17) & MASK) as usize];
+            let b3: W = self.mem[(n.wrapping_add(23) & MASK) as usize];
+            let b4: W = self.b[2];
+            let b5: W = self.mem[(n.wrapping_add(31) & MASK) as usize];
             // junction 1: node of 5 port(s), fixed
             let [a1, a2, a3, a4, a5] = { let mut o = [P::ZERO; 5]; P::node_scatter(&[b1, b2, b3, b4, b5], &[2684u32, 3579u32, 3579u32, 2684u32, 3579u32], &mut o, e, 0u32, 33335u32, 13u32, 16105u64); o };
+            self.mem[(n.wrapping_add(146) & MASK) as usize] = a1;
+            self.mem[(n.wrapping_add(50) & MASK) as usize] = a2;
+            self.mem[(n.wrapping_add(55) & MASK) as usize] = a3;
+            self.mem[(n.wrapping_add(156) & MASK) as usize] = a4;
+            self.mem[(n.wrapping_add(95) & MASK) as usize] = a5;
+            let b6: W = self.mem[(n.wrapping_add(45) & MASK) as usize];
             // junction 2: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
             let [a6] = if c.scatters() { { let mut o = [P::ZERO; 1]; P::node_scatter(&[b6], &[3579u32], &mut o, e, 0u32, c.recip, c.shift, c.total); o } } else if c.broken { [b6] } else { [P::neg(b6)] };
+            self.mem[(n.wrapping_add(22) & MASK) as usize] = a6;
+            let b7: W = self.mem[(n.wrapping_add(51) & MASK) as usize];
             // junction 3: node of 1 port(s), switched by the plant's events
             let c = self.nodes[1];
             let [a7] = if c.scatters() { { let mut o = [P::ZERO; 1]; P::node_scatter(&[b7], &[3579u32], &mut o, e, 0u32, c.recip, c.shift, c.total); o } } else if c.broken { [b7] } else { [P::neg(b7)] };
+            self.mem[(n.wrapping_add(27) & MASK) as usize] = a7;
+            let b8: W = self.b[3];
+            let b9: W = self.mem[(n.wrapping_add(60) & MASK) as usize];
+            let b10: W = self.mem[(n.wrapping_add(64) & MASK) as usize];
             // junction 4: node of 3 port(s), fixed
             let [a8, a9, a10] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b8, b9, b10], &[2684u32, 3579u32, 3579u32], &mut o, e, 0u32, 34518u32, 13u32, 15553u64); o };
+            self.mem[(n.wrapping_add(167) & MASK) as usize] = a8;
+            self.mem[(n.wrapping_add(74) & MASK) as usize] = a9;
+            self.mem[(n.wrapping_add(81) & MASK) as usize] = a10;
+            let b11: W = self.mem[(n.wrapping_add(71) & MASK) as usize];
+            let b12: W = self.b[4];
             // junction 5: node of 2 port(s), fixed
             let [a11, a12] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b11, b12], &[3579u32, 5368u32], &mut o, e, 0u32, 60005u32, 13u32, 8947u64); o };
+            self.mem[(n.wrapping_add(63) & MASK) as usize] = a11;
+            let a12 = P::adapt(b12, a12, 16384u32, false);
+            self.b[4] = a12;
+            let b13: W = self.mem[(n.wrapping_add(75) & MASK) as usize];
+            let b14: W = self.b[5];
             // junction 6: node of 2 port(s), fixed
             let [a13, a14] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b13, b14], &[3579u32, 2147u32], &mut o, e, 0u32, 46880u32, 12u32, 5726u64); o };
+            self.mem[(n.wrapping_add(70) & MASK) as usize] = a13;
+            let a14 = P::adapt(b14, a14, 655u32, false);
+            self.b[5] = a14;
+            let b15: W = self.mem[(n.wrapping_add(82) & MASK) as usize];
+            let b16: W = self.b[6];
             // junction 7: node of 2 port(s), fixed
             let [a15, a16] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b15, b16], &[3579u32, 11811u32], &mut o, e, 0u32, 34287u32, 13u32, 15658u64); o };
+            self.mem[(n.wrapping_add(44) & MASK) as usize] = a15;
+            let a16 = P::adapt(b16, a16, 16384u32, false);
+            self.b[6] = a16;
+            let b17: W = self.b[7];
+            let b18: W = self.b[8];
             // junction 8: series inductor, c = 1436, rho = 6753
             let (a17, a18, s0) = P::series_l(b17, b18, self.chokes[0], 1436u32, 6753u32);
             self.chokes[0] = s0;
+            self.mem[(n.wrapping_add(127) & MASK) as usize] = a17;
+            self.mem[(n.wrapping_add(137) & MASK) as usize] = a18;
+            let b19: W = self.b[9];
+            let b20: W = self.b[10];
             // junction 9: series resistor, c = 16221
             let (a19, a20) = P::series(b19, b20, 16221u32);
+            self.mem[(n.wrapping_add(7) & MASK) as usize] = a19;
+            self.mem[(n.wrapping_add(102) & MASK) as usize] = a20;
+            let b21: W = self.b[11];
+            let b22: W = self.b[12];
             // junction 10: series resistor, c = 16157
             let (a21, a22) = P::series(b21, b22, 16157u32);
+            self.mem[(n.wrapping_add(112) & MASK) as usize] = a21;
+            self.mem[(n.wrapping_add(16) & MASK) as usize] = a22;
+            let b23: W = self.b[13];
+            let b24: W = self.b[14];
             // junction 11: node of 2 port(s), switched by the plant's events
             let c = self.nodes[2];
             let [a23, a24] = if c.scatters() { { let mut o = [P::ZERO; 2]; P::node_scatter(&[b23, b24], &[2684u32, 2684u32], &mut o, e, 0u32, c.recip, c.shift, c.total); o } } else if c.broken { [b23, b24] } else { [P::neg(b23), P::neg(b24)] };
+            self.mem[(n.wrapping_add(159) & MASK) as usize] = a23;
+            self.mem[(n.wrapping_add(163) & MASK) as usize] = a24;
+            let b25: W = self.b[15];
+            let b26: W = self.b[16];
             // junction 12: series resistor, c = 16331
             let (a25, a26) = P::series(b25, b26, 16331u32);
+            self.mem[(n.wrapping_add(30) & MASK) as usize] = a25;
+            self.mem[(n.wrapping_add(149) & MASK) as usize] = a26;
+            let b27: W = self.b[17];
+            let b28: W = self.b[18];
             // junction 13: series resistor, c = 16305
             let (a27, a28) = P::series(b27, b28, 16305u32);
+            self.mem[(n.wrapping_add(153) & MASK) as usize] = a27;
+            self.mem[(n.wrapping_add(59) & MASK) as usize] = a28;
             self.probes[0] = P::sum(a0, b0);
             self.probes[1] = P::sum(a1, b1);
             self.probes[2] = P::sum(a15, b15);
             self.probes[3] = P::diff(a4, b4);
             let output = P::to_code(P::sum(a0, b0), IO_SHIFT);
-            let a12 = P::adapt(b12, a12, 16384u32, false);
-            let a14 = P::adapt(b14, a14, 655u32, false);
-            let a16 = P::adapt(b16, a16, 16384u32, false);
-            self.mem[(n.wrapping_add(6) & MASK) as usize] = a19;
-            self.mem[(n.wrapping_add(14) & MASK) as usize] = a22;
-            self.mem[(n.wrapping_add(19) & MASK) as usize] = a6;
-            self.mem[(n.wrapping_add(23) & MASK) as usize] = a7;
-            self.mem[(n.wrapping_add(25) & MASK) as usize] = a25;
-            self.mem[(n.wrapping_add(38) & MASK) as usize] = a15;
-            self.mem[(n.wrapping_add(43) & MASK) as usize] = a2;
-            self.mem[(n.wrapping_add(47) & MASK) as usize] = a3;
-            self.mem[(n.wrapping_add(50) & MASK) as usize] = a28;
-            self.mem[(n.wrapping_add(53) & MASK) as usize] = a11;
-            self.mem[(n.wrapping_add(59) & MASK) as usize] = a13;
-            self.mem[(n.wrapping_add(62) & MASK) as usize] = a9;
-            self.b[4] = a12; // element state: its next arriving wave
-            self.mem[(n.wrapping_add(68) & MASK) as usize] = a10;
-            self.b[5] = a14; // element state: its next arriving wave
-            self.mem[(n.wrapping_add(81) & MASK) as usize] = a5;
-            self.b[6] = a16; // element state: its next arriving wave
-            self.mem[(n.wrapping_add(87) & MASK) as usize] = a20;
-            self.mem[(n.wrapping_add(96) & MASK) as usize] = a21;
-            self.mem[(n.wrapping_add(103) & MASK) as usize] = a0;
-            self.mem[(n.wrapping_add(109) & MASK) as usize] = a17;
-            self.mem[(n.wrapping_add(118) & MASK) as usize] = a18;
-            self.mem[(n.wrapping_add(126) & MASK) as usize] = a1;
-            self.mem[(n.wrapping_add(128) & MASK) as usize] = a26;
-            self.mem[(n.wrapping_add(131) & MASK) as usize] = a27;
-            self.mem[(n.wrapping_add(133) & MASK) as usize] = a4;
-            self.mem[(n.wrapping_add(135) & MASK) as usize] = a23;
-            self.mem[(n.wrapping_add(138) & MASK) as usize] = a24;
-            self.mem[(n.wrapping_add(141) & MASK) as usize] = a8;
-            let mut x: W = self.mem[(n.wrapping_add(0) & MASK) as usize];
+            let mut x: W = self.mem[(n.wrapping_add(1) & MASK) as usize];
             let y = P::loss_section(x, self.lx[0], self.ly[0], 13863u32, 13853i32, 16373u32);
             self.lx[0] = x;
             self.ly[0] = y;
@@ -260,7 +260,7 @@ pub mod specialised {
             self.ly[5] = y;
             x = y;
             self.b[0] = x;
-            let mut x: W = self.mem[(n.wrapping_add(97) & MASK) as usize];
+            let mut x: W = self.mem[(n.wrapping_add(114) & MASK) as usize];
             let y = P::loss_section(x, self.lx[6], self.ly[6], 13863u32, 13853i32, 16373u32);
             self.lx[6] = x;
             self.ly[6] = y;
@@ -286,7 +286,7 @@ pub mod specialised {
             self.ly[11] = y;
             x = y;
             self.b[9] = x;
-            let mut x: W = self.mem[(n.wrapping_add(104) & MASK) as usize];
+            let mut x: W = self.mem[(n.wrapping_add(122) & MASK) as usize];
             let y = P::loss_section(x, self.lx[12], self.ly[12], 13863u32, 13853i32, 16373u32);
             self.lx[12] = x;
             self.ly[12] = y;
@@ -312,7 +312,7 @@ pub mod specialised {
             self.ly[17] = y;
             x = y;
             self.b[10] = x;
-            let mut x: W = self.mem[(n.wrapping_add(82) & MASK) as usize];
+            let mut x: W = self.mem[(n.wrapping_add(97) & MASK) as usize];
             let y = P::loss_section(x, self.lx[18], self.ly[18], 13863u32, 13853i32, 16373u32);
             self.lx[18] = x;
             self.ly[18] = y;
@@ -338,7 +338,7 @@ pub mod specialised {
             self.ly[23] = y;
             x = y;
             self.b[7] = x;
-            let mut x: W = self.mem[(n.wrapping_add(88) & MASK) as usize];
+            let mut x: W = self.mem[(n.wrapping_add(104) & MASK) as usize];
             let y = P::loss_section(x, self.lx[24], self.ly[24], 13863u32, 13853i32, 16373u32);
             self.lx[24] = x;
             self.ly[24] = y;
@@ -364,7 +364,7 @@ pub mod specialised {
             self.ly[29] = y;
             x = y;
             self.b[8] = x;
-            let mut x: W = self.mem[(n.wrapping_add(110) & MASK) as usize];
+            let mut x: W = self.mem[(n.wrapping_add(129) & MASK) as usize];
             let y = P::loss_section(x, self.lx[30], self.ly[30], 13863u32, 13853i32, 16373u32);
             self.lx[30] = x;
             self.ly[30] = y;
@@ -390,7 +390,7 @@ pub mod specialised {
             self.ly[35] = y;
             x = y;
             self.b[11] = x;
-            let mut x: W = self.mem[(n.wrapping_add(119) & MASK) as usize];
+            let mut x: W = self.mem[(n.wrapping_add(139) & MASK) as usize];
             let y = P::loss_section(x, self.lx[36], self.ly[36], 13863u32, 13853i32, 16373u32);
             self.lx[36] = x;
             self.ly[36] = y;
@@ -416,7 +416,7 @@ pub mod specialised {
             self.ly[41] = y;
             x = y;
             self.b[12] = x;
-            let mut x: W = self.mem[(n.wrapping_add(7) & MASK) as usize];
+            let mut x: W = self.mem[(n.wrapping_add(9) & MASK) as usize];
             let y = P::loss_section(x, self.lx[42], self.ly[42], 13863u32, 13853i32, 16373u32);
             self.lx[42] = x;
             self.ly[42] = y;
@@ -442,7 +442,7 @@ pub mod specialised {
             self.ly[47] = y;
             x = y;
             self.b[1] = x;
-            let mut x: W = self.mem[(n.wrapping_add(24) & MASK) as usize];
+            let mut x: W = self.mem[(n.wrapping_add(29) & MASK) as usize];
             let y = P::loss_section(x, self.lx[48], self.ly[48], 13863u32, 13853i32, 16373u32);
             self.lx[48] = x;
             self.ly[48] = y;
@@ -468,7 +468,7 @@ pub mod specialised {
             self.ly[53] = y;
             x = y;
             self.b[2] = x;
-            let mut x: W = self.mem[(n.wrapping_add(132) & MASK) as usize];
+            let mut x: W = self.mem[(n.wrapping_add(155) & MASK) as usize];
             let y = P::loss_section(x, self.lx[54], self.ly[54], 13863u32, 13853i32, 16373u32);
             self.lx[54] = x;
             self.ly[54] = y;
@@ -494,7 +494,7 @@ pub mod specialised {
             self.ly[59] = y;
             x = y;
             self.b[15] = x;
-            let mut x: W = self.mem[(n.wrapping_add(134) & MASK) as usize];
+            let mut x: W = self.mem[(n.wrapping_add(158) & MASK) as usize];
             let y = P::loss_section(x, self.lx[60], self.ly[60], 13863u32, 13853i32, 16373u32);
             self.lx[60] = x;
             self.ly[60] = y;
@@ -520,7 +520,7 @@ pub mod specialised {
             self.ly[65] = y;
             x = y;
             self.b[16] = x;
-            let mut x: W = self.mem[(n.wrapping_add(127) & MASK) as usize];
+            let mut x: W = self.mem[(n.wrapping_add(148) & MASK) as usize];
             let y = P::loss_section(x, self.lx[66], self.ly[66], 13863u32, 13853i32, 16373u32);
             self.lx[66] = x;
             self.ly[66] = y;
@@ -546,7 +546,7 @@ pub mod specialised {
             self.ly[71] = y;
             x = y;
             self.b[13] = x;
-            let mut x: W = self.mem[(n.wrapping_add(129) & MASK) as usize];
+            let mut x: W = self.mem[(n.wrapping_add(151) & MASK) as usize];
             let y = P::loss_section(x, self.lx[72], self.ly[72], 13863u32, 13853i32, 16373u32);
             self.lx[72] = x;
             self.ly[72] = y;
@@ -572,7 +572,7 @@ pub mod specialised {
             self.ly[77] = y;
             x = y;
             self.b[14] = x;
-            let mut x: W = self.mem[(n.wrapping_add(136) & MASK) as usize];
+            let mut x: W = self.mem[(n.wrapping_add(161) & MASK) as usize];
             let y = P::loss_section(x, self.lx[78], self.ly[78], 13863u32, 13853i32, 16373u32);
             self.lx[78] = x;
             self.ly[78] = y;
@@ -598,7 +598,7 @@ pub mod specialised {
             self.ly[83] = y;
             x = y;
             self.b[17] = x;
-            let mut x: W = self.mem[(n.wrapping_add(139) & MASK) as usize];
+            let mut x: W = self.mem[(n.wrapping_add(165) & MASK) as usize];
             let y = P::loss_section(x, self.lx[84], self.ly[84], 13863u32, 13853i32, 16373u32);
             self.lx[84] = x;
             self.ly[84] = y;
@@ -624,7 +624,7 @@ pub mod specialised {
             self.ly[89] = y;
             x = y;
             self.b[18] = x;
-            let mut x: W = self.mem[(n.wrapping_add(48) & MASK) as usize];
+            let mut x: W = self.mem[(n.wrapping_add(57) & MASK) as usize];
             let y = P::loss_section(x, self.lx[90], self.ly[90], 13863u32, 13853i32, 16373u32);
             self.lx[90] = x;
             self.ly[90] = y;

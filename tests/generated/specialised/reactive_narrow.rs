@@ -72,8 +72,8 @@ pub mod specialised {
     type P = tidewire_core::Narrow;
     type W = i16;
     /// Delay memory, waves (a power of two: every ring is addressed through `MASK`).
-    pub const MEM: usize = 64;
-    const MASK: u32 = 63;
+    pub const MEM: usize = 128;
+    const MASK: u32 = 127;
     const IO_SHIFT: u32 = 0;
     const EXPONENT: u32 = 26;
     const PROBES: usize = 4;
@@ -114,64 +114,64 @@ pub mod specialised {
         fn step(&mut self, input: i16) -> i16 {
             let n = self.n;
             let e: W = P::from_code(input, IO_SHIFT);
-            let b0: W = self.mem[(n.wrapping_add(63) & MASK) as usize];
-            let b1: W = self.mem[(n.wrapping_add(4) & MASK) as usize];
-            let b2: W = self.mem[(n.wrapping_add(9) & MASK) as usize];
-            let b3: W = self.mem[(n.wrapping_add(12) & MASK) as usize];
-            let b4: W = self.b[0];
-            let b5: W = self.b[1];
-            let b6: W = self.mem[(n.wrapping_add(19) & MASK) as usize];
-            let b7: W = self.mem[(n.wrapping_add(22) & MASK) as usize];
-            let b8: W = self.mem[(n.wrapping_add(26) & MASK) as usize];
-            let b9: W = self.mem[(n.wrapping_add(33) & MASK) as usize];
-            let b10: W = self.b[2];
-            let b11: W = self.mem[(n.wrapping_add(35) & MASK) as usize];
-            let b12: W = self.mem[(n.wrapping_add(39) & MASK) as usize];
-            let b13: W = self.mem[(n.wrapping_add(48) & MASK) as usize];
-            let b14: W = self.mem[(n.wrapping_add(57) & MASK) as usize];
-            let b15: W = self.b[3];
+            let b0: W = self.mem[(n.wrapping_add(0) & MASK) as usize];
             // junction 0: node of 1 port(s), fixed
             let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[671u32], &mut o, e, 1342u32, 33337u32, 10u32, 2013u64); o };
+            self.mem[(n.wrapping_add(11) & MASK) as usize] = a0;
+            let b1: W = self.mem[(n.wrapping_add(6) & MASK) as usize];
+            let b2: W = self.mem[(n.wrapping_add(12) & MASK) as usize];
+            let b3: W = self.mem[(n.wrapping_add(16) & MASK) as usize];
+            let b4: W = self.b[0];
+            let b5: W = self.b[1];
             // junction 1: node of 5 port(s), switched by the plant's events
             let c = self.nodes[0];
             let [a1, a2, a3, a4, a5] = if c.scatters() { { let mut o = [P::ZERO; 5]; P::node_scatter(&[b1, b2, b3, b4, b5], &[671u32, 671u32, 447u32, 74u32, 1001u32], &mut o, e, 0u32, c.recip, c.shift, c.total); o } } else if c.broken { [b1, b2, b3, b4, b5] } else { [P::neg(b1), P::neg(b2), P::neg(b3), P::neg(b4), P::neg(b5)] };
+            self.mem[(n.wrapping_add(5) & MASK) as usize] = a1;
+            self.mem[(n.wrapping_add(27) & MASK) as usize] = a2;
+            self.mem[(n.wrapping_add(40) & MASK) as usize] = a3;
+            let a4 = P::adapt(b4, a4, 16384u32, true);
+            self.b[0] = a4;
+            let a5 = P::adapt(b5, a5, 4890u32, false);
+            self.b[1] = a5;
+            let b6: W = self.mem[(n.wrapping_add(24) & MASK) as usize];
+            let b7: W = self.mem[(n.wrapping_add(28) & MASK) as usize];
             // junction 2: series inductor, c = 6826, rho = 1366
             let (a6, a7, s0) = P::series_l(b6, b7, self.chokes[0], 6826u32, 1366u32);
             self.chokes[0] = s0;
+            self.mem[(n.wrapping_add(15) & MASK) as usize] = a6;
+            self.mem[(n.wrapping_add(48) & MASK) as usize] = a7;
+            let b8: W = self.mem[(n.wrapping_add(33) & MASK) as usize];
+            let b9: W = self.mem[(n.wrapping_add(41) & MASK) as usize];
+            let b10: W = self.b[2];
             // junction 3: node of 3 port(s), switched by the plant's events
             let c = self.nodes[1];
             let [a8, a9, a10] = if c.scatters() { { let mut o = [P::ZERO; 3]; P::node_scatter(&[b8, b9, b10], &[447u32, 1118u32, 13421u32], &mut o, e, 0u32, c.recip, c.shift, c.total); o } } else if c.broken { [b8, b9, b10] } else { [P::neg(b8), P::neg(b9), P::neg(b10)] };
+            self.mem[(n.wrapping_add(23) & MASK) as usize] = a8;
+            self.mem[(n.wrapping_add(71) & MASK) as usize] = a9;
+            let a10 = P::adapt(b10, a10, 16384u32, false);
+            self.b[2] = a10;
+            let b11: W = self.mem[(n.wrapping_add(44) & MASK) as usize];
+            let b12: W = self.mem[(n.wrapping_add(49) & MASK) as usize];
             // junction 4: series resistor, c = 16181
             let (a11, a12) = P::series(b11, b12, 16181u32);
+            self.mem[(n.wrapping_add(32) & MASK) as usize] = a11;
+            self.mem[(n.wrapping_add(68) & MASK) as usize] = a12;
+            let b13: W = self.mem[(n.wrapping_add(59) & MASK) as usize];
             // junction 5: node of 1 port(s), fixed
             let [a13] = [P::neg(b13)];
+            self.mem[(n.wrapping_add(58) & MASK) as usize] = a13;
+            let b14: W = self.mem[(n.wrapping_add(69) & MASK) as usize];
+            let b15: W = self.b[3];
             // junction 6: node of 2 port(s), fixed
             let [a14, a15] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b14, b15], &[1118u32, 258u32], &mut o, e, 0u32, 48770u32, 10u32, 1376u64); o };
+            self.mem[(n.wrapping_add(43) & MASK) as usize] = a14;
+            let a15 = P::adapt(b15, a15, 15753u32, true);
+            self.b[3] = a15;
             self.probes[0] = P::sum(a0, b0);
             self.probes[1] = P::sum(a2, b2);
             self.probes[2] = P::diff(a8, b8);
             self.probes[3] = P::sum(a14, b14);
             let output = P::to_code(P::sum(a0, b0), IO_SHIFT);
-            let a4 = P::adapt(b4, a4, 16384u32, true);
-            let a5 = P::adapt(b5, a5, 4890u32, false);
-            let a15 = P::adapt(b15, a15, 15753u32, true);
-            let a10 = P::adapt(b10, a10, 16384u32, false);
-            self.mem[(n.wrapping_add(4) & MASK) as usize] = a1;
-            self.mem[(n.wrapping_add(9) & MASK) as usize] = a0;
-            self.mem[(n.wrapping_add(12) & MASK) as usize] = a6;
-            self.mem[(n.wrapping_add(19) & MASK) as usize] = a8;
-            self.b[0] = a4; // element state: its next arriving wave
-            self.b[1] = a5; // element state: its next arriving wave
-            self.mem[(n.wrapping_add(22) & MASK) as usize] = a2;
-            self.mem[(n.wrapping_add(26) & MASK) as usize] = a11;
-            self.mem[(n.wrapping_add(33) & MASK) as usize] = a3;
-            self.mem[(n.wrapping_add(35) & MASK) as usize] = a14;
-            self.b[2] = a10; // element state: its next arriving wave
-            self.mem[(n.wrapping_add(39) & MASK) as usize] = a7;
-            self.mem[(n.wrapping_add(48) & MASK) as usize] = a13;
-            self.mem[(n.wrapping_add(57) & MASK) as usize] = a12;
-            self.mem[(n.wrapping_add(59) & MASK) as usize] = a9;
-            self.b[3] = a15; // element state: its next arriving wave
             self.n = n.wrapping_add(1);
             output
         }

@@ -109,57 +109,57 @@ pub mod specialised {
         fn step(&mut self, input: i16) -> i16 {
             let n = self.n;
             let e: W = P::from_code(input, IO_SHIFT);
-            let b0: W = self.mem[(n.wrapping_add(127) & MASK) as usize];
-            let b1: W = self.mem[(n.wrapping_add(5) & MASK) as usize];
-            let b2: W = self.mem[(n.wrapping_add(12) & MASK) as usize];
-            let b3: W = self.mem[(n.wrapping_add(15) & MASK) as usize];
-            let b4: W = self.mem[(n.wrapping_add(22) & MASK) as usize];
-            let b5: W = self.mem[(n.wrapping_add(30) & MASK) as usize];
-            let b6: W = self.mem[(n.wrapping_add(45) & MASK) as usize];
-            let b7: W = self.mem[(n.wrapping_add(60) & MASK) as usize];
-            let b8: W = self.mem[(n.wrapping_add(67) & MASK) as usize];
-            let b9: W = self.mem[(n.wrapping_add(69) & MASK) as usize];
-            let b10: W = self.mem[(n.wrapping_add(77) & MASK) as usize];
-            let b11: W = self.mem[(n.wrapping_add(80) & MASK) as usize];
-            let b12: W = self.mem[(n.wrapping_add(82) & MASK) as usize];
-            let b13: W = self.mem[(n.wrapping_add(90) & MASK) as usize];
+            let b0: W = self.mem[(n.wrapping_add(0) & MASK) as usize];
             // rig port: the pin was read while the DAC showed the wave of `latency` samples ago
             self.hist[(n as usize) & (HIST - 1)] = b0;
             let rig_back = self.hist[(n.wrapping_sub(2) as usize) & (HIST - 1)];
             // junction 0: rig port, a = v − b[n − latency]
             let a0 = P::sub(e, rig_back);
+            self.mem[(n.wrapping_add(35) & MASK) as usize] = a0;
+            let b1: W = self.mem[(n.wrapping_add(7) & MASK) as usize];
+            let b2: W = self.mem[(n.wrapping_add(15) & MASK) as usize];
             // junction 1: node of 2 port(s), fixed
             let [a1, a2] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b1, b2], &[293203100u32, 293203100u32], &mut o, e, 0u32, 3932160009u32, 29u32, 586406200u64); o };
+            self.mem[(n.wrapping_add(75) & MASK) as usize] = a1;
+            self.mem[(n.wrapping_add(91) & MASK) as usize] = a2;
+            let b3: W = self.mem[(n.wrapping_add(19) & MASK) as usize];
             // junction 2: node of 1 port(s), fixed
             let [a3] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b3], &[293203100u32], &mut o, e, 0u32, 3932160009u32, 29u32, 586406200u64); o };
+            self.mem[(n.wrapping_add(111) & MASK) as usize] = a3;
+            let b4: W = self.mem[(n.wrapping_add(27) & MASK) as usize];
+            let b5: W = self.mem[(n.wrapping_add(36) & MASK) as usize];
             // junction 3: series resistor, c = 1055274519
             let (a4, a5) = P::series(b4, b5, 1055274519u32);
+            self.mem[(n.wrapping_add(6) & MASK) as usize] = a4;
+            self.mem[(n.wrapping_add(67) & MASK) as usize] = a5;
+            let b6: W = self.mem[(n.wrapping_add(52) & MASK) as usize];
+            let b7: W = self.mem[(n.wrapping_add(68) & MASK) as usize];
             // junction 4: series resistor, c = 1055274519
             let (a6, a7) = P::series(b6, b7, 1055274519u32);
+            self.mem[(n.wrapping_add(51) & MASK) as usize] = a6;
+            self.mem[(n.wrapping_add(14) & MASK) as usize] = a7;
+            let b8: W = self.mem[(n.wrapping_add(76) & MASK) as usize];
+            let b9: W = self.mem[(n.wrapping_add(79) & MASK) as usize];
             // junction 5: node of 2 port(s), switched by the plant's events
             let c = self.nodes[0];
             let [a8, a9] = if c.scatters() { { let mut o = [P::ZERO; 2]; P::node_scatter(&[b8, b9], &[293203100u32, 293203100u32], &mut o, e, 0u32, c.recip, c.shift, c.total); o } } else if c.broken { [b8, b9] } else { [P::neg(b8), P::neg(b9)] };
+            self.mem[(n.wrapping_add(94) & MASK) as usize] = a8;
+            self.mem[(n.wrapping_add(103) & MASK) as usize] = a9;
+            let b10: W = self.mem[(n.wrapping_add(88) & MASK) as usize];
+            let b11: W = self.mem[(n.wrapping_add(92) & MASK) as usize];
             // junction 6: series resistor, c = 1067514655
             let (a10, a11) = P::series(b10, b11, 1067514655u32);
+            self.mem[(n.wrapping_add(18) & MASK) as usize] = a10;
+            self.mem[(n.wrapping_add(78) & MASK) as usize] = a11;
+            let b12: W = self.mem[(n.wrapping_add(95) & MASK) as usize];
+            let b13: W = self.mem[(n.wrapping_add(104) & MASK) as usize];
             // junction 7: series resistor, c = 1055274519
             let (a12, a13) = P::series(b12, b13, 1055274519u32);
+            self.mem[(n.wrapping_add(87) & MASK) as usize] = a12;
+            self.mem[(n.wrapping_add(26) & MASK) as usize] = a13;
             self.probes[0] = P::sum(a0, b0);
             self.probes[1] = P::sum(a3, b3);
             let output = P::to_code(P::sum(b0, b0), IO_SHIFT);
-            self.mem[(n.wrapping_add(5) & MASK) as usize] = a4;
-            self.mem[(n.wrapping_add(12) & MASK) as usize] = a7;
-            self.mem[(n.wrapping_add(15) & MASK) as usize] = a10;
-            self.mem[(n.wrapping_add(22) & MASK) as usize] = a13;
-            self.mem[(n.wrapping_add(30) & MASK) as usize] = a0;
-            self.mem[(n.wrapping_add(45) & MASK) as usize] = a6;
-            self.mem[(n.wrapping_add(60) & MASK) as usize] = a5;
-            self.mem[(n.wrapping_add(67) & MASK) as usize] = a1;
-            self.mem[(n.wrapping_add(69) & MASK) as usize] = a11;
-            self.mem[(n.wrapping_add(77) & MASK) as usize] = a12;
-            self.mem[(n.wrapping_add(80) & MASK) as usize] = a2;
-            self.mem[(n.wrapping_add(82) & MASK) as usize] = a8;
-            self.mem[(n.wrapping_add(90) & MASK) as usize] = a9;
-            self.mem[(n.wrapping_add(97) & MASK) as usize] = a3;
             self.n = n.wrapping_add(1);
             output
         }
@@ -174,7 +174,7 @@ pub mod specialised {
 
         fn rig_drive(&self) -> i16 {
             let n = self.n;
-            let b: W = self.mem[(n.wrapping_add(127) & MASK) as usize];
+            let b: W = self.mem[(n.wrapping_add(0) & MASK) as usize];
             P::to_code(P::sum(b, b), IO_SHIFT)
         }
 

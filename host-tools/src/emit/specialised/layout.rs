@@ -1,13 +1,14 @@
 //! Where every port's waves live in the specialised solver.
 //!
 //! All line rings share one delay memory of M = 2^k waves and one sample counter n. Port p
-//! (arriving delay d_p) owns the span [S_p, S_p + d_p − 1] of offsets (S_p = Σ of the delays
-//! before it, so the spans are disjoint and Σ d_p <= M). At sample n its live waves sit at
-//! (n + S_p .. n + S_p + d_p − 1) mod M: the wave its partner sends at sample n is written at
-//! (n + S_p + d_p − 1) & (M − 1), and the wave arriving at the next sample, the one sent
-//! d_p − 1 samples earlier, is read at (n + S_p) & (M − 1). Every span moves up by one per
-//! sample, so no port's write lands on a wave another port still needs, and one counter
-//! replaces every per-port cursor; the mask lets the compiler prove every index in bounds.
+//! (arriving delay d_p) owns d_p + 1 consecutive offsets [S_p, S_p + d_p] (S_p = Σ of
+//! (d + 1) over the ports before it, so the spans are disjoint and fit in M). The wave its
+//! partner sends at sample n is written at (n + S_p + d_p) & (M − 1); the wave arriving at
+//! sample n, sent d_p samples earlier, sits at (n + S_p) & (M − 1). Every span moves up by one
+//! per sample, so one counter replaces every per-port cursor, and the mask lets the compiler
+//! prove every index in bounds. The one spare slot per port is what lets a junction write its
+//! outgoing waves straight into the rings while later junctions still read this sample's
+//! arriving waves: no write of sample n lands on a wave another port reads at sample n.
 //!
 //! A port whose arriving wave must be kept between samples (it passes a loss filter, or it
 //! is a reactive element's state, a ring of one sample feeding itself) keeps it in `b[p]`.
@@ -30,9 +31,10 @@ pub struct Layout {
     pub mem_len: u32,
     /// Per port: its arrival.
     pub arrival: Vec<Arrival>,
-    /// Per port: the write offset of its ring (n + offset) & MASK, `None` for element ports.
+    /// Per line port: the offset its ring is written at, (n + S_p + d_p); `None` for elements.
     pub write: Vec<Option<u32>>,
-    /// Per port: the read offset of its ring right after the writes of the same sample.
+    /// Per line port: S_p, where this sample's arriving wave sits (n + S_p) and, after the
+    /// writes of sample n, the next sample's (n + 1 + S_p).
     pub read: Vec<Option<u32>>,
     /// Length of the state array `b`.
     pub states: usize,
@@ -52,12 +54,11 @@ impl Layout {
                 continue;
             }
             let d = u64::from(port.delay.max(1));
-            write.push(Some(start + d - 1));
+            write.push(Some(start + d));
             read.push(Some(start));
-            start += d;
+            start += d + 1;
         }
         let mem_len = start.max(1).checked_next_power_of_two().filter(|m| *m <= 1 << 31)?;
-        let mask = mem_len - 1;
         let mut states = 0usize;
         let arrival = l
             .ports
@@ -65,10 +66,7 @@ impl Layout {
             .zip(&read)
             .zip(&lossy)
             .map(|((port, r), lossy)| match r {
-                Some(r) if !*lossy && !port.element => {
-                    // Read at the start of sample n + 1 what was read after the writes of n.
-                    Arrival::Memory { offset: ((r + mem_len - 1) & mask) as u32 }
-                }
+                Some(r) if !*lossy && !port.element => Arrival::Memory { offset: *r as u32 },
                 _ => {
                     states += 1;
                     Arrival::State { slot: states - 1 }

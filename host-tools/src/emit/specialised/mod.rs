@@ -32,6 +32,18 @@ pub enum EmitError {
     Host(String),
 }
 
+/// The ports a junction scatters.
+fn junction_ports(jp: &JunctionPlan) -> std::ops::Range<usize> {
+    match *jp {
+        JunctionPlan::Node { first, count, .. } => first as usize..first as usize + count as usize,
+        JunctionPlan::Series { p, q, .. } | JunctionPlan::SeriesInductor { p, q, .. } => {
+            p as usize..(q as usize).max(p as usize) + 1
+        }
+        JunctionPlan::Rig { port } => port as usize..port as usize + 1,
+        _ => 0..0,
+    }
+}
+
 /// `a3, a4, a5` for ports [3, 4, 5] and prefix "a".
 pub(crate) fn list(ports: &[usize], prefix: &str) -> String {
     ports.iter().map(|p| format!("{prefix}{p}")).collect::<Vec<_>>().join(", ")
@@ -191,13 +203,31 @@ impl Writer<'_> {
         Ok(s)
     }
 
-    /// `fn step`: arrivals, junctions, read-out, elements, line pass, loss filters.
+    /// Send port p's outgoing wave on: into the ring of its partner (the line carries it to the
+    /// far end), or through an element's adaptor into the element's state (its next arriving
+    /// wave: the generic solver's ring of one sample that feeds itself).
+    fn send(&self, s: &mut String, p: usize) {
+        let Some(port) = self.l.ports.get(p) else { return };
+        if let Some(el) = self.l.elements.iter().find(|e| e.port as usize == p) {
+            if let Some(Arrival::State { slot }) = self.layout.arrival.get(p) {
+                let _ = writeln!(s, "            let a{p} = P::adapt(b{p}, a{p}, {}u32, {});", el.mu, el.negate);
+                let _ = writeln!(s, "            self.b[{slot}] = a{p};");
+            }
+            return;
+        }
+        if let Some(w) = self.layout.write.get(port.partner as usize).copied().flatten() {
+            let _ = writeln!(s, "            self.mem[(n.wrapping_add({w}) & MASK) as usize] = a{p};");
+        }
+    }
+
+    /// `fn step`: per junction its arrivals, scatter and sends; read-out; loss filters.
     fn step(&self, s: &mut String, slots: &[Option<usize>]) -> Result<(), EmitError> {
         let l = self.l;
         let _ = writeln!(s, "        #[inline]\n        fn step(&mut self, input: i16) -> i16 {{");
         let _ = writeln!(s, "            let n = self.n;\n            let e: W = P::from_code(input, IO_SHIFT);");
-        for p in 0..l.ports.len() {
-            let _ = writeln!(s, "            let b{p}: W = {};", self.arrival(p));
+        // The rig port's arriving wave goes into the latency history before any junction runs.
+        if let DrivePlan::Rig { port, .. } = l.drive {
+            let _ = writeln!(s, "            let b{port}: W = {};", self.arrival(port as usize));
         }
         if let DrivePlan::Rig { port, latency } = l.drive {
             let _ = writeln!(
@@ -210,15 +240,29 @@ impl Writer<'_> {
         }
         let weights: Vec<u32> = l.ports.iter().map(|p| p.weight).collect();
         let mut chokes = 0usize;
-        let mut body = String::new();
+        let rig_port = match l.drive {
+            DrivePlan::Rig { port, .. } => Some(port as usize),
+            _ => None,
+        };
         for (j, jp) in l.junctions.iter().enumerate() {
+            // Per junction: read its ports' arriving waves, scatter, and send every outgoing
+            // wave on at once (into the partner's ring, or an element's adaptor and state), so
+            // only a junction's own waves are live at a time.
+            let ports = junction_ports(jp);
+            for p in ports.clone().filter(|p| Some(*p) != rig_port) {
+                let _ = writeln!(s, "            let b{p}: W = {};", self.arrival(p));
+            }
             let cx =
                 junctions::Ctx { weights: &weights, switch_slot: slots.get(j).copied().flatten(), choke_slot: chokes };
+            let mut body = String::new();
             junctions::emit(&mut body, j, jp, &cx)?;
+            for line in body.lines() {
+                let _ = writeln!(s, "    {line}");
+            }
             chokes += usize::from(matches!(jp, JunctionPlan::SeriesInductor { .. }));
-        }
-        for line in body.lines() {
-            let _ = writeln!(s, "    {line}");
+            for p in ports {
+                self.send(s, p);
+            }
         }
         for (k, pr) in l.probes.iter().enumerate() {
             let f = if pr.current { "diff" } else { "sum" };
@@ -230,23 +274,6 @@ impl Writer<'_> {
             DrivePlan::None => "0".into(),
         };
         let _ = writeln!(s, "            let output = {output};");
-        for el in &l.elements {
-            let p = el.port;
-            let _ = writeln!(s, "            let a{p} = P::adapt(b{p}, a{p}, {}u32, {});", el.mu, el.negate);
-        }
-        // Line pass: every port's ring receives its partner's outgoing wave.
-        for (p, port) in l.ports.iter().enumerate() {
-            match (self.layout.write.get(p).copied().flatten(), self.layout.arrival.get(p)) {
-                (Some(w), _) => {
-                    let _ =
-                        writeln!(s, "            self.mem[(n.wrapping_add({w}) & MASK) as usize] = a{};", port.partner);
-                }
-                (None, Some(Arrival::State { slot })) => {
-                    let _ = writeln!(s, "            self.b[{slot}] = a{p}; // element state: its next arriving wave");
-                }
-                _ => {}
-            }
-        }
         // Loss filters, in the generic solver's order, on the waves that just arrived.
         let mut sec = 0usize;
         for lp in &l.losses {
@@ -256,7 +283,7 @@ impl Writer<'_> {
             else {
                 return Err(EmitError::Unsupported { what: "a loss filter on an element port".into(), junction: None });
             };
-            let _ = writeln!(s, "            let mut x: W = self.mem[(n.wrapping_add({r}) & MASK) as usize];");
+            let _ = writeln!(s, "            let mut x: W = self.mem[(n.wrapping_add({}) & MASK) as usize];", r + 1);
             for k in 0..lp.sections as usize {
                 let (g, gb, a) = (lp.g[k], lp.gb[k], lp.a[k]);
                 let _ = writeln!(
