@@ -31,7 +31,15 @@ macro_rules! generated {
         }
     )*};
 }
-generated!(every_kind_wide, every_kind_narrow, rig_break_wide, rig_break_narrow, reactive_wide, reactive_narrow);
+generated!(
+    every_kind_wide,
+    every_kind_narrow,
+    rig_break_wide,
+    rig_break_narrow,
+    reactive_wide,
+    reactive_narrow,
+    one_line_wide
+);
 
 /// A change applied to both forms before sample `.0`.
 #[derive(Debug, Clone, Copy)]
@@ -124,17 +132,47 @@ fn reactive_case(profile: ProfileKind) -> (String, Vec<(usize, Ev)>) {
     (plant_rust_source(&net, profile, &[1, 3], "reactive (test)").unwrap(), events)
 }
 
+/// The one-line plant of `benches/versus_leapfrog.rs` at 1 km (50 Ω, 500 samples at 100 MHz,
+/// 50 Ω source, matched far end), benched against the f64 leapfrog in `benches/forms.rs`; the
+/// far end is opened at sample 700.
+fn one_line_case() -> (String, Vec<(usize, Ev)>) {
+    let lines = [Line { z_milliohm: 50_000, delay: 500, a: 0, b: 1 }];
+    let junctions =
+        [Junction::Node { shunt: Shunt::Open }, Junction::Node { shunt: Shunt::Resistor { milliohm: 50_000 } }];
+    let probes = [Probe { kind: ProbeKind::Voltage, line: 0, side: Side::B }];
+    let net = Network {
+        lines: &lines,
+        junctions: &junctions,
+        elements: &[],
+        losses: &[],
+        drive: Drive::Source { junction: 0, milliohm: 50_000 },
+        probes: &probes,
+        io_shift: 8,
+        volts_per_code: 1.0 / 4096.0,
+    };
+    let src = plant_rust_source(&net, ProfileKind::Wide, &[1], "one line of 1 km (test)").unwrap();
+    (src, vec![(700, Ev::Shunt(1, Shunt::Open))])
+}
+
 fn fresh(name: &str) -> (String, Vec<(usize, Ev)>) {
     let profile = if name.ends_with("wide") { ProfileKind::Wide } else { ProfileKind::Narrow };
     match name.trim_end_matches("_wide").trim_end_matches("_narrow") {
         "every_kind" => plant_file_case("tests/plants/every-kind.toml", profile),
         "rig_break" => plant_file_case("examples/plants/rig-break.toml", profile),
+        "one_line" => one_line_case(),
         _ => reactive_case(profile),
     }
 }
 
-const CASES: [&str; 6] =
-    ["every_kind_wide", "every_kind_narrow", "rig_break_wide", "rig_break_narrow", "reactive_wide", "reactive_narrow"];
+const CASES: [&str; 7] = [
+    "every_kind_wide",
+    "every_kind_narrow",
+    "rig_break_wide",
+    "rig_break_narrow",
+    "reactive_wide",
+    "reactive_narrow",
+    "one_line_wide",
+];
 
 #[test]
 fn checked_in_specialised_sources_are_what_the_emitter_writes() {
@@ -250,6 +288,11 @@ fn rig_port_with_latency_and_a_break_is_bit_exact() {
 fn reactive_elements_and_every_shunt_are_bit_exact() {
     check("reactive_wide", &forms!(reactive_wide, Wide));
     check("reactive_narrow", &forms!(reactive_narrow, Narrow));
+}
+
+#[test]
+fn the_benched_one_line_plant_is_bit_exact() {
+    check("one_line_wide", &forms!(one_line_wide, Wide));
 }
 
 #[test]

@@ -142,6 +142,9 @@ pub enum Command {
         /// The part: m0, m4 (the emulated parts) or stm32f407 (the reference board).
         #[arg(long)]
         part: String,
+        /// The step's form the budget assumes: generic (loads images, a rig) or specialised.
+        #[arg(long, value_enum, default_value = "generic")]
+        form: crate::rig::parts::Form,
     },
     /// Drive a rig over its control link: load, start, stop, schedule, capture, status.
     Rig(rig::RigArgs),
@@ -259,7 +262,7 @@ pub fn main() -> i32 {
         }
         Command::Demo { out } => demo::run(&out),
         Command::Rig(args) => rig::run(args),
-        Command::Rate { plant, part } => rate::run(&plant, &part),
+        Command::Rate { plant, part, form } => rate::run(&plant, &part, form),
         Command::Extract(args) => extract::run(&args),
     };
     match r {

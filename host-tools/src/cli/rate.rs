@@ -10,7 +10,7 @@
 use super::Failure;
 use crate::compile::{compile, Compiled};
 use crate::plant::{load_plant, Plant};
-use crate::rig::parts::{find, RigPart, RIG_PARTS};
+use crate::rig::parts::{find, Form, RigPart, RIG_PARTS};
 use std::path::Path;
 
 fn si_rate(hz: f64) -> String {
@@ -24,8 +24,8 @@ fn si_rate(hz: f64) -> String {
 }
 
 /// The highest rate the part keeps, compiled at that rate: (rate, network there).
-fn settle(plant: &Plant, file: &str, part: &RigPart, start: &Compiled) -> Result<(f64, Compiled), String> {
-    let cost = |c: &Compiled| part.instructions(c.report.ports, c.report.junctions).map(|i| part.clock_hz / i);
+fn settle(plant: &Plant, file: &str, part: &RigPart, form: Form, start: &Compiled) -> Result<(f64, Compiled), String> {
+    let cost = |c: &Compiled| part.instructions(c.report.ports, c.report.junctions, form).map(|i| part.clock_hz / i);
     let mut rate = cost(start).ok_or("the part has no measured cost model")?;
     let mut best = None;
     // The network shrinks (or stays) as the rate falls, so the part's rate rises or stays:
@@ -44,7 +44,7 @@ fn settle(plant: &Plant, file: &str, part: &RigPart, start: &Compiled) -> Result
     best.ok_or_else(|| format!("no rate found that the part keeps (last tried {})", si_rate(rate)))
 }
 
-pub(super) fn run(path: &Path, part_name: &str) -> Result<i32, Failure> {
+pub(super) fn run(path: &Path, part_name: &str, form: Form) -> Result<i32, Failure> {
     let Some(part) = find(part_name) else {
         let names: Vec<&str> = RIG_PARTS.iter().map(|p| p.name).collect();
         return Err(Failure {
@@ -58,7 +58,16 @@ pub(super) fn run(path: &Path, part_name: &str) -> Result<i32, Failure> {
     let fs = plant.sample_rate;
     println!("== {} on {} ==", plant.name, part.name);
     println!("   part: {}; {} KiB RAM, {} KiB flash", part.description, part.ram / 1024, part.flash / 1024);
-    let instr = part.instructions(own.report.ports, own.report.junctions).unwrap_or(f64::NAN);
+    println!(
+        "   form: {} ({}); instruction counts from docs/firmware-figures.json",
+        form.name(),
+        match form {
+            Form::Generic => "the data-driven solver that loads plant images at run time, as a rig does",
+            Form::Specialised =>
+                "the plant-specialised solver of `tidewire compile --rust`, this plant built into the firmware",
+        }
+    );
+    let instr = part.instructions(own.report.ports, own.report.junctions, form).unwrap_or(f64::NAN);
     let keeps = part.clock_hz / instr;
     println!(
         "   at the plant's rate {}: {} line ends, {} junctions, about {:.0} instructions per sample -> the part keeps {}",
@@ -73,7 +82,7 @@ pub(super) fn run(path: &Path, part_name: &str) -> Result<i32, Failure> {
     } else {
         println!("   the plant's own rate runs {:.0}x slower than real time", fs / keeps);
     }
-    let (rate, c) = match settle(&plant, &file, part, &own) {
+    let (rate, c) = match settle(&plant, &file, part, form, &own) {
         Ok((r, c)) => {
             println!("   highest real-time rate: {} ({} line ends compiled at that rate)", si_rate(r), c.report.ports);
             (Some(r), c)
