@@ -2,12 +2,14 @@
 use super::{io_failure, load_and_prepare, Failure};
 use crate::compile::{Compiled, ProfileKind};
 use crate::emit::{plant_rust_source, switched_junctions, write_atomic, write_image, EmitError};
+use crate::plant::Plant;
 use std::path::Path;
 
 /// Write the image and/or Rust source of `c`.
 pub(crate) fn write_outputs(
     c: &Compiled,
-    title: &str,
+    plant: &Plant,
+    file: &Path,
     image: Option<&Path>,
     rust: Option<&Path>,
 ) -> Result<(), Failure> {
@@ -16,7 +18,7 @@ pub(crate) fn write_outputs(
         println!("wrote image       {} ({} profile)", p.display(), c.profile.name());
     }
     if let Some(p) = rust {
-        let text = plant_source(c, title, p)?;
+        let text = plant_source(c, plant, file, p)?;
         write_atomic(p, text.as_bytes()).map_err(|e| io_failure(p, e))?;
         println!("wrote Rust source {} (NETWORK for the generic Solver, and specialised::Plant)", p.display());
     }
@@ -25,14 +27,28 @@ pub(crate) fn write_outputs(
 
 /// The `--rust` output: the network as `static`s for the generic solver, then the
 /// plant-specialised solver. Nothing is written when the specialised form is refused.
-pub(crate) fn plant_source(c: &Compiled, title: &str, out: &Path) -> Result<String, Failure> {
-    plant_rust_source(&c.network(), c.profile, &switched_junctions(c), title).map_err(|e| {
-        let at = match &e {
-            EmitError::Unsupported { junction: Some(j), .. } => format!(" (core junction {j})"),
-            _ => String::new(),
-        };
-        Failure { code: 2, message: format!("error: {}: --rust: {e}{at}; no file written", out.display()) }
-    })
+pub(crate) fn plant_source(c: &Compiled, plant: &Plant, file: &Path, out: &Path) -> Result<String, Failure> {
+    plant_rust_source(&c.network(), c.profile, &switched_junctions(c), &plant.name)
+        .map_err(|e| Failure { code: 2, message: refusal(&e, c, plant, file, out) })
+}
+
+/// A refusal of the specialised emitter, located at the plant node of the junction it names
+/// where there is one (file:line:column: field), else at the plant file.
+fn refusal(e: &EmitError, c: &Compiled, plant: &Plant, file: &Path, out: &Path) -> String {
+    let node = match e {
+        EmitError::Unsupported { junction: Some(j), .. } => {
+            c.node_junction.iter().position(|nj| usize::from(*nj) == *j).and_then(|i| plant.nodes.get(i))
+        }
+        _ => None,
+    };
+    let at = match node {
+        Some(n) => format!("{}:{}:{}: node.{}", file.display(), n.span.line, n.span.column, n.name),
+        None => format!("{}: --rust {}", file.display(), out.display()),
+    };
+    format!(
+        "{at}: {e}\n  hint: `--image` gives an image for the generic solver, which runs every plant the core \
+         accepts; no file was written"
+    )
 }
 
 pub(super) fn run(
@@ -48,7 +64,7 @@ pub(super) fn run(
         [("--image", image), ("--rust", rust)].into_iter().filter_map(|(k, p)| p.map(|p| (k, p))).collect();
     let batch = super::outputs::guard(path, &named)?;
     let (plant, c, _) = load_and_prepare(path, profile)?;
-    write_outputs(&c, &plant.name, image, rust)?;
+    write_outputs(&c, &plant, path, image, rust)?;
     super::outputs::commit(batch)?;
     Ok(0)
 }
@@ -67,4 +83,34 @@ pub(crate) fn progress(total: usize, what: &str) -> indicatif::ProgressBar {
     }
     pb.set_message(what.to_string());
     pb
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::analysis::prepare;
+    use crate::plant::parse_plant;
+
+    /// Every junction kind of today is emitted, so a refusal cannot come from a plant file
+    /// yet; its message is checked here: located at the plant node of the refused junction.
+    #[test]
+    fn a_refused_junction_is_located_at_its_plant_node() {
+        let text = "[plant]\nname = \"t\"\nsample_rate = \"100 MHz\"\nduration = \"1 us\"\n\
+                    [node.a]\n[node.far]\nload = \"100 ohm\"\n\
+                    [[segment]]\nfrom = \"a\"\nto = \"far\"\ncable = \"cat5e\"\nlength = \"20 m\"\n\
+                    [drive]\nkind = \"source\"\nnode = \"a\"\nresistance = \"100 ohm\"\nwaveform = { step = \"1 V\" }\n";
+        let plant = parse_plant(text, "t.toml", Path::new(".")).unwrap();
+        let c = prepare(&plant, "t.toml", ProfileKind::Wide).unwrap().0;
+        let far = c.node_junction[1] as usize;
+        let e = EmitError::Unsupported { what: "a test element".into(), junction: Some(far) };
+        let m = refusal(&e, &c, &plant, Path::new("t.toml"), Path::new("out.rs"));
+        assert!(
+            m.starts_with("t.toml:6:7: node.far: the plant-specialised solver does not support a test element"),
+            "{m}"
+        );
+        assert!(m.contains("no file was written"), "{m}");
+        // Unlocatable: the plant file and the output named.
+        let m = refusal(&EmitError::Host("x".into()), &c, &plant, Path::new("t.toml"), Path::new("out.rs"));
+        assert!(m.starts_with("t.toml: --rust out.rs: host failure: x"), "{m}");
+    }
 }
