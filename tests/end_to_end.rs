@@ -4,7 +4,7 @@ use std::path::Path;
 use tidewire::core::{image, Solver, Wide};
 use tidewire::host::analysis::prepare;
 use tidewire::host::compile::ProfileKind;
-use tidewire::host::emit::{image_bytes, rust_source};
+use tidewire::host::emit::{image_bytes, plant_rust_source, switched_junctions};
 use tidewire::host::plant::load_plant;
 
 mod generated {
@@ -22,7 +22,7 @@ fn image_and_rust_source_give_the_same_solver() {
     let c = prepare(&p, &file, ProfileKind::Wide).unwrap().0;
     // The checked-in Rust source is what `tidewire compile --rust` writes today
     // (regenerate with: tidewire compile examples/plants/bench-rig.toml --rust tests/generated/bench_rig_wide.rs).
-    let fresh = rust_source(&c.network(), &p.name);
+    let fresh = plant_rust_source(&c.network(), ProfileKind::Wide, &switched_junctions(&c), &p.name).unwrap();
     let checked_in =
         std::fs::read_to_string(Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/generated/bench_rig_wide.rs"))
             .unwrap();

@@ -17,8 +17,10 @@ use crate::error::{BuildError, ConfigError, Table};
 use crate::network::{ElementKind, Junction, Network, ProbeKind, Shunt, Side, MAX_LOSS_SECTIONS};
 use crate::profile::{hold_threshold, reciprocal, Profile};
 use crate::solver::{DriveRt, ElementRt, JunctionRt, LossRt, Mode, ProbeRt, Solver};
+pub(crate) use passive::node_ok as passive_node;
 use shape::{cap, ports_at, Shape};
-use weights::{weight, TOP};
+use weights::weight;
+pub(crate) use weights::TOP;
 
 /// `slot[i] = v` for an index the checks above keep in range; out of range (unreachable after
 /// validation) it writes nothing instead of panicking, so `load` has no panic path.
@@ -544,7 +546,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
 }
 
 /// Put `shunt` into a node record: shunt weight floor(2^c / R), new reciprocal of the total.
-fn apply_shunt<P: Profile>(rt: &mut JunctionRt, shunt: Shunt, c: u32) -> Result<(), ()> {
+pub(crate) fn apply_shunt<P: Profile>(rt: &mut JunctionRt, shunt: Shunt, c: u32) -> Result<(), ()> {
     let JunctionRt::Node { g_ports, g_src, recip, shift, total: t, mode, short, broken, hold, .. } = rt else {
         return Err(());
     };

@@ -195,6 +195,13 @@ pub enum ConfigError {
         /// Index of the junction.
         junction: u16,
     },
+    /// A plant-specialised solver holds this node's coefficients as constants: none of the
+    /// plant's events switch it. Compile the plant with an event at that node, or run the
+    /// generic solver.
+    FixedNode {
+        /// Index of the junction.
+        junction: u16,
+    },
 }
 
 impl fmt::Display for ConfigError {
@@ -206,6 +213,11 @@ impl fmt::Display for ConfigError {
             ConfigError::CoefficientOutOfRange { junction } => {
                 write!(f, "junction {junction}: new shunt coefficient out of range")
             }
+            ConfigError::FixedNode { junction } => write!(
+                f,
+                "junction {junction} is fixed in this plant-specialised solver (no event of the plant switches \
+                 it): compile the plant with an event there, or run the generic solver"
+            ),
         }
     }
 }

@@ -92,10 +92,12 @@
 #![deny(missing_docs)]
 
 pub mod configure;
+pub mod emitted;
 pub mod error;
 pub mod image;
 pub mod network;
 pub mod owned;
+pub mod plant_step;
 // The speed issue rewrites profile.rs (one undocumented trait method, `Profile::diff`);
 // its documentation comes with that rewrite, and this allow goes then.
 #[allow(missing_docs)]
@@ -109,5 +111,6 @@ pub use network::{
     Shunt, Side, MAX_LOSS_SECTIONS, MAX_PROBES, MAX_RIG_LATENCY,
 };
 pub use owned::{HeaplessNetwork, OwnedNetwork};
+pub use plant_step::PlantStep;
 pub use profile::{Narrow, Profile, Wide};
 pub use solver::Solver;

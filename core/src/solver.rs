@@ -248,10 +248,18 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.scatter(e, rig_back);
 
         // Read-out of this sample.
+        // At the rig port the pin shows the wave the DAC sent `latency` samples ago, not this
+        // sample's b (which the DAC shows only `latency` samples from now): the pin voltage
+        // is a + b[n − latency] = v as measured, and its current (a − b[n − latency])/Z0.
+        let rig_port = match self.drive {
+            DriveRt::Rig { port } => Some(port),
+            _ => None,
+        };
         let n_probes = self.n_probes.min(MAX_PROBES);
         for (out, pr) in self.probe_out.iter_mut().zip(self.probes.iter()).take(n_probes) {
             let i = pr.port as usize;
-            let (a, b) = (self.a.get(i).copied().unwrap_or(P::ZERO), self.b.get(i).copied().unwrap_or(P::ZERO));
+            let a = self.a.get(i).copied().unwrap_or(P::ZERO);
+            let b = if rig_port == Some(pr.port) { rig_back } else { self.b.get(i).copied().unwrap_or(P::ZERO) };
             *out = if pr.current { P::diff(a, b) } else { P::sum(a, b) };
         }
         let output = match self.drive {

@@ -50,3 +50,138 @@ pub static NETWORK: Network<'static> = Network {
     io_shift: 12,
     volts_per_code: 0.00015258789,
 };
+
+/// The plant-specialised solver of this plant (wide profile): the generic solver's
+/// arithmetic with the coefficients as constants and the junctions unrolled; bit-exact with
+/// `Solver` loaded from `NETWORK`. Only the nodes the plant's events switch can change at
+/// run time (`set_shunt`, `set_broken`); every other node is fixed (`ConfigError::FixedNode`).
+#[allow(clippy::all, unused_imports, unused_variables, unused_mut, non_snake_case, dead_code)]
+pub mod specialised {
+    use tidewire_core::emitted::{node_coefficients, NodeCoef};
+    use tidewire_core::{ConfigError, PlantStep, Profile, Shunt};
+
+    type P = tidewire_core::Wide;
+    type W = i32;
+    /// Delay memory, waves (a power of two: every ring is addressed through `MASK`).
+    pub const MEM: usize = 128;
+    const MASK: u32 = 127;
+    const IO_SHIFT: u32 = 12;
+    const EXPONENT: u32 = 46;
+    const PROBES: usize = 3;
+    const HIST: usize = 64;
+    const INITIAL_NODES: [NodeCoef; 0] = [
+    ];
+
+    /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
+    pub struct Plant {
+        n: u32,
+        mem: [W; MEM],
+        b: [W; 0],
+        chokes: [W; 0],
+        lx: [W; 0],
+        ly: [W; 0],
+        aps: [W; 0],
+        held: [W; 1],
+        hist: [W; HIST],
+        probes: [i32; PROBES],
+        nodes: [NodeCoef; 0],
+    }
+
+    impl Plant {
+        /// The plant at rest (`const`, so it can live in a `static`).
+        pub const fn new() -> Self {
+            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], aps: [P::ZERO; 0], held: [P::ZERO; 1], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+        }
+    }
+
+    impl Default for Plant {
+        fn default() -> Self {
+            Self::new()
+        }
+    }
+
+    impl PlantStep for Plant {
+        #[inline]
+        fn step(&mut self, input: i16) -> i16 {
+            let n = self.n;
+            let e: W = P::from_code(input, IO_SHIFT);
+            let b0: W = self.mem[(n.wrapping_add(0) & MASK) as usize];
+            // rig port: the pin was read while the DAC showed the wave of `latency` samples ago
+            self.hist[(n as usize) & (HIST - 1)] = b0;
+            let rig_back = self.hist[(n.wrapping_sub(2) as usize) & (HIST - 1)];
+            // junction 0: rig port, a = v − b[n − latency]
+            let a0 = P::sub(e, rig_back);
+            self.mem[(n.wrapping_add(24) & MASK) as usize] = a0;
+            let b1: W = self.mem[(n.wrapping_add(7) & MASK) as usize];
+            // junction 1: node of 1 port(s), fixed
+            let [a1] = { let mut o = [self.held[0]]; P::node_scatter_held(&[b1], &[586406201u32], &mut o, e, 0u32, 3932160003u32, 30u32, 1172812402u64, 2u32); o };
+            self.mem[(n.wrapping_add(105) & MASK) as usize] = a1;
+            self.held[0] = a1;
+            let b2: W = self.mem[(n.wrapping_add(16) & MASK) as usize];
+            let b3: W = self.mem[(n.wrapping_add(25) & MASK) as usize];
+            // junction 2: series resistor, c = 1053260299
+            let (a2, a3) = P::series(b2, b3, 1053260299u32);
+            self.mem[(n.wrapping_add(6) & MASK) as usize] = a2;
+            self.mem[(n.wrapping_add(60) & MASK) as usize] = a3;
+            let b4: W = self.mem[(n.wrapping_add(43) & MASK) as usize];
+            let b5: W = self.mem[(n.wrapping_add(61) & MASK) as usize];
+            // junction 3: series resistor, c = 1053260299
+            let (a4, a5) = P::series(b4, b5, 1053260299u32);
+            self.mem[(n.wrapping_add(42) & MASK) as usize] = a4;
+            self.mem[(n.wrapping_add(96) & MASK) as usize] = a5;
+            let b6: W = self.mem[(n.wrapping_add(79) & MASK) as usize];
+            let b7: W = self.mem[(n.wrapping_add(97) & MASK) as usize];
+            // junction 4: series resistor, c = 1053260299
+            let (a6, a7) = P::series(b6, b7, 1053260299u32);
+            self.mem[(n.wrapping_add(78) & MASK) as usize] = a6;
+            self.mem[(n.wrapping_add(15) & MASK) as usize] = a7;
+            self.probes[0] = P::sum(a0, rig_back);
+            self.probes[1] = P::sum(a1, b1);
+            self.probes[2] = P::diff(a0, rig_back);
+            let output = P::to_code(P::sum(b0, b0), IO_SHIFT);
+            self.n = n.wrapping_add(1);
+            output
+        }
+
+        fn probe_raw(&self, k: usize) -> i32 {
+            self.probes.get(k).copied().unwrap_or(0)
+        }
+
+        fn probe_count(&self) -> usize {
+            PROBES
+        }
+
+        fn rig_drive(&self) -> i16 {
+            let n = self.n;
+            let b: W = self.mem[(n.wrapping_add(0) & MASK) as usize];
+            P::to_code(P::sum(b, b), IO_SHIFT)
+        }
+
+        fn reset(&mut self) {
+            self.n = 0;
+            self.mem.iter_mut().for_each(|w| *w = P::ZERO);
+            self.b.iter_mut().for_each(|w| *w = P::ZERO);
+            self.chokes.iter_mut().for_each(|w| *w = P::ZERO);
+            self.lx.iter_mut().for_each(|w| *w = P::ZERO);
+            self.ly.iter_mut().for_each(|w| *w = P::ZERO);
+            self.aps.iter_mut().for_each(|w| *w = P::ZERO);
+            self.held.iter_mut().for_each(|w| *w = P::ZERO);
+            self.hist.iter_mut().for_each(|w| *w = P::ZERO);
+            self.probes.iter_mut().for_each(|w| *w = 0);
+        }
+
+        fn set_shunt(&mut self, junction: u16, shunt: Shunt) -> Result<(), ConfigError> {
+            match junction {
+                1 => Err(ConfigError::FixedNode { junction }),
+                _ => Err(ConfigError::NotANode { junction }),
+            }
+        }
+
+        fn set_broken(&mut self, junction: u16, broken: bool) -> Result<(), ConfigError> {
+            match junction {
+                1 => Err(ConfigError::FixedNode { junction }),
+                _ => Err(ConfigError::NotANode { junction }),
+            }
+        }
+    }
+}

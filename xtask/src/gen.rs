@@ -1,5 +1,5 @@
 //! Writes the plant files the firmware includes: per plant `<name>.rs` (Rust source from
-//! `tidewire_host::emit::rust_source`) and `<name>.bin` (the image from `emit::image_bytes`),
+//! `tidewire_host::emit::plant_rust_source`: the network and the specialised solver) and `<name>.bin` (the image from `emit::image_bytes`),
 //! plus `mod.rs` with one module per plant and the `wide_plants!` / `narrow_plants!` lists,
 //! and `m0_wide_plants!` / `m0_narrow_plants!`: the plants that fit the micro:bit's 16 KB RAM.
 //! Generated, not committed: `examples/firmware/.gitignore` ignores `plants/gen/`.
@@ -7,7 +7,8 @@
 use crate::plants::TestPlant;
 use std::fmt::Write as _;
 use std::path::Path;
-use tidewire_host::emit::{image_bytes, rust_source, write_atomic};
+use tidewire_host::compile::ProfileKind;
+use tidewire_host::emit::{image_bytes, plant_rust_source, write_atomic};
 
 /// Write `bytes` only if the file differs (keeps cargo from rebuilding the firmware).
 fn write_if_changed(path: &Path, bytes: &[u8]) -> Result<(), String> {
@@ -31,7 +32,11 @@ pub fn generate(dir: &Path, plants: &[(&str, Vec<TestPlant>)]) -> Result<(), Str
     for (profile, list) in plants {
         for p in list {
             let net = p.network();
-            write_if_changed(&dir.join(format!("{}.rs", p.name)), rust_source(&net, &p.name).as_bytes())?;
+            // The network for the generic solver and the plant-specialised solver (no events:
+            // every node fixed), exactly what `tidewire compile --rust` writes.
+            let kind = if *profile == "wide" { ProfileKind::Wide } else { ProfileKind::Narrow };
+            let source = plant_rust_source(&net, kind, &[], &p.name).map_err(|e| format!("{}: {e}", p.name))?;
+            write_if_changed(&dir.join(format!("{}.rs", p.name)), source.as_bytes())?;
             write_if_changed(&dir.join(format!("{}.bin", p.name)), &image_bytes(&net))?;
             let path = |ext: &str| format!("concat!(env!(\"CARGO_MANIFEST_DIR\"), \"/plants/gen/{}.{ext}\")", p.name);
             let _ = writeln!(m, "\n/// Test plant `{}` ({profile} profile).\npub mod {} {{", p.name, p.name);

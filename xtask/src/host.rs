@@ -17,11 +17,11 @@ fn hashes_for<P: Profile>(plant: &TestPlant) -> Result<[u32; 4], String> {
     let mut out = [0u32; 4];
     s.load(&plant.network()).map_err(|e| format!("host load of {}: {e}", plant.name))?;
     for (i, seed) in SEEDS.iter().enumerate() {
-        out[i] = run_hashed(&mut s, *seed, SAMPLES);
+        out[i] = run_hashed(&mut *s, *seed, SAMPLES);
     }
     s.load_image(&image_bytes(&plant.network())).map_err(|e| format!("host image load of {}: {e}", plant.name))?;
     for (i, seed) in SEEDS.iter().enumerate() {
-        out[2 + i] = run_hashed(&mut s, *seed, SAMPLES);
+        out[2 + i] = run_hashed(&mut *s, *seed, SAMPLES);
     }
     Ok(out)
 }

@@ -161,11 +161,16 @@ fn firmware(inject: bool) -> Result<(), String> {
         for (profile, list) in plants.iter().filter(|(prof, _)| part.profiles.contains(prof)) {
             for plant in list.iter().filter(|p| part.name != "M0" || gen::fits_m0(p)) {
                 let want = host::hashes(profile, plant)?;
+                // The specialised form must give the generic form's hashes (the host's
+                // specialised form is checked against the host's generic one, bit for bit, by
+                // `cargo test --test specialised` on these plants and stimuli).
+                let paths =
+                    [("source", 0), ("source", 1), ("image", 0), ("image", 1), ("specialised", 0), ("specialised", 1)];
                 for report in [&coarse, &fine] {
-                    for (i, (src, seed)) in
-                        [("source", 0), ("source", 1), ("image", 0), ("image", 1)].iter().enumerate()
-                    {
-                        let key = (profile.to_string(), plant.name.clone(), src.to_string(), *seed);
+                    for (src, seed) in paths {
+                        // want: [source seed 0, source seed 1, image seed 0, image seed 1].
+                        let i = seed as usize + if src == "image" { 2 } else { 0 };
+                        let key = (profile.to_string(), plant.name.clone(), src.to_string(), seed);
                         match report.hashes.get(&key) {
                             Some(h) if *h == want[i] => checked += 1,
                             Some(h) => {
@@ -179,10 +184,12 @@ fn firmware(inject: bool) -> Result<(), String> {
                     }
                 }
                 println!(
-                    "hash {} {profile:6} {:10} host {:08x} {:08x} = firmware (source and image)",
+                    "hash {} {profile:6} {:10} host {:08x} {:08x} = firmware (source, image, specialised)",
                     part.name, plant.name, want[0], want[1]
                 );
-                rows.push(table::row(part, profile, plant, &coarse, &fine)?);
+                for form in ["generic", "specialised"] {
+                    rows.push(table::row(part, profile, form, plant, &coarse, &fine)?);
+                }
             }
         }
     }

@@ -2,15 +2,18 @@
 
 use std::collections::BTreeMap;
 
+/// (profile, plant, form, seed index): which timed block.
+pub type TicksKey = (String, String, String, u32);
+
 /// Everything one QEMU run reported.
 #[derive(Debug, Default)]
 pub struct Report {
     /// (profile, plant, "source" | "image", seed index) → hash.
     pub hashes: BTreeMap<(String, String, String, u32), u32>,
-    /// (profile, plant, seed index) → (samples, ticks with step, ticks of the baseline loop).
-    pub ticks: BTreeMap<(String, String, u32), (u32, u32, u32)>,
-    /// (profile, plant) → solver size in bytes.
-    pub ram: BTreeMap<(String, String), u32>,
+    /// (profile, plant, form, seed index) → (samples, ticks with step, ticks of the baseline loop).
+    pub ticks: BTreeMap<TicksKey, (u32, u32, u32)>,
+    /// (profile, plant, form) → solver size in bytes.
+    pub ram: BTreeMap<(String, String, String), u32>,
     /// Calibration: (cycles asked of `asm::delay`, ticks).
     pub clock: Option<(u32, u32)>,
     pub done: bool,
@@ -32,11 +35,11 @@ pub fn parse(text: &str) -> Report {
             Some("HASH") => hex(g(4)).zip(hex(g(5))).map(|(seed, h)| {
                 r.hashes.insert((key(1), key(2), key(3), seed), h);
             }),
-            Some("TICKS") => hex(g(3)).zip(hex(g(4))).zip(hex(g(5)).zip(hex(g(6)))).map(|((seed, n), (t, b))| {
-                r.ticks.insert((key(1), key(2), seed), (n, t, b));
+            Some("TICKS") => hex(g(4)).zip(hex(g(5))).zip(hex(g(6)).zip(hex(g(7)))).map(|((seed, n), (t, b))| {
+                r.ticks.insert((key(1), key(2), key(3), seed), (n, t, b));
             }),
-            Some("RAM") => hex(g(3)).map(|b| {
-                r.ram.insert((key(1), key(2)), b);
+            Some("RAM") => hex(g(4)).map(|b| {
+                r.ram.insert((key(1), key(2), key(3)), b);
             }),
             Some("CLOCK") => hex(g(1)).zip(hex(g(2))).map(|c| r.clock = Some(c)),
             Some("DONE") => {

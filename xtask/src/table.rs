@@ -56,13 +56,20 @@ pub fn check_clock(part: &Part, r: &Report, shift: u32) -> Result<f64, String> {
     Ok(hz)
 }
 
-/// The table row of one plant on one part.
-pub fn row(part: &Part, profile: &str, plant: &TestPlant, coarse: &Report, fine: &Report) -> Result<Row, String> {
+/// The table row of one plant on one part in one form (`generic` or `specialised`).
+pub fn row(
+    part: &Part,
+    profile: &str,
+    form: &'static str,
+    plant: &TestPlant,
+    coarse: &Report,
+    fine: &Report,
+) -> Result<Row, String> {
     let get = |r: &Report, seed: u32| {
         r.ticks
-            .get(&(profile.to_string(), plant.name.clone(), seed))
+            .get(&(profile.to_string(), plant.name.clone(), form.to_string(), seed))
             .copied()
-            .ok_or_else(|| format!("{}: no TICKS for {profile} {} seed {seed}", part.name, plant.name))
+            .ok_or_else(|| format!("{}: no TICKS for {profile} {} {form} seed {seed}", part.name, plant.name))
     };
     let (n, t0, b0) = get(coarse, 0)?;
     let (_, t1, _) = get(coarse, 1)?;
@@ -74,11 +81,11 @@ pub fn row(part: &Part, profile: &str, plant: &TestPlant, coarse: &Report, fine:
         part: part.name,
         machine: part.machine,
         profile: profile.to_string(),
-        form: "generic",
+        form,
         junctions: plant.junctions.len(),
         plant: plant.name.clone(),
         ports,
-        ram: coarse.ram.get(&(profile.to_string(), plant.name.clone())).copied().unwrap_or(0),
+        ram: coarse.ram.get(&(profile.to_string(), plant.name.clone(), form.to_string())).copied().unwrap_or(0),
         samples: n,
         per_sample,
         per_port: per_sample / ports as f64,

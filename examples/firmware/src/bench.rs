@@ -13,7 +13,7 @@ use crate::stimulus::{run_hashed, Stimulus, SAMPLES, SEEDS};
 /// Samples per timed block (keeps a block far below one 24-bit wrap at `-icount shift=6`).
 pub const TIMED: u32 = 1024;
 use cortex_m::peripheral::{syst::SystClkSource, SYST};
-use tidewire_core::{Network, Profile, Solver};
+use tidewire_core::{Network, PlantStep, Profile, Solver};
 
 /// SysTick reload: the full 24 bits.
 const RELOAD: u32 = 0x00ff_ffff;
@@ -61,13 +61,9 @@ pub fn time_baseline(syst: &mut SYST, seed: u32) -> u32 {
     t
 }
 
-/// Ticks of `TIMED` calls of `step` (plus the stimulus loop) from rest.
+/// Ticks of `TIMED` calls of `step` (plus the stimulus loop) from rest, either form.
 #[inline(never)]
-fn time_steps<P: Profile, const PO: usize, const J: usize, const M: usize, const L: usize>(
-    syst: &mut SYST,
-    solver: &mut Solver<P, PO, J, M, L>,
-    seed: u32,
-) -> u32 {
+fn time_steps<S: PlantStep>(syst: &mut SYST, solver: &mut S, seed: u32) -> u32 {
     solver.reset();
     let mut stim = Stimulus::new(seed, TIMED);
     let mut sink = 0i16;
@@ -114,7 +110,12 @@ pub fn run_plant<P: Profile, const PO: usize, const J: usize, const M: usize, co
 ) -> bool {
     // On the stack: the frame is given back before the next plant runs.
     let mut solver: Solver<P, PO, J, M, L> = Solver::new();
-    out.str("RAM").word(profile).word(name).hex(core::mem::size_of::<Solver<P, PO, J, M, L>>() as u32).nl();
+    out.str("RAM")
+        .word(profile)
+        .word(name)
+        .word("generic")
+        .hex(core::mem::size_of::<Solver<P, PO, J, M, L>>() as u32)
+        .nl();
     for from_image in [false, true] {
         let source = if from_image { "image" } else { "source" };
         let ok = if from_image { load_image(&mut solver, image) } else { load(&mut solver, net) };
@@ -131,7 +132,26 @@ pub fn run_plant<P: Profile, const PO: usize, const J: usize, const M: usize, co
     for (i, seed) in SEEDS.iter().enumerate() {
         let t = time_steps(syst, &mut solver, *seed);
         let base = time_baseline(syst, *seed);
-        out.str("TICKS").word(profile).word(name).hex(i as u32).hex(TIMED).hex(t).hex(base).nl();
+        out.str("TICKS").word(profile).word(name).word("generic").hex(i as u32).hex(TIMED).hex(t).hex(base).nl();
+    }
+    true
+}
+
+/// Run the plant-specialised form of one plant (`tidewire compile --rust`'s `specialised::Plant`):
+/// hashes for both stimuli (printed with the load path `specialised`, so the host compares them
+/// with the generic form's), then timings. Its own frame, so the generic solver's is gone.
+#[inline(never)]
+pub fn run_specialised<S: PlantStep + Default>(syst: &mut SYST, out: &mut Out, profile: &str, name: &str) -> bool {
+    let mut plant = S::default();
+    out.str("RAM").word(profile).word(name).word("specialised").hex(core::mem::size_of::<S>() as u32).nl();
+    for (i, seed) in SEEDS.iter().enumerate() {
+        let h = run_hashed(&mut plant, *seed, SAMPLES);
+        out.str("HASH").word(profile).word(name).word("specialised").hex(i as u32).hex(h).nl();
+    }
+    for (i, seed) in SEEDS.iter().enumerate() {
+        let t = time_steps(syst, &mut plant, *seed);
+        let base = time_baseline(syst, *seed);
+        out.str("TICKS").word(profile).word(name).word("specialised").hex(i as u32).hex(TIMED).hex(t).hex(base).nl();
     }
     true
 }

@@ -2,8 +2,8 @@
 //! `m4`, QEMU `microbit` Cortex-M0 with feature `m0`): for every generated test plant and
 //! number profile, hashes of every output sample from the source-included and the image-loaded
 //! network, and SysTick readings of the per-sample loop, printed over semihosting as lines
-//! `HASH profile plant source|image seed hash`, `TICKS profile plant seed samples ticks
-//! baseline`, `CLOCK cycles ticks`, then `DONE`; exits with semihosting status 0 (1 on error).
+//! `HASH profile plant source|image|specialised seed hash`, `TICKS profile plant form seed
+//! samples ticks baseline`, `CLOCK cycles ticks`, then `DONE`; exits with semihosting status 0 (1 on error).
 //!
 //! No panic path: the panic handler calls a function that nothing defines, so a release build
 //! (LTO, panic = abort) links only if no panic is reachable from anything this program runs,
@@ -55,14 +55,8 @@ macro_rules! run {
             { plants::$m::JUNCTIONS },
             { plants::$m::MEMORY },
             { plants::$m::LOSS_ENDS },
-        >(
-            &mut $syst,
-            &mut $out,
-            stringify!($p),
-            $name,
-            &plants::$m::NETWORK,
-            plants::$m::IMAGE,
-        );
+        >(&mut $syst, &mut $out, stringify!($p), $name, &plants::$m::NETWORK, plants::$m::IMAGE);
+        $ok &= bench::run_specialised::<plants::$m::specialised::Plant>(&mut $syst, &mut $out, stringify!($p), $name);
     };
 }
 

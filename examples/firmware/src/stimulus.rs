@@ -7,7 +7,7 @@
 //! Hash: FNV-1a (32-bit) over, per sample, the step output (i16, little-endian) and then
 //! every `probe_raw(k)` (i32, little-endian) for k < `probe_count()`.
 
-use tidewire_core::{Profile, Solver};
+use tidewire_core::PlantStep;
 
 /// Seeds of the two stimuli every plant is run with.
 pub const SEEDS: [u32; 2] = [0x2545_f491, 0x9e37_79b9];
@@ -72,12 +72,9 @@ impl Fnv {
     }
 }
 
-/// Reset `solver`, run the stimulus of `seed` through it and hash every output sample.
-pub fn run_hashed<P: Profile, const PO: usize, const J: usize, const M: usize, const L: usize>(
-    solver: &mut Solver<P, PO, J, M, L>,
-    seed: u32,
-    len: u32,
-) -> u32 {
+/// Reset `solver` (either form: the generic `Solver` or a plant-specialised one), run the
+/// stimulus of `seed` through it and hash every output sample.
+pub fn run_hashed<S: PlantStep>(solver: &mut S, seed: u32, len: u32) -> u32 {
     solver.reset();
     let mut stim = Stimulus::new(seed, len);
     let mut h = Fnv::new();

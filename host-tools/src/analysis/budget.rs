@@ -43,11 +43,19 @@ pub struct Part {
     pub clock_hz: f64,
 }
 
-/// The two part classes the core targets, with the clock assumed for each [practice].
-pub const PARTS: [Part; 2] = [
+/// The two part classes the core targets, with the clock assumed for each [practice], in
+/// both forms of the step: `generic` (the data-driven solver, which loads images at run time:
+/// a rig) and `specialised` (the plant-specialised solver `tidewire compile --rust` emits:
+/// firmware built for one fixed plant). Generic first: `rig::parts` indexes this table.
+pub const PARTS: [Part; 4] = [
     Part { name: "Cortex-M0 class", figures_part: "M0", profile: "narrow", form: "generic", clock_hz: 48e6 },
     Part { name: "Cortex-M4 class", figures_part: "M4", profile: "wide", form: "generic", clock_hz: 168e6 },
+    Part { name: "Cortex-M0 class", figures_part: "M0", profile: "narrow", form: "specialised", clock_hz: 48e6 },
+    Part { name: "Cortex-M4 class", figures_part: "M4", profile: "wide", form: "specialised", clock_hz: 168e6 },
 ];
+
+/// Offset from a part class's generic entry in [`PARTS`] to its specialised one.
+pub const SPECIALISED_OFFSET: usize = 2;
 
 /// Least-squares (per_port, base, machine, largest measured plant) for one part, profile and
 /// form, or `None` if the figures hold fewer than two plants of it.
@@ -138,5 +146,7 @@ mod tests {
         let lines = budgets(32, 16, 100e6);
         assert!(lines[1].contains("Cortex-M4 class at 168 MHz (wide profile, generic form)"), "{}", lines[1]);
         assert!(lines[0].contains("Cortex-M0 class at 48 MHz (narrow profile, generic form)"), "{}", lines[0]);
+        assert!(lines[2].contains("Cortex-M0 class at 48 MHz (narrow profile, specialised form)"), "{}", lines[2]);
+        assert!(lines[3].contains("Cortex-M4 class at 168 MHz (wide profile, specialised form)"), "{}", lines[3]);
     }
 }

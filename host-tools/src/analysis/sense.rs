@@ -114,7 +114,9 @@ pub(super) fn after_scale(c: &Compiled, plant: &Plant, file: &str, a: &mut Analy
     // Only where a delay is still rounded: a delay line with no fraction (shorter than
     // `MIN_FRACTIONAL_DELAY`, or at a rig port). Lumped segments have no delay to round:
     // their model error is in the report instead.
-    for s in c.report.segments.iter().filter(|s| s.model == crate::compile::SegmentModel::DelayLine && s.fraction.is_none()) {
+    for s in
+        c.report.segments.iter().filter(|s| s.model == crate::compile::SegmentModel::DelayLine && s.fraction.is_none())
+    {
         let rel = s.error_s / s.tau;
         if rel.abs() > TIMING_WARNING {
             a.warnings.push(format!(

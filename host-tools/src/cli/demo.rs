@@ -25,9 +25,9 @@ pub(super) fn run(out: &Path) -> Result<i32, Failure> {
     let (c, a) = prepare(&plant, &file, ProfileKind::Wide)?;
     print!("{}", report_text(&plant, &c, &a, &file));
     println!();
-    write_outputs(&c, &plant.name, Some(&out.join("plant-wide.bin")), Some(&out.join("plant-wide.rs")))?;
+    write_outputs(&c, &plant, &plant_path, Some(&out.join("plant-wide.bin")), Some(&out.join("plant-wide.rs")))?;
     let (narrow, _) = prepare(&plant, &file, ProfileKind::Narrow)?;
-    write_outputs(&narrow, &plant.name, Some(&out.join("plant-narrow.bin")), None)?;
+    write_outputs(&narrow, &plant, &plant_path, Some(&out.join("plant-narrow.bin")), None)?;
 
     let csv = out.join("simulate.csv");
     let r = crate::host_core::run_core(&c, c.samples, &[], &|_| {})

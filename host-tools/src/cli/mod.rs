@@ -149,6 +149,9 @@ pub enum Command {
         /// Highest rate tried (default: four times the plant's rate).
         #[arg(long)]
         to: Option<String>,
+        /// The step's form the budget assumes: generic (loads images, a rig) or specialised.
+        #[arg(long, value_enum, default_value = "generic")]
+        form: crate::rig::parts::Form,
     },
     /// Drive a rig over its control link: load, start, stop, schedule, capture, status.
     Rig(rig::RigArgs),
@@ -266,7 +269,9 @@ pub fn main() -> i32 {
         }
         Command::Demo { out } => demo::run(&out),
         Command::Rig(args) => rig::run(args),
-        Command::Rate { plant, part, from, to } => rate::run(&plant, part.as_deref(), from.as_deref(), to.as_deref()),
+        Command::Rate { plant, part, from, to, form } => {
+            rate::run(&plant, part.as_deref(), from.as_deref(), to.as_deref(), form)
+        }
         Command::Extract(args) => extract::run(&args),
     };
     match r {

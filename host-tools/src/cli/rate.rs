@@ -19,7 +19,7 @@ use crate::analysis::rate_search::{self, default_bounds};
 use crate::compile::{compile, Compiled, ProfileKind};
 use crate::plant::units::{parse_quantity, UnitKind};
 use crate::plant::{load_plant, Plant};
-use crate::rig::parts::{find, RigPart, RIG_PARTS};
+use crate::rig::parts::{find, Form, RigPart, RIG_PARTS};
 use std::path::Path;
 
 fn si_rate(hz: f64) -> String {
@@ -33,8 +33,8 @@ fn si_rate(hz: f64) -> String {
 }
 
 /// The highest rate the part keeps, compiled at that rate: (rate, network there).
-fn settle(plant: &Plant, file: &str, part: &RigPart, start: &Compiled) -> Result<(f64, Compiled), String> {
-    let cost = |c: &Compiled| part.instructions(c.report.ports, c.report.junctions).map(|i| part.clock_hz / i);
+fn settle(plant: &Plant, file: &str, part: &RigPart, form: Form, start: &Compiled) -> Result<(f64, Compiled), String> {
+    let cost = |c: &Compiled| part.instructions(c.report.ports, c.report.junctions, form).map(|i| part.clock_hz / i);
     let mut rate = cost(start).ok_or("the part has no measured cost model")?;
     let mut best = None;
     // The network shrinks (or stays) as the rate falls, so the part's rate rises or stays:
@@ -53,7 +53,13 @@ fn settle(plant: &Plant, file: &str, part: &RigPart, start: &Compiled) -> Result
     best.ok_or_else(|| format!("no rate found that the part keeps (last tried {})", si_rate(rate)))
 }
 
-pub(super) fn run(path: &Path, part_name: Option<&str>, from: Option<&str>, to: Option<&str>) -> Result<i32, Failure> {
+pub(super) fn run(
+    path: &Path,
+    part_name: Option<&str>,
+    from: Option<&str>,
+    to: Option<&str>,
+    form: Form,
+) -> Result<i32, Failure> {
     let part = match part_name {
         None => None,
         Some(name) => Some(find(name).ok_or_else(|| {
@@ -76,13 +82,13 @@ pub(super) fn run(path: &Path, part_name: Option<&str>, from: Option<&str>, to: 
     rate_search::check_bounds(&plant, &file, lo, hi)?;
     let profile = part.map_or(ProfileKind::Wide, |p| p.profile);
     let code = match part {
-        Some(part) => real_time(&plant, &file, part)?,
+        Some(part) => real_time(&plant, &file, part, form)?,
         None => {
             println!("== {} ==", plant.name);
             0
         }
     };
-    let found = search_table(&plant, &file, profile, part, lo, hi)?;
+    let found = search_table(&plant, &file, profile, part, form, lo, hi)?;
     Ok(if part.is_some() {
         code
     } else if found {
@@ -98,6 +104,7 @@ fn search_table(
     file: &str,
     profile: ProfileKind,
     part: Option<&RigPart>,
+    form: Form,
     lo: f64,
     hi: f64,
 ) -> Result<bool, Failure> {
@@ -115,8 +122,14 @@ fn search_table(
         None => RIG_PARTS.iter().collect(),
     };
     println!(
-        "   {:>13} {:>6} {:>9} {:>10} {:>10} {:<27} instructions per sample (real time?)",
-        "rate", "lumped", "line ends", "worst max", "worst rms", "verdict"
+        "   {:>13} {:>6} {:>9} {:>10} {:>10} {:<27} instructions per sample, {} form (real time?)",
+        "rate",
+        "lumped",
+        "line ends",
+        "worst max",
+        "worst rms",
+        "verdict",
+        form.name()
     );
     for p in &s.points {
         let mark = if p.bisected { "~" } else { " " };
@@ -124,7 +137,7 @@ fn search_table(
             Ok(f) => {
                 let costs: Vec<String> = parts
                     .iter()
-                    .map(|part| match part.instructions(f.ports, f.junctions) {
+                    .map(|part| match part.instructions(f.ports, f.junctions, form) {
                         Some(i) => format!(
                             "{} {:.0} ({})",
                             part.name,
@@ -159,13 +172,22 @@ fn search_table(
 }
 
 /// The part's real-time answer (the command's answer before the rate search existed).
-fn real_time(plant: &Plant, file: &str, part: &RigPart) -> Result<i32, Failure> {
+fn real_time(plant: &Plant, file: &str, part: &RigPart, form: Form) -> Result<i32, Failure> {
     let file = file.to_string();
     let own = compile(plant, &file, part.profile)?;
     let fs = plant.sample_rate;
     println!("== {} on {} ==", plant.name, part.name);
     println!("   part: {}; {} KiB RAM, {} KiB flash", part.description, part.ram / 1024, part.flash / 1024);
-    let instr = part.instructions(own.report.ports, own.report.junctions).unwrap_or(f64::NAN);
+    println!(
+        "   form: {} ({}); instruction counts from docs/firmware-figures.json",
+        form.name(),
+        match form {
+            Form::Generic => "the data-driven solver that loads plant images at run time, as a rig does",
+            Form::Specialised =>
+                "the plant-specialised solver of `tidewire compile --rust`, this plant built into the firmware",
+        }
+    );
+    let instr = part.instructions(own.report.ports, own.report.junctions, form).unwrap_or(f64::NAN);
     let keeps = part.clock_hz / instr;
     println!(
         "   at the plant's rate {}: {} line ends, {} junctions, about {:.0} instructions per sample -> the part keeps {}",
@@ -180,7 +202,7 @@ fn real_time(plant: &Plant, file: &str, part: &RigPart) -> Result<i32, Failure> 
     } else {
         println!("   the plant's own rate runs {:.0}x slower than real time", fs / keeps);
     }
-    let (rate, c) = match settle(plant, &file, part, &own) {
+    let (rate, c) = match settle(plant, &file, part, form, &own) {
         Ok((r, c)) => {
             println!("   highest real-time rate: {} ({} line ends compiled at that rate)", si_rate(r), c.report.ports);
             (Some(r), c)

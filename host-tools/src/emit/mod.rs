@@ -3,9 +3,11 @@
 //! the same [`Network`](tidewire_core::Network), so the same plant gives the same solver either way.
 mod image;
 mod rust_source;
+mod specialised;
 
 pub use image::{image_bytes, write_image};
 pub use rust_source::{capacities, rust_source, write_rust_source};
+pub use specialised::{plant_rust_source, specialised_source, switched_junctions, EmitError};
 
 /// The crate's one atomic writer, re-exported here for the tools that write images.
 pub use crate::files::write_atomic;

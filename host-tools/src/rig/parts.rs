@@ -3,8 +3,27 @@
 //! instructions per port update are the measured cost models of `analysis::budget::PARTS`
 //! (from `cargo run -p xtask -- firmware`), not copies of them.
 
-use crate::analysis::budget::{instructions_per_sample, PARTS as COST_CLASSES};
+use crate::analysis::budget::{instructions_per_sample, PARTS as COST_CLASSES, SPECIALISED_OFFSET};
 use crate::compile::ProfileKind;
+
+/// Which form of the step a budget assumes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, clap::ValueEnum)]
+pub enum Form {
+    /// The data-driven solver: loads a plant image at run time (what a rig runs).
+    Generic,
+    /// The plant-specialised solver `tidewire compile --rust` emits: one fixed plant built in.
+    Specialised,
+}
+
+impl Form {
+    /// Name as in the figures file.
+    pub fn name(self) -> &'static str {
+        match self {
+            Form::Generic => "generic",
+            Form::Specialised => "specialised",
+        }
+    }
+}
 
 /// One part.
 pub struct RigPart {
@@ -28,11 +47,15 @@ pub struct RigPart {
 }
 
 impl RigPart {
-    /// Instructions per sample for a network of `ports` line ends (the measured cost model of
-    /// the part's class: a least-squares line through the firmware figures; the junctions are
-    /// folded into the per-port cost there).
-    pub fn instructions(&self, ports: usize, _junctions: usize) -> Option<f64> {
-        COST_CLASSES.get(self.cost).and_then(|c| instructions_per_sample(c, ports))
+    /// Instructions per sample for a network of `ports` line ends in the step's `form` (the
+    /// measured cost model of the part's class and form: a least-squares line through the
+    /// firmware figures; the junctions are folded into the per-port cost there).
+    pub fn instructions(&self, ports: usize, _junctions: usize, form: Form) -> Option<f64> {
+        let k = match form {
+            Form::Generic => self.cost,
+            Form::Specialised => self.cost + SPECIALISED_OFFSET,
+        };
+        COST_CLASSES.get(k).and_then(|c| instructions_per_sample(c, ports))
     }
 }
 

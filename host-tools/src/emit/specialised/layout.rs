@@ -1,0 +1,79 @@
+//! Where every port's waves live in the specialised solver.
+//!
+//! All line rings share one delay memory of M = 2^k waves and one sample counter n. Port p
+//! (arriving delay d_p) owns d_p + 1 consecutive offsets [S_p, S_p + d_p] (S_p = Σ of
+//! (d + 1) over the ports before it, so the spans are disjoint and fit in M). The wave its
+//! partner sends at sample n is written at (n + S_p + d_p) & (M − 1); the wave arriving at
+//! sample n, sent d_p samples earlier, sits at (n + S_p) & (M − 1). Every span moves up by one
+//! per sample, so one counter replaces every per-port cursor, and the mask lets the compiler
+//! prove every index in bounds. The one spare slot per port is what lets a junction write its
+//! outgoing waves straight into the rings while later junctions still read this sample's
+//! arriving waves: no write of sample n lands on a wave another port reads at sample n.
+//!
+//! A port whose arriving wave must be kept between samples (it passes a loss filter, or it
+//! is a reactive element's state, a ring of one sample feeding itself) keeps it in `b[p]`.
+
+use super::loaded::Loaded;
+
+/// Where port p's arriving wave for the coming sample is read from.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Arrival {
+    /// From the delay memory at (n + offset) & MASK, with n the counter of the coming sample.
+    Memory { offset: u32 },
+    /// From the state array `b[slot]`.
+    State { slot: usize },
+}
+
+/// The whole layout.
+#[derive(Debug, Clone, PartialEq, Eq)]
+pub struct Layout {
+    /// Delay memory length M (a power of two, >= 1).
+    pub mem_len: u32,
+    /// Per port: its arrival.
+    pub arrival: Vec<Arrival>,
+    /// Per line port: the offset its ring is written at, (n + S_p + d_p); `None` for elements.
+    pub write: Vec<Option<u32>>,
+    /// Per line port: S_p, where this sample's arriving wave sits (n + S_p) and, after the
+    /// writes of sample n, the next sample's (n + 1 + S_p).
+    pub read: Vec<Option<u32>>,
+    /// Length of the state array `b`.
+    pub states: usize,
+}
+
+impl Layout {
+    /// The layout of `l`, or `None` if the delay memory would not fit a u32 index.
+    pub fn of(l: &Loaded) -> Option<Layout> {
+        let lossy: Vec<bool> = (0..l.ports.len()).map(|p| l.losses.iter().any(|x| x.port as usize == p)).collect();
+        let mut start: u64 = 0;
+        let mut write = Vec::with_capacity(l.ports.len());
+        let mut read = Vec::with_capacity(l.ports.len());
+        for port in &l.ports {
+            if port.element {
+                write.push(None);
+                read.push(None);
+                continue;
+            }
+            let d = u64::from(port.delay.max(1));
+            write.push(Some(start + d));
+            read.push(Some(start));
+            start += d + 1;
+        }
+        let mem_len = start.max(1).checked_next_power_of_two().filter(|m| *m <= 1 << 31)?;
+        let mut states = 0usize;
+        let arrival = l
+            .ports
+            .iter()
+            .zip(&read)
+            .zip(&lossy)
+            .map(|((port, r), lossy)| match r {
+                Some(r) if !*lossy && !port.element => Arrival::Memory { offset: *r as u32 },
+                _ => {
+                    states += 1;
+                    Arrival::State { slot: states - 1 }
+                }
+            })
+            .collect();
+        let to32 = |v: Vec<Option<u64>>| v.into_iter().map(|x| x.map(|x| x as u32)).collect();
+        Some(Layout { mem_len: mem_len as u32, arrival, write: to32(write), read: to32(read), states })
+    }
+}

@@ -1,0 +1,391 @@
+//! The plant-specialised solver: Rust source for one plant and profile, a type implementing
+//! `tidewire_core::PlantStep` with the coefficients as constants, the junction sequence
+//! unrolled (no dispatch), every ring addressed from one sample counter through a mask (no
+//! per-port cursors, no bounds check that can fail), and the same arithmetic as the generic
+//! `Solver`: the same `Profile` calls in the same order on the coefficients the core itself
+//! computed when it loaded the plant (`loaded`), so the two forms agree bit for bit.
+//!
+//! Structure: `loaded` reads the generic solver's plan, `layout` places the rings,
+//! `junctions` has one arm per junction kind; this module writes the type around them.
+mod junctions;
+mod layout;
+mod loaded;
+
+use crate::compile::ProfileKind;
+use layout::{Arrival, Layout};
+use loaded::Loaded;
+use std::fmt::Write as _;
+use tidewire_core::emitted::{DrivePlan, JunctionPlan};
+use tidewire_core::{BuildError, JunctionId, Network};
+
+/// Why no specialised solver was written.
+#[derive(Debug, Clone, PartialEq, thiserror::Error)]
+pub enum EmitError {
+    /// The core refused the network (the compiler should have said so first).
+    #[error("the core refused the network: {0}")]
+    Refused(BuildError),
+    /// Something the specialised form does not support yet (junction index where known).
+    #[error("the plant-specialised solver does not support {what} yet")]
+    Unsupported { what: String, junction: Option<usize> },
+    /// The host could not run the plan reader.
+    #[error("host failure: {0}")]
+    Host(String),
+}
+
+/// The ports a junction scatters.
+fn junction_ports(jp: &JunctionPlan) -> std::ops::Range<usize> {
+    match *jp {
+        JunctionPlan::Node { first, count, .. } => first as usize..first as usize + count as usize,
+        JunctionPlan::Series { p, q, .. } | JunctionPlan::SeriesInductor { p, q, .. } => {
+            p as usize..(q as usize).max(p as usize) + 1
+        }
+        JunctionPlan::Rig { port } => port as usize..port as usize + 1,
+        _ => 0..0,
+    }
+}
+
+/// `a3, a4, a5` for ports [3, 4, 5] and prefix "a".
+pub(crate) fn list(ports: &[usize], prefix: &str) -> String {
+    ports.iter().map(|p| format!("{prefix}{p}")).collect::<Vec<_>>().join(", ")
+}
+
+/// What `tidewire compile --rust` writes: the network as `static`s for the generic solver
+/// (`rust_source`), then the plant-specialised solver (`pub mod specialised`).
+pub fn plant_rust_source(
+    net: &Network<'_>,
+    profile: ProfileKind,
+    switched: &[JunctionId],
+    title: &str,
+) -> Result<String, EmitError> {
+    let spec = specialised_source(net, profile, switched)?;
+    Ok(super::rust_source(net, title) + &spec)
+}
+
+/// The junctions a compiled plant's events switch.
+pub fn switched_junctions(c: &crate::compile::Compiled) -> Vec<JunctionId> {
+    c.events
+        .iter()
+        .map(|e| match e.action {
+            crate::compile::CoreAction::SetShunt(j, _) | crate::compile::CoreAction::Break(j) => j,
+        })
+        .collect()
+}
+
+/// The source of `pub mod specialised { pub struct Plant }` for `net` compiled for
+/// `profile`; `switched` are the junctions the plant's events change (their nodes keep
+/// run-time coefficients, every other node is constants).
+pub fn specialised_source(
+    net: &Network<'_>,
+    profile: ProfileKind,
+    switched: &[JunctionId],
+) -> Result<String, EmitError> {
+    let l = loaded::load(net, profile)?;
+    let layout = Layout::of(&l)
+        .ok_or(EmitError::Unsupported { what: "a delay memory of 2^31 waves or more".into(), junction: None })?;
+    Writer { l: &l, layout: &layout, profile, switched }.write()
+}
+
+struct Writer<'a> {
+    l: &'a Loaded,
+    layout: &'a Layout,
+    profile: ProfileKind,
+    switched: &'a [JunctionId],
+}
+
+impl Writer<'_> {
+    /// Node slots of the switched nodes, by junction.
+    fn switch_slots(&self) -> Vec<Option<usize>> {
+        let mut next = 0usize;
+        self.l
+            .junctions
+            .iter()
+            .enumerate()
+            .map(|(j, jp)| {
+                let switched = self.switched.iter().any(|s| *s as usize == j);
+                (switched && matches!(jp, JunctionPlan::Node { .. })).then(|| {
+                    next += 1;
+                    next - 1
+                })
+            })
+            .collect()
+    }
+
+    /// Per port, its slot in `self.held` when its node runs the hold rule (a fixed node with a
+    /// hold threshold, or any switched node, whose threshold is known only at run time): the
+    /// node needs each port's outgoing wave of the sample before, as the generic solver keeps
+    /// it in its `a` table (an element port's after its adaptor).
+    fn held_slots(&self, slots: &[Option<usize>]) -> Vec<Option<usize>> {
+        let mut out = vec![None; self.l.ports.len()];
+        let mut next = 0usize;
+        for (jp, slot) in self.l.junctions.iter().zip(slots) {
+            if let JunctionPlan::Node { first, count, coef, .. } = jp {
+                if coef.hold != 0 || slot.is_some() {
+                    for p in *first as usize..*first as usize + *count as usize {
+                        if let Some(o) = out.get_mut(p) {
+                            *o = Some(next);
+                            next += 1;
+                        }
+                    }
+                }
+            }
+        }
+        out
+    }
+
+    /// The expression of port p's arriving wave at the start of a sample (counter `n`).
+    fn arrival(&self, p: usize) -> String {
+        match self.layout.arrival.get(p) {
+            Some(Arrival::Memory { offset }) => format!("self.mem[(n.wrapping_add({offset}) & MASK) as usize]"),
+            Some(Arrival::State { slot }) => format!("self.b[{slot}]"),
+            None => "P::ZERO".into(),
+        }
+    }
+
+    fn write(&self) -> Result<String, EmitError> {
+        let l = self.l;
+        let (pname, wave) = match self.profile {
+            ProfileKind::Wide => ("Wide", "i32"),
+            ProfileKind::Narrow => ("Narrow", "i16"),
+        };
+        let slots = self.switch_slots();
+        let n_switched = slots.iter().flatten().count();
+        let n_chokes = l.junctions.iter().filter(|j| matches!(j, JunctionPlan::SeriesInductor { .. })).count();
+        let n_sections: usize = l.losses.iter().map(|x| x.sections as usize).sum();
+        let n_allpass = l.losses.iter().filter(|x| x.allpass.is_some()).count();
+        let n_held = self.held_slots(&slots).iter().flatten().count();
+        let rig = match l.drive {
+            DrivePlan::Rig { port, latency } => Some((port, latency)),
+            _ => None,
+        };
+        let hist = if rig.is_some() { 64 } else { 0 };
+        let mut s = String::new();
+        let _ = writeln!(
+            s,
+            "\n/// The plant-specialised solver of this plant ({} profile): the generic solver's",
+            self.profile.name()
+        );
+        let _ =
+            writeln!(s, "/// arithmetic with the coefficients as constants and the junctions unrolled; bit-exact with");
+        let _ =
+            writeln!(s, "/// `Solver` loaded from `NETWORK`. Only the nodes the plant's events switch can change at");
+        let _ = writeln!(
+            s,
+            "/// run time (`set_shunt`, `set_broken`); every other node is fixed (`ConfigError::FixedNode`)."
+        );
+        let _ = writeln!(
+            s,
+            "#[allow(clippy::all, unused_imports, unused_variables, unused_mut, non_snake_case, dead_code)]"
+        );
+        let _ = writeln!(s, "pub mod specialised {{");
+        let _ = writeln!(s, "    use tidewire_core::emitted::{{node_coefficients, NodeCoef}};");
+        let _ = writeln!(s, "    use tidewire_core::{{ConfigError, PlantStep, Profile, Shunt}};\n");
+        let _ = writeln!(s, "    type P = tidewire_core::{pname};");
+        let _ = writeln!(s, "    type W = {wave};");
+        let _ = writeln!(s, "    /// Delay memory, waves (a power of two: every ring is addressed through `MASK`).");
+        let _ = writeln!(s, "    pub const MEM: usize = {};", self.layout.mem_len);
+        let _ = writeln!(s, "    const MASK: u32 = {};", self.layout.mem_len - 1);
+        let _ = writeln!(s, "    const IO_SHIFT: u32 = {};", l.io_shift);
+        let _ = writeln!(s, "    const EXPONENT: u32 = {};", l.exponent);
+        let _ = writeln!(s, "    const PROBES: usize = {};", l.probes.len());
+        let _ = writeln!(s, "    const HIST: usize = {hist};");
+        let _ = writeln!(s, "    const INITIAL_NODES: [NodeCoef; {n_switched}] = [");
+        for jp in l.junctions.iter().zip(&slots).filter(|(_, s)| s.is_some()).map(|(j, _)| j) {
+            if let JunctionPlan::Node { coef: c, .. } = jp {
+                let _ = writeln!(
+                    s,
+                    "        NodeCoef {{ recip: {}, shift: {}, total: {}, short: {}, broken: {}, hold: {} }},",
+                    c.recip, c.shift, c.total, c.short, c.broken, c.hold
+                );
+            }
+        }
+        let _ = writeln!(s, "    ];\n");
+        let _ = writeln!(
+            s,
+            "    /// The plant's state: one delay memory, one sample counter, the states that outlive a sample."
+        );
+        let _ = writeln!(s, "    pub struct Plant {{");
+        let _ = writeln!(s, "        n: u32,\n        mem: [W; MEM],\n        b: [W; {}],", self.layout.states);
+        let _ = writeln!(
+            s,
+            "        chokes: [W; {n_chokes}],\n        lx: [W; {n_sections}],\n        ly: [W; {n_sections}],\n        aps: [W; {n_allpass}],\n        held: [W; {n_held}],"
+        );
+        let _ = writeln!(s, "        hist: [W; HIST],\n        probes: [i32; PROBES],\n        nodes: [NodeCoef; {n_switched}],\n    }}\n");
+        let _ = writeln!(s, "    impl Plant {{");
+        let _ = writeln!(s, "        /// The plant at rest (`const`, so it can live in a `static`).");
+        let _ = writeln!(s, "        pub const fn new() -> Self {{");
+        let _ = writeln!(
+            s,
+            "            Plant {{ n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; {}], chokes: [P::ZERO; {n_chokes}], lx: [P::ZERO; {n_sections}], ly: [P::ZERO; {n_sections}], aps: [P::ZERO; {n_allpass}], held: [P::ZERO; {n_held}], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }}",
+            self.layout.states
+        );
+        let _ = writeln!(s, "        }}\n    }}\n");
+        let _ = writeln!(s, "    impl Default for Plant {{\n        fn default() -> Self {{\n            Self::new()\n        }}\n    }}\n");
+        let _ = writeln!(s, "    impl PlantStep for Plant {{");
+        self.step(&mut s, &slots)?;
+        self.rest(&mut s, &slots, rig);
+        let _ = writeln!(s, "    }}\n}}");
+        Ok(s)
+    }
+
+    /// Send port p's outgoing wave on: into the ring of its partner (the line carries it to the
+    /// far end), or through an element's adaptor into the element's state (its next arriving
+    /// wave: the generic solver's ring of one sample that feeds itself).
+    fn send(&self, s: &mut String, p: usize) {
+        let Some(port) = self.l.ports.get(p) else { return };
+        if let Some(el) = self.l.elements.iter().find(|e| e.port as usize == p) {
+            if let Some(Arrival::State { slot }) = self.layout.arrival.get(p) {
+                let _ = writeln!(s, "            let a{p} = P::adapt(b{p}, a{p}, {}u32, {});", el.mu, el.negate);
+                let _ = writeln!(s, "            self.b[{slot}] = a{p};");
+            }
+            return;
+        }
+        if let Some(w) = self.layout.write.get(port.partner as usize).copied().flatten() {
+            let _ = writeln!(s, "            self.mem[(n.wrapping_add({w}) & MASK) as usize] = a{p};");
+        }
+    }
+
+    /// `fn step`: per junction its arrivals, scatter and sends; read-out; loss filters.
+    fn step(&self, s: &mut String, slots: &[Option<usize>]) -> Result<(), EmitError> {
+        let l = self.l;
+        let _ = writeln!(s, "        #[inline]\n        fn step(&mut self, input: i16) -> i16 {{");
+        let _ = writeln!(s, "            let n = self.n;\n            let e: W = P::from_code(input, IO_SHIFT);");
+        // The rig port's arriving wave goes into the latency history before any junction runs.
+        if let DrivePlan::Rig { port, .. } = l.drive {
+            let _ = writeln!(s, "            let b{port}: W = {};", self.arrival(port as usize));
+        }
+        if let DrivePlan::Rig { port, latency } = l.drive {
+            let _ = writeln!(
+                s,
+                "            // rig port: the pin was read while the DAC showed the wave of `latency` samples ago"
+            );
+            let _ = writeln!(s, "            self.hist[(n as usize) & (HIST - 1)] = b{port};");
+            let _ =
+                writeln!(s, "            let rig_back = self.hist[(n.wrapping_sub({latency}) as usize) & (HIST - 1)];");
+        }
+        let weights: Vec<u32> = l.ports.iter().map(|p| p.weight).collect();
+        let held = self.held_slots(slots);
+        let mut chokes = 0usize;
+        let rig_port = match l.drive {
+            DrivePlan::Rig { port, .. } => Some(port as usize),
+            _ => None,
+        };
+        for (j, jp) in l.junctions.iter().enumerate() {
+            // Per junction: read its ports' arriving waves, scatter, and send every outgoing
+            // wave on at once (into the partner's ring, or an element's adaptor and state), so
+            // only a junction's own waves are live at a time.
+            let ports = junction_ports(jp);
+            for p in ports.clone().filter(|p| Some(*p) != rig_port) {
+                let _ = writeln!(s, "            let b{p}: W = {};", self.arrival(p));
+            }
+            let cx = junctions::Ctx {
+                weights: &weights,
+                switch_slot: slots.get(j).copied().flatten(),
+                choke_slot: chokes,
+                held: &held,
+            };
+            let mut body = String::new();
+            junctions::emit(&mut body, j, jp, &cx)?;
+            for line in body.lines() {
+                let _ = writeln!(s, "    {line}");
+            }
+            chokes += usize::from(matches!(jp, JunctionPlan::SeriesInductor { .. }));
+            for p in ports {
+                self.send(s, p);
+                if let Some(h) = held.get(p).copied().flatten() {
+                    let _ = writeln!(s, "            self.held[{h}] = a{p};");
+                }
+            }
+        }
+        for (k, pr) in l.probes.iter().enumerate() {
+            let f = if pr.current { "diff" } else { "sum" };
+            // At the rig port the pin shows b[n − latency] (the generic solver's read-out).
+            let b = if Some(pr.port as usize) == rig_port { "rig_back".to_string() } else { format!("b{}", pr.port) };
+            let _ = writeln!(s, "            self.probes[{k}] = P::{f}(a{p}, {b});", p = pr.port);
+        }
+        let output = match l.drive {
+            DrivePlan::Source { port } => format!("P::to_code(P::sum(a{port}, b{port}), IO_SHIFT)"),
+            DrivePlan::Rig { port, .. } => format!("P::to_code(P::sum(b{port}, b{port}), IO_SHIFT)"),
+            DrivePlan::None => "0".into(),
+        };
+        let _ = writeln!(s, "            let output = {output};");
+        // Loss filters, in the generic solver's order, on the waves that just arrived.
+        let (mut sec, mut ap) = (0usize, 0usize);
+        for lp in &l.losses {
+            let p = lp.port as usize;
+            let (Some(r), Some(Arrival::State { slot })) =
+                (self.layout.read.get(p).copied().flatten(), self.layout.arrival.get(p))
+            else {
+                return Err(EmitError::Unsupported { what: "a loss filter on an element port".into(), junction: None });
+            };
+            let _ = writeln!(s, "            let mut x: W = self.mem[(n.wrapping_add({}) & MASK) as usize];", r + 1);
+            for k in 0..lp.sections as usize {
+                let (g, gb, a) = (lp.g[k], lp.gb[k], lp.a[k]);
+                let _ = writeln!(
+                    s,
+                    "            let y = P::loss_section(x, self.lx[{sec}], self.ly[{sec}], {g}u32, {gb}i32, {a}u32);"
+                );
+                let _ =
+                    writeln!(s, "            self.lx[{sec}] = x;\n            self.ly[{sec}] = y;\n            x = y;");
+                sec += 1;
+            }
+            if let Some((a, c)) = lp.allpass {
+                let _ = writeln!(
+                    s,
+                    "            let (y, s_next) = P::allpass(x, self.aps[{ap}], {a}i32, {c}u32);\n            self.aps[{ap}] = s_next;\n            x = y;"
+                );
+                ap += 1;
+            }
+            let _ = writeln!(s, "            self.b[{slot}] = x;");
+        }
+        let _ = writeln!(s, "            self.n = n.wrapping_add(1);\n            output\n        }}\n");
+        Ok(())
+    }
+
+    /// Read-out, reset and the events.
+    fn rest(&self, s: &mut String, slots: &[Option<usize>], rig: Option<(u16, u16)>) {
+        let _ = writeln!(s, "        fn probe_raw(&self, k: usize) -> i32 {{\n            self.probes.get(k).copied().unwrap_or(0)\n        }}\n");
+        let _ = writeln!(s, "        fn probe_count(&self) -> usize {{\n            PROBES\n        }}\n");
+        let drive = match rig {
+            Some((port, _)) => format!(
+                "let n = self.n;\n            let b: W = {};\n            P::to_code(P::sum(b, b), IO_SHIFT)",
+                self.arrival(port as usize)
+            ),
+            None => "0".into(),
+        };
+        let _ = writeln!(s, "        fn rig_drive(&self) -> i16 {{\n            {drive}\n        }}\n");
+        let _ = writeln!(s, "        fn reset(&mut self) {{");
+        // In place: no temporary of the plant's size on the stack (a Cortex-M0 has little).
+        let _ = writeln!(s, "            self.n = 0;");
+        for field in ["mem", "b", "chokes", "lx", "ly", "aps", "held", "hist"] {
+            let _ = writeln!(s, "            self.{field}.iter_mut().for_each(|w| *w = P::ZERO);");
+        }
+        let _ = writeln!(s, "            self.probes.iter_mut().for_each(|w| *w = 0);\n        }}\n");
+        let mut shunt_arms = String::new();
+        let mut broken_arms = String::new();
+        let mut fixed = Vec::new();
+        for (j, (jp, slot)) in self.l.junctions.iter().zip(slots).enumerate() {
+            match (jp, slot) {
+                (JunctionPlan::Node { g_src, port_sum, port_min, .. }, Some(k)) => {
+                    let _ = writeln!(
+                        shunt_arms,
+                        "                {j} => {{\n                    self.nodes[{k}] = node_coefficients::<P>(junction, {g_src}, {port_sum}, {port_min}, EXPONENT, self.nodes[{k}], shunt)?;\n                    Ok(())\n                }}"
+                    );
+                    let _ = writeln!(broken_arms, "                {j} => {{\n                    self.nodes[{k}].broken = broken;\n                    Ok(())\n                }}");
+                }
+                (JunctionPlan::Node { .. }, None) => fixed.push(j.to_string()),
+                _ => {}
+            }
+        }
+        let fixed_arm = if fixed.is_empty() {
+            String::new()
+        } else {
+            format!("                {} => Err(ConfigError::FixedNode {{ junction }}),\n", fixed.join(" | "))
+        };
+        let _ =
+            writeln!(s, "        fn set_shunt(&mut self, junction: u16, shunt: Shunt) -> Result<(), ConfigError> {{");
+        let _ = writeln!(s, "            match junction {{\n{shunt_arms}{fixed_arm}                _ => Err(ConfigError::NotANode {{ junction }}),\n            }}\n        }}\n");
+        let _ =
+            writeln!(s, "        fn set_broken(&mut self, junction: u16, broken: bool) -> Result<(), ConfigError> {{");
+        let _ = writeln!(s, "            match junction {{\n{broken_arms}{fixed_arm}                _ => Err(ConfigError::NotANode {{ junction }}),\n            }}\n        }}");
+    }
+}
