@@ -86,11 +86,18 @@ impl Tail {
 /// The ending, with a record-long peel that nonetheless shows an end: a run over 5 times
 /// the first run's impedance (open-like) or under a fifth of it (short-like); the settled
 /// voltage then still offers a resistor among the candidates. Loss compensation can
-/// carry the peel past an open end, where the layers then climb without bound.
+/// carry the peel past an open end, where the layers then climb without bound; noise can
+/// carry it up a capacitor's charging curve. The earlier of the two ends is taken.
 pub fn effective_ending(runs: &[Run], ending: Ending, layer: f64, origin: usize) -> Ending {
-    if ending != Ending::Record || runs.len() < 2 {
+    if runs.len() < 2 {
         return ending;
     }
+    // A peel that ends on a reflector can still have climbed there through many layers
+    // (a capacitor charging, seen through noise): the climb's start is the end then.
+    let peel_end = match ending {
+        Ending::Record => usize::MAX,
+        Ending::Reflector { at, .. } => at,
+    };
     let typical = runs[0].z;
     for (i, r) in runs.iter().enumerate().skip(1) {
         let k = if r.z > 5.0 * typical {
@@ -105,7 +112,8 @@ pub fn effective_ending(runs: &[Run], ending: Ending, layer: f64, origin: usize)
         while first > 1 && (runs[first - 1].z / typical).ln() * k > 0.4 {
             first -= 1;
         }
-        return Ending::Reflector { at: (runs[first].start / layer).round() as usize + origin, k };
+        let at = (runs[first].start / layer).round() as usize + origin;
+        return if at < peel_end { Ending::Reflector { at, k } } else { ending };
     }
     ending
 }
