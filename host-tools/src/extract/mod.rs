@@ -304,7 +304,8 @@ pub fn extract(cap: &Capture, opts: &Options, how: Vec<String>, out_name: &str) 
     } else {
         refined
     };
-    let (lines, load) = (refined.lines.clone(), refined.load);
+    // The refit after tidying can still drive an open end's resistor up: write it open.
+    let (lines, load) = (refined.lines.clone(), load::open_if_huge(&refined.lines, refined.load));
     let header = plant_out::Header {
         name: &format!(
             "extracted from {}",
