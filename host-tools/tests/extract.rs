@@ -235,19 +235,41 @@ fn branch_becomes_an_equivalent_line_within_2_percent() {
     assert!(x.roundtrip.exact_max < 0.02, "max {}", x.roundtrip.exact_max);
 }
 
-#[test]
-fn one_percent_noise_round_trip_within_3_percent_of_the_clean_response() {
-    // Gaussian noise of 1 % of the step; the extracted plant is compared with the clean
-    // capture, so the noise itself is not counted as error.
-    // The branched plant with the same noise is NOT within 3 % yet (15.7 % measured, see
-    // docs/extract.md): the peel of its equivalent line stops early under noise.
-    let clean = capture_of(&chain_plant("1 GHz", "600 ns", 50.0, 1.0, "20 ns", "0 s", CHAIN, "\"200 ohm\""));
+/// Extract `clean` with Gaussian noise of 1 % of the step added (seeded), and return the
+/// largest difference of the extracted plant's response from the clean capture, as a
+/// fraction of the step: the noise itself is not counted as error.
+fn noisy_round_trip(clean: &Capture, name: &str, seed: u64) -> f64 {
     let mut noisy = clean.clone();
-    noisy.file = "chain with noise".into();
-    add_noise(&mut noisy.volts, 0.01, 0x5eed);
+    noisy.file = name.into();
+    add_noise(&mut noisy.volts, 0.01, seed);
     let x = run(&noisy, &opts(50.0, 1.0));
     let err = max_diff(&x.roundtrip.exact, &clean.volts, 1.0);
     println!("   against the clean capture: max {:.3} %", 100.0 * err);
+    err
+}
+
+// Must show: the same plants with noise of 1 % of the step: within 3 %. One seed each here
+// (seconds); `noise_soak_more_seeds` (ignored, run with `-- --ignored`) tries three more.
+
+#[test]
+fn one_percent_noise_three_changes_resistive_end_within_3_percent() {
+    let clean = capture_of(&chain_plant("1 GHz", "600 ns", 50.0, 1.0, "20 ns", "0 s", CHAIN, "\"200 ohm\""));
+    let err = noisy_round_trip(&clean, "chain, 200 ohm end, 1 % noise", 0x5eed);
+    assert!(err < 0.03, "max {err}");
+}
+
+#[test]
+fn one_percent_noise_capacitive_end_slow_edge_within_3_percent() {
+    let clean =
+        capture_of(&chain_plant("1 GHz", "800 ns", 50.0, 1.0, "20 ns", "2 ns", CHAIN, "{ capacitor = \"100 pF\" }"));
+    let err = noisy_round_trip(&clean, "chain, 100 pF end, 2 ns edge, 1 % noise", 0x5eed);
+    assert!(err < 0.03, "max {err}");
+}
+
+#[test]
+fn one_percent_noise_branch_within_3_percent() {
+    let clean = capture_of(&branch_plant());
+    let err = noisy_round_trip(&clean, "branch, 1 % noise", 0x5eed);
     assert!(err < 0.03, "max {err}");
 }
 
@@ -423,4 +445,24 @@ fn verify_and_simulate_draw_the_view_against_distance() {
     // [closed form], read off the peeled profile (no fit) within 0.01.
     let rhos: Vec<f64> = text.split("ρ = ").skip(1).filter_map(|t| t[..6].trim().parse().ok()).collect();
     assert!(rhos.iter().any(|r| (r + 0.2).abs() < 0.01), "readout {rhos:?}");
+}
+
+#[test]
+#[ignore = "soak: nine more noisy extractions, about a minute"]
+fn noise_soak_more_seeds() {
+    let cases = [
+        ("chain, 200 ohm end", chain_plant("1 GHz", "600 ns", 50.0, 1.0, "20 ns", "0 s", CHAIN, "\"200 ohm\"")),
+        ("branch", branch_plant()),
+        (
+            "chain, 100 pF end, 2 ns edge",
+            chain_plant("1 GHz", "800 ns", 50.0, 1.0, "20 ns", "2 ns", CHAIN, "{ capacitor = \"100 pF\" }"),
+        ),
+    ];
+    for (name, text) in cases {
+        let clean = capture_of(&text);
+        for seed in [7919, 15838, 23757] {
+            let err = noisy_round_trip(&clean, name, seed);
+            assert!(err < 0.03, "{name}, seed {seed}: max {err}");
+        }
+    }
 }

@@ -75,21 +75,43 @@ pub fn model_db(sections: &[(f64, f64)], f: f64, fs: f64) -> f64 {
 }
 
 /// Levenberg–Marquardt on residuals r(x), with a forward-difference Jacobian.
-fn levenberg_marquardt(r: &dyn Fn(&[f64]) -> Vec<f64>, mut x: Vec<f64>, iters: usize) -> Vec<f64> {
+fn levenberg_marquardt(r: &dyn Fn(&[f64]) -> Vec<f64>, x: Vec<f64>, iters: usize) -> Vec<f64> {
+    let ok = |v: &[f64]| -> Result<Vec<f64>, std::convert::Infallible> { Ok(r(v)) };
+    match levenberg_marquardt_with(&ok, x, iters, &|_, xj| 1e-6 * xj.abs().max(1.0)) {
+        Ok((x, _)) => x,
+        Err(never) => match never {},
+    }
+}
+
+/// Residuals of a fit at a point, or why they could not be computed.
+pub type Residuals<'a, E> = dyn Fn(&[f64]) -> Result<Vec<f64>, E> + 'a;
+
+/// Levenberg–Marquardt on residuals r(x) that may fail, with a forward-difference
+/// Jacobian of step `h_of(j, x_j)` for parameter j; at most `iters` steps, damping
+/// λ·(1 + JᵀJ_jj) on the diagonal. A failure at the current point is returned; a trial
+/// step that fails counts as a step that did not improve. Returns x and the steps taken.
+/// Shared with the extraction's fit (`extract/refine.rs`).
+pub fn levenberg_marquardt_with<E>(
+    r: &Residuals<'_, E>,
+    mut x: Vec<f64>,
+    iters: usize,
+    h_of: &dyn Fn(usize, f64) -> f64,
+) -> Result<(Vec<f64>, usize), E> {
     use nalgebra::{DMatrix, DVector};
     let n = x.len();
     let cost = |v: &[f64]| v.iter().map(|e| e * e).sum::<f64>();
-    let mut res = r(&x);
+    let mut res = r(&x)?;
     let mut c = cost(&res);
     let mut lambda = 1e-3;
+    let mut taken = 0;
     for _ in 0..iters {
         let m = res.len();
         let mut jac = DMatrix::<f64>::zeros(m, n);
         for j in 0..n {
-            let h = 1e-6 * x[j].abs().max(1.0);
+            let h = h_of(j, x[j]);
             let mut xp = x.clone();
             xp[j] += h;
-            let rp = r(&xp);
+            let rp = r(&xp)?;
             for i in 0..m {
                 jac[(i, j)] = (rp[i] - res[i]) / h;
             }
@@ -109,7 +131,10 @@ fn levenberg_marquardt(r: &dyn Fn(&[f64]) -> Vec<f64>, mut x: Vec<f64>, iters: u
                 continue;
             };
             let xn: Vec<f64> = x.iter().zip(step.iter()).map(|(a, b)| a + b).collect();
-            let rn = r(&xn);
+            let Ok(rn) = r(&xn) else {
+                lambda *= 10.0;
+                continue;
+            };
             let cn = cost(&rn);
             if cn.is_finite() && cn < c {
                 x = xn;
@@ -124,11 +149,11 @@ fn levenberg_marquardt(r: &dyn Fn(&[f64]) -> Vec<f64>, mut x: Vec<f64>, iters: u
         if !improved {
             break;
         }
+        taken += 1;
     }
-    x
+    Ok((x, taken))
 }
 
-/// Parameters → sections: x = [ln f_pole, logit of where the zero sits in (−0.99, a)].
 fn shelves(x: &[f64], fs: f64) -> Vec<(f64, f64)> {
     x.chunks(2)
         .map(|p| {

@@ -7,8 +7,8 @@
 //! r (against Rs) follows from the capture's response h to a unit EMF impulse:
 //! r = 2·h − δ. h itself is found by deconvolving the capture by the modelled EMF edge
 //! (a linear ramp of 10–90 % time `rise`, as the plant files define a step), in the
-//! frequency domain with a small Tikhonov term so that the zeros of the ramp's spectrum
-//! do not blow up.
+//! frequency domain, regularised (Tikhonov floor, Wiener noise-to-signal term) so that the
+//! zeros of the ramp's spectrum do not lift the noise.
 
 use super::capture::Capture;
 use crate::plant::PlantError;
@@ -40,20 +40,20 @@ fn median(mut v: Vec<f64>) -> f64 {
     v[v.len() / 2]
 }
 
-/// Robust noise of one sample: the median absolute first difference, scaled for Gaussian
-/// noise (MAD/0.6745, and √2 for the difference of two samples). Sparse edges do not move
-/// a median.
+/// Robust noise of one sample: the median absolute second difference, scaled for Gaussian
+/// noise (MAD/0.6745, and √6 for the second difference of three samples). Sparse echoes
+/// and the straight parts of ramps do not move it; a capture's own slopes barely do.
 pub fn noise_of(v: &[f64]) -> f64 {
-    let d: Vec<f64> = v.windows(2).map(|w| (w[1] - w[0]).abs()).collect();
-    median(d) / 0.6745 / std::f64::consts::SQRT_2
+    let d: Vec<f64> = v.windows(3).map(|w| (w[2] - 2.0 * w[1] + w[0]).abs()).collect();
+    median(d) / 0.6745 / 6f64.sqrt()
 }
 
 /// Find the edge of a step of EMF `emf` in `cap`; `rise` overrides the measured rise.
 pub fn find_edge(cap: &Capture, emf: f64, rise: Option<f64>) -> Result<Edge, PlantError> {
     let v = &cap.volts;
     let head = median(v[..8.min(v.len())].to_vec());
-    // The noise from the whole record is an upper bound (echoes and their ringing count
-    // as differences too); the samples before the edge give the real figure below.
+    // The noise from the whole record: echoes are sparse, so the median hardly sees them
+    // (the few samples before the edge would give a poorer estimate).
     let noise = noise_of(v);
     let threshold = (6.0 * noise).max(0.01 * emf.abs());
     let Some(first) = v.iter().position(|x| (x - head).abs() > threshold) else {
@@ -73,7 +73,6 @@ pub fn find_edge(cap: &Capture, emf: f64, rise: Option<f64>) -> Result<Edge, Pla
     // Offset: the samples before the edge, leaving two for a slow start of the ramp.
     let offset = if first > 4 { v[..first - 2].iter().sum::<f64>() / (first - 2) as f64 } else { 0.0 };
     let volts: Vec<f64> = v.iter().map(|x| x - offset).collect();
-    let noise = if first > 16 { noise_of(&v[..first - 2]) } else { noise };
     // The first plateau p1 = emf·Z1/(Rs + Z1): a few samples past the edge.
     let after = |k: usize| volts.get(k).copied();
     let mut top = first;
@@ -143,14 +142,46 @@ pub fn impulse_response(edge: &Edge, emf: f64, dt: f64, smooth: f64, lead: usize
     fwd.process(&mut fe);
     // H = DV·conj(DE) / (|DE|² + λ): the delay of the edge cancels here, so h is causal
     // from sample 0 whatever the edge's start.
-    let lambda = if edge.rise > 0.0 { 1e-4 } else { 1e-6 };
+    //
+    // λ is a floor (Tikhonov) raised, for a ramp, to the Wiener filter's noise-to-signal
+    // ratio N/S (N. Wiener, "Extrapolation, Interpolation, and Smoothing of Stationary Time
+    // Series", 1949): the first difference of white noise of σ (per volt of EMF) has the
+    // power n·σ²·|1 − e^{−iω}|² = 2n·σ²·(1 − cos ω) in an n-sample transform, and h is at
+    // least the port's own step of about ½ (power ¼) in every bin, so N/S ≤ 8n·σ²·(1 − cos ω).
+    // The ramp's spectrum has zeros that would otherwise lift the noise there by up to
+    // 1/(2√λ). An ideal step (|DE| = 1) lifts nothing and keeps the plain floor.
+    let floor: f64 = if edge.rise > 0.0 { 1e-4 } else { 1e-6 };
+    let sigma = edge.noise / emf.abs();
     for k in 0..m {
         let f = if k <= m / 2 { k as f64 } else { k as f64 - m as f64 } / m as f64;
         let w = 2.0 * std::f64::consts::PI * f;
+        let lambda = if edge.rise > 0.0 { floor.max(8.0 * n as f64 * sigma * sigma * (1.0 - w.cos())) } else { floor };
         let g = if smooth > 0.0 { (-(w * smooth).powi(2) / 2.0).exp() } else { 1.0 };
         fv[k] = fv[k] * fe[k].conj() / (fe[k].norm_sqr() + lambda) * g;
     }
     inv.process(&mut fv);
     let lead = lead.min(m - n);
     fv[m - lead..].iter().chain(&fv[..n]).map(|c| c.re / m as f64).collect()
+}
+
+/// The smoothing kernel [`impulse_response`] applies, as samples −`lead`..=`lead`: the
+/// inverse transform of the same Gaussian on the same grid, so that a smoothed impulse
+/// (the port's own step in h) can be taken out exactly.
+pub fn smoothing_kernel(n: usize, smooth: f64, lead: usize) -> Vec<f64> {
+    let m = (2 * n).next_power_of_two();
+    (-(lead as i64)..=lead as i64)
+        .map(|k| {
+            if smooth <= 0.0 {
+                return if k == 0 { 1.0 } else { 0.0 };
+            }
+            (0..m)
+                .map(|j| {
+                    let f = if j <= m / 2 { j as f64 } else { j as f64 - m as f64 } / m as f64;
+                    let w = 2.0 * std::f64::consts::PI * f;
+                    (-(w * smooth).powi(2) / 2.0).exp() * (w * k as f64).cos()
+                })
+                .sum::<f64>()
+                / m as f64
+        })
+        .collect()
 }

@@ -86,11 +86,18 @@ impl Tail {
 /// The ending, with a record-long peel that nonetheless shows an end: a run over 5 times
 /// the first run's impedance (open-like) or under a fifth of it (short-like); the settled
 /// voltage then still offers a resistor among the candidates. Loss compensation can
-/// carry the peel past an open end, where the layers then climb without bound.
+/// carry the peel past an open end, where the layers then climb without bound; noise can
+/// carry it up a capacitor's charging curve. The earlier of the two ends is taken.
 pub fn effective_ending(runs: &[Run], ending: Ending, layer: f64, origin: usize) -> Ending {
-    if ending != Ending::Record || runs.len() < 2 {
+    if runs.len() < 2 {
         return ending;
     }
+    // A peel that ends on a reflector can still have climbed there through many layers
+    // (a capacitor charging, seen through noise): the climb's start is the end then.
+    let peel_end = match ending {
+        Ending::Record => usize::MAX,
+        Ending::Reflector { at, .. } => at,
+    };
     let typical = runs[0].z;
     for (i, r) in runs.iter().enumerate().skip(1) {
         let k = if r.z > 5.0 * typical {
@@ -105,7 +112,8 @@ pub fn effective_ending(runs: &[Run], ending: Ending, layer: f64, origin: usize)
         while first > 1 && (runs[first - 1].z / typical).ln() * k > 0.4 {
             first -= 1;
         }
-        return Ending::Reflector { at: (runs[first].start / layer).round() as usize + origin, k };
+        let at = (runs[first].start / layer).round() as usize + origin;
+        return if at < peel_end { Ending::Reflector { at, k } } else { ending };
     }
     ending
 }
@@ -149,8 +157,14 @@ pub fn lines_before_end(runs: &[Run], ending: Ending, layer: f64, origin: usize)
     }
 }
 
+/// A resistor this many times the last run's impedance is written as an open end: its
+/// reflection, (R − Z)/(R + Z) = 1 − 2Z/(R + Z), is within 0.02 % of an open's, and the
+/// fit can drive an open end's resistor to values no emulator holds.
+const OPEN_RATIO: f64 = 1e4;
+
 /// After the fit: neighbours of the same impedance (within `tol`) become one run, and
-/// trailing runs of over 100 times the line's impedance, fitted as lines, are an open end.
+/// trailing runs of over 100 times the line's impedance, fitted as lines, are an open end,
+/// as is a resistor of over [`OPEN_RATIO`] times the last run's impedance.
 pub fn tidy(lines: &[Run], load: EndLoad, tol: f64) -> (Vec<Run>, EndLoad) {
     let mut out: Vec<Run> = Vec::with_capacity(lines.len());
     for r in lines {
@@ -170,7 +184,17 @@ pub fn tidy(lines: &[Run], load: EndLoad, tol: f64) -> (Vec<Run>, EndLoad) {
             return (out, EndLoad::Open);
         }
     }
+    let load = open_if_huge(&out, load);
     (out, load)
+}
+
+/// `load`, or an open end for a resistor of over [`OPEN_RATIO`] times the last run's
+/// impedance.
+pub fn open_if_huge(lines: &[Run], load: EndLoad) -> EndLoad {
+    match (load, lines.last()) {
+        (EndLoad::Resistor(r), Some(last)) if r > OPEN_RATIO * last.z => EndLoad::Open,
+        (other, _) => other,
+    }
 }
 
 /// Candidate ends: the lines to keep and the load after them (capacitances NaN: to be
@@ -254,6 +278,14 @@ mod tests {
     fn golden_finds_the_minimum_of_a_parabola() {
         let x = golden(-3.0, 5.0, 60, |x| (x - 1.25) * (x - 1.25));
         assert!((x - 1.25).abs() < 1e-6, "{x}");
+    }
+
+    #[test]
+    fn a_resistor_far_above_the_line_is_written_open() {
+        let lines = [Run { start: 0.0, end: 10.0, z: 100.0 }];
+        // (R − Z)/(R + Z) for 10 Mohm on 100 ohm: 0.99998 [closed form]: an open.
+        assert_eq!(tidy(&lines, EndLoad::Resistor(1e7), 0.015).1, EndLoad::Open);
+        assert_eq!(tidy(&lines, EndLoad::Resistor(2e5), 0.015).1, EndLoad::Resistor(2e5));
     }
 
     #[test]

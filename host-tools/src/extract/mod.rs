@@ -8,6 +8,7 @@
 //! write the plant file ([`plant_out`]); run the plant back through the exact reference
 //! and the core and compare with the capture ([`roundtrip`]).
 pub mod capture;
+pub mod denoise;
 pub mod edge;
 pub mod load;
 pub mod merge;
@@ -46,7 +47,8 @@ pub struct Options {
     pub rise: Option<f64>,
     /// Merge tolerance, relative (0.03 = 3 %).
     pub tolerance: f64,
-    /// Gaussian smoothing of the impulse response in samples (None: from the noise).
+    /// Gaussian smoothing of the impulse response in samples (None: from the edge, and the
+    /// noise taken out when there is any; Some: exactly this, and no noise handling).
     pub smooth: Option<f64>,
     /// Most Levenberg–Marquardt steps of the final fit (0: keep the peeled values).
     pub refine: usize,
@@ -87,22 +89,25 @@ fn internal(cap: &Capture, what: &str, e: String) -> PlantError {
 /// The profile of `cap` (edge, impulse response, peeling), with loss compensation.
 pub fn profile_of(cap: &Capture, opts: &Options) -> Result<(edge::Edge, f64, Profile), PlantError> {
     let edge = edge::find_edge(cap, opts.emf, opts.rise)?;
-    // Smoothing only when there is noise to speak of (above 0.05 % of the step): σ grows
-    // with the noise, one sample at 1 %.
-    let nu = edge.noise / opts.emf.abs();
-    let by_noise = if nu < 5e-4 { 0.0 } else { (nu / 0.01).sqrt().clamp(0.5, 3.0) };
-    // A slow edge carries nothing above its own bandwidth: smooth to its scale too.
+    // A slow edge carries nothing above its own bandwidth: smooth to its scale. Noise is
+    // taken out before (total variation) and in (Wiener) the deconvolution instead.
     let by_rise = 0.3 * edge.rise / 0.8 / cap.dt;
-    let smooth = opts.smooth.unwrap_or(by_noise.max(by_rise));
+    let smooth = opts.smooth.unwrap_or(by_rise);
     let profile = compensated(cap, opts, &edge, smooth)?;
     Ok((edge, smooth, profile))
 }
 
 /// Peel with `edge`, and divide out the loss drift when the cable is lossy.
 fn compensated(cap: &Capture, opts: &Options, edge: &edge::Edge, smooth: f64) -> Result<Profile, PlantError> {
-    let mut p = peel_capture(edge, opts, cap.dt, smooth);
+    let noisy = is_noisy(edge, opts);
+    let quiet = if noisy {
+        edge::Edge { volts: denoise::tv_denoise(&edge.volts, TV_WEIGHT * edge.noise), ..edge.clone() }
+    } else {
+        edge.clone()
+    };
+    let mut p = peel_capture(&quiet, opts, cap.dt, smooth, noisy);
     if opts.cable.r_per_m > 0.0 || opts.cable.loss.is_some() {
-        let drift = loss_drift(cap, edge, opts, smooth, p.layer)?;
+        let drift = loss_drift(cap, edge, opts, smooth, noisy)?;
         for (j, z) in p.z.iter_mut().enumerate() {
             if let Some(g) = drift.get(j) {
                 *z /= g;
@@ -112,14 +117,36 @@ fn compensated(cap: &Capture, opts: &Options, edge: &edge::Edge, smooth: f64) ->
     Ok(p)
 }
 
-fn peel_capture(edge: &edge::Edge, opts: &Options, dt: f64, smooth: f64) -> Profile {
+/// Noise above this fraction of the step (rms of one sample) is taken out before peeling.
+const NOISY: f64 = 5e-4;
+/// The total-variation weight, in noise rms: a flat stretch of white noise keeps no false
+/// step while its partial sums stay under λ, i.e. for about (6/2)² ≈ 9 samples at 2σ and
+/// far longer in the typical case; echoes of a few % of the step and more survive.
+const TV_WEIGHT: f64 = 6.0;
+
+/// Whether the noise is taken out: only when the caller left the smoothing to the
+/// capture (a computed response, as the plant views use, has no noise to take out).
+fn is_noisy(edge: &edge::Edge, opts: &Options) -> bool {
+    opts.smooth.is_none() && edge.noise >= NOISY * opts.emf.abs()
+}
+
+/// Peel the capture in `edge`. The port's own step is taken out of the impulse response
+/// as the reflection against Rs is formed (r = 2h − δ); when `spread` (a noisy capture)
+/// it is taken out as smoothed as the rest of h, so that the smoothing leaves no false
+/// layers at the port for the noise to act on.
+fn peel_capture(edge: &edge::Edge, opts: &Options, dt: f64, smooth: f64, spread: bool) -> Profile {
     let lead = (4.0 * smooth).ceil() as usize;
     let h = edge::impulse_response(edge, opts.emf, dt, smooth, lead);
     // The record ends before the response does: the last samples before the end carry the
     // truncation of the deconvolution; keep those the record fully covers.
     let keep = h.len().saturating_sub((edge.start / dt).ceil() as usize + 1 + lead);
     let mut r: Vec<f64> = h[..keep].iter().map(|x| 2.0 * x).collect();
-    if let Some(r0) = r.get_mut(lead) {
+    if spread {
+        let g = edge::smoothing_kernel(edge.volts.len(), smooth, lead);
+        for (x, gk) in r.iter_mut().zip(g) {
+            *x -= gk;
+        }
+    } else if let Some(r0) = r.get_mut(lead) {
         *r0 -= 1.0;
     }
     peel::peel(&r, opts.rs, opts.cable.velocity * dt / 2.0, lead)
@@ -133,16 +160,16 @@ fn loss_drift(
     edge: &edge::Edge,
     opts: &Options,
     smooth: f64,
-    layer: f64,
+    spread: bool,
 ) -> Result<Vec<f64>, PlantError> {
     let n = edge.volts.len();
-    let length = 1.1 * layer * n as f64;
+    let length = 1.1 * opts.cable.velocity * cap.dt / 2.0 * n as f64;
     let frame = frame(cap, opts, edge);
     let z0 = opts.cable.z0;
     let plant = model_plant(&frame, &[Run { start: 0.0, end: length, z: z0 }], EndLoad::Resistor(z0));
     let v = exact_port(&plant, n).map_err(|e| internal(cap, "the exact reference failed on the loss model", e))?;
     let e2 = edge::Edge { volts: v, ..edge.clone() };
-    let p = peel_capture(&e2, opts, cap.dt, smooth);
+    let p = peel_capture(&e2, opts, cap.dt, smooth, spread);
     Ok(p.z.iter().map(|z| z / z0).collect())
 }
 
@@ -249,7 +276,8 @@ pub fn extract(cap: &Capture, opts: &Options, how: Vec<String>, out_name: &str) 
             cand_lines.len() <= MAX_LINES_IN_SHORT_FIT,
         )
         .map_err(|e| internal(cap, "the exact reference failed while fitting", e))?;
-        let e = short.rms_after;
+        // What the noise cannot explain: the rms beyond the capture's own noise.
+        let e = (short.rms_after.powi(2) - edge.noise.powi(2)).max(0.0).sqrt();
         // A later (more complex) candidate must be clearly better (10 %) to be kept.
         if best.as_ref().is_none_or(|b| e < 0.9 * b.2) {
             best = Some((cand_lines, fitted, e));
@@ -276,7 +304,8 @@ pub fn extract(cap: &Capture, opts: &Options, how: Vec<String>, out_name: &str) 
     } else {
         refined
     };
-    let (lines, load) = (refined.lines.clone(), refined.load);
+    // The refit after tidying can still drive an open end's resistor up: write it open.
+    let (lines, load) = (refined.lines.clone(), load::open_if_huge(&refined.lines, refined.load));
     let header = plant_out::Header {
         name: &format!(
             "extracted from {}",

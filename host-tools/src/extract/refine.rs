@@ -4,14 +4,15 @@
 //! noise and the band limit leave them slightly off, and a branched plant's equivalent
 //! line is only approximately a few uniform runs. So the runs' ln Z and lengths and the
 //! load's values are fitted to the whole capture by Levenberg–Marquardt least squares
-//! (Jacobian by forward differences, damping on the diagonal of JᵀJ), with the exact
-//! reference as the model. The runs' count and order stay as peeling found them.
+//! (the project's one implementation, `compile::loss::levenberg_marquardt_with`: Jacobian
+//! by forward differences, damping on the diagonal of JᵀJ), with the exact reference as
+//! the model. The runs' count and order stay as peeling found them.
 
 use super::load::EndLoad;
 use super::merge::Run;
 use super::roundtrip::{exact_port, model_plant, Frame};
+use crate::compile::loss::levenberg_marquardt_with;
 use crate::plant::Waveform;
-use nalgebra::{DMatrix, DVector};
 
 /// Fitted runs and load, and the rms residual before and after, V.
 #[derive(Debug, Clone, PartialEq)]
@@ -103,81 +104,48 @@ pub fn refine(
             (delay0, rise0)
         }
     };
-    let residual = |p: &[f64]| -> Result<DVector<f64>, String> {
+    let residual = |p: &[f64]| -> Result<Vec<f64>, String> {
         let (l, ld) = unpack(p, count, load, min_len);
         let (delay, rise) = edge_of(p);
         let f = Frame { emf: Waveform::Step { amplitude: emf, delay, rise }, ..frame.clone() };
         let v = exact_port(&model_plant(&f, &l, ld), n)?;
-        Ok(DVector::from_iterator(n, (0..n).map(|k| v.get(k).copied().unwrap_or(0.0) - target[k])))
+        Ok((0..n).map(|k| v.get(k).copied().unwrap_or(0.0) - target[k]).collect())
     };
     let mut p = pack(lines, load);
     if fit_edge {
         p.extend([delay0, rise0]);
     }
-    let mut r = residual(&p)?;
-    let rms = |r: &DVector<f64>| (r.norm_squared() / n as f64).sqrt();
-    let rms_before = rms(&r);
-    let mut lambda = 1e-3;
-    let mut iterations = 0;
-    for _ in 0..max_iter {
-        iterations += 1;
-        let free: Vec<usize> = (if fit_lines { 0 } else { 2 * count }..p.len()).collect();
-        let m = free.len();
-        if m == 0 {
-            break;
+    let rms = |r: &[f64]| (r.iter().map(|e| e * e).sum::<f64>() / n as f64).sqrt();
+    let rms_before = rms(&residual(&p)?);
+    // Only the free parameters move: with `fit_lines` false the runs stay put.
+    let first_free = if fit_lines { 0 } else { 2 * count };
+    let full = |q: &[f64]| -> Vec<f64> {
+        let mut all = p.clone();
+        all[first_free..].copy_from_slice(q);
+        all
+    };
+    let len = p.len();
+    // Steps: 1e-4 in ln Z, ln R, ln C; 1 mm (or 0.1 % of it) in a length; a hundredth of
+    // a sample in the edge's start and rise.
+    let h_of = |j: usize, x: f64| -> f64 {
+        let i = j + first_free;
+        if fit_edge && i + 2 >= len {
+            0.01 / frame.sample_rate
+        } else if i < 2 * count && i % 2 == 1 {
+            (1e-3 * x).max(1e-3)
+        } else {
+            1e-4
         }
-        let mut jac = DMatrix::<f64>::zeros(n, m);
-        for (col, &i) in free.iter().enumerate() {
-            // Steps: 1e-4 in ln Z, ln R, ln C; 1 mm (or 0.1 % of it) in a length; a
-            // hundredth of a sample in the edge's start and rise.
-            let h = if fit_edge && i + 2 >= p.len() {
-                0.01 / frame.sample_rate
-            } else if i < 2 * count && i % 2 == 1 {
-                (1e-3 * p[i]).max(1e-3)
-            } else {
-                1e-4
-            };
-            let mut q = p.clone();
-            q[i] += h;
-            let rq = residual(&q)?;
-            jac.set_column(col, &((rq - &r) / h));
-        }
-        let a = jac.transpose() * &jac;
-        let g = jac.transpose() * &r;
-        let cost = r.norm_squared();
-        let mut improved = false;
-        for _ in 0..6 {
-            let mut damped = a.clone();
-            for i in 0..m {
-                damped[(i, i)] += lambda * a[(i, i)].max(1e-12);
-            }
-            let Some(step) = damped.lu().solve(&(-&g)) else {
-                lambda *= 10.0;
-                continue;
-            };
-            let mut q = p.clone();
-            for (col, &i) in free.iter().enumerate() {
-                q[i] += step[col];
-            }
-            // A step the reference refuses is a step that failed.
-            let Ok(rq) = residual(&q) else {
-                lambda *= 5.0;
-                continue;
-            };
-            if rq.norm_squared() < cost {
-                let gain = 1.0 - rq.norm_squared() / cost;
-                p = q;
-                r = rq;
-                lambda = (lambda / 3.0).max(1e-9);
-                improved = gain > 1e-4;
-                break;
-            }
-            lambda *= 5.0;
-        }
-        if !improved {
-            break;
-        }
-    }
+    };
+    let iterations = if first_free < len {
+        let (q, taken) =
+            levenberg_marquardt_with(&|q: &[f64]| residual(&full(q)), p[first_free..].to_vec(), max_iter, &h_of)?;
+        p = full(&q);
+        taken
+    } else {
+        0
+    };
+    let r = residual(&p)?;
     let (delay, rise) = edge_of(&p);
     let end = if fit_edge { p.len() - 2 } else { p.len() };
     let (lines, load) = unpack(&p[..end], count, load, min_len);
