@@ -103,6 +103,11 @@ fn the_core_tests_packaging_line_networks_are_the_compilers_output() {
         let c = prepare(&p, &file, kind).unwrap().0;
         let path = Path::new(env!("CARGO_MANIFEST_DIR")).join(format!("core/tests/generated/packaging_line_{name}.rs"));
         let checked_in = std::fs::read_to_string(&path).unwrap();
-        assert_eq!(plant_rust_source(&c.network(), kind, &switched_junctions(&c), &p.name).unwrap(), checked_in, "{} is stale", path.display());
+        assert_eq!(
+            plant_rust_source(&c.network(), kind, &switched_junctions(&c), &p.name).unwrap(),
+            checked_in,
+            "{} is stale",
+            path.display()
+        );
     }
 }
