@@ -76,6 +76,8 @@ pub mod owned;
 pub mod profile;
 pub mod quantize;
 pub mod solver;
+#[cfg(feature = "defmt")]
+mod solver_format;
 
 pub use error::{BuildError, ConfigError, Table};
 pub use network::{

@@ -58,7 +58,7 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
             100.0 * t.error_s / t.tau,
             t.r_total,
             t.sections,
-            if t.r_dropped { "  (R dropped: one-sample segment)" } else { "" }
+            t.r_dropped.map(|why| format!("  (R dropped: {why})")).unwrap_or_default()
         );
     }
     if r.segments.iter().any(|t| t.loss_fit_db.is_some()) {

@@ -24,7 +24,7 @@ mod report;
 mod segments;
 
 pub use report::{Reflection, Report, SegmentTiming};
-pub use segments::{LinePiece, SECTION_R_OVER_Z0};
+pub use segments::{LinePiece, DROPPED_ABOVE_CORE, DROPPED_BELOW_CORE, DROPPED_ONE_SAMPLE, SECTION_R_OVER_Z0};
 
 use crate::plant::{Drive as PlantDrive, End, EventAction, Load, Plant, PlantError, ProbeKind as PlantProbe, Span};
 use tidewire_core::{
@@ -413,11 +413,22 @@ pub(crate) fn checked_milliohm(ohm: f64, file: &str, span: Span, field: &str) ->
             ),
         ));
     }
-    Ok(to_milliohm(ohm))
+    to_milliohm(ohm).ok_or_else(|| {
+        err(
+            file,
+            span,
+            field,
+            format!("{shown} does not fit the core's milliohms"),
+            "write a value from 1 mohm to 4.29 Mohm",
+        )
+    })
 }
 
-/// Ohms to the core's milliohms, rounded, at least 1 (for values the compiler derived;
-/// values from the plant file go through [`checked_milliohm`]).
-pub fn to_milliohm(ohm: f64) -> u32 {
-    (ohm * 1000.0).round().clamp(1.0, u32::MAX as f64) as u32
+/// Ohms to the core's milliohms, rounded to the nearest; `None` when the rounded value
+/// is outside 1 mΩ ..= u32::MAX mΩ or not a number. Never clamps: every caller turns
+/// `None` into a located error or a stated choice (a dropped resistance, say), because a
+/// clamped value makes the core disagree with the physics by the clamp.
+pub fn to_milliohm(ohm: f64) -> Option<u32> {
+    let m = (ohm * 1000.0).round();
+    (m.is_finite() && (1.0..=u32::MAX as f64).contains(&m)).then_some(m as u32)
 }
