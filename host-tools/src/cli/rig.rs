@@ -204,7 +204,7 @@ fn prepare(cmd: &RigCommand) -> Result<Plan, Failure> {
                 let (j, ohms) =
                     parsed.ok_or_else(|| bad(format!("--resistor {r:?}: give JUNCTION:OHMS, e.g. 3:120")))?;
                 let milliohm = crate::compile::to_milliohm(ohms).ok_or_else(|| {
-                    bad(format!("--resistor {r:?}: ohms must be from 0.001 (1 mohm) to 4294967 (4.29 Mohm)"))
+                    bad(format!("--resistor {r:?}: ohms must be positive, from 0.001 (1 mohm) to 4294967 (4.29 Mohm)"))
                 })?;
                 actions.push(Action::SetShunt { junction: j, shunt: Shunt::Resistor { milliohm } });
             }
