@@ -1,5 +1,4 @@
 //! Errors of building a solver from a network description.
-use core::fmt;
 
 /// Which table a [`BuildError`] points into.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -20,26 +19,30 @@ pub enum Table {
 }
 
 /// Why a network description was refused. Indices name the offending entry.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, thiserror::Error)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[non_exhaustive]
 pub enum BuildError {
     /// A line's characteristic impedance is zero.
+    #[error("line {line}: characteristic impedance is zero")]
     ZeroImpedance {
         /// Index of the line.
         line: u16,
     },
     /// A line's delay is zero samples.
+    #[error("line {line}: delay is zero samples (minimum 1)")]
     ZeroDelay {
         /// Index of the line.
         line: u16,
     },
     /// A resistance (shunt, series or source) is zero; use `Shunt::Short` for a short.
+    #[error("junction {junction}: resistance is zero")]
     ZeroResistance {
         /// Index of the junction.
         junction: u16,
     },
     /// A line end names a junction that does not exist.
+    #[error("line {line}: junction {junction} does not exist")]
     JunctionOutOfRange {
         /// Index of the line.
         line: u16,
@@ -47,6 +50,7 @@ pub enum BuildError {
         junction: u16,
     },
     /// The drive or a probe names a junction or line that does not exist.
+    #[error("{table:?} index {index} out of range")]
     IndexOutOfRange {
         /// The table the index points into.
         table: Table,
@@ -54,11 +58,13 @@ pub enum BuildError {
         index: u16,
     },
     /// A node has no line end: nothing can reach it.
+    #[error("junction {junction}: no line end attached")]
     DanglingJunction {
         /// Index of the junction.
         junction: u16,
     },
     /// A series junction must join exactly two line ends.
+    #[error("series junction {junction}: joins {ends} line ends, needs 2")]
     SeriesNeedsTwoEnds {
         /// Index of the junction.
         junction: u16,
@@ -67,12 +73,14 @@ pub enum BuildError {
     },
     /// A series junction joins two lines of different impedance. Split one sample of
     /// the first line off as a line of its own impedance instead (the host compiler does).
+    #[error("series junction {junction}: the two lines have different impedances")]
     SeriesImpedanceMismatch {
         /// Index of the junction.
         junction: u16,
     },
     /// A reactive element hangs from something that is not a node, or has zero port
     /// resistance.
+    #[error("element {element}: must hang from a node and have a port resistance > 0")]
     BadElement {
         /// Index of the element.
         element: u16,
@@ -81,21 +89,25 @@ pub enum BuildError {
     /// sections, a section that is not an attenuating shelf (needs 0 <= zero < pole < 1),
     /// or a fractional-delay allpass that is not passive or whose pole is too close to the
     /// unit circle (needs a² + c² <= 1, c > 0, |a| <= 1/2 after quantization).
+    #[error("loss filter {loss}: bad line, section or allpass coefficients")]
     BadLoss {
         /// Index of the loss filter.
         loss: u16,
     },
     /// A rig port node must hold exactly one line end and no shunt.
+    #[error("rig port junction {junction}: needs exactly one line end and no shunt")]
     BadRigNode {
         /// Index of the junction.
         junction: u16,
     },
     /// A drive is placed on a series junction.
+    #[error("drive on series junction {junction}")]
     DriveOnSeries {
         /// Index of the junction.
         junction: u16,
     },
     /// More entries than the solver's capacity.
+    #[error("{table:?}: needs {needed}, capacity is {capacity}")]
     CapacityExceeded {
         /// The table the index points into.
         table: Table,
@@ -106,18 +118,21 @@ pub enum BuildError {
     },
     /// An integer coefficient does not fit its format (an impedance far outside the range
     /// of the others at its node, or a node with a vanishing total conductance).
+    #[error("junction {junction}: coefficient out of range of its format")]
     CoefficientOutOfRange {
         /// Index of the junction.
         junction: u16,
     },
     /// A junction's quantized coefficients are not those of a passive junction (checked at
     /// load from the integer coefficients themselves; see `configure`'s `passive` module).
+    #[error("junction {junction}: its quantized coefficients would not be passive")]
     NotPassive {
         /// Index of the junction.
         junction: u16,
     },
     /// The rig latency is not shorter than the first line's delay (the line towards the
     /// rig port keeps delay − latency >= 1 samples), or exceeds MAX_RIG_LATENCY.
+    #[error("rig latency {latency} samples needs a first line of at least {} samples, it has {delay}", u32::from(*latency).saturating_add(1))]
     RigLatencyTooLong {
         /// The rig latency, samples.
         latency: u16,
@@ -125,6 +140,7 @@ pub enum BuildError {
         delay: u32,
     },
     /// `io_shift` is larger than the number profile allows.
+    #[error("io_shift {io_shift} > maximum {max}")]
     IoShiftTooLarge {
         /// The network's `io_shift`.
         io_shift: u8,
@@ -133,64 +149,19 @@ pub enum BuildError {
     },
 }
 
-impl fmt::Display for BuildError {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        use BuildError::*;
-        match *self {
-            ZeroImpedance { line } => write!(f, "line {line}: characteristic impedance is zero"),
-            ZeroDelay { line } => write!(f, "line {line}: delay is zero samples (minimum 1)"),
-            ZeroResistance { junction } => write!(f, "junction {junction}: resistance is zero"),
-            JunctionOutOfRange { line, junction } => {
-                write!(f, "line {line}: junction {junction} does not exist")
-            }
-            IndexOutOfRange { table, index } => write!(f, "{table:?} index {index} out of range"),
-            DanglingJunction { junction } => write!(f, "junction {junction}: no line end attached"),
-            SeriesNeedsTwoEnds { junction, ends } => {
-                write!(f, "series junction {junction}: joins {ends} line ends, needs 2")
-            }
-            SeriesImpedanceMismatch { junction } => {
-                write!(f, "series junction {junction}: the two lines have different impedances")
-            }
-            BadElement { element } => {
-                write!(f, "element {element}: must hang from a node and have a port resistance > 0")
-            }
-            BadLoss { loss } => write!(f, "loss filter {loss}: bad line, section or allpass coefficients"),
-            BadRigNode { junction } => {
-                write!(f, "rig port junction {junction}: needs exactly one line end and no shunt")
-            }
-            DriveOnSeries { junction } => write!(f, "drive on series junction {junction}"),
-            CapacityExceeded { table, needed, capacity } => {
-                write!(f, "{table:?}: needs {needed}, capacity is {capacity}")
-            }
-            CoefficientOutOfRange { junction } => {
-                write!(f, "junction {junction}: coefficient out of range of its format")
-            }
-            NotPassive { junction } => {
-                write!(f, "junction {junction}: its quantized coefficients would not be passive")
-            }
-            RigLatencyTooLong { latency, delay } => write!(
-                f,
-                "rig latency {latency} samples needs a first line of at least {} samples, it has {delay}",
-                u32::from(latency) + 1
-            ),
-            IoShiftTooLarge { io_shift, max } => write!(f, "io_shift {io_shift} > maximum {max}"),
-        }
-    }
-}
-
-impl core::error::Error for BuildError {}
-
 /// Why a run-time reconfiguration (`set_shunt`, `set_broken`) was refused.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, thiserror::Error)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[non_exhaustive]
 pub enum ConfigError {
     /// No such junction, or it is not a plain node (series junction or rig port).
+    #[error("junction {junction} is not a reconfigurable node")]
     NotANode {
         /// Index of the junction.
         junction: u16,
     },
     /// The new shunt's coefficient does not fit (resistance zero or too far out of range).
+    #[error("junction {junction}: new shunt coefficient out of range")]
     CoefficientOutOfRange {
         /// Index of the junction.
         junction: u16,
@@ -198,28 +169,12 @@ pub enum ConfigError {
     /// A plant-specialised solver holds this node's coefficients as constants: none of the
     /// plant's events switch it. Compile the plant with an event at that node, or run the
     /// generic solver.
+    #[error(
+        "junction {junction} is fixed in this plant-specialised solver (no event of the plant switches it): \
+         compile the plant with an event there, or run the generic solver"
+    )]
     FixedNode {
         /// Index of the junction.
         junction: u16,
     },
 }
-
-impl fmt::Display for ConfigError {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        match *self {
-            ConfigError::NotANode { junction } => {
-                write!(f, "junction {junction} is not a reconfigurable node")
-            }
-            ConfigError::CoefficientOutOfRange { junction } => {
-                write!(f, "junction {junction}: new shunt coefficient out of range")
-            }
-            ConfigError::FixedNode { junction } => write!(
-                f,
-                "junction {junction} is fixed in this plant-specialised solver (no event of the plant switches \
-                 it): compile the plant with an event there, or run the generic solver"
-            ),
-        }
-    }
-}
-
-impl core::error::Error for ConfigError {}

@@ -19,7 +19,6 @@
 use crate::error::BuildError;
 use crate::profile::Profile;
 use crate::solver::Solver;
-use core::fmt;
 
 /// First four bytes of every image.
 pub const MAGIC: [u8; 4] = *b"TIDW";
@@ -47,28 +46,33 @@ pub fn header(body: &[u8]) -> [u8; HEADER_LEN] {
 }
 
 /// Why an image was refused.
-#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, thiserror::Error)]
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[non_exhaustive]
 pub enum ImageError {
     /// Fewer bytes than a header.
+    #[error("image truncated: {len} bytes, header needs {HEADER_LEN}")]
     Truncated {
         /// Bytes given.
         len: usize,
     },
     /// The first four bytes are not `TIDW`.
+    #[error("not a tidewire image (bad magic)")]
     BadMagic,
     /// A format version this core does not read.
+    #[error("image format version {found}, this core reads {FORMAT_VERSION}")]
     UnsupportedVersion {
         /// The image's format version.
         found: u16,
     },
     /// Reserved flags set.
+    #[error("image flags {flags:#06x} not understood")]
     UnknownFlags {
         /// The reserved flags that are set.
         flags: u16,
     },
     /// The declared body length does not match the bytes given.
+    #[error("image body is {actual} bytes, header says {declared}")]
     LengthMismatch {
         /// Body length the header declares, bytes.
         declared: u32,
@@ -76,6 +80,7 @@ pub enum ImageError {
         actual: usize,
     },
     /// The body's CRC does not match the header.
+    #[error("image CRC mismatch: stored {stored:#010x}, computed {computed:#010x}")]
     CrcMismatch {
         /// CRC-32 in the header.
         stored: u32,
@@ -83,36 +88,15 @@ pub enum ImageError {
         computed: u32,
     },
     /// The body does not decode (corrupt, or more entries than the capacity).
+    #[error("image body does not decode (corrupt or over capacity)")]
     Body,
     /// The body has bytes after the network.
+    #[error("image body has trailing bytes")]
     TrailingBytes,
     /// The body decoded but the network is not valid for this solver.
+    #[error("image network refused: {0}")]
     Network(BuildError),
 }
-
-impl fmt::Display for ImageError {
-    fn fmt(&self, f: &mut fmt::Formatter<'_>) -> fmt::Result {
-        match *self {
-            ImageError::Truncated { len } => write!(f, "image truncated: {len} bytes, header needs {HEADER_LEN}"),
-            ImageError::BadMagic => write!(f, "not a tidewire image (bad magic)"),
-            ImageError::UnsupportedVersion { found } => {
-                write!(f, "image format version {found}, this core reads {FORMAT_VERSION}")
-            }
-            ImageError::UnknownFlags { flags } => write!(f, "image flags {flags:#06x} not understood"),
-            ImageError::LengthMismatch { declared, actual } => {
-                write!(f, "image body is {actual} bytes, header says {declared}")
-            }
-            ImageError::CrcMismatch { stored, computed } => {
-                write!(f, "image CRC mismatch: stored {stored:#010x}, computed {computed:#010x}")
-            }
-            ImageError::Body => write!(f, "image body does not decode (corrupt or over capacity)"),
-            ImageError::TrailingBytes => write!(f, "image body has trailing bytes"),
-            ImageError::Network(e) => write!(f, "image network refused: {e}"),
-        }
-    }
-}
-
-impl core::error::Error for ImageError {}
 
 /// A network decoded from an image into fixed-capacity storage (`L` lines and elements, `J`
 /// junctions, `K` loss filters; `K` defaults to `L`); [`crate::OwnedNetwork::network`] gives

@@ -104,6 +104,8 @@ pub mod plant_step;
 pub mod profile;
 pub mod quantize;
 pub mod solver;
+#[cfg(feature = "defmt")]
+mod solver_format;
 
 pub use error::{BuildError, ConfigError, Table};
 pub use network::{

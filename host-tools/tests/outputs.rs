@@ -173,6 +173,14 @@ fn verify_and_inspect_write_json_a_machine_can_gate_on() {
     let events = doc["events"].as_array().unwrap();
     assert!(!events.is_empty(), "the irrigation plant schedules events");
     assert!(events[0]["sample"].as_u64().is_some() && events[0]["time_s"].as_f64().is_some());
+    // The comparison after each event, against the exact reference (issue 11, item 5).
+    assert_eq!(events[0]["compared_with_exact_after"], true, "{}", events[0]);
+    let after = &events[0]["after"];
+    assert!(after["compared_samples"].as_u64().unwrap() > 0, "{after}");
+    for pr in after["probes"].as_array().unwrap() {
+        assert!(pr["name"].is_string() && pr["pass_max"].is_boolean(), "{pr}");
+        assert!(pr["max_error"].as_f64().unwrap() >= pr["rms_error"].as_f64().unwrap(), "{pr}");
+    }
     tidewire().args(["inspect", s(&p), "--json", s(&i)]).assert().success();
     let doc = json(&i);
     assert_eq!(doc["schema"], "tidewire-inspect/1");
@@ -188,7 +196,10 @@ fn verify_and_inspect_write_json_a_machine_can_gate_on() {
         let frac = sg["fraction_samples"].as_f64().unwrap_or(0.0);
         let wanted = tau + sg["dispersion_s"].as_f64().unwrap();
         assert!(((whole + frac) / rate - wanted - err).abs() < 1e-12, "{sg}");
-        assert_eq!(sg["model"], if sg["fraction_samples"].is_null() { "delay line" } else { "delay line + fraction" });
+        assert_eq!(sg["model"], if sg["fraction_samples"].is_null() { "delay_line" } else { "delay_line_fraction" });
+        // The model of the segment: lumped sections, and why a resistance was left out.
+        assert!(sg["sections"].as_u64().is_some() && sg["resistance_dropped"].is_boolean(), "{sg}");
+        assert_eq!(sg["resistance_dropped"].as_bool(), Some(!sg["resistance_dropped_why"].is_null()), "{sg}");
     }
 }
 

@@ -123,6 +123,7 @@ fn waveforms_svg_has_axes_legend_traces_and_error_panel() {
         WaveformPlot {
             title: "motor terminal",
             dt,
+            t0: 0.0,
             unit: "V",
             emulated: Series { label: "emulated", values: &emulated },
             reference: Series { label: "exact reference", values: &reference },
@@ -131,6 +132,7 @@ fn waveforms_svg_has_axes_legend_traces_and_error_panel() {
         WaveformPlot {
             title: "drive output current",
             dt,
+            t0: 0.0,
             unit: "A",
             emulated: Series { label: "emulated", values: &source_emu },
             reference: Series { label: "exact reference", values: &source_ref },
@@ -170,6 +172,7 @@ fn waveform_time_unit_follows_the_range() {
         let plot = WaveformPlot {
             title: "probe",
             dt,
+            t0: 0.0,
             unit: "V",
             emulated: Series { label: "emulated", values: &v },
             reference: Series { label: "reference", values: &v },
@@ -194,6 +197,7 @@ fn long_trace_is_decimated_to_a_small_file() {
     let plot = WaveformPlot {
         title: "long record",
         dt,
+        t0: 0.0,
         unit: "V",
         emulated: Series { label: "emulated", values: &emulated },
         reference: Series { label: "reference", values: &reference },
@@ -252,6 +256,7 @@ fn write_into_missing_directory_fails_and_leaves_nothing() {
     let plot = WaveformPlot {
         title: "t",
         dt: 1e-9,
+        t0: 0.0,
         unit: "V",
         emulated: Series { label: "e", values: &v },
         reference: Series { label: "r", values: &v },
@@ -276,6 +281,7 @@ fn bad_data_is_an_error_naming_series_and_sample() {
     let plot = WaveformPlot {
         title: "probe A",
         dt: 1e-9,
+        t0: 0.0,
         unit: "V",
         emulated: Series { label: "emulated", values: &bad },
         reference: Series { label: "reference", values: &good },
@@ -287,7 +293,7 @@ fn bad_data_is_an_error_naming_series_and_sample() {
     assert!(!path.exists());
 
     let rows = vec![vec![0.0, 1.0], vec![0.0]];
-    let map = LatticeMap { title: "m", dt: 1e-9, positions: &[0.0, 1.0], values: &rows, boundaries: &[] };
+    let map = LatticeMap { title: "m", dt: 1e-9, t0: 0.0, positions: &[0.0, 1.0], values: &rows, boundaries: &[] };
     let msg = write_lattice(&dir.join("l.svg"), &map).expect_err("ragged").to_string();
     assert!(msg.contains("row 1 has 1 values, expected 2"), "{msg}");
 
@@ -377,6 +383,7 @@ fn lattice_svg_has_axes_colour_bar_and_named_boundaries() {
     let map = LatticeMap {
         title: "packaging line: pulse bouncing along the feeder",
         dt: 5e-9,
+        t0: 0.0,
         positions: &positions,
         values: &values,
         boundaries: &boundaries,
@@ -408,7 +415,7 @@ fn busy_lattice_is_binned_coarser_to_stay_small() {
     let positions: Vec<f64> = (0..400).map(|i| i as f64).collect();
     let n = noise(400 * 300);
     let values: Vec<Vec<f64>> = n.chunks(400).map(|c| c.to_vec()).collect();
-    let map = LatticeMap { title: "noise", dt: 1e-9, positions: &positions, values: &values, boundaries: &[] };
+    let map = LatticeMap { title: "noise", dt: 1e-9, t0: 0.0, positions: &positions, values: &values, boundaries: &[] };
     let path = dir.join("noise.svg");
     write_lattice(&path, &map).expect("write");
     let svg = fs::read_to_string(&path).unwrap();

@@ -177,3 +177,40 @@ fn a_samples_file_that_is_a_device_is_refused_without_reading_it() {
     let e = parse_plant(&text, "sense.toml", Path::new(".")).unwrap_err();
     assert!(e.message.contains("not a regular file") && e.line > 0, "{e}");
 }
+
+/// Resistances the compiler derives (line impedances, lumped section resistors, a choke's
+/// port 2L/T) are never clamped into the core's 1 mΩ ..= 4.29 MΩ: each out-of-range value
+/// is a located error, or a resistance left out with a warning that says so.
+#[test]
+fn derived_resistances_outside_the_core_are_errors_or_warnings_never_clamped() {
+    let own = |z: &str, r: &str| {
+        let own = format!("[cable.own]\nvelocity_factor = 0.66\nimpedance = \"{z}\"\nresistance = \"{r}\"\n");
+        with(&[("cable = \"twisted-pair-120\"", "cable = \"own\"")]) + &own
+    };
+    // A cable impedance below 1 mΩ used to become 1 mΩ without a word.
+    let e = error(&own("0.1 mohm", "0 ohm/m"));
+    assert!(e.line > 0 && e.field == "cable.own.impedance", "{e}");
+    assert!(e.message.contains("outside the core"), "{e}");
+    // 20 m of 10 µΩ/m is 0.2 mΩ: below what the core holds, left out and said so (it used to
+    // become a 1 mΩ resistor, five times the cable's).
+    let a = run(&own("50 ohm", "10 uohm/m")).unwrap();
+    assert!(
+        a.warnings.iter().any(|w| w.contains("segment run") && w.contains("left out") && w.contains("1 mohm")),
+        "{:?}",
+        a.warnings
+    );
+    // A choke of 1 H at 100 MHz has 2L/T = 200 MΩ, above the core's 4.29 MΩ: refused with
+    // a rate that passes.
+    let choke = |l: &str| {
+        with(&[(
+            "length = \"20 m\"",
+            &format!("length = \"20 m\"\ninline = {{ inductance = \"{l}\", at = \"10 m\" }}"),
+        )])
+    };
+    let e = error(&choke("1 H"));
+    assert!(e.field == "segment[run].inline.inductance" && e.line > 0, "{e}");
+    let rate = quoted(&e.hint);
+    assert!(e.hint.starts_with("lower plant.sample_rate"), "{e}");
+    run(&choke("1 H").replace("sample_rate = \"100 MHz\"", &format!("sample_rate = \"{rate}\""))).unwrap_err();
+    run(&choke("10 uH")).unwrap();
+}

@@ -111,12 +111,31 @@ pub(super) fn after_scale(c: &Compiled, plant: &Plant, file: &str, a: &mut Analy
             si::format(IMPLAUSIBLE_VOLTS, "V"),
         ));
     }
-    // Only where a delay is still rounded: a delay line with no fraction (shorter than
-    // `MIN_FRACTIONAL_DELAY`, or at a rig port). Lumped segments have no delay to round:
-    // their model error is in the report instead.
-    for s in
-        c.report.segments.iter().filter(|s| s.model == crate::compile::SegmentModel::DelayLine && s.fraction.is_none())
-    {
+    // Lumped segments have no line to carry a resistance or a delay to round: their model
+    // error is in the report instead.
+    for s in c.report.segments.iter().filter(|s| s.model == crate::compile::SegmentModel::DelayLine) {
+        if let Some(why) = s.r_dropped {
+            a.warnings.push(format!(
+                "segment {}: its conductor resistance {} is left out of the model ({why}), so DC levels along it are off by up to that resistance; {}",
+                s.name,
+                si::format(s.r_total, "ohm"),
+                if why == crate::compile::DROPPED_ONE_SAMPLE {
+                    format!(
+                        "raise plant.sample_rate to at least \"{}\" to give it two samples",
+                        si::at_least(1.5 / s.tau, "Hz")
+                    )
+                } else if why == crate::compile::DROPPED_BELOW_CORE {
+                    "it is below what the core holds (a longer segment carries it)".to_string()
+                } else {
+                    "check the cable's resistance per metre and the segment's length".to_string()
+                }
+            ));
+        }
+        // Only where a delay is still rounded: a delay line with no fraction (shorter than
+        // `MIN_FRACTIONAL_DELAY`, or at a rig port).
+        if s.fraction.is_some() {
+            continue;
+        }
         let rel = s.error_s / s.tau;
         if rel.abs() > TIMING_WARNING {
             a.warnings.push(format!(

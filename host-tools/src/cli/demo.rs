@@ -38,7 +38,7 @@ pub(super) fn run(out: &Path) -> Result<i32, Failure> {
     println!("wrote simulation  {} ({} samples, fixed-point core)", csv.display(), c.samples);
 
     let (svg, lat, vcsv) = (out.join("verify-waveforms.svg"), out.join("verify-lattice.svg"), out.join("verify.csv"));
-    let v = verify_and_write(&plant, &c, &file, Some(&svg), Some(&lat), Some(&vcsv))?;
+    let v = verify_and_write(&plant, &c, &file, Some(&svg), Some(&lat), Some(&vcsv), None)?;
     println!("wrote pictures    {} and {}", svg.display(), lat.display());
     println!("wrote comparison  {}\n", vcsv.display());
     print!("{}", verdict_text(&plant, &c, &v));

@@ -74,7 +74,7 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
             t.model_name(),
             100.0 * t.model_error,
             if t.exceeds { " !!" } else { "" },
-            if t.r_dropped && !lumped { "  (R dropped: one-sample segment)" } else { "" }
+            t.r_dropped.filter(|_| !lumped).map(|why| format!("  (R dropped: {why})")).unwrap_or_default()
         );
     }
     if r.segments.iter().any(|t| t.model != crate::compile::SegmentModel::DelayLine) {

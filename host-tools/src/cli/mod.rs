@@ -11,6 +11,7 @@ mod rig;
 mod simulate;
 mod sweep;
 mod verify_cmd;
+mod window;
 
 use crate::analysis::{prepare, Analysis};
 use crate::compile::{Compiled, ProfileKind};
@@ -102,6 +103,9 @@ pub enum Command {
         /// Samples to run and compare (default: the plant's duration).
         #[arg(long)]
         samples: Option<u64>,
+        /// The part of the run the pictures show, e.g. 10us..40us (figures cover the whole run).
+        #[arg(long, value_name = "START..END", value_parser = window::parse)]
+        window: Option<window::Window>,
         #[arg(long, value_enum, default_value = "wide")]
         profile: ProfileArg,
         /// Impedance against distance seen from the probe at the drive (exact reference).
@@ -244,12 +248,13 @@ pub fn main() -> i32 {
                 .and_then(|()| simulate::run(&plant, samples, out, profile.into()))
                 .and_then(|c| profile_view(&plant, profile_svg.as_deref(), c))
         }
-        Command::Verify { plant, svg, lattice, csv, json, samples, profile, profile_svg } => {
+        Command::Verify { plant, svg, lattice, csv, json, samples, window, profile, profile_svg } => {
             let out = verify_cmd::VerifyOutputs {
                 svg: svg.as_deref(),
                 lattice: lattice.as_deref(),
                 csv: csv.as_deref(),
                 json: json.as_deref(),
+                window,
             };
             let named = [
                 ("--svg", svg.as_deref()),

@@ -203,10 +203,9 @@ fn prepare(cmd: &RigCommand) -> Result<Plan, Failure> {
                     .and_then(|(j, o)| Some((j.trim().parse::<u16>().ok()?, o.trim().parse::<f64>().ok()?)));
                 let (j, ohms) =
                     parsed.ok_or_else(|| bad(format!("--resistor {r:?}: give JUNCTION:OHMS, e.g. 3:120")))?;
-                if !(ohms.is_finite() && ohms > 0.0 && ohms * 1000.0 < u32::MAX as f64) {
-                    return Err(bad(format!("--resistor {r:?}: ohms must be positive and below 4.29 Mohm")));
-                }
-                let milliohm = crate::compile::to_milliohm(ohms).max(1);
+                let milliohm = crate::compile::to_milliohm(ohms).ok_or_else(|| {
+                    bad(format!("--resistor {r:?}: ohms must be positive, from 0.001 (1 mohm) to 4294967 (4.29 Mohm)"))
+                })?;
                 actions.push(Action::SetShunt { junction: j, shunt: Shunt::Resistor { milliohm } });
             }
             if actions.len() != 1 {
@@ -435,6 +434,7 @@ fn read(
             .map(|k| crate::plot::WaveformPlot {
                 title: &names[k].0,
                 dt: comp.dt,
+                t0: 0.0,
                 unit: &names[k].1,
                 emulated: crate::plot::Series { label: "rig capture", values: &captured[k] },
                 reference: crate::plot::Series { label: "host core run", values: &predicted[k] },

@@ -1,12 +1,14 @@
 //! `tidewire verify`: figures, pictures, verdict.
 use super::compile_cmd::progress;
 use super::simulate::probes_csv;
+use super::window::Window;
 use super::{io_failure, load_and_prepare, Failure};
 use crate::compile::{Compiled, ProfileKind};
 use crate::plant::Plant;
 use crate::plot::{write_lattice_marked, write_waveforms_marked, EventMark, LatticeMap, Series, WaveformPlot};
 use crate::verify::{lattice, verify, Traces, Verification};
 use std::fmt::Write as _;
+use std::ops::Range;
 use std::path::Path;
 
 fn ok(b: bool) -> &'static str {
@@ -170,8 +172,21 @@ fn event_marks(v: &Verification) -> Vec<EventMark> {
         .collect()
 }
 
-/// Write the waveform picture.
-pub(crate) fn write_svg(path: &Path, c: &Compiled, tr: &Traces, marks: &[EventMark]) -> Result<(), Failure> {
+/// `values[window]`, cut to what `values` holds.
+fn cut<'v>(values: &'v [f64], window: &Range<usize>) -> &'v [f64] {
+    let end = window.end.min(values.len());
+    values.get(window.start.min(end)..end).unwrap_or(&[])
+}
+
+/// Write the waveform picture of the samples in `window`.
+pub(crate) fn write_svg(
+    path: &Path,
+    c: &Compiled,
+    tr: &Traces,
+    marks: &[EventMark],
+    window: &Range<usize>,
+) -> Result<(), Failure> {
+    let shown = window.start..window.end.min(tr.exact_len);
     let plots: Vec<WaveformPlot> = c
         .probe_names
         .iter()
@@ -179,12 +194,10 @@ pub(crate) fn write_svg(path: &Path, c: &Compiled, tr: &Traces, marks: &[EventMa
         .map(|(k, (name, unit))| WaveformPlot {
             title: name,
             dt: c.dt,
+            t0: shown.start as f64 * c.dt,
             unit,
-            emulated: Series {
-                label: "tidewire core",
-                values: &tr.core.recording.probes[k][..tr.exact_len.min(tr.core.recording.probes[k].len())],
-            },
-            reference: Series { label: "exact reference", values: &tr.exact[k] },
+            emulated: Series { label: "tidewire core", values: cut(&tr.core.recording.probes[k], &shown) },
+            reference: Series { label: "exact reference", values: cut(&tr.exact[k], &shown) },
             extra: vec![],
         })
         .collect();
@@ -199,11 +212,15 @@ pub(crate) fn write_lattice_svg(
     lp: &lattice::Path,
     tr: &Traces,
     marks: &[EventMark],
+    window: &Range<usize>,
 ) -> Result<(), Failure> {
     let (positions, values) = lattice::map(c, lp, &tr.core.recording.line_a);
     let names: Vec<(f64, &str)> = lp.boundaries.iter().map(|(x, n)| (*x, n.as_str())).collect();
     let title = format!("{}: voltage along the path (tidewire core)", plant.name);
-    let map = LatticeMap { title: &title, dt: c.dt, positions: &positions, values: &values, boundaries: &names };
+    let end = window.end.min(values.len());
+    let rows = values.get(window.start.min(end)..end).unwrap_or(&[]);
+    let t0 = window.start as f64 * c.dt;
+    let map = LatticeMap { title: &title, dt: c.dt, t0, positions: &positions, values: rows, boundaries: &names };
     write_lattice_marked(path, &map, marks).map_err(|e| io_failure(path, e))
 }
 
@@ -215,7 +232,13 @@ pub(crate) fn verify_and_write(
     svg: Option<&Path>,
     lat: Option<&Path>,
     csv: Option<&Path>,
+    window: Option<Window>,
 ) -> Result<Verification, Failure> {
+    // The window is checked against the run before any work.
+    let shown = match window {
+        Some(w) => w.samples(c.dt, c.samples)?,
+        None => 0..c.samples,
+    };
     let lp = lattice::layout(plant, c);
     let record: Vec<u16> = match (&lp, lat) {
         (Some(p), Some(_)) => p.lines.iter().map(|l| l.0).collect(),
@@ -225,10 +248,10 @@ pub(crate) fn verify_and_write(
     let (v, tr) = verify(plant, file, c, &record, &|k| pb.set_position(k as u64))?;
     pb.finish_and_clear();
     if let Some(p) = svg {
-        write_svg(p, c, &tr, &event_marks(&v))?;
+        write_svg(p, c, &tr, &event_marks(&v), &shown)?;
     }
     if let (Some(p), Some(lp)) = (lat, &lp) {
-        write_lattice_svg(p, plant, c, lp, &tr, &event_marks(&v))?;
+        write_lattice_svg(p, plant, c, lp, &tr, &event_marks(&v), &shown)?;
     }
     if let Some(p) = csv {
         let bytes = probes_csv(
@@ -248,6 +271,8 @@ pub(super) struct VerifyOutputs<'a> {
     pub lattice: Option<&'a Path>,
     pub csv: Option<&'a Path>,
     pub json: Option<&'a Path>,
+    /// The part of the run the pictures show (default: all of it).
+    pub window: Option<Window>,
 }
 
 /// Most samples `verify` compares: it holds the core, twin and exact traces of every probe
@@ -293,7 +318,7 @@ pub(super) fn run(
         });
     }
     let file = path.display().to_string();
-    let v = verify_and_write(&plant, &c, &file, out.svg, out.lattice, out.csv)?;
+    let v = verify_and_write(&plant, &c, &file, out.svg, out.lattice, out.csv, out.window)?;
     let pass = run_pass(&plant, &v);
     if let Some(p) = out.json {
         let doc = super::json::verify_json(&plant, &c, &v, &file, pass);

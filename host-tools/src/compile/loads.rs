@@ -54,7 +54,9 @@ pub(super) fn realize(
                 ),
             ));
         }
-        Ok(to_milliohm(r))
+        // In range by the two checks above.
+        to_milliohm(r)
+            .ok_or_else(|| err(file, span, field, format!("{shown}: port resistance out of range"), "check the value"))
     };
     let ohm = |r: f64| checked_milliohm(r, file, span, field);
     Ok(match *load {

@@ -23,7 +23,7 @@
 //! that needs a new core junction; joined pieces elsewhere neglect their inductance and say
 //! by how much.
 use super::loads::{realize, ElementSpec};
-use super::{checked_milliohm, err, to_milliohm};
+use super::{checked_milliohm, err, lumped_resistance};
 use crate::plant::{Drive, EventAction, Load, Plant, PlantError, ProbeKind};
 use num_complex::Complex64;
 use tidewire_core::ElementKind;
@@ -248,10 +248,11 @@ pub(super) fn class_load(
         let load = match (load, shorted_stub) {
             (Load::Short, Some(si)) if replace.is_none() => {
                 let (seg, cable) = (&plant.segments[si], &plant.cables[plant.segments[si].cable]);
+                let field = format!("segment[{}].length", seg.name);
                 elements.push((
                     ElementKind::Inductor,
-                    to_milliohm(2.0 * cable.l_per_m() * seg.length / dt),
-                    (cable.r_per_m * seg.length * 1000.0).round().clamp(0.0, u32::MAX as f64) as u32,
+                    checked_milliohm(2.0 * cable.l_per_m() * seg.length / dt, file, seg.span, &field)?,
+                    lumped_resistance(cable.r_per_m * seg.length, file, seg.span, &field)?,
                 ));
                 inductive.push(si);
                 Load::Open

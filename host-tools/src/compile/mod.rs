@@ -29,7 +29,9 @@ mod segments;
 
 pub use lumped::{LumpKind, LUMP_BELOW_SAMPLES};
 pub use report::{ReactiveError, Reflection, Report, SegmentModel, SegmentTiming};
-pub use segments::{LinePiece, MIN_FRACTIONAL_DELAY, SECTION_R_OVER_Z0};
+pub use segments::{
+    LinePiece, DROPPED_ABOVE_CORE, DROPPED_BELOW_CORE, DROPPED_ONE_SAMPLE, MIN_FRACTIONAL_DELAY, SECTION_R_OVER_Z0,
+};
 
 use crate::plant::{Drive as PlantDrive, End, EventAction, Load, Plant, PlantError, ProbeKind as PlantProbe, Span};
 use tidewire_core::{
@@ -192,8 +194,18 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
             // L'·l and R'·l of the piece as a series-inductor junction (port 2L/T).
             let (seg, cable) = (&plant.segments[si], &plant.cables[plant.segments[si].cable]);
             b.junctions.push(Junction::SeriesInductor {
-                port_milliohm: to_milliohm(2.0 * cable.l_per_m() * seg.length / dt),
-                milliohm: (cable.r_per_m * seg.length * 1000.0).round().clamp(0.0, u32::MAX as f64) as u32,
+                port_milliohm: checked_milliohm(
+                    2.0 * cable.l_per_m() * seg.length / dt,
+                    file,
+                    seg.span,
+                    &format!("segment[{}].length", seg.name),
+                )?,
+                milliohm: lumped_resistance(
+                    cable.r_per_m * seg.length,
+                    file,
+                    seg.span,
+                    &format!("segment[{}].length", seg.name),
+                )?,
             });
             continue;
         }
@@ -426,6 +438,16 @@ pub const MAX_OHM: f64 = u32::MAX as f64 / 1000.0;
 /// A resistance from the plant file in the core's milliohms, or a located error when it
 /// is outside the range the core holds (never clamped silently: a clamped load makes the
 /// core disagree with the physics by the clamp).
+/// A lumped segment's conductor resistance in mΩ for a series-inductor junction or an
+/// inductor element: 0 (none) below the core's 1 mΩ, where it is far below anything that
+/// shows; a located error above its 4.29 MΩ (never clamped).
+pub(crate) fn lumped_resistance(ohm: f64, file: &str, span: Span, field: &str) -> Result<u32, PlantError> {
+    if ohm < MIN_OHM {
+        return Ok(0);
+    }
+    checked_milliohm(ohm, file, span, field)
+}
+
 pub(crate) fn checked_milliohm(ohm: f64, file: &str, span: Span, field: &str) -> Result<u32, PlantError> {
     let shown = crate::si::format(ohm, "ohm");
     if ohm.is_finite() && ohm < MIN_OHM * (1.0 - 1e-9) {
@@ -449,11 +471,22 @@ pub(crate) fn checked_milliohm(ohm: f64, file: &str, span: Span, field: &str) ->
             ),
         ));
     }
-    Ok(to_milliohm(ohm))
+    to_milliohm(ohm).ok_or_else(|| {
+        err(
+            file,
+            span,
+            field,
+            format!("{shown} does not fit the core's milliohms"),
+            "write a value from 1 mohm to 4.29 Mohm",
+        )
+    })
 }
 
-/// Ohms to the core's milliohms, rounded, at least 1 (for values the compiler derived;
-/// values from the plant file go through [`checked_milliohm`]).
-pub fn to_milliohm(ohm: f64) -> u32 {
-    (ohm * 1000.0).round().clamp(1.0, u32::MAX as f64) as u32
+/// Ohms to the core's milliohms, rounded to the nearest; `None` when the rounded value
+/// is outside 1 mΩ ..= u32::MAX mΩ or not a number. Never clamps: every caller turns
+/// `None` into a located error or a stated choice (a dropped resistance, say), because a
+/// clamped value makes the core disagree with the physics by the clamp.
+pub fn to_milliohm(ohm: f64) -> Option<u32> {
+    let m = (ohm * 1000.0).round();
+    (m.is_finite() && (1.0..=u32::MAX as f64).contains(&m)).then_some(m as u32)
 }

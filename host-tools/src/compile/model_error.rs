@@ -142,7 +142,7 @@ pub(super) fn fill(c: &mut Compiled, plant: &Plant, lump: &LumpPlan) {
         };
         if lump.lumped[si] == Some(super::LumpKind::Series) {
             // The series-inductor junction carries the piece's resistance.
-            t.r_dropped = false;
+            t.r_dropped = None;
         }
         t.model_error = seg_error(si, t.error_s, rise);
         let late = lump.lumped[si].is_none() && t.error_s.abs() > tol.arrival_samples * dt;

@@ -25,8 +25,9 @@ pub struct SegmentTiming {
     pub r_total: f64,
     /// Lumped sections.
     pub sections: usize,
-    /// The resistance could not be placed (segment of one sample).
-    pub r_dropped: bool,
+    /// Why the resistance could not be placed, if it was not (`segments::DROPPED_*`: a
+    /// segment of one sample, or a resistance below the core's 1 mΩ).
+    pub r_dropped: Option<&'static str>,
     /// Largest error of the loss filters' fit over [fs/10⁴, 0.4·fs], dB (None: no loss).
     pub loss_fit_db: Option<f64>,
     /// Frequency-dependent loss of the whole segment at 0.4·fs, dB.

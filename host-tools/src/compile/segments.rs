@@ -1,5 +1,5 @@
 //! Segments to core lines: delay quantization, lumped conductor resistance, break nodes.
-use super::{err, report::SegmentTiming, to_milliohm};
+use super::{err, report::SegmentTiming, to_milliohm, MAX_OHM, MIN_OHM};
 use crate::plant::{Plant, PlantError, Segment};
 use tidewire_core::{Junction, JunctionId, Line, LineLoss, Shunt, MAX_LOSS_SECTIONS};
 
@@ -40,9 +40,10 @@ pub(super) struct Builder<'p> {
     pub timings: Vec<SegmentTiming>,
     /// Plant node → core junction (nodes joined by a lumped segment share one).
     pub node_junction: Vec<JunctionId>,
-    /// Loss designs by (cable index, line length bits): the fit depends only on the cable,
-    /// the length, the sample rate and the profile (fixed per build), so a chain of equal
-    /// segments of one cable fits once, not once per segment.
+    /// Loss designs by (cable index, grid length): the fit depends only on the cable, the
+    /// length, the sample rate and the profile (fixed per build); lengths go to the cable's
+    /// grid (`loss::grid_step`), so a chain of one cable fits once per grid length it
+    /// uses, not once per line, whatever the spread of its segment lengths.
     loss_cache: std::collections::HashMap<(usize, u64), Option<super::loss::LossDesign>>,
 }
 
@@ -118,7 +119,7 @@ impl<'p> Builder<'p> {
             fraction: None,
             r_total,
             sections: 0,
-            r_dropped: false,
+            r_dropped: None,
             loss_fit_db: None,
             loss_edge_db: 0.0,
             dispersion_s: 0.0,
@@ -143,8 +144,26 @@ impl<'p> Builder<'p> {
         for (event, _) in cut_d.iter() {
             let j = match (event, seg.inline) {
                 (None, Some(inl)) => Junction::SeriesInductor {
-                    port_milliohm: to_milliohm(2.0 * inl.inductance / self.dt),
-                    milliohm: (inl.resistance * 1000.0).round().clamp(0.0, u32::MAX as f64) as u32,
+                    port_milliohm: self.choke_port(seg, inl.inductance)?,
+                    // The plant reader holds the choke's resistance to >= 0; zero is a
+                    // plain inductor (the core takes 0 mΩ here).
+                    milliohm: if inl.resistance == 0.0 {
+                        0
+                    } else {
+                        to_milliohm(inl.resistance).ok_or_else(|| {
+                            err(
+                                self.file,
+                                seg.span,
+                                format!("segment[{}].inline.resistance", seg.name),
+                                format!(
+                                    "{} is outside the core's resistances, 1 mohm to {}",
+                                    crate::si::format(inl.resistance, "ohm"),
+                                    crate::si::at_most(MAX_OHM, "ohm")
+                                ),
+                                "write 0 ohm for an ideal choke, or a value from 1 mohm to 4.29 Mohm",
+                            )
+                        })?
+                    },
                 },
                 _ => Junction::Node { shunt: Shunt::Open },
             };
@@ -157,7 +176,7 @@ impl<'p> Builder<'p> {
         *sample_bounds.last_mut().unwrap_or(&mut 0) = delay;
         let mut pieces = vec![];
         let mut sections_total = 0;
-        let mut dropped = false;
+        let mut dropped = None;
         for k in 0..bounds.len() - 1 {
             let d = sample_bounds[k + 1].saturating_sub(sample_bounds[k]);
             if d == 0 {
@@ -181,9 +200,10 @@ impl<'p> Builder<'p> {
                     || (k + 2 == bounds.len() && self.plant_rig_node() == Some(seg.to))
             });
             let (n, drop) = sections(r, cable.z0, d, at_rig);
-            dropped |= drop;
+            dropped = dropped.or(drop);
             sections_total += n;
-            self.run(&mut pieces, ends[k], ends[k + 1], cable.z0, d, if drop { 0.0 } else { r }, n, bounds[k], len)?;
+            let r_placed = if drop.is_some() { 0.0 } else { r };
+            self.run(&mut pieces, ends[k], ends[k + 1], cable.z0, d, r_placed, n, bounds[k], len)?;
         }
         if let Some(t) = self.timings.last_mut() {
             t.sections = sections_total;
@@ -211,7 +231,7 @@ impl<'p> Builder<'p> {
             error_s: -tau,
             r_total: cable.r_per_m * seg.length,
             sections: 0,
-            r_dropped: cable.r_per_m > 0.0,
+            r_dropped: None,
             loss_fit_db: None,
             loss_edge_db: 0.0,
             dispersion_s: 0.0,
@@ -267,6 +287,32 @@ impl<'p> Builder<'p> {
         }
     }
 
+    /// The port resistance 2L/T of an in-line choke in mΩ, or a located error when it is
+    /// outside the core's range (never clamped).
+    fn choke_port(&self, seg: &Segment, inductance: f64) -> Result<u32, PlantError> {
+        let r = 2.0 * inductance / self.dt;
+        to_milliohm(r).ok_or_else(|| {
+            // 2L/T in [MIN_OHM, MAX_OHM]  <=>  fs in [MIN_OHM/(2L), MAX_OHM/(2L)].
+            let hint = if r < MIN_OHM {
+                format!("raise plant.sample_rate to at least \"{}\"", crate::si::at_least(MIN_OHM / (2.0 * inductance), "Hz"))
+            } else {
+                format!("lower plant.sample_rate to at most \"{}\"", crate::si::at_most(MAX_OHM / (2.0 * inductance), "Hz"))
+            };
+            err(
+                self.file,
+                seg.span,
+                format!("segment[{}].inline.inductance", seg.name),
+                format!(
+                    "at this sample rate the choke {} acts through a port resistance 2L/T = {}, outside the core's 1 mohm to {}",
+                    crate::si::format(inductance, "H"),
+                    crate::si::format(r, "ohm"),
+                    crate::si::at_most(MAX_OHM, "ohm")
+                ),
+                hint,
+            )
+        })
+    }
+
     fn plant_rig_node(&self) -> Option<usize> {
         match self.plant.drive {
             crate::plant::Drive::Rig { node, .. } => Some(node),
@@ -288,16 +334,41 @@ impl<'p> Builder<'p> {
         start_m: f64,
         len_m: f64,
     ) -> Result<(), PlantError> {
-        let z = to_milliohm(z0);
-        let cable = &self.plant.cables[self.plant.segments[self.pieces.len()].cable];
-        // Sample positions of the section resistors: the middle of each section.
-        let mut cuts: Vec<u32> =
-            (0..n).map(|k| ((d as f64) * (2 * k + 1) as f64 / (2 * n) as f64).round() as u32).collect();
-        cuts.dedup();
+        let seg = &self.plant.segments[self.pieces.len()];
+        let cable = &self.plant.cables[seg.cable];
+        let z = to_milliohm(z0).ok_or_else(|| {
+            err(
+                self.file,
+                seg.span,
+                format!("cable.{}.impedance", cable.name),
+                format!(
+                    "the impedance {} is outside the core's 1 mohm to {}",
+                    crate::si::format(z0, "ohm"),
+                    crate::si::at_most(MAX_OHM, "ohm")
+                ),
+                "give the cable an impedance from 1 mohm to 4.29 Mohm (cables are 10 ohm to 1 kohm)",
+            )
+        })?;
+        let r_each = if cuts_len(d, n) == 0 { 0.0 } else { r / cuts_len(d, n) as f64 };
+        let r_milli = match to_milliohm(r_each) {
+            Some(m) => m,
+            None if n == 0 => 0,
+            // sections() keeps every section within the core's range.
+            None => {
+                return Err(err(
+                    self.file,
+                    seg.span,
+                    format!("segment[{}].length", seg.name),
+                    format!("a lumped section of {} is outside the core's range", crate::si::format(r_each, "ohm")),
+                    "this is a compiler fault for a plant file that parsed: please report it with the plant file",
+                ))
+            }
+        };
+        let cuts = section_cuts(d, n);
         let mut prev_j = a;
         let mut prev_s = 0u32;
         for c in &cuts {
-            let j = self.new_junction(Junction::Series { milliohm: to_milliohm(r / cuts.len() as f64) })?;
+            let j = self.new_junction(Junction::Series { milliohm: r_milli })?;
             self.push_line(pieces, z, c - prev_s, prev_j, j, start_m, len_m, prev_s, *c, d);
             self.add_loss(cable, pieces)?;
             prev_j = j;
@@ -315,16 +386,22 @@ impl<'p> Builder<'p> {
         let fs = 1.0 / self.dt;
         let length = p.end_m - p.start_m;
         let cable_id = self.plant.cables.iter().position(|c| std::ptr::eq(c, cable)).unwrap_or(usize::MAX);
-        let key = (cable_id, length.to_bits());
+        // The grid length; a line shorter than half a step keeps its own length (its fit
+        // is cheap to repeat and rare: such a line carries almost no loss).
+        let grid = super::loss::grid_step(cable, fs)
+            .map(|step| (length / step).round() * step)
+            .filter(|g| *g > 0.0 && g.is_finite())
+            .unwrap_or(length);
+        let key = (cable_id, grid.to_bits());
         let design = match self.loss_cache.get(&key) {
             Some(d) => d.clone(),
             None => {
-                let d = super::loss::design(cable, length, fs, p.line, self.frac);
+                let d = super::loss::design(cable, grid, fs, p.line, self.frac);
                 self.loss_cache.insert(key, d.clone());
                 d
             }
         };
-        if let Some(mut d) = design {
+        if let Some(mut d) = design.map(|d| d.measured_on(cable, length, fs, self.frac)) {
             d.loss.line = p.line;
             if d.peak_gain > 1.0 + 1e-9 {
                 let seg = &self.plant.segments[self.pieces.len()];
@@ -374,14 +451,41 @@ impl<'p> Builder<'p> {
     }
 }
 
-/// Number of sections for resistance `r` on a run of `d` samples, and whether the resistance
-/// had to be dropped (a run of one sample cannot hold a series junction).
+/// Sample positions of the section resistors of a run of `d` samples in `n` sections: the
+/// middle of each section (equal positions merged).
+fn section_cuts(d: u32, n: usize) -> Vec<u32> {
+    let mut cuts: Vec<u32> =
+        (0..n).map(|k| ((d as f64) * (2 * k + 1) as f64 / (2 * n) as f64).round() as u32).collect();
+    cuts.dedup();
+    cuts
+}
+
+/// How many series junctions a run of `d` samples in `n` sections has.
+fn cuts_len(d: u32, n: usize) -> usize {
+    section_cuts(d, n).len()
+}
+
+/// Why a segment's conductor resistance was left out of the model.
+pub const DROPPED_ONE_SAMPLE: &str = "one-sample segment";
+/// Why a segment's conductor resistance was left out of the model.
+pub const DROPPED_BELOW_CORE: &str = "below the core's 1 mohm";
+
+/// Why a segment's conductor resistance was left out of the model.
+pub const DROPPED_ABOVE_CORE: &str = "above the core's 4.29 Mohm in each of its sections";
+
+/// Number of sections for resistance `r` on a run of `d` samples, and why the resistance
+/// had to be dropped, if it was (a run of one sample cannot hold a series junction; a
+/// resistance below the core's 1 mΩ cannot be held, and is not rounded up to it).
 ///
 /// Every section needs a line of at least one sample on both sides of its resistor, so
-/// n <= d/2; at a rig port the first line must keep latency + 1 samples.
-fn sections(r: f64, z0: f64, d: u32, rig_latency: Option<u32>) -> (usize, bool) {
+/// n <= d/2; at a rig port the first line must keep latency + 1 samples; every section's
+/// resistor r/n must be at least 1 mΩ, so n <= r/1 mΩ.
+fn sections(r: f64, z0: f64, d: u32, rig_latency: Option<u32>) -> (usize, Option<&'static str>) {
     if r <= 0.0 {
-        return (0, false);
+        return (0, None);
+    }
+    if r < MIN_OHM {
+        return (0, Some(DROPPED_BELOW_CORE));
     }
     let want = ((r / z0) / SECTION_R_OVER_Z0).ceil().max(1.0) as usize;
     let mut max_n = (d / 2) as usize;
@@ -390,11 +494,16 @@ fn sections(r: f64, z0: f64, d: u32, rig_latency: Option<u32>) -> (usize, bool) 
         let first = l as usize + 1;
         max_n = max_n.min(d as usize / (2 * first).max(1));
     }
-    let n = want.min(max_n).min(MAX_SECTIONS);
+    // floor(r/MIN_OHM) >= 1 here; the small margin keeps r/n from rounding below 1 mΩ.
+    let n = want.min(max_n).min(MAX_SECTIONS).min((r / MIN_OHM * (1.0 - 1e-12)).floor().max(1.0) as usize);
     if n == 0 {
-        (0, true)
+        (0, Some(DROPPED_ONE_SAMPLE))
+    } else if r / n as f64 > MAX_OHM * (1.0 - 1e-12) {
+        // Only a run far longer than any plant (or a cable of absurd resistance) gets here;
+        // the storage check refuses the first, the warning names the second.
+        (0, Some(DROPPED_ABOVE_CORE))
     } else {
-        (n, false)
+        (n, None)
     }
 }
 
@@ -404,11 +513,25 @@ mod tests {
 
     #[test]
     fn section_count_follows_r_over_z0_and_fits_the_delay() {
-        assert_eq!(sections(0.0, 100.0, 50, None), (0, false));
-        assert_eq!(sections(4.0, 100.0, 50, None), (1, false)); // R/Z0 = 0.04
-        assert_eq!(sections(40.0, 100.0, 50, None), (8, false)); // 0.4 / 0.05
-        assert_eq!(sections(40.0, 100.0, 6, None), (3, false)); // capped at d/2
-        assert_eq!(sections(1.0, 100.0, 1, None), (0, true)); // one sample: dropped
-        assert_eq!(sections(40.0, 100.0, 50, Some(10)), (2, false)); // first line >= 11
+        assert_eq!(sections(0.0, 100.0, 50, None), (0, None));
+        assert_eq!(sections(4.0, 100.0, 50, None), (1, None)); // R/Z0 = 0.04
+        assert_eq!(sections(40.0, 100.0, 50, None), (8, None)); // 0.4 / 0.05
+        assert_eq!(sections(40.0, 100.0, 6, None), (3, None)); // capped at d/2
+        assert_eq!(sections(1.0, 100.0, 1, None), (0, Some(DROPPED_ONE_SAMPLE))); // one sample
+        assert_eq!(sections(40.0, 100.0, 50, Some(10)), (2, None)); // first line >= 11
+    }
+
+    #[test]
+    fn no_section_resistor_is_rounded_up_to_the_core_minimum() {
+        // 0.4 mΩ cannot be held: dropped and said why, not made 1 mΩ.
+        assert_eq!(sections(0.4e-3, 0.01, 50, None), (0, Some(DROPPED_BELOW_CORE)));
+        // 3.5 mΩ on a 1 mΩ-impedance busbar would want 70 sections; at most 3 of >= 1 mΩ.
+        let (n, why) = sections(3.5e-3, 1e-3, 500, None);
+        assert_eq!((n, why), (3, None));
+        assert!(to_milliohm(3.5e-3 / n as f64).is_some_and(|m| m >= 1));
+        assert_eq!(to_milliohm(0.4e-3), None);
+        assert_eq!(to_milliohm(5e6), None);
+        assert_eq!(to_milliohm(f64::NAN), None);
+        assert_eq!(to_milliohm(120.0), Some(120_000));
     }
 }

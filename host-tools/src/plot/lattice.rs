@@ -39,6 +39,8 @@ pub struct LatticeMap<'a> {
     pub title: &'a str,
     /// Time between rows in seconds.
     pub dt: f64,
+    /// Time of the first row in seconds (0 for a whole run; a window's start otherwise).
+    pub t0: f64,
     /// Positions of the columns along the path in metres, strictly increasing.
     pub positions: &'a [f64],
     /// `values[t][x]`: voltage at row (time sample) t and column x, in volts.
@@ -115,7 +117,7 @@ fn bin(map: &LatticeMap, vmax: f64, bx: usize, bt: usize) -> Grid {
     let nx = map.positions.len();
     let nt = map.values.len();
     let (x_edges, xs) = bin_edges(nx, bx.min(nx), |i| map.positions[i]);
-    let (t_edges, ts) = bin_edges(nt, bt.min(nt), |i| i as f64 * map.dt);
+    let (t_edges, ts) = bin_edges(nt, bt.min(nt), |i| map.t0 + i as f64 * map.dt);
     let levels = ts
         .windows(2)
         .map(|tw| {
@@ -239,10 +241,10 @@ fn draw(
     } else {
         Scale { factor: 1.0, prefix: "" }
     };
-    let t_end = (map.values.len() - 1) as f64 * map.dt;
+    let t_end = map.t0 + (map.values.len() - 1) as f64 * map.dt;
     let ts = Scale::for_time(t_end);
     let x_range = map.positions[0] / ds.factor..last / ds.factor;
-    let t_range = 0.0..t_end / ts.factor;
+    let t_range = map.t0 / ts.factor..t_end / ts.factor;
     let mut chart = ChartBuilder::on(&map_area)
         .margin_top(top)
         .margin_left(LEFT_MARGIN)
@@ -311,7 +313,7 @@ fn draw(
         root.draw(&PathElement::new(vec![(px, y + 1), (px, py)], style::INK.stroke_width(1)))?;
     }
 
-    for m in marks.iter().filter(|m| m.at >= 0.0 && m.at / ts.factor <= t_range.end) {
+    for m in marks.iter().filter(|m| m.at / ts.factor >= t_range.start && m.at / ts.factor <= t_range.end) {
         let t = m.at / ts.factor;
         chart.draw_series(LineSeries::new([(x_range.start, t), (x_range.end, t)], style::INK.stroke_width(2)))?;
         let (px, py) = chart.backend_coord(&(x_range.start, t));
@@ -364,7 +366,7 @@ mod tests {
         let mut values = vec![vec![0.0; 1000]; 450];
         values[333][777] = -4.0; // a single-sample dip
         values[10][3] = 1.0;
-        let map = LatticeMap { title: "t", dt: 1e-9, positions: &positions, values: &values, boundaries: &[] };
+        let map = LatticeMap { title: "t", dt: 1e-9, t0: 0.0, positions: &positions, values: &values, boundaries: &[] };
         let grid = bin(&map, 4.0, MAX_CELLS_X, MAX_CELLS_T);
         assert_eq!(grid.levels.len(), MAX_CELLS_T);
         assert!(grid.levels.iter().all(|r| r.len() == MAX_CELLS_X));

@@ -25,6 +25,8 @@ pub struct WaveformPlot<'a> {
     pub title: &'a str,
     /// Sample interval in seconds.
     pub dt: f64,
+    /// Time of the first sample in seconds (0 for a whole run; a window's start otherwise).
+    pub t0: f64,
     /// Unit of the values: "V" or "A".
     pub unit: &'a str,
     /// The emulation's trace.
@@ -171,9 +173,9 @@ fn draw_probe(
         .chain(p.extra.iter().map(|s| s.values.len()))
         .max()
         .unwrap_or(1);
-    let t_end = (n.max(2) - 1) as f64 * p.dt;
+    let t_end = p.t0 + (n.max(2) - 1) as f64 * p.dt;
     let ts = Scale::for_time(t_end);
-    let x_range = 0.0..t_end / ts.factor;
+    let x_range = p.t0 / ts.factor..t_end / ts.factor;
     let time_desc = format!("time ({}s)", ts.prefix);
 
     // Upper panel: traces in their own engineering unit.
@@ -192,21 +194,19 @@ fn draw_probe(
     for (s, trace) in series {
         let pts = decimate(s.values, p.dt, super::MAX_TRACE_POINTS);
         chart.draw_series(LineSeries::new(
-            pts.into_iter().map(|(t, v)| (t / ts.factor, v / vs.factor)),
+            pts.into_iter().map(|(t, v)| ((p.t0 + t) / ts.factor, v / vs.factor)),
             trace.colour.stroke_width(trace.width),
         ))?;
     }
 
-    let in_range = |m: &&super::EventMark| m.at >= 0.0 && m.at / ts.factor <= x_range.end;
+    let in_range = |m: &&super::EventMark| m.at / ts.factor >= x_range.start && m.at / ts.factor <= x_range.end;
     for m in marks.iter().filter(in_range) {
         let x = m.at / ts.factor;
         chart.draw_series(LineSeries::new([(x, y_lo), (x, y_hi)], style::INK.stroke_width(2)))?;
-        let (px, py) = chart.backend_coord(&(x, y_hi));
-        main.draw(&Text::new(
-            m.label.clone(),
-            (px + 4, py + 2),
-            style::font(style::TICK_PX).color(&style::INK).pos(Pos::new(HPos::Left, VPos::Top)),
-        ))?;
+        // Anchored in the chart's own coordinates (a label placed by backend pixels on
+        // `main` was shifted down by the panel's offset for every probe after the first).
+        let font = style::font(style::TICK_PX).color(&style::INK).pos(Pos::new(HPos::Left, VPos::Top));
+        chart.draw_series(std::iter::once(EmptyElement::at((x, y_hi)) + Text::new(m.label.clone(), (4, 2), font)))?;
     }
 
     // Lower panel: the error with its own scale, around a zero line.
@@ -225,7 +225,7 @@ fn draw_probe(
     }
     let pts = decimate(&err, p.dt, super::MAX_TRACE_POINTS);
     chart.draw_series(LineSeries::new(
-        pts.into_iter().map(|(t, v)| (t / ts.factor, v / es.factor)),
+        pts.into_iter().map(|(t, v)| ((p.t0 + t) / ts.factor, v / es.factor)),
         style::ERROR.colour.stroke_width(style::ERROR.width),
     ))?;
     Ok(())

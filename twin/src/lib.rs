@@ -1,0 +1,377 @@
+//! The f64 twin of the delay-line model: a core network (same quantized delays, same
+//! lumping, same elements, same loss sections) run in floating point, sample by sample.
+//! One twin serves the host tools (`tidewire_host::twin`, nominal coefficients, volts and
+//! amps) and the core's own tests (nominal, or the core's integer coefficients in f64 so
+//! that only arithmetic error is left between the two).
+//!
+//! Comparing the core with the twin isolates arithmetic error (fixed point, coefficient
+//! rounding); comparing the twin with the exact reference isolates model error (delay
+//! quantization, lumped resistance, bilinear elements).
+//!
+//! Wave conventions as in the core: v = a + b, i = (a − b)/Z0 at every line end; `a`
+//! enters the line, `b` leaves it toward the junction. One arm per junction kind in
+//! [`Twin::step`]: a new kind of junction or element is one more arm there.
+
+use tidewire_core::{Drive, ElementKind, Junction, Network, ProbeKind, Shunt, Side};
+
+/// The core's integer coefficients, to run the twin with them instead of nominal ones:
+/// line weights g, exponent c of the weight unit (g = floor(2^c/Z[mΩ])), fractional bits
+/// of series and element coefficients, cap of a node's total weight.
+#[derive(Debug, Clone)]
+pub struct Quantized {
+    pub g: Vec<u64>,
+    pub exponent: u32,
+    pub series_frac: u32,
+    pub total_max: u64,
+    /// Fraction bits of the fractional-delay allpass coefficients (`Profile::LOSS_FRAC`).
+    pub allpass_frac: u32,
+}
+
+impl Quantized {
+    /// The core's weight of a resistance: floor(2^c / R[mΩ]).
+    fn weight(&self, milliohm: u32) -> f64 {
+        ((1u128 << self.exponent) / u128::from(milliohm.max(1))) as f64
+    }
+
+    /// The core's weight of a sum of resistances (an element's port and series parts).
+    fn weight_u64(&self, milliohm: u64) -> f64 {
+        ((1u128 << self.exponent) / u128::from(milliohm.max(1))) as f64
+    }
+
+    /// A fraction as the core rounds it: floor(num·2^F/den)/2^F.
+    fn fraction(&self, num: u128, den: u128) -> f64 {
+        ((num << self.series_frac) / den.max(1)) as f64 / (1u64 << self.series_frac) as f64
+    }
+}
+
+/// A line's arrival filter at one end: port, loss sections (a, g, gb), their state
+/// (x[n−1], y[n−1]), and the fractional-delay lattice (a, c, state s) if any.
+struct Filter {
+    port: usize,
+    sections: Vec<(f64, f64, f64)>,
+    state: Vec<(f64, f64)>,
+    allpass: Option<(f64, f64, f64)>,
+}
+
+/// The lattice coefficients (a, c) of a line's allpass truncated at `frac` bits, as the
+/// core quantizes them (`tidewire_core::quantize::allpass`), with its state at rest.
+fn allpass_at(l: &tidewire_core::LineLoss, frac: u32) -> Option<(f64, f64, f64)> {
+    let ap = l.allpass?;
+    let (a, c) = tidewire_core::quantize::allpass(ap.a, ap.c, frac)?;
+    let one = (1u64 << frac) as f64;
+    Some((a as f64 / one, c as f64 / one, 0.0))
+}
+
+/// The network and its state.
+pub struct Twin {
+    lines: Vec<tidewire_core::Line>,
+    junctions: Vec<Junction>,
+    elements: Vec<tidewire_core::Element>,
+    probes: Vec<tidewire_core::Probe>,
+    coef: Option<Quantized>,
+    /// Line impedance per line, ohms.
+    z: Vec<f64>,
+    /// Ports (2·line + side) at each junction; elements at each junction.
+    at: Vec<Vec<usize>>,
+    els_at: Vec<Vec<usize>>,
+    /// rings[p]: waves travelling towards port p; pos[p] the read position.
+    rings: Vec<Vec<f64>>,
+    pos: Vec<usize>,
+    a: Vec<f64>,
+    b: Vec<f64>,
+    el_state: Vec<f64>,
+    el_a: Vec<f64>,
+    /// In-line chokes: the inductor's wave b_L per junction.
+    choke: Vec<f64>,
+    filters: Vec<Filter>,
+    shunt: Vec<Shunt>,
+    broken: Vec<bool>,
+    /// The source: junction and conductance (1/Ω, or the core's weight when quantized).
+    source: Option<(usize, f64)>,
+    out: Vec<f64>,
+    /// Largest |wave| seen anywhere so far, in the units of the drive.
+    pub peak_wave: f64,
+}
+
+/// Fractional bits at which the twin runs loss sections: the core's quantization at its
+/// finest (`tidewire_core::quantize::loss_section`), so the twin's filters are the
+/// designed ones to within 2^−30.
+pub const LOSS_FRAC: u32 = 30;
+
+impl Twin {
+    /// The twin of `net` with nominal coefficients (1/Z, exact fractions). A source drive is
+    /// the EMF behind its resistance; a rig drive has no source until [`Twin::set_source`].
+    pub fn new(net: &Network<'_>) -> Twin {
+        let nl = net.lines.len();
+        let nj = net.junctions.len();
+        let mut at: Vec<Vec<usize>> = vec![vec![]; nj];
+        for (i, l) in net.lines.iter().enumerate() {
+            if let Some(v) = at.get_mut(l.a as usize) {
+                v.push(2 * i);
+            }
+            if let Some(v) = at.get_mut(l.b as usize) {
+                v.push(2 * i + 1);
+            }
+        }
+        let mut els_at: Vec<Vec<usize>> = vec![vec![]; nj];
+        for (k, e) in net.elements.iter().enumerate() {
+            if let Some(v) = els_at.get_mut(e.junction as usize) {
+                v.push(k);
+            }
+        }
+        let mut filters = vec![];
+        for l in net.losses {
+            let sections: Vec<(f64, f64, f64)> = (0..l.sections as usize)
+                .map(|k| {
+                    let one = (1u64 << LOSS_FRAC) as f64;
+                    // The core refuses a section its quantization refuses; pass-through here.
+                    let (a, g, gb) =
+                        tidewire_core::quantize::loss_section(i64::from(l.poles[k]), i64::from(l.zeros[k]), LOSS_FRAC)
+                            .unwrap_or((0, 1 << LOSS_FRAC, 0));
+                    (a as f64 / one, g as f64 / one, gb as f64 / one)
+                })
+                .collect();
+            for side in 0..2 {
+                let state = vec![(0.0, 0.0); sections.len()];
+                let allpass = allpass_at(l, LOSS_FRAC);
+                filters.push(Filter { port: 2 * l.line as usize + side, sections: sections.clone(), state, allpass });
+            }
+        }
+        let source = match net.drive {
+            Drive::Source { junction, milliohm } => Some((junction as usize, 1000.0 / f64::from(milliohm.max(1)))),
+            _ => None,
+        };
+        Twin {
+            lines: net.lines.to_vec(),
+            junctions: net.junctions.to_vec(),
+            elements: net.elements.to_vec(),
+            probes: net.probes.to_vec(),
+            coef: None,
+            z: net.lines.iter().map(|l| f64::from(l.z_milliohm) / 1000.0).collect(),
+            at,
+            els_at,
+            rings: (0..2 * nl).map(|p| vec![0.0; net.lines[p / 2].delay.max(1) as usize]).collect(),
+            pos: vec![0; 2 * nl],
+            a: vec![0.0; 2 * nl],
+            b: vec![0.0; 2 * nl],
+            el_state: vec![0.0; net.elements.len()],
+            el_a: vec![0.0; net.elements.len()],
+            choke: vec![0.0; nj],
+            filters,
+            shunt: net
+                .junctions
+                .iter()
+                .map(|j| if let Junction::Node { shunt } = j { *shunt } else { Shunt::Open })
+                .collect(),
+            broken: vec![false; nj],
+            source,
+            out: vec![0.0; net.probes.len()],
+            peak_wave: 0.0,
+        }
+    }
+
+    /// The same network with the core's integer coefficients `q` (f64 arithmetic). Probes
+    /// then read as the core's raw probes do: a + b, or a − b for a current.
+    pub fn quantized(net: &Network<'_>, q: Quantized) -> Twin {
+        let mut t = Twin::new(net);
+        if let Drive::Source { junction, milliohm } = net.drive {
+            t.source = Some((junction as usize, q.weight(milliohm)));
+        }
+        // The allpass with the profile's coefficient bits (the loss sections stay at Q30).
+        let ends = net.losses.iter().flat_map(|l| [l, l]);
+        for (f, l) in t.filters.iter_mut().zip(ends) {
+            f.allpass = allpass_at(l, q.allpass_frac);
+        }
+        t.coef = Some(q);
+        t
+    }
+
+    /// Put an EMF source behind `conductance` (1/Ω) at `junction` (the rig port's device
+    /// model: the device's EMF behind its resistance, with no latency).
+    pub fn set_source(&mut self, junction: usize, conductance: f64) {
+        self.source = Some((junction, conductance));
+    }
+
+    /// A scheduled load change at a node.
+    pub fn set_shunt(&mut self, junction: usize, shunt: Shunt) {
+        if let Some(s) = self.shunt.get_mut(junction) {
+            *s = shunt;
+        }
+    }
+
+    /// A scheduled break: the node parts, every port reflects what arrives (a = b).
+    pub fn set_broken(&mut self, junction: usize) {
+        if let Some(b) = self.broken.get_mut(junction) {
+            *b = true;
+        }
+    }
+
+    fn g(&self, port: usize) -> f64 {
+        match &self.coef {
+            Some(q) => q.g[port / 2] as f64,
+            None => 1.0 / self.z[port / 2],
+        }
+    }
+
+    fn g_of_milliohm(&self, m: u32) -> f64 {
+        match &self.coef {
+            Some(q) => q.weight(m),
+            None => 1000.0 / f64::from(m.max(1)),
+        }
+    }
+
+    /// The a-waves at both ends of `line` after the last step (for the lattice view).
+    pub fn line_a(&self, line: usize) -> (f64, f64) {
+        (self.a[2 * line], self.a[2 * line + 1])
+    }
+
+    /// One sample with source EMF `emf`; returns the probe values: voltage a + b, current
+    /// (a − b)/Z0 (nominal) or a − b (quantized, as the core's raw probe).
+    pub fn step(&mut self, emf: f64) -> &[f64] {
+        for p in 0..self.b.len() {
+            self.b[p] = self.rings[p][self.pos[p]];
+        }
+        // y = g·x − gb·x[n−1] + a·y[n−1] per section, on the wave arriving at the end.
+        for f in self.filters.iter_mut() {
+            let mut x = self.b[f.port];
+            for ((a, g, gb), (x1, y1)) in f.sections.iter().zip(f.state.iter_mut()) {
+                let y = g * x - gb * *x1 + a * *y1;
+                *x1 = x;
+                *y1 = y;
+                x = y;
+            }
+            // Then the fractional delay: y = a·x + c·s, s' = c·x − a·s.
+            if let Some((a, c, s)) = f.allpass.as_mut() {
+                let y = *a * x + *c * *s;
+                *s = *c * x - *a * *s;
+                x = y;
+            }
+            self.b[f.port] = x;
+        }
+        for j in 0..self.junctions.len() {
+            match self.junctions[j] {
+                Junction::SeriesInductor { port_milliohm, milliohm } => {
+                    let (p, q) = (self.at[j][0], self.at[j][1]);
+                    let (z1, z2) = (self.z[p / 2], self.z[q / 2]);
+                    let (rl, r) = (f64::from(port_milliohm) / 1000.0, f64::from(milliohm) / 1000.0);
+                    // x = b1 − b2 − b_L, I = 2x/(Z1 + Z2 + R_L + R); a1 = b1 − Z1·I,
+                    // a2 = b2 + Z2·I, a_L = b_L + R_L·I; bilinear inductor: next b_L = −a_L.
+                    let i = 2.0 * (self.b[p] - self.b[q] - self.choke[j]) / (z1 + z2 + rl + r);
+                    self.a[p] = self.b[p] - z1 * i;
+                    self.a[q] = self.b[q] + z2 * i;
+                    self.choke[j] = -(self.choke[j] + rl * i);
+                }
+                Junction::Series { milliohm } => {
+                    let (p, q) = (self.at[j][0], self.at[j][1]);
+                    let (z1, z2) = (self.z[p / 2], self.z[q / 2]);
+                    // I = 2(b1 − b2)/(Z1 + Z2 + R), a1 = b1 − Z1·I, a2 = b2 + Z2·I; the core
+                    // uses one coefficient c = floor(2Z·2^F/(2Z + R))/2^F (equal Z).
+                    let (c1, c2) = match &self.coef {
+                        Some(qz) => {
+                            let z = u128::from(self.lines[p / 2].z_milliohm);
+                            let c = qz.fraction(2 * z, 2 * z + u128::from(milliohm));
+                            (c, c)
+                        }
+                        None => {
+                            let r = f64::from(milliohm) / 1000.0;
+                            (2.0 * z1 / (z1 + z2 + r), 2.0 * z2 / (z1 + z2 + r))
+                        }
+                    };
+                    let x = self.b[p] - self.b[q];
+                    self.a[p] = self.b[p] - c1 * x;
+                    self.a[q] = self.b[q] + c2 * x;
+                }
+                _ => self.node(j, emf),
+            }
+        }
+        let quantized = self.coef.is_some();
+        for (k, pr) in self.probes.iter().enumerate() {
+            let p = 2 * pr.line as usize + usize::from(pr.side == Side::B);
+            self.out[k] = match (pr.kind, quantized) {
+                (ProbeKind::Current, false) => (self.a[p] - self.b[p]) / self.z[p / 2],
+                (ProbeKind::Current, true) => self.a[p] - self.b[p],
+                _ => self.a[p] + self.b[p],
+            };
+        }
+        // Reactances: a_c = b + μ·(a − b), μ = R_p/(R_p + R_s); next state a_c (−a_c for L).
+        for k in 0..self.elements.len() {
+            let el = self.elements[k];
+            let mu = match &self.coef {
+                Some(q) => q.fraction(
+                    u128::from(el.port_milliohm),
+                    u128::from(el.port_milliohm) + u128::from(el.series_milliohm),
+                ),
+                None => f64::from(el.port_milliohm) / (f64::from(el.port_milliohm) + f64::from(el.series_milliohm)),
+            };
+            let ac = self.el_state[k] + mu * (self.el_a[k] - self.el_state[k]);
+            self.el_state[k] = if el.kind == ElementKind::Inductor { -ac } else { ac };
+        }
+        for p in 0..self.a.len() {
+            self.peak_wave = self.peak_wave.max(self.a[p].abs()).max(self.b[p].abs());
+            // The wave leaving port p travels towards its partner (p ^ 1).
+            let q = p ^ 1;
+            let i = self.pos[q];
+            self.rings[q][i] = self.a[p];
+        }
+        for p in 0..self.b.len() {
+            self.pos[p] = (self.pos[p] + 1) % self.rings[p].len();
+        }
+        &self.out
+    }
+
+    /// A node: v = (Σ 2·g_k·b_k + E·G_src) / (Σ g_k + G_src + G_shunt), every port a_k = v − b_k;
+    /// a short has v = 0; a broken node reflects every port (a = b).
+    fn node(&mut self, j: usize, emf: f64) {
+        if self.broken[j] {
+            for &p in &self.at[j] {
+                self.a[p] = self.b[p];
+            }
+            for &k in &self.els_at[j] {
+                self.el_a[k] = self.el_state[k];
+            }
+            return;
+        }
+        let (mut num, mut den) = (0.0, 0.0);
+        for &p in &self.at[j] {
+            num += 2.0 * self.b[p] * self.g(p);
+            den += self.g(p);
+        }
+        for &k in &self.els_at[j] {
+            let el = self.elements[k];
+            let g = match &self.coef {
+                Some(q) => q.weight_u64(u64::from(el.port_milliohm) + u64::from(el.series_milliohm)),
+                None => 1000.0 / (f64::from(el.port_milliohm) + f64::from(el.series_milliohm)),
+            };
+            num += 2.0 * self.el_state[k] * g;
+            den += g;
+        }
+        if let Some((sj, gs)) = self.source {
+            if sj == j {
+                num += emf * gs;
+                den += gs;
+            }
+        }
+        let cap = self.coef.as_ref().map_or(f64::INFINITY, |q| q.total_max as f64);
+        let v = match self.shunt[j] {
+            Shunt::Short => 0.0,
+            Shunt::Resistor { milliohm } => num / (den + self.g_of_milliohm(milliohm)).min(cap),
+            _ => num / den,
+        };
+        for &p in &self.at[j] {
+            self.a[p] = v - self.b[p];
+        }
+        for &k in &self.els_at[j] {
+            self.el_a[k] = v - self.el_state[k];
+        }
+    }
+
+    /// Stored energy Σ w²/Z0 over all ring contents and fractional-delay states (a lattice's
+    /// state is a wave of its line).
+    pub fn energy(&self) -> f64 {
+        let rings: f64 =
+            self.rings.iter().enumerate().map(|(p, r)| r.iter().map(|w| w * w).sum::<f64>() / self.z[p / 2]).sum();
+        let lattices: f64 =
+            self.filters.iter().filter_map(|f| f.allpass.map(|(_, _, s)| s * s / self.z[f.port / 2])).sum();
+        rings + lattices
+    }
+}
