@@ -98,9 +98,6 @@ pub mod image;
 pub mod network;
 pub mod owned;
 pub mod plant_step;
-// The speed issue rewrites profile.rs (one undocumented trait method, `Profile::diff`);
-// its documentation comes with that rewrite, and this allow goes then.
-#[allow(missing_docs)]
 pub mod profile;
 pub mod quantize;
 pub mod solver;

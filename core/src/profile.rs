@@ -99,6 +99,7 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     fn to_code(x: i32, shift: u32) -> i16;
     /// a + b or a − b, for probes, as i32 (saturating in [`Wide`]).
     fn sum(a: Self::Wave, b: Self::Wave) -> i32;
+    /// a − b as i32 (saturating in [`Wide`]): a current probe's raw read-out.
     fn diff(a: Self::Wave, b: Self::Wave) -> i32;
     /// [`Self::node_scatter`] with the **hold rule** for a node with a shunt, which lets a
     /// constant drive settle (no oscillation around a working point):

@@ -163,51 +163,73 @@ pub struct Status {
 }
 
 /// Why the rig refused a frame or a request. After any of these, nothing changed.
-#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize, thiserror::Error)]
 pub enum LinkError {
     /// The bytes between two zero delimiters are not valid COBS.
+    #[error("the rig could not unpack the frame (bad COBS)")]
     Framing,
     /// Fewer bytes than version, sequence number and CRC.
+    #[error("the frame was too short")]
     Truncated,
     /// More bytes than a frame may have.
+    #[error("the frame was too long")]
     Oversized,
     /// The frame CRC does not match.
+    #[error("the frame CRC did not match")]
     Crc,
     /// The frame is of another protocol version; `rig` is the one this rig speaks.
+    #[error("the rig speaks link protocol version {rig}")]
     Version { rig: u8 },
     /// The body does not decode into a request (or has bytes left over).
+    #[error("the rig did not understand the request")]
     Body,
     /// A chunk or commit out of order; `expected` is the next offset the rig wants.
+    #[error("chunk out of order: the rig expected offset {expected}")]
     OutOfOrder { expected: u32 },
     /// A chunk or commit without a begin.
+    #[error("no upload in progress")]
     NoUpload,
     /// The image (or device model) is larger than the rig holds.
+    #[error("too large for the rig: at most {max} bytes")]
     TooLarge { max: u32 },
     /// The image was refused (see [`ImageFault`]).
+    #[error("the rig refused the image: {0:?}")]
     Image(ImageFault),
     /// A previous image is waiting for the next sample to take effect.
+    #[error("the previous image has not taken effect yet")]
     Busy,
     /// No plant loaded.
+    #[error("no plant loaded")]
     NotLoaded,
     /// An event or trigger at a sample already run.
+    #[error("that sample has passed: the rig has run {samples}")]
     InThePast { samples: u64 },
     /// The event queue is full.
+    #[error("the event queue is full ({})", MAX_EVENTS)]
     QueueFull,
     /// The junction is not a node of the active plant.
+    #[error("junction {junction} is not a node of the loaded plant")]
     BadJunction { junction: u16 },
     /// A probe index the plant does not have, or an empty or repeated probe list.
+    #[error("probe list empty, repeated, or naming a probe the plant lacks")]
     BadProbe,
     /// The capture does not fit: at most `max` values (samples × probes); length >= 1.
+    #[error("capture does not fit: at most {max} values (samples x probes)")]
     CaptureSize { max: u32 },
     /// No finished capture to read.
+    #[error("no finished capture")]
     CaptureNotReady,
     /// Column or offset outside the capture.
+    #[error("column or offset outside the capture")]
     OutOfRange,
     /// This rig has real converters and no software device model.
+    #[error("this rig has real converters, no software device model")]
     NoDeviceModel,
     /// A sample period outside what the timer can do.
+    #[error("sample period must be {min}..={max} ticks")]
     BadPeriod { min: u32, max: u32 },
     /// The device-model parameters are not positive finite numbers, or the latency is too long.
+    #[error("device model parameters not positive and finite, or latency too long")]
     BadModel,
 }
 
@@ -239,37 +261,6 @@ impl From<tidewire_core::image::ImageError> for ImageFault {
             E::Body => ImageFault::Body,
             E::TrailingBytes => ImageFault::TrailingBytes,
             _ => ImageFault::Network,
-        }
-    }
-}
-
-impl core::fmt::Display for LinkError {
-    fn fmt(&self, f: &mut core::fmt::Formatter<'_>) -> core::fmt::Result {
-        match *self {
-            LinkError::Framing => write!(f, "the rig could not unpack the frame (bad COBS)"),
-            LinkError::Truncated => write!(f, "the frame was too short"),
-            LinkError::Oversized => write!(f, "the frame was too long"),
-            LinkError::Crc => write!(f, "the frame CRC did not match"),
-            LinkError::Version { rig } => write!(f, "the rig speaks link protocol version {rig}"),
-            LinkError::Body => write!(f, "the rig did not understand the request"),
-            LinkError::OutOfOrder { expected } => write!(f, "chunk out of order: the rig expected offset {expected}"),
-            LinkError::NoUpload => write!(f, "no upload in progress"),
-            LinkError::TooLarge { max } => write!(f, "too large for the rig: at most {max} bytes"),
-            LinkError::Image(x) => write!(f, "the rig refused the image: {x:?}"),
-            LinkError::Busy => write!(f, "the previous image has not taken effect yet"),
-            LinkError::NotLoaded => write!(f, "no plant loaded"),
-            LinkError::InThePast { samples } => write!(f, "that sample has passed: the rig has run {samples}"),
-            LinkError::QueueFull => write!(f, "the event queue is full ({MAX_EVENTS})"),
-            LinkError::BadJunction { junction } => write!(f, "junction {junction} is not a node of the loaded plant"),
-            LinkError::BadProbe => write!(f, "probe list empty, repeated, or naming a probe the plant lacks"),
-            LinkError::CaptureSize { max } => {
-                write!(f, "capture does not fit: at most {max} values (samples x probes)")
-            }
-            LinkError::CaptureNotReady => write!(f, "no finished capture"),
-            LinkError::OutOfRange => write!(f, "column or offset outside the capture"),
-            LinkError::NoDeviceModel => write!(f, "this rig has real converters, no software device model"),
-            LinkError::BadPeriod { min, max } => write!(f, "sample period must be {min}..={max} ticks"),
-            LinkError::BadModel => write!(f, "device model parameters not positive and finite, or latency too long"),
         }
     }
 }

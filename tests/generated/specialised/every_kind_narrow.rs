@@ -52,16 +52,16 @@ static ELEMENTS: [Element; 3] = [
 ];
 
 static LOSSES: [LineLoss; 13] = [
-    LineLoss { line: 0, sections: 6, poles: [1073063242, 1068152428, 1045609263, 957201656, 662734500, 49409566], zeros: [1072932170, 1068021356, 1045244112, 954336508, 644562387, 2039526], allpass: None },
-    LineLoss { line: 1, sections: 6, poles: [1073066640, 1068202247, 1045931060, 958508087, 665437308, 49409566], zeros: [1072935568, 1068071175, 1045624357, 956098862, 650036298, 8608718], allpass: None },
-    LineLoss { line: 2, sections: 6, poles: [1073054504, 1068023514, 1044775113, 953824422, 655857306, 49409566], zeros: [1072923432, 1067892442, 1044245796, 949682464, 630110047, -14956906], allpass: Some(Allpass { a: 289828643, c: 1033886290 }) },
-    LineLoss { line: 3, sections: 6, poles: [1073058015, 1068075448, 1045111428, 955184489, 658607892, 49409566], zeros: [1072926943, 1067944376, 1044650577, 951574423, 635985336, -8107142], allpass: None },
+    LineLoss { line: 0, sections: 6, poles: [1073063210, 1068151972, 1045606384, 957190173, 662711042, 49409566], zeros: [1072932138, 1068020900, 1045240711, 954320972, 644514472, 1982433], allpass: None },
+    LineLoss { line: 1, sections: 6, poles: [1073066635, 1068202182, 1045930653, 958506458, 665433948, 49409566], zeros: [1072935563, 1068071110, 1045623879, 956096682, 650029565, 8600599], allpass: None },
+    LineLoss { line: 2, sections: 6, poles: [1073054497, 1068023418, 1044774532, 953822186, 655852905, 49409566], zeros: [1072923425, 1067892346, 1044245103, 949679358, 630100584, -14967831], allpass: Some(Allpass { a: 290765820, c: 1033623114 }) },
+    LineLoss { line: 3, sections: 6, poles: [1073057945, 1068074421, 1045104787, 955157635, 658553366, 49409566], zeros: [1072926873, 1067943349, 1044642616, 951537312, 635870151, -8242194], allpass: None },
     LineLoss { line: 4, sections: 0, poles: [0, 0, 0, 0, 0, 0], zeros: [0, 0, 0, 0, 0, 0], allpass: Some(Allpass { a: -1855129, c: 1073740221 }) },
     LineLoss { line: 5, sections: 0, poles: [0, 0, 0, 0, 0, 0], zeros: [0, 0, 0, 0, 0, 0], allpass: Some(Allpass { a: 151573970, c: 1062989574 }) },
-    LineLoss { line: 6, sections: 6, poles: [1073080404, 1068402184, 1047218139, 963748547, 676515550, 49409566], zeros: [1072949332, 1068271112, 1047087067, 962976132, 671417373, 34996498], allpass: None },
-    LineLoss { line: 7, sections: 6, poles: [1073080404, 1068402184, 1047218139, 963748547, 676515550, 49409566], zeros: [1072949332, 1068271112, 1047087067, 962976132, 671417373, 34996498], allpass: None },
-    LineLoss { line: 8, sections: 6, poles: [1073076684, 1068348449, 1046872954, 962340889, 673502431, 49409566], zeros: [1072945612, 1068217377, 1046722820, 961157435, 665758665, 27896798], allpass: Some(Allpass { a: -93534156, c: 1069660163 }) },
-    LineLoss { line: 9, sections: 6, poles: [1073076684, 1068348449, 1046872954, 962340889, 673502431, 49409566], zeros: [1072945612, 1068217377, 1046722820, 961157435, 665758665, 27896798], allpass: None },
+    LineLoss { line: 6, sections: 6, poles: [1073080482, 1068403299, 1047225243, 963777413, 676577514, 49409566], zeros: [1072949410, 1068272227, 1047094171, 963013198, 671532559, 35141854], allpass: None },
+    LineLoss { line: 7, sections: 6, poles: [1073080482, 1068403299, 1047225243, 963777413, 676577514, 49409566], zeros: [1072949410, 1068272227, 1047094171, 963013198, 671532559, 35141854], allpass: None },
+    LineLoss { line: 8, sections: 6, poles: [1073076719, 1068348956, 1046876216, 962354190, 673530783, 49409566], zeros: [1072945647, 1068217884, 1046726589, 961174717, 665812435, 27963866], allpass: Some(Allpass { a: -92822847, c: 1069722124 }) },
+    LineLoss { line: 9, sections: 6, poles: [1073076719, 1068348956, 1046876216, 962354190, 673530783, 49409566], zeros: [1072945647, 1068217884, 1046726589, 961174717, 665812435, 27963866], allpass: None },
     LineLoss { line: 10, sections: 0, poles: [0, 0, 0, 0, 0, 0], zeros: [0, 0, 0, 0, 0, 0], allpass: Some(Allpass { a: 45505324, c: 1072777129 }) },
     LineLoss { line: 11, sections: 0, poles: [0, 0, 0, 0, 0, 0], zeros: [0, 0, 0, 0, 0, 0], allpass: Some(Allpass { a: -121136521, c: 1066886801 }) },
     LineLoss { line: 12, sections: 0, poles: [0, 0, 0, 0, 0, 0], zeros: [0, 0, 0, 0, 0, 0], allpass: Some(Allpass { a: 349702027, c: 1015199486 }) },
@@ -263,15 +263,15 @@ pub mod specialised {
             self.lx[2] = x;
             self.ly[2] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[3], self.ly[3], 15997u32, 14219i32, 14605u32);
+            let y = P::loss_section(x, self.lx[3], self.ly[3], 15988u32, 14210i32, 14605u32);
             self.lx[3] = x;
             self.ly[3] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[4], self.ly[4], 15691u32, 9420i32, 10112u32);
+            let y = P::loss_section(x, self.lx[4], self.ly[4], 15688u32, 9417i32, 10112u32);
             self.lx[4] = x;
             self.ly[4] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[5], self.ly[5], 15660u32, 30i32, 753u32);
+            let y = P::loss_section(x, self.lx[5], self.ly[5], 15659u32, 29i32, 753u32);
             self.lx[5] = x;
             self.ly[5] = y;
             x = y;
@@ -289,15 +289,15 @@ pub mod specialised {
             self.lx[8] = x;
             self.ly[8] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[9], self.ly[9], 15997u32, 14219i32, 14605u32);
+            let y = P::loss_section(x, self.lx[9], self.ly[9], 15988u32, 14210i32, 14605u32);
             self.lx[9] = x;
             self.ly[9] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[10], self.ly[10], 15691u32, 9420i32, 10112u32);
+            let y = P::loss_section(x, self.lx[10], self.ly[10], 15688u32, 9417i32, 10112u32);
             self.lx[10] = x;
             self.ly[10] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[11], self.ly[11], 15660u32, 30i32, 753u32);
+            let y = P::loss_section(x, self.lx[11], self.ly[11], 15659u32, 29i32, 753u32);
             self.lx[11] = x;
             self.ly[11] = y;
             x = y;
@@ -363,11 +363,11 @@ pub mod specialised {
             self.lx[25] = x;
             self.ly[25] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[26], self.ly[26], 16057u32, 15616i32, 15942u32);
+            let y = P::loss_section(x, self.lx[26], self.ly[26], 16093u32, 15651i32, 15941u32);
             self.lx[26] = x;
             self.ly[26] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[27], self.ly[27], 15838u32, 14009i32, 14554u32);
+            let y = P::loss_section(x, self.lx[27], self.ly[27], 15830u32, 14001i32, 14554u32);
             self.lx[27] = x;
             self.ly[27] = y;
             x = y;
@@ -379,7 +379,7 @@ pub mod specialised {
             self.lx[29] = x;
             self.ly[29] = y;
             x = y;
-            let (y, s_next) = P::allpass(x, self.aps[0], 4422i32, 15775u32);
+            let (y, s_next) = P::allpass(x, self.aps[0], 4436i32, 15771u32);
             self.aps[0] = s_next;
             x = y;
             self.b[18] = x;
@@ -392,11 +392,11 @@ pub mod specialised {
             self.lx[31] = x;
             self.ly[31] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[32], self.ly[32], 16057u32, 15616i32, 15942u32);
+            let y = P::loss_section(x, self.lx[32], self.ly[32], 16093u32, 15651i32, 15941u32);
             self.lx[32] = x;
             self.ly[32] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[33], self.ly[33], 15838u32, 14009i32, 14554u32);
+            let y = P::loss_section(x, self.lx[33], self.ly[33], 15830u32, 14001i32, 14554u32);
             self.lx[33] = x;
             self.ly[33] = y;
             x = y;
@@ -408,7 +408,7 @@ pub mod specialised {
             self.lx[35] = x;
             self.ly[35] = y;
             x = y;
-            let (y, s_next) = P::allpass(x, self.aps[1], 4422i32, 15775u32);
+            let (y, s_next) = P::allpass(x, self.aps[1], 4436i32, 15771u32);
             self.aps[1] = s_next;
             x = y;
             self.b[21] = x;
@@ -421,7 +421,7 @@ pub mod specialised {
             self.lx[37] = x;
             self.ly[37] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[38], self.ly[38], 16125u32, 15689i32, 15947u32);
+            let y = P::loss_section(x, self.lx[38], self.ly[38], 16089u32, 15653i32, 15947u32);
             self.lx[38] = x;
             self.ly[38] = y;
             x = y;
@@ -429,11 +429,11 @@ pub mod specialised {
             self.lx[39] = x;
             self.ly[39] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[40], self.ly[40], 15537u32, 9203i32, 10049u32);
+            let y = P::loss_section(x, self.lx[40], self.ly[40], 15535u32, 9200i32, 10048u32);
             self.lx[40] = x;
             self.ly[40] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[41], self.ly[41], 15513u32, -117i32, 753u32);
+            let y = P::loss_section(x, self.lx[41], self.ly[41], 15511u32, -119i32, 753u32);
             self.lx[41] = x;
             self.ly[41] = y;
             x = y;
@@ -447,7 +447,7 @@ pub mod specialised {
             self.lx[43] = x;
             self.ly[43] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[44], self.ly[44], 16125u32, 15689i32, 15947u32);
+            let y = P::loss_section(x, self.lx[44], self.ly[44], 16089u32, 15653i32, 15947u32);
             self.lx[44] = x;
             self.ly[44] = y;
             x = y;
@@ -455,11 +455,11 @@ pub mod specialised {
             self.lx[45] = x;
             self.ly[45] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[46], self.ly[46], 15537u32, 9203i32, 10049u32);
+            let y = P::loss_section(x, self.lx[46], self.ly[46], 15535u32, 9200i32, 10048u32);
             self.lx[46] = x;
             self.ly[46] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[47], self.ly[47], 15513u32, -117i32, 753u32);
+            let y = P::loss_section(x, self.lx[47], self.ly[47], 15511u32, -119i32, 753u32);
             self.lx[47] = x;
             self.ly[47] = y;
             x = y;
@@ -497,15 +497,15 @@ pub mod specialised {
             self.lx[50] = x;
             self.ly[50] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[51], self.ly[51], 16267u32, 14589i32, 14705u32);
+            let y = P::loss_section(x, self.lx[51], self.ly[51], 16267u32, 14590i32, 14706u32);
             self.lx[51] = x;
             self.ly[51] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[52], self.ly[52], 16178u32, 10117i32, 10322u32);
+            let y = P::loss_section(x, self.lx[52], self.ly[52], 16178u32, 10118i32, 10323u32);
             self.lx[52] = x;
             self.ly[52] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[53], self.ly[53], 16157u32, 527i32, 753u32);
+            let y = P::loss_section(x, self.lx[53], self.ly[53], 16159u32, 529i32, 753u32);
             self.lx[53] = x;
             self.ly[53] = y;
             x = y;
@@ -523,15 +523,15 @@ pub mod specialised {
             self.lx[56] = x;
             self.ly[56] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[57], self.ly[57], 16267u32, 14589i32, 14705u32);
+            let y = P::loss_section(x, self.lx[57], self.ly[57], 16267u32, 14590i32, 14706u32);
             self.lx[57] = x;
             self.ly[57] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[58], self.ly[58], 16178u32, 10117i32, 10322u32);
+            let y = P::loss_section(x, self.lx[58], self.ly[58], 16178u32, 10118i32, 10323u32);
             self.lx[58] = x;
             self.ly[58] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[59], self.ly[59], 16157u32, 527i32, 753u32);
+            let y = P::loss_section(x, self.lx[59], self.ly[59], 16159u32, 529i32, 753u32);
             self.lx[59] = x;
             self.ly[59] = y;
             x = y;
@@ -549,15 +549,15 @@ pub mod specialised {
             self.lx[62] = x;
             self.ly[62] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[63], self.ly[63], 16267u32, 14589i32, 14705u32);
+            let y = P::loss_section(x, self.lx[63], self.ly[63], 16267u32, 14590i32, 14706u32);
             self.lx[63] = x;
             self.ly[63] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[64], self.ly[64], 16178u32, 10117i32, 10322u32);
+            let y = P::loss_section(x, self.lx[64], self.ly[64], 16178u32, 10118i32, 10323u32);
             self.lx[64] = x;
             self.ly[64] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[65], self.ly[65], 16157u32, 527i32, 753u32);
+            let y = P::loss_section(x, self.lx[65], self.ly[65], 16159u32, 529i32, 753u32);
             self.lx[65] = x;
             self.ly[65] = y;
             x = y;
@@ -575,15 +575,15 @@ pub mod specialised {
             self.lx[68] = x;
             self.ly[68] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[69], self.ly[69], 16267u32, 14589i32, 14705u32);
+            let y = P::loss_section(x, self.lx[69], self.ly[69], 16267u32, 14590i32, 14706u32);
             self.lx[69] = x;
             self.ly[69] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[70], self.ly[70], 16178u32, 10117i32, 10322u32);
+            let y = P::loss_section(x, self.lx[70], self.ly[70], 16178u32, 10118i32, 10323u32);
             self.lx[70] = x;
             self.ly[70] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[71], self.ly[71], 16157u32, 527i32, 753u32);
+            let y = P::loss_section(x, self.lx[71], self.ly[71], 16159u32, 529i32, 753u32);
             self.lx[71] = x;
             self.ly[71] = y;
             x = y;
@@ -605,15 +605,15 @@ pub mod specialised {
             self.lx[75] = x;
             self.ly[75] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[76], self.ly[76], 16073u32, 9966i32, 10276u32);
+            let y = P::loss_section(x, self.lx[76], self.ly[76], 16073u32, 9967i32, 10277u32);
             self.lx[76] = x;
             self.ly[76] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[77], self.ly[77], 16047u32, 417i32, 753u32);
+            let y = P::loss_section(x, self.lx[77], self.ly[77], 16048u32, 418i32, 753u32);
             self.lx[77] = x;
             self.ly[77] = y;
             x = y;
-            let (y, s_next) = P::allpass(x, self.aps[6], -1427i32, 16321u32);
+            let (y, s_next) = P::allpass(x, self.aps[6], -1416i32, 16322u32);
             self.aps[6] = s_next;
             x = y;
             self.b[24] = x;
@@ -634,15 +634,15 @@ pub mod specialised {
             self.lx[81] = x;
             self.ly[81] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[82], self.ly[82], 16073u32, 9966i32, 10276u32);
+            let y = P::loss_section(x, self.lx[82], self.ly[82], 16073u32, 9967i32, 10277u32);
             self.lx[82] = x;
             self.ly[82] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[83], self.ly[83], 16047u32, 417i32, 753u32);
+            let y = P::loss_section(x, self.lx[83], self.ly[83], 16048u32, 418i32, 753u32);
             self.lx[83] = x;
             self.ly[83] = y;
             x = y;
-            let (y, s_next) = P::allpass(x, self.aps[7], -1427i32, 16321u32);
+            let (y, s_next) = P::allpass(x, self.aps[7], -1416i32, 16322u32);
             self.aps[7] = s_next;
             x = y;
             self.b[27] = x;
@@ -663,11 +663,11 @@ pub mod specialised {
             self.lx[87] = x;
             self.ly[87] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[88], self.ly[88], 16073u32, 9966i32, 10276u32);
+            let y = P::loss_section(x, self.lx[88], self.ly[88], 16073u32, 9967i32, 10277u32);
             self.lx[88] = x;
             self.ly[88] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[89], self.ly[89], 16047u32, 417i32, 753u32);
+            let y = P::loss_section(x, self.lx[89], self.ly[89], 16048u32, 418i32, 753u32);
             self.lx[89] = x;
             self.ly[89] = y;
             x = y;
@@ -689,11 +689,11 @@ pub mod specialised {
             self.lx[93] = x;
             self.ly[93] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[94], self.ly[94], 16073u32, 9966i32, 10276u32);
+            let y = P::loss_section(x, self.lx[94], self.ly[94], 16073u32, 9967i32, 10277u32);
             self.lx[94] = x;
             self.ly[94] = y;
             x = y;
-            let y = P::loss_section(x, self.lx[95], self.ly[95], 16047u32, 417i32, 753u32);
+            let y = P::loss_section(x, self.lx[95], self.ly[95], 16048u32, 418i32, 753u32);
             self.lx[95] = x;
             self.ly[95] = y;
             x = y;
