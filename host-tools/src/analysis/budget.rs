@@ -72,11 +72,15 @@ fn fit(part: &Part) -> Option<(f64, f64, String, usize)> {
     if rows.len() < 2 {
         return None;
     }
-    let n = rows.len() as f64;
-    let (sx, sy) = rows.iter().fold((0.0, 0.0), |(sx, sy), r| (sx + r.ports as f64, sy + r.instructions_per_sample));
-    let (mx, my) = (sx / n, sy / n);
-    let sxx: f64 = rows.iter().map(|r| (r.ports as f64 - mx).powi(2)).sum();
-    let sxy: f64 = rows.iter().map(|r| (r.ports as f64 - mx) * (r.instructions_per_sample - my)).sum();
+    // Least squares on the relative error (weights 1/y²): a budget off by 10 % matters as
+    // much for a 2-port plant as for an 85-port one, and the fixed cost per sample differs
+    // between the forms.
+    let w = |r: &Row| r.instructions_per_sample.powi(-2);
+    let sw: f64 = rows.iter().map(|r| w(r)).sum();
+    let mx = rows.iter().map(|r| w(r) * r.ports as f64).sum::<f64>() / sw;
+    let my = rows.iter().map(|r| w(r) * r.instructions_per_sample).sum::<f64>() / sw;
+    let sxx: f64 = rows.iter().map(|r| w(r) * (r.ports as f64 - mx).powi(2)).sum();
+    let sxy: f64 = rows.iter().map(|r| w(r) * (r.ports as f64 - mx) * (r.instructions_per_sample - my)).sum();
     if sxx == 0.0 {
         return None;
     }

@@ -448,6 +448,12 @@ pub(crate) fn lumped_resistance(ohm: f64, file: &str, span: Span, field: &str) -
     checked_milliohm(ohm, file, span, field)
 }
 
+/// Capacities a solver needs for `net`: (ports, junctions, delay storage).
+pub fn capacities(net: &Network<'_>) -> (usize, usize, usize) {
+    let mem = net.lines.iter().map(|l| 2 * l.delay as usize).sum::<usize>() + net.elements.len();
+    (2 * net.lines.len() + net.elements.len(), net.junctions.len(), mem)
+}
+
 pub(crate) fn checked_milliohm(ohm: f64, file: &str, span: Span, field: &str) -> Result<u32, PlantError> {
     let shown = crate::si::format(ohm, "ohm");
     if ohm.is_finite() && ohm < MIN_OHM * (1.0 - 1e-9) {

@@ -198,7 +198,7 @@ pub(super) fn fill(c: &mut Compiled, plant: &Plant, lump: &super::lumped::LumpPl
             r.reflections.push(Reflection { node: node.name.clone(), segment: plant.segments[s].name.clone(), gamma });
         }
     }
-    let (ports, juncs, mem) = crate::emit::capacities(&c.network());
+    let (ports, juncs, mem) = super::capacities(&c.network());
     let r = &mut c.report;
     r.ports = ports;
     r.junctions = juncs;
