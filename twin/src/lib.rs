@@ -51,12 +51,14 @@ struct Filter {
     sections: Vec<(f64, f64, f64)>,
     state: Vec<(f64, f64)>,
     allpass: Option<(f64, f64, f64)>,
+    /// The line's allpass as designed, to quantize it again at a profile's bits.
+    design: Option<tidewire_core::Allpass>,
 }
 
 /// The lattice coefficients (a, c) of a line's allpass truncated at `frac` bits, as the
 /// core quantizes them (`tidewire_core::quantize::allpass`), with its state at rest.
-fn allpass_at(l: &tidewire_core::LineLoss, frac: u32) -> Option<(f64, f64, f64)> {
-    let ap = l.allpass?;
+fn allpass_at(design: Option<tidewire_core::Allpass>, frac: u32) -> Option<(f64, f64, f64)> {
+    let ap = design?;
     let (a, c) = tidewire_core::quantize::allpass(ap.a, ap.c, frac)?;
     let one = (1u64 << frac) as f64;
     Some((a as f64 / one, c as f64 / one, 0.0))
@@ -133,8 +135,9 @@ impl Twin {
                 .collect();
             for side in 0..2 {
                 let state = vec![(0.0, 0.0); sections.len()];
-                let allpass = allpass_at(l, LOSS_FRAC);
-                filters.push(Filter { port: 2 * l.line as usize + side, sections: sections.clone(), state, allpass });
+                let (design, port) = (l.allpass, 2 * l.line as usize + side);
+                let allpass = allpass_at(design, LOSS_FRAC);
+                filters.push(Filter { port, sections: sections.clone(), state, allpass, design });
             }
         }
         let source = match net.drive {
@@ -178,9 +181,8 @@ impl Twin {
             t.source = Some((junction as usize, q.weight(milliohm)));
         }
         // The allpass with the profile's coefficient bits (the loss sections stay at Q30).
-        let ends = net.losses.iter().flat_map(|l| [l, l]);
-        for (f, l) in t.filters.iter_mut().zip(ends) {
-            f.allpass = allpass_at(l, q.allpass_frac);
+        for f in t.filters.iter_mut() {
+            f.allpass = allpass_at(f.design, q.allpass_frac);
         }
         t.coef = Some(q);
         t

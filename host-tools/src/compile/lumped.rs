@@ -23,7 +23,7 @@
 //! that needs a new core junction; joined pieces elsewhere neglect their inductance and say
 //! by how much.
 use super::loads::{realize, ElementSpec};
-use super::{checked_milliohm, err, lumped_resistance};
+use super::{checked_milliohm, err, MIN_OHM};
 use crate::plant::{Drive, EventAction, Load, Plant, PlantError, ProbeKind};
 use num_complex::Complex64;
 use tidewire_core::ElementKind;
@@ -247,13 +247,8 @@ pub(super) fn class_load(
         let shorted_stub = (0..plant.segments.len()).find(|&s| plan.lumped[s] == Some(LumpKind::Stub { leaf: n }));
         let load = match (load, shorted_stub) {
             (Load::Short, Some(si)) if replace.is_none() => {
-                let (seg, cable) = (&plant.segments[si], &plant.cables[plant.segments[si].cable]);
-                let field = format!("segment[{}].length", seg.name);
-                elements.push((
-                    ElementKind::Inductor,
-                    checked_milliohm(2.0 * cable.l_per_m() * seg.length / dt, file, seg.span, &field)?,
-                    lumped_resistance(cable.r_per_m * seg.length, file, seg.span, &field)?,
-                ));
+                let (port, series) = series_l(plant, si, dt, file)?;
+                elements.push((ElementKind::Inductor, port, series));
                 inductive.push(si);
                 Load::Open
             }
@@ -415,6 +410,21 @@ pub fn lump_error(plant: &Plant, si: usize, kind: LumpKind, rise: f64) -> f64 {
             shunt + series_err + (theta.cosh() - 1.0).norm()
         }
     }
+}
+
+/// Segment `si` lumped as its inductance with its conductor resistance in series (a shorted
+/// stub's inductor element, or a series-inductor junction between two line ends): the port
+/// resistance 2L'l/T (bilinear) and R'l, both in mΩ. R'l below the core's 1 mΩ is 0 (far
+/// below anything that shows); either value outside the core's range is a located error
+/// (never clamped).
+pub(super) fn series_l(plant: &Plant, si: usize, dt: f64, file: &str) -> Result<(u32, u32), PlantError> {
+    let seg = &plant.segments[si];
+    let cable = &plant.cables[seg.cable];
+    let field = format!("segment[{}].length", seg.name);
+    let port = checked_milliohm(2.0 * cable.l_per_m() * seg.length / dt, file, seg.span, &field)?;
+    let r = cable.r_per_m * seg.length;
+    let series = if r < MIN_OHM { 0 } else { checked_milliohm(r, file, seg.span, &field)? };
+    Ok((port, series))
 }
 
 #[cfg(test)]

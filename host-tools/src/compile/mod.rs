@@ -192,21 +192,8 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
     for k in 0..lump.classes {
         if let Some(si) = lumped::series_class(plant, &lump, k) {
             // L'·l and R'·l of the piece as a series-inductor junction (port 2L/T).
-            let (seg, cable) = (&plant.segments[si], &plant.cables[plant.segments[si].cable]);
-            b.junctions.push(Junction::SeriesInductor {
-                port_milliohm: checked_milliohm(
-                    2.0 * cable.l_per_m() * seg.length / dt,
-                    file,
-                    seg.span,
-                    &format!("segment[{}].length", seg.name),
-                )?,
-                milliohm: lumped_resistance(
-                    cable.r_per_m * seg.length,
-                    file,
-                    seg.span,
-                    &format!("segment[{}].length", seg.name),
-                )?,
-            });
+            let (port_milliohm, milliohm) = lumped::series_l(plant, si, dt, file)?;
+            b.junctions.push(Junction::SeriesInductor { port_milliohm, milliohm });
             continue;
         }
         let (shunt, els) = lumped::class_load(plant, &lump, k, dt, file, None)?;
@@ -435,25 +422,15 @@ pub const MAX_PLANT_SAMPLES: usize = 10_000_000;
 pub const MIN_OHM: f64 = 1e-3;
 pub const MAX_OHM: f64 = u32::MAX as f64 / 1000.0;
 
-/// A resistance from the plant file in the core's milliohms, or a located error when it
-/// is outside the range the core holds (never clamped silently: a clamped load makes the
-/// core disagree with the physics by the clamp).
-/// A lumped segment's conductor resistance in mΩ for a series-inductor junction or an
-/// inductor element: 0 (none) below the core's 1 mΩ, where it is far below anything that
-/// shows; a located error above its 4.29 MΩ (never clamped).
-pub(crate) fn lumped_resistance(ohm: f64, file: &str, span: Span, field: &str) -> Result<u32, PlantError> {
-    if ohm < MIN_OHM {
-        return Ok(0);
-    }
-    checked_milliohm(ohm, file, span, field)
-}
-
 /// Capacities a solver needs for `net`: (ports, junctions, delay storage).
 pub fn capacities(net: &Network<'_>) -> (usize, usize, usize) {
     let mem = net.lines.iter().map(|l| 2 * l.delay as usize).sum::<usize>() + net.elements.len();
     (2 * net.lines.len() + net.elements.len(), net.junctions.len(), mem)
 }
 
+/// A resistance from the plant file in the core's milliohms, or a located error when it
+/// is outside the range the core holds (never clamped silently: a clamped load makes the
+/// core disagree with the physics by the clamp).
 pub(crate) fn checked_milliohm(ohm: f64, file: &str, span: Span, field: &str) -> Result<u32, PlantError> {
     let shown = crate::si::format(ohm, "ohm");
     if ohm.is_finite() && ohm < MIN_OHM * (1.0 - 1e-9) {

@@ -152,7 +152,8 @@ impl Writer<'_> {
         let n_chokes = l.junctions.iter().filter(|j| matches!(j, JunctionPlan::SeriesInductor { .. })).count();
         let n_sections: usize = l.losses.iter().map(|x| x.sections as usize).sum();
         let n_allpass = l.losses.iter().filter(|x| x.allpass.is_some()).count();
-        let n_held = self.held_slots(&slots).iter().flatten().count();
+        let held = self.held_slots(&slots);
+        let n_held = held.iter().flatten().count();
         let rig = match l.drive {
             DrivePlan::Rig { port, latency } => Some((port, latency)),
             _ => None,
@@ -221,7 +222,7 @@ impl Writer<'_> {
         let _ = writeln!(s, "        }}\n    }}\n");
         let _ = writeln!(s, "    impl Default for Plant {{\n        fn default() -> Self {{\n            Self::new()\n        }}\n    }}\n");
         let _ = writeln!(s, "    impl PlantStep for Plant {{");
-        self.step(&mut s, &slots)?;
+        self.step(&mut s, &slots, &held)?;
         self.rest(&mut s, &slots, rig);
         let _ = writeln!(s, "    }}\n}}");
         Ok(s)
@@ -245,7 +246,7 @@ impl Writer<'_> {
     }
 
     /// `fn step`: per junction its arrivals, scatter and sends; read-out; loss filters.
-    fn step(&self, s: &mut String, slots: &[Option<usize>]) -> Result<(), EmitError> {
+    fn step(&self, s: &mut String, slots: &[Option<usize>], held: &[Option<usize>]) -> Result<(), EmitError> {
         let l = self.l;
         let _ = writeln!(s, "        #[inline]\n        fn step(&mut self, input: i16) -> i16 {{");
         let _ = writeln!(s, "            let n = self.n;\n            let e: W = P::from_code(input, IO_SHIFT);");
@@ -263,7 +264,6 @@ impl Writer<'_> {
                 writeln!(s, "            let rig_back = self.hist[(n.wrapping_sub({latency}) as usize) & (HIST - 1)];");
         }
         let weights: Vec<u32> = l.ports.iter().map(|p| p.weight).collect();
-        let held = self.held_slots(slots);
         let mut chokes = 0usize;
         let rig_port = match l.drive {
             DrivePlan::Rig { port, .. } => Some(port as usize),
@@ -281,7 +281,7 @@ impl Writer<'_> {
                 weights: &weights,
                 switch_slot: slots.get(j).copied().flatten(),
                 choke_slot: chokes,
-                held: &held,
+                held,
             };
             let mut body = String::new();
             junctions::emit(&mut body, j, jp, &cx)?;
