@@ -64,6 +64,54 @@ fn allpass_at(design: Option<tidewire_core::Allpass>, frac: u32) -> Option<(f64,
     Some((a as f64 / one, c as f64 / one, 0.0))
 }
 
+/// How a line end's characteristic-impedance network passes waves to its line
+/// (`docs/zc-model.md`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum ZcRealisation {
+    /// The node sees the end as the arriving wave's source 2·b behind Zc(s) = Z_inf + Σ
+    /// sections, and sends a = v − b into the line, v the node voltage (J. Marti's line
+    /// model in wave form: the forward quantity (v + Zc·i)/2 = v − b is what propagates).
+    NodeWave,
+    /// A lossless series adaptor between the node and the line (port Z_inf): the line gets
+    /// a = v_line − b with v_line = v − Σ v_sections. Passive, but it transmits
+    /// 2·Z_inf·i instead of 2·Zc·i: kept to show why it is not the model.
+    SeriesAdaptor,
+}
+
+/// A characteristic-impedance network at one line end: Z_inf in series with parallel RC
+/// sections, each a bilinear wave-digital one-port with port resistance r_i and emitted
+/// wave k_i·s_i (s_i its capacitor's state; the port is reflection-free).
+#[derive(Debug, Clone)]
+struct ZcEnd {
+    /// Z_inf + Σ r_i, ohms: the resistance the node sees.
+    port: f64,
+    /// (r_i, k_i) per section.
+    sections: Vec<(f64, f64)>,
+    state: Vec<f64>,
+    how: ZcRealisation,
+}
+
+impl ZcEnd {
+    /// The wave the end presents to the node: the arriving wave plus every section's.
+    fn incident(&self, b: f64) -> f64 {
+        b + self.sections.iter().zip(&self.state).map(|((_, k), s)| k * s).sum::<f64>()
+    }
+
+    /// After the node voltage v: the current i into the end, i = (v − 2·b_p)/port; each
+    /// section's voltage v_i = 2·k_i·s_i + r_i·i, its capacitor's next state v_i − s_i.
+    /// Returns (i, Σ v_i).
+    fn update(&mut self, v: f64, b: f64, open: bool) -> (f64, f64) {
+        let i = if open { 0.0 } else { (v - 2.0 * self.incident(b)) / self.port };
+        let mut drop = 0.0;
+        for ((r, k), s) in self.sections.iter().zip(self.state.iter_mut()) {
+            let vi = 2.0 * k * *s + r * i;
+            drop += vi;
+            *s = vi - *s;
+        }
+        (i, drop)
+    }
+}
+
 /// The network and its state.
 pub struct Twin {
     lines: Vec<tidewire_core::Line>,
@@ -93,6 +141,10 @@ pub struct Twin {
     out: Vec<f64>,
     /// Largest |wave| seen anywhere so far, in the units of the drive.
     pub peak_wave: f64,
+    /// Characteristic-impedance networks by port (only at nodes; see [`Twin::set_zc`]).
+    zc: Vec<Option<ZcEnd>>,
+    /// Per port with a Zc network: (current into the end, voltage across the sections).
+    zc_io: Vec<(f64, f64)>,
 }
 
 /// Fractional bits at which the twin runs loss sections: the core's quantization at its
@@ -170,6 +222,8 @@ impl Twin {
             source,
             out: vec![0.0; net.probes.len()],
             peak_wave: 0.0,
+            zc: vec![None; 2 * nl],
+            zc_io: vec![(0.0, 0.0); 2 * nl],
         }
     }
 
@@ -192,6 +246,29 @@ impl Twin {
     /// model: the device's EMF behind its resistance, with no latency).
     pub fn set_source(&mut self, junction: usize, conductance: f64) {
         self.source = Some((junction, conductance));
+    }
+
+    /// Give both ends of `line` that sit at a node a characteristic-impedance network:
+    /// `z_inf` ohms in series with wave-digital parallel RC sections (r_i ohms, k_i), as
+    /// `ZcFit::wave_sections` gives them. Ends at series junctions keep the line's own port:
+    /// a join of two pieces of one cable is transparent either way, and the lumped R_dc
+    /// there is small against Z0. The core does not run these networks yet.
+    pub fn set_zc(&mut self, line: usize, z_inf: f64, sections: &[(f64, f64)], how: ZcRealisation) {
+        let port = z_inf + sections.iter().map(|(r, _)| r).sum::<f64>();
+        for side in 0..2 {
+            let p = 2 * line + side;
+            let at_node = self
+                .lines
+                .get(line)
+                .map(|l| if side == 0 { l.a } else { l.b })
+                .and_then(|j| self.junctions.get(j as usize).map(|j| matches!(j, Junction::Node { .. })));
+            if at_node == Some(true) {
+                if let Some(slot) = self.zc.get_mut(p) {
+                    let state = vec![0.0; sections.len()];
+                    *slot = Some(ZcEnd { port, sections: sections.to_vec(), state, how });
+                }
+            }
+        }
     }
 
     /// A scheduled load change at a node.
@@ -289,7 +366,11 @@ impl Twin {
         let quantized = self.coef.is_some();
         for (k, pr) in self.probes.iter().enumerate() {
             let p = 2 * pr.line as usize + usize::from(pr.side == Side::B);
+            let zc = self.zc[p].as_ref().map(|e| e.how);
             self.out[k] = match (pr.kind, quantized) {
+                // A Zc end: the current through its network, the node's voltage.
+                (ProbeKind::Current, _) if zc.is_some() => self.zc_io[p].0,
+                _ if zc == Some(ZcRealisation::SeriesAdaptor) => self.a[p] + self.b[p] + self.zc_io[p].1,
                 (ProbeKind::Current, false) => (self.a[p] - self.b[p]) / self.z[p / 2],
                 (ProbeKind::Current, true) => self.a[p] - self.b[p],
                 _ => self.a[p] + self.b[p],
@@ -327,6 +408,10 @@ impl Twin {
         if self.broken[j] {
             for &p in &self.at[j] {
                 self.a[p] = self.b[p];
+                if let Some(end) = self.zc[p].as_mut() {
+                    // An open end: no current, the sections discharge into their resistors.
+                    self.zc_io[p] = end.update(0.0, self.b[p], true);
+                }
             }
             for &k in &self.els_at[j] {
                 self.el_a[k] = self.el_state[k];
@@ -335,8 +420,12 @@ impl Twin {
         }
         let (mut num, mut den) = (0.0, 0.0);
         for &p in &self.at[j] {
-            num += 2.0 * self.b[p] * self.g(p);
-            den += self.g(p);
+            let (b, g) = match &self.zc[p] {
+                Some(end) => (end.incident(self.b[p]), self.g_of_port(end.port)),
+                None => (self.b[p], self.g(p)),
+            };
+            num += 2.0 * b * g;
+            den += g;
         }
         for &k in &self.els_at[j] {
             let el = self.elements[k];
@@ -361,9 +450,24 @@ impl Twin {
         };
         for &p in &self.at[j] {
             self.a[p] = v - self.b[p];
+            if let Some(end) = self.zc[p].as_mut() {
+                let (i, drop) = end.update(v, self.b[p], false);
+                self.zc_io[p] = (i, drop);
+                if end.how == ZcRealisation::SeriesAdaptor {
+                    self.a[p] -= drop;
+                }
+            }
         }
         for &k in &self.els_at[j] {
             self.el_a[k] = v - self.el_state[k];
+        }
+    }
+
+    /// The node weight of a Zc end's port resistance (ohms): 1/R, or the core's weight.
+    fn g_of_port(&self, ohm: f64) -> f64 {
+        match &self.coef {
+            Some(q) => q.weight_u64((ohm * 1000.0).round().max(1.0) as u64),
+            None => 1.0 / ohm,
         }
     }
 

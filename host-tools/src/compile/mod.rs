@@ -26,6 +26,7 @@ pub mod lumped;
 pub mod model_error;
 mod report;
 mod segments;
+pub mod zc;
 
 pub use lumped::{LumpKind, LUMP_BELOW_SAMPLES};
 pub use report::{ReactiveError, Reflection, Report, SegmentModel, SegmentTiming};
@@ -409,9 +410,34 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
         probe_names,
         report: Report { segments: report_segments, ..Report::default() },
     };
+    fit_zc(&mut compiled, plant);
     core_check::check(&compiled, plant, file)?;
     report::fill(&mut compiled, plant, &lump);
     Ok(compiled)
+}
+
+/// Fit Zc(s) once per lossy cable type in use over the plant's band (`zc::band`) and list
+/// the lines each fit belongs to.
+fn fit_zc(c: &mut Compiled, plant: &Plant) {
+    let fs = 1.0 / c.dt;
+    let band = zc::band(fs, plant.duration);
+    let mut by_cable: Vec<(usize, Option<usize>)> = vec![];
+    for (seg, pieces) in plant.segments.iter().zip(&c.segment_pieces) {
+        let slot = match by_cable.iter().find(|(k, _)| *k == seg.cable) {
+            Some((_, slot)) => *slot,
+            None => {
+                let slot = plant.cables.get(seg.cable).and_then(|cable| zc::fit(cable, fs, band)).map(|f| {
+                    c.report.zc.push(f);
+                    c.report.zc.len() - 1
+                });
+                by_cable.push((seg.cable, slot));
+                slot
+            }
+        };
+        if let Some(k) = slot {
+            c.report.zc_lines.extend(pieces.iter().map(|p| (p.line, k)));
+        }
+    }
 }
 
 /// Most samples of a plant's own run (its duration): `verify`, the fixed-point scale and

@@ -146,6 +146,11 @@ pub struct Report {
     /// The shortest drive edge at which every model error is within max_error (None: none
     /// up to 10^7 samples).
     pub shortest_edge: Option<f64>,
+    /// Fitted characteristic impedances Zc(s), one per lossy cable type in use (`zc.rs`).
+    /// Not yet run by the core: the f64 twin runs them on request (`twin::run_with_zc`).
+    pub zc: Vec<super::zc::ZcFit>,
+    /// (core line, index into `zc`) for every line of a lossy cable.
+    pub zc_lines: Vec<(u16, usize)>,
 }
 
 impl Report {
