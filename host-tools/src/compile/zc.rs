@@ -162,7 +162,12 @@ mod tests {
         let c = crate::plant::presets::find("cat5e").unwrap();
         let fs = 100e6;
         let f = fit(&c, fs, band(fs, 4e-6)).unwrap();
-        assert!(f.zc_edges.0 > 115.0 && f.zc_edges.1 < 106.0, "{:?}", f.zc_edges);
+        let k_c = c.loss.unwrap().k_c;
+        let s = Complex64::new(0.0, 2.0 * PI * f.band.0);
+        let closed = (c.z0 * (1.0 + 2.0 * k_c * c.velocity / (PI * s).sqrt()).sqrt()).norm();
+        // The dielectric term (capacitance up by about 1 % at 250 kHz) takes a little off.
+        assert!((f.zc_edges.0 / closed - 1.0).abs() < 0.015, "{:?} vs {closed}", f.zc_edges);
+        assert!(f.zc_edges.0 > 110.0 && f.zc_edges.1 < 102.0, "{:?}", f.zc_edges);
         assert!(f.max_rel_error < 0.01, "fit error {}", f.max_rel_error);
         assert!(f.sections.iter().all(|(r, t)| *r > 0.0 && *t > 0.0));
         // Positive real at every frequency up to Nyquist (each section's real part is > 0).
