@@ -141,7 +141,7 @@ pub struct Twin {
     out: Vec<f64>,
     /// Largest |wave| seen anywhere so far, in the units of the drive.
     pub peak_wave: f64,
-    /// Characteristic-impedance networks by port (only at nodes; see [`Twin::set_zc`]).
+    /// Characteristic-impedance networks by port (see [`Twin::set_zc`]).
     zc: Vec<Option<ZcEnd>>,
     /// Per port with a Zc network: (current into the end, voltage across the sections).
     zc_io: Vec<(f64, f64)>,
@@ -248,25 +248,18 @@ impl Twin {
         self.source = Some((junction, conductance));
     }
 
-    /// Give both ends of `line` that sit at a node a characteristic-impedance network:
-    /// `z_inf` ohms in series with wave-digital parallel RC sections (r_i ohms, k_i), as
-    /// `ZcFit::wave_sections` gives them. Ends at series junctions keep the line's own port:
-    /// a join of two pieces of one cable is transparent either way, and the lumped R_dc
-    /// there is small against Z0. The core does not run these networks yet.
+    /// Give both ends of `line` a characteristic-impedance network: `z_inf` ohms in series
+    /// with wave-digital parallel RC sections (r_i ohms, k_i), as `ZcFit::wave_sections`
+    /// gives them. Both ends, also at series junctions: the node-wave form keeps current
+    /// continuity through a line at DC only when both its ends have the same network
+    /// (`docs/zc-model.md`). Nominal coefficients at series junctions (the quantized twin's
+    /// series coefficient does not apply to a Zc port). The core does not run these yet.
     pub fn set_zc(&mut self, line: usize, z_inf: f64, sections: &[(f64, f64)], how: ZcRealisation) {
         let port = z_inf + sections.iter().map(|(r, _)| r).sum::<f64>();
         for side in 0..2 {
-            let p = 2 * line + side;
-            let at_node = self
-                .lines
-                .get(line)
-                .map(|l| if side == 0 { l.a } else { l.b })
-                .and_then(|j| self.junctions.get(j as usize).map(|j| matches!(j, Junction::Node { .. })));
-            if at_node == Some(true) {
-                if let Some(slot) = self.zc.get_mut(p) {
-                    let state = vec![0.0; sections.len()];
-                    *slot = Some(ZcEnd { port, sections: sections.to_vec(), state, how });
-                }
+            if let Some(slot) = self.zc.get_mut(2 * line + side) {
+                let state = vec![0.0; sections.len()];
+                *slot = Some(ZcEnd { port, sections: sections.to_vec(), state, how });
             }
         }
     }
@@ -331,14 +324,25 @@ impl Twin {
             match self.junctions[j] {
                 Junction::SeriesInductor { port_milliohm, milliohm } => {
                     let (p, q) = (self.at[j][0], self.at[j][1]);
-                    let (z1, z2) = (self.z[p / 2], self.z[q / 2]);
                     let (rl, r) = (f64::from(port_milliohm) / 1000.0, f64::from(milliohm) / 1000.0);
+                    let ((b1, z1), (b2, z2)) = (self.port_source(p), self.port_source(q));
                     // x = b1 − b2 − b_L, I = 2x/(Z1 + Z2 + R_L + R); a1 = b1 − Z1·I,
                     // a2 = b2 + Z2·I, a_L = b_L + R_L·I; bilinear inductor: next b_L = −a_L.
-                    let i = 2.0 * (self.b[p] - self.b[q] - self.choke[j]) / (z1 + z2 + rl + r);
-                    self.a[p] = self.b[p] - z1 * i;
-                    self.a[q] = self.b[q] + z2 * i;
+                    let i = 2.0 * (b1 - b2 - self.choke[j]) / (z1 + z2 + rl + r);
+                    self.leave(p, 2.0 * b1 - z1 * i);
+                    self.leave(q, 2.0 * b2 + z2 * i);
                     self.choke[j] = -(self.choke[j] + rl * i);
+                }
+                Junction::Series { milliohm }
+                    if self.zc[self.at[j][0]].is_some() || self.zc[self.at[j][1]].is_some() =>
+                {
+                    // Lines with Zc ends (nominal only): each end a source 2·b_p behind its
+                    // port resistance, I = 2(b1 − b2)/(Z1 + Z2 + R) from end 1 to end 2.
+                    let (p, q) = (self.at[j][0], self.at[j][1]);
+                    let ((b1, z1), (b2, z2)) = (self.port_source(p), self.port_source(q));
+                    let i = 2.0 * (b1 - b2) / (z1 + z2 + f64::from(milliohm) / 1000.0);
+                    self.leave(p, 2.0 * b1 - z1 * i);
+                    self.leave(q, 2.0 * b2 + z2 * i);
                 }
                 Junction::Series { milliohm } => {
                     let (p, q) = (self.at[j][0], self.at[j][1]);
@@ -460,6 +464,28 @@ impl Twin {
         }
         for &k in &self.els_at[j] {
             self.el_a[k] = v - self.el_state[k];
+        }
+    }
+
+    /// What port `p` presents to a series junction: its incident wave and its resistance
+    /// (a Zc end's, or the line's own).
+    fn port_source(&self, p: usize) -> (f64, f64) {
+        match &self.zc[p] {
+            Some(end) => (end.incident(self.b[p]), end.port),
+            None => (self.b[p], self.z[p / 2]),
+        }
+    }
+
+    /// Port `p` at voltage `v` (a series junction's side): the wave into its line, a = v − b
+    /// (less the sections' voltage for the series adaptor), and its Zc sections' update.
+    fn leave(&mut self, p: usize, v: f64) {
+        self.a[p] = v - self.b[p];
+        if let Some(end) = self.zc[p].as_mut() {
+            let (i, drop) = end.update(v, self.b[p], false);
+            self.zc_io[p] = (i, drop);
+            if end.how == ZcRealisation::SeriesAdaptor {
+                self.a[p] -= drop;
+            }
         }
     }
 

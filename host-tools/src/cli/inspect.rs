@@ -156,6 +156,30 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
             );
         }
     }
+    if !r.zc.is_empty() {
+        let _ = writeln!(
+            s,
+            "\n-- characteristic impedance Zc(s) of lossy cables (without R_dc), fitted as Z_inf + parallel RC sections"
+        );
+        for z in &r.zc {
+            let _ = writeln!(
+                s,
+                "   {:<18} |Zc| {:.1} ohm at {} .. {:.1} ohm at {}   Z_inf {:.2} ohm + {} sections   largest fit error {:.3} %",
+                z.cable,
+                z.zc_edges.0,
+                eng(z.band.0, "Hz"),
+                z.zc_edges.1,
+                eng(z.band.1, "Hz"),
+                z.z_inf,
+                z.sections.len(),
+                100.0 * z.max_rel_error
+            );
+        }
+        let _ = writeln!(
+            s,
+            "   (the core runs each line with its constant Z0; the f64 twin can run these networks: docs/zc-model.md)"
+        );
+    }
     let _ = writeln!(s, "\n-- reflection coefficient for a wave arriving at a node on a segment (resistive parts)");
     for g in &r.reflections {
         let _ = writeln!(s, "   {:<14} <- {:<18} Γ = {:+.4}", g.node, g.segment, g.gamma);

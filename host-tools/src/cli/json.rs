@@ -188,6 +188,21 @@ pub fn inspect_json(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Va
         })
         .collect();
     let dc: Vec<Value> = a.dc.iter().map(|(n, v)| json!({ "node": n, "volts": num(*v) })).collect();
+    let zc: Vec<Value> = r
+        .zc
+        .iter()
+        .map(|z| {
+            json!({
+                "cable": z.cable,
+                "z_inf_ohm": num(z.z_inf),
+                "sections": z.sections.iter().map(|(r, tau)| json!({ "ohm": num(*r), "tau_s": num(*tau) })).collect::<Vec<_>>(),
+                "band_hz": [num(z.band.0), num(z.band.1)],
+                "zc_at_band_edges_ohm": [num(z.zc_edges.0), num(z.zc_edges.1)],
+                "fit_error_fraction": num(z.max_rel_error),
+                "run_by_core": false,
+            })
+        })
+        .collect();
     json!({
         "schema": INSPECT_SCHEMA,
         "plant": plant.name,
@@ -198,6 +213,7 @@ pub fn inspect_json(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Va
         "segments": segments,
         "reflections": reflections,
         "reactive": reactive,
+        "zc_fits": zc,
         "judged_rise_s": num(r.judged_rise),
         "shortest_edge_s": opt(r.shortest_edge),
         "dc_point": dc,
