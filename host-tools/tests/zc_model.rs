@@ -166,3 +166,87 @@ fn zc_networks_keep_the_dc_point_and_decay() {
     eprintln!("decay: largest |v| over 40-50 us {middle:.3e} V, over 90-100 us {tail:.3e} V");
     assert!(tail < 1e-5 && tail < 0.5 * middle, "{middle} {tail}");
 }
+
+/// A random plant of lossy cables: a tree over 2–5 nodes and up to one extra segment that
+/// closes a loop, lengths 5–150 m, resistive or parallel RC loads at every node but the
+/// driven one (whose source resistance is its load), a 1 V, 50 ns pulse at 100 MS/s.
+fn random_plant() -> impl proptest::strategy::Strategy<Value = String> {
+    use proptest::prelude::*;
+    const CABLES: [&str; 4] = ["cat5e", "cat6", "coax-50-rg58", "coax-50-rg213"];
+    (2usize..=5, any::<bool>()).prop_flat_map(|(nodes, loop_)| {
+        let edges = nodes - 1 + usize::from(loop_ && nodes >= 3);
+        (
+            Just(nodes),
+            proptest::collection::vec((any::<prop::sample::Index>(), 0usize..4, 5.0f64..150.0), edges),
+            proptest::collection::vec((20.0f64..2000.0, prop::option::of(10.0f64..500.0)), nodes),
+            20.0f64..500.0,
+            any::<(prop::sample::Index, prop::sample::Index)>(),
+        )
+            .prop_map(|(nodes, edges, loads, r_src, (la, lb))| {
+                let mut t = String::from(
+                    "[plant]\nname = \"random\"\nsample_rate = \"100 MHz\"\nduration = \"40 us\"\n",
+                );
+                for c in CABLES {
+                    t += &format!("[cable.{c}]\npreset = \"{c}\"\n");
+                }
+                for (k, (r, c)) in loads.iter().enumerate() {
+                    t += &format!("[node.n{k}]\n");
+                    if k > 0 {
+                        t += &match c {
+                            Some(pf) => format!(
+                                "load = {{ resistor = \"{r:.1} ohm\", capacitor = \"{pf:.1} pF\", wiring = \"parallel\" }}\n"
+                            ),
+                            None => format!("load = \"{r:.1} ohm\"\n"),
+                        };
+                    }
+                }
+                for (k, (parent, cable, len)) in edges.iter().enumerate() {
+                    // Tree edges join node k+1 to an earlier node; the last edge of a plant
+                    // with a loop joins two random nodes.
+                    let (from, to) = if k + 1 < nodes {
+                        (parent.index(k + 1), k + 1)
+                    } else {
+                        let a = la.index(nodes);
+                        let b = (a + 1 + lb.index(nodes - 1)) % nodes;
+                        (a, b)
+                    };
+                    t += &format!(
+                        "[[segment]]\nname = \"s{k}\"\nfrom = \"n{from}\"\nto = \"n{to}\"\ncable = \"{}\"\nlength = \"{len:.2} m\"\n",
+                        CABLES[*cable]
+                    );
+                }
+                t += &format!(
+                    "[drive]\nkind = \"source\"\nnode = \"n0\"\nresistance = \"{r_src:.1} ohm\"\nwaveform = {{ pulse = \"1 V\", width = \"50 ns\", rise = \"0 s\", delay = \"0 s\" }}\n"
+                );
+                for k in 0..nodes {
+                    t += &format!("[[probe]]\nname = \"p{k}\"\nnode = \"n{k}\"\n");
+                }
+                t
+            })
+    })
+}
+
+proptest::proptest! {
+    #![proptest_config(proptest::prelude::ProptestConfig {
+        cases: std::env::var("PROPTEST_CASES").ok().and_then(|c| c.parse().ok()).unwrap_or(256),
+        ..proptest::prelude::ProptestConfig::default()
+    })]
+
+    /// Trees and loops of lossy cables with Zc networks at every line end (node-wave form,
+    /// f64 twin): after a pulse every node voltage stays within 2 V of the 1 V pulse and
+    /// decays (the last 4 us hold less than 1 % of the run's peak). Marti's form is not a
+    /// lossless adaptor (docs/zc-model.md), so this is measured, not argued.
+    #[test]
+    fn zc_networks_stay_bounded_and_decay_in_random_plants(text in random_plant()) {
+        let p = parse_plant(&text, "random.toml", Path::new(".")).unwrap();
+        let c = compile(&p, "random.toml", ProfileKind::Wide).unwrap();
+        // Every line is of a lossy cable, so every line end has a network.
+        proptest::prop_assert!(c.report.zc_lines.len() == c.net.lines.len() && !c.report.zc.is_empty());
+        let rec = run_with_zc(&c, c.samples, ZcRealisation::NodeWave);
+        let n = c.samples;
+        let peak = |from: usize| rec.probes.iter().map(|t| t[from..].iter().fold(0.0f64, |m, v| m.max(v.abs()))).fold(0.0, f64::max);
+        let (all, tail) = (peak(0), peak(n - n / 10));
+        proptest::prop_assert!(all.is_finite() && all <= 2.0, "peak {all}\n{text}");
+        proptest::prop_assert!(tail <= 0.01 * all, "tail {tail} of peak {all}\n{text}");
+    }
+}
