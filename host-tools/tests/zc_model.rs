@@ -68,11 +68,24 @@ fn setup(text: &str) -> (Plant, Compiled, Vec<Vec<f64>>) {
     (p, c, exact)
 }
 
-fn report(name: &str, c: &Compiled, exact: &[Vec<f64>]) -> (Vec<f64>, Vec<f64>, Vec<f64>) {
+/// Figures of one case: largest error vs exact per probe with a constant Z0, with Zc in
+/// node-wave form and with Zc behind a series adaptor, and the least passivity margin of
+/// its lines (`zc::passivity_margin`).
+type Figures = (Vec<f64>, Vec<f64>, Vec<f64>, f64);
+
+fn report(name: &str, c: &Compiled, exact: &[Vec<f64>]) -> Figures {
     let n = c.samples;
+    let mut least = f64::INFINITY;
     let plain = worst(&run(c, n, &[]), exact);
     let node = worst(&run_with_zc(c, n, ZcRealisation::NodeWave), exact);
     let series = worst(&run_with_zc(c, n, ZcRealisation::SeriesAdaptor), exact);
+    for &(line, k) in &c.report.zc_lines {
+        let loss = c.net.losses.iter().find(|l| l.line == line);
+        let delay = c.net.lines[line as usize].delay;
+        let (m, f) = tidewire_host::compile::zc::passivity_margin(&c.report.zc[k], loss, delay, 1.0 / c.dt, 30);
+        eprintln!("{name}: line {line} ({delay} samples): passivity margin {m:.3e} at {f:.4e} Hz");
+        least = least.min(m);
+    }
     let fit = &c.report.zc[0];
     eprintln!(
         "{name}: Zc fit Z_inf {:.2} ohm + {} RC sections, |Zc| {:.1} .. {:.1} ohm over {:.3e} .. {:.3e} Hz, fit error {:.3} %",
@@ -92,7 +105,7 @@ fn report(name: &str, c: &Compiled, exact: &[Vec<f64>]) -> (Vec<f64>, Vec<f64>, 
             100.0 * series[k]
         );
     }
-    (plain, node, series)
+    (plain, node, series, least)
 }
 
 #[test]
@@ -101,12 +114,19 @@ fn cat5e_100m_with_zc_is_within_two_percent_at_both_ends() {
     // loss, 100 ohm source and load, 100 MS/s, a 40 ns edge, 4 us (four round trips).
     let text = plant("cat5e", "100 m", "100 ohm", "100 MHz", "40 ns", "4 us");
     let (_, c, exact) = setup(&text);
-    let (plain, node, series) = report("cat5e 100 m", &c, &exact);
+    let (plain, node, series, margin) = report("cat5e 100 m", &c, &exact);
     // Without Zc the drive end misses by more than 5 % (the 5.26 %, `tidewire verify`).
     assert!(plain[0] > 0.05, "constant Z0 at the drive end: {}", plain[0]);
     for (k, e) in node.iter().enumerate() {
         assert!(*e < 0.02, "probe {k}: {e:.4} of the step");
     }
+    // Not passive everywhere: the lumped-resistance ladder's pieces (6-13 samples) are
+    // active by a little just below the fit band (measured: least margin -3.3e-3 at
+    // 195 kHz). A short piece's even mode is as lossy as its shunt conductance, which
+    // the skin-only line barely has, so Zc's fitted phase and the loss filter must agree
+    // closely there (docs/zc-model.md, what the core still needs). Held here so that a
+    // change that moves it is seen.
+    assert!(margin < 0.0 && margin > -0.005, "{margin}");
     // The series adaptor gets the drive end right but sends 2·Z_inf·i into the line: the
     // far end misses.
     assert!(series[1] > node[1], "series {} node {}", series[1], node[1]);
@@ -118,7 +138,9 @@ fn rg58_30m_at_5ghz_with_zc() {
     // 5 GS/s, 50 ohm source and load, a 1 ns edge, 400 ns (two round trips and more).
     let text = plant("coax-50-rg58", "30 m", "50 ohm", "5 GHz", "1 ns", "400 ns");
     let (_, c, exact) = setup(&text);
-    let (_plain, node, _series) = report("rg58 30 m", &c, &exact);
+    let (_plain, node, _series, margin) = report("rg58 30 m", &c, &exact);
+    // The one line (757 samples) is passive on the grid (measured margin 8.3e-3).
+    assert!(margin > 0.0, "{margin}");
     for (k, e) in node.iter().enumerate() {
         assert!(*e < 0.02, "probe {k}: {e:.4} of the step");
     }

@@ -164,7 +164,7 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
         for z in &r.zc {
             let _ = writeln!(
                 s,
-                "   {:<18} |Zc| {:.1} ohm at {} .. {:.1} ohm at {}   Z_inf {:.2} ohm + {} sections   largest fit error {:.3} %",
+                "   {:<18} |Zc| {:.1} Ω at {} .. {:.1} Ω at {}   Z_inf {:.2} Ω + {} sections   largest fit error {:.3} %",
                 z.cable,
                 z.zc_edges.0,
                 eng(z.band.0, "Hz"),

@@ -92,6 +92,7 @@ pub fn verify_json(plant: &Plant, c: &Compiled, v: &Verification, file: &str, pa
                 "rms_error_fraction": num(p.rms_error / p.norm),
                 "arithmetic_error": num(p.arithmetic_error),
                 "model_error": num(p.model_error),
+                "zc_model_error": opt(p.zc_model_error),
                 "arrival": {
                     "core_samples": opt(p.arrival_core),
                     "exact_samples": opt(p.arrival_exact),

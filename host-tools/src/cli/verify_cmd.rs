@@ -84,6 +84,14 @@ pub fn verdict_text(plant: &Plant, c: &Compiled, v: &Verification) -> String {
             si(p.arithmetic_error, u),
             si(p.model_error, u)
         );
+        if let Some(z) = p.zc_model_error {
+            let _ = writeln!(
+                s,
+                "   with Zc(s)       model with the lossy lines' Zc networks (twin - exact) {} ({:.3} %): not yet run by the core (docs/zc-model.md)",
+                si(z, u),
+                pct(z)
+            );
+        }
         let f = |x: Option<f64>| x.map_or("none".to_string(), |v| format!("{v:.2}"));
         let _ = writeln!(
             s,

@@ -97,6 +97,10 @@ pub struct ProbeFigures {
     pub arithmetic_error: f64,
     /// twin − exact, largest (model error).
     pub model_error: f64,
+    /// The twin with the fitted Zc(s) networks at every lossy line end − exact, largest:
+    /// what the model of `docs/zc-model.md` gives (the core does not run it yet). `None`
+    /// for a plant without a lossy cable.
+    pub zc_model_error: Option<f64>,
     /// First-edge arrival (samples) of the core and of the exact reference.
     pub arrival_core: Option<f64>,
     pub arrival_exact: Option<f64>,
@@ -179,6 +183,7 @@ pub fn verify(
     let n = c.samples;
     let core = run_core(c, n, record, progress).map_err(|e| located(file, e))?;
     let tw = twin::run(c, n, record);
+    let tw_zc = (!c.report.zc_lines.is_empty()).then(|| twin::run_with_zc(c, n, twin::ZcRealisation::NodeWave));
     let opts = ExactOptions { samples: n.max(1), ..ExactOptions::for_plant(plant) };
     // An event the exact reference cannot follow (two breaks of one segment): compare with
     // the physics up to the first event only, and say so in the verdict (exact_samples).
@@ -208,6 +213,8 @@ pub fn verify(
         let (max_error, rms_error) = metrics::errors(&cr[..exact_len.min(cr.len())], xr);
         let (arithmetic_error, _) = metrics::errors(cr, tr);
         let (model_error, _) = metrics::errors(&tr[..exact_len.min(tr.len())], xr);
+        let zc_model_error =
+            tw_zc.as_ref().map(|z| metrics::errors(&z.probes[k][..exact_len.min(z.probes[k].len())], xr).0);
         let level = 0.05 * xr.iter().fold(0.0f64, |m, v| m.max(v.abs()));
         let arrival_exact = metrics::arrival(xr, level);
         let arrival_core = metrics::arrival(&cr[..exact_len.min(cr.len())], level);
@@ -237,6 +244,7 @@ pub fn verify(
             rms_error,
             arithmetic_error,
             model_error,
+            zc_model_error,
             arrival_core,
             arrival_exact,
             final_core,
