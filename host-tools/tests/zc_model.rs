@@ -127,6 +127,8 @@ fn cat5e_100m_with_zc_is_within_two_percent_at_both_ends() {
     // closely there (docs/zc-model.md, what the core still needs). Held here so that a
     // change that moves it is seen.
     assert!(margin < 0.0 && margin > -0.005, "{margin}");
+    // inspect reports the same least margin (compile report, wide profile's Q30 sections).
+    assert_eq!(c.report.zc_margin.map(|m| m.0), Some(margin));
     // The series adaptor gets the drive end right but sends 2·Z_inf·i into the line: the
     // far end misses.
     assert!(series[1] > node[1], "series {} node {}", series[1], node[1]);

@@ -175,6 +175,15 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
                 100.0 * z.max_rel_error
             );
         }
+        if let Some((m, f, line)) = r.zc_margin {
+            let verdict =
+                if m >= 0.0 { "passive on the grid" } else { "ACTIVE there: not fit for the fixed-point core" };
+            let _ = writeln!(
+                s,
+                "   line two-ports with these networks: least passivity margin {m:+.2e} at {} (core line {line}): {verdict}",
+                eng(f, "Hz")
+            );
+        }
         let _ = writeln!(
             s,
             "   (the core runs each line with its constant Z0; the f64 twin can run these networks: docs/zc-model.md)"

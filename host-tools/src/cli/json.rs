@@ -215,6 +215,7 @@ pub fn inspect_json(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Va
         "reflections": reflections,
         "reactive": reactive,
         "zc_fits": zc,
+        "zc_passivity_margin": r.zc_margin.map(|(m, f, line)| json!({ "margin": num(m), "frequency_hz": num(f), "line": line })),
         "judged_rise_s": num(r.judged_rise),
         "shortest_edge_s": opt(r.shortest_edge),
         "dc_point": dc,

@@ -438,6 +438,18 @@ fn fit_zc(c: &mut Compiled, plant: &Plant) {
             c.report.zc_lines.extend(pieces.iter().map(|p| (p.line, k)));
         }
     }
+    let frac = match c.profile {
+        ProfileKind::Wide => <tidewire_core::Wide as tidewire_core::Profile>::LOSS_FRAC,
+        ProfileKind::Narrow => <tidewire_core::Narrow as tidewire_core::Profile>::LOSS_FRAC,
+    };
+    for &(line, k) in &c.report.zc_lines {
+        let (Some(fit), Some(l)) = (c.report.zc.get(k), c.net.lines.get(line as usize)) else { continue };
+        let loss = c.net.losses.iter().find(|x| x.line == line);
+        let (m, f) = zc::passivity_margin(fit, loss, l.delay, fs, frac);
+        if c.report.zc_margin.is_none_or(|(least, _, _)| m < least) {
+            c.report.zc_margin = Some((m, f, line));
+        }
+    }
 }
 
 /// Most samples of a plant's own run (its duration): `verify`, the fixed-point scale and

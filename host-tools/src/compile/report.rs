@@ -151,6 +151,9 @@ pub struct Report {
     pub zc: Vec<super::zc::ZcFit>,
     /// (core line, index into `zc`) for every line of a lossy cable.
     pub zc_lines: Vec<(u16, usize)>,
+    /// The least passivity margin over those lines with their networks in node-wave form
+    /// (`zc::passivity_margin`): (margin, frequency Hz, core line); < 0 is active there.
+    pub zc_margin: Option<(f64, f64, u16)>,
 }
 
 impl Report {
