@@ -100,28 +100,31 @@ fn far_end_response<P: Profile>(shunt: Shunt, io_shift: u8) -> (Vec<i32>, Vec<i3
 
 #[test]
 fn open_end_doubles_short_cancels_matched_reflects_nothing() {
-    // [closed form] Gamma = +1 at an open end, -1 at a short, 0 into Z0.
+    // [closed form] Gamma = +1 at an open end, -1 at a short, 0 into Z0, with the node
+    // rule's rounding stated: every node uses a voltage v' strictly between 0 and the exact v
+    // (`Profile::node_scatter`), so where the exact wave is an integer a node sends it one
+    // LSB toward zero. The source node launches E/2 − 1 LSB; the open end reflects b − 1.
     let e = 10_000i32 << 12;
     let (far, near) = far_end_response::<Wide>(Shunt::Open, 12);
     assert_eq!(far[6], 0, "nothing arrives before the delay");
-    assert_eq!(far[7], e, "open end: incident E/2 doubles to E");
-    assert_eq!(near[13], e / 2, "before the reflection returns");
-    assert_eq!(near[14], e, "matched source absorbs the reflection: settles at E");
-    assert_eq!(near[59], e);
+    assert_eq!(far[7], e - 3, "open end: incident E/2 − 1 doubles to E − 2, less 1 LSB");
+    assert_eq!(near[13], e / 2 - 1, "before the reflection returns");
+    assert_eq!(near[14], e - 3, "matched source absorbs the reflection: settles at E (− 3 LSB)");
+    assert_eq!(near[59], e - 3);
 
     let (far, near) = far_end_response::<Wide>(Shunt::Short, 12);
     assert!(far.iter().all(|v| *v == 0), "short: far-end voltage stays exactly 0");
     assert_eq!(near[14], 0, "reflection -E/2 cancels the source end");
 
     let (far, near) = far_end_response::<Wide>(Shunt::Resistor { milliohm: 100 * OHM }, 12);
-    assert_eq!(far[7], e / 2);
-    assert!(near[1..].iter().all(|v| *v == e / 2), "matched load: reflection exactly zero");
+    assert_eq!(far[7], e / 2 - 1);
+    assert!(near[1..].iter().all(|v| *v == e / 2 - 1), "matched load: reflection exactly zero");
 
     let (far, near) = far_end_response::<Narrow>(Shunt::Resistor { milliohm: 100 * OHM }, 0);
-    assert_eq!(far[7], 5000);
-    assert!(near[1..].iter().all(|v| *v == 5000), "narrow: matched load reflection exactly zero");
+    assert_eq!(far[7], 4999);
+    assert!(near[1..].iter().all(|v| *v == 4999), "narrow: matched load reflection exactly zero");
     let (far, _) = far_end_response::<Narrow>(Shunt::Open, 0);
-    assert_eq!(far[7], 10_000);
+    assert_eq!(far[7], 9997);
 }
 
 #[test]
@@ -245,7 +248,9 @@ fn rig_port_open_line_echoes_after_the_round_trip() {
         let out: Vec<i16> = (0..40).map(|n| s.step(if n == 0 { 1000 } else { 0 })).collect();
         let first = out.iter().position(|x| *x != 0).unwrap();
         assert_eq!(first as u32 + latency as u32, 2 * d, "latency {latency}");
-        assert_eq!(out[first], 2000, "DAC drive 2·b with b = a = 1000");
+        // The open far end reflects b − 1 (its node voltage lies just below the exact 2·b,
+        // `Profile::node_scatter`): 2·999.
+        assert_eq!(out[first], 1998, "DAC drive 2·b with b = a − 1 = 999");
     }
 }
 

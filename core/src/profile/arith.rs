@@ -24,9 +24,11 @@ pub(crate) trait Acc: Sized {
     fn mul_diff(c: u32, x: Self::W, y: Self::W) -> Self;
     /// A threshold in wave LSB, saturated to the accumulator's range.
     fn from_u32(x: u32) -> Self;
-    /// floor(|acc| / total) and (remainder != 0) as 0/1, from the node's reciprocal (see
-    /// [`super::reciprocal`]) and two exact correction steps.
-    fn floor_div_abs(acc: Self, recip: u32, shift: u32, total: u64) -> (Self, Self);
+    /// The node quotient of the cheap rule (see `Profile::node_scatter`):
+    /// q = floor(|acc|·recip / 2^(RECIP_BITS+shift)) (< |acc|/total for acc != 0, by the
+    /// reciprocal's rounding) and nz = (acc != 0) as 0/1: the node voltage v' = sign·(q + ε)
+    /// always has a fraction when acc != 0.
+    fn quotient_abs(acc: Self, recip: u32, shift: u32) -> (Self, Self);
 }
 
 impl Acc for i64 {
@@ -47,10 +49,10 @@ impl Acc for i64 {
         i64::from(x)
     }
     #[inline(always)]
-    fn floor_div_abs(acc: i64, recip: u32, shift: u32, total: u64) -> (i64, i64) {
-        // |acc| <= 2^62 and total >= 2: q < 2^61, exact as i64.
-        let (q, nz) = super::floor_div64(acc.unsigned_abs(), recip, shift, total);
-        (q as i64, nz as i64)
+    fn quotient_abs(acc: i64, recip: u32, shift: u32) -> (i64, i64) {
+        // |acc| <= 2^62 and q < |acc|/total <= 2^61: exact as i64.
+        let q = super::quotient64(acc.unsigned_abs(), recip, shift);
+        (q as i64, (acc != 0) as i64)
     }
 }
 
@@ -70,10 +72,10 @@ impl Acc for i32 {
         i32::try_from(x).unwrap_or(i32::MAX)
     }
     #[inline(always)]
-    fn floor_div_abs(acc: i32, recip: u32, shift: u32, total: u64) -> (i32, i32) {
-        // |acc| <= 2^30 and total < 2^30 (the narrow node budget): q < 2^29.
-        let (q, nz) = super::floor_div32(acc.unsigned_abs(), recip, shift, total as u32);
-        (q as i32, nz as i32)
+    fn quotient_abs(acc: i32, recip: u32, shift: u32) -> (i32, i32) {
+        // |acc| <= 2^30 and q < |acc|/total <= 2^29: exact as i32.
+        let q = super::quotient32(acc.unsigned_abs(), recip, shift);
+        (q as i32, (acc != 0) as i32)
     }
 }
 
@@ -99,9 +101,8 @@ macro_rules! junction_rules {
             g_src: u32,
             recip: u32,
             shift: u32,
-            total: u64,
         ) {
-            Self::node_scatter_held(b, g, a, e, g_src, recip, shift, total, 0);
+            Self::node_scatter_held(b, g, a, e, g_src, recip, shift, 0);
         }
 
         #[inline(always)]
@@ -165,7 +166,6 @@ macro_rules! junction_rules {
             g_src: u32,
             recip: u32,
             shift: u32,
-            total: u64,
             hold_min: u32,
         ) {
             // Σ g + g_src <= 2^WEIGHT_BITS (node budget), so the numerator
@@ -176,16 +176,17 @@ macro_rules! junction_rules {
                 acc = acc.wrapping_add(<A as Acc>::mul(*gk, *bk));
             }
             let acc = acc.wrapping_shl(1).wrapping_add(<A as Acc>::mul(g_src, e));
-            let (q, nz) = <A as Acc>::floor_div_abs(acc, recip, shift, total);
-            // floor(acc/total): q for acc >= 0, −(q + nz) for acc < 0, by the branch-free
-            // negation (x ^ mask) − mask.
+            // q = |floor(v')| for N > 0 (|floor(v')| − 1 for N < 0), nz = [N != 0]: v' =
+            // sign(N)·(q + ε) has the floor q for N > 0 and −(q + 1) for N < 0, by the
+            // branch-free negation (x ^ mask) − mask.
+            let (q, nz) = <A as Acc>::quotient_abs(acc, recip, shift);
             let neg = (acc < 0) as A;
             let mask = neg.wrapping_neg();
             let fl = (q.wrapping_add(nz & neg) ^ mask).wrapping_sub(mask);
             if hold_min == 0 {
                 // No shunt: the plain rule (a branch on the configuration, not on data).
                 for (ak, bk) in a.iter_mut().zip(b.iter()) {
-                    // v − b = (fl − b) + frac, frac > 0 iff nz: truncation toward zero adds
+                    // v' − b = (fl − b) + frac, frac > 0 iff nz: truncation toward zero adds
                     // 1 to a negative integer part when there is a fraction.
                     let m = fl.wrapping_sub(A::from(*bk));
                     *ak = $sat(m.wrapping_add(((m < 0) as A) & nz));
@@ -202,7 +203,7 @@ macro_rules! junction_rules {
             // driven (e != 0) and q >= hold_min: a node-wide mask.
             let node = ((e_a | e_a.wrapping_neg()) >> bits) & nonneg(q.wrapping_sub(<A as Acc>::from_u32(hold_min)));
             for (ak, bk) in a.iter_mut().zip(b.iter()) {
-                // v − b = (fl − b) + frac, frac > 0 iff nz: the floor is m, the ceiling m + nz;
+                // v' − b = (fl − b) + frac, frac > 0 iff nz: the floor is m, the ceiling m + nz;
                 // truncation toward zero takes the ceiling of a negative value.
                 let m = fl.wrapping_sub(A::from(*bk));
                 let t = A::from($sat(m.wrapping_add(((m < 0) as A) & nz)));
