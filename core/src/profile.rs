@@ -47,7 +47,7 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     /// no correction step: the reciprocal is rounded so that recip/2^(RECIP_BITS+shift) <
     /// 1/total strictly ([`reciprocal`]), so 0 <= q < |v| when N != 0, and
     /// v' = sign(N)·(q + ε) with 0 < ε <= |v| − q. Its floor is q (N > 0) or −q − 1 (N < 0)
-    /// and it has a fraction, so a_k = m + [m < 0] with m = floor(v') − b_k: the arithmetic
+    /// and it has a fraction, so a_k = m + (1 if m < 0) with m = floor(v') − b_k: the arithmetic
     /// needs q and the sign of N, never ε itself.
     ///
     /// Passivity, for every v' between 0 and v (the shunt a port of weight g_sh with b = 0,
