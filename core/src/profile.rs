@@ -48,7 +48,10 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     /// 1/total strictly ([`reciprocal`]), so 0 <= q < |v| when N != 0, and
     /// v' = sign(N)·(q + ε) with 0 < ε <= |v| − q. Its floor is q (N > 0) or −q − 1 (N < 0)
     /// and it has a fraction, so a_k = m + (1 if m < 0) with m = floor(v') − b_k: the arithmetic
-    /// needs q and the sign of N, never ε itself.
+    /// needs q and the sign of N, never ε itself. Two details keep the per-port work in one
+    /// word: q is capped at 2^31 − 1 (a smaller |v'| is as passive), and each port saturates
+    /// m first and then adds the 1 (s = sat(m), a_k = s + 1 if s < 0 and N != 0), which where
+    /// m is below the wave range gives MIN + 1, no larger in magnitude than v' − b_k.
     ///
     /// Passivity, for every v' between 0 and v (the shunt a port of weight g_sh with b = 0,
     /// the source one of weight g_src with b = e/2, T = total):
@@ -408,9 +411,9 @@ mod tests {
     /// A node case: incoming waves, their weights, source EMF, source weight, total weight.
     type Case<'a, W> = (&'a [W], &'a [u32], W, u32, u64);
 
-    /// Reference of the node rule in i128: q = floor(floor(|N|·r/2^bits)... as the split
-    /// product forms it, v' = sign(N)·(q + ε), a_k = trunc(v' − b_k), saturated. Also checks
-    /// 0 <= q < |v| for N != 0, the one property the rule's passivity rests on.
+    /// Reference of the node rule in i128: q as the split product forms it, capped at
+    /// 2^31 − 1, v' = sign(N)·(q + ε), s = sat(floor(v') − b_k), a_k = s + [s < 0, N != 0].
+    /// Also checks 0 <= q < |v| for N != 0, the one property the rule's passivity rests on.
     fn cheap_node(b: &[i64], g: &[u64], e: i64, gs: u64, total: u64, bits: u32, range: (i64, i64)) -> Vec<i64> {
         let (lo, hi) = range;
         let (r, s) = reciprocal(total, bits).unwrap();
@@ -422,20 +425,16 @@ mod tests {
         if num != 0 {
             assert!(q * (total as i128) < num.abs(), "q {q} not below |v| = {num}/{total}");
         }
+        let q = q.min(i32::MAX as i128); // the cap
+        let (fl, nz) = match num.signum() {
+            0 => (0, 0),
+            1 => (q, 1),
+            _ => (-q - 1, 1),
+        };
         b.iter()
             .map(|bk| {
-                let t = match num.signum() {
-                    0 => -(*bk as i128),
-                    1 => {
-                        let m = q - *bk as i128;
-                        m + (m < 0) as i128
-                    }
-                    _ => {
-                        let m = -q - 1 - *bk as i128;
-                        m + (m < 0) as i128
-                    }
-                };
-                t.clamp(lo as i128, hi as i128) as i64
+                let s = (fl - *bk as i128).clamp(lo as i128, hi as i128);
+                (s + ((s < 0) as i128 & nz)) as i64
             })
             .collect()
     }

@@ -110,10 +110,10 @@ fn check_allpass<P: Profile>(au: u32, cu: u32, u: [u32; 2]) -> Result<(), TestCa
 /// and `TOTAL_MAX` (a shunt of any strength), any waves and source EMF.
 ///
 /// The cheap rule (`Profile::node_scatter`) in i128: N = 2·Σ g_k·b_k + g_src·e, q formed from
-/// |N| and the reciprocal as two floored partial products, v' = sign(N)·(q + ε) and
-/// a_k = trunc(v' − b_k), saturated. Checked as well, against the exact v = N/total: q < |v|
+/// |N| and the reciprocal as two floored partial products and capped at 2^31 − 1,
+/// v' = sign(N)·(q + ε), s = sat(floor(v') − b_k) and a_k = s + [s < 0, N != 0]. Checked as well, against the exact v = N/total: q < |v|
 /// (what passivity needs), q >= |v| − 3 (what accuracy needs), and the node identity: the
-/// ports' outgoing energy (before saturation) is at most the incoming Σ g·b² + g_src·e²/4,
+/// ports' outgoing energy is at most the incoming Σ g·b² + g_src·e²/4,
 /// strictly below it when N != 0 and e = 0.
 fn check_node<P: Profile>(
     ports: &[(u32, u32)],
@@ -150,7 +150,8 @@ fn check_node<P: Profile>(
         prop_assert!(q * t < num.abs(), "q {} not below |v| = {}/{}", q, num, t);
         prop_assert!((q + 3) * t >= num.abs(), "q {} more than 3 below |v| = {}/{}", q, num, t);
     }
-    // floor(v') and whether v' has a fraction.
+    // The cap (a smaller |v'| is as passive), floor(v') and whether v' has a fraction.
+    let q = q.min(i32::MAX as i128);
     let (fl, nz) = match num.signum() {
         0 => (0, 0),
         1 => (q, 1),
@@ -159,12 +160,13 @@ fn check_node<P: Profile>(
     let cheap: Vec<i128> = b
         .iter()
         .map(|bk| {
-            let m = fl - w::<P>(*bk);
-            m + ((m < 0) as i128 & nz)
+            // Saturated, then truncated toward zero (`Acc::port`).
+            let s = (fl - w::<P>(*bk)).clamp(lo, hi);
+            s + ((s < 0) as i128 & nz)
         })
         .collect();
     for (k, c) in cheap.iter().enumerate() {
-        prop_assert_eq!(w::<P>(a[k]), (*c).clamp(lo, hi), "port {} of {:?}, g {:?}, total {}", k, b, g, total);
+        prop_assert_eq!(w::<P>(a[k]), *c, "port {} of {:?}, g {:?}, total {}", k, b, g, total);
     }
     // The node identity, in units of 1/4 (the source's incident wave is e/2).
     let e2 = w::<P>(e);
@@ -194,7 +196,7 @@ fn check_node<P: Profile>(
             let p = w::<P>(prev[k]);
             let (f, c) = (fl - w::<P>(*bk), fl - w::<P>(*bk) + nz);
             let held = e2 != 0 && hold_min != 0 && q >= hold_min as i128 && (p == f || p == c) && p.abs() <= q;
-            let want = if held { p } else { cheap[k].clamp(lo, hi) };
+            let want = if held { p } else { cheap[k] };
             prop_assert_eq!(w::<P>(a[k]), want, "held port {} hold_min {} prev {}", k, hold_min, p);
         }
     }

@@ -19,6 +19,7 @@
 //! |---|---:|---:|---:|---:|---:|---:|---:|
 //! | plain truncation (before) | 262 | 127 | 54 | 55 | 14 | 1 | 27 |
 //! | with the hold rule | 369 | 91 | 26 | 19 | 7 | 1 | 32 |
+//! | node rule without correction steps, with the hold rule | 363 | 97 | 27 | 19 | 6 | 1 | 34 |
 //!
 //! The wide profile (12 more fraction bits) stayed within 1 code in every case, with or
 //! without the hold rule.
@@ -35,8 +36,8 @@ type Tier<P> = Solver<P, 64, 32, 16384, 64>;
 /// The band (I/O codes, peak to peak) every output must stay within after the transient,
 /// wide profile. Measured, not derived (see the table above): at most 1 code in 513 plants.
 const BAND_WIDE: i64 = 1;
-/// The same for the narrow profile: measured, at most 32 codes in 513 plants (95 % within 4
-/// codes); 40 is allowed. This is the aim missed, by up to 28 codes beyond "a few".
+/// The same for the narrow profile: measured, at most 34 codes in 513 plants (95 % within 4
+/// codes); 40 is allowed. This is the aim missed, by up to 30 codes beyond "a few".
 const BAND_NARROW: i64 = 40;
 
 fn config() -> ProptestConfig {
