@@ -44,12 +44,14 @@
 //!
 //! Every line has one integer weight g = floor(2^c/Z0) used at both of its ends. At a node
 //! the sum N = 2·Σ g_k·b_k + g_src·E is exact in double width; the exact node voltage is
-//! v = N/T (T the node's total weight). The node does not divide exactly: it forms
+//! v = N/T (T the node's total weight). A [`Wide`] node does not divide exactly: it forms
 //! q = floor(|N|·r/2^p) from a reciprocal r rounded so that r/2^p < 1/T strictly (one split
 //! product, no correction step), which gives 0 <= q < |v| whenever N != 0, and it uses the
 //! node voltage v' = sign(N)·(q + ε), 0 < ε <= |v| − q (v' = 0 when N = 0): strictly between
-//! 0 and v, never an integer. Every outgoing wave is a_k = v' − b_k truncated toward zero,
-//! then saturated (only floor(v'), which is q or −q − 1, and the sign of N are needed).
+//! 0 and v, never an integer. A [`Narrow`] node divides exactly (v' = v: the floor and the
+//! remainder test from two correction steps), because its LSB is one I/O code (see
+//! `Profile::EXACT_NODE`). Every outgoing wave is a_k = v' − b_k truncated toward zero, then
+//! saturated (only floor(v') and whether v' has a fraction are needed).
 //!
 //! **Passivity, every topology.** Count the shunt as a port of weight g_sh with incident
 //! wave 0 and the source as one of weight g_src with incident wave E/2; then for every v'
@@ -62,9 +64,10 @@
 //! junction, loops included (the stored energy is the sum of the lines' energies and every
 //! junction can only lower it).
 //!
-//! **Zero input decays to exactly 0.** A node with N != 0 has T·v'·(v − v') > 0, so it
-//! strictly lowers the energy; a node is lossless only where N = 0, and there it sends
-//! a_k = −b_k, exactly what the exact node voltage (v = 0) gives. With zero input the state
+//! **Zero input decays to exactly 0.** A [`Wide`] node with N != 0 has T·v'·(v − v') > 0,
+//! so it strictly lowers the energy; it is lossless only where N = 0, and there it sends
+//! a_k = −b_k, exactly what the exact node voltage (v = 0) gives. A [`Narrow`] node is the
+//! exact one, lossless only where no truncation bites. With zero input the state
 //! space is finite and the energy never grows, so every run ends in a cycle, and on a cycle
 //! the energy comes back to its value, so no step on it lowers it: every node has N = 0 and
 //! every other junction acts exactly (a truncation that bites lowers the energy strictly).
@@ -75,11 +78,11 @@
 //! fast is bounded from the exact network's own decay (`core/tests/passivity.rs`,
 //! `decay_bound`: both profiles, trees and loops, every element kind, events while running).
 //!
-//! **Accuracy.** q is at most 3 below |v| (`core/tests/oracle.rs`), so a node's outgoing
-//! waves lie at most 3 LSB toward zero from the exact ones; where the exact value is an
-//! integer (an open end reflects exactly b, a matched source launches exactly E/2) the node
-//! sends one LSB less — the price of the missing correction steps. In [`Wide`] an LSB is
-//! 2^-io_shift of an I/O code; in [`Narrow`] it is one code.
+//! **Accuracy.** In [`Wide`] q is at most 3 below |v| (`core/tests/oracle.rs`), so a node's
+//! outgoing waves lie at most 3 LSB (of 2^-io_shift code each) toward zero from the exact
+//! ones; where the exact value is an integer (a matched source launches exactly E/2) the node
+//! sends one LSB less — the price of the missing correction steps. A lone open line end (one
+//! port, no source, no shunt) runs as an open end and reflects exactly b in both profiles.
 //!
 //! Series junctions (equal impedances), series inductors,
 //! reactive elements and loss sections follow the same rule: exact double-width value,

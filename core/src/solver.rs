@@ -297,7 +297,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         let n = self.n_juncs.min(JUNCS);
         for j in self.juncs.iter_mut().take(n) {
             match *j {
-                JunctionRt::Node { first, count, mode, g_src, recip, shift, hold, .. } => {
+                JunctionRt::Node { first, count, mode, g_src, recip, shift, total, hold, .. } => {
                     let lo = first as usize;
                     let (b, g, a) = (&self.b, &self.g, &mut self.a);
                     if mode == Mode::Scatter {
@@ -309,7 +309,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                         // plant) run on fixed-size arrays, so the compiler unrolls them
                         // exactly (in the profiles that ask for it, `Profile::FIXED_NODES`); the arithmetic is
                         // the same `node_scatter`.
-                        let c = (e, g_src, recip, shift, hold);
+                        let c = (e, g_src, recip, shift, total, hold);
                         match if P::FIXED_NODES { count } else { 0 } {
                             1 => node_fixed::<P, 1>(b, g, a, lo, c),
                             2 => node_fixed::<P, 2>(b, g, a, lo, c),
@@ -319,7 +319,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                                 if let (Some(bs), Some(gs), Some(as_)) =
                                     (b.get(lo..hi), g.get(lo..hi), a.get_mut(lo..hi))
                                 {
-                                    P::node_scatter_held(bs, gs, as_, e, g_src, recip, shift, hold);
+                                    P::node_scatter_held(bs, gs, as_, e, g_src, recip, shift, total, hold);
                                 }
                             }
                         }
@@ -499,7 +499,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
 
 /// A scattering node of exactly `N` ports starting at port `lo`: the waves, weights and
 /// outputs as `[_; N]` arrays, so `node_scatter_held` is unrolled for this count. `c` holds
-/// (E, g_src, recip, shift, hold). A range past the tables (impossible after `load`)
+/// (E, g_src, recip, shift, total, hold). A range past the tables (impossible after `load`)
 /// does nothing.
 #[inline(always)]
 fn node_fixed<P: Profile, const N: usize>(
@@ -507,14 +507,14 @@ fn node_fixed<P: Profile, const N: usize>(
     g: &[u32],
     a: &mut [P::Wave],
     lo: usize,
-    c: (P::Wave, u32, u32, u32, u32),
+    c: (P::Wave, u32, u32, u32, u64, u32),
 ) {
     let bs = b.get(lo..).and_then(|s| s.first_chunk::<N>());
     let gs = g.get(lo..).and_then(|s| s.first_chunk::<N>());
     let as_ = a.get_mut(lo..).and_then(|s| s.first_chunk_mut::<N>());
     if let (Some(bs), Some(gs), Some(as_)) = (bs, gs, as_) {
-        let (e, g_src, recip, shift, hold) = c;
-        P::node_scatter_held(bs, gs, as_, e, g_src, recip, shift, hold);
+        let (e, g_src, recip, shift, total, hold) = c;
+        P::node_scatter_held(bs, gs, as_, e, g_src, recip, shift, total, hold);
     }
 }
 

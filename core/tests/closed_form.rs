@@ -102,15 +102,16 @@ fn far_end_response<P: Profile>(shunt: Shunt, io_shift: u8) -> (Vec<i32>, Vec<i3
 fn open_end_doubles_short_cancels_matched_reflects_nothing() {
     // [closed form] Gamma = +1 at an open end, -1 at a short, 0 into Z0, with the node
     // rule's rounding stated: every node uses a voltage v' strictly between 0 and the exact v
-    // (`Profile::node_scatter`), so where the exact wave is an integer a node sends it one
-    // LSB toward zero. The source node launches E/2 − 1 LSB; the open end reflects b − 1.
+    // (`Profile::node_scatter`, Wide), so where the exact wave is an integer a node sends it
+    // one LSB toward zero: the source node launches E/2 − 1 LSB. A lone open end reflects b
+    // exactly (it runs as an open end, `configure::lone_open`).
     let e = 10_000i32 << 12;
     let (far, near) = far_end_response::<Wide>(Shunt::Open, 12);
     assert_eq!(far[6], 0, "nothing arrives before the delay");
-    assert_eq!(far[7], e - 3, "open end: incident E/2 − 1 doubles to E − 2, less 1 LSB");
+    assert_eq!(far[7], e - 2, "open end: incident E/2 − 1 LSB doubles exactly");
     assert_eq!(near[13], e / 2 - 1, "before the reflection returns");
-    assert_eq!(near[14], e - 3, "matched source absorbs the reflection: settles at E (− 3 LSB)");
-    assert_eq!(near[59], e - 3);
+    assert_eq!(near[14], e - 2, "matched source absorbs the reflection: settles at E (− 2 LSB)");
+    assert_eq!(near[59], e - 2);
 
     let (far, near) = far_end_response::<Wide>(Shunt::Short, 12);
     assert!(far.iter().all(|v| *v == 0), "short: far-end voltage stays exactly 0");
@@ -121,10 +122,11 @@ fn open_end_doubles_short_cancels_matched_reflects_nothing() {
     assert!(near[1..].iter().all(|v| *v == e / 2 - 1), "matched load: reflection exactly zero");
 
     let (far, near) = far_end_response::<Narrow>(Shunt::Resistor { milliohm: 100 * OHM }, 0);
-    assert_eq!(far[7], 4999);
-    assert!(near[1..].iter().all(|v| *v == 4999), "narrow: matched load reflection exactly zero");
+    // Narrow divides exactly (`Profile::node_scatter`): E/2 and 2·(E/2) exactly.
+    assert_eq!(far[7], 5000);
+    assert!(near[1..].iter().all(|v| *v == 5000), "narrow: matched load reflection exactly zero");
     let (far, _) = far_end_response::<Narrow>(Shunt::Open, 0);
-    assert_eq!(far[7], 9997);
+    assert_eq!(far[7], 10_000);
 }
 
 #[test]
@@ -248,9 +250,7 @@ fn rig_port_open_line_echoes_after_the_round_trip() {
         let out: Vec<i16> = (0..40).map(|n| s.step(if n == 0 { 1000 } else { 0 })).collect();
         let first = out.iter().position(|x| *x != 0).unwrap();
         assert_eq!(first as u32 + latency as u32, 2 * d, "latency {latency}");
-        // The open far end reflects b − 1 (its node voltage lies just below the exact 2·b,
-        // `Profile::node_scatter`): 2·999.
-        assert_eq!(out[first], 1998, "DAC drive 2·b with b = a − 1 = 999");
+        assert_eq!(out[first], 2000, "DAC drive 2·b with b = a = 1000");
     }
 }
 

@@ -19,7 +19,6 @@
 //! |---|---:|---:|---:|---:|---:|---:|---:|
 //! | plain truncation (before) | 262 | 127 | 54 | 55 | 14 | 1 | 27 |
 //! | with the hold rule | 369 | 91 | 26 | 19 | 7 | 1 | 32 |
-//! | node rule without correction steps, with the hold rule | 363 | 97 | 27 | 19 | 6 | 1 | 34 |
 //!
 //! The wide profile (12 more fraction bits) stayed within 1 code in every case, with or
 //! without the hold rule.
@@ -37,7 +36,10 @@ type Tier<P> = Solver<P, 64, 32, 16384, 64>;
 /// wide profile. Measured, not derived (see the table above): at most 1 code in 513 plants.
 const BAND_WIDE: i64 = 1;
 /// The same for the narrow profile: measured, at most 34 codes in 513 plants (95 % within 4
-/// codes); 40 is allowed. This is the aim missed, by up to 30 codes beyond "a few".
+/// codes); 40 is allowed. This is the aim missed, by up to 28 codes beyond "a few". A random
+/// case found on 2 Dec 2026 exceeds it (44 codes and more after shrinking) with the core of
+/// commit 602e3ba as well, so that bound is an observed one that random runs can break
+/// (docs/firmware.md, "The node rule without correction steps").
 const BAND_NARROW: i64 = 40;
 
 fn config() -> ProptestConfig {

@@ -114,7 +114,7 @@ pub mod specialised {
             self.mem[(n.wrapping_add(24) & MASK) as usize] = a0;
             let b1: W = self.mem[(n.wrapping_add(7) & MASK) as usize];
             // junction 1: node of 1 port(s), fixed
-            let [a1] = { let mut o = [self.held[0]]; P::node_scatter_held(&[b1], &[586406201u32], &mut o, e, 0u32, 3932160003u32, 30u32, 2u32); o };
+            let [a1] = { let mut o = [self.held[0]]; P::node_scatter_held(&[b1], &[586406201u32], &mut o, e, 0u32, 3932160003u32, 30u32, 1172812402u64, 2u32); o };
             self.mem[(n.wrapping_add(105) & MASK) as usize] = a1;
             self.held[0] = a1;
             let b2: W = self.mem[(n.wrapping_add(16) & MASK) as usize];

@@ -29,12 +29,12 @@ pub(crate) trait Acc: Sized {
     /// reciprocal's rounding), capped at 2^31 − 1 (a smaller |v'| is as passive, and the
     /// node's floor −q − 1 then fits an i32), and nz = (acc != 0) as 0/1: the node voltage
     /// v' = sign·(q + ε) always has a fraction when acc != 0.
-    fn quotient_abs(acc: Self, recip: u32, shift: u32) -> (i32, i32);
-    /// One outgoing wave from the node's floor fl = floor(v') and nz: s = sat(fl − b), then
-    /// s + 1 where s < 0 and nz (truncation toward zero of v' − b = (fl − b) + fraction).
-    /// Saturating first costs one instruction on the M4 (`QSUB`) instead of a 64-bit clamp;
-    /// where fl − b is below the wave range the result is MIN + nz, still no larger in
-    /// magnitude than v' − b.
+    fn quotient_abs(acc: Self, recip: u32, shift: u32, total: u64) -> (i32, i32);
+    /// One outgoing wave from the node's floor fl = floor(v') and nz: trunc(v' − b) toward
+    /// zero, v' − b = (fl − b) + fraction, saturated. Wide saturates first, s = sat(fl − b),
+    /// then adds 1 where s < 0 and nz: one instruction on the M4 (`QSUB`) instead of a 64-bit
+    /// clamp; where fl − b is below the wave range the result is MIN + nz, still no larger in
+    /// magnitude than v' − b. Narrow adds first and saturates after (exact in i32).
     fn port(fl: i32, b: Self::W, nz: i32) -> Self::W;
 }
 
@@ -56,7 +56,7 @@ impl Acc for i64 {
         i64::from(x)
     }
     #[inline(always)]
-    fn quotient_abs(acc: i64, recip: u32, shift: u32) -> (i32, i32) {
+    fn quotient_abs(acc: i64, recip: u32, shift: u32, _total: u64) -> (i32, i32) {
         // |acc| <= 2^62: q < 2^61, capped to 2^31 − 1, so the cast is exact.
         let q = super::quotient64(acc.unsigned_abs(), recip, shift).min(i32::MAX as u64);
         (q as i32, (acc != 0) as i32)
@@ -85,16 +85,19 @@ impl Acc for i32 {
         i32::try_from(x).unwrap_or(i32::MAX)
     }
     #[inline(always)]
-    fn quotient_abs(acc: i32, recip: u32, shift: u32) -> (i32, i32) {
-        // |acc| <= 2^30 and q < |acc|/total <= 2^29: below the cap, exact as i32.
-        let q = super::quotient32(acc.unsigned_abs(), recip, shift);
-        (q as i32, (acc != 0) as i32)
+    fn quotient_abs(acc: i32, recip: u32, shift: u32, total: u64) -> (i32, i32) {
+        // Narrow divides exactly (see `super::floor_div32`): |acc| <= 2^30 and total >= 2,
+        // so q <= 2^29, below the cap, exact as i32; total < 2^30 fits u32.
+        let (q, nz) = super::floor_div32(acc.unsigned_abs(), recip, shift, total as u32);
+        (q as i32, nz as i32)
     }
     #[inline(always)]
     fn port(fl: i32, b: i16, nz: i32) -> i16 {
-        // |fl| <= 2^29 + 1 and |b| <= 2^15: the difference is exact in i32.
-        let s = super::sat_i16(fl.wrapping_sub(i32::from(b)));
-        s.wrapping_add(((s >> 15) as i32 & nz) as i16)
+        // |fl| <= 2^29 + 1 and |b| <= 2^15: the difference and the increment are exact in
+        // i32, so Narrow truncates the exact value and then saturates (the exact node's
+        // outputs, bit for bit as before the Wide rule changed).
+        let m = fl.wrapping_sub(i32::from(b));
+        super::sat_i16(m.wrapping_add((m >> 31) & nz))
     }
 }
 
@@ -120,8 +123,9 @@ macro_rules! junction_rules {
             g_src: u32,
             recip: u32,
             shift: u32,
+            total: u64,
         ) {
-            Self::node_scatter_held(b, g, a, e, g_src, recip, shift, 0);
+            Self::node_scatter_held(b, g, a, e, g_src, recip, shift, total, 0);
         }
 
         #[inline(always)]
@@ -185,6 +189,7 @@ macro_rules! junction_rules {
             g_src: u32,
             recip: u32,
             shift: u32,
+            total: u64,
             hold_min: u32,
         ) {
             // Σ g + g_src <= 2^WEIGHT_BITS (node budget), so the numerator
@@ -198,7 +203,7 @@ macro_rules! junction_rules {
             // q = |floor(v')| for N > 0 (|floor(v')| − 1 for N < 0), nz = [N != 0]: v' =
             // sign(N)·(q + ε) has the floor q for N > 0 and −(q + 1) for N < 0, by the
             // branch-free negation (x ^ mask) − mask.
-            let (q, nz) = <A as Acc>::quotient_abs(acc, recip, shift);
+            let (q, nz) = <A as Acc>::quotient_abs(acc, recip, shift, total);
             let neg = (acc < 0) as i32;
             let mask = neg.wrapping_neg();
             // q + 1 <= 2^31: wrapping, (2^31 ^ −1) + 1 is −2^31 exactly.

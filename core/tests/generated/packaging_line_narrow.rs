@@ -174,14 +174,14 @@ pub mod specialised {
             let e: W = P::from_code(input, IO_SHIFT);
             let b0: W = self.mem[(n.wrapping_add(0) & MASK) as usize];
             // junction 0: node of 1 port(s), fixed
-            let [a0] = { let mut o = [self.held[0]]; P::node_scatter_held(&[b0], &[2236u32], &mut o, e, 5368u32, 54560u32, 13u32, 2u32); o };
+            let [a0] = { let mut o = [self.held[0]]; P::node_scatter_held(&[b0], &[2236u32], &mut o, e, 5368u32, 54560u32, 13u32, 9840u64, 2u32); o };
             self.mem[(n.wrapping_add(1013) & MASK) as usize] = a0;
             self.held[0] = a0;
             let b1: W = self.mem[(n.wrapping_add(77) & MASK) as usize];
             let b2: W = self.mem[(n.wrapping_add(154) & MASK) as usize];
             let b3: W = self.b[0];
             // junction 1: node of 3 port(s), fixed
-            let [a1, a2, a3] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b1, b2, b3], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32); o };
+            let [a1, a2, a3] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b1, b2, b3], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64); o };
             self.mem[(n.wrapping_add(1392) & MASK) as usize] = a1;
             self.mem[(n.wrapping_add(1460) & MASK) as usize] = a2;
             self.mem[(n.wrapping_add(3857) & MASK) as usize] = a3;
@@ -189,7 +189,7 @@ pub mod specialised {
             let b5: W = self.mem[(n.wrapping_add(298) & MASK) as usize];
             let b6: W = self.b[1];
             // junction 2: node of 3 port(s), fixed
-            let [a4, a5, a6] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b4, b5, b6], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32); o };
+            let [a4, a5, a6] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b4, b5, b6], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64); o };
             self.mem[(n.wrapping_add(2070) & MASK) as usize] = a4;
             self.mem[(n.wrapping_add(2160) & MASK) as usize] = a5;
             self.mem[(n.wrapping_add(3872) & MASK) as usize] = a6;
@@ -197,7 +197,7 @@ pub mod specialised {
             let b8: W = self.mem[(n.wrapping_add(484) & MASK) as usize];
             let b9: W = self.b[2];
             // junction 3: node of 3 port(s), fixed
-            let [a7, a8, a9] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b7, b8, b9], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32); o };
+            let [a7, a8, a9] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b7, b8, b9], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64); o };
             self.mem[(n.wrapping_add(2603) & MASK) as usize] = a7;
             self.mem[(n.wrapping_add(2680) & MASK) as usize] = a8;
             self.mem[(n.wrapping_add(3889) & MASK) as usize] = a9;
@@ -205,7 +205,7 @@ pub mod specialised {
             let b11: W = self.mem[(n.wrapping_add(648) & MASK) as usize];
             let b12: W = self.b[3];
             // junction 4: node of 3 port(s), fixed
-            let [a10, a11, a12] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b10, b11, b12], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32); o };
+            let [a10, a11, a12] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b10, b11, b12], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64); o };
             self.mem[(n.wrapping_add(3365) & MASK) as usize] = a10;
             self.mem[(n.wrapping_add(3429) & MASK) as usize] = a11;
             self.mem[(n.wrapping_add(3909) & MASK) as usize] = a12;
@@ -213,18 +213,18 @@ pub mod specialised {
             let b14: W = self.b[4];
             let b15: W = self.b[5];
             // junction 5: node of 3 port(s), fixed
-            let [a13, a14, a15] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b13, b14, b15], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32); o };
+            let [a13, a14, a15] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b13, b14, b15], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64); o };
             self.mem[(n.wrapping_add(3747) & MASK) as usize] = a13;
             self.mem[(n.wrapping_add(3798) & MASK) as usize] = a14;
             self.mem[(n.wrapping_add(3926) & MASK) as usize] = a15;
             let b16: W = self.mem[(n.wrapping_add(843) & MASK) as usize];
             // junction 6: node of 1 port(s), fixed
-            let [a16] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b16], &[2236u32], &mut o, e, 0u32, 60025u32, 11u32); o };
+            let [a16] = [b16];
             self.mem[(n.wrapping_add(3849) & MASK) as usize] = a16;
             let b17: W = self.mem[(n.wrapping_add(894) & MASK) as usize];
             let b18: W = self.b[6];
             // junction 7: node of 2 port(s), fixed
-            let [a17, a18] = { let mut o = [self.held[1], self.held[2]]; P::node_scatter_held(&[b17, b18], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 1180u32); o };
+            let [a17, a18] = { let mut o = [self.held[1], self.held[2]]; P::node_scatter_held(&[b17, b18], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64, 1180u32); o };
             self.mem[(n.wrapping_add(3865) & MASK) as usize] = a17;
             self.held[1] = a17;
             let a18 = P::adapt(b18, a18, 16384u32, false);
@@ -233,7 +233,7 @@ pub mod specialised {
             let b19: W = self.mem[(n.wrapping_add(902) & MASK) as usize];
             let b20: W = self.b[7];
             // junction 8: node of 2 port(s), fixed
-            let [a19, a20] = { let mut o = [self.held[3], self.held[4]]; P::node_scatter_held(&[b19, b20], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 1180u32); o };
+            let [a19, a20] = { let mut o = [self.held[3], self.held[4]]; P::node_scatter_held(&[b19, b20], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64, 1180u32); o };
             self.mem[(n.wrapping_add(3879) & MASK) as usize] = a19;
             self.held[3] = a19;
             let a20 = P::adapt(b20, a20, 16384u32, false);
@@ -242,7 +242,7 @@ pub mod specialised {
             let b21: W = self.mem[(n.wrapping_add(909) & MASK) as usize];
             let b22: W = self.b[8];
             // junction 9: node of 2 port(s), fixed
-            let [a21, a22] = { let mut o = [self.held[5], self.held[6]]; P::node_scatter_held(&[b21, b22], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 1180u32); o };
+            let [a21, a22] = { let mut o = [self.held[5], self.held[6]]; P::node_scatter_held(&[b21, b22], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64, 1180u32); o };
             self.mem[(n.wrapping_add(3900) & MASK) as usize] = a21;
             self.held[5] = a21;
             let a22 = P::adapt(b22, a22, 16384u32, false);
@@ -251,7 +251,7 @@ pub mod specialised {
             let b23: W = self.mem[(n.wrapping_add(920) & MASK) as usize];
             let b24: W = self.b[9];
             // junction 10: node of 2 port(s), fixed
-            let [a23, a24] = { let mut o = [self.held[7], self.held[8]]; P::node_scatter_held(&[b23, b24], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 1180u32); o };
+            let [a23, a24] = { let mut o = [self.held[7], self.held[8]]; P::node_scatter_held(&[b23, b24], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64, 1180u32); o };
             self.mem[(n.wrapping_add(3919) & MASK) as usize] = a23;
             self.held[7] = a23;
             let a24 = P::adapt(b24, a24, 16384u32, false);
@@ -260,7 +260,7 @@ pub mod specialised {
             let b25: W = self.mem[(n.wrapping_add(930) & MASK) as usize];
             let b26: W = self.b[10];
             // junction 11: node of 2 port(s), fixed
-            let [a25, a26] = { let mut o = [self.held[9], self.held[10]]; P::node_scatter_held(&[b25, b26], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 1180u32); o };
+            let [a25, a26] = { let mut o = [self.held[9], self.held[10]]; P::node_scatter_held(&[b25, b26], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64, 1180u32); o };
             self.mem[(n.wrapping_add(3933) & MASK) as usize] = a25;
             self.held[9] = a25;
             let a26 = P::adapt(b26, a26, 16384u32, false);

@@ -75,7 +75,7 @@ pub mod specialised {
     const PROBES: usize = 2;
     const HIST: usize = 64;
     const INITIAL_NODES: [NodeCoef; 1] = [
-        NodeCoef { recip: 3932160009, shift: 29, total: 586406200, short: false, broken: false, hold: 0 },
+        NodeCoef { recip: 3932160009, shift: 29, total: 586406200, short: false, broken: false, open: false, hold: 0 },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -121,12 +121,12 @@ pub mod specialised {
             let b1: W = self.mem[(n.wrapping_add(7) & MASK) as usize];
             let b2: W = self.mem[(n.wrapping_add(15) & MASK) as usize];
             // junction 1: node of 2 port(s), fixed
-            let [a1, a2] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b1, b2], &[293203100u32, 293203100u32], &mut o, e, 0u32, 3932160009u32, 29u32); o };
+            let [a1, a2] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b1, b2], &[293203100u32, 293203100u32], &mut o, e, 0u32, 3932160009u32, 29u32, 586406200u64); o };
             self.mem[(n.wrapping_add(75) & MASK) as usize] = a1;
             self.mem[(n.wrapping_add(91) & MASK) as usize] = a2;
             let b3: W = self.mem[(n.wrapping_add(19) & MASK) as usize];
             // junction 2: node of 1 port(s), fixed
-            let [a3] = { let mut o = [self.held[0]]; P::node_scatter_held(&[b3], &[293203100u32], &mut o, e, 0u32, 3932160009u32, 29u32, 2u32); o };
+            let [a3] = { let mut o = [self.held[0]]; P::node_scatter_held(&[b3], &[293203100u32], &mut o, e, 0u32, 3932160009u32, 29u32, 586406200u64, 2u32); o };
             self.mem[(n.wrapping_add(111) & MASK) as usize] = a3;
             self.held[0] = a3;
             let b4: W = self.mem[(n.wrapping_add(27) & MASK) as usize];
@@ -145,7 +145,7 @@ pub mod specialised {
             let b9: W = self.mem[(n.wrapping_add(79) & MASK) as usize];
             // junction 5: node of 2 port(s), switched by the plant's events
             let c = self.nodes[0];
-            let [a8, a9] = if c.scatters() { { let mut o = [self.held[1], self.held[2]]; P::node_scatter_held(&[b8, b9], &[293203100u32, 293203100u32], &mut o, e, 0u32, c.recip, c.shift, c.hold); o } } else if c.broken { [b8, b9] } else { [P::neg(b8), P::neg(b9)] };
+            let [a8, a9] = if c.scatters() { { let mut o = [self.held[1], self.held[2]]; P::node_scatter_held(&[b8, b9], &[293203100u32, 293203100u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b8, b9] } else { [P::neg(b8), P::neg(b9)] };
             self.mem[(n.wrapping_add(94) & MASK) as usize] = a8;
             self.held[1] = a8;
             self.mem[(n.wrapping_add(103) & MASK) as usize] = a9;

@@ -77,22 +77,22 @@ fn node(
         .iter()
         .map(|p| cx.held.get(*p).copied().flatten().map(|h| format!("self.held[{h}]")))
         .collect::<Option<Vec<_>>>();
-    let scatter = |recip: &str, shift: &str, hold: Option<&str>| {
+    let scatter = |recip: &str, shift: &str, total: &str, hold: Option<&str>| {
         match (hold, &previous) {
         (Some(hold), Some(prev)) => format!(
-            "{{ let mut o = [{}]; P::node_scatter_held(&[{b}], &[{}], &mut o, e, {g_src}u32, {recip}, {shift}, {hold}); o }}",
+            "{{ let mut o = [{}]; P::node_scatter_held(&[{b}], &[{}], &mut o, e, {g_src}u32, {recip}, {shift}, {total}, {hold}); o }}",
             prev.join(", "),
             weights.join(", ")
         ),
         _ => format!(
-            "{{ let mut o = [P::ZERO; {n}]; P::node_scatter(&[{b}], &[{}], &mut o, e, {g_src}u32, {recip}, {shift}); o }}",
+            "{{ let mut o = [P::ZERO; {n}]; P::node_scatter(&[{b}], &[{}], &mut o, e, {g_src}u32, {recip}, {shift}, {total}); o }}",
             weights.join(", ")
         ),
     }
     };
     match cx.switch_slot {
         None => {
-            let body = if coef.broken {
+            let body = if coef.reflects() {
                 format!("[{b}]")
             } else if coef.short {
                 format!("[{neg}]")
@@ -101,6 +101,7 @@ fn node(
                 scatter(
                     &format!("{}u32", coef.recip),
                     &format!("{}u32", coef.shift),
+                    &format!("{}u64", coef.total),
                     (coef.hold != 0).then_some(hold.as_str()),
                 )
             };
@@ -112,8 +113,8 @@ fn node(
             let _ = writeln!(s, "        let c = self.nodes[{k}];");
             let _ = writeln!(
                 s,
-                "        let [{a}] = if c.scatters() {{ {} }} else if c.broken {{ [{b}] }} else {{ [{neg}] }};",
-                scatter("c.recip", "c.shift", Some("c.hold"))
+                "        let [{a}] = if c.scatters() {{ {} }} else if c.reflects() {{ [{b}] }} else {{ [{neg}] }};",
+                scatter("c.recip", "c.shift", "c.total", Some("c.hold"))
             );
         }
     }
