@@ -40,8 +40,16 @@ fn at(table: &[u16], i: usize) -> usize {
     table.get(i).copied().unwrap_or(0) as usize
 }
 
-pub(crate) fn mode_of(short: bool, broken: bool) -> Mode {
-    if broken {
+/// A lone open line end: one port, no source, no shunt. Its exact node voltage is 2·b, so it
+/// reflects a = b exactly; the node rule's v' just below 2·b (`Profile::node_scatter`) would
+/// send b − 1 at every reflection, a loss the network does not have (a resonant stub would
+/// lose one LSB per round trip). So it runs as an open end (`Mode::Broken`: a = b).
+pub(crate) fn lone_open(count: u16, g_src: u32, g_ports: u64, total: u64, short: bool) -> bool {
+    count == 1 && g_src == 0 && total == g_ports && !short
+}
+
+pub(crate) fn mode_of(short: bool, broken: bool, open: bool) -> Mode {
+    if broken || open {
         Mode::Broken
     } else if short {
         Mode::Short
@@ -497,9 +505,9 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     pub fn set_broken(&mut self, junction: u16, broken: bool) -> Result<(), ConfigError> {
         let j = junction as usize;
         match self.juncs.get_mut(j).filter(|_| j < self.n_juncs) {
-            Some(JunctionRt::Node { mode, short, broken: b, .. }) => {
+            Some(JunctionRt::Node { mode, short, broken: b, count, g_src, g_ports, total, .. }) => {
                 *b = broken;
-                *mode = mode_of(*short, broken);
+                *mode = mode_of(*short, broken, lone_open(*count, *g_src, *g_ports, *total, *short));
                 Ok(())
             }
             _ => Err(ConfigError::NotANode { junction }),
@@ -547,7 +555,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
 
 /// Put `shunt` into a node record: shunt weight floor(2^c / R), new reciprocal of the total.
 pub(crate) fn apply_shunt<P: Profile>(rt: &mut JunctionRt, shunt: Shunt, c: u32) -> Result<(), ()> {
-    let JunctionRt::Node { g_ports, g_src, recip, shift, total: t, mode, short, broken, hold, .. } = rt else {
+    let JunctionRt::Node { count, g_ports, g_src, recip, shift, total: t, mode, short, broken, hold, .. } = rt else {
         return Err(());
     };
     let g_sh: u64 = match shunt {
@@ -563,12 +571,12 @@ pub(crate) fn apply_shunt<P: Profile>(rt: &mut JunctionRt, shunt: Shunt, c: u32)
     // A shunt so strong that the total passes the profile's division range is capped: the
     // node then stands for a slightly weaker near-short, still a passive node.
     let total = g_ports.saturating_add(g_sh).min(P::TOTAL_MAX);
-    let (r, s) = if is_short { (0, 0) } else { reciprocal(total, P::RECIP_BITS).ok_or(())? };
+    let (r, s) = if is_short { (0, 0) } else { reciprocal(total, P::RECIP_BITS, !P::EXACT_NODE).ok_or(())? };
     *t = total;
     *hold = if is_short { 0 } else { hold_threshold::<P>(*g_ports, *g_src, total) };
     *recip = r;
     *shift = s;
     *short = is_short;
-    *mode = mode_of(is_short, *broken);
+    *mode = mode_of(is_short, *broken, lone_open(*count, *g_src, *g_ports, total, is_short));
     Ok(())
 }

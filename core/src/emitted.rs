@@ -149,16 +149,25 @@ pub struct NodeCoef {
     pub short: bool,
     /// Split into open ends (a = b).
     pub broken: bool,
+    /// A lone open line end (one port, no source, no shunt): reflects a = b exactly
+    /// (`configure::lone_open`), whether broken or not.
+    pub open: bool,
     /// Hold threshold of the hold rule ([`crate::profile::hold_threshold`]; 0: never hold,
     /// the node runs `Profile::node_scatter`, else `Profile::node_scatter_held`).
     pub hold: u32,
 }
 
 impl NodeCoef {
-    /// True when the node scatters through its node voltage (neither shorted nor broken).
+    /// True when the node scatters through its node voltage (neither shorted, broken nor a
+    /// lone open end).
     #[inline(always)]
     pub const fn scatters(&self) -> bool {
-        !self.short && !self.broken
+        !self.short && !self.broken && !self.open
+    }
+    /// True when every port reflects a = b (broken, or a lone open end).
+    #[inline(always)]
+    pub const fn reflects(&self) -> bool {
+        self.broken || self.open
     }
 }
 
@@ -178,7 +187,9 @@ pub fn node_coefficients<P: Profile>(
     let g_ports = port_sum.checked_add(u64::from(g_src)).ok_or(refused)?;
     let mut rt = JunctionRt::Node {
         first: 0,
-        count: 0,
+        // Only whether the node has one port matters here (a lone open end,
+        // `configure::lone_open`): weights are >= 1, so one port is port_min == port_sum.
+        count: if port_min == port_sum { 1 } else { 2 },
         mode: Mode::Scatter,
         short: old.short,
         broken: old.broken,
@@ -194,8 +205,8 @@ pub fn node_coefficients<P: Profile>(
         return Err(refused);
     }
     match rt {
-        JunctionRt::Node { recip, shift, total, short, broken, hold, .. } => {
-            Ok(NodeCoef { recip, shift, total, short, broken, hold })
+        JunctionRt::Node { recip, shift, total, short, broken, hold, mode, .. } => {
+            Ok(NodeCoef { recip, shift, total, short, broken, open: mode == Mode::Broken && !broken, hold })
         }
         _ => Err(refused),
     }
@@ -228,7 +239,7 @@ impl<'s, P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, c
     /// Every junction in order.
     pub fn junctions(&self) -> impl Iterator<Item = JunctionPlan> + '_ {
         self.s.juncs.iter().take(self.s.n_juncs).map(|j| match *j {
-            JunctionRt::Node { first, count, g_src, recip, shift, total, short, broken, hold, .. } => {
+            JunctionRt::Node { first, count, g_src, recip, shift, total, short, broken, hold, mode, .. } => {
                 let ports = self.s.g.iter().skip(first as usize).take(count as usize);
                 JunctionPlan::Node {
                     first,
@@ -236,7 +247,7 @@ impl<'s, P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, c
                     g_src,
                     port_sum: ports.clone().fold(0u64, |s, g| s.saturating_add(u64::from(*g))),
                     port_min: ports.map(|g| u64::from(*g)).min().unwrap_or(0),
-                    coef: NodeCoef { recip, shift, total, short, broken, hold },
+                    coef: NodeCoef { recip, shift, total, short, broken, open: mode == Mode::Broken && !broken, hold },
                 }
             }
             JunctionRt::Series { p, q, c } => JunctionPlan::Series { p, q, c },

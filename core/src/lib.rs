@@ -43,14 +43,48 @@
 //! i16 codes; waves carry `io_shift` more fractional bits (wave = code·2^io_shift).
 //!
 //! Every line has one integer weight g = floor(2^c/Z0) used at both of its ends. At a node
-//! the sum 2·Σ g_k·b_k + g_src·E is exact in double width; the quotient by the node's total
-//! weight is formed from a reciprocal rounded down and made exact by two correction steps
-//! (floor and "remainder nonzero"), and every outgoing wave is its exact value
-//! a_k = v_exact − b_k truncated toward zero, then saturated. So |a_k,q| <= |a_k,exact| port
-//! by port: with E = 0 the stored energy Σ_lines g·(wave²) cannot grow at any junction (the
-//! exact node is passive), for every topology, loops included, and wherever the exact value is
-//! not an integer the truncation removes energy — a plant in which every path has loss decays
-//! to exactly zero, with no limit cycle. Series junctions (equal impedances), series inductors,
+//! the sum N = 2·Σ g_k·b_k + g_src·E is exact in double width; the exact node voltage is
+//! v = N/T (T the node's total weight). A [`Wide`] node does not divide exactly: it forms
+//! q = floor(|N|·r/2^p) from a reciprocal r rounded so that r/2^p < 1/T strictly (one split
+//! product, no correction step), which gives 0 <= q < |v| whenever N != 0, and it uses the
+//! node voltage v' = sign(N)·(q + ε), 0 < ε <= |v| − q (v' = 0 when N = 0): strictly between
+//! 0 and v, never an integer. A [`Narrow`] node divides exactly (v' = v: the floor and the
+//! remainder test from two correction steps), because its LSB is one I/O code (see
+//! `Profile::EXACT_NODE`). Every outgoing wave is a_k = v' − b_k truncated toward zero, then
+//! saturated (only floor(v') and whether v' has a fraction are needed).
+//!
+//! **Passivity, every topology.** Count the shunt as a port of weight g_sh with incident
+//! wave 0 and the source as one of weight g_src with incident wave E/2; then for every v'
+//! between 0 and v
+//!
+//! * Σ_j g_j·(v' − b_j)² = Σ_j g_j·b_j² − T·v'·(v − v') <= Σ_j g_j·b_j²,
+//!
+//! and truncating each line's outgoing wave toward zero (|a_k| <= |v' − b_k|) only lowers
+//! the left side. So with E = 0 the stored energy Σ_lines g·(wave²) cannot grow at any
+//! junction, loops included (the stored energy is the sum of the lines' energies and every
+//! junction can only lower it).
+//!
+//! **Zero input decays to exactly 0.** A [`Wide`] node with N != 0 has T·v'·(v − v') > 0,
+//! so it strictly lowers the energy; it is lossless only where N = 0, and there it sends
+//! a_k = −b_k, exactly what the exact node voltage (v = 0) gives. A [`Narrow`] node is the
+//! exact one, lossless only where no truncation bites. With zero input the state
+//! space is finite and the energy never grows, so every run ends in a cycle, and on a cycle
+//! the energy comes back to its value, so no step on it lowers it: every node has N = 0 and
+//! every other junction acts exactly (a truncation that bites lowers the energy strictly).
+//! The cycle is then also a run of the exact network with every node voltage 0 — which a
+//! plant in which every path has loss does not
+//! have except at rest. So such a plant reaches exactly 0 in every wave and every I/O code
+//! (DAC output, probe codes): there is no residue below the I/O resolution to bound. How
+//! fast is bounded from the exact network's own decay (`core/tests/passivity.rs`,
+//! `decay_bound`: both profiles, trees and loops, every element kind, events while running).
+//!
+//! **Accuracy.** In [`Wide`] q is at most 3 below |v| (`core/tests/oracle.rs`), so a node's
+//! outgoing waves lie at most 3 LSB (of 2^-io_shift code each) toward zero from the exact
+//! ones; where the exact value is an integer (a matched source launches exactly E/2) the node
+//! sends one LSB less — the price of the missing correction steps. A lone open line end (one
+//! port, no source, no shunt) runs as an open end and reflects exactly b in both profiles.
+//!
+//! Series junctions (equal impedances), series inductors,
 //! reactive elements and loss sections follow the same rule: exact double-width value,
 //! truncated toward zero once, with coefficients rounded so that the quantized element is
 //! itself passive (their modules state the argument). The fractional-delay lattice's
@@ -59,19 +93,20 @@
 //! y² + s'² <= x² + s², and truncating each toward zero (then saturating) only lowers them:
 //! y_q² + s'_q² <= x² + s², the section's outgoing plus stored energy never exceeds its
 //! incoming plus stored energy (`configure/passive.rs`). Rounding to nearest, or rounding the
-//! node voltage alone, does not have this property: a lossy node would then reflect a
-//! one-LSB wave losslessly, and the property tests find such limit cycles.
+//! node voltage to an integer and subtracting exactly, does not have this property: a lossy
+//! node would then reflect a one-LSB wave losslessly, and the property tests find such limit
+//! cycles.
 //!
 //! **Constant drive.** Around a non-zero working point every outgoing wave of a node has one
 //! sign, so truncation toward zero rounds them all the same way; for small deviations the node
 //! then acts as if only v were quantized, and in a lightly damped plant the deviations wander
 //! by tens of LSB without ever settling (the packaging-line example: 40 codes in the narrow
 //! profile). So at nodes with a shunt, while the drive is on (E != 0), a port whose previous
-//! outgoing wave is the floor or the ceiling of its exact value, and no larger than |v|, keeps
+//! outgoing wave is the floor or the ceiling of v' − b_k, and no larger than q, keeps
 //! it (the hold rule, [`Profile::node_scatter_held`]): a deviation below one LSB is absorbed
-//! and the plant locks onto a fixed point. Holding adds less than 2·g_k·|v| of energy per
-//! port; the shunt dissipates g_sh·v², and the rule applies only where |v| >= 2·G/g_sh
-//! ([`profile::hold_threshold`]), so the node stays passive. With E = 0 the plain rule runs,
+//! and the plant locks onto a fixed point. Holding adds less than 2·g_k·q of energy per
+//! port; the shunt dissipates g_sh·v'² >= g_sh·q², and the rule applies only where
+//! q >= 2·G/g_sh ([`profile::hold_threshold`]), so the node stays passive. With E = 0 the plain rule runs,
 //! so the zero-input argument above holds unchanged. The hold does not reach loops through
 //! series resistors, impedance steps at open nodes or reactances' adaptors: there the narrow
 //! profile can still keep a small oscillation (`core/tests/settle.rs` states the measured

@@ -301,7 +301,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                     let lo = first as usize;
                     let (b, g, a) = (&self.b, &self.g, &mut self.a);
                     if mode == Mode::Scatter {
-                        // v = (2·Σ G_k·b_k + E·G_src) / G_total;  a_k = trunc(v − b_k), or
+                        // v = (2·Σ G_k·b_k + E·G_src) / G_total; a_k = trunc(v' − b_k) with v'
+                        // strictly between 0 and v (`Profile::node_scatter`), or
                         // a_k kept while driven at a node with a shunt (the hold rule,
                         // `Profile::node_scatter_held`: a constant drive settles).
                         // Nodes of 1, 2 and 3 ports (line ends, drops, taps: most of a

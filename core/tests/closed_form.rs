@@ -100,24 +100,29 @@ fn far_end_response<P: Profile>(shunt: Shunt, io_shift: u8) -> (Vec<i32>, Vec<i3
 
 #[test]
 fn open_end_doubles_short_cancels_matched_reflects_nothing() {
-    // [closed form] Gamma = +1 at an open end, -1 at a short, 0 into Z0.
+    // [closed form] Gamma = +1 at an open end, -1 at a short, 0 into Z0, with the node
+    // rule's rounding stated: every node uses a voltage v' strictly between 0 and the exact v
+    // (`Profile::node_scatter`, Wide), so where the exact wave is an integer a node sends it
+    // one LSB toward zero: the source node launches E/2 − 1 LSB. A lone open end reflects b
+    // exactly (it runs as an open end, `configure::lone_open`).
     let e = 10_000i32 << 12;
     let (far, near) = far_end_response::<Wide>(Shunt::Open, 12);
     assert_eq!(far[6], 0, "nothing arrives before the delay");
-    assert_eq!(far[7], e, "open end: incident E/2 doubles to E");
-    assert_eq!(near[13], e / 2, "before the reflection returns");
-    assert_eq!(near[14], e, "matched source absorbs the reflection: settles at E");
-    assert_eq!(near[59], e);
+    assert_eq!(far[7], e - 2, "open end: incident E/2 − 1 LSB doubles exactly");
+    assert_eq!(near[13], e / 2 - 1, "before the reflection returns");
+    assert_eq!(near[14], e - 2, "matched source absorbs the reflection: settles at E (− 2 LSB)");
+    assert_eq!(near[59], e - 2);
 
     let (far, near) = far_end_response::<Wide>(Shunt::Short, 12);
     assert!(far.iter().all(|v| *v == 0), "short: far-end voltage stays exactly 0");
     assert_eq!(near[14], 0, "reflection -E/2 cancels the source end");
 
     let (far, near) = far_end_response::<Wide>(Shunt::Resistor { milliohm: 100 * OHM }, 12);
-    assert_eq!(far[7], e / 2);
-    assert!(near[1..].iter().all(|v| *v == e / 2), "matched load: reflection exactly zero");
+    assert_eq!(far[7], e / 2 - 1);
+    assert!(near[1..].iter().all(|v| *v == e / 2 - 1), "matched load: reflection exactly zero");
 
     let (far, near) = far_end_response::<Narrow>(Shunt::Resistor { milliohm: 100 * OHM }, 0);
+    // Narrow divides exactly (`Profile::node_scatter`): E/2 and 2·(E/2) exactly.
     assert_eq!(far[7], 5000);
     assert!(near[1..].iter().all(|v| *v == 5000), "narrow: matched load reflection exactly zero");
     let (far, _) = far_end_response::<Narrow>(Shunt::Open, 0);

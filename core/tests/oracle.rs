@@ -108,6 +108,14 @@ fn check_allpass<P: Profile>(au: u32, cu: u32, u: [u32; 2]) -> Result<(), TestCa
 
 /// A node: up to 8 ports, weights with Σ g + g_src <= 2^WEIGHT_BITS, a total between that sum
 /// and `TOTAL_MAX` (a shunt of any strength), any waves and source EMF.
+///
+/// The node rule (`Profile::node_scatter`) in i128; Wide runs the cheap rule: N = 2·Σ g_k·b_k + g_src·e, q formed from
+/// |N| and the reciprocal as two floored partial products and capped at 2^31 − 1,
+/// v' = sign(N)·(q + ε), s = sat(floor(v') − b_k) and a_k = s + [s < 0, N != 0]; Narrow the
+/// exact node (v' = v, the same per-port formula with its exact floor and fraction). Checked as well, against the exact v = N/total: q < |v|
+/// (what passivity needs), q >= |v| − 3 (what accuracy needs), and the node identity: the
+/// ports' outgoing energy is at most the incoming Σ g·b² + g_src·e²/4,
+/// strictly below it when N != 0 and e = 0.
 fn check_node<P: Profile>(
     ports: &[(u32, u32)],
     src: (u32, u32),
@@ -124,7 +132,7 @@ fn check_node<P: Profile>(
     prop_assume!(sum >= 2);
     let extra = if strong { shunt % (P::TOTAL_MAX - sum + 1) } else { shunt % (4 * sum) };
     let total = (sum + extra).min(P::TOTAL_MAX);
-    let Some((r, s)) = reciprocal(total, P::RECIP_BITS) else {
+    let Some((r, s)) = reciprocal(total, P::RECIP_BITS, !P::EXACT_NODE) else {
         return Err(TestCaseError::fail("no reciprocal"));
     };
     let b: Vec<P::Wave> = ports.iter().map(|(_, bu)| wave::<P>(*bu)).collect();
@@ -134,32 +142,74 @@ fn check_node<P: Profile>(
     let num: i128 =
         2 * b.iter().zip(&g).map(|(b, g)| w::<P>(*b) * *g as i128).sum::<i128>() + g_src as i128 * w::<P>(e);
     let (lo, hi) = wave_range::<P>();
-    let exact: Vec<i128> = b.iter().map(|bk| num - w::<P>(*bk) * total as i128).collect(); // a_k·total
-    for (k, n) in exact.iter().enumerate() {
-        let want = (n / total as i128).clamp(lo, hi);
-        prop_assert_eq!(w::<P>(a[k]), want, "port {} of {:?}, g {:?}, total {}", k, b, g, total);
+    // Wide's split product (`quotient64`: two 32x32 products), in u128.
+    let (mag, r128) = (num.unsigned_abs(), r as u128);
+    let bits = P::RECIP_BITS;
+    let x = (mag >> bits) * r128 + (((mag & ((1u128 << bits) - 1)) * r128) >> bits);
+    let q = (x >> s) as i128;
+    let t = total as i128;
+    if num != 0 && !P::EXACT_NODE {
+        prop_assert!(q * t < num.abs(), "q {} not below |v| = {}/{}", q, num, t);
+        prop_assert!((q + 3) * t >= num.abs(), "q {} more than 3 below |v| = {}/{}", q, num, t);
     }
-    // The held rule, from previous outgoing waves near the exact ones (and a few far): each
-    // port keeps its previous value exactly when the drive is on, |trunc(v)| >= hold_min > 0,
-    // the previous value is the floor or the ceiling of a_k and |prev| <= |trunc(v)|.
+    // Wide: the cap (a smaller |v'| is as passive), v' = sign(N)·(q + ε). Narrow: the exact
+    // node, v' = v (floor and "remainder nonzero" of |N|/total). Then floor(v') and whether
+    // v' has a fraction.
+    let (q, f) = if !P::EXACT_NODE {
+        (q.min(i32::MAX as i128), (num != 0) as i128)
+    } else {
+        (num.abs() / t, (num.abs() % t != 0) as i128)
+    };
+    let (fl, nz) = match num.signum() {
+        0 => (0, 0),
+        1 => (q, f),
+        _ => (-q - f, f),
+    };
+    let cheap: Vec<i128> = b
+        .iter()
+        .map(|bk| {
+            // `Acc::port`: Wide saturates, then truncates toward zero; Narrow the other way.
+            let m = fl - w::<P>(*bk);
+            if P::EXACT_NODE {
+                (m + ((m < 0) as i128 & nz)).clamp(lo, hi)
+            } else {
+                let s = m.clamp(lo, hi);
+                s + ((s < 0) as i128 & nz)
+            }
+        })
+        .collect();
+    for (k, c) in cheap.iter().enumerate() {
+        prop_assert_eq!(w::<P>(a[k]), *c, "port {} of {:?}, g {:?}, total {}", k, b, g, total);
+    }
+    // The node identity, in units of 1/4 (the source's incident wave is e/2).
+    let e2 = w::<P>(e);
+    let incoming: i128 =
+        4 * b.iter().zip(&g).map(|(b, g)| *g as i128 * w::<P>(*b).pow(2)).sum::<i128>() + g_src as i128 * e2 * e2;
+    let outgoing: i128 = 4 * cheap.iter().zip(&g).map(|(a, g)| *g as i128 * a * a).sum::<i128>();
+    prop_assert!(outgoing <= incoming, "node energy grew: {} > {}", outgoing, incoming);
+    if num != 0 && e2 == 0 && !P::EXACT_NODE {
+        prop_assert!(outgoing < incoming, "a Wide node with N != 0 lost nothing");
+    }
+    // The held rule, from previous outgoing waves near v' − b_k (and a few far): each port
+    // keeps its previous value exactly when the drive is on, q >= hold_min > 0, the previous
+    // value is the floor or the ceiling of v' − b_k and |prev| <= q.
     let hold = hold_threshold::<P>(g.iter().map(|x| *x as u64).sum::<u64>() + g_src as u64, g_src, total);
-    let q = (num / total as i128).abs(); // |trunc(v)|
-    let prev: Vec<P::Wave> = exact
+    let prev: Vec<P::Wave> = b
         .iter()
         .zip(ports.iter())
-        .map(|(n, (gu, _))| {
-            let t = n.div_euclid(total as i128) + (*gu % 3) as i128 - 1; // floor − 1, floor, floor + 1
+        .map(|(bk, (gu, _))| {
+            let t = fl - w::<P>(*bk) + (*gu % 3) as i128 - 1 + nz * ((*gu / 3) % 2) as i128;
             P::wave_from_i32(t.clamp(i32::MIN as i128, i32::MAX as i128) as i32)
         })
         .collect();
     for hold_min in [0, 1, hold, hold.saturating_add(7)] {
         let mut a = prev.clone();
         P::node_scatter_held(&b, &g, &mut a, e, g_src, r, s, total, hold_min);
-        for (k, n) in exact.iter().enumerate() {
+        for (k, bk) in b.iter().enumerate() {
             let p = w::<P>(prev[k]);
-            let (fl, ce) = (n.div_euclid(total as i128), -(-n).div_euclid(total as i128));
-            let held = w::<P>(e) != 0 && hold_min != 0 && q >= hold_min as i128 && (p == fl || p == ce) && p.abs() <= q;
-            let want = if held { p } else { (n / total as i128).clamp(lo, hi) };
+            let (f, c) = (fl - w::<P>(*bk), fl - w::<P>(*bk) + nz);
+            let held = e2 != 0 && hold_min != 0 && q >= hold_min as i128 && (p == f || p == c) && p.abs() <= q;
+            let want = if held { p } else { cheap[k] };
             prop_assert_eq!(w::<P>(a[k]), want, "held port {} hold_min {} prev {}", k, hold_min, p);
         }
     }
@@ -246,7 +296,7 @@ proptest! {
     }
 
     #[test]
-    fn node_is_exact_then_truncated((ports, src, shunt, strong) in node_inputs()) {
+    fn node_is_the_cheap_rule_and_passive((ports, src, shunt, strong) in node_inputs()) {
         check_node::<Wide>(&ports, src, shunt, strong)?;
         check_node::<Narrow>(&ports, src, shunt, strong)?;
     }
@@ -264,17 +314,23 @@ proptest! {
     }
 
     #[test]
-    fn reciprocal_is_floor_and_normalized(t in 2u64..u64::MAX) {
-        for bits in [16u32, 32] {
-            let (r, s) = reciprocal(t, bits).unwrap();
+    fn reciprocal_is_rounded_down_and_normalized(t in 2u64..u64::MAX) {
+        for (bits, strict) in [(16u32, false), (32, true)] {
+            let (r, s) = reciprocal(t, bits, strict).unwrap();
             if r == 0 {
                 prop_assert_eq!(s, 0);
                 continue;
             }
             let p = bits + s;
             prop_assert!(r >> (bits - 1) == 1);
-            prop_assert!((r as u128) * t as u128 <= 1u128 << p);
-            prop_assert!((r as u128 + 1) * t as u128 > 1u128 << p);
+            let (rt, one) = ((r as u128) * (t as u128), 1u128 << p);
+            if strict {
+                // r·t < 2^p <= (r + 1)·t: strictly below 2^p/t, and the largest such r.
+                prop_assert!(rt < one && rt + t as u128 >= one);
+            } else {
+                // r <= 2^p/t < r + 1
+                prop_assert!(rt <= one && rt + t as u128 > one);
+            }
         }
     }
 }

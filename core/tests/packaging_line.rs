@@ -24,8 +24,8 @@ type Tier<P> =
 
 /// Samples before the window: the slowest transient of this plant is the standing wave on the
 /// 370 m trunk (round trip 3.9k samples, |Γ| = 0.55 at the PLC end, so a factor 10 takes about
-/// 15k samples); measured, every output stays in its final band from sample 65 920 (narrow)
-/// and 76 104 (wide) on
+/// 15k samples); measured, every output stays in its final band from sample 41 207 (narrow)
+/// and 87 433 (wide) on
 /// (`cargo test -p tidewire-core --test packaging_line -- --nocapture`).
 const TRANSIENT: usize = 120_000;
 /// Samples the band is measured over.
@@ -62,7 +62,8 @@ fn the_packaging_line_settles_under_its_constant_drive() {
     println!("narrow bands {narrow:?} from sample {from_n}; wide bands {wide:?} from sample {from_w}");
     // Measured with whole-sample delays: narrow [0, 0, 2, 0, 0] (0.38 mV), wide all 0; before
     // the hold rule narrow went up to 40 codes. With the fractional-delay allpasses this plant
-    // now has, narrow measures [6, 28, 21, 19, 6]: the hold rule acts at nodes only, and the
+    // now has, narrow measures [6, 28, 21, 19, 6] (unchanged since the Wide node rule lost its
+    // correction steps; the narrow node is exact as before): the hold rule acts at nodes only, and the
     // lattice's truncation toward zero lets a deviation circulate around the working point
     // (open work, README "Limits"). This bound guards against it growing; it is not the aim
     // of "a few codes".

@@ -35,8 +35,11 @@ type Tier<P> = Solver<P, 64, 32, 16384, 64>;
 /// The band (I/O codes, peak to peak) every output must stay within after the transient,
 /// wide profile. Measured, not derived (see the table above): at most 1 code in 513 plants.
 const BAND_WIDE: i64 = 1;
-/// The same for the narrow profile: measured, at most 32 codes in 513 plants (95 % within 4
-/// codes); 40 is allowed. This is the aim missed, by up to 28 codes beyond "a few".
+/// The same for the narrow profile: measured, at most 34 codes in 513 plants (95 % within 4
+/// codes); 40 is allowed. This is the aim missed, by up to 28 codes beyond "a few". A random
+/// case found on 2 Dec 2026 exceeds it (44 codes and more after shrinking) with the core of
+/// commit 602e3ba as well, so that bound is an observed one that random runs can break
+/// (docs/firmware.md, "The node rule without correction steps").
 const BAND_NARROW: i64 = 40;
 
 fn config() -> ProptestConfig {

@@ -35,7 +35,7 @@ use crate::solver::{JunctionRt, LossRt};
 
 /// A node record with the sum and smallest of its port weights (without the source).
 pub(crate) fn node_ok<P: Profile>(rt: &JunctionRt, port_sum: u64, port_min: u64) -> bool {
-    let JunctionRt::Node { g_src, g_ports, recip, shift, total, mode, short, broken, hold, .. } = *rt else {
+    let JunctionRt::Node { count, g_src, g_ports, recip, shift, total, mode, short, broken, hold, .. } = *rt else {
         return false;
     };
     let Some(with_src) = port_sum.checked_add(u64::from(g_src)) else {
@@ -46,10 +46,10 @@ pub(crate) fn node_ok<P: Profile>(rt: &JunctionRt, port_sum: u64, port_min: u64)
         && with_src <= 1u64 << P::WEIGHT_BITS
         && total >= with_src
         && total <= P::TOTAL_MAX;
-    let division = short || reciprocal(total, P::RECIP_BITS) == Some((recip, shift));
+    let division = short || reciprocal(total, P::RECIP_BITS, !P::EXACT_NODE) == Some((recip, shift));
     // The hold threshold is the one that keeps the held node passive (or 0, never).
     let held = hold == 0 || (!short && hold == hold_threshold::<P>(g_ports, g_src, total));
-    let mode_ok = mode == super::mode_of(short, broken);
+    let mode_ok = mode == super::mode_of(short, broken, super::lone_open(count, g_src, g_ports, total, short));
     coefficients && division && held && mode_ok
 }
 

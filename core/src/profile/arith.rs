@@ -24,9 +24,18 @@ pub(crate) trait Acc: Sized {
     fn mul_diff(c: u32, x: Self::W, y: Self::W) -> Self;
     /// A threshold in wave LSB, saturated to the accumulator's range.
     fn from_u32(x: u32) -> Self;
-    /// floor(|acc| / total) and (remainder != 0) as 0/1, from the node's reciprocal (see
-    /// [`super::reciprocal`]) and two exact correction steps.
-    fn floor_div_abs(acc: Self, recip: u32, shift: u32, total: u64) -> (Self, Self);
+    /// The node quotient of the cheap rule (see `Profile::node_scatter`):
+    /// q = floor(|acc|·recip / 2^(RECIP_BITS+shift)) (< |acc|/total for acc != 0, by the
+    /// reciprocal's rounding), capped at 2^31 − 1 (a smaller |v'| is as passive, and the
+    /// node's floor −q − 1 then fits an i32), and nz = (acc != 0) as 0/1: the node voltage
+    /// v' = sign·(q + ε) always has a fraction when acc != 0.
+    fn quotient_abs(acc: Self, recip: u32, shift: u32, total: u64) -> (i32, i32);
+    /// One outgoing wave from the node's floor fl = floor(v') and nz: trunc(v' − b) toward
+    /// zero, v' − b = (fl − b) + fraction, saturated. Wide saturates first, s = sat(fl − b),
+    /// then adds 1 where s < 0 and nz: one instruction on the M4 (`QSUB`) instead of a 64-bit
+    /// clamp; where fl − b is below the wave range the result is MIN + nz, still no larger in
+    /// magnitude than v' − b. Narrow adds first and saturates after (exact in i32).
+    fn port(fl: i32, b: Self::W, nz: i32) -> Self::W;
 }
 
 impl Acc for i64 {
@@ -47,10 +56,16 @@ impl Acc for i64 {
         i64::from(x)
     }
     #[inline(always)]
-    fn floor_div_abs(acc: i64, recip: u32, shift: u32, total: u64) -> (i64, i64) {
-        // |acc| <= 2^62 and total >= 2: q < 2^61, exact as i64.
-        let (q, nz) = super::floor_div64(acc.unsigned_abs(), recip, shift, total);
-        (q as i64, nz as i64)
+    fn quotient_abs(acc: i64, recip: u32, shift: u32, _total: u64) -> (i32, i32) {
+        // |acc| <= 2^62: q < 2^61, capped to 2^31 − 1, so the cast is exact.
+        let q = super::quotient64(acc.unsigned_abs(), recip, shift).min(i32::MAX as u64);
+        (q as i32, (acc != 0) as i32)
+    }
+    #[inline(always)]
+    fn port(fl: i32, b: i32, nz: i32) -> i32 {
+        let s = fl.saturating_sub(b);
+        // s < 0 adds nz (0 or 1): no overflow.
+        s.wrapping_add((s >> 31) & nz)
     }
 }
 
@@ -70,10 +85,19 @@ impl Acc for i32 {
         i32::try_from(x).unwrap_or(i32::MAX)
     }
     #[inline(always)]
-    fn floor_div_abs(acc: i32, recip: u32, shift: u32, total: u64) -> (i32, i32) {
-        // |acc| <= 2^30 and total < 2^30 (the narrow node budget): q < 2^29.
+    fn quotient_abs(acc: i32, recip: u32, shift: u32, total: u64) -> (i32, i32) {
+        // Narrow divides exactly (see `super::floor_div32`): |acc| <= 2^30 and total >= 2,
+        // so q <= 2^29, below the cap, exact as i32; total < 2^30 fits u32.
         let (q, nz) = super::floor_div32(acc.unsigned_abs(), recip, shift, total as u32);
         (q as i32, nz as i32)
+    }
+    #[inline(always)]
+    fn port(fl: i32, b: i16, nz: i32) -> i16 {
+        // |fl| <= 2^29 + 1 and |b| <= 2^15: the difference and the increment are exact in
+        // i32, so Narrow truncates the exact value and then saturates (the exact node's
+        // outputs, bit for bit as before the Wide rule changed).
+        let m = fl.wrapping_sub(i32::from(b));
+        super::sat_i16(m.wrapping_add((m >> 31) & nz))
     }
 }
 
@@ -176,19 +200,18 @@ macro_rules! junction_rules {
                 acc = acc.wrapping_add(<A as Acc>::mul(*gk, *bk));
             }
             let acc = acc.wrapping_shl(1).wrapping_add(<A as Acc>::mul(g_src, e));
-            let (q, nz) = <A as Acc>::floor_div_abs(acc, recip, shift, total);
-            // floor(acc/total): q for acc >= 0, −(q + nz) for acc < 0, by the branch-free
-            // negation (x ^ mask) − mask.
-            let neg = (acc < 0) as A;
+            // q = |floor(v')| for N > 0 (|floor(v')| − 1 for N < 0), nz = [N != 0]: v' =
+            // sign(N)·(q + ε) has the floor q for N > 0 and −(q + 1) for N < 0, by the
+            // branch-free negation (x ^ mask) − mask.
+            let (q, nz) = <A as Acc>::quotient_abs(acc, recip, shift, total);
+            let neg = (acc < 0) as i32;
             let mask = neg.wrapping_neg();
+            // q + 1 <= 2^31: wrapping, (2^31 ^ −1) + 1 is −2^31 exactly.
             let fl = (q.wrapping_add(nz & neg) ^ mask).wrapping_sub(mask);
             if hold_min == 0 {
                 // No shunt: the plain rule (a branch on the configuration, not on data).
                 for (ak, bk) in a.iter_mut().zip(b.iter()) {
-                    // v − b = (fl − b) + frac, frac > 0 iff nz: truncation toward zero adds
-                    // 1 to a negative integer part when there is a fraction.
-                    let m = fl.wrapping_sub(A::from(*bk));
-                    *ak = $sat(m.wrapping_add(((m < 0) as A) & nz));
+                    *ak = <A as Acc>::port(fl, *bk, nz);
                 }
                 return;
             }
@@ -199,20 +222,20 @@ macro_rules! junction_rules {
             let bits = <A>::BITS - 1;
             let nonneg = |x: A| !(x >> bits);
             let e_a = A::from(e);
+            let (q, nz_a) = (A::from(q), A::from(nz));
             // driven (e != 0) and q >= hold_min: a node-wide mask.
             let node = ((e_a | e_a.wrapping_neg()) >> bits) & nonneg(q.wrapping_sub(<A as Acc>::from_u32(hold_min)));
             for (ak, bk) in a.iter_mut().zip(b.iter()) {
-                // v − b = (fl − b) + frac, frac > 0 iff nz: the floor is m, the ceiling m + nz;
-                // truncation toward zero takes the ceiling of a negative value.
-                let m = fl.wrapping_sub(A::from(*bk));
-                let t = A::from($sat(m.wrapping_add(((m < 0) as A) & nz)));
+                // v' − b = (fl − b) + frac, frac > 0 iff nz: the floor is m, the ceiling m + nz.
+                let m = A::from(fl).wrapping_sub(A::from(*bk));
+                let t = A::from(<A as Acc>::port(fl, *bk, nz));
                 // Held when the previous wave is the floor or the ceiling (prev − m in
                 // {0, nz}) and |prev| <= q.
                 let prev = A::from(*ak);
                 let d = prev.wrapping_sub(m);
                 let keep = node
                     & nonneg(d)
-                    & nonneg(nz.wrapping_sub(d))
+                    & nonneg(nz_a.wrapping_sub(d))
                     & nonneg(q.wrapping_sub(prev))
                     & nonneg(q.wrapping_add(prev));
                 // Both candidates are waves, so the cast is exact.

@@ -219,7 +219,7 @@ pub mod specialised {
             self.mem[(n.wrapping_add(3926) & MASK) as usize] = a15;
             let b16: W = self.mem[(n.wrapping_add(843) & MASK) as usize];
             // junction 6: node of 1 port(s), fixed
-            let [a16] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b16], &[2236u32], &mut o, e, 0u32, 60025u32, 11u32, 2236u64); o };
+            let [a16] = [b16];
             self.mem[(n.wrapping_add(3849) & MASK) as usize] = a16;
             let b17: W = self.mem[(n.wrapping_add(894) & MASK) as usize];
             let b18: W = self.b[6];

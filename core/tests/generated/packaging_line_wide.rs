@@ -219,7 +219,7 @@ pub mod specialised {
             self.mem[(n.wrapping_add(3926) & MASK) as usize] = a15;
             let b16: W = self.mem[(n.wrapping_add(843) & MASK) as usize];
             // junction 6: node of 1 port(s), fixed
-            let [a16] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b16], &[146601550u32], &mut o, e, 0u32, 3932160009u32, 27u32, 146601550u64); o };
+            let [a16] = [b16];
             self.mem[(n.wrapping_add(3849) & MASK) as usize] = a16;
             let b17: W = self.mem[(n.wrapping_add(894) & MASK) as usize];
             let b18: W = self.b[6];

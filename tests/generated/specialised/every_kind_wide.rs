@@ -105,9 +105,9 @@ pub mod specialised {
     const PROBES: usize = 4;
     const HIST: usize = 0;
     const INITIAL_NODES: [NodeCoef; 3] = [
-        NodeCoef { recip: 0, shift: 0, total: 234562480, short: true, broken: false, hold: 0 },
-        NodeCoef { recip: 2457600006, shift: 27, total: 234562480, short: false, broken: false, hold: 0 },
-        NodeCoef { recip: 3276800008, shift: 28, total: 351843720, short: false, broken: false, hold: 0 },
+        NodeCoef { recip: 0, shift: 0, total: 234562480, short: true, broken: false, open: false, hold: 0 },
+        NodeCoef { recip: 2457600006, shift: 27, total: 234562480, short: false, broken: false, open: true, hold: 0 },
+        NodeCoef { recip: 3276800008, shift: 28, total: 351843720, short: false, broken: false, open: false, hold: 0 },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -162,13 +162,13 @@ pub mod specialised {
             let b6: W = self.b[6];
             // junction 2: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
-            let [a6] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b6], &[234562480u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.broken { [b6] } else { [P::neg(b6)] };
+            let [a6] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b6], &[234562480u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b6] } else { [P::neg(b6)] };
             self.mem[(n.wrapping_add(21) & MASK) as usize] = a6;
             self.held[0] = a6;
             let b7: W = self.b[7];
             // junction 3: node of 1 port(s), switched by the plant's events
             let c = self.nodes[1];
-            let [a7] = if c.scatters() { { let mut o = [self.held[1]]; P::node_scatter_held(&[b7], &[234562480u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.broken { [b7] } else { [P::neg(b7)] };
+            let [a7] = if c.scatters() { { let mut o = [self.held[1]]; P::node_scatter_held(&[b7], &[234562480u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b7] } else { [P::neg(b7)] };
             self.mem[(n.wrapping_add(25) & MASK) as usize] = a7;
             self.held[1] = a7;
             let b8: W = self.b[8];
@@ -228,7 +228,7 @@ pub mod specialised {
             let b24: W = self.b[24];
             // junction 11: node of 2 port(s), switched by the plant's events
             let c = self.nodes[2];
-            let [a23, a24] = if c.scatters() { { let mut o = [self.held[7], self.held[8]]; P::node_scatter_held(&[b23, b24], &[175921860u32, 175921860u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.broken { [b23, b24] } else { [P::neg(b23), P::neg(b24)] };
+            let [a23, a24] = if c.scatters() { { let mut o = [self.held[7], self.held[8]]; P::node_scatter_held(&[b23, b24], &[175921860u32, 175921860u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b23, b24] } else { [P::neg(b23), P::neg(b24)] };
             self.mem[(n.wrapping_add(148) & MASK) as usize] = a23;
             self.held[7] = a23;
             self.mem[(n.wrapping_add(151) & MASK) as usize] = a24;

@@ -62,7 +62,7 @@ pub mod specialised {
     const PROBES: usize = 1;
     const HIST: usize = 0;
     const INITIAL_NODES: [NodeCoef; 1] = [
-        NodeCoef { recip: 3276800008, shift: 29, total: 703687440, short: false, broken: false, hold: 2 },
+        NodeCoef { recip: 3276800008, shift: 29, total: 703687440, short: false, broken: false, open: false, hold: 2 },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -105,7 +105,7 @@ pub mod specialised {
             let b1: W = self.mem[(n.wrapping_add(501) & MASK) as usize];
             // junction 1: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
-            let [a1] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b1], &[351843720u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.broken { [b1] } else { [P::neg(b1)] };
+            let [a1] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b1], &[351843720u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b1] } else { [P::neg(b1)] };
             self.mem[(n.wrapping_add(500) & MASK) as usize] = a1;
             self.held[0] = a1;
             self.probes[0] = P::sum(a1, b1);

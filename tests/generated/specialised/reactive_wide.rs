@@ -79,8 +79,8 @@ pub mod specialised {
     const PROBES: usize = 4;
     const HIST: usize = 0;
     const INITIAL_NODES: [NodeCoef; 2] = [
-        NodeCoef { recip: 3069375393, shift: 27, total: 187810443, short: false, broken: false, hold: 0 },
-        NodeCoef { recip: 2316131729, shift: 29, total: 995557800, short: false, broken: false, hold: 148 },
+        NodeCoef { recip: 3069375393, shift: 27, total: 187810443, short: false, broken: false, open: false, hold: 0 },
+        NodeCoef { recip: 2316131729, shift: 29, total: 995557800, short: false, broken: false, open: false, hold: 148 },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -127,7 +127,7 @@ pub mod specialised {
             let b5: W = self.b[1];
             // junction 1: node of 5 port(s), switched by the plant's events
             let c = self.nodes[0];
-            let [a1, a2, a3, a4, a5] = if c.scatters() { { let mut o = [self.held[0], self.held[1], self.held[2], self.held[3], self.held[4]]; P::node_scatter_held(&[b1, b2, b3, b4, b5], &[43980465u32, 43980465u32, 29320310u32, 4886718u32, 65642485u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.broken { [b1, b2, b3, b4, b5] } else { [P::neg(b1), P::neg(b2), P::neg(b3), P::neg(b4), P::neg(b5)] };
+            let [a1, a2, a3, a4, a5] = if c.scatters() { { let mut o = [self.held[0], self.held[1], self.held[2], self.held[3], self.held[4]]; P::node_scatter_held(&[b1, b2, b3, b4, b5], &[43980465u32, 43980465u32, 29320310u32, 4886718u32, 65642485u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b1, b2, b3, b4, b5] } else { [P::neg(b1), P::neg(b2), P::neg(b3), P::neg(b4), P::neg(b5)] };
             self.mem[(n.wrapping_add(5) & MASK) as usize] = a1;
             self.held[0] = a1;
             self.mem[(n.wrapping_add(27) & MASK) as usize] = a2;
@@ -152,7 +152,7 @@ pub mod specialised {
             let b10: W = self.b[2];
             // junction 3: node of 3 port(s), switched by the plant's events
             let c = self.nodes[1];
-            let [a8, a9, a10] = if c.scatters() { { let mut o = [self.held[5], self.held[6], self.held[7]]; P::node_scatter_held(&[b8, b9, b10], &[29320310u32, 73300775u32, 879609302u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.broken { [b8, b9, b10] } else { [P::neg(b8), P::neg(b9), P::neg(b10)] };
+            let [a8, a9, a10] = if c.scatters() { { let mut o = [self.held[5], self.held[6], self.held[7]]; P::node_scatter_held(&[b8, b9, b10], &[29320310u32, 73300775u32, 879609302u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b8, b9, b10] } else { [P::neg(b8), P::neg(b9), P::neg(b10)] };
             self.mem[(n.wrapping_add(23) & MASK) as usize] = a8;
             self.held[5] = a8;
             self.mem[(n.wrapping_add(71) & MASK) as usize] = a9;

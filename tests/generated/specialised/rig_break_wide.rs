@@ -75,7 +75,7 @@ pub mod specialised {
     const PROBES: usize = 2;
     const HIST: usize = 64;
     const INITIAL_NODES: [NodeCoef; 1] = [
-        NodeCoef { recip: 3932160009, shift: 29, total: 586406200, short: false, broken: false, hold: 0 },
+        NodeCoef { recip: 3932160009, shift: 29, total: 586406200, short: false, broken: false, open: false, hold: 0 },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -145,7 +145,7 @@ pub mod specialised {
             let b9: W = self.mem[(n.wrapping_add(79) & MASK) as usize];
             // junction 5: node of 2 port(s), switched by the plant's events
             let c = self.nodes[0];
-            let [a8, a9] = if c.scatters() { { let mut o = [self.held[1], self.held[2]]; P::node_scatter_held(&[b8, b9], &[293203100u32, 293203100u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.broken { [b8, b9] } else { [P::neg(b8), P::neg(b9)] };
+            let [a8, a9] = if c.scatters() { { let mut o = [self.held[1], self.held[2]]; P::node_scatter_held(&[b8, b9], &[293203100u32, 293203100u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b8, b9] } else { [P::neg(b8), P::neg(b9)] };
             self.mem[(n.wrapping_add(94) & MASK) as usize] = a8;
             self.held[1] = a8;
             self.mem[(n.wrapping_add(103) & MASK) as usize] = a9;

@@ -92,7 +92,7 @@ fn node(
     };
     match cx.switch_slot {
         None => {
-            let body = if coef.broken {
+            let body = if coef.reflects() {
                 format!("[{b}]")
             } else if coef.short {
                 format!("[{neg}]")
@@ -113,7 +113,7 @@ fn node(
             let _ = writeln!(s, "        let c = self.nodes[{k}];");
             let _ = writeln!(
                 s,
-                "        let [{a}] = if c.scatters() {{ {} }} else if c.broken {{ [{b}] }} else {{ [{neg}] }};",
+                "        let [{a}] = if c.scatters() {{ {} }} else if c.reflects() {{ [{b}] }} else {{ [{neg}] }};",
                 scatter("c.recip", "c.shift", "c.total", Some("c.hold"))
             );
         }

@@ -194,8 +194,8 @@ impl Writer<'_> {
             if let JunctionPlan::Node { coef: c, .. } = jp {
                 let _ = writeln!(
                     s,
-                    "        NodeCoef {{ recip: {}, shift: {}, total: {}, short: {}, broken: {}, hold: {} }},",
-                    c.recip, c.shift, c.total, c.short, c.broken, c.hold
+                    "        NodeCoef {{ recip: {}, shift: {}, total: {}, short: {}, broken: {}, open: {}, hold: {} }},",
+                    c.recip, c.shift, c.total, c.short, c.broken, c.open, c.hold
                 );
             }
         }
