@@ -109,3 +109,77 @@ fn simulate_checks_its_samples_before_compiling_the_plant() {
     assert!(!out.exists(), "no output is left behind");
     std::fs::remove_dir_all(&d).unwrap();
 }
+
+/// Every file in `dir` with its contents.
+fn snapshot(dir: &Path) -> Vec<(String, Vec<u8>)> {
+    let mut v: Vec<(String, Vec<u8>)> = std::fs::read_dir(dir)
+        .unwrap()
+        .map(|e| e.unwrap().path())
+        .map(|p| (p.file_name().unwrap().to_string_lossy().into_owned(), std::fs::read(&p).unwrap_or_default()))
+        .collect();
+    v.sort();
+    v
+}
+
+#[test]
+fn resource_limits_exit_2_with_a_clear_message_and_touch_nothing() {
+    // The issue's hostile resource cases through the command: each exits 2 with a message
+    // saying what is too large, no panic text, the plant and an existing output intact and
+    // no temporary left (the folder is byte-for-byte the same).
+    const PLANT: &str = "[plant]\nname = \"limits\"\nsample_rate = \"100 MHz\"\nduration = \"40 us\"\n\
+        [node.a]\n[node.b]\nload = \"120 ohm\"\n[[segment]]\nname = \"run\"\nfrom = \"a\"\nto = \"b\"\n\
+        cable = \"twisted-pair-120\"\nlength = \"20 m\"\n[drive]\nkind = \"source\"\nnode = \"a\"\n\
+        resistance = \"120 ohm\"\nwaveform = { step = \"5 V\", rise = \"20 ns\" }\n[[probe]]\nname = \"far\"\nnode = \"b\"\n";
+    let d = std::env::temp_dir().join(format!("tidewire-limits-res-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&d);
+    std::fs::create_dir_all(&d).unwrap();
+    let out = d.join("out.csv");
+    std::fs::write(&out, "an older run\n").unwrap();
+    let cases: [(&str, &str, &[&str], &str); 5] = [
+        (
+            "sample_rate = \"100 MHz\"\nduration = \"40 us\"",
+            "sample_rate = \"1e17 Hz\"\nduration = \"1 fs\"",
+            &["simulate"],
+            "delay storage",
+        ),
+        ("duration = \"40 us\"", "duration = \"1 s\"", &["verify"], "at most 10000000 samples"),
+        ("length = \"20 m\"", "length = \"1e12 m\"", &["simulate"], "delay storage"),
+        ("{ step = \"5 V\", rise = \"20 ns\" }", "{ samples = \"/dev/zero\" }", &["simulate"], "not a regular file"),
+        (
+            "",
+            "",
+            &["sweep", "--segment", "run", "--probe", "far", "--from", "1 m", "--to", "2 m", "--steps", "100000000"],
+            "--steps must be between 2 and",
+        ),
+    ];
+    for (old, new, cmd, needle) in cases {
+        let p = d.join("plant.toml");
+        std::fs::write(&p, PLANT.replacen(old, new, 1)).unwrap();
+        let before = snapshot(&d);
+        let mut args: Vec<&str> = vec![cmd[0], p.to_str().unwrap()];
+        args.extend(&cmd[1..]);
+        if cmd[0] != "sweep" {
+            args.extend(["--csv", out.to_str().unwrap()]);
+        }
+        let o = Command::cargo_bin("tidewire").unwrap().args(&args).output().unwrap();
+        let err = String::from_utf8_lossy(&o.stderr);
+        assert_eq!(o.status.code(), Some(2), "{args:?}: {err}");
+        assert!(err.contains(needle) && !err.contains("panicked"), "{args:?}: expected {needle:?} in {err}");
+        assert_eq!(snapshot(&d), before, "{args:?}: a file changed or a temporary was left");
+    }
+    std::fs::remove_dir_all(&d).unwrap();
+}
+
+#[test]
+fn the_loss_fit_runs_once_per_cable_and_grid_length_not_per_segment() {
+    // 300 runs of one Cat 5e length: every line is one of a few lengths (a segment's
+    // sections split it the same way each time), so a handful of fits serve 300 segments.
+    let text = chain(300, "100 MHz")
+        .lines()
+        .map(|l| if l.starts_with("length = ") { "length = \"4 m\"".to_string() } else { l.to_string() })
+        .collect::<Vec<_>>()
+        .join("\n");
+    let (r, fits) = prepare_counting(&text);
+    r.unwrap();
+    assert!((1..=4).contains(&fits), "{fits} loss fits for 300 equal segments");
+}

@@ -139,3 +139,36 @@ fn a_window_gives_its_own_peak_and_the_whole_runs_labelled() {
     });
     assert!(smaller.count() > 0, "the window leaves out the edge's peak: {legends:?}");
 }
+
+/// The numbers among an SVG's text elements, in document order, after the first `after`.
+fn numbers_after(svg: &str, after: &str) -> Vec<f64> {
+    let texts: Vec<&str> = svg
+        .split("<text")
+        .skip(1)
+        .filter_map(|t| t.split_once('>').and_then(|(_, rest)| rest.split_once("</text>")).map(|(s, _)| s.trim()))
+        .collect();
+    let start = texts.iter().position(|t| *t == after).unwrap_or_else(|| panic!("no text '{after}'"));
+    texts[start..].iter().take_while(|t| !t.starts_with("event 1")).filter_map(|t| t.parse().ok()).collect()
+}
+
+#[test]
+fn the_irrigation_pictures_run_past_the_break_and_mark_it() {
+    // The example's break is at 6 us of a 20 us run (`verify_verdicts.rs` checks the figures).
+    let dir = tmp("irrigation");
+    let plant = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/plants/irrigation-network.toml");
+    let lattice = dir.join("l.svg");
+    let (legends, max) = verify(&dir, &plant, &["--lattice", lattice.to_str().unwrap()]);
+    let svg = std::fs::read_to_string(dir.join("w.svg")).unwrap();
+    let probes = max.len();
+    // One mark per probe panel, and one in the lattice view.
+    assert_eq!(svg.matches("event 1: segment").count(), probes, "one labelled mark per probe panel");
+    assert!(std::fs::read_to_string(&lattice).unwrap().contains("event 1: segment"), "the lattice marks the break");
+    // The time axis of the first panel reaches well past the break (ticks up to 18 us).
+    let ticks = numbers_after(&svg, "time (µs)");
+    let last = ticks.iter().copied().fold(f64::NAN, f64::max);
+    assert!(last >= 3.0 * 6.0, "the picture stops at {last} us: {ticks:?}");
+    // The error panels' peaks are the verdict's whole-run figures, after the event included.
+    for (l, m) in legends.iter().zip(&max) {
+        assert!(same_to_three_figures(figure(l), *m), "picture {l} against text {m:e}");
+    }
+}
