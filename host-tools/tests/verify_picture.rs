@@ -172,3 +172,39 @@ fn the_irrigation_pictures_run_past_the_break_and_mark_it() {
         assert!(same_to_three_figures(figure(l), *m), "picture {l} against text {m:e}");
     }
 }
+
+/// Rows of a sweep's table (lines that start with a number) and how many say FAIL.
+fn sweep_rows(stdout: &str) -> (usize, usize) {
+    let rows: Vec<&str> =
+        stdout.lines().filter(|l| l.split_whitespace().next().is_some_and(|w| w.parse::<f64>().is_ok())).collect();
+    (rows.len(), rows.iter().filter(|l| l.trim_end().ends_with("FAIL")).count())
+}
+
+#[test]
+fn the_sweep_picture_shows_the_exact_curve_and_rings_exactly_the_failing_points() {
+    let dir = tmp("sweep");
+    let plant = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/plants/drive-to-motor.toml");
+    let svg = dir.join("s.svg");
+    let run = |args: &[&str]| {
+        let mut all = vec!["sweep", plant.to_str().unwrap(), "--probe", "motor terminals"];
+        all.extend(args);
+        all.extend(["--svg", svg.to_str().unwrap()]);
+        let o = Command::cargo_bin("tidewire").unwrap().args(&all).output().unwrap();
+        assert!(o.status.code().is_some_and(|c| c <= 1), "{}", String::from_utf8_lossy(&o.stderr));
+        (String::from_utf8_lossy(&o.stdout).into_owned(), std::fs::read_to_string(&svg).unwrap())
+    };
+    // Lengths from 1 m (shorter than a sample's travel: the short runs miss the plant's 5 %)
+    // to 120 m. Points are drawn as small circles (core and exact, radius 3), failing ones
+    // ringed (radius 8), as `plot/sweep.rs` draws them.
+    let (text, picture) = run(&["--segment", "motor-feed", "--from", "1 m", "--to", "120 m", "--steps", "6"]);
+    let (rows, fails) = sweep_rows(&text);
+    assert_eq!(rows, 6, "{text}");
+    assert!(fails > 0, "some short runs fail the plant's tolerances: {text}");
+    assert_eq!(picture.matches("r=\"8\"").count(), fails, "one ring per failing point");
+    assert_eq!(picture.matches("r=\"3\"").count(), 2 * rows, "core and exact at every point");
+    assert!(picture.contains("exact reference") && picture.contains("fails the plant"), "legend");
+    assert!(picture.contains("critical length") && picture.contains("(m)"), "a length sweep in metres");
+    // A load sweep has no critical length, in the text or the picture.
+    let (text, picture) = run(&["--node", "motor", "--from", "80 ohm", "--to", "8 kohm", "--steps", "3"]);
+    assert!(!text.contains("critical length") && !picture.contains("critical length"), "{text}");
+}
