@@ -65,7 +65,6 @@ fn a_plant_too_big_for_the_host_runner_is_refused_before_any_loss_fit() {
     let rate = e.hint.split('"').nth(1).unwrap_or_else(|| panic!("no rate in {}", e.hint));
     assert!(rate.ends_with("Hz"), "{e}");
     let hinted = text.replacen("sample_rate = \"250 MHz\"", &format!("sample_rate = \"{rate}\""), 1);
-    sense::before_fits(&parse(&hinted), "chain.toml", ProfileKind::Wide).unwrap();
     let (r, fits) = prepare_counting(&hinted);
     r.unwrap_or_else(|e| panic!("the hinted rate {rate} still fails: {e}"));
     assert!(fits > 0, "the counter counts fits (a plant that fits runs them)");
@@ -83,12 +82,17 @@ fn the_split_hint_names_a_segment_up_to_which_the_plant_fits() {
 
 #[test]
 fn simulate_checks_its_samples_before_compiling_the_plant() {
-    // The plant alone is refused for its size; a hopeless --samples is reported first,
-    // because it is checked from the plant file before any compiling.
+    // The plant alone is refused for its size (a run of 1e9 m: more delay storage than the
+    // host runner has); a hopeless --samples is reported first, because it is checked from
+    // the plant file before any compiling.
     let d = std::env::temp_dir().join(format!("tidewire-limits-{}", std::process::id()));
     std::fs::create_dir_all(&d).unwrap();
     let p = d.join("chain.toml");
-    std::fs::write(&p, chain(1500, "250 MHz")).unwrap();
+    let one = chain(1, "250 MHz");
+    let huge: Vec<&str> =
+        one.lines().map(|l| if l.starts_with("length = ") { "length = \"1e9 m\"" } else { l }).collect();
+    let huge = huge.join("\n");
+    std::fs::write(&p, huge).unwrap();
     let out = d.join("out.csv");
     let run = |samples: &str| {
         Command::cargo_bin("tidewire")
