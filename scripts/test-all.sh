@@ -5,7 +5,22 @@
 set -euo pipefail
 cd "$(dirname "$0")/.."
 
-step() { printf '\n==> %s\n' "$*"; }
+# Each step's wall time, printed as it ends and summed up at the end, so that what
+# dominates the command is visible in its own output.
+step_name=""
+step_start=$SECONDS
+timings=()
+end_step() {
+  if [ -n "$step_name" ]; then
+    timings+=("$(printf '%5d s  %s' $((SECONDS - step_start)) "$step_name")")
+  fi
+}
+step() {
+  end_step
+  step_name="$*"
+  step_start=$SECONDS
+  printf '\n==> %s\n' "$*"
+}
 
 step "what this script cannot install"
 # A Rust toolchain at least as new as the workspace's rust-version (one fact, one place:
@@ -86,5 +101,7 @@ step "main job on the built-in demo plant"
 # minutes on a fresh clone for a demo that runs in seconds in either profile (same output).
 cargo run -p tidewire-host -- demo --out target/demo-check
 
+end_step
 echo
-echo "all checks passed"
+printf '%s\n' "${timings[@]}"
+echo "all checks passed in $SECONDS s"
