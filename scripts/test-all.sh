@@ -92,7 +92,8 @@ cargo run -p xtask -- rig
 step "rig firmware for the reference board (STM32F407 Discovery; build only)"
 # Into the emulated rig's target folder (the path `xtask rig` uses): both are thumbv7em
 # release builds with the same profile, so the core, the link and the cortex-m crates the
-# rig step compiled are reused instead of compiled a third time.
+# rig step compiled are reused instead of compiled again (107 s alone, 68 s after the rig,
+# fresh targets).
 rig_target="${CARGO_TARGET_DIR:+$CARGO_TARGET_DIR/rig-fw}"
 (cd examples/rig-board && CARGO_TARGET_DIR="${rig_target:-$PWD/../rig/target}" cargo build --release)
 

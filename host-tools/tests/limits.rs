@@ -139,7 +139,7 @@ fn resource_limits_exit_2_with_a_clear_message_and_touch_nothing() {
     std::fs::create_dir_all(&d).unwrap();
     let out = d.join("out.csv");
     std::fs::write(&out, "an older run\n").unwrap();
-    let cases: [(&str, &str, &[&str], &str); 5] = [
+    let cases: [(&str, &str, &[&str], &str); 6] = [
         (
             "sample_rate = \"100 MHz\"\nduration = \"40 us\"",
             "sample_rate = \"1e17 Hz\"\nduration = \"1 fs\"",
@@ -154,6 +154,12 @@ fn resource_limits_exit_2_with_a_clear_message_and_touch_nothing() {
             "",
             &["sweep", "--segment", "run", "--probe", "far", "--from", "1 m", "--to", "2 m", "--steps", "100000000"],
             "--steps must be between 2 and",
+        ),
+        (
+            "",
+            "",
+            &["sweep", "--segment", "run", "--probe", "far", "--from", "1 m", "--to", "1e12 m", "--steps", "1000"],
+            "delay storage",
         ),
     ];
     for (old, new, cmd, needle) in cases {

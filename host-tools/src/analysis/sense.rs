@@ -23,6 +23,12 @@ pub fn before_fits(plant: &Plant, file: &str, profile: ProfileKind) -> Result<()
     if plant.cables.iter().all(|c| c.loss.is_none()) {
         return Ok(());
     }
+    fits_host_runner(plant, file, profile)
+}
+
+/// The plant laid out without loss fits and checked against the host runner's capacity:
+/// for a caller about to run many plants (a sweep), a refusal before any of them runs.
+pub fn fits_host_runner(plant: &Plant, file: &str, profile: ProfileKind) -> Result<(), PlantError> {
     let laid = lay_out(plant, file, profile)?;
     // The layout leaves out the whole samples a lossy line gains for its dispersion (they
     // only add storage) but also the sub-sample shift that dispersion gives a segment's
