@@ -12,6 +12,8 @@ use tidewire_core::{Narrow, Profile, Solver, Wide};
 pub const HOST_PORTS: usize = 4096;
 pub const HOST_JUNCTIONS: usize = 2048;
 pub const HOST_MEMORY: usize = 1 << 21;
+/// Loss records (a line's loss filter and fractional delay): one per line end is room for all.
+pub const HOST_LOSSES: usize = HOST_PORTS;
 
 /// Why a host run failed.
 #[derive(Debug, Clone, PartialEq, thiserror::Error)]
@@ -97,11 +99,11 @@ pub fn run_core_with(
             .stack_size(64 << 20)
             .spawn_scoped(scope, || match c.profile {
                 ProfileKind::Wide => {
-                    let mut s = Box::new(Solver::<Wide, HOST_PORTS, HOST_JUNCTIONS, HOST_MEMORY, HOST_PORTS>::new());
+                    let mut s = Box::new(Solver::<Wide, HOST_PORTS, HOST_JUNCTIONS, HOST_MEMORY, HOST_LOSSES>::new());
                     drive(&mut s, c, samples, record, sink)
                 }
                 ProfileKind::Narrow => {
-                    let mut s = Box::new(Solver::<Narrow, HOST_PORTS, HOST_JUNCTIONS, HOST_MEMORY, HOST_PORTS>::new());
+                    let mut s = Box::new(Solver::<Narrow, HOST_PORTS, HOST_JUNCTIONS, HOST_MEMORY, HOST_LOSSES>::new());
                     drive(&mut s, c, samples, record, sink)
                 }
             })

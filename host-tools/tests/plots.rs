@@ -128,6 +128,7 @@ fn waveforms_svg_has_axes_legend_traces_and_error_panel() {
             emulated: Series { label: "emulated", values: &emulated },
             reference: Series { label: "exact reference", values: &reference },
             extra: vec![Series { label: "cable midpoint", values: &midpoint }],
+            whole_run_peak: None,
         },
         WaveformPlot {
             title: "drive output current",
@@ -137,6 +138,7 @@ fn waveforms_svg_has_axes_legend_traces_and_error_panel() {
             emulated: Series { label: "emulated", values: &source_emu },
             reference: Series { label: "exact reference", values: &source_ref },
             extra: vec![],
+            whole_run_peak: None,
         },
     ];
     let path = dir.join("bench_step.svg");
@@ -177,6 +179,7 @@ fn waveform_time_unit_follows_the_range() {
             emulated: Series { label: "emulated", values: &v },
             reference: Series { label: "reference", values: &v },
             extra: vec![],
+            whole_run_peak: None,
         };
         let path = dir.join(format!("unit_{dt}.svg"));
         write_waveforms(&path, &[plot]).expect("write");
@@ -202,6 +205,7 @@ fn long_trace_is_decimated_to_a_small_file() {
         emulated: Series { label: "emulated", values: &emulated },
         reference: Series { label: "reference", values: &reference },
         extra: vec![],
+        whole_run_peak: None,
     };
     let path = dir.join("long.svg");
     write_waveforms(&path, &[plot]).expect("write");
@@ -261,6 +265,7 @@ fn write_into_missing_directory_fails_and_leaves_nothing() {
         emulated: Series { label: "e", values: &v },
         reference: Series { label: "r", values: &v },
         extra: vec![],
+        whole_run_peak: None,
     };
     let err = write_waveforms(&path, std::slice::from_ref(&plot)).expect_err("must fail");
     assert!(matches!(err, PlotError::Io { .. }), "{err:?}");
@@ -286,6 +291,7 @@ fn bad_data_is_an_error_naming_series_and_sample() {
         emulated: Series { label: "emulated", values: &bad },
         reference: Series { label: "reference", values: &good },
         extra: vec![],
+        whole_run_peak: None,
     };
     let path = dir.join("nan.svg");
     let msg = write_waveforms(&path, &[plot]).expect_err("NaN").to_string();

@@ -55,6 +55,7 @@ pub fn analyse(c: &mut Compiled, plant: &Plant, file: &str) -> Result<Analysis, 
 /// Compile `plant` for `profile` and analyse it: a configuration ready to load, with its
 /// fixed-point scale, and the figures that needed a run.
 pub fn prepare(plant: &Plant, file: &str, profile: ProfileKind) -> Result<(Compiled, Analysis), PlantError> {
+    sense::before_fits(plant, file, profile)?;
     let mut c = compile(plant, file, profile)?;
     let a = analyse(&mut c, plant, file)?;
     Ok((c, a))

@@ -81,6 +81,11 @@ pub fn sweep(
     values: &[f64],
     profile: ProfileKind,
 ) -> Result<Vec<SweepPoint>, SweepError> {
+    // Limits before work: the plant at each end of the range (a length sets the storage) is
+    // laid out and checked against the host runner before any point runs.
+    for &v in [values.first(), values.last()].into_iter().flatten() {
+        super::sense::fits_host_runner(&parameter.apply(plant, v), file, profile)?;
+    }
     values
         .par_iter()
         .map(|&value| {

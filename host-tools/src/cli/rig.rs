@@ -439,6 +439,7 @@ fn read(
                 emulated: crate::plot::Series { label: "rig capture", values: &captured[k] },
                 reference: crate::plot::Series { label: "host core run", values: &predicted[k] },
                 extra: vec![],
+                whole_run_peak: None,
             })
             .collect();
         crate::plot::write_waveforms(svg, &plots).map_err(|e| bad(e.to_string()))?;

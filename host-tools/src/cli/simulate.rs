@@ -1,6 +1,6 @@
 //! `tidewire simulate`: the real fixed-point core on the host, probes to CSV.
 use super::compile_cmd::progress;
-use super::{io_failure, load_and_prepare, Failure};
+use super::{io_failure, Failure};
 use crate::compile::ProfileKind;
 use crate::host_core::{probe_scales, run_core_with, RunError, SampleOut};
 use crate::runfile;
@@ -116,7 +116,14 @@ pub(super) fn run(
     if samples == Some(0) {
         check_samples(0, 1, 1.0)?;
     }
-    let (plant, c, _) = load_and_prepare(path, profile)?;
+    // The run's length and output size are checked from the plant file alone, before the
+    // plant is compiled and analysed (limits before work).
+    let plant = crate::plant::load_plant(path)?;
+    let per_row = row_bytes(plant.probes.len(), out.csv.is_some(), out.bin.is_some());
+    if let Some(n) = samples {
+        check_samples(n, per_row, 1.0 / plant.sample_rate)?;
+    }
+    let (c, _) = crate::analysis::prepare(&plant, &path.display().to_string(), profile)?;
     let n = check_samples(
         samples.unwrap_or(c.samples as u64),
         row_bytes(c.probe_names.len(), out.csv.is_some(), out.bin.is_some()),

@@ -186,15 +186,19 @@ fn cut<'v>(values: &'v [f64], window: &Range<usize>) -> &'v [f64] {
     values.get(window.start.min(end)..end).unwrap_or(&[])
 }
 
-/// Write the waveform picture of the samples in `window`.
+/// Write the waveform picture of the samples in `window`. Its error panels show core −
+/// exact, the quantity of the verdict's "error vs exact"; when the window is part of the
+/// run, each also gives that probe's whole-run peak (`v`), the figure the verdict quotes.
 pub(crate) fn write_svg(
     path: &Path,
     c: &Compiled,
+    v: &Verification,
     tr: &Traces,
-    marks: &[EventMark],
     window: &Range<usize>,
 ) -> Result<(), Failure> {
     let shown = window.start..window.end.min(tr.exact_len);
+    let partial = shown != (0..tr.exact_len);
+    let marks = event_marks(v);
     let plots: Vec<WaveformPlot> = c
         .probe_names
         .iter()
@@ -207,9 +211,10 @@ pub(crate) fn write_svg(
             emulated: Series { label: "tidewire core", values: cut(&tr.core.recording.probes[k], &shown) },
             reference: Series { label: "exact reference", values: cut(&tr.exact[k], &shown) },
             extra: vec![],
+            whole_run_peak: partial.then(|| v.probes.get(k).map_or(0.0, |p| p.max_error)),
         })
         .collect();
-    write_waveforms_marked(path, &plots, marks).map_err(|e| io_failure(path, e))
+    write_waveforms_marked(path, &plots, &marks).map_err(|e| io_failure(path, e))
 }
 
 /// Write the lattice picture.
@@ -256,7 +261,7 @@ pub(crate) fn verify_and_write(
     let (v, tr) = verify(plant, file, c, &record, &|k| pb.set_position(k as u64))?;
     pb.finish_and_clear();
     if let Some(p) = svg {
-        write_svg(p, c, &tr, &event_marks(&v), &shown)?;
+        write_svg(p, c, &v, &tr, &shown)?;
     }
     if let (Some(p), Some(lp)) = (lat, &lp) {
         write_lattice_svg(p, plant, c, lp, &tr, &event_marks(&v), &shown)?;

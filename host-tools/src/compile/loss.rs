@@ -51,6 +51,12 @@ fn band(fs: f64) -> Vec<f64> {
     (0..64).map(|i| lo * (hi / lo).powf(i as f64 / 63.0)).collect()
 }
 
+/// Whether `length` metres of `cable` at `fs` get a loss filter: the same test [`design`]
+/// starts with, without the fit (for sizing a network before any fit runs).
+pub fn gets_filter(cable: &CableType, length: f64, fs: f64) -> bool {
+    cable.loss.is_some() && band(fs).last().is_some_and(|f| target_db(cable, length, *f) >= NEGLIGIBLE_DB)
+}
+
 /// Target attenuation (dB, positive) of `length` metres of `cable` at `f`, without R_dc.
 pub fn target_db(cable: &CableType, length: f64, f: f64) -> f64 {
     let mut c = cable.clone();
@@ -219,6 +225,17 @@ impl LossDesign {
     }
 }
 
+std::thread_local! {
+    /// Loss fits run on this thread (see [`fits_run_on_this_thread`]).
+    static FITS_RUN: std::cell::Cell<usize> = const { std::cell::Cell::new(0) };
+}
+
+/// How many loss fits [`design`] has run on the calling thread: lets a test show that a
+/// plant refused for its size ran none (compiling runs them on the caller's thread).
+pub fn fits_run_on_this_thread() -> usize {
+    FITS_RUN.with(|n| n.get())
+}
+
 /// Design the loss filter of line `line`, `length` metres of `cable`, at sample rate `fs`
 /// for a profile with `frac` coefficient bits. `None` if the loss is negligible.
 pub fn design(cable: &CableType, length: f64, fs: f64, line: u16, frac: u32) -> Option<LossDesign> {
@@ -229,6 +246,7 @@ pub fn design(cable: &CableType, length: f64, fs: f64, line: u16, frac: u32) -> 
     if edge < NEGLIGIBLE_DB {
         return None;
     }
+    FITS_RUN.with(|k| k.set(k.get() + 1));
     let n = MAX_LOSS_SECTIONS;
     let (lo, hi) = (freqs[0], freqs[freqs.len() - 1]);
     let residuals = |x: &[f64]| -> Vec<f64> {

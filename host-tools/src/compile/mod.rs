@@ -155,6 +155,20 @@ pub(crate) fn err(
 /// scale is one volt per code with no fraction bits until `crate::analysis::analyse` sets
 /// it; use `crate::analysis::prepare` for a configuration ready to load.
 pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compiled, PlantError> {
+    build(plant, file, profile, true)
+}
+
+/// Lay `plant` out without fitting its loss filters, to size it before the fits run (they
+/// are the costly part of compiling a long lossy plant). The result has the full
+/// compile's lines, junctions, elements and loss records (lossy lines carry an empty
+/// record), but not the delay a lossy cable adds for its in-band dispersion, which only
+/// lengthens a line by whole samples (`segments::Builder::add_loss`), and no model-error
+/// report. For sizing only: it is not checked against the core and must not be loaded.
+pub fn lay_out(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compiled, PlantError> {
+    build(plant, file, profile, false)
+}
+
+fn build(plant: &Plant, file: &str, profile: ProfileKind, fit_losses: bool) -> Result<Compiled, PlantError> {
     let dt = 1.0 / plant.sample_rate;
     let exact_samples = (plant.duration / dt).round();
     // Checked before anything is sized by it (the drive's samples, the twin's traces).
@@ -179,6 +193,7 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
         ProfileKind::Narrow => <tidewire_core::Narrow as tidewire_core::Profile>::LOSS_FRAC,
     };
     let mut b = segments::Builder::new(plant, file, dt, frac, fraction::drive_bandwidth(plant, dt));
+    b.fit_losses = fit_losses;
 
     // Every node's own load first, so its errors (a capacitor out of the core's range) come
     // before anything lumping says about the segments.
@@ -410,6 +425,10 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
         probe_names,
         report: Report { segments: report_segments, ..Report::default() },
     };
+    if !fit_losses {
+        report::sizes(&mut compiled);
+        return Ok(compiled);
+    }
     fit_zc(&mut compiled, plant);
     core_check::check(&compiled, plant, file)?;
     report::fill(&mut compiled, plant, &lump);

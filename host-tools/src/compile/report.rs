@@ -206,10 +206,15 @@ pub(super) fn fill(c: &mut Compiled, plant: &Plant, lump: &super::lumped::LumpPl
             r.reflections.push(Reflection { node: node.name.clone(), segment: plant.segments[s].name.clone(), gamma });
         }
     }
+    sizes(c);
+    super::model_error::fill(c, plant, lump);
+}
+
+/// The storage the network needs (`super::capacities`) into the report.
+pub(super) fn sizes(c: &mut Compiled) {
     let (ports, juncs, mem) = super::capacities(&c.network());
     let r = &mut c.report;
     r.ports = ports;
     r.junctions = juncs;
     r.memory_waves = mem;
-    super::model_error::fill(c, plant, lump);
 }

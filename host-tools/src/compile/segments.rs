@@ -45,6 +45,9 @@ pub(super) struct Builder<'p> {
     /// grid (`loss::grid_step`), so a chain of one cable fits once per grid length it
     /// uses, not once per line, whatever the spread of its segment lengths.
     loss_cache: std::collections::HashMap<(usize, u64), Option<super::loss::LossDesign>>,
+    /// Fit the loss filters (`true`), or only lay the network out to size it (`false`: a
+    /// line that would get a filter gets an empty loss record, no dispersion delay).
+    pub fit_losses: bool,
 }
 
 impl<'p> Builder<'p> {
@@ -62,6 +65,7 @@ impl<'p> Builder<'p> {
             timings: vec![],
             node_junction: (0..plant.nodes.len()).map(|n| n as JunctionId).collect(),
             loss_cache: Default::default(),
+            fit_losses: true,
         }
     }
 
@@ -392,6 +396,18 @@ impl<'p> Builder<'p> {
             .map(|step| (length / step).round() * step)
             .filter(|g| *g > 0.0 && g.is_finite())
             .unwrap_or(length);
+        if !self.fit_losses {
+            if super::loss::gets_filter(cable, grid, fs) {
+                self.losses.push(LineLoss {
+                    line: p.line,
+                    sections: 0,
+                    poles: [0; MAX_LOSS_SECTIONS],
+                    zeros: [0; MAX_LOSS_SECTIONS],
+                    allpass: None,
+                });
+            }
+            return Ok(());
+        }
         let key = (cable_id, grid.to_bits());
         let design = match self.loss_cache.get(&key) {
             Some(d) => d.clone(),

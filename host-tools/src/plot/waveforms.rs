@@ -35,6 +35,10 @@ pub struct WaveformPlot<'a> {
     pub reference: Series<'a>,
     /// Further traces overlaid in the upper panel.
     pub extra: Vec<Series<'a>>,
+    /// When the plot shows only a window of a longer comparison: the peak |emulated −
+    /// reference| over all of it (the figure a verdict quotes), given in the error legend
+    /// beside the peak of the part shown, so the picture never seems to contradict the text.
+    pub whole_run_peak: Option<f64>,
 }
 
 /// Probe waveforms of the emulation and the exact reference overlaid, with the error trace
@@ -122,15 +126,15 @@ fn error_trace(p: &WaveformPlot) -> Vec<f64> {
 
 /// The error panel's single legend entry, with the peak error in it.
 fn error_entries(p: &WaveformPlot, peak: f64) -> Vec<Entry> {
-    let s = Scale::for_magnitude(peak);
-    let label = format!(
-        "error: {} − {} (peak |error| {} {}{})",
-        p.emulated.label,
-        p.reference.label,
-        style::fmt_sig3(peak / s.factor),
-        s.prefix,
-        p.unit
-    );
+    let figure = |v: f64| {
+        let s = Scale::for_magnitude(v);
+        format!("{} {}{}", style::fmt_sig3(v / s.factor), s.prefix, p.unit)
+    };
+    let peaks = match p.whole_run_peak {
+        Some(run) => format!("peak |error| {} in the window shown, {} over the whole run", figure(peak), figure(run)),
+        None => format!("peak |error| {}", figure(peak)),
+    };
+    let label = format!("error: {} − {} ({peaks})", p.emulated.label, p.reference.label);
     vec![(label, style::ERROR)]
 }
 
