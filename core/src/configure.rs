@@ -9,6 +9,7 @@
 //! E = Σ_lines g·(a² + b²) never grows at a junction whose node voltage is quantized toward
 //! zero (see the crate documentation).
 
+mod branch;
 mod passive;
 mod shape;
 mod weights;
@@ -38,6 +39,12 @@ pub(crate) fn end_index(line: usize, side_b: bool) -> usize {
 /// `table[i]` as an index (0 if out of range, unreachable after validation; no panic path).
 fn at(table: &[u16], i: usize) -> usize {
     table.get(i).copied().unwrap_or(0) as usize
+}
+
+/// A node record that is one end of a series branch (not reconfigurable: its weight is part
+/// of the branch's coefficients).
+fn is_linked(rt: &JunctionRt) -> bool {
+    matches!(rt, JunctionRt::Node { mode: Mode::Linked, .. })
 }
 
 pub(crate) fn mode_of(short: bool, broken: bool) -> Mode {
@@ -88,6 +95,16 @@ pub fn check<P: Profile>(net: &Network<'_>) -> Result<u32, BuildError> {
         let rt = junction_record::<P>(net, &shape, j, *junc, first, count, sum, k)?;
         let ok = match rt {
             JunctionRt::Node { .. } => passive::node_ok::<P>(&rt, sum, min),
+            JunctionRt::Branch { a, b, .. } => {
+                let node = |n: u16| -> Result<JunctionRt, BuildError> {
+                    let n = n as usize;
+                    let first = (0..n).map(|jj| ports_at(net, jj)).fold(0usize, usize::saturating_add);
+                    let junc = net.junctions.get(n).copied().ok_or(BuildError::BadBranch { junction: j as u16 })?;
+                    let (sum, _) = port_weights(net, n, k);
+                    junction_record::<P>(net, &shape, n, junc, first, ports_at(net, n), sum, k)
+                };
+                passive::branch_ok::<P>(&rt, &node(a)?, &node(b)?)
+            }
             _ => passive::two_port_ok::<P>(&rt),
         };
         if !ok {
@@ -201,7 +218,15 @@ fn junction_record<P: Profile>(
                 hold: 0,
             };
             apply_shunt::<P>(&mut rt, shunt, TOP.saturating_sub(k)).map_err(|_| out_of_range)?;
+            if branch::branch_of(net, j).is_some() {
+                link_node::<P>(&mut rt).ok_or(out_of_range)?;
+            }
             rt
+        }
+        Junction::Branch { a, b, .. } => {
+            let (_, _, na, nb, nl, n) = branch::numbers::<P>(net, shape, j, k).ok_or(out_of_range)?;
+            let (recip, shift) = reciprocal(u64::from(n), P::RECIP_BITS).ok_or(out_of_range)?;
+            JunctionRt::Branch { a, b, na, nb, nl, n, recip, shift, s: 0 }
         }
         Junction::Series { milliohm } => {
             // Both ends have impedance z (shape check); c = 2Z/(2Z + R) <= 1, rounded down.
@@ -266,6 +291,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.build_rings(net, &shape)?;
         self.build_weights(net, k)?;
         self.build_junctions(net, &shape, k)?;
+        self.branches = net.junctions.iter().any(|j| matches!(j, Junction::Branch { .. }));
         self.build_probes(net);
         self.build_drive(net, &shape);
         self.check_passive()?;
@@ -440,6 +466,10 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                     let min = ports.clone().map(|g| u64::from(*g)).min().unwrap_or(0);
                     in_range && passive::node_ok::<P>(rt, self.port_weight_sum(first as usize, count as usize), min)
                 }
+                JunctionRt::Branch { a, b, .. } => {
+                    let node = |n: u16| self.juncs.get(n as usize).copied().unwrap_or(JunctionRt::Unused);
+                    passive::branch_ok::<P>(rt, &node(a), &node(b))
+                }
                 _ => passive::two_port_ok::<P>(rt),
             };
             if !ok {
@@ -468,6 +498,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.n_losses = 0;
         self.mem_used = 0;
         self.drive = DriveRt::None;
+        self.branches = false;
         self.reset();
     }
 
@@ -477,7 +508,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         let c = self.exponent;
         let j = junction as usize;
         let refused = ConfigError::CoefficientOutOfRange { junction };
-        let Some(rt @ JunctionRt::Node { first, count, .. }) = self.juncs.get(j).copied().filter(|_| j < self.n_juncs)
+        let Some(rt @ JunctionRt::Node { first, count, .. }) =
+            self.juncs.get(j).copied().filter(|r| j < self.n_juncs && !is_linked(r))
         else {
             return Err(ConfigError::NotANode { junction });
         };
@@ -496,7 +528,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     /// would) or join it again (`false`). Takes effect at the next `step`.
     pub fn set_broken(&mut self, junction: u16, broken: bool) -> Result<(), ConfigError> {
         let j = junction as usize;
-        match self.juncs.get_mut(j).filter(|_| j < self.n_juncs) {
+        match self.juncs.get_mut(j).filter(|r| j < self.n_juncs && !is_linked(r)) {
             Some(JunctionRt::Node { mode, short, broken: b, .. }) => {
                 *b = broken;
                 *mode = mode_of(*short, broken);
@@ -543,6 +575,20 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     pub fn junction_count(&self) -> usize {
         self.n_juncs
     }
+}
+
+/// Make a node record (with its shunt applied) one end of a series branch: its weight G
+/// (ports, source, shunt) gets a link port of the same weight, so it divides by 2G.
+fn link_node<P: Profile>(rt: &mut JunctionRt) -> Option<()> {
+    let JunctionRt::Node { recip, shift, total, mode, hold, .. } = rt else {
+        return None;
+    };
+    let two_g = total.checked_mul(2)?;
+    (*recip, *shift) = reciprocal(two_g, P::RECIP_BITS)?;
+    *total = two_g;
+    *mode = Mode::Linked;
+    *hold = 0;
+    Some(())
 }
 
 /// Put `shunt` into a node record: shunt weight floor(2^c / R), new reciprocal of the total.

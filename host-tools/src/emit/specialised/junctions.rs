@@ -43,6 +43,12 @@ pub fn emit(s: &mut String, j: usize, plan: &JunctionPlan, cx: &Ctx<'_>) -> Resu
             let _ = writeln!(s, "        let a{port} = P::sub(e, rig_back);");
             Ok(())
         }
+        JunctionPlan::Branch { .. } => Err(EmitError::Unsupported {
+            what:
+                "a series branch between two nodes (not yet in the plant-specialised form; the generic solver runs it)"
+                    .into(),
+            junction: Some(j),
+        }),
         _ => {
             Err(EmitError::Unsupported { what: "a junction kind this emitter does not know".into(), junction: Some(j) })
         }
