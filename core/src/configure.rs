@@ -41,12 +41,6 @@ fn at(table: &[u16], i: usize) -> usize {
     table.get(i).copied().unwrap_or(0) as usize
 }
 
-/// A node record that is one end of a series branch (not reconfigurable: its weight is part
-/// of the branch's coefficients).
-fn is_linked(rt: &JunctionRt) -> bool {
-    matches!(rt, JunctionRt::Node { mode: Mode::Linked, .. })
-}
-
 pub(crate) fn mode_of(short: bool, broken: bool) -> Mode {
     if broken {
         Mode::Broken
@@ -96,13 +90,7 @@ pub fn check<P: Profile>(net: &Network<'_>) -> Result<u32, BuildError> {
         let ok = match rt {
             JunctionRt::Node { .. } => passive::node_ok::<P>(&rt, sum, min),
             JunctionRt::Branch { a, b, .. } => {
-                let node = |n: u16| -> Result<JunctionRt, BuildError> {
-                    let n = n as usize;
-                    let first = (0..n).map(|jj| ports_at(net, jj)).fold(0usize, usize::saturating_add);
-                    let junc = net.junctions.get(n).copied().ok_or(BuildError::BadBranch { junction: j as u16 })?;
-                    let (sum, _) = port_weights(net, n, k);
-                    junction_record::<P>(net, &shape, n, junc, first, ports_at(net, n), sum, k)
-                };
+                let node = |n: u16| branch::node_record::<P>(net, &shape, j, n, k);
                 passive::branch_ok::<P>(&rt, &node(a)?, &node(b)?)
             }
             _ => passive::two_port_ok::<P>(&rt),
@@ -219,7 +207,7 @@ fn junction_record<P: Profile>(
             };
             apply_shunt::<P>(&mut rt, shunt, TOP.saturating_sub(k)).map_err(|_| out_of_range)?;
             if branch::branch_of(net, j).is_some() {
-                link_node::<P>(&mut rt).ok_or(out_of_range)?;
+                branch::link_node::<P>(&mut rt).ok_or(out_of_range)?;
             }
             rt
         }
@@ -509,7 +497,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         let j = junction as usize;
         let refused = ConfigError::CoefficientOutOfRange { junction };
         let Some(rt @ JunctionRt::Node { first, count, .. }) =
-            self.juncs.get(j).copied().filter(|r| j < self.n_juncs && !is_linked(r))
+            self.juncs.get(j).copied().filter(|r| j < self.n_juncs && !branch::is_linked(r))
         else {
             return Err(ConfigError::NotANode { junction });
         };
@@ -528,7 +516,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     /// would) or join it again (`false`). Takes effect at the next `step`.
     pub fn set_broken(&mut self, junction: u16, broken: bool) -> Result<(), ConfigError> {
         let j = junction as usize;
-        match self.juncs.get_mut(j).filter(|r| j < self.n_juncs && !is_linked(r)) {
+        match self.juncs.get_mut(j).filter(|r| j < self.n_juncs && !branch::is_linked(r)) {
             Some(JunctionRt::Node { mode, short, broken: b, .. }) => {
                 *b = broken;
                 *mode = mode_of(*short, broken);
@@ -575,20 +563,6 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     pub fn junction_count(&self) -> usize {
         self.n_juncs
     }
-}
-
-/// Make a node record (with its shunt applied) one end of a series branch: its weight G
-/// (ports, source, shunt) gets a link port of the same weight, so it divides by 2G.
-fn link_node<P: Profile>(rt: &mut JunctionRt) -> Option<()> {
-    let JunctionRt::Node { recip, shift, total, mode, hold, .. } = rt else {
-        return None;
-    };
-    let two_g = total.checked_mul(2)?;
-    (*recip, *shift) = reciprocal(two_g, P::RECIP_BITS)?;
-    *total = two_g;
-    *mode = Mode::Linked;
-    *hold = 0;
-    Some(())
 }
 
 /// Put `shunt` into a node record: shunt weight floor(2^c / R), new reciprocal of the total.

@@ -14,8 +14,10 @@
 
 use super::shape::Shape;
 use super::weights::{node_sum, weight};
+use crate::error::BuildError;
 use crate::network::{Junction, Network, Shunt};
-use crate::profile::Profile;
+use crate::profile::{reciprocal, Profile};
+use crate::solver::{JunctionRt, Mode};
 
 /// The branch junction that links node `j`, if any.
 pub(crate) fn branch_of(net: &Network<'_>, j: usize) -> Option<usize> {
@@ -77,4 +79,40 @@ pub(crate) fn first_misfit<P: Profile>(net: &Network<'_>, shape: &Shape, k: u32)
     (0..net.junctions.len())
         .filter(|j| matches!(net.junctions.get(*j), Some(Junction::Branch { .. })))
         .find(|j| numbers::<P>(net, shape, *j, k).is_none())
+}
+
+/// Make a node record (with its shunt applied) one end of a series branch: its weight G
+/// (ports, source, shunt) gets a link port of the same weight, so it divides by 2G.
+pub(crate) fn link_node<P: Profile>(rt: &mut JunctionRt) -> Option<()> {
+    let JunctionRt::Node { recip, shift, total, mode, hold, .. } = rt else {
+        return None;
+    };
+    let two_g = total.checked_mul(2)?;
+    (*recip, *shift) = reciprocal(two_g, P::RECIP_BITS)?;
+    *total = two_g;
+    *mode = Mode::Linked;
+    *hold = 0;
+    Some(())
+}
+
+/// A node record that is one end of a series branch (not reconfigurable: its weight is part
+/// of the branch's coefficients).
+pub(crate) fn is_linked(rt: &JunctionRt) -> bool {
+    matches!(rt, JunctionRt::Node { mode: Mode::Linked, .. })
+}
+
+/// The run-time record of node `n` that branch junction `j` links, built as `load` builds
+/// it (for `configure::check`, which keeps no records).
+pub(crate) fn node_record<P: Profile>(
+    net: &Network<'_>,
+    shape: &Shape,
+    j: usize,
+    n: u16,
+    k: u32,
+) -> Result<JunctionRt, BuildError> {
+    let n = n as usize;
+    let first = (0..n).map(|jj| super::ports_at(net, jj)).fold(0usize, usize::saturating_add);
+    let junc = net.junctions.get(n).copied().ok_or(BuildError::BadBranch { junction: j as u16 })?;
+    let (sum, _) = super::port_weights(net, n, k);
+    super::junction_record::<P>(net, shape, n, junc, first, super::ports_at(net, n), sum, k)
 }
