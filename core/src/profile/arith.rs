@@ -171,7 +171,9 @@ macro_rules! junction_rules {
             $sat(if negate { m.wrapping_neg() } else { m })
         }
 
-        #[inline(always)]
+        // One copy per profile, not one per solver: the branch pass is not the hot loop of
+        // most plants, and every firmware's generic solver carries it.
+        #[inline(never)]
         fn branch_open(
             b: &[Self::Wave],
             g: &[u32],
@@ -195,7 +197,9 @@ macro_rules! junction_rules {
             $sat((q ^ mask).wrapping_sub(mask))
         }
 
-        #[inline(always)]
+        // One copy per profile, not one per solver: the branch pass is not the hot loop of
+        // most plants, and every firmware's generic solver carries it.
+        #[inline(never)]
         fn branch_series(
             wa: Self::Wave,
             wb: Self::Wave,
@@ -230,7 +234,9 @@ macro_rules! junction_rules {
             (out(wa, na, true), out(wb, nb, false), out(s, nl, false))
         }
 
-        #[inline(always)]
+        // One copy per profile, not one per solver: the branch pass is not the hot loop of
+        // most plants, and every firmware's generic solver carries it.
+        #[inline(never)]
         fn branch_node(
             b: &[Self::Wave],
             g: &[u32],
