@@ -109,6 +109,17 @@ fn a_fast_edge_keeps_the_line_and_a_switched_node_keeps_the_pi_section_out() {
     let plant = parse_plant(&text, "patch.toml", Path::new(".")).unwrap();
     let (c, _) = prepare(&plant, "patch.toml", ProfileKind::Wide).unwrap();
     assert_eq!(c.report.segments[1].model, SegmentModel::DelayLine);
+    // An event elsewhere (the far load): events switch instantly, so the choice is judged at
+    // a two-sample edge (`pi::judge`), where the 1.1 m cord states less error as a line.
+    let text = patch("40 ns") + "\n[[event]]\nat = \"1 us\"\nnode = \"far\"\nload = \"50 ohm\"\n";
+    let plant = parse_plant(&text, "patch.toml", Path::new(".")).unwrap();
+    let (c, _) = prepare(&plant, "patch.toml", ProfileKind::Wide).unwrap();
+    assert_eq!(c.report.segments[1].model, SegmentModel::DelayLine);
+    // A 0.3 m cord (0.23 samples) is a pi section even then.
+    let text = text.replace("length = \"1.1 m\"", "length = \"0.3 m\"");
+    let plant = parse_plant(&text, "patch.toml", Path::new(".")).unwrap();
+    let (c, _) = prepare(&plant, "patch.toml", ProfileKind::Wide).unwrap();
+    assert_eq!(c.report.segments[1].model, SegmentModel::Lumped(LumpKind::Pi));
 }
 
 #[test]

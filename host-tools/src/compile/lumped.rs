@@ -111,7 +111,7 @@ pub fn plan(plant: &Plant, file: &str, dt: f64) -> Result<LumpPlan, PlantError> 
         if samples >= LUMP_BELOW_SAMPLES {
             // A whole-sample delay line, or a pi section where that states less error.
             if samples < super::MIN_FRACTIONAL_DELAY && super::pi::fits(plant, si, dt, &pi_nodes) {
-                let judge = super::model_error::judged_rise(plant, dt);
+                let judge = super::pi::judge(plant, dt);
                 if super::pi::error(plant, si, judge) < super::pi::line_error(plant, si, dt, judge) {
                     lumped[si] = Some(LumpKind::Pi);
                     pi_nodes.extend([seg.from, seg.to]);
@@ -147,7 +147,7 @@ pub fn plan(plant: &Plant, file: &str, dt: f64) -> Result<LumpPlan, PlantError> 
         let drive = drive_node(plant);
         let leaf = [seg.to, seg.from].into_iter().find(|&e| degree(e) == 1 && e != drive && seg.from != seg.to);
         if leaf.is_none() && super::pi::fits(plant, si, dt, &pi_nodes) {
-            let judge = super::model_error::judged_rise(plant, dt);
+            let judge = super::pi::judge(plant, dt);
             if super::pi::error(plant, si, judge) < lump_error(plant, si, LumpKind::Joined, judge) {
                 lumped[si] = Some(LumpKind::Pi);
                 pi_nodes.extend([seg.from, seg.to]);

@@ -22,12 +22,12 @@ static JUNCTION_TABLE: [Junction; 5] = [
     Junction::Node { shunt: Shunt::Open },
     Junction::Node { shunt: Shunt::Open },
     Junction::Node { shunt: Shunt::Resistor { milliohm: 1000000 } },
-    Junction::Branch { a: 1, b: 2, port_milliohm: 125087, milliohm: 0 },
+    Junction::Branch { a: 1, b: 2, port_milliohm: 34115, milliohm: 0 },
 ];
 
 static ELEMENTS: [Element; 2] = [
-    Element { junction: 1, kind: ElementKind::Capacitor, port_milliohm: 89938, series_milliohm: 0 },
-    Element { junction: 2, kind: ElementKind::Capacitor, port_milliohm: 89938, series_milliohm: 0 },
+    Element { junction: 1, kind: ElementKind::Capacitor, port_milliohm: 329772, series_milliohm: 0 },
+    Element { junction: 2, kind: ElementKind::Capacitor, port_milliohm: 329772, series_milliohm: 0 },
 ];
 
 static LOSSES: [LineLoss; 2] = [
@@ -67,11 +67,11 @@ pub mod specialised {
     pub const MEM: usize = 128;
     const MASK: u32 = 127;
     const IO_SHIFT: u32 = 0;
-    const EXPONENT: u32 = 27;
+    const EXPONENT: u32 = 28;
     const PROBES: usize = 2;
     const HIST: usize = 0;
     const INITIAL_NODES: [NodeCoef; 1] = [
-        NodeCoef { recip: 45466, shift: 10, total: 1476, short: false, broken: false, hold: 21 },
+        NodeCoef { recip: 45466, shift: 11, total: 2952, short: false, broken: false, hold: 21 },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -109,24 +109,24 @@ pub mod specialised {
             let e: W = P::from_code(input, IO_SHIFT);
             let b0: W = self.b[0];
             // junction 0: node of 1 port(s), fixed
-            let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[1342u32], &mut o, e, 1342u32, 50006u32, 11u32, 2684u64); o };
+            let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[2684u32], &mut o, e, 2684u32, 50006u32, 12u32, 5368u64); o };
             self.mem[(n.wrapping_add(45) & MASK) as usize] = a0;
             let b5: W = self.b[5];
             // junction 3: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
-            let [a5] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b5], &[1342u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.broken { [b5] } else { [P::neg(b5)] };
+            let [a5] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b5], &[2684u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.broken { [b5] } else { [P::neg(b5)] };
             self.mem[(n.wrapping_add(68) & MASK) as usize] = a5;
             self.held[0] = a5;
             let b1: W = self.b[1];
             let b2: W = self.b[2];
             let b3: W = self.b[3];
             let b4: W = self.b[4];
-            // junction 4: series branch from node 1 to node 2, n = 13153
-            let wa4: W = P::branch_open(&[b1, b2], &[1342u32, 1492u32], e, 0u32, 47359u32, 12u32, 5668u64);
-            let wb4: W = P::branch_open(&[b3, b4], &[1342u32, 1492u32], e, 0u32, 47359u32, 12u32, 5668u64);
-            let (ra4, rb4, al4) = P::branch_series(wa4, wb4, self.chokes[0], 2834u32, 2834u32, 7485u32, 40817u32, 13u32, 13153u32);
-            let [a1, a2] = { let mut o = [P::ZERO; 2]; P::branch_node(&[b1, b2], &[1342u32, 1492u32], &mut o, e, 0u32, 2834u32, ra4, 47359u32, 12u32, 5668u64); o };
-            let [a3, a4] = { let mut o = [P::ZERO; 2]; P::branch_node(&[b3, b4], &[1342u32, 1492u32], &mut o, e, 0u32, 2834u32, rb4, 47359u32, 12u32, 5668u64); o };
+            // junction 4: series branch from node 1 to node 2, n = 8551
+            let wa4: W = P::branch_open(&[b1, b2], &[2684u32, 814u32], e, 0u32, 38369u32, 12u32, 6996u64);
+            let wb4: W = P::branch_open(&[b3, b4], &[2684u32, 814u32], e, 0u32, 38369u32, 12u32, 6996u64);
+            let (ra4, rb4, al4) = P::branch_series(wa4, wb4, self.chokes[0], 3498u32, 3498u32, 1555u32, 62784u32, 13u32, 8551u32);
+            let [a1, a2] = { let mut o = [P::ZERO; 2]; P::branch_node(&[b1, b2], &[2684u32, 814u32], &mut o, e, 0u32, 3498u32, ra4, 38369u32, 12u32, 6996u64); o };
+            let [a3, a4] = { let mut o = [P::ZERO; 2]; P::branch_node(&[b3, b4], &[2684u32, 814u32], &mut o, e, 0u32, 3498u32, rb4, 38369u32, 12u32, 6996u64); o };
             self.chokes[0] = P::neg(al4);
             self.mem[(n.wrapping_add(22) & MASK) as usize] = a1;
             let a2 = P::adapt(b2, a2, 16384u32, false);
@@ -189,7 +189,7 @@ pub mod specialised {
         fn set_shunt(&mut self, junction: u16, shunt: Shunt) -> Result<(), ConfigError> {
             match junction {
                 3 => {
-                    self.nodes[0] = node_coefficients::<P>(junction, 0, 1342, 1342, EXPONENT, self.nodes[0], shunt)?;
+                    self.nodes[0] = node_coefficients::<P>(junction, 0, 2684, 2684, EXPONENT, self.nodes[0], shunt)?;
                     Ok(())
                 }
                 0 | 1 | 2 => Err(ConfigError::FixedNode { junction }),
