@@ -12,7 +12,8 @@
 //! resistance), a series inductor with and without winding resistance, shunts open, short and
 //! resistive, capacitor and inductor elements alone and behind a resistor, loss filters of six
 //! sections, a rig port with latency 2, and events: a load switched (open → resistor,
-//! short → open, open → resistor → short → open), a node broken and joined again.
+//! short → open, open → resistor → short → open), a node broken and joined again; a series
+//! branch between two nodes (a lumped pi section).
 use std::path::{Path, PathBuf};
 use tidewire::core::{
     ConfigError, Drive, Element, ElementKind, Junction, Line, Narrow, Network, PlantStep, Probe, ProbeKind, Shunt,
@@ -38,7 +39,9 @@ generated!(
     rig_break_narrow,
     reactive_wide,
     reactive_narrow,
-    one_line_wide
+    one_line_wide,
+    pi_section_wide,
+    pi_section_narrow
 );
 
 /// A change applied to both forms before sample `.0`.
@@ -160,11 +163,12 @@ fn fresh(name: &str) -> (String, Vec<(usize, Ev)>) {
         "every_kind" => plant_file_case("tests/plants/every-kind.toml", profile),
         "rig_break" => plant_file_case("examples/plants/rig-break.toml", profile),
         "one_line" => one_line_case(),
+        "pi_section" => plant_file_case("tests/plants/pi-section.toml", profile),
         _ => reactive_case(profile),
     }
 }
 
-const CASES: [&str; 7] = [
+const CASES: [&str; 9] = [
     "every_kind_wide",
     "every_kind_narrow",
     "rig_break_wide",
@@ -172,6 +176,8 @@ const CASES: [&str; 7] = [
     "reactive_wide",
     "reactive_narrow",
     "one_line_wide",
+    "pi_section_wide",
+    "pi_section_narrow",
 ];
 
 #[test]
@@ -288,6 +294,12 @@ fn rig_port_with_latency_and_a_break_is_bit_exact() {
 fn reactive_elements_and_every_shunt_are_bit_exact() {
     check("reactive_wide", &forms!(reactive_wide, Wide));
     check("reactive_narrow", &forms!(reactive_narrow, Narrow));
+}
+
+#[test]
+fn a_series_branch_between_nodes_is_bit_exact() {
+    check("pi_section_wide", &forms!(pi_section_wide, Wide));
+    check("pi_section_narrow", &forms!(pi_section_narrow, Narrow));
 }
 
 #[test]

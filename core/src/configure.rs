@@ -9,6 +9,7 @@
 //! E = Σ_lines g·(a² + b²) never grows at a junction whose node voltage is quantized toward
 //! zero (see the crate documentation).
 
+mod branch;
 mod passive;
 mod shape;
 mod weights;
@@ -96,6 +97,10 @@ pub fn check<P: Profile>(net: &Network<'_>) -> Result<u32, BuildError> {
         let rt = junction_record::<P>(net, &shape, j, *junc, first, count, sum, k)?;
         let ok = match rt {
             JunctionRt::Node { .. } => passive::node_ok::<P>(&rt, sum, min),
+            JunctionRt::Branch { a, b, .. } => {
+                let node = |n: u16| branch::node_record::<P>(net, &shape, j, n, k);
+                passive::branch_ok::<P>(&rt, &node(a)?, &node(b)?)
+            }
             _ => passive::two_port_ok::<P>(&rt),
         };
         if !ok {
@@ -209,7 +214,15 @@ fn junction_record<P: Profile>(
                 hold: 0,
             };
             apply_shunt::<P>(&mut rt, shunt, TOP.saturating_sub(k)).map_err(|_| out_of_range)?;
+            if branch::branch_of(net, j).is_some() {
+                branch::link_node::<P>(&mut rt).ok_or(out_of_range)?;
+            }
             rt
+        }
+        Junction::Branch { a, b, .. } => {
+            let (_, _, na, nb, nl, n) = branch::numbers::<P>(net, shape, j, k).ok_or(out_of_range)?;
+            let (recip, shift) = reciprocal(u64::from(n), P::RECIP_BITS, false).ok_or(out_of_range)?;
+            JunctionRt::Branch { a, b, na, nb, nl, n, recip, shift, s: 0 }
         }
         Junction::Series { milliohm } => {
             // Both ends have impedance z (shape check); c = 2Z/(2Z + R) <= 1, rounded down.
@@ -274,6 +287,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.build_rings(net, &shape)?;
         self.build_weights(net, k)?;
         self.build_junctions(net, &shape, k)?;
+        self.branches = net.junctions.iter().any(|j| matches!(j, Junction::Branch { .. }));
         self.build_probes(net);
         self.build_drive(net, &shape);
         self.check_passive()?;
@@ -448,6 +462,10 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                     let min = ports.clone().map(|g| u64::from(*g)).min().unwrap_or(0);
                     in_range && passive::node_ok::<P>(rt, self.port_weight_sum(first as usize, count as usize), min)
                 }
+                JunctionRt::Branch { a, b, .. } => {
+                    let node = |n: u16| self.juncs.get(n as usize).copied().unwrap_or(JunctionRt::Unused);
+                    passive::branch_ok::<P>(rt, &node(a), &node(b))
+                }
                 _ => passive::two_port_ok::<P>(rt),
             };
             if !ok {
@@ -476,6 +494,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.n_losses = 0;
         self.mem_used = 0;
         self.drive = DriveRt::None;
+        self.branches = false;
         self.reset();
     }
 
@@ -485,7 +504,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         let c = self.exponent;
         let j = junction as usize;
         let refused = ConfigError::CoefficientOutOfRange { junction };
-        let Some(rt @ JunctionRt::Node { first, count, .. }) = self.juncs.get(j).copied().filter(|_| j < self.n_juncs)
+        let Some(rt @ JunctionRt::Node { first, count, .. }) =
+            self.juncs.get(j).copied().filter(|r| j < self.n_juncs && !branch::is_linked(r))
         else {
             return Err(ConfigError::NotANode { junction });
         };
@@ -504,7 +524,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     /// would) or join it again (`false`). Takes effect at the next `step`.
     pub fn set_broken(&mut self, junction: u16, broken: bool) -> Result<(), ConfigError> {
         let j = junction as usize;
-        match self.juncs.get_mut(j).filter(|_| j < self.n_juncs) {
+        match self.juncs.get_mut(j).filter(|r| j < self.n_juncs && !branch::is_linked(r)) {
             Some(JunctionRt::Node { mode, short, broken: b, count, g_src, g_ports, total, .. }) => {
                 *b = broken;
                 *mode = mode_of(*short, broken, lone_open(*count, *g_src, *g_ports, *total, *short));

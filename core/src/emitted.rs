@@ -77,6 +77,26 @@ pub enum JunctionPlan {
         /// The port.
         port: u16,
     },
+    /// A series branch between nodes `a` and `b` (whose [`JunctionPlan::Node`] records then
+    /// hold total = 2G, the weight with the link port; see [`crate::Junction::Branch`]).
+    Branch {
+        /// The node the current leaves.
+        a: u16,
+        /// The node the current enters.
+        b: u16,
+        /// Port numbers of the series adaptor: links a, b and the inductor.
+        na: u32,
+        /// See `na`.
+        nb: u32,
+        /// See `na`.
+        nl: u32,
+        /// Σ of the port numbers with the resistor's.
+        n: u32,
+        /// Reciprocal of `n`.
+        recip: u32,
+        /// Shift of the reciprocal.
+        shift: u32,
+    },
 }
 
 /// A reactive element's adaptor, as loaded.
@@ -253,6 +273,9 @@ impl<'s, P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, c
             JunctionRt::Series { p, q, c } => JunctionPlan::Series { p, q, c },
             JunctionRt::SeriesL { p, q, c, rho, .. } => JunctionPlan::SeriesInductor { p, q, c, rho },
             JunctionRt::Rig { port } => JunctionPlan::Rig { port },
+            JunctionRt::Branch { a, b, na, nb, nl, n, recip, shift, .. } => {
+                JunctionPlan::Branch { a, b, na, nb, nl, n, recip, shift }
+            }
             // Not reachable after a successful load (every record is written).
             JunctionRt::Unused => JunctionPlan::Rig { port: u16::MAX },
         })

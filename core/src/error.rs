@@ -139,6 +139,14 @@ pub enum BuildError {
         /// The first line's delay, samples.
         delay: u32,
     },
+    /// A series branch between nodes names a junction that does not exist or is not a plain
+    /// node (a series junction, a rig port, a short, another branch), names the same node
+    /// twice, shares a node with another branch, or is given line ends of its own.
+    #[error("branch junction {junction}: needs two different plain nodes, each in no other branch, and no line end of its own")]
+    BadBranch {
+        /// Index of the branch junction.
+        junction: u16,
+    },
     /// `io_shift` is larger than the number profile allows.
     #[error("io_shift {io_shift} > maximum {max}")]
     IoShiftTooLarge {
@@ -154,7 +162,8 @@ pub enum BuildError {
 #[cfg_attr(feature = "defmt", derive(defmt::Format))]
 #[non_exhaustive]
 pub enum ConfigError {
-    /// No such junction, or it is not a plain node (series junction or rig port).
+    /// No such junction, or it is not a plain node (series junction, rig port, or a node a
+    /// series branch joins: its weight is part of the branch's coefficients).
     #[error("junction {junction} is not a reconfigurable node")]
     NotANode {
         /// Index of the junction.

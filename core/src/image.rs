@@ -23,8 +23,9 @@ use crate::solver::Solver;
 /// First four bytes of every image.
 pub const MAGIC: [u8; 4] = *b"TIDW";
 /// The body format this core reads (2: every loss filter carries an optional
-/// fractional-delay allpass, and may have no section).
-pub const FORMAT_VERSION: u16 = 2;
+/// fractional-delay allpass, and may have no section; 3: junctions may be series branches
+/// between nodes, `Junction::Branch`).
+pub const FORMAT_VERSION: u16 = 3;
 /// Header size in bytes.
 pub const HEADER_LEN: usize = 16;
 

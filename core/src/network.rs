@@ -73,6 +73,28 @@ pub enum Junction {
         /// Winding resistance in series, milliohms (0: none).
         milliohm: u32,
     },
+    /// A series branch, resistor R and inductor L (either may be 0), between two **nodes**
+    /// [`Junction::Node`] `a` and `b`, each joining any number of line ends with its own
+    /// shunt, elements and drive. The branch itself holds no line end. Current i flows from
+    /// `a` through the branch into `b`: v_a − v_b = R·i + v_L.
+    ///
+    /// Solved exactly as a wave-digital tree (Fettweis 1986): each node is a parallel
+    /// adaptor with one reflection-free link port of conductance G (its whole weight, shunt
+    /// and source included), the branch a series adaptor (root) of the two links, the
+    /// inductor (port resistance R_L = 2L/T, bilinear transform, `b_L[n] = −a_L[n−1]`) and R.
+    /// With w = v_open/2 of each node: x = w_a − w_b − b_L, i = 2x/(1/G_a + 1/G_b + R_L + R),
+    /// v_a = w_a + r_a with r_a = w_a − i/G_a, v_b = w_b + r_b with r_b = w_b + i/G_b.
+    /// A node takes part in at most one branch.
+    Branch {
+        /// The node the current leaves.
+        a: JunctionId,
+        /// The node the current enters.
+        b: JunctionId,
+        /// Port resistance of the inductor, 2L/T, milliohms (0: no inductor).
+        port_milliohm: u32,
+        /// Series resistance, milliohms (0: none).
+        milliohm: u32,
+    },
 }
 
 /// What drives the network.

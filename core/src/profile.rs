@@ -155,6 +155,54 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
         total: u64,
         hold_min: u32,
     );
+    /// Series branch, stage 1 (a node's link port, reflection-free): the wave the node sends
+    /// into the branch, w = trunc((2·Σ g_k·b_k + g_src·e) / total) toward zero, saturated,
+    /// where `total` = 2G is the node's weight with its link port (G: ports, source and
+    /// shunt). w is half the node's open-circuit voltage and does not depend on the wave
+    /// coming back from the branch (the port's weight is the sum of all others).
+    #[allow(clippy::too_many_arguments)]
+    fn branch_open(
+        b: &[Self::Wave],
+        g: &[u32],
+        e: Self::Wave,
+        g_src: u32,
+        recip: u32,
+        shift: u32,
+        total: u64,
+    ) -> Self::Wave;
+    /// Series branch, stage 2 (the series adaptor, the tree's root): with x = w_a − w_b − s
+    /// (s = b_L, the inductor's wave) and the integer port numbers n_a, n_b, n_l (each
+    /// proportional to its port resistance; the resistor takes the rest of `n` = Σ n), the
+    /// waves back r_a = w_a − 2·n_a·x/n, r_b = w_b + 2·n_b·x/n and the wave into the inductor
+    /// a_L = s + 2·n_l·x/n, each from its exact value truncated toward zero, saturated.
+    #[allow(clippy::too_many_arguments)]
+    fn branch_series(
+        wa: Self::Wave,
+        wb: Self::Wave,
+        s: Self::Wave,
+        na: u32,
+        nb: u32,
+        nl: u32,
+        recip: u32,
+        shift: u32,
+        n: u32,
+    ) -> (Self::Wave, Self::Wave, Self::Wave);
+    /// Series branch, stage 3: a node with its link port (weight `link` = G, incoming wave r)
+    /// as [`Self::node_scatter`]: v = (2·Σ g_k·b_k + g_src·e + 2·G·r) / total (total = 2G),
+    /// a_k = trunc(v − b_k) toward zero, saturated.
+    #[allow(clippy::too_many_arguments)]
+    fn branch_node(
+        b: &[Self::Wave],
+        g: &[u32],
+        a: &mut [Self::Wave],
+        e: Self::Wave,
+        g_src: u32,
+        link: u32,
+        r: Self::Wave,
+        recip: u32,
+        shift: u32,
+        total: u64,
+    );
     /// Fractional-delay allpass (lattice, state s, coefficients in `LOSS_FRAC` bits): (y, s') =
     /// (trunc(a·x + c·s), trunc(c·x − a·s)), saturated; passive for a² + c² <= 1 (`lattice.rs`).
     fn allpass(x: Self::Wave, s: Self::Wave, a: i32, c: u32) -> (Self::Wave, Self::Wave);
@@ -235,11 +283,35 @@ fn quotient64(mag: u64, recip: u32, shift: u32) -> u64 {
     hi.wrapping_mul(r).wrapping_add(lo.wrapping_mul(r) >> 32).wrapping_shr(shift)
 }
 
+/// floor(mag / total) and (remainder != 0) as 0/1, for mag < 2^63, total < 2^62.5.
+///
+/// The estimate mag·recip/2^(32+shift), from two 32x32->64 products with floors, is below
+/// the floor by less than q/2^31 + 2 (recip >= 2^31 misses 2^(32+shift)/total by less than
+/// one, and two floors lose less than one each): at most 2 for quotients up to 2^32 (the
+/// wave range), fixed by STEPS = 2 exact steps; at most 6 for quotients below 5·2^31 (the
+/// series branch, `Profile::branch_series`), STEPS = 6. The true remainder mag − q·total
+/// lies in [0, (STEPS + 1)·total) ⊂ [0, 2^64), so wrapping arithmetic gives it exactly.
+#[inline(always)]
+fn floor_div64<const STEPS: usize>(mag: u64, recip: u32, shift: u32, total: u64) -> (u64, u64) {
+    let r = recip as u64;
+    let hi = mag >> 32;
+    let lo = mag & 0xFFFF_FFFF;
+    let mut q = hi.wrapping_mul(r).wrapping_add(lo.wrapping_mul(r) >> 32).wrapping_shr(shift);
+    let mut rem = mag.wrapping_sub(q.wrapping_mul(total));
+    for _ in 0..STEPS {
+        let step = (rem >= total) as u64;
+        q = q.wrapping_add(step);
+        rem = rem.wrapping_sub(total & step.wrapping_neg());
+    }
+    (q, (rem != 0) as u64)
+}
+
 /// floor(mag / total) and (remainder != 0) as 0/1 for [`Narrow`]'s exact node, mag < 2^31,
 /// total < 2^30, using only 16x16->32 products (Cortex-M0 `MULS`). The estimate
 /// mag·recip/2^(16+shift), from two products with floors and the reciprocal rounded down
-/// ([`reciprocal`] with `strict = false`), is at most 2 below the floor; two exact steps fix
-/// it (the true remainder mag − q·total lies in [0, 3·total)).
+/// ([`reciprocal`] with `strict = false`), is at most 2 below the floor; STEPS exact steps fix
+/// it (2 for quotients up to 2^16, 6 below 5·2^15, the series branch; the true remainder
+/// mag − q·total lies in [0, (STEPS + 1)·total)).
 ///
 /// Why Narrow keeps the exact node: its LSB is one I/O code. Without correction steps (as
 /// [`Wide`] runs it) the node sends up to one LSB less per pass; with this 16-bit reciprocal
@@ -247,12 +319,12 @@ fn quotient64(mag: u64, recip: u32, shift: u32) -> u64 {
 /// 0.20 % tolerance (`tidewire verify ... --profile narrow`: +0.216 % against +0.157 %), and
 /// a 31-bit reciprocal from four products cost more on the M0 than the correction steps save.
 #[inline(always)]
-fn floor_div32(mag: u32, recip: u32, shift: u32, total: u32) -> (u32, u32) {
+fn floor_div32<const STEPS: usize>(mag: u32, recip: u32, shift: u32, total: u32) -> (u32, u32) {
     let hi = mag >> 16;
     let lo = mag & 0xFFFF;
     let mut q = hi.wrapping_mul(recip).wrapping_add(lo.wrapping_mul(recip) >> 16).wrapping_shr(shift);
     let mut rem = mag.wrapping_sub(q.wrapping_mul(total));
-    for _ in 0..2 {
+    for _ in 0..STEPS {
         let step = (rem >= total) as u32;
         q = q.wrapping_add(step);
         rem = rem.wrapping_sub(total & step.wrapping_neg());

@@ -28,6 +28,9 @@ pub(crate) enum Mode {
     Short,
     /// Node split into open ends: a = b.
     Broken,
+    /// One end of a series branch ([`JunctionRt::Branch`]), which scatters it: its record
+    /// holds its weight with the link port (total = 2G) and that total's reciprocal.
+    Linked,
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -64,6 +67,20 @@ pub(crate) enum JunctionRt {
     },
     Rig {
         port: u16,
+    },
+    /// A series branch between linked nodes `a` and `b` (their records hold the node side):
+    /// port numbers n_a, n_b, n_l, their sum with the resistor's `n`, its reciprocal, and
+    /// the inductor's wave s = b_L.
+    Branch {
+        a: u16,
+        b: u16,
+        na: u32,
+        nb: u32,
+        nl: u32,
+        n: u32,
+        recip: u32,
+        shift: u32,
+        s: i32,
     },
 }
 
@@ -153,6 +170,8 @@ pub struct Solver<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM:
     pub(crate) mem_used: usize,
     pub(crate) exponent: u32,
     pub(crate) drive: DriveRt,
+    /// Whether any junction is a series branch (then the branch pass runs).
+    pub(crate) branches: bool,
     pub(crate) io_shift: u32,
     pub(crate) volts_per_code: f32,
 }
@@ -198,6 +217,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             mem_used: 0,
             exponent: 0,
             drive: DriveRt::None,
+            branches: false,
             io_shift: 0,
             volts_per_code: 1.0,
         }
@@ -212,7 +232,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.probe_out.iter_mut().for_each(|w| *w = 0);
         self.hist_pos = 0;
         for j in self.juncs.iter_mut() {
-            if let JunctionRt::SeriesL { s, .. } = j {
+            if let JunctionRt::SeriesL { s, .. } | JunctionRt::Branch { s, .. } = j {
                 *s = 0;
             }
         }
@@ -246,6 +266,9 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         }
 
         self.scatter(e, rig_back);
+        if self.branches {
+            self.scatter_branches(e);
+        }
 
         // Read-out of this sample.
         // At the rig port the pin shows the wave the DAC sent `latency` samples ago, not this
@@ -329,12 +352,15 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                     let (Some(bs), Some(as_)) = (b.get(lo..hi), a.get_mut(lo..hi)) else {
                         continue;
                     };
-                    if mode == Mode::Short {
-                        for (ak, bk) in as_.iter_mut().zip(bs.iter()) {
-                            *ak = P::neg(*bk);
+                    match mode {
+                        Mode::Short => {
+                            for (ak, bk) in as_.iter_mut().zip(bs.iter()) {
+                                *ak = P::neg(*bk);
+                            }
                         }
-                    } else {
-                        as_.copy_from_slice(bs);
+                        Mode::Broken => as_.copy_from_slice(bs),
+                        // Scattered by its branch (`scatter_branches`).
+                        Mode::Scatter | Mode::Linked => {}
                     }
                 }
                 JunctionRt::Series { p, q, c } => {
@@ -367,7 +393,52 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                         *x = P::sub(e, rig_back);
                     }
                 }
-                JunctionRt::Unused => {}
+                JunctionRt::Unused | JunctionRt::Branch { .. } => {}
+            }
+        }
+    }
+
+    /// Branch pass: every series branch and its two linked nodes, as a wave-digital tree
+    /// (see [`crate::Junction::Branch`]): each node sends w (stage 1, reflection-free), the
+    /// series adaptor returns r_a, r_b and the inductor's a_L (stage 2), each node scatters
+    /// with its link wave (stage 3); the inductor's next wave is b_L = −a_L.
+    #[inline(never)]
+    fn scatter_branches(&mut self, e: P::Wave) {
+        let n = self.n_juncs.min(JUNCS);
+        for j in 0..n {
+            let Some(JunctionRt::Branch { a, b, na, nb, nl, n, recip, shift, s }) = self.juncs.get(j).copied() else {
+                continue;
+            };
+            let side = |k: u16| match self.juncs.get(k as usize).copied() {
+                Some(JunctionRt::Node { first, count, g_src, recip, shift, total, .. }) => {
+                    let lo = first as usize;
+                    Some((lo, lo.saturating_add(count as usize), g_src, recip, shift, total))
+                }
+                _ => None,
+            };
+            let (Some(sa), Some(sb)) = (side(a), side(b)) else {
+                continue;
+            };
+            let open = |(lo, hi, g_src, recip, shift, total): (usize, usize, u32, u32, u32, u64)| match (
+                self.b.get(lo..hi),
+                self.g.get(lo..hi),
+            ) {
+                (Some(bs), Some(gs)) => P::branch_open(bs, gs, e, g_src, recip, shift, total),
+                _ => P::ZERO,
+            };
+            let (wa, wb) = (open(sa), open(sb));
+            let (ra, rb, al) = P::branch_series(wa, wb, P::wave_from_i32(s), na, nb, nl, recip, shift, n);
+            for ((lo, hi, g_src, recip, shift, total), r) in [(sa, ra), (sb, rb)] {
+                // total = 2G (load), so the link weight G = total/2 < 2^31.
+                let link = (total >> 1) as u32;
+                if let (Some(bs), Some(gs), Some(as_)) =
+                    (self.b.get(lo..hi), self.g.get(lo..hi), self.a.get_mut(lo..hi))
+                {
+                    P::branch_node(bs, gs, as_, e, g_src, link, r, recip, shift, total);
+                }
+            }
+            if let Some(JunctionRt::Branch { s, .. }) = self.juncs.get_mut(j) {
+                *s = P::neg(al).into();
             }
         }
     }

@@ -29,6 +29,11 @@ fn fold_indices(h: &mut Hostile) {
     for e in &mut h.elements {
         e.junction %= nj;
     }
+    for j in &mut h.junctions {
+        if let Junction::Branch { a, b, .. } = j {
+            (*a, *b) = (*a % nj, *b % nj);
+        }
+    }
     for l in &mut h.losses {
         l.line %= nl;
     }
@@ -73,6 +78,10 @@ fn junction() -> impl Strategy<Value = Junction> {
         1 => resistance().prop_map(|milliohm| Junction::Series { milliohm }),
         1 => (resistance(), resistance())
             .prop_map(|(port_milliohm, milliohm)| Junction::SeriesInductor { port_milliohm, milliohm }),
+        // Series branches between nodes: any indices (folded into the table by
+        // `fold_indices` in most cases), any resistances, 0 included.
+        2 => (any::<u16>(), any::<u16>(), prop_oneof![Just(0u32), resistance()], prop_oneof![Just(0u32), resistance()])
+            .prop_map(|(a, b, port_milliohm, milliohm)| Junction::Branch { a, b, port_milliohm, milliohm }),
     ]
 }
 

@@ -334,3 +334,79 @@ proptest! {
         }
     }
 }
+
+/// The series branch's three stages (`branch_open`, `branch_series`, `branch_node`) against
+/// their formulas in i128, over the whole documented range: node weights with the link port
+/// 2G <= 2^WEIGHT_BITS, port numbers n_a, n_b, n_l, n_r <= 2^(WEIGHT_BITS − 1),
+/// n <= 2^WEIGHT_BITS, waves anywhere in the profile's range (extremes included).
+fn check_branch<P: Profile>(us: [u32; 8], gs: [u32; 3], ns: [u32; 4], pick: u32) -> Result<(), TestCaseError> {
+    let wb = P::WEIGHT_BITS;
+    let half = 1u64 << (wb - 1);
+    // Extremes (the wave range's ends) for a quarter of the cases.
+    let ext = |u: u32| {
+        if pick.is_multiple_of(4) {
+            if u.is_multiple_of(2) {
+                P::wave_from_i32(i32::MIN)
+            } else {
+                P::wave_from_i32(i32::MAX)
+            }
+        } else {
+            wave::<P>(u)
+        }
+    };
+    let b: Vec<P::Wave> = us[..3].iter().map(|u| ext(*u)).collect();
+    let e = ext(us[3]);
+    // Port weights g_k >= 1 and g_src with Σ <= G <= 2^(WB − 1).
+    let g: Vec<u32> = gs.iter().map(|x| 1 + (*x as u64 % (half / 4)) as u32).collect();
+    let g_src = (us[4] as u64 % (half / 4)) as u32;
+    let sum = g.iter().map(|x| *x as u64).sum::<u64>() + g_src as u64;
+    let big = pick.is_multiple_of(3); // G at its largest for a third of the cases
+    let gg = if big { half } else { sum + (us[5] as u64 % (half - sum + 1)) };
+    let total = 2 * gg;
+    let (r, s) = reciprocal(total, P::RECIP_BITS, false).unwrap();
+    let num: i128 =
+        2 * b.iter().zip(&g).map(|(b, g)| w::<P>(*b) * *g as i128).sum::<i128>() + g_src as i128 * w::<P>(e);
+    let (lo, hi) = wave_range::<P>();
+    // Stage 1: w = trunc(num/total), saturated.
+    let got = P::branch_open(&b, &g, e, g_src, r, s, total);
+    prop_assert_eq!(w::<P>(got), (num / total as i128).clamp(lo, hi));
+    // Stage 3 with a link wave.
+    let link_r = ext(us[6]);
+    let mut a = vec![P::ZERO; 3];
+    P::branch_node(&b, &g, &mut a, e, g_src, gg as u32, link_r, r, s, total);
+    let num3 = num + 2 * gg as i128 * w::<P>(link_r);
+    for (ak, bk) in a.iter().zip(&b) {
+        let want = ((num3 - w::<P>(*bk) * total as i128) / total as i128).clamp(lo, hi);
+        prop_assert_eq!(w::<P>(*ak), want);
+    }
+    // Stage 2: port numbers within the budget, n = Σ with the resistor's.
+    // n_a at its largest in the big cases (the quotient then reaches 5/2 of the wave range).
+    let na = if big { half } else { 1 + ns[0] as u64 % half };
+    let nb = 1 + ns[1] as u64 % (half - na / 2);
+    let nl = (ns[2] as u64 % (half + 1)).min((1u64 << wb) - na - nb);
+    let nk = [na, nb, nl];
+    let nr = (ns[3] as u64 % (half + 1)).min((1u64 << wb) - na - nb - nl);
+    let n = na + nb + nl + nr;
+    let (rn, sn) = reciprocal(n, P::RECIP_BITS, false).unwrap();
+    let (wa, wbv, st) = (ext(us[0]), ext(us[6]), ext(us[7]));
+    let (ra, rb, al) = P::branch_series(wa, wbv, st, nk[0] as u32, nk[1] as u32, nk[2] as u32, rn, sn, n as u32);
+    let x = w::<P>(wa) - w::<P>(wbv) - w::<P>(st);
+    let n = n as i128;
+    let out = |v: P::Wave, k: u64, sign: i128| ((w::<P>(v) * n + sign * 2 * k as i128 * x) / n).clamp(lo, hi);
+    prop_assert_eq!(w::<P>(ra), out(wa, nk[0], -1));
+    prop_assert_eq!(w::<P>(rb), out(wbv, nk[1], 1));
+    prop_assert_eq!(w::<P>(al), out(st, nk[2], 1));
+    Ok(())
+}
+
+proptest! {
+    #![proptest_config(config())]
+
+    #[test]
+    fn series_branch_stages_are_their_exact_values_truncated(
+        us in any::<[u32; 8]>(), gs in any::<[u32; 3]>(), ns in any::<[u32; 4]>(), pick in any::<u32>(),
+    ) {
+        check_branch::<Wide>(us, gs, ns, pick)?;
+        check_branch::<Narrow>(us, gs, ns, pick)?;
+    }
+}

@@ -25,7 +25,7 @@
 
 mod common;
 
-use common::{network, with_losses, Loads, Owned};
+use common::{network, with_branches, with_losses, Loads, Owned};
 use proptest::prelude::*;
 use tidewire_core::{Junction, Narrow, Profile, Shunt, Solver, Wide};
 
@@ -132,7 +132,12 @@ fn check<P: Profile>(
     let mut switched: Vec<(u16, Shunt, f64)> = Vec::new();
     for (i, r, when) in events {
         let j = i.index(net.junctions.len());
-        if matches!(net.junctions[j], Junction::Node { .. }) {
+        // A node a series branch joins is not reconfigurable (its weight is in the branch).
+        let linked = net
+            .junctions
+            .iter()
+            .any(|x| matches!(*x, Junction::Branch { a, b, .. } if a as usize == j || b as usize == j));
+        if matches!(net.junctions[j], Junction::Node { .. }) && !linked {
             switched.push((j as u16, Shunt::Resistor { milliohm: *r }, *when));
         }
     }
@@ -167,5 +172,23 @@ proptest! {
         let mut net16 = net.clone();
         net16.io_shift = 0;
         check::<Narrow>(&net16, level, &events, BAND_NARROW)?;
+    }
+
+    #[test]
+    fn a_constant_drive_settles_with_series_branches(
+        net in plant().prop_flat_map(with_branches),
+        level in prop_oneof![-4000i16..-100, 100i16..4000],
+        events in proptest::collection::vec((any::<prop::sample::Index>(), 10_000u32..1_000_000, 0.0f64..1.0), 0..3),
+    ) {
+        // The same bands with one or two series branches between random nodes (the linked
+        // nodes scatter without the hold rule). The narrow profile where it loads the
+        // branch (its 14-bit budget can refuse one; see `branch_props.rs`).
+        check::<Wide>(&net, level, &events, BAND_WIDE)?;
+        let mut net16 = net.clone();
+        net16.io_shift = 0;
+        let mut probe16 = Box::new(Tier::<Narrow>::new());
+        if probe16.load(&net16.network()).is_ok() {
+            check::<Narrow>(&net16, level, &events, BAND_NARROW)?;
+        }
     }
 }

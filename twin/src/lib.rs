@@ -136,6 +136,8 @@ pub struct Twin {
     filters: Vec<Filter>,
     shunt: Vec<Shunt>,
     broken: Vec<bool>,
+    /// Nodes a series branch joins (scattered by `branch`, not `node`).
+    linked: Vec<bool>,
     /// The source: junction and conductance (1/Ω, or the core's weight when quantized).
     source: Option<(usize, f64)>,
     out: Vec<f64>,
@@ -219,6 +221,13 @@ impl Twin {
                 .map(|j| if let Junction::Node { shunt } = j { *shunt } else { Shunt::Open })
                 .collect(),
             broken: vec![false; nj],
+            linked: (0..nj)
+                .map(|j| {
+                    net.junctions
+                        .iter()
+                        .any(|x| matches!(*x, Junction::Branch { a, b, .. } if a as usize == j || b as usize == j))
+                })
+                .collect(),
             source,
             out: vec![0.0; net.probes.len()],
             peak_wave: 0.0,
@@ -364,6 +373,11 @@ impl Twin {
                     self.a[p] = self.b[p] - c1 * x;
                     self.a[q] = self.b[q] + c2 * x;
                 }
+                Junction::Branch { a, b, port_milliohm, milliohm } => {
+                    self.branch(j, a as usize, b as usize, port_milliohm, milliohm, emf)
+                }
+                // A node a series branch joins is scattered by its branch.
+                Junction::Node { .. } if self.linked[j] => {}
                 _ => self.node(j, emf),
             }
         }
@@ -404,6 +418,70 @@ impl Twin {
             self.pos[p] = (self.pos[p] + 1) % self.rings[p].len();
         }
         &self.out
+    }
+
+    /// A series branch (R + L) from node `a` to node `b` (see `Junction::Branch`): with each
+    /// node's open-circuit voltage v0 = N/G (N = Σ 2·g_k·b_k + E·G_src, G its whole weight),
+    /// i = (v0_a − v0_b − 2·b_L)/(R + R_L + 1/G_a + 1/G_b), v_a = v0_a − i/G_a,
+    /// v_b = v0_b + i/G_b, a_L = b_L + R_L·i, next b_L = −a_L. Quantized: the core's integer
+    /// weights and its port numbers n_l = round(R_L·K), n_r = floor(R·K), K = G_a·G_b/2^c.
+    fn branch(&mut self, j: usize, a: usize, b: usize, port_milliohm: u32, milliohm: u32, emf: f64) {
+        let (na, ga) = self.node_sums(a, emf);
+        let (nb, gb) = self.node_sums(b, emf);
+        let (rl, r) = match &self.coef {
+            Some(q) => {
+                let c = q.exponent;
+                let k = (ga as u128) * (gb as u128);
+                let nl = (u128::from(port_milliohm) * k + (1u128 << (c - 1))) >> c;
+                let nr = (u128::from(milliohm) * k) >> c;
+                (nl as f64 / (ga * gb), nr as f64 / (ga * gb))
+            }
+            None => (f64::from(port_milliohm) / 1000.0, f64::from(milliohm) / 1000.0),
+        };
+        let (va0, vb0) = (na / ga, nb / gb);
+        let s = self.choke[j];
+        let i = (va0 - vb0 - 2.0 * s) / (r + rl + 1.0 / ga + 1.0 / gb);
+        self.set_node(a, va0 - i / ga);
+        self.set_node(b, vb0 + i / gb);
+        self.choke[j] = -(s + rl * i);
+    }
+
+    /// N = Σ 2·g_k·b_k (+ E·G_src) and G = Σ g_k (+ G_src + G_shunt) of node `j`.
+    fn node_sums(&self, j: usize, emf: f64) -> (f64, f64) {
+        let (mut num, mut den) = (0.0, 0.0);
+        for &p in &self.at[j] {
+            num += 2.0 * self.b[p] * self.g(p);
+            den += self.g(p);
+        }
+        for &k in &self.els_at[j] {
+            let el = self.elements[k];
+            let g = match &self.coef {
+                Some(q) => q.weight_u64(u64::from(el.port_milliohm) + u64::from(el.series_milliohm)),
+                None => 1000.0 / (f64::from(el.port_milliohm) + f64::from(el.series_milliohm)),
+            };
+            num += 2.0 * self.el_state[k] * g;
+            den += g;
+        }
+        if let Some((sj, gs)) = self.source {
+            if sj == j {
+                num += emf * gs;
+                den += gs;
+            }
+        }
+        if let Shunt::Resistor { milliohm } = self.shunt[j] {
+            den += self.g_of_milliohm(milliohm);
+        }
+        (num, den)
+    }
+
+    /// Every port of node `j` leaves with a_k = v − b_k.
+    fn set_node(&mut self, j: usize, v: f64) {
+        for &p in &self.at[j] {
+            self.a[p] = v - self.b[p];
+        }
+        for &k in &self.els_at[j] {
+            self.el_a[k] = v - self.el_state[k];
+        }
     }
 
     /// A node: v = (Σ 2·g_k·b_k + E·G_src) / (Σ g_k + G_src + G_shunt), every port a_k = v − b_k;

@@ -192,6 +192,19 @@ pub fn with_fractions(mut p: TestPlant) -> TestPlant {
     p
 }
 
+/// The same plant with a series branch (R + L) between its tap node and its far-end node
+/// (`Junction::Branch`: port resistance 150 Ω, 2 Ω in series), so the firmware's no-panic
+/// link check and instruction counts cover the branch pass: the difference to the plant
+/// without it is the cost of one branch (its two nodes scatter through it).
+pub fn with_branch(mut p: TestPlant) -> TestPlant {
+    const MOHM: u32 = 1000;
+    let far = (p.junctions.len() - 1) as u16;
+    // The tap of a one-tap bus: the node after the first series junction.
+    let tap = 2;
+    p.junctions.push(Junction::Branch { a: tap, b: far, port_milliohm: 150 * MOHM, milliohm: 2 * MOHM });
+    p
+}
+
 /// The profiles a plant is generated for, with the `io_shift` each one uses.
 pub const PROFILES: [(&str, u8); 2] = [("wide", 4), ("narrow", 0)];
 
@@ -201,7 +214,7 @@ pub fn test_plants(profile: &str, io_shift: u8) -> Vec<TestPlant> {
     // `TestPlant::from_network(&format!("c_{profile}"), &compiled.network())`.
     // 2, 9 and 34 ports on both parts, 86 ports on the M4 only (see `gen::fits_m0`).
     // Then the 9-port plant with a fraction on every line (`p9f_<profile>`, 8 fractional
-    // line ends).
+    // line ends), and with a series branch (`p9b_<profile>`).
     let mut plants: Vec<TestPlant> = [0usize, 1, 5, 13]
         .iter()
         .map(|&taps| {
@@ -213,5 +226,9 @@ pub fn test_plants(profile: &str, io_shift: u8) -> Vec<TestPlant> {
     let mut f = with_fractions(bus("", 1, io_shift));
     f.name = format!("p{}f_{profile}", f.ports());
     plants.push(f);
+    // And the 9-port plant with a series branch between two of its nodes (`p9b_<profile>`).
+    let mut b = with_branch(bus("", 1, io_shift));
+    b.name = format!("p{}b_{profile}", b.ports());
+    plants.push(b);
     plants
 }

@@ -16,6 +16,21 @@
 //! * **series** (equal impedances): 0 <= c <= 1, since a1² + a2² = b1² + b2² − 2c(1 − c)·x².
 //! * **series inductor**: c + rho <= 1 (the three-port series adaptor with a non-negative
 //!   extra resistance).
+//! * **series branch between nodes** (a wave-digital tree, Fettweis, "Wave digital filters:
+//!   theory and practice", Proc. IEEE 74(2), 1986): each linked node is a parallel adaptor
+//!   with a link port of weight G equal to the sum of its others (total = 2G), so the link's
+//!   outgoing wave w does not depend on the wave coming back (reflection-free: no delay-free
+//!   loop). The series adaptor (root) has ports proportional to n_a, n_b (the links), n_l
+//!   (the inductor) and n − n_a − n_b − n_l >= 0 (the resistor); it is lossless with those
+//!   port resistances when n_a : n_b = 1/G_a : 1/G_b, checked exactly as n_a·G_a = n_b·G_b,
+//!   so each link is one port seen with one resistance from both sides and no power is
+//!   created across it. Every adaptor's outgoing waves are formed from its exact value and
+//!   truncated toward zero, then saturated: |out_q| <= |out_exact| per port, so each
+//!   adaptor's outgoing pseudo-power is at most its exact (lossless or lossy) value, the
+//!   inductor (b_L[n] = −a_L[n − 1]) is lossless, and so the whole tree is passive. Ranges:
+//!   2G <= 2^WB at each node, n_a, n_b, n_l, n_r <= 2^(WB − 1), n <= 2^WB (the bounds
+//!   `Profile::branch_series` argues with), and the reciprocal of n is the one [`reciprocal`]
+//!   gives.
 //! * **element adaptor**: 0 <= μ <= 1.
 //! * **loss section**: 0 < a < 1, g > 0, −g <= gb, gb/g < a (effective zero below the pole)
 //!   and g − gb <= 1 − a (DC gain <= 1): then |H(e^jω)| falls monotonically from H(1) <= 1.
@@ -31,7 +46,7 @@
 
 use crate::network::MAX_LOSS_SECTIONS;
 use crate::profile::{hold_threshold, reciprocal, Profile};
-use crate::solver::{JunctionRt, LossRt};
+use crate::solver::{JunctionRt, LossRt, Mode};
 
 /// A node record with the sum and smallest of its port weights (without the source).
 pub(crate) fn node_ok<P: Profile>(rt: &JunctionRt, port_sum: u64, port_min: u64) -> bool {
@@ -46,11 +61,48 @@ pub(crate) fn node_ok<P: Profile>(rt: &JunctionRt, port_sum: u64, port_min: u64)
         && with_src <= 1u64 << P::WEIGHT_BITS
         && total >= with_src
         && total <= P::TOTAL_MAX;
-    let division = short || reciprocal(total, P::RECIP_BITS, !P::EXACT_NODE) == Some((recip, shift));
+    // Linked nodes (series branch ends) divide exactly in both profiles (`branch_node`), so
+    // their reciprocal is rounded down, not strictly below.
+    let division =
+        short || reciprocal(total, P::RECIP_BITS, !P::EXACT_NODE && mode != Mode::Linked) == Some((recip, shift));
+    if mode == Mode::Linked {
+        // One end of a series branch: total = 2G with G >= Σ g_k + g_src (its shunt >= 0),
+        // 2G within the budget (the numerator with the link port stays exact), no hold.
+        let linked = total % 2 == 0 && total / 2 >= with_src && total <= 1u64 << P::WEIGHT_BITS;
+        return port_min >= 1 && with_src == g_ports && linked && !short && !broken && hold == 0 && division;
+    }
     // The hold threshold is the one that keeps the held node passive (or 0, never).
     let held = hold == 0 || (!short && hold == hold_threshold::<P>(g_ports, g_src, total));
     let mode_ok = mode == super::mode_of(short, broken, super::lone_open(count, g_src, g_ports, total, short));
     coefficients && division && held && mode_ok
+}
+
+/// A series branch record with the records of its two nodes (see the module docs).
+pub(crate) fn branch_ok<P: Profile>(rt: &JunctionRt, node_a: &JunctionRt, node_b: &JunctionRt) -> bool {
+    let JunctionRt::Branch { a, b, na, nb, nl, n, recip, shift, .. } = *rt else {
+        return false;
+    };
+    let link = |r: &JunctionRt| match *r {
+        JunctionRt::Node { mode: Mode::Linked, total, .. } => Some(u128::from(total / 2)),
+        _ => None,
+    };
+    let (Some(ga), Some(gb)) = (link(node_a), link(node_b)) else {
+        return false;
+    };
+    let half = 1u128 << P::WEIGHT_BITS.saturating_sub(1);
+    let (na, nb, nl, n) = (u128::from(na), u128::from(nb), u128::from(nl), u128::from(n));
+    // Every operand < 2^64: products and sums exact in u128.
+    a != b
+        && na >= 1
+        && nb >= 1
+        && na.saturating_mul(ga) == nb.saturating_mul(gb)
+        && na <= half
+        && nb <= half
+        && nl <= half
+        && n.saturating_sub(na.saturating_add(nb).saturating_add(nl)) <= half
+        && n >= na.saturating_add(nb).saturating_add(nl)
+        && n <= 1u128 << P::WEIGHT_BITS
+        && u64::try_from(n).ok().and_then(|n| reciprocal(n, P::RECIP_BITS, false)) == Some((recip, shift))
 }
 
 /// A series, series-inductor or rig record.
@@ -59,7 +111,7 @@ pub(crate) fn two_port_ok<P: Profile>(rt: &JunctionRt) -> bool {
         JunctionRt::Series { c, .. } => u64::from(c) <= 1u64 << P::SERIES_FRAC,
         JunctionRt::SeriesL { c, rho, .. } => u64::from(c).saturating_add(u64::from(rho)) <= 1u64 << P::CHOKE_FRAC,
         JunctionRt::Rig { .. } => true,
-        JunctionRt::Node { .. } | JunctionRt::Unused => false,
+        JunctionRt::Node { .. } | JunctionRt::Unused | JunctionRt::Branch { .. } => false,
     }
 }
 

@@ -155,7 +155,27 @@ fn junctions(net: &Network<'_>) -> Result<(), BuildError> {
                     return Err(BuildError::ZeroResistance { junction });
                 }
             }
+            Junction::Branch { a, b, .. } => branch(net, j, a, b, ends)?,
         }
+    }
+    Ok(())
+}
+
+/// A series branch: no line end of its own, two different plain nodes (not a short, not the
+/// rig port), neither linked by another branch.
+fn branch(net: &Network<'_>, j: usize, a: u16, b: u16, ends: usize) -> Result<(), BuildError> {
+    let bad = BuildError::BadBranch { junction: j as u16 };
+    let plain = |n: u16| {
+        let rig = matches!(net.drive, Drive::Rig { junction, .. } if junction == n);
+        let node = matches!(net.junctions.get(n as usize), Some(Junction::Node { shunt }) if *shunt != Shunt::Short);
+        node && !rig
+    };
+    let shared = net.junctions.iter().enumerate().any(|(o, x)| match *x {
+        Junction::Branch { a: oa, b: ob, .. } => o != j && [oa, ob].iter().any(|n| *n == a || *n == b),
+        _ => false,
+    });
+    if ends != 0 || a == b || !plain(a) || !plain(b) || shared {
+        return Err(bad);
     }
     Ok(())
 }
@@ -184,7 +204,9 @@ fn probes(net: &Network<'_>) -> Result<(), BuildError> {
 fn drive(net: &Network<'_>) -> Result<Shape, BuildError> {
     let on_node = |junction: u16| match net.junctions.get(junction as usize) {
         None => Err(BuildError::IndexOutOfRange { table: Table::Junctions, index: junction }),
-        Some(Junction::Series { .. } | Junction::SeriesInductor { .. }) => Err(BuildError::DriveOnSeries { junction }),
+        Some(Junction::Series { .. } | Junction::SeriesInductor { .. } | Junction::Branch { .. }) => {
+            Err(BuildError::DriveOnSeries { junction })
+        }
         Some(Junction::Node { shunt }) => Ok(*shunt),
     };
     match net.drive {

@@ -44,7 +44,7 @@ fn node_weights<'a>(net: &'a Network<'_>, shape: &'a Shape, j: usize, k: u32) ->
 }
 
 /// Σ g + g_src at node `j`, exact.
-fn node_sum(net: &Network<'_>, shape: &Shape, j: usize, k: u32) -> u128 {
+pub(crate) fn node_sum(net: &Network<'_>, shape: &Shape, j: usize, k: u32) -> u128 {
     node_weights(net, shape, j, k).map(u128::from).sum()
 }
 
@@ -56,8 +56,16 @@ pub(crate) fn shift<P: Profile>(net: &Network<'_>, shape: &Shape) -> Result<u32,
     let budget = 1u128 << P::WEIGHT_BITS;
     let nodes = || (0..net.junctions.len()).filter(|j| shape.is_scatter_node(net, *j));
     let mut k = 0u32;
-    while k < TOP && nodes().any(|j| node_sum(net, shape, j, k) > budget) {
+    // A series branch's nodes and port numbers have their own budget (`branch::numbers`).
+    let fits = |k: u32| {
+        nodes().all(|j| node_sum(net, shape, j, k) <= budget)
+            && super::branch::first_misfit::<P>(net, shape, k).is_none()
+    };
+    while k < TOP && !fits(k) {
         k = k.saturating_add(1);
+    }
+    if let Some(j) = super::branch::first_misfit::<P>(net, shape, k) {
+        return Err(BuildError::CoefficientOutOfRange { junction: j as u16 });
     }
     for j in nodes() {
         let junction = j as u16; // j < 2^16 (shape check)

@@ -36,6 +36,12 @@ pub(crate) trait Acc: Sized {
     /// clamp; where fl − b is below the wave range the result is MIN + nz, still no larger in
     /// magnitude than v' − b. Narrow adds first and saturates after (exact in i32).
     fn port(fl: i32, b: Self::W, nz: i32) -> Self::W;
+    /// floor(|acc| / total) and (remainder != 0) as 0/1, from the node's reciprocal (see
+    /// [`super::reciprocal`]) and two exact correction steps.
+    fn floor_div_abs(acc: Self, recip: u32, shift: u32, total: u64) -> (Self, Self);
+    /// [`Acc::floor_div_abs`] for quotients below 5 times the wave range (six correction
+    /// steps, see [`super::floor_div64`]): the series branch's outputs before saturation.
+    fn floor_div_abs_wide(acc: Self, recip: u32, shift: u32, total: u64) -> (Self, Self);
 }
 
 impl Acc for i64 {
@@ -67,6 +73,18 @@ impl Acc for i64 {
         // s < 0 adds nz (0 or 1): no overflow.
         s.wrapping_add((s >> 31) & nz)
     }
+    #[inline(always)]
+    fn floor_div_abs(acc: i64, recip: u32, shift: u32, total: u64) -> (i64, i64) {
+        // |acc| <= 2^62 and total >= 2: q < 2^61, exact as i64.
+        let (q, nz) = super::floor_div64::<2>(acc.unsigned_abs(), recip, shift, total);
+        (q as i64, nz as i64)
+    }
+    #[inline(always)]
+    fn floor_div_abs_wide(acc: i64, recip: u32, shift: u32, total: u64) -> (i64, i64) {
+        // |acc| < 2^63 and the quotient < 5·2^31 (`branch_series`): exact as i64.
+        let (q, nz) = super::floor_div64::<6>(acc.unsigned_abs(), recip, shift, total);
+        (q as i64, nz as i64)
+    }
 }
 
 impl Acc for i32 {
@@ -86,9 +104,19 @@ impl Acc for i32 {
     }
     #[inline(always)]
     fn quotient_abs(acc: i32, recip: u32, shift: u32, total: u64) -> (i32, i32) {
-        // Narrow divides exactly (see `super::floor_div32`): |acc| <= 2^30 and total >= 2,
-        // so q <= 2^29, below the cap, exact as i32; total < 2^30 fits u32.
-        let (q, nz) = super::floor_div32(acc.unsigned_abs(), recip, shift, total as u32);
+        // Narrow divides exactly (see `super::floor_div32`): q <= 2^29, below the cap.
+        Self::floor_div_abs(acc, recip, shift, total)
+    }
+    #[inline(always)]
+    fn floor_div_abs(acc: i32, recip: u32, shift: u32, total: u64) -> (i32, i32) {
+        // |acc| <= 2^30 and total < 2^30 (the narrow node budget): q < 2^29.
+        let (q, nz) = super::floor_div32::<2>(acc.unsigned_abs(), recip, shift, total as u32);
+        (q as i32, nz as i32)
+    }
+    #[inline(always)]
+    fn floor_div_abs_wide(acc: i32, recip: u32, shift: u32, total: u64) -> (i32, i32) {
+        // |acc| < 2^31 and the quotient < 5·2^15 (`branch_series`).
+        let (q, nz) = super::floor_div32::<6>(acc.unsigned_abs(), recip, shift, total as u32);
         (q as i32, nz as i32)
     }
     #[inline(always)]
@@ -178,6 +206,103 @@ macro_rules! junction_rules {
             let n = A::from(b).wrapping_shl(Self::SERIES_FRAC).wrapping_add(<A as Acc>::mul_diff(mu, a, b));
             let m = $trunc(n, Self::SERIES_FRAC);
             $sat(if negate { m.wrapping_neg() } else { m })
+        }
+
+        // One copy per profile, not one per solver: the branch pass is not the hot loop of
+        // most plants, and every firmware's generic solver carries it.
+        #[inline(never)]
+        fn branch_open(
+            b: &[Self::Wave],
+            g: &[u32],
+            e: Self::Wave,
+            g_src: u32,
+            recip: u32,
+            shift: u32,
+            total: u64,
+        ) -> Self::Wave {
+            // Σ g_k + g_src <= total/2 <= 2^(WEIGHT_BITS − 1): the numerator is exact as in
+            // `node_scatter` (i64: <= 2^61; i32: <= 2^29), |w| <= max(|b|, |e|/2).
+            type A = $acc;
+            let mut acc: A = 0;
+            for (bk, gk) in b.iter().zip(g.iter()) {
+                acc = acc.wrapping_add(<A as Acc>::mul(*gk, *bk));
+            }
+            let acc = acc.wrapping_shl(1).wrapping_add(<A as Acc>::mul(g_src, e));
+            let (q, _) = <A as Acc>::floor_div_abs(acc, recip, shift, total);
+            // trunc toward zero = sign(acc)·floor(|acc|/total), by (x ^ mask) − mask.
+            let mask = ((acc < 0) as A).wrapping_neg();
+            $sat((q ^ mask).wrapping_sub(mask))
+        }
+
+        // One copy per profile, not one per solver: the branch pass is not the hot loop of
+        // most plants, and every firmware's generic solver carries it.
+        #[inline(never)]
+        fn branch_series(
+            wa: Self::Wave,
+            wb: Self::Wave,
+            s: Self::Wave,
+            na: u32,
+            nb: u32,
+            nl: u32,
+            recip: u32,
+            shift: u32,
+            n: u32,
+        ) -> (Self::Wave, Self::Wave, Self::Wave) {
+            // Bounds (checked at load): n_a, n_b, n_l <= 2^(WEIGHT_BITS − 1), n <= 2^WEIGHT_BITS,
+            // n >= n_a + n_b + n_l. Each numerator n·w − 2·n_k·x is, regrouped,
+            // (n − 2n_k)·w_k ± 2n_k·(w_j ± s) with |n − 2n_k| <= n: at most
+            // 2^WB·2^(W−1) + 2^WB·2^W < 2^(WB + W + 1) (i64: WB = 30, W = 32: < 2^63;
+            // i32: WB = 14, W = 16: < 2^31), so the wrapping sums below are exact whatever
+            // the intermediate order. The quotient is below |w_k| + 2·|w_j ± s| < 5·2^(W−1),
+            // which `floor_div_abs_wide` divides exactly.
+            type A = $acc;
+            let out = |w: Self::Wave, k: u32, sign_neg: bool| -> Self::Wave {
+                // n·w − 2k·(wa − wb − s) for r_a; n·w + 2k·(...) for r_b and a_L.
+                let kx = <A as Acc>::mul(k, wa)
+                    .wrapping_sub(<A as Acc>::mul(k, wb))
+                    .wrapping_sub(<A as Acc>::mul(k, s))
+                    .wrapping_shl(1);
+                let nw = <A as Acc>::mul(n, w);
+                let num = if sign_neg { nw.wrapping_sub(kx) } else { nw.wrapping_add(kx) };
+                let (q, _) = <A as Acc>::floor_div_abs_wide(num, recip, shift, u64::from(n));
+                let mask = ((num < 0) as A).wrapping_neg();
+                $sat((q ^ mask).wrapping_sub(mask))
+            };
+            (out(wa, na, true), out(wb, nb, false), out(s, nl, false))
+        }
+
+        // One copy per profile, not one per solver: the branch pass is not the hot loop of
+        // most plants, and every firmware's generic solver carries it.
+        #[inline(never)]
+        fn branch_node(
+            b: &[Self::Wave],
+            g: &[u32],
+            a: &mut [Self::Wave],
+            e: Self::Wave,
+            g_src: u32,
+            link: u32,
+            r: Self::Wave,
+            recip: u32,
+            shift: u32,
+            total: u64,
+        ) {
+            // Σ g_k + g_src + link <= total <= 2^WEIGHT_BITS: the numerator is exact as in
+            // `node_scatter` (i64: <= 2^62; i32: <= 2^30).
+            type A = $acc;
+            let mut acc: A = <A as Acc>::mul(link, r);
+            for (bk, gk) in b.iter().zip(g.iter()) {
+                acc = acc.wrapping_add(<A as Acc>::mul(*gk, *bk));
+            }
+            let acc = acc.wrapping_shl(1).wrapping_add(<A as Acc>::mul(g_src, e));
+            let (q, nz) = <A as Acc>::floor_div_abs(acc, recip, shift, total);
+            let neg = (acc < 0) as A;
+            let mask = neg.wrapping_neg();
+            let fl = (q.wrapping_add(nz & neg) ^ mask).wrapping_sub(mask);
+            for (ak, bk) in a.iter_mut().zip(b.iter()) {
+                // As `node_scatter`: v − b = (fl − b) + frac, truncated toward zero.
+                let m = fl.wrapping_sub(A::from(*bk));
+                *ak = $sat(m.wrapping_add(((m < 0) as A) & nz));
+            }
         }
 
         #[inline(always)]

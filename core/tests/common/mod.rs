@@ -238,3 +238,50 @@ pub fn with_fractions(net: Owned) -> impl Strategy<Value = Owned> {
         out
     })
 }
+
+/// Random series branches between nodes of `net` (up to two, each node in at most one):
+/// R_L = u·(ρ_a + ρ_b) and R = v·(ρ_a + ρ_b), u in [0, 4), v in [0, 2), ρ the node's own
+/// impedance (its line ends in parallel): the range a lumped short segment takes
+/// (R_L = 2L/T <= 3·Z0 below 1.5 samples). Shorts and nodes already linked are skipped.
+pub fn with_branches(net: Owned) -> impl Strategy<Value = Owned> {
+    let nodes = net.junctions.len();
+    proptest::collection::vec(
+        (any::<prop::sample::Index>(), any::<prop::sample::Index>(), 0.0f64..4.0, 0.0f64..2.0),
+        1..=2,
+    )
+    .prop_map(move |specs| {
+        let mut out = net.clone();
+        let mut used: Vec<usize> = Vec::new();
+        let rho = |o: &Owned, j: usize| {
+            let g: f64 = o
+                .lines
+                .iter()
+                .map(|l| (usize::from(l.a == j as u16) + usize::from(l.b == j as u16)) as f64 / l.z_milliohm as f64)
+                .sum();
+            1.0 / g
+        };
+        let plain: Vec<usize> = (0..nodes)
+            .filter(|j| matches!(out.junctions[*j], Junction::Node { shunt } if shunt != Shunt::Short))
+            .collect();
+        for (ia, ib, u, v) in specs {
+            if plain.len() < 2 {
+                break;
+            }
+            // Two different plain nodes.
+            let ka = ia.index(plain.len());
+            let (a, b) = (plain[ka], plain[(ka + 1 + ib.index(plain.len() - 1)) % plain.len()]);
+            if used.contains(&a) || used.contains(&b) {
+                continue;
+            }
+            let r = rho(&out, a) + rho(&out, b);
+            used.extend([a, b]);
+            out.junctions.push(Junction::Branch {
+                a: a as u16,
+                b: b as u16,
+                port_milliohm: (u * r) as u32,
+                milliohm: (v * r) as u32,
+            });
+        }
+        out
+    })
+}

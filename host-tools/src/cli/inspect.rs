@@ -127,7 +127,8 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
         );
         for t in &r.segments {
             let Some(f) = &t.fraction else {
-                let _ = writeln!(s, "   {:<18} {} (whole samples)", t.name, t.model_name());
+                let how = if t.delay == 0 { "no delay line" } else { "whole samples" };
+                let _ = writeln!(s, "   {:<18} {} ({how})", t.name, t.model_name());
                 continue;
             };
             let _ = writeln!(

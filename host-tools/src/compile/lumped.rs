@@ -17,11 +17,13 @@
 //!   junction (L'·l with R'·l in series, between two line ends of equal impedance), its
 //!   C'·l neglected: chosen when that model's stated error is the smaller.
 //!
+//! * **pi**: a piece below `MIN_FRACTIONAL_DELAY` samples between two nodes that keep delay
+//!   lines of their own: C'·l/2 at each node, R'·l + L'·l as the core's series branch between
+//!   them; chosen where its stated error is smaller than the delay line's or the joined
+//!   model's (`super::pi` says where it applies).
+//!
 //! Chains of short segments merge transitively (union-find over the plant's nodes). The
-//! error each model makes is stated per segment ([`lump_error`]). The general series
-//! inductor between two arbitrary nodes (issue 10 item 2's core element) is not built here:
-//! that needs a new core junction; joined pieces elsewhere neglect their inductance and say
-//! by how much.
+//! error each model makes is stated per segment ([`lump_error`]).
 use super::loads::{realize, ElementSpec};
 use super::{checked_milliohm, err, MIN_OHM};
 use crate::plant::{Drive, EventAction, Load, Plant, PlantError, ProbeKind};
@@ -49,6 +51,10 @@ pub enum LumpKind {
     /// neglected. Chosen over [`LumpKind::Joined`] where its stated error is smaller (a piece
     /// of higher impedance than the lines it joins).
     Series,
+    /// A piece between two nodes that keep delay lines of their own: C'l/2 at each node and
+    /// R'l + L'l as a series branch between them (`super::pi`). Chosen over a whole-sample
+    /// delay line or [`LumpKind::Joined`] where its stated error is smaller.
+    Pi,
 }
 
 /// The lumping decided for a plant at one sample period.
@@ -93,11 +99,24 @@ pub fn plan(plant: &Plant, file: &str, dt: f64) -> Result<LumpPlan, PlantError> 
     let degree = |node: usize| plant.segments.iter().filter(|s| s.from == node || s.to == node).count();
     let mut parent: Vec<usize> = (0..n).collect();
     let mut lumped = vec![None; plant.segments.len()];
+    // Plant nodes already at one end of a pi section (each in at most one).
+    let mut pi_nodes: Vec<usize> = vec![];
     for (si, seg) in plant.segments.iter().enumerate() {
         let cable = &plant.cables[seg.cable];
         let samples = seg.length / cable.velocity / dt;
         // NaN (a zero velocity cannot reach here) counts as long: nothing is lumped on it.
-        if samples >= LUMP_BELOW_SAMPLES || samples.is_nan() {
+        if samples.is_nan() {
+            continue;
+        }
+        if samples >= LUMP_BELOW_SAMPLES {
+            // A whole-sample delay line, or a pi section where that states less error.
+            if samples < super::MIN_FRACTIONAL_DELAY && super::pi::fits(plant, si, dt, &pi_nodes) {
+                let judge = super::pi::judge(plant, dt);
+                if super::pi::error(plant, si, judge) < super::pi::line_error(plant, si, dt, judge) {
+                    lumped[si] = Some(LumpKind::Pi);
+                    pi_nodes.extend([seg.from, seg.to]);
+                }
+            }
             continue;
         }
         let need = crate::si::at_least(LUMP_BELOW_SAMPLES * cable.velocity / seg.length, "Hz");
@@ -127,6 +146,14 @@ pub fn plan(plant: &Plant, file: &str, dt: f64) -> Result<LumpPlan, PlantError> 
         }
         let drive = drive_node(plant);
         let leaf = [seg.to, seg.from].into_iter().find(|&e| degree(e) == 1 && e != drive && seg.from != seg.to);
+        if leaf.is_none() && super::pi::fits(plant, si, dt, &pi_nodes) {
+            let judge = super::pi::judge(plant, dt);
+            if super::pi::error(plant, si, judge) < lump_error(plant, si, LumpKind::Joined, judge) {
+                lumped[si] = Some(LumpKind::Pi);
+                pi_nodes.extend([seg.from, seg.to]);
+                continue;
+            }
+        }
         lumped[si] = Some(match leaf {
             Some(leaf) => LumpKind::Stub { leaf },
             None => LumpKind::Joined,
@@ -282,8 +309,18 @@ pub(super) fn class_load(
         .iter()
         .zip(&plan.lumped)
         .enumerate()
-        .filter(|(si, (s, l))| l.is_some() && plan.class_of[s.from] == k && !inductive.contains(si))
-        .map(|(_, (s, _))| plant.cables[s.cable].c_per_m() * s.length)
+        .filter(|(si, (s, l))| {
+            l.is_some() && (plan.class_of[s.from] == k || plan.class_of[s.to] == k) && !inductive.contains(si)
+        })
+        .map(|(_, (s, l))| {
+            // A pi section puts half its C at each of its two nodes (classes).
+            let c = plant.cables[s.cable].c_per_m() * s.length;
+            if *l == Some(LumpKind::Pi) {
+                c / 2.0 * [s.from, s.to].iter().filter(|&&n| plan.class_of[n] == k).count() as f64
+            } else {
+                c
+            }
+        })
         .sum::<f64>()
         + extra_c;
     let Some(first) = first else { return Ok((Shunt::Open, vec![])) };
@@ -401,6 +438,7 @@ pub fn lump_error(plant: &Plant, si: usize, kind: LumpKind, rise: f64) -> f64 {
             let series_part = if r_side > 0.0 { series / r_side } else { f64::INFINITY };
             series_part + (theta.cosh() - 1.0).norm()
         }
+        LumpKind::Pi => super::pi::error(plant, si, rise),
         LumpKind::Series => {
             // Model [1, (R' + jωL')·l; 0, 1]: the neglected shunt sinh θ / Zc ≈ jωC'l
             // against the larger resistance at either end, and cosh θ − 1 as above.

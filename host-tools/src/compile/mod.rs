@@ -24,6 +24,7 @@ mod loads;
 pub mod loss;
 pub mod lumped;
 pub mod model_error;
+pub mod pi;
 mod report;
 mod segments;
 pub mod zc;
@@ -222,6 +223,12 @@ fn build(plant: &Plant, file: &str, profile: ProfileKind, fit_losses: bool) -> R
                 series_milliohm: series,
             });
         }
+    }
+    // Pi sections: R'l + L'l as a series branch between their two nodes (their C'l/2 went
+    // to each node's elements above).
+    for (si, ka, kb) in pi::sections(plant, &lump) {
+        let (port_milliohm, milliohm) = lumped::series_l(plant, si, dt, file)?;
+        b.junctions.push(Junction::Branch { a: ka as JunctionId, b: kb as JunctionId, port_milliohm, milliohm });
     }
     let node_junction: Vec<JunctionId> = lump.class_of.iter().map(|&k| k as JunctionId).collect();
     b.node_junction = node_junction.clone();

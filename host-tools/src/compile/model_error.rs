@@ -140,8 +140,8 @@ pub(super) fn fill(c: &mut Compiled, plant: &Plant, lump: &LumpPlan) {
             Some(kind) => SegmentModel::Lumped(kind),
             None => SegmentModel::DelayLine,
         };
-        if lump.lumped[si] == Some(super::LumpKind::Series) {
-            // The series-inductor junction carries the piece's resistance.
+        if matches!(lump.lumped[si], Some(super::LumpKind::Series | super::LumpKind::Pi)) {
+            // The series-inductor junction or the pi section's branch carries the piece's resistance.
             t.r_dropped = None;
         }
         t.model_error = seg_error(si, t.error_s, rise);

@@ -49,7 +49,8 @@ pub struct SegmentTiming {
 pub enum SegmentModel {
     /// Delay lines of whole samples (with lumped resistance and loss filters).
     DelayLine,
-    /// Lumped elements: shorter than [`super::LUMP_BELOW_SAMPLES`].
+    /// Lumped elements: shorter than [`super::LUMP_BELOW_SAMPLES`], or a pi section below
+    /// `MIN_FRACTIONAL_DELAY` samples where it states less error.
     Lumped(super::LumpKind),
 }
 
@@ -61,6 +62,7 @@ impl SegmentModel {
             SegmentModel::Lumped(super::LumpKind::Stub { .. }) => "lumped stub",
             SegmentModel::Lumped(super::LumpKind::Joined) => "lumped, nodes joined",
             SegmentModel::Lumped(super::LumpKind::Series) => "lumped series L",
+            SegmentModel::Lumped(super::LumpKind::Pi) => "lumped pi (C/2, R+L, C/2)",
         }
     }
 
@@ -71,6 +73,7 @@ impl SegmentModel {
             SegmentModel::Lumped(super::LumpKind::Stub { .. }) => "lumped_stub",
             SegmentModel::Lumped(super::LumpKind::Joined) => "lumped_joined",
             SegmentModel::Lumped(super::LumpKind::Series) => "lumped_series",
+            SegmentModel::Lumped(super::LumpKind::Pi) => "lumped_pi",
         }
     }
 }

@@ -19,6 +19,9 @@ fn junction(j: &Junction) -> String {
         Junction::SeriesInductor { port_milliohm, milliohm } => {
             format!("Junction::SeriesInductor {{ port_milliohm: {port_milliohm}, milliohm: {milliohm} }}")
         }
+        Junction::Branch { a, b, port_milliohm, milliohm } => {
+            format!("Junction::Branch {{ a: {a}, b: {b}, port_milliohm: {port_milliohm}, milliohm: {milliohm} }}")
+        }
         _ => "Junction::Node { shunt: Shunt::Open }".into(),
     }
 }

@@ -17,6 +17,8 @@ pub struct Ctx<'a> {
     pub choke_slot: usize,
     /// Per port, its slot in `self.held` (the previous outgoing wave) if its node holds.
     pub held: &'a [Option<usize>],
+    /// Every junction's plan (a series branch reads its two nodes' records).
+    pub all: &'a [JunctionPlan],
 }
 
 /// Emit junction `j`.
@@ -41,6 +43,49 @@ pub fn emit(s: &mut String, j: usize, plan: &JunctionPlan, cx: &Ctx<'_>) -> Resu
         JunctionPlan::Rig { port } => {
             let _ = writeln!(s, "        // junction {j}: rig port, a = v − b[n − latency]");
             let _ = writeln!(s, "        let a{port} = P::sub(e, rig_back);");
+            Ok(())
+        }
+        JunctionPlan::Branch { a, b, na, nb, nl, n, recip, shift } => {
+            // The generic solver's branch pass (`Solver::scatter_branches`): each node's
+            // open wave, the series adaptor, each node with its link wave; b_L' = −a_L.
+            let k = cx.choke_slot;
+            let side = |node: u16| match cx.all.get(node as usize) {
+                Some(JunctionPlan::Node { first, count, g_src, coef, .. }) => {
+                    let ports: Vec<usize> = (*first as usize..*first as usize + *count as usize).collect();
+                    let g = ports
+                        .iter()
+                        .map(|p| cx.weights.get(*p).map(|g| format!("{g}u32")))
+                        .collect::<Option<Vec<_>>>()?;
+                    let div = format!("{}u32, {}u32, {}u64", coef.recip, coef.shift, coef.total);
+                    Some((ports, g.join(", "), format!("{g_src}u32"), div, coef.total / 2))
+                }
+                _ => None,
+            };
+            let bad = || EmitError::Unsupported {
+                what: "a series branch whose ends are not nodes".into(),
+                junction: Some(j),
+            };
+            let (pa, ga, sa, xa, la) = side(a).ok_or_else(bad)?;
+            let (pb, gb, sb, xb, lb) = side(b).ok_or_else(bad)?;
+            let _ = writeln!(s, "        // junction {j}: series branch from node {a} to node {b}, n = {n}");
+            let _ =
+                writeln!(s, "        let wa{j}: W = P::branch_open(&[{}], &[{ga}], e, {sa}, {xa});", list(&pa, "b"));
+            let _ =
+                writeln!(s, "        let wb{j}: W = P::branch_open(&[{}], &[{gb}], e, {sb}, {xb});", list(&pb, "b"));
+            let _ = writeln!(
+                s,
+                "        let (ra{j}, rb{j}, al{j}) = P::branch_series(wa{j}, wb{j}, self.chokes[{k}], {na}u32, {nb}u32, {nl}u32, {recip}u32, {shift}u32, {n}u32);"
+            );
+            for (ports, g, src, x, link, r) in [(&pa, &ga, &sa, &xa, la, "ra"), (&pb, &gb, &sb, &xb, lb, "rb")] {
+                let _ = writeln!(
+                    s,
+                    "        let [{}] = {{ let mut o = [P::ZERO; {}]; P::branch_node(&[{}], &[{g}], &mut o, e, {src}, {link}u32, {r}{j}, {x}); o }};",
+                    list(ports, "a"),
+                    ports.len(),
+                    list(ports, "b"),
+                );
+            }
+            let _ = writeln!(s, "        self.chokes[{k}] = P::neg(al{j});");
             Ok(())
         }
         _ => {

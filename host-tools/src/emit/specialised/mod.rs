@@ -32,16 +32,36 @@ pub enum EmitError {
     Host(String),
 }
 
-/// The ports a junction scatters.
-fn junction_ports(jp: &JunctionPlan) -> std::ops::Range<usize> {
+/// The ports a junction scatters (a series branch: both of its nodes' ports; `all` is every
+/// junction's plan).
+fn junction_ports(all: &[JunctionPlan], jp: &JunctionPlan) -> Vec<usize> {
     match *jp {
-        JunctionPlan::Node { first, count, .. } => first as usize..first as usize + count as usize,
+        JunctionPlan::Node { first, count, .. } => (first as usize..first as usize + count as usize).collect(),
         JunctionPlan::Series { p, q, .. } | JunctionPlan::SeriesInductor { p, q, .. } => {
-            p as usize..(q as usize).max(p as usize) + 1
+            (p as usize..(q as usize).max(p as usize) + 1).collect()
         }
-        JunctionPlan::Rig { port } => port as usize..port as usize + 1,
-        _ => 0..0,
+        JunctionPlan::Rig { port } => vec![port as usize],
+        JunctionPlan::Branch { a, b, .. } => [a, b]
+            .iter()
+            .flat_map(|n| all.get(*n as usize).map(|x| junction_ports(all, x)).unwrap_or_default())
+            .collect(),
+        _ => vec![],
     }
+}
+
+/// The nodes a series branch scatters (skipped in their own place).
+fn linked_nodes(all: &[JunctionPlan]) -> Vec<usize> {
+    all.iter()
+        .flat_map(|jp| match *jp {
+            JunctionPlan::Branch { a, b, .. } => vec![a as usize, b as usize],
+            _ => vec![],
+        })
+        .collect()
+}
+
+/// Junctions that keep a state wave in `self.chokes` (series inductors and series branches).
+fn has_choke(jp: &JunctionPlan) -> bool {
+    matches!(jp, JunctionPlan::SeriesInductor { .. } | JunctionPlan::Branch { .. })
 }
 
 /// `a3, a4, a5` for ports [3, 4, 5] and prefix "a".
@@ -149,7 +169,7 @@ impl Writer<'_> {
         };
         let slots = self.switch_slots();
         let n_switched = slots.iter().flatten().count();
-        let n_chokes = l.junctions.iter().filter(|j| matches!(j, JunctionPlan::SeriesInductor { .. })).count();
+        let n_chokes = l.junctions.iter().filter(|j| has_choke(j)).count();
         let n_sections: usize = l.losses.iter().map(|x| x.sections as usize).sum();
         let n_allpass = l.losses.iter().filter(|x| x.allpass.is_some()).count();
         let held = self.held_slots(&slots);
@@ -269,12 +289,24 @@ impl Writer<'_> {
             DrivePlan::Rig { port, .. } => Some(port as usize),
             _ => None,
         };
+        let linked = linked_nodes(&l.junctions);
         for (j, jp) in l.junctions.iter().enumerate() {
+            // A node a series branch joins is scattered by its branch (as the generic solver's
+            // branch pass does); a switched one cannot be (the core refuses to switch it).
+            if linked.contains(&j) {
+                if slots.get(j).copied().flatten().is_some() {
+                    return Err(EmitError::Unsupported {
+                        what: "an event at a node a series branch joins".into(),
+                        junction: Some(j),
+                    });
+                }
+                continue;
+            }
             // Per junction: read its ports' arriving waves, scatter, and send every outgoing
             // wave on at once (into the partner's ring, or an element's adaptor and state), so
             // only a junction's own waves are live at a time.
-            let ports = junction_ports(jp);
-            for p in ports.clone().filter(|p| Some(*p) != rig_port) {
+            let ports = junction_ports(&l.junctions, jp);
+            for p in ports.iter().copied().filter(|p| Some(*p) != rig_port) {
                 let _ = writeln!(s, "            let b{p}: W = {};", self.arrival(p));
             }
             let cx = junctions::Ctx {
@@ -282,14 +314,15 @@ impl Writer<'_> {
                 switch_slot: slots.get(j).copied().flatten(),
                 choke_slot: chokes,
                 held,
+                all: &l.junctions,
             };
             let mut body = String::new();
             junctions::emit(&mut body, j, jp, &cx)?;
             for line in body.lines() {
                 let _ = writeln!(s, "    {line}");
             }
-            chokes += usize::from(matches!(jp, JunctionPlan::SeriesInductor { .. }));
-            for p in ports {
+            chokes += usize::from(has_choke(jp));
+            for p in ports.iter().copied() {
                 self.send(s, p);
                 if let Some(h) = held.get(p).copied().flatten() {
                     let _ = writeln!(s, "            self.held[{h}] = a{p};");
