@@ -10,6 +10,7 @@
 //! zero (see the crate documentation).
 
 mod branch;
+mod mode;
 mod passive;
 mod shape;
 mod weights;
@@ -18,6 +19,7 @@ use crate::error::{BuildError, ConfigError, Table};
 use crate::network::{ElementKind, Junction, Network, ProbeKind, Shunt, Side, MAX_LOSS_SECTIONS};
 use crate::profile::{hold_threshold, reciprocal, Profile};
 use crate::solver::{DriveRt, ElementRt, JunctionRt, LossRt, Mode, ProbeRt, Solver};
+pub(crate) use mode::{lone_open, mode_of};
 pub(crate) use passive::node_ok as passive_node;
 use shape::{cap, ports_at, Shape};
 use weights::weight;
@@ -39,24 +41,6 @@ pub(crate) fn end_index(line: usize, side_b: bool) -> usize {
 /// `table[i]` as an index (0 if out of range, unreachable after validation; no panic path).
 fn at(table: &[u16], i: usize) -> usize {
     table.get(i).copied().unwrap_or(0) as usize
-}
-
-/// A lone open line end: one port, no source, no shunt. Its exact node voltage is 2·b, so it
-/// reflects a = b exactly; the node rule's v' just below 2·b (`Profile::node_scatter`) would
-/// send b − 1 at every reflection, a loss the network does not have (a resonant stub would
-/// lose one LSB per round trip). So it runs as an open end (`Mode::Broken`: a = b).
-pub(crate) fn lone_open(count: u16, g_src: u32, g_ports: u64, total: u64, short: bool) -> bool {
-    count == 1 && g_src == 0 && total == g_ports && !short
-}
-
-pub(crate) fn mode_of(short: bool, broken: bool, open: bool) -> Mode {
-    if broken || open {
-        Mode::Broken
-    } else if short {
-        Mode::Short
-    } else {
-        Mode::Scatter
-    }
 }
 
 /// One loss section's coefficients from its pole and zero (Q30), in the profile's

@@ -170,7 +170,7 @@ pub struct NodeCoef {
     /// Split into open ends (a = b).
     pub broken: bool,
     /// A lone open line end (one port, no source, no shunt): reflects a = b exactly
-    /// (`configure::lone_open`), whether broken or not.
+    /// (`configure::mode::lone_open`), whether broken or not.
     pub open: bool,
     /// Hold threshold of the hold rule ([`crate::profile::hold_threshold`]; 0: never hold,
     /// the node runs `Profile::node_scatter`, else `Profile::node_scatter_held`).
@@ -208,7 +208,7 @@ pub fn node_coefficients<P: Profile>(
     let mut rt = JunctionRt::Node {
         first: 0,
         // Only whether the node has one port matters here (a lone open end,
-        // `configure::lone_open`): weights are >= 1, so one port is port_min == port_sum.
+        // `configure::mode::lone_open`): weights are >= 1, so one port is port_min == port_sum.
         count: if port_min == port_sum { 1 } else { 2 },
         mode: Mode::Scatter,
         short: old.short,
