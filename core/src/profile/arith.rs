@@ -349,7 +349,11 @@ macro_rules! junction_rules {
             let e_a = A::from(e);
             let (q, nz_a) = (A::from(q), A::from(nz));
             // driven (e != 0) and q >= hold_min: a node-wide mask.
-            let node = ((e_a | e_a.wrapping_neg()) >> bits) & nonneg(q.wrapping_sub(<A as Acc>::from_u32(hold_min)));
+            // Opaque to the optimizer: otherwise it may unswitch the port loop on this mask (a
+            // branch on the data, seen on the M4 in a plant with a series branch).
+            let node = core::hint::black_box(
+                ((e_a | e_a.wrapping_neg()) >> bits) & nonneg(q.wrapping_sub(<A as Acc>::from_u32(hold_min))),
+            );
             for (ak, bk) in a.iter_mut().zip(b.iter()) {
                 // v' − b = (fl − b) + frac, frac > 0 iff nz: the floor is m, the ceiling m + nz.
                 let m = A::from(fl).wrapping_sub(A::from(*bk));
