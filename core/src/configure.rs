@@ -106,7 +106,12 @@ pub fn check<P: Profile>(net: &Network<'_>) -> Result<u32, BuildError> {
 /// A line's weight as stored (u32), or an error if it does not fit (a line whose ends meet
 /// no scattering node, so the node budget did not bound it).
 fn line_weight(z_milliohm: u32, k: u32, junction: u16) -> Result<u32, BuildError> {
-    u32::try_from(weight(u64::from(z_milliohm), k)).map_err(|_| BuildError::CoefficientOutOfRange { junction })
+    // A weight of 0 (an impedance above 2^(TOP − k) mΩ) would leave the line out of every
+    // energy sum, so it is refused even where only series junctions touch the line.
+    u32::try_from(weight(u64::from(z_milliohm), k))
+        .ok()
+        .filter(|g| *g >= 1)
+        .ok_or(BuildError::CoefficientOutOfRange { junction })
 }
 
 /// Σ and min of the port weights (line ends, element ports; no source) of junction `j`.
