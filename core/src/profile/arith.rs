@@ -124,9 +124,10 @@ impl Acc for i32 {
         // |fl| <= 2^29 + 1 and |b| <= 2^15: the difference and the increment are exact in
         // i32, so Narrow truncates the exact value and then saturates (the exact node's
         // outputs, bit for bit as before the Wide rule changed).
-        // The sign mask is opaque on ARMv6-M (`super::opaque`), else this add is a branch.
+        // The sign as 0/1 (logical shift) and-ed with the 0/1 nz: a sign mask (m >> 31) & nz
+        // is turned into a select by LLVM, a conditional branch on ARMv6-M.
         let m = fl.wrapping_sub(i32::from(b));
-        super::sat_i16(m.wrapping_add(super::opaque(m >> 31) & nz))
+        super::sat_i16(m.wrapping_add(((m as u32 >> 31) as i32) & nz))
     }
 }
 
