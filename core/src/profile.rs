@@ -230,9 +230,55 @@ pub struct Narrow;
 fn apply_sign32(m: i32, mask: i32) -> i32 {
     (m ^ mask).wrapping_sub(mask)
 }
+
+/// `x` itself, but opaque to the optimizer on targets without a conditional select
+/// (`tidewire_no_cond_select`, set by `core/build.rs` for ARMv6-M). There LLVM turns a mask
+/// it can prove to be a compare result (`x >> 31`, `(x | −x) >> 31`) back into a select, and
+/// a select into a conditional branch, so the instruction count of `step` would depend on the
+/// data. Hiding the mask (`core::hint::black_box`: one store and one load) keeps the
+/// and/or form. Elsewhere (Cortex-M4: IT blocks, `SSAT`; x86-64: `CMOV`) the select is
+/// branch-free and cheaper, so the value passes through untouched.
+#[inline(always)]
+pub(crate) fn opaque<T>(x: T) -> T {
+    #[cfg(tidewire_no_cond_select)]
+    {
+        core::hint::black_box(x)
+    }
+    #[cfg(not(tidewire_no_cond_select))]
+    {
+        x
+    }
+}
+
+/// `x` saturated to i16, the value of `x.clamp(i16::MIN, i16::MAX)`: the clamp (`SSAT` on
+/// the M4, `CMOV` on x86-64) where the target has a conditional select, else
+/// [`sat_i16_masked`].
 #[inline(always)]
 fn sat_i16(x: i32) -> i16 {
-    x.clamp(i16::MIN as i32, i16::MAX as i32) as i16
+    #[cfg(not(tidewire_no_cond_select))]
+    {
+        x.clamp(i16::MIN as i32, i16::MAX as i32) as i16
+    }
+    #[cfg(tidewire_no_cond_select)]
+    {
+        sat_i16_masked(x)
+    }
+}
+
+/// [`sat_i16`] without a conditional branch on ARMv6-M (compiled and tested on every target,
+/// run only where `tidewire_no_cond_select` is set). x fits iff bits 31..15 all equal, i.e.
+/// iff (x >> 15) == (x >> 31). That test as 0/1 is branch-free on ARMv6-M (a carry trick,
+/// `SUBS`/`SBCS`); a 0/−1 mask LLVM can see to come from it is not (it is lowered as a
+/// select), so the 0/1 flag goes through [`opaque`] and is negated after: m = −1 where x
+/// does not fit. The limit is s ^ MAX: MAX for x >= 0 (s = 0), MIN for x < 0 (s = −1,
+/// −1 ^ 0x7FFF = −0x8000); x ^ ((x ^ lim) & m) picks lim where m = −1, x where m = 0.
+#[cfg_attr(not(any(tidewire_no_cond_select, test)), allow(dead_code))]
+#[inline(always)]
+fn sat_i16_masked(x: i32) -> i16 {
+    let s = x >> 31;
+    let m = opaque(((x >> 15) != s) as i32).wrapping_neg();
+    let lim = s ^ i32::from(i16::MAX);
+    (x ^ ((x ^ lim) & m)) as i16
 }
 
 /// `t` saturated to i32, the same value as `t.clamp(i32::MIN, i32::MAX)`: t fits exactly when
@@ -324,8 +370,15 @@ fn floor_div32<const STEPS: usize>(mag: u32, recip: u32, shift: u32, total: u32)
     let lo = mag & 0xFFFF;
     let mut q = hi.wrapping_mul(recip).wrapping_add(lo.wrapping_mul(recip) >> 16).wrapping_shr(shift);
     let mut rem = mag.wrapping_sub(q.wrapping_mul(total));
+    // Opaque on ARMv6-M: with a known total (the specialised form) LLVM turns the sign test
+    // below back into a compare with a constant, and a compare into a branch there.
+    let total = opaque(total);
     for _ in 0..STEPS {
-        let step = (rem >= total) as u32;
+        // rem >= total as 0/1 from a sign bit (a compare becomes a branch on ARMv6-M):
+        // 0 <= rem <= mag < 2^31 (q is never above the floor) and total < 2^30, so
+        // rem − total is exact as an i32, negative iff rem < total. The flag is hidden from
+        // the optimizer before it becomes the mask −1/0 (else a select, a branch there).
+        let step = opaque(1 ^ (rem.wrapping_sub(total) >> 31));
         q = q.wrapping_add(step);
         rem = rem.wrapping_sub(total & step.wrapping_neg());
     }
@@ -400,11 +453,13 @@ impl Profile for Narrow {
 
     #[inline(always)]
     fn sub(v: i16, b: i16) -> i16 {
-        v.saturating_sub(b)
+        // The value of `v.saturating_sub(b)`, through `sat_i16` (branch-free on ARMv6-M).
+        sat_i16(i32::from(v).wrapping_sub(i32::from(b)))
     }
     #[inline(always)]
     fn neg(b: i16) -> i16 {
-        b.saturating_neg()
+        // The value of `b.saturating_neg()`, through `sat_i16` (branch-free on ARMv6-M).
+        sat_i16(i32::from(b).wrapping_neg())
     }
     #[inline(always)]
     fn wave_from_i32(x: i32) -> i16 {

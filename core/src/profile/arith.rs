@@ -124,8 +124,10 @@ impl Acc for i32 {
         // |fl| <= 2^29 + 1 and |b| <= 2^15: the difference and the increment are exact in
         // i32, so Narrow truncates the exact value and then saturates (the exact node's
         // outputs, bit for bit as before the Wide rule changed).
+        // The sign as 0/1 (logical shift) and-ed with the 0/1 nz: a sign mask (m >> 31) & nz
+        // is turned into a select by LLVM, a conditional branch on ARMv6-M.
         let m = fl.wrapping_sub(i32::from(b));
-        super::sat_i16(m.wrapping_add((m >> 31) & nz))
+        super::sat_i16(m.wrapping_add(((m as u32 >> 31) as i32) & nz))
     }
 }
 
@@ -341,34 +343,36 @@ macro_rules! junction_rules {
                 return;
             }
             // The hold rule (see `Profile::node_scatter_held`), branch-free so that the
-            // instruction count does not depend on the data. Masks are −1 (true) or 0, from
-            // sign bits of differences whose ranges are small (|.| < 2^34 in i64, < 2^19 in
-            // i32): x >= 0 is !(x >> (bits − 1)).
+            // instruction count does not depend on the data. Every condition is the sign bit
+            // of a difference whose range is small (|.| < 2^34 in i64, < 2^19 in i32): x >= 0
+            // is the sign bit of !x, x != 0 that of x | −x, and a conjunction is the sign bit
+            // of the and of its terms. Only the final sign bit is extracted (one shift), as 0/1,
+            // and turned into a 0/−1 mask after `opaque`: on ARMv6-M LLVM lowers a mask it can
+            // see to be a compare result, or an and of compares, as selects (conditional
+            // branches there).
             let bits = <A>::BITS - 1;
-            let nonneg = |x: A| !(x >> bits);
             let e_a = A::from(e);
             let (q, nz_a) = (A::from(q), A::from(nz));
-            // driven (e != 0) and q >= hold_min: a node-wide mask.
-            // Opaque to the optimizer: otherwise it may unswitch the port loop on this mask (a
-            // branch on the data, seen on the M4 in a plant with a series branch).
+            // driven (e != 0) and q >= hold_min: a node-wide sign bit.
+            // Opaque to the optimizer: otherwise it may unswitch the port loop on it (a branch
+            // on the data, seen on the M4 in a plant with a series branch). `hold_min` is
+            // opaque on ARMv6-M so that LLVM does not turn q − hold_min into a compare.
             let node = core::hint::black_box(
-                ((e_a | e_a.wrapping_neg()) >> bits) & nonneg(q.wrapping_sub(<A as Acc>::from_u32(hold_min))),
+                (e_a | e_a.wrapping_neg()) & !q.wrapping_sub(opaque(<A as Acc>::from_u32(hold_min))),
             );
             for (ak, bk) in a.iter_mut().zip(b.iter()) {
                 // v' − b = (fl − b) + frac, frac > 0 iff nz: the floor is m, the ceiling m + nz.
                 let m = A::from(fl).wrapping_sub(A::from(*bk));
                 let t = A::from(<A as Acc>::port(fl, *bk, nz));
                 // Held when the previous wave is the floor or the ceiling (prev − m in
-                // {0, nz}) and |prev| <= q.
-                let prev = A::from(*ak);
+                // {0, nz}) and |prev| <= q. `prev` is opaque on ARMv6-M: with its range
+                // unknown, LLVM keeps these sign tests instead of making signed compares.
+                let prev = opaque(A::from(*ak));
                 let d = prev.wrapping_sub(m);
-                let keep = node
-                    & nonneg(d)
-                    & nonneg(nz_a.wrapping_sub(d))
-                    & nonneg(q.wrapping_sub(prev))
-                    & nonneg(q.wrapping_add(prev));
+                let any_neg = d | nz_a.wrapping_sub(d) | q.wrapping_sub(prev) | q.wrapping_add(prev);
+                let keep = opaque(((node & !any_neg) >> bits) & 1).wrapping_neg();
                 // Both candidates are waves, so the cast is exact.
-                *ak = ((prev & keep) | (t & !keep)) as Self::Wave;
+                *ak = (t ^ ((t ^ prev) & keep)) as Self::Wave;
             }
         }
     };

@@ -174,6 +174,10 @@ fn one_compare_saturation_and_biased_shift_equal_their_definitions() {
         let n = if k < edges64.len() { edges64[k] } else { t >> (k % 63) };
         assert_eq!(sat64_to_i32(n), n.clamp(i32::MIN as i64, i32::MAX as i64) as i32, "{n}");
         let n32 = n as i32;
+        // The ARMv6-M saturation (the one the M0 firmware runs) against the clamp.
+        for x in [n32, n32 >> 14, n32 >> 16] {
+            assert_eq!(sat_i16_masked(x), x.clamp(i16::MIN as i32, i16::MAX as i32) as i16, "{x}");
+        }
         for f in [0u32, 13, 14, 31] {
             let want = apply_sign32((n32.unsigned_abs() >> f) as i32, n32 >> 31);
             assert_eq!(trunc_shr32(n32, f), want, "{n32} >> {f}");
@@ -182,6 +186,18 @@ fn one_compare_saturation_and_biased_shift_equal_their_definitions() {
             let m = (n.unsigned_abs() >> f) as i64;
             let want = if n < 0 { -m } else { m };
             assert_eq!(trunc_shr64(n, f), want, "{n} >> {f}");
+        }
+    }
+}
+
+#[test]
+fn masked_saturation_equals_the_clamp_near_the_limits() {
+    // Every i32 within 2^17 of either i16 limit, of zero and of either i32 limit.
+    let centres = [i16::MIN as i32, 0, i16::MAX as i32, i32::MIN + (1 << 17), i32::MAX - (1 << 17)];
+    for c in centres {
+        for d in -(1i32 << 17)..=(1 << 17) {
+            let x = c.wrapping_add(d);
+            assert_eq!(sat_i16_masked(x), x.clamp(i16::MIN as i32, i16::MAX as i32) as i16, "{x}");
         }
     }
 }
