@@ -446,60 +446,19 @@ impl Twin {
         self.choke[j] = -(s + rl * i);
     }
 
-    /// N = Σ 2·g_k·b_k (+ E·G_src) and G = Σ g_k (+ G_src + G_shunt) of node `j`.
+    /// N = Σ 2·g_k·b_k (+ E·G_src) and G = Σ g_k (+ G_src + G_shunt) of node `j`: its
+    /// whole weight, as a series branch sees the node.
     fn node_sums(&self, j: usize, emf: f64) -> (f64, f64) {
-        let (mut num, mut den) = (0.0, 0.0);
-        for &p in &self.at[j] {
-            num += 2.0 * self.b[p] * self.g(p);
-            den += self.g(p);
-        }
-        for &k in &self.els_at[j] {
-            let el = self.elements[k];
-            let g = match &self.coef {
-                Some(q) => q.weight_u64(u64::from(el.port_milliohm) + u64::from(el.series_milliohm)),
-                None => 1000.0 / (f64::from(el.port_milliohm) + f64::from(el.series_milliohm)),
-            };
-            num += 2.0 * self.el_state[k] * g;
-            den += g;
-        }
-        if let Some((sj, gs)) = self.source {
-            if sj == j {
-                num += emf * gs;
-                den += gs;
-            }
-        }
-        if let Shunt::Resistor { milliohm } = self.shunt[j] {
-            den += self.g_of_milliohm(milliohm);
-        }
-        (num, den)
-    }
-
-    /// Every port of node `j` leaves with a_k = v − b_k.
-    fn set_node(&mut self, j: usize, v: f64) {
-        for &p in &self.at[j] {
-            self.a[p] = v - self.b[p];
-        }
-        for &k in &self.els_at[j] {
-            self.el_a[k] = v - self.el_state[k];
+        let (num, den) = self.port_sums(j, emf);
+        match self.shunt[j] {
+            Shunt::Resistor { milliohm } => (num, den + self.g_of_milliohm(milliohm)),
+            _ => (num, den),
         }
     }
 
-    /// A node: v = (Σ 2·g_k·b_k + E·G_src) / (Σ g_k + G_src + G_shunt), every port a_k = v − b_k;
-    /// a short has v = 0; a broken node reflects every port (a = b).
-    fn node(&mut self, j: usize, emf: f64) {
-        if self.broken[j] {
-            for &p in &self.at[j] {
-                self.a[p] = self.b[p];
-                if let Some(end) = self.zc[p].as_mut() {
-                    // An open end: no current, the sections discharge into their resistors.
-                    self.zc_io[p] = end.update(0.0, self.b[p], true);
-                }
-            }
-            for &k in &self.els_at[j] {
-                self.el_a[k] = self.el_state[k];
-            }
-            return;
-        }
+    /// N = Σ 2·g_k·b_k (+ E·G_src) and Σ g_k (+ G_src) over the ports of node `j` (a Zc end
+    /// counts with its incident wave and port resistance), without the shunt.
+    fn port_sums(&self, j: usize, emf: f64) -> (f64, f64) {
         let (mut num, mut den) = (0.0, 0.0);
         for &p in &self.at[j] {
             let (b, g) = match &self.zc[p] {
@@ -524,12 +483,12 @@ impl Twin {
                 den += gs;
             }
         }
-        let cap = self.coef.as_ref().map_or(f64::INFINITY, |q| q.total_max as f64);
-        let v = match self.shunt[j] {
-            Shunt::Short => 0.0,
-            Shunt::Resistor { milliohm } => num / (den + self.g_of_milliohm(milliohm)).min(cap),
-            _ => num / den,
-        };
+        (num, den)
+    }
+
+    /// Every port of node `j` leaves with a_k = v − b_k (a Zc end also updates its sections,
+    /// and the series adaptor takes their voltage off the wave into the line).
+    fn set_node(&mut self, j: usize, v: f64) {
         for &p in &self.at[j] {
             self.a[p] = v - self.b[p];
             if let Some(end) = self.zc[p].as_mut() {
@@ -543,6 +502,32 @@ impl Twin {
         for &k in &self.els_at[j] {
             self.el_a[k] = v - self.el_state[k];
         }
+    }
+
+    /// A node: v = (Σ 2·g_k·b_k + E·G_src) / (Σ g_k + G_src + G_shunt), every port a_k = v − b_k;
+    /// a short has v = 0; a broken node reflects every port (a = b).
+    fn node(&mut self, j: usize, emf: f64) {
+        if self.broken[j] {
+            for &p in &self.at[j] {
+                self.a[p] = self.b[p];
+                if let Some(end) = self.zc[p].as_mut() {
+                    // An open end: no current, the sections discharge into their resistors.
+                    self.zc_io[p] = end.update(0.0, self.b[p], true);
+                }
+            }
+            for &k in &self.els_at[j] {
+                self.el_a[k] = self.el_state[k];
+            }
+            return;
+        }
+        let (num, den) = self.port_sums(j, emf);
+        let cap = self.coef.as_ref().map_or(f64::INFINITY, |q| q.total_max as f64);
+        let v = match self.shunt[j] {
+            Shunt::Short => 0.0,
+            Shunt::Resistor { milliohm } => num / (den + self.g_of_milliohm(milliohm)).min(cap),
+            _ => num / den,
+        };
+        self.set_node(j, v);
     }
 
     /// What port `p` presents to a series junction: its incident wave and its resistance
