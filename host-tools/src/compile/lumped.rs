@@ -390,6 +390,31 @@ fn side_resistance(plant: &Plant, node: usize, si: usize) -> f64 {
     1.0 / g
 }
 
+/// Segment `si`'s line constants at the frequency that carries a drive edge of 10–90 % time
+/// `rise` (ω = 2π·0.35/rise [practice]): per-metre series impedance R' + jωL' and shunt
+/// admittance jωC', Zc = sqrt(Z/Y) and θ = sqrt(Z·Y)·l, as the lumped models' errors use them.
+pub(super) struct LineAtEdge {
+    pub w: f64,
+    pub z_series: Complex64,
+    pub y_shunt: Complex64,
+    pub zc: Complex64,
+    pub theta: Complex64,
+}
+
+impl LineAtEdge {
+    pub fn of(plant: &Plant, si: usize, rise: f64) -> LineAtEdge {
+        let seg = &plant.segments[si];
+        let cable = &plant.cables[seg.cable];
+        let w = 2.0 * std::f64::consts::PI * 0.35 / rise;
+        let jw = Complex64::new(0.0, w);
+        let z_series = cable.r_per_m + jw * cable.l_per_m();
+        let y_shunt = jw * cable.c_per_m();
+        let zc = (z_series / y_shunt).sqrt();
+        let theta = (z_series * y_shunt).sqrt() * seg.length;
+        LineAtEdge { w, z_series, y_shunt, zc, theta }
+    }
+}
+
 /// The relative error of the lumped model of segment `si` at the drive's bandwidth
 /// f = 0.35/rise (rise: the 10-90 % time; the usual single-pole bandwidth-rise rule
 /// [practice]), with the line's propagation γ = sqrt((R' + jωL')·jωC') and impedance
@@ -408,13 +433,7 @@ fn side_resistance(plant: &Plant, node: usize, si: usize) -> f64 {
 ///   ωτ·Z0/R_side + R/R_side + (ωτ)²/2.
 pub fn lump_error(plant: &Plant, si: usize, kind: LumpKind, rise: f64) -> f64 {
     let seg = &plant.segments[si];
-    let cable = &plant.cables[seg.cable];
-    let w = 2.0 * std::f64::consts::PI * 0.35 / rise;
-    let jw = Complex64::new(0.0, w);
-    let z_series = cable.r_per_m + jw * cable.l_per_m();
-    let y_shunt = jw * cable.c_per_m();
-    let zc = (z_series / y_shunt).sqrt();
-    let theta = (z_series * y_shunt).sqrt() * seg.length;
+    let LineAtEdge { w, z_series, y_shunt, zc, theta } = LineAtEdge::of(plant, si, rise);
     match kind {
         LumpKind::Stub { leaf } => {
             let t = theta.tanh();

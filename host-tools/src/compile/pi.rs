@@ -14,7 +14,8 @@
 //! most one series branch), neither end shorted, switched by an event, nor the rig port; and
 //! the segment has no choke, break or current probe (the core reads currents at line ends,
 //! and a lumped piece has none).
-use super::lumped::{load_admittance, LumpPlan};
+use super::lumped::{load_admittance, LineAtEdge, LumpPlan};
+use super::model_error::timing_error;
 use super::MIN_FRACTIONAL_DELAY;
 use crate::plant::{Drive, EventAction, Load, Plant, ProbeKind};
 use num_complex::Complex64;
@@ -96,13 +97,7 @@ fn side_admittance(plant: &Plant, node: usize, si: usize, w: f64) -> Complex64 {
 /// expansion through θ²), where a whole-sample line is off by the rounding of its delay.
 pub fn error(plant: &Plant, si: usize, rise: f64) -> f64 {
     let seg = &plant.segments[si];
-    let cable = &plant.cables[seg.cable];
-    let w = 2.0 * std::f64::consts::PI * 0.35 / rise;
-    let jw = Complex64::new(0.0, w);
-    let z_series = cable.r_per_m + jw * cable.l_per_m();
-    let y_shunt = jw * cable.c_per_m();
-    let zc = (z_series / y_shunt).sqrt();
-    let theta = (z_series * y_shunt).sqrt() * seg.length;
+    let LineAtEdge { w, z_series, y_shunt, zc, theta } = LineAtEdge::of(plant, si, rise);
     let (z, y) = (z_series * seg.length, y_shunt * seg.length);
     let (a_x, b_x) = (theta.cosh(), zc * theta.sinh());
     let (a_p, b_p) = (1.0 + z * y / 2.0, z);
@@ -122,7 +117,7 @@ pub fn error(plant: &Plant, si: usize, rise: f64) -> f64 {
 pub fn line_error(plant: &Plant, si: usize, dt: f64, rise: f64) -> f64 {
     let seg = &plant.segments[si];
     let samples = seg.length / plant.cables[seg.cable].velocity / dt;
-    (samples.round().max(1.0) - samples).abs() * dt * 0.8 / rise
+    timing_error((samples.round().max(1.0) - samples) * dt, rise)
 }
 
 /// The pi sections of `plan`: (segment, from class, to class).
