@@ -131,6 +131,21 @@ impl Acc for i32 {
     }
 }
 
+/// A node's numerator N = 2·(init + Σ g_k·b_k) + g_src·e in the accumulator `A`, exactly
+/// (each rule states its range), written once for the node and both ends of a series branch
+/// (`init` is 0, or the branch's link term G·r). A macro, not a function, so that every rule
+/// keeps the plain integer code the firmware figures were measured on.
+macro_rules! node_numerator {
+    ($A:ty, $b:expr, $g:expr, $e:expr, $g_src:expr, $init:expr) => {{
+        let mut acc: $A = $init;
+        for (bk, gk) in $b.iter().zip($g.iter()) {
+            acc = acc.wrapping_add(<$A as Acc>::mul(*gk, *bk));
+        }
+        acc.wrapping_shl(1).wrapping_add(<$A as Acc>::mul($g_src, $e))
+    }};
+}
+pub(crate) use node_numerator;
+
 /// The junction rules, written once: expanded inside `impl Profile for Wide` (accumulator
 /// `i64`, `trunc_shr64`, `sat64_to_i32`) and `impl Profile for Narrow` (`i32`,
 /// `trunc_shr32`, `sat_i16`) as the trait's own method bodies. (Written as generic functions
@@ -225,11 +240,7 @@ macro_rules! junction_rules {
             // Σ g_k + g_src <= total/2 <= 2^(WEIGHT_BITS − 1): the numerator is exact as in
             // `node_scatter` (i64: <= 2^61; i32: <= 2^29), |w| <= max(|b|, |e|/2).
             type A = $acc;
-            let mut acc: A = 0;
-            for (bk, gk) in b.iter().zip(g.iter()) {
-                acc = acc.wrapping_add(<A as Acc>::mul(*gk, *bk));
-            }
-            let acc = acc.wrapping_shl(1).wrapping_add(<A as Acc>::mul(g_src, e));
+            let acc = $crate::profile::arith::node_numerator!(A, b, g, e, g_src, 0);
             let (q, _) = <A as Acc>::floor_div_abs(acc, recip, shift, total);
             // trunc toward zero = sign(acc)·floor(|acc|/total), by (x ^ mask) − mask.
             let mask = ((acc < 0) as A).wrapping_neg();
@@ -291,11 +302,7 @@ macro_rules! junction_rules {
             // Σ g_k + g_src + link <= total <= 2^WEIGHT_BITS: the numerator is exact as in
             // `node_scatter` (i64: <= 2^62; i32: <= 2^30).
             type A = $acc;
-            let mut acc: A = <A as Acc>::mul(link, r);
-            for (bk, gk) in b.iter().zip(g.iter()) {
-                acc = acc.wrapping_add(<A as Acc>::mul(*gk, *bk));
-            }
-            let acc = acc.wrapping_shl(1).wrapping_add(<A as Acc>::mul(g_src, e));
+            let acc = $crate::profile::arith::node_numerator!(A, b, g, e, g_src, <A as Acc>::mul(link, r));
             let (q, nz) = <A as Acc>::floor_div_abs(acc, recip, shift, total);
             let neg = (acc < 0) as A;
             let mask = neg.wrapping_neg();
@@ -322,11 +329,7 @@ macro_rules! junction_rules {
             // Σ g + g_src <= 2^WEIGHT_BITS (node budget), so the numerator
             // 2·Σ g_k·b_k + g_src·e is exact (i64: <= 2^62; i32: <= 2^30).
             type A = $acc;
-            let mut acc: A = 0;
-            for (bk, gk) in b.iter().zip(g.iter()) {
-                acc = acc.wrapping_add(<A as Acc>::mul(*gk, *bk));
-            }
-            let acc = acc.wrapping_shl(1).wrapping_add(<A as Acc>::mul(g_src, e));
+            let acc = $crate::profile::arith::node_numerator!(A, b, g, e, g_src, 0);
             // q = |floor(v')| for N > 0 (|floor(v')| − 1 for N < 0), nz = [N != 0]: v' =
             // sign(N)·(q + ε) has the floor q for N > 0 and −(q + 1) for N < 0, by the
             // branch-free negation (x ^ mask) − mask.
