@@ -256,3 +256,49 @@ fn sweep_takes_units_other_parameters_and_refuses_nonsense() {
         assert!(!err.is_empty() && !err.contains("panicked"), "{bad:?}: {err}");
     }
 }
+
+/// Own scenario: 180 m of the Category 5e preset at 100 MS/s. The narrow profile's 14-bit
+/// loss coefficients cannot hold the low-frequency sections (each quantized filter's DC gain
+/// is about 0.9, measured 2 Dec 2026), so its fit error is far over the tolerance: `inspect`
+/// must mark it `!!`; the wide profile's fit (0.02 dB) must not be marked.
+#[test]
+fn a_loss_fit_the_profile_cannot_hold_is_marked() {
+    let dir = tmp("loss-mark");
+    let plant = dir.join("run.toml");
+    std::fs::write(
+        &plant,
+        r#"[plant]
+name = "long pair"
+sample_rate = "100 MHz"
+duration = "6 us"
+[cable.pair]
+preset = "cat5e"
+[node.near]
+[node.far]
+load = "100 ohm"
+[[segment]]
+name = "run"
+from = "near"
+to = "far"
+cable = "pair"
+length = "180 m"
+[drive]
+kind = "source"
+node = "near"
+resistance = "100 ohm"
+waveform = { step = "1 V", rise = "40 ns", delay = "50 ns" }
+[[probe]]
+name = "far"
+node = "far"
+"#,
+    )
+    .unwrap();
+    let loss_line = |profile: &str| {
+        let a = tidewire().args(["inspect", plant.to_str().unwrap(), "--profile", profile]).assert().success();
+        let text = String::from_utf8_lossy(&a.get_output().stdout).into_owned();
+        text.lines().find(|l| l.contains("largest fit error") && l.contains("loss at 0.4 fs")).unwrap_or("").to_string()
+    };
+    let (wide, narrow) = (loss_line("wide"), loss_line("narrow"));
+    assert!(!wide.is_empty() && !wide.contains("!!"), "wide: {wide}");
+    assert!(narrow.contains("!!"), "narrow: {narrow}");
+}

@@ -144,14 +144,21 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
         }
     }
     if r.segments.iter().any(|t| t.loss_fit_db.is_some()) {
-        let _ = writeln!(s, "\n-- frequency-dependent loss (filters in the lines, fitted over fs/10^4 .. 0.4 fs)");
+        let _ = writeln!(
+            s,
+            "\n-- frequency-dependent loss (filters in the lines, fitted over fs/10^4 .. 0.4 fs; !! = the fit error as an amplitude error exceeds the max-error tolerance)"
+        );
         for t in r.segments.iter().filter(|t| t.loss_fit_db.is_some()) {
+            let fit_db = t.loss_fit_db.unwrap_or(0.0);
+            // A gain error of d dB is an amplitude error of 10^(d/20) − 1 [closed form].
+            let over = 10f64.powf(fit_db.abs() / 20.0) - 1.0 > plant.tolerances.max_error;
             let _ = writeln!(
                 s,
-                "   {:<18} loss at 0.4 fs {:>7.2} dB   largest fit error {:.3} dB   in-band extra delay {} (+{} samples)",
+                "   {:<18} loss at 0.4 fs {:>7.2} dB   largest fit error {:.3} dB{}   in-band extra delay {} (+{} samples)",
                 t.name,
                 t.loss_edge_db,
-                t.loss_fit_db.unwrap_or(0.0),
+                fit_db,
+                if over { " !!" } else { "" },
                 eng(t.dispersion_s, "s"),
                 t.dispersion_samples
             );
