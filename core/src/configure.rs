@@ -151,6 +151,11 @@ fn loss_record<P: Profile>(ll: &crate::network::LineLoss, port: u16) -> Option<L
     if (n == 0 && ll.allpass.is_none()) || n > MAX_LOSS_SECTIONS {
         return None;
     }
+    // Zc(s) networks are described by the network format but not yet run by this solver:
+    // refuse them rather than run the line with a wrong port.
+    if ll.zc.is_some() {
+        return None;
+    }
     if let Some(ap) = ll.allpass {
         (rt.ap_a, rt.ap_c) = quantize_allpass::<P>(ap.a, ap.c)?;
         rt.ap = true;

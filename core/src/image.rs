@@ -24,8 +24,9 @@ use crate::solver::Solver;
 pub const MAGIC: [u8; 4] = *b"TIDW";
 /// The body format this core reads (2: every loss filter carries an optional
 /// fractional-delay allpass, and may have no section; 3: junctions may be series branches
-/// between nodes, `Junction::Branch`).
-pub const FORMAT_VERSION: u16 = 3;
+/// between nodes, `Junction::Branch`; 4: every loss filter carries an optional Zc(s)
+/// network, `LineLoss::zc`).
+pub const FORMAT_VERSION: u16 = 4;
 /// Header size in bytes.
 pub const HEADER_LEN: usize = 16;
 

@@ -142,7 +142,7 @@ mod solver_format;
 pub use error::{BuildError, ConfigError, Table};
 pub use network::{
     Allpass, Drive, Element, ElementKind, Junction, JunctionId, Line, LineId, LineLoss, Network, Probe, ProbeKind,
-    Shunt, Side, MAX_LOSS_SECTIONS, MAX_PROBES, MAX_RIG_LATENCY,
+    Shunt, Side, ZcNetwork, MAX_LOSS_SECTIONS, MAX_PROBES, MAX_RIG_LATENCY, MAX_ZC_SECTIONS,
 };
 pub use owned::{HeaplessNetwork, OwnedNetwork};
 pub use plant_step::PlantStep;

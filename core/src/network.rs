@@ -203,6 +203,44 @@ pub struct LineLoss {
     /// The fractional part of the line's delay, if any: the wave arriving at either end
     /// passes this allpass after the loss sections.
     pub allpass: Option<Allpass>,
+    /// The frequency-dependent characteristic impedance Zc(s) of the lossy line, if any: the
+    /// same network at both ends ([`ZcNetwork`]). The line's `z_milliohm` is then the port
+    /// resistance Z_p the junctions see.
+    pub zc: Option<ZcNetwork>,
+}
+
+/// The most parallel-RC sections a line end's [`ZcNetwork`] may have.
+pub const MAX_ZC_SECTIONS: usize = 4;
+
+/// A lossy line's characteristic impedance Zc(s) ≈ Z_inf + Σ_i R_i/(1 + s·R_i·C_i) (Foster
+/// form, J. Marti 1982), realised at each end of the line in node-wave form
+/// (`docs/zc-model.md`).
+///
+/// Section i is a bilinear wave-digital parallel R_i‖C_i with port resistance
+/// r_i = R_i ∥ T/(2C_i), reflection-free: it emits k_i·s_i, k_i = r_i/(T/(2C_i)), s_i its
+/// capacitor's state (a wave, like every state of the core). The junction at the end sees
+/// one port of resistance Z_p = Z_inf + Σ r_i (the line's `z_milliohm`) with incident wave
+///
+///   b_p = b + c,   c = Σ_i k_i·s_i,
+///
+/// b the wave arriving from the line (after its loss sections and allpass). From the
+/// junction's outgoing wave a_p, with d = a_p − b_p = Z_p·i (i the current into the end):
+///
+///   a = a_p + c   (the wave sent into the line: a = v − b, v = a_p + b_p the node voltage)
+///   s_i' = (2·k_i − 1)·s_i + ρ_i·d,   ρ_i = r_i/Z_p
+///
+/// At DC (loss filter gain 1, same network at both ends) the line is a wire whatever its
+/// network, so the DC point follows Ohm's law. Coefficients in Q30, 0 < k_i < 1, 0 < ρ_i,
+/// Σ ρ_i < 1.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Serialize, Deserialize)]
+#[cfg_attr(feature = "defmt", derive(defmt::Format))]
+pub struct ZcNetwork {
+    /// Sections in use (1..=MAX_ZC_SECTIONS).
+    pub sections: u8,
+    /// k_i·2^30 per section (0 < k_i < 1).
+    pub k: [u32; MAX_ZC_SECTIONS],
+    /// ρ_i·2^30 = (r_i/Z_p)·2^30 per section (ρ_i > 0, Σ ρ_i < 1).
+    pub rho: [u32; MAX_ZC_SECTIONS],
 }
 
 /// Which end of a line.

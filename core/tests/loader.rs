@@ -114,7 +114,7 @@ fn loss() -> impl Strategy<Value = LineLoss> {
                 poles[k] = p;
                 zeros[k] = z;
             }
-            LineLoss { line, sections, poles, zeros, allpass }
+            LineLoss { line, sections, poles, zeros, allpass, zc: None }
         })
 }
 
@@ -305,7 +305,8 @@ fn allpass_coefficients_are_checked_at_load() {
     let junctions = [Junction::Node { shunt: Shunt::Resistor { milliohm: 50_000 } }; 2];
     let one = 1u32 << 30;
     let try_load = |ap: Option<Allpass>, sections: u8| {
-        let losses = [LineLoss { line: 0, sections, poles: [1 << 29, 0, 0, 0, 0, 0], zeros: [0; 6], allpass: ap }];
+        let losses =
+            [LineLoss { line: 0, sections, poles: [1 << 29, 0, 0, 0, 0, 0], zeros: [0; 6], allpass: ap, zc: None }];
         let net = Network {
             lines: &lines,
             junctions: &junctions,

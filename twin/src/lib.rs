@@ -198,7 +198,7 @@ impl Twin {
             Drive::Source { junction, milliohm } => Some((junction as usize, 1000.0 / f64::from(milliohm.max(1)))),
             _ => None,
         };
-        Twin {
+        let mut twin = Twin {
             lines: net.lines.to_vec(),
             junctions: net.junctions.to_vec(),
             elements: net.elements.to_vec(),
@@ -233,6 +233,23 @@ impl Twin {
             peak_wave: 0.0,
             zc: vec![None; 2 * nl],
             zc_io: vec![(0.0, 0.0); 2 * nl],
+        };
+        twin.zc_from_network(net);
+        twin
+    }
+
+    /// Read the Zc(s) networks the network itself carries (`LineLoss::zc`, Q30), node-wave
+    /// form at both ends: r_i = ρ_i·Z_p, Z_inf = Z_p − Σ r_i with Z_p the line's impedance.
+    fn zc_from_network(&mut self, net: &Network<'_>) {
+        let q30 = (1u64 << 30) as f64;
+        for l in net.losses {
+            let (Some(zc), Some(line)) = (l.zc, net.lines.get(l.line as usize)) else { continue };
+            let zp = f64::from(line.z_milliohm) / 1000.0;
+            let n = (zc.sections as usize).min(tidewire_core::MAX_ZC_SECTIONS);
+            let sections: Vec<(f64, f64)> =
+                (0..n).map(|i| (f64::from(zc.rho[i]) / q30 * zp, f64::from(zc.k[i]) / q30)).collect();
+            let z_inf = zp - sections.iter().map(|(r, _)| r).sum::<f64>();
+            self.set_zc(l.line as usize, z_inf, &sections, ZcRealisation::NodeWave);
         }
     }
 

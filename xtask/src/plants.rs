@@ -159,7 +159,7 @@ fn loss(line: u16) -> LineLoss {
     zeros[0] = q30(0.55) as i32;
     poles[1] = q30(0.90) as u32;
     zeros[1] = q30(0.88) as i32;
-    LineLoss { line, sections: 2, poles, zeros, allpass: None }
+    LineLoss { line, sections: 2, poles, zeros, allpass: None, zc: None }
 }
 
 /// The same plant with a fractional delay on every line (the first-order allpass lattice of
@@ -186,6 +186,7 @@ pub fn with_fractions(mut p: TestPlant) -> TestPlant {
                 poles: [0; MAX_LOSS_SECTIONS],
                 zeros: [0; MAX_LOSS_SECTIONS],
                 allpass: ap,
+                zc: None,
             }),
         }
     }

@@ -181,7 +181,14 @@ pub fn with_losses(net: Owned) -> impl Strategy<Value = Owned> {
             if out.losses.iter().any(|l| l.line == line) {
                 continue;
             }
-            let mut l = LineLoss { line, sections: sections.len() as u8, poles: [0; 6], zeros: [0; 6], allpass: None };
+            let mut l = LineLoss {
+                line,
+                sections: sections.len() as u8,
+                poles: [0; 6],
+                zeros: [0; 6],
+                allpass: None,
+                zc: None,
+            };
             for (k, (a, t)) in sections.iter().enumerate() {
                 // zero anywhere in (−0.9, a): the section only attenuates
                 let b = a - (a + 0.9) * t.clamp(0.01, 0.99);
@@ -232,7 +239,9 @@ pub fn with_fractions(net: Owned) -> impl Strategy<Value = Owned> {
             let ap = Some(allpass_for(d));
             match out.losses.iter_mut().find(|l| l.line == line) {
                 Some(l) => l.allpass = ap,
-                None => out.losses.push(LineLoss { line, sections: 0, poles: [0; 6], zeros: [0; 6], allpass: ap }),
+                None => {
+                    out.losses.push(LineLoss { line, sections: 0, poles: [0; 6], zeros: [0; 6], allpass: ap, zc: None })
+                }
             }
         }
         out

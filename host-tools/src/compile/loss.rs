@@ -284,6 +284,7 @@ pub fn design(cable: &CableType, length: f64, fs: f64, line: u16, frac: u32) -> 
         poles: [0; MAX_LOSS_SECTIONS],
         zeros: [0; MAX_LOSS_SECTIONS],
         allpass: None,
+        zc: None,
     };
     for (k, (a, b)) in sh.iter().enumerate() {
         let q = (1u64 << 30) as f64;
@@ -326,6 +327,7 @@ mod tests {
             poles: [900_000_000, 1_000_000_000, 0, 0, 0, 0],
             zeros: [-500_000_000, 999_000_000, 0, 0, 0, 0],
             allpass: None,
+            zc: None,
         };
         for frac in [14, 30] {
             let q = quantized(&loss, frac);

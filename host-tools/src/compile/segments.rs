@@ -287,6 +287,7 @@ impl<'p> Builder<'p> {
                 poles: [0; MAX_LOSS_SECTIONS],
                 zeros: [0; MAX_LOSS_SECTIONS],
                 allpass: ap,
+                zc: None,
             }),
         }
     }
@@ -404,6 +405,7 @@ impl<'p> Builder<'p> {
                     poles: [0; MAX_LOSS_SECTIONS],
                     zeros: [0; MAX_LOSS_SECTIONS],
                     allpass: None,
+                    zc: None,
                 });
             }
             return Ok(());
