@@ -20,16 +20,15 @@ fn tidewire() -> Command {
     Command::cargo_bin("tidewire").unwrap()
 }
 
-fn tmp(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("tidewire-cli-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
+/// A fresh folder, removed when the guard drops.
+fn tmp(name: &str) -> tempfile::TempDir {
+    tempfile::Builder::new().prefix(&format!("tidewire-cli-{name}-")).tempdir().unwrap()
 }
 
 #[test]
 fn every_demo_plant_inspects_compiles_and_simulates() {
-    let out = tmp("demo-plants");
+    let guard = tmp("demo-plants");
+    let out = guard.path().to_path_buf();
     for p in plants() {
         let name = p.file_stem().unwrap().to_string_lossy().into_owned();
         for profile in ["wide", "narrow"] {
@@ -84,7 +83,8 @@ fn the_drive_plant_states_the_high_voltage_caution() {
 #[test]
 fn bad_plants_exit_2_with_a_located_message_and_leave_no_file() {
     let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("tests/bad_plants");
-    let out = tmp("bad");
+    let guard = tmp("bad");
+    let out = guard.path().to_path_buf();
     let mut n = 0;
     for e in std::fs::read_dir(dir).unwrap() {
         let p = e.unwrap().path();
@@ -111,7 +111,8 @@ fn bad_plants_exit_2_with_a_located_message_and_leave_no_file() {
 #[test]
 fn failed_writes_leave_nothing_half_written() {
     let p = plants().remove(0);
-    let out = tmp("nowrite");
+    let guard = tmp("nowrite");
+    let out = guard.path().to_path_buf();
     let missing = out.join("no/such/folder/out.csv");
     let a = tidewire()
         .args(["simulate", p.to_str().unwrap(), "--samples", "10", "--csv", missing.to_str().unwrap()])
@@ -133,7 +134,8 @@ fn motor_cable_sweep_reproduces_the_critical_length_rule() {
     // with Γ_L = (2000 − 80)/(2000 + 80) for the demo's 80 Ω cable, 2 kΩ motor and 4 Ω
     // drive [closed form] = 1.831; well below l_c the peak stays near the step.
     let p = plants().into_iter().find(|p| p.to_string_lossy().contains("drive-to-motor")).unwrap();
-    let out = tmp("sweep");
+    let guard = tmp("sweep");
+    let out = guard.path().to_path_buf();
     let svg = out.join("sweep.svg");
     let a = tidewire()
         .args([
@@ -187,7 +189,8 @@ fn motor_cable_sweep_reproduces_the_critical_length_rule() {
 fn simulate_output_reads_back_as_a_samples_waveform() {
     // The CSV `simulate` writes (time, then one column per probe) drives another plant: the
     // column after time becomes the drive's samples, one per sample period.
-    let out = tmp("roundtrip");
+    let guard = tmp("roundtrip");
+    let out = guard.path().to_path_buf();
     let p = plants().into_iter().find(|p| p.to_string_lossy().contains("packaging-line")).unwrap();
     let csv = out.join("run.csv");
     tidewire()
@@ -263,7 +266,8 @@ fn sweep_takes_units_other_parameters_and_refuses_nonsense() {
 /// must mark it `!!`; the wide profile's fit (0.02 dB) must not be marked.
 #[test]
 fn a_loss_fit_the_profile_cannot_hold_is_marked() {
-    let dir = tmp("loss-mark");
+    let guard = tmp("loss-mark");
+    let dir = guard.path().to_path_buf();
     let plant = dir.join("run.toml");
     std::fs::write(
         &plant,

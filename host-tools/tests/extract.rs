@@ -341,11 +341,9 @@ fn tidewire() -> assert_cmd::Command {
     assert_cmd::Command::cargo_bin("tidewire").unwrap()
 }
 
-fn tmp(name: &str) -> std::path::PathBuf {
-    let d = std::env::temp_dir().join(format!("tidewire-extract-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
+/// A fresh folder, removed when the guard drops.
+fn tmp(name: &str) -> tempfile::TempDir {
+    tempfile::Builder::new().prefix(&format!("tidewire-extract-{name}-")).tempdir().unwrap()
 }
 
 fn example_capture() -> std::path::PathBuf {
@@ -354,7 +352,8 @@ fn example_capture() -> std::path::PathBuf {
 
 #[test]
 fn example_capture_gives_a_plant_the_loader_reads_and_a_picture() {
-    let d = tmp("example");
+    let guard = tmp("example");
+    let d = guard.path().to_path_buf();
     let (out, svg) = (d.join("tank.toml"), d.join("tank.svg"));
     let o = tidewire()
         .args(["extract", example_capture().to_str().unwrap(), "--source-resistance", "50 ohm", "--emf", "1 V"])
@@ -378,7 +377,8 @@ fn example_capture_gives_a_plant_the_loader_reads_and_a_picture() {
 
 #[test]
 fn bad_captures_get_located_errors_exit_2_and_nothing_written() {
-    let d = tmp("bad");
+    let guard = tmp("bad");
+    let d = guard.path().to_path_buf();
     let good = |k: usize| format!("{:e},{}\n", k as f64 * 1e-9, if k < 10 { 0.0 } else { 0.5 });
     let rows = |n: usize| (0..n).map(good).collect::<String>();
     let mut nan = rows(60);
@@ -431,7 +431,8 @@ fn bad_captures_get_located_errors_exit_2_and_nothing_written() {
 
 #[test]
 fn verify_and_simulate_draw_the_view_against_distance() {
-    let d = tmp("views");
+    let guard = tmp("views");
+    let d = guard.path().to_path_buf();
     let plant = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/captures/tank-farm-link.toml");
     let svg = d.join("v.svg");
     let o = tidewire()

@@ -85,8 +85,8 @@ fn simulate_checks_its_samples_before_compiling_the_plant() {
     // The plant alone is refused for its size (a run of 1e9 m: more delay storage than the
     // host runner has); a hopeless --samples is reported first, because it is checked from
     // the plant file before any compiling.
-    let d = std::env::temp_dir().join(format!("tidewire-limits-{}", std::process::id()));
-    std::fs::create_dir_all(&d).unwrap();
+    let guard = tempfile::Builder::new().prefix("tidewire-limits-").tempdir().unwrap();
+    let d = guard.path().to_path_buf();
     let p = d.join("chain.toml");
     let one = chain(1, "250 MHz");
     let huge: Vec<&str> =
@@ -134,9 +134,8 @@ fn resource_limits_exit_2_with_a_clear_message_and_touch_nothing() {
         [node.a]\n[node.b]\nload = \"120 ohm\"\n[[segment]]\nname = \"run\"\nfrom = \"a\"\nto = \"b\"\n\
         cable = \"twisted-pair-120\"\nlength = \"20 m\"\n[drive]\nkind = \"source\"\nnode = \"a\"\n\
         resistance = \"120 ohm\"\nwaveform = { step = \"5 V\", rise = \"20 ns\" }\n[[probe]]\nname = \"far\"\nnode = \"b\"\n";
-    let d = std::env::temp_dir().join(format!("tidewire-limits-res-{}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
+    let guard = tempfile::Builder::new().prefix("tidewire-limits-res-").tempdir().unwrap();
+    let d = guard.path().to_path_buf();
     let out = d.join("out.csv");
     std::fs::write(&out, "an older run\n").unwrap();
     let cases: [(&str, &str, &[&str], &str); 6] = [

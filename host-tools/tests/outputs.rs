@@ -9,14 +9,14 @@ fn tidewire() -> Command {
 }
 
 /// A fresh folder holding a copy of a demo plant as `plant.toml`.
-fn setup(name: &str, plant: &str) -> (PathBuf, PathBuf) {
-    let d = std::env::temp_dir().join(format!("tidewire-out-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
+/// The folder is removed when the returned guard drops.
+fn setup(name: &str, plant: &str) -> (tempfile::TempDir, PathBuf, PathBuf) {
+    let guard = tempfile::Builder::new().prefix(&format!("tidewire-out-{name}-")).tempdir().unwrap();
+    let d = guard.path().to_path_buf();
     let src = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/plants").join(plant);
     let p = d.join("plant.toml");
     std::fs::copy(src, &p).unwrap();
-    (d, p)
+    (guard, d, p)
 }
 
 fn s(p: &Path) -> &str {
@@ -50,7 +50,7 @@ fn refused(dir: &Path, args: &[&str], needle: &str) {
 
 #[test]
 fn an_output_on_an_input_or_two_outputs_on_one_path_are_refused_before_work() {
-    let (d, p) = setup("same", "packaging-line.toml");
+    let (_guard, d, p) = setup("same", "packaging-line.toml");
     refused(&d, &["simulate", s(&p), "--csv", s(&p)], "also the input");
     refused(&d, &["compile", s(&p), "--image", s(&p)], "also the input");
     let dotted = d.join(".").join("plant.toml");
@@ -71,7 +71,7 @@ fn an_output_on_an_input_or_two_outputs_on_one_path_are_refused_before_work() {
 
 #[test]
 fn a_failing_output_leaves_none_of_the_others_behind() {
-    let (d, p) = setup("partial", "packaging-line.toml");
+    let (_guard, d, p) = setup("partial", "packaging-line.toml");
     let adir = d.join("adir");
     std::fs::create_dir(&adir).unwrap();
     let ok = d.join("ok.bin");
@@ -88,7 +88,7 @@ fn a_failing_output_leaves_none_of_the_others_behind() {
 #[test]
 fn links_devices_and_read_only_files_are_refused_not_replaced() {
     use std::os::unix::fs::PermissionsExt;
-    let (d, p) = setup("special", "packaging-line.toml");
+    let (_guard, d, p) = setup("special", "packaging-line.toml");
     let target = d.join("target.csv");
     std::fs::write(&target, b"precious").unwrap();
     let link = d.join("link.csv");
@@ -107,7 +107,7 @@ fn links_devices_and_read_only_files_are_refused_not_replaced() {
 
 #[test]
 fn sample_counts_are_checked_before_memory_is_taken() {
-    let (d, p) = setup("limits", "packaging-line.toml");
+    let (_guard, d, p) = setup("limits", "packaging-line.toml");
     let out = d.join("out.csv");
     refused(&d, &["simulate", s(&p), "--samples", "1000000000000", "--csv", s(&out)], "hint: use at most --samples");
     refused(&d, &["simulate", s(&p), "--samples", "18446744073709551615", "--csv", s(&out)], "more than the limit");
@@ -118,7 +118,7 @@ fn sample_counts_are_checked_before_memory_is_taken() {
 
 #[test]
 fn simulate_streams_csv_and_an_exact_run_file_that_agree() {
-    let (d, p) = setup("stream", "bench-rig.toml");
+    let (_guard, d, p) = setup("stream", "bench-rig.toml");
     let (csv, bin) = (d.join("run.csv"), d.join("run.twrun"));
     tidewire().args(["simulate", s(&p), "--samples", "1500", "--csv", s(&csv), "--bin", s(&bin)]).assert().success();
     let run = tidewire_host::runfile::read(&mut std::fs::File::open(&bin).unwrap()).unwrap();
@@ -149,7 +149,7 @@ fn json(path: &Path) -> serde_json::Value {
 
 #[test]
 fn verify_and_inspect_write_json_a_machine_can_gate_on() {
-    let (d, p) = setup("json", "irrigation-network.toml");
+    let (_guard, d, p) = setup("json", "irrigation-network.toml");
     let (v, i) = (d.join("verify.json"), d.join("inspect.json"));
     let a = tidewire().args(["verify", s(&p), "--json", s(&v)]).assert();
     let code = a.get_output().status.code().unwrap();
@@ -229,9 +229,8 @@ node = "load"
 
 #[test]
 fn a_pwm_drive_is_judged_without_a_final_value_and_a_real_error_still_fails() {
-    let d = std::env::temp_dir().join(format!("tidewire-out-{}-pwm", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
+    let guard = tempfile::Builder::new().prefix("tidewire-out-pwm-").tempdir().unwrap();
+    let d = guard.path().to_path_buf();
     let p = d.join("pwm.toml");
     std::fs::write(&p, PWM_PLANT).unwrap();
     let j = d.join("v.json");
@@ -262,7 +261,7 @@ fn a_pwm_drive_is_judged_without_a_final_value_and_a_real_error_still_fails() {
 #[cfg(unix)]
 #[test]
 fn a_run_stopped_by_a_signal_leaves_no_temporary_and_the_old_output_intact() {
-    let (d, p) = setup("signal", "bench-rig.toml");
+    let (_guard, d, p) = setup("signal", "bench-rig.toml");
     let out = d.join("run.csv");
     std::fs::write(&out, b"previous run").unwrap();
     let bin = assert_cmd::cargo::cargo_bin("tidewire");

@@ -84,8 +84,8 @@ fn rate_says_whether_a_part_keeps_up_and_names_unknown_parts() {
         .replace("length = \"100 m\"", "length = \"40 km\"")
         .replace("rise = \"50 ns\", delay = \"200 ns\"", "rise = \"200 us\", delay = \"400 us\"")
         .replace("arrival = \"10 ns\"", "arrival = \"100 us\"");
-    let d = std::env::temp_dir().join(format!("tidewire-rate-{}", std::process::id()));
-    std::fs::create_dir_all(&d).unwrap();
+    let guard = tempfile::Builder::new().prefix("tidewire-rate-").tempdir().unwrap();
+    let d = guard.path().to_path_buf();
     let p = d.join("long-line.toml");
     std::fs::write(&p, slow).unwrap();
     for part in ["m0", "m4", "stm32f407"] {

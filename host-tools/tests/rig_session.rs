@@ -72,8 +72,8 @@ fn load_break_capture_equals_the_host_run_and_a_bad_image_changes_nothing() {
     let addr = serve();
     let plant = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/plants/rig-break.toml");
     let plant = plant.to_str().unwrap();
-    let dir = std::env::temp_dir().join(format!("tidewire-rig-session-{}", std::process::id()));
-    std::fs::create_dir_all(&dir).unwrap();
+    let guard = tempfile::Builder::new().prefix("tidewire-rig-session-").tempdir().unwrap();
+    let dir = guard.path().to_path_buf();
     let csv = dir.join("cap.csv");
 
     let (code, out, err) = rig(&addr, &["load", plant]);

@@ -8,7 +8,7 @@
 //! disagree with the text: the sharpest edge, the largest model error), on a lossy cable,
 //! and the rig-break example, whose comparison runs on after its scheduled break.
 use assert_cmd::Command;
-use std::path::{Path, PathBuf};
+use std::path::Path;
 
 const TWO_SAMPLE_EDGE: &str = r#"
 [plant]
@@ -41,11 +41,9 @@ segment = "run"
 end = "from"
 "#;
 
-fn tmp(name: &str) -> PathBuf {
-    let d = std::env::temp_dir().join(format!("tidewire-picture-{}-{name}", std::process::id()));
-    let _ = std::fs::remove_dir_all(&d);
-    std::fs::create_dir_all(&d).unwrap();
-    d
+/// A fresh folder, removed when the guard drops.
+fn tmp(name: &str) -> tempfile::TempDir {
+    tempfile::Builder::new().prefix(&format!("tidewire-picture-{name}-")).tempdir().unwrap()
 }
 
 /// A figure as the legend writes it ("28.4 mV", "1.13 mA", "135 µA") in base units.
@@ -106,7 +104,8 @@ fn whole_run_agrees(dir: &Path, plant: &Path) {
 
 #[test]
 fn a_two_sample_edge_shows_the_same_peak_in_picture_and_text() {
-    let dir = tmp("edge");
+    let guard = tmp("edge");
+    let dir = guard.path().to_path_buf();
     let plant = dir.join("edge.toml");
     std::fs::write(&plant, TWO_SAMPLE_EDGE).unwrap();
     whole_run_agrees(&dir, &plant);
@@ -114,14 +113,16 @@ fn a_two_sample_edge_shows_the_same_peak_in_picture_and_text() {
 
 #[test]
 fn after_an_event_the_picture_and_text_still_agree() {
-    let dir = tmp("event");
+    let guard = tmp("event");
+    let dir = guard.path().to_path_buf();
     let plant = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/plants/rig-break.toml");
     whole_run_agrees(&dir, &plant);
 }
 
 #[test]
 fn a_window_gives_its_own_peak_and_the_whole_runs_labelled() {
-    let dir = tmp("window");
+    let guard = tmp("window");
+    let dir = guard.path().to_path_buf();
     let plant = dir.join("edge.toml");
     std::fs::write(&plant, TWO_SAMPLE_EDGE).unwrap();
     // From 1 us on, after the edge and its first echoes: the window's peak is smaller.
@@ -154,7 +155,8 @@ fn numbers_after(svg: &str, after: &str) -> Vec<f64> {
 #[test]
 fn the_irrigation_pictures_run_past_the_break_and_mark_it() {
     // The example's break is at 6 us of a 20 us run (`verify_verdicts.rs` checks the figures).
-    let dir = tmp("irrigation");
+    let guard = tmp("irrigation");
+    let dir = guard.path().to_path_buf();
     let plant = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/plants/irrigation-network.toml");
     let lattice = dir.join("l.svg");
     let (legends, max) = verify(&dir, &plant, &["--lattice", lattice.to_str().unwrap()]);
@@ -182,7 +184,8 @@ fn sweep_rows(stdout: &str) -> (usize, usize) {
 
 #[test]
 fn the_sweep_picture_shows_the_exact_curve_and_rings_exactly_the_failing_points() {
-    let dir = tmp("sweep");
+    let guard = tmp("sweep");
+    let dir = guard.path().to_path_buf();
     let plant = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/plants/drive-to-motor.toml");
     let svg = dir.join("s.svg");
     let run = |args: &[&str]| {
