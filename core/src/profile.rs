@@ -97,9 +97,12 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     fn adapt(b: Self::Wave, a: Self::Wave, mu: u32, negate: bool) -> Self::Wave;
     /// Fractional bits of loss-filter coefficients in this profile.
     const LOSS_FRAC: u32;
-    /// One first-order loss section: y = trunc(g·x − gb·x1 + a·y1) toward zero, saturated
-    /// (coefficients in `LOSS_FRAC` bits, all < 1). With x = 0 the output shrinks strictly,
-    /// so a section cannot sustain a limit cycle.
+    /// One first-order loss section: y = x + trunc(g·x − gb·x1 + a·y1 − x) toward zero,
+    /// saturated, i.e. the exact output quantized toward the input x (coefficients in
+    /// `LOSS_FRAC` bits, g <= 1, |gb| <= g, a < 1, DC-exact g − gb = 1 − a: checked at load).
+    /// Under a constant x, y − x = trunc(a·(y1 − x)) shrinks strictly to 0: the output settles
+    /// on x exactly (no truncation dead band); with x = 0 the output shrinks strictly, so a
+    /// section cannot sustain a limit cycle.
     fn loss_section(x: Self::Wave, x1: Self::Wave, y1: Self::Wave, g: u32, gb: i32, a: u32) -> Self::Wave;
     /// Fractional bits of the series-inductor coefficients (c, rho < 1).
     const CHOKE_FRAC: u32;

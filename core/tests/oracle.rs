@@ -80,9 +80,14 @@ fn check_loss<P: Profile>(pole: u32, zero_frac: f64, u: [u32; 3]) -> Result<(), 
         return Ok(()); // refused by the loader; not an input of the per-sample path
     };
     let (x, x1, y1) = (wave::<P>(u[0]), wave::<P>(u[1]), wave::<P>(u[2]));
+    // The quantization is DC-exact: g − gb = one − a.
+    prop_assert_eq!(i128::from(g) - i128::from(gb), (1i128 << P::LOSS_FRAC) - i128::from(a));
     let y = P::loss_section(x, x1, y1, g, gb, a);
-    let n = g as i128 * w::<P>(x) - gb as i128 * w::<P>(x1) + a as i128 * w::<P>(y1);
-    prop_assert_eq!(w::<P>(y), trunc_sat::<P>(n, P::LOSS_FRAC));
+    // The exact output minus the input, truncated toward zero, added back to the input:
+    // the exact output quantized toward x.
+    let d = g as i128 * w::<P>(x) - gb as i128 * w::<P>(x1) + a as i128 * w::<P>(y1) - (w::<P>(x) << P::LOSS_FRAC);
+    let (lo, hi) = wave_range::<P>();
+    prop_assert_eq!(w::<P>(y), (w::<P>(x) + d / (1i128 << P::LOSS_FRAC)).clamp(lo, hi));
     Ok(())
 }
 
@@ -284,7 +289,7 @@ proptest! {
     }
 
     #[test]
-    fn loss_section_is_exact_then_truncated(pole: u32, zero_frac in 0.0f64..1.0, u: [u32; 3]) {
+    fn loss_section_is_exact_then_quantized_toward_its_input(pole: u32, zero_frac in 0.0f64..1.0, u: [u32; 3]) {
         check_loss::<Wide>(pole, zero_frac, u)?;
         check_loss::<Narrow>(pole, zero_frac, u)?;
     }

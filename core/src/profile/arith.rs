@@ -207,13 +207,22 @@ macro_rules! junction_rules {
 
         #[inline(always)]
         fn loss_section(x: Self::Wave, x1: Self::Wave, y1: Self::Wave, g: u32, gb: i32, a: u32) -> Self::Wave {
-            // Each product < 2^f·2^(wave bits); three of them within the accumulator
-            // (g <= 1, |gb| <= 1, a < 1: checked at load).
+            // d = one·(y − x) = (g − one)·x − gb·x1 + a·y1 exactly, then y = x + trunc(d/one):
+            // the exact output quantized toward the input, not toward zero. The section is
+            // DC-exact (g − gb = one − a, checked at load), so under a constant x,
+            // d = a·(y1 − x) and y − x = trunc(a·(y1 − x)/one) shrinks strictly to 0: the
+            // output settles on x exactly (no dead band of up to one/(one − a) LSB below x,
+            // which truncating y itself toward zero leaves), and with x = 0 the rule is the
+            // old one, y = trunc(a·y1/one), so the zero-input decay to exactly 0 is kept.
+            // Ranges (g <= one, |gb| <= g, a < one: checked at load): |(g − one)·x|,
+            // |gb·x1|, |a·y1| <= 2^f·2^(wave bits − 1) each, so d < 3·2^(f + wave bits − 1)
+            // (i64, f = 30: < 2^63; i32, f = 14: < 2^31) whatever the wrapping order.
             type A = $acc;
-            let n = <A as Acc>::mul(g, x)
+            let d = <A as Acc>::mul(g, x)
+                .wrapping_sub(A::from(x).wrapping_shl(Self::LOSS_FRAC))
                 .wrapping_sub(A::from(gb).wrapping_mul(A::from(x1)))
                 .wrapping_add(<A as Acc>::mul(a, y1));
-            $sat($trunc(n, Self::LOSS_FRAC))
+            $sat(A::from(x).wrapping_add($trunc(d, Self::LOSS_FRAC)))
         }
 
         #[inline(always)]
