@@ -84,10 +84,23 @@
 //! sends one LSB less — the price of the missing correction steps. A lone open line end (one
 //! port, no source, no shunt) runs as an open end and reflects exactly b in both profiles.
 //!
-//! Series junctions (equal impedances), series inductors,
-//! reactive elements and loss sections follow the same rule: exact double-width value,
+//! Series junctions (equal impedances), series inductors and
+//! reactive elements follow the same rule: exact double-width value,
 //! truncated toward zero once, with coefficients rounded so that the quantized element is
-//! itself passive (their modules state the argument). The fractional-delay lattice's
+//! itself passive (their modules state the argument).
+//!
+//! **Loss sections** H(z) = (g − gb·z⁻¹)/(1 − a·z⁻¹) are DC-exact and quantize toward their
+//! input. Their integers satisfy g − gb = 1 − a exactly (`quantize::loss_section`, checked
+//! at load), so H(1) = 1 however few LSB the pole a sits below one: the DC operating point
+//! is Ohm's law's in both profiles (rounding g down and gb up, as before, cost about 10 % of
+//! DC gain per section where 1 − a was a few LSB at 14 bits). With gb <= a the zero gb/g is
+//! at or below the pole and |H| falls monotonically from 1 (`configure/passive.rs`). The
+//! output is y = x + trunc(y_exact − x): truncating y itself toward zero leaves, under a
+//! constant x, a steady state anywhere up to 1/(1 − a) LSB below x (the first-order
+//! recursion's dead band: y = trunc((1 − a)·x + a·y) holds whenever (1 − a)·(x − y) < 1), i.e.
+//! hundreds of wave LSB at 14 bits. Quantized toward the input, y − x = trunc(a·(y1 − x))
+//! under a constant x, which shrinks strictly to 0: the section settles on x exactly, and
+//! with x = 0 the rule is trunc(a·y1), so its zero-input decay to exactly 0 is unchanged. The fractional-delay lattice's
 //! matrix [[a, c], [c, −a]] has norm sqrt(a² + c²); the core truncates a and c toward zero
 //! (F = `LOSS_FRAC` bits) and `load` checks a_q² + c_q² <= 2^(2F) from the integers, so the exact outputs have
 //! y² + s'² <= x² + s², and truncating each toward zero (then saturating) only lowers them:
