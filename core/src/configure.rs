@@ -143,6 +143,7 @@ fn loss_record<P: Profile>(ll: &crate::network::LineLoss, port: u16) -> Option<L
         a: [0; MAX_LOSS_SECTIONS],
         x1: [P::ZERO; MAX_LOSS_SECTIONS],
         y1: [P::ZERO; MAX_LOSS_SECTIONS],
+        r1: [P::ZERO; MAX_LOSS_SECTIONS],
         ap: false,
         ap_a: 0,
         ap_c: 0,

@@ -38,8 +38,8 @@
 //!   (gb·1 <= a·g ⇔ gb·(1 − a) <= a·(1 − a)) and g <= 1. Then with α = a, β = gb/g,
 //!   |H(e^jω)|² = g²·(1 − 2β·cos ω + β²)/(1 − 2α·cos ω + α²) has d/d(cos ω) ∝
 //!   (α − β)(1 − αβ) >= 0 (αβ <= α² < 1 for β >= 0, < 0 otherwise): |H| falls
-//!   monotonically from H(1) = 1. (The section's output is its exact value quantized toward
-//!   its input, `Profile::loss_section`, so a constant wave passes exactly too.)
+//!   monotonically from H(1) = 1. (The section's output is floored with its residue fed
+//!   back, `Profile::loss_section`, so a constant wave passes exactly too.)
 //! * **fractional-delay allpass** (normalised lattice y = a·x + c·s, s' = c·x − a·s):
 //!   a_q² + c_q² <= 2^(2F) with F = `LOSS_FRAC`, c_q > 0, and |a_q| <= 2^(F−1). The first
 //!   makes the matrix M = [[a, c], [c, −a]] (symmetric, M² = (a² + c²)·I) of norm
