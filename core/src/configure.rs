@@ -44,13 +44,14 @@ fn at(table: &[u16], i: usize) -> usize {
 }
 
 /// One loss section's coefficients from its pole and zero (Q30), in the profile's
-/// `LOSS_FRAC` bits, as `(g, gb, a)`: the one quantization, [`crate::quantize::loss_section`]. `None` for a section that is
-/// not an attenuating shelf (needs −1 < zero < pole < 1 and a > 0 after quantization).
+/// `LOSS_FRAC` bits, as `(g, gb, a)`: the one quantization, [`crate::quantize::loss_section`]
+/// (DC-exact: g − gb = one − a). `None` for a section that is not an attenuating shelf
+/// (needs −1 < zero < pole < 1, and after quantization a > 0, g > 0, gb >= −g).
 pub fn quantize_loss_section<P: Profile>(pole: u32, zero: i32) -> Option<(u32, i32, u32)> {
     let (a, g, gb) = crate::quantize::loss_section(i64::from(pole), i64::from(zero), P::LOSS_FRAC)?;
-    let one = 1i64.checked_shl(P::LOSS_FRAC)?;
-    // Still a section that only attenuates: 0 < a, effective zero below the pole.
-    if a <= 0 || g <= 0 || gb.checked_mul(one)? >= a.checked_mul(g)? || g >= 1 << 31 {
+    // Still a section that only attenuates: 0 < a, effective zero at or below the pole
+    // (gb <= a, see `quantize::loss_section`), |zero| <= 1.
+    if a <= 0 || g <= 0 || gb > a || gb < g.checked_neg()? || g >= 1 << 31 {
         return None;
     }
     Some((u32::try_from(g).ok()?, i32::try_from(gb).ok()?, u32::try_from(a).ok()?))
@@ -142,6 +143,7 @@ fn loss_record<P: Profile>(ll: &crate::network::LineLoss, port: u16) -> Option<L
         a: [0; MAX_LOSS_SECTIONS],
         x1: [P::ZERO; MAX_LOSS_SECTIONS],
         y1: [P::ZERO; MAX_LOSS_SECTIONS],
+        r1: [P::ZERO; MAX_LOSS_SECTIONS],
         ap: false,
         ap_a: 0,
         ap_c: 0,

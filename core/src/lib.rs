@@ -84,18 +84,31 @@
 //! sends one LSB less — the price of the missing correction steps. A lone open line end (one
 //! port, no source, no shunt) runs as an open end and reflects exactly b in both profiles.
 //!
-//! Series junctions (equal impedances), series inductors,
-//! reactive elements and loss sections follow the same rule: exact double-width value,
+//! Series junctions (equal impedances), series inductors and
+//! reactive elements follow the same rule: exact double-width value,
 //! truncated toward zero once, with coefficients rounded so that the quantized element is
-//! itself passive (their modules state the argument). The fractional-delay lattice's
-//! matrix [[a, c], [c, −a]] has norm sqrt(a² + c²); the core truncates a and c toward zero
-//! (F = `LOSS_FRAC` bits) and `load` checks a_q² + c_q² <= 2^(2F) from the integers, so the exact outputs have
-//! y² + s'² <= x² + s², and truncating each toward zero (then saturating) only lowers them:
-//! y_q² + s'_q² <= x² + s², the section's outgoing plus stored energy never exceeds its
-//! incoming plus stored energy (`configure/passive.rs`). Rounding to nearest, or rounding the
-//! node voltage to an integer and subtracting exactly, does not have this property: a lossy
-//! node would then reflect a one-LSB wave losslessly, and the property tests find such limit
-//! cycles.
+//! itself passive (their modules state the argument).
+//!
+//! **Loss sections** H(z) = (g − gb·z⁻¹)/(1 − a·z⁻¹) are DC-exact and carry their
+//! quantization residue. Their integers satisfy g − gb = 1 − a exactly
+//! (`quantize::loss_section`, checked at load), so H(1) = 1 however few LSB the pole a sits
+//! below one: the DC operating point is Ohm's law's in both profiles (rounding g down and gb
+//! up, as before, cost about 10 % of DC gain per section where 1 − a was a few LSB at 14
+//! bits). With gb <= a the zero gb/g is at or below the pole and |H| falls monotonically from
+//! 1 (`configure/passive.rs`). Truncating y toward zero leaves, under a constant x, a steady
+//! state anywhere up to 1/(1 − a) LSB below x (the first-order recursion's dead band:
+//! y = trunc((1 − a)·x + a·y) holds whenever (1 − a)·(x − y) < 1), hundreds of wave LSB at 14
+//! bits. The section instead floors y − x plus the previous residue and keeps the new residue
+//! (first-order error feedback): its quantization error reaches the output through
+//! (1 − z⁻¹)/(1 − a·z⁻¹), zero at DC, so it settles on a constant x exactly, stays within a
+//! few LSB of its exact response on the slow tail (`core/tests/loss_dc.rs`), and with every
+//! wave zero it outputs zero (the residue is below one LSB and makes no wave). The argument
+//! is next to the arithmetic (`profile/arith.rs`). Unlike the junctions, a section's output
+//! may exceed its exact value by less than one LSB in a sample (it is not magnitude
+//! truncation); its errors telescope (e_n = r_(n−1) − r_n), so over any run they sum to less
+//! than one LSB. The property tests' zero-input decay and passive bound
+//! (`core/tests/passivity.rs`) and constant-drive settling (`core/tests/settle.rs`) run with
+//! these sections.
 //!
 //! **Constant drive.** Around a non-zero working point every outgoing wave of a node has one
 //! sign, so truncation toward zero rounds them all the same way; for small deviations the node

@@ -97,10 +97,23 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     fn adapt(b: Self::Wave, a: Self::Wave, mu: u32, negate: bool) -> Self::Wave;
     /// Fractional bits of loss-filter coefficients in this profile.
     const LOSS_FRAC: u32;
-    /// One first-order loss section: y = trunc(g·x − gb·x1 + a·y1) toward zero, saturated
-    /// (coefficients in `LOSS_FRAC` bits, all < 1). With x = 0 the output shrinks strictly,
-    /// so a section cannot sustain a limit cycle.
-    fn loss_section(x: Self::Wave, x1: Self::Wave, y1: Self::Wave, g: u32, gb: i32, a: u32) -> Self::Wave;
+    /// One first-order loss section with error feedback: with n = g·x − gb·x1 + a·y1 + r1
+    /// (the exact output plus the last residue r1), returns y = floor(n), saturated, and the
+    /// new residue r = n − floor(n) in [0, 1) (as a wave of 2^−`LOSS_FRAC` units). Coefficients in
+    /// `LOSS_FRAC` bits, g <= 1, |gb| <= g, 0 < a < 1, DC-exact g − gb = 1 − a: checked at
+    /// load. The residue carried into the next sample shapes the quantization error by
+    /// (1 − z⁻¹)/(1 − a·z⁻¹): no error at DC, no drift on the section's slow tail. Under a
+    /// constant x the section settles on y = x exactly; with every wave zero it stays at zero
+    /// (d = r1 < 1), so the residue alone never makes a wave (see `profile/arith.rs`).
+    fn loss_section(
+        x: Self::Wave,
+        x1: Self::Wave,
+        y1: Self::Wave,
+        r1: Self::Wave,
+        g: u32,
+        gb: i32,
+        a: u32,
+    ) -> (Self::Wave, Self::Wave);
     /// Fractional bits of the series-inductor coefficients (c, rho < 1).
     const CHOKE_FRAC: u32;
     /// Series inductor with its state kept in voltage scale: s = −(2Z/R_L)·b_L, so a large

@@ -3,15 +3,30 @@
 
 /// One loss section's coefficients at `frac` fraction bits, from its pole `a` and zero `b`
 /// in Q30 (`pole` = a·2^30, `zero` = b·2^30): returns `(a_q, g, gb)` as integers of
-/// 2^frac, the section being `y[n] = g·x[n] − gb·x[n−1] + a_q·y[n−1]` (all over 2^frac).
+/// one = 2^frac, the section being H(z) = (g − gb·z⁻¹)/(one − a_q·z⁻¹).
 ///
-/// * a_q = floor(a·2^frac), b_q = floor(b·2^frac): b only moves away from a;
-/// * g = floor((1 − a_q)/(1 − b_q)) and gb = ceil(g·b_q): the DC gain (g − gb)/(1 − a_q)
-///   is at most 1 and the effective zero gb/g stays at or above b_q, so the quantized
-///   section still only attenuates.
+/// The rule is **DC-exact**: g − gb = one − a_q, so H(1) = 1 in exact arithmetic and a
+/// constant wave passes unchanged (the DC operating point follows Ohm's law however coarse
+/// the pole is: at 14 bits a pole a few LSB below one used to lose ~10 % per section).
+///
+/// * a_q = round(a·2^frac), at most one − 1: the pole, hence the section's corner
+///   ω_p ≈ 1 − a, moves by at most half an LSB (rounding, not flooring, halves the corner's
+///   error where 1 − a is a few LSB);
+/// * g = round(one·(1 − a)/(1 − b)) from the Q30 design (at least 1): g/one is the
+///   section's gain at z → ∞ (its first impulse-response sample), and with the DC rule the
+///   gain at Nyquist, (2g − one + a_q)/(one + a_q), stays within 1/(2·one) of the design's
+///   whatever a_q's rounding: the shelf keeps its depth, only its corners move with a_q;
+/// * gb = g − (one − a_q), from the DC rule.
+///
+/// Attenuating: the effective zero gb/g is at or below the pole a_q/one exactly when
+/// gb <= a_q (gb·one <= a_q·g ⇔ gb·(one − a_q) <= a_q·(one − a_q)), i.e. g <= one, which
+/// g's rounding keeps because b < a. Then |H(e^jω)|² = (g/one)²·(1 − 2β·cos ω + β²)/
+/// (1 − 2α·cos ω + α²) (α = a_q/one, β = gb/g) has d/d(cos ω) ∝ (α − β)(1 − αβ) >= 0:
+/// |H| falls monotonically from H(1) = 1. The loader checks these conditions again from the
+/// integers (`configure::passive::loss_ok`).
 ///
 /// `None` for `frac` > 30 or a section outside −2^30 < `zero` < `pole` < 2^30. Within those
-/// ranges (one − a)·one < 2^60 and one − b is in [1, 2^31]: every step is exact (checked
+/// ranges (1 − a)·2^frac < 2^61 and 1 − b is in [1, 2^31]: every step is exact (checked
 /// arithmetic all the same, so no input can panic or wrap).
 pub fn loss_section(pole: i64, zero: i64, frac: u32) -> Option<(i64, i64, i64)> {
     if pole >= 1 << 30 || zero >= pole || zero <= -(1 << 30) {
@@ -19,10 +34,13 @@ pub fn loss_section(pole: i64, zero: i64, frac: u32) -> Option<(i64, i64, i64)> 
     }
     let gap = 30u32.checked_sub(frac)?;
     let one = 1i64.checked_shl(frac)?;
-    let (a, b) = (pole.checked_shr(gap)?, zero.checked_shr(gap)?);
-    let g = one.checked_sub(a)?.checked_shl(frac)?.checked_div(one.checked_sub(b)?)?;
-    let gb_exact = g.checked_mul(b)?;
-    let gb = gb_exact.checked_div_euclid(one)?.checked_add(i64::from(gb_exact.checked_rem_euclid(one)? != 0))?;
+    // Round half up: (pole + 2^(gap−1)) >> gap (gap = 0: no rounding).
+    let half = 1i64.checked_shl(gap)?.checked_shr(1)?;
+    let a = pole.checked_add(half)?.checked_shr(gap)?.min(one.checked_sub(1)?);
+    // g = round(num/den), num = (2^30 − pole)·one, den = 2^30 − zero > 0.
+    let (num, den) = ((1i64 << 30).checked_sub(pole)?.checked_shl(frac)?, (1i64 << 30).checked_sub(zero)?);
+    let g = num.checked_mul(2)?.checked_add(den)?.checked_div(den.checked_mul(2)?)?.max(1);
+    let gb = g.checked_sub(one.checked_sub(a)?)?;
     Some((a, g, gb))
 }
 

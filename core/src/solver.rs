@@ -100,9 +100,10 @@ pub(crate) struct LossRt<W: Copy> {
     pub g: [u32; MAX_LOSS_SECTIONS],
     pub gb: [i32; MAX_LOSS_SECTIONS],
     pub a: [u32; MAX_LOSS_SECTIONS],
-    /// x[n−1] and y[n−1] of each section.
+    /// x[n−1], y[n−1] and the quantization residue (not a wave, `Profile::loss_section`) per section.
     pub x1: [W; MAX_LOSS_SECTIONS],
     pub y1: [W; MAX_LOSS_SECTIONS],
+    pub r1: [W; MAX_LOSS_SECTIONS],
     /// Fractional-delay allpass after the sections: whether present, its lattice
     /// coefficients (a, c) in `LOSS_FRAC` bits, and its state s.
     pub ap: bool,
@@ -199,6 +200,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                 a: [0; MAX_LOSS_SECTIONS],
                 x1: [P::ZERO; MAX_LOSS_SECTIONS],
                 y1: [P::ZERO; MAX_LOSS_SECTIONS],
+                r1: [P::ZERO; MAX_LOSS_SECTIONS],
                 ap: false,
                 ap_a: 0,
                 ap_c: 0,
@@ -237,9 +239,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             }
         }
         for l in self.losses.iter_mut() {
-            l.x1 = [P::ZERO; MAX_LOSS_SECTIONS];
-            l.y1 = [P::ZERO; MAX_LOSS_SECTIONS];
-            l.ap_s = P::ZERO;
+            let z = [P::ZERO; MAX_LOSS_SECTIONS];
+            (l.x1, l.y1, l.r1, l.ap_s) = (z, z, z, P::ZERO);
         }
         for r in self.rings.iter_mut() {
             r.cursor = r.start;
@@ -466,11 +467,11 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             };
             let mut x = *b;
             let k = (l.sections as usize).min(MAX_LOSS_SECTIONS);
-            let sections = l.x1.iter_mut().zip(l.y1.iter_mut()).zip(l.g.iter().zip(l.gb.iter()).zip(l.a.iter()));
-            for ((x1, y1), ((g, gb), a)) in sections.take(k) {
-                let y = P::loss_section(x, *x1, *y1, *g, *gb, *a);
-                *x1 = x;
-                *y1 = y;
+            let state = l.x1.iter_mut().zip(l.y1.iter_mut()).zip(l.r1.iter_mut());
+            let sections = state.zip(l.g.iter().zip(l.gb.iter()).zip(l.a.iter()));
+            for (((x1, y1), r1), ((g, gb), a)) in sections.take(k) {
+                let (y, r) = P::loss_section(x, *x1, *y1, *r1, *g, *gb, *a);
+                (*x1, *y1, *r1) = (x, y, r);
                 x = y;
             }
             if l.ap {

@@ -73,16 +73,26 @@ fn check_adapt<P: Profile>(u1: u32, u2: u32, mu: u64, negate: bool) -> Result<()
     Ok(())
 }
 
-fn check_loss<P: Profile>(pole: u32, zero_frac: f64, u: [u32; 3]) -> Result<(), TestCaseError> {
+fn check_loss<P: Profile>(pole: u32, zero_frac: f64, u: [u32; 4]) -> Result<(), TestCaseError> {
     let pole = pole % (1 << 30);
     let zero = ((pole as f64) * (2.0 * zero_frac - 1.0)) as i32;
     let Some((g, gb, a)) = quantize_loss_section::<P>(pole, zero) else {
         return Ok(()); // refused by the loader; not an input of the per-sample path
     };
+    // The quantization is DC-exact: g − gb = one − a.
+    let f = P::LOSS_FRAC;
+    prop_assert_eq!(i128::from(g) - i128::from(gb), (1i128 << f) - i128::from(a));
     let (x, x1, y1) = (wave::<P>(u[0]), wave::<P>(u[1]), wave::<P>(u[2]));
-    let y = P::loss_section(x, x1, y1, g, gb, a);
-    let n = g as i128 * w::<P>(x) - gb as i128 * w::<P>(x1) + a as i128 * w::<P>(y1);
-    prop_assert_eq!(w::<P>(y), trunc_sat::<P>(n, P::LOSS_FRAC));
+    // The residue, anywhere in its range [0, 2^f).
+    let r1 = P::wave_from_i32((u[3] % (1u32 << f)) as i32);
+    let (y, r) = P::loss_section(x, x1, y1, r1, g, gb, a);
+    // The exact output minus the input plus the residue, floored; the remainder is the new
+    // residue; the floor added back to the input, saturated.
+    let d = g as i128 * w::<P>(x) - gb as i128 * w::<P>(x1) + a as i128 * w::<P>(y1) - (w::<P>(x) << f) + w::<P>(r1);
+    let q = d.div_euclid(1i128 << f);
+    let (lo, hi) = wave_range::<P>();
+    prop_assert_eq!(w::<P>(y), (w::<P>(x) + q).clamp(lo, hi));
+    prop_assert_eq!(w::<P>(r), d.rem_euclid(1i128 << f));
     Ok(())
 }
 
@@ -284,7 +294,7 @@ proptest! {
     }
 
     #[test]
-    fn loss_section_is_exact_then_truncated(pole: u32, zero_frac in 0.0f64..1.0, u: [u32; 3]) {
+    fn loss_section_is_exact_then_floored_with_its_residue_fed_back(pole: u32, zero_frac in 0.0f64..1.0, u: [u32; 4]) {
         check_loss::<Wide>(pole, zero_frac, u)?;
         check_loss::<Narrow>(pole, zero_frac, u)?;
     }

@@ -32,8 +32,14 @@
 //!   `Profile::branch_series` argues with), and the reciprocal of n is the one [`reciprocal`]
 //!   gives.
 //! * **element adaptor**: 0 <= μ <= 1.
-//! * **loss section**: 0 < a < 1, g > 0, −g <= gb, gb/g < a (effective zero below the pole)
-//!   and g − gb <= 1 − a (DC gain <= 1): then |H(e^jω)| falls monotonically from H(1) <= 1.
+//! * **loss section** H(z) = (g − gb·z⁻¹)/(1 − a·z⁻¹): 0 < a < 1, g > 0, −g <= gb,
+//!   g − gb = 1 − a exactly (DC gain exactly 1, so the DC operating point is Ohm's law's)
+//!   and gb <= a, which with the DC rule is the effective zero gb/g at or below the pole a
+//!   (gb·1 <= a·g ⇔ gb·(1 − a) <= a·(1 − a)) and g <= 1. Then with α = a, β = gb/g,
+//!   |H(e^jω)|² = g²·(1 − 2β·cos ω + β²)/(1 − 2α·cos ω + α²) has d/d(cos ω) ∝
+//!   (α − β)(1 − αβ) >= 0 (αβ <= α² < 1 for β >= 0, < 0 otherwise): |H| falls
+//!   monotonically from H(1) = 1. (The section's output is floored with its residue fed
+//!   back, `Profile::loss_section`, so a constant wave passes exactly too.)
 //! * **fractional-delay allpass** (normalised lattice y = a·x + c·s, s' = c·x − a·s):
 //!   a_q² + c_q² <= 2^(2F) with F = `LOSS_FRAC`, c_q > 0, and |a_q| <= 2^(F−1). The first
 //!   makes the matrix M = [[a, c], [c, −a]] (symmetric, M² = (a² + c²)·I) of norm
@@ -129,15 +135,11 @@ pub(crate) fn loss_ok<P: Profile>(l: &LossRt<P::Wave>) -> bool {
         && (!l.ap || allpass_ok::<P>(l.ap_a, l.ap_c))
         && l.g.iter().zip(l.gb.iter()).zip(l.a.iter()).take(n).all(|((g, gb), a)| {
             let (g, gb, a) = (i64::from(*g), i64::from(*gb), i64::from(*a));
-            // Every operand is a u32 or i32, so each product is < 2^62 and each difference
-            // < 2^33: exact in i64 (saturating only to satisfy the lint).
-            a > 0
-                && a < one
-                && g > 0
-                && g <= one
-                && gb >= g.saturating_neg()
-                && gb.saturating_mul(one) < a.saturating_mul(g)
-                && g.saturating_sub(gb) <= one.saturating_sub(a)
+            // Every operand is a u32 or i32, so each difference is < 2^33: exact in i64
+            // (saturating only to satisfy the lint). DC-exact, zero at or below the pole
+            // (module docs); g <= one follows from the two.
+            let dc_exact = g.saturating_sub(gb) == one.saturating_sub(a);
+            a > 0 && a < one && g > 0 && gb >= g.saturating_neg() && gb <= a && dc_exact
         })
 }
 

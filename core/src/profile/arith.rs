@@ -206,14 +206,44 @@ macro_rules! junction_rules {
         }
 
         #[inline(always)]
-        fn loss_section(x: Self::Wave, x1: Self::Wave, y1: Self::Wave, g: u32, gb: i32, a: u32) -> Self::Wave {
-            // Each product < 2^f·2^(wave bits); three of them within the accumulator
-            // (g <= 1, |gb| <= 1, a < 1: checked at load).
+        fn loss_section(
+            x: Self::Wave,
+            x1: Self::Wave,
+            y1: Self::Wave,
+            r1: Self::Wave,
+            g: u32,
+            gb: i32,
+            a: u32,
+        ) -> (Self::Wave, Self::Wave) {
+            // n = g·x − gb·x1 + a·y1 + r1 exactly (the exact output plus the last residue, in
+            // units of 1/one); y = floor(n/one) (an arithmetic shift), r = n − y·one in
+            // [0, one) (the low bits).
+            //
+            // Why not y = trunc(g·x − gb·x1 + a·y1) toward zero: under a constant x that rule
+            // holds any y with (one − a)·(x − y) < one, up to one/(one − a) LSB below x (the
+            // first-order recursion's dead band: hundreds of LSB where one − a is a few LSB
+            // at 14 bits). Here, DC-exact (g − gb = one − a, checked at load) and with the
+            // residue fed back (first-order error feedback: the quantization error reaches
+            // the output through (1 − z⁻¹)/(1 − a·z⁻¹), zero at DC), under a constant x with
+            // x1 = x: y − x = floor(w/one) for w = a·(y1 − x) + r1, and
+            // w' = w − (one − a)·floor(w/one). From w >= one, w' >= a·w/one >= 0 and w' < w;
+            // from w < 0, w < w' < one − a. So w enters [0, one) and stays there, where
+            // floor(w/one) = 0: y = x exactly, no limit cycle. With every wave zero, n = r1 <
+            // one gives y = 0 and r = r1: a plant at rest stays at rest, and the zero-input
+            // decay of the waves is the same argument with x = 0.
+            //
+            // Ranges (g <= one, |gb| <= g, a < one, 0 <= r1 < one: checked at load and kept by
+            // this rule): |g·x|, |gb·x1|, |a·y1| <= 2^f·2^(wave bits − 1) each, so
+            // |n| < 3·2^(f + wave bits − 1) + 2^f (i64, f = 30: < 2^63; i32, f = 14: < 2^31)
+            // whatever the wrapping order; r < 2^f fits a wave (2^30 < 2^31, 2^14 < 2^15).
             type A = $acc;
             let n = <A as Acc>::mul(g, x)
                 .wrapping_sub(A::from(gb).wrapping_mul(A::from(x1)))
-                .wrapping_add(<A as Acc>::mul(a, y1));
-            $sat($trunc(n, Self::LOSS_FRAC))
+                .wrapping_add(<A as Acc>::mul(a, y1))
+                .wrapping_add(A::from(r1));
+            let low = (1 as A).wrapping_shl(Self::LOSS_FRAC).wrapping_sub(1);
+            // The low bits as a wave (< 2^f, so the cast keeps the value).
+            ($sat(n.wrapping_shr(Self::LOSS_FRAC)), (n & low) as Self::Wave)
         }
 
         #[inline(always)]

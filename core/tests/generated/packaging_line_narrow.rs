@@ -147,6 +147,7 @@ pub mod specialised {
         chokes: [W; 0],
         lx: [W; 0],
         ly: [W; 0],
+        lr: [W; 0],
         aps: [W; 22],
         held: [W; 11],
         hist: [W; HIST],
@@ -157,7 +158,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 27], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], aps: [P::ZERO; 22], held: [P::ZERO; 11], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 27], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 22], held: [P::ZERO; 11], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -512,6 +513,7 @@ pub mod specialised {
             self.chokes.iter_mut().for_each(|w| *w = P::ZERO);
             self.lx.iter_mut().for_each(|w| *w = P::ZERO);
             self.ly.iter_mut().for_each(|w| *w = P::ZERO);
+            self.lr.iter_mut().for_each(|w| *w = P::ZERO);
             self.aps.iter_mut().for_each(|w| *w = P::ZERO);
             self.held.iter_mut().for_each(|w| *w = P::ZERO);
             self.hist.iter_mut().for_each(|w| *w = P::ZERO);

@@ -228,7 +228,7 @@ impl Writer<'_> {
         let _ = writeln!(s, "        n: u32,\n        mem: [W; MEM],\n        b: [W; {}],", self.layout.states);
         let _ = writeln!(
             s,
-            "        chokes: [W; {n_chokes}],\n        lx: [W; {n_sections}],\n        ly: [W; {n_sections}],\n        aps: [W; {n_allpass}],\n        held: [W; {n_held}],"
+            "        chokes: [W; {n_chokes}],\n        lx: [W; {n_sections}],\n        ly: [W; {n_sections}],\n        lr: [W; {n_sections}],\n        aps: [W; {n_allpass}],\n        held: [W; {n_held}],"
         );
         let _ = writeln!(s, "        hist: [W; HIST],\n        probes: [i32; PROBES],\n        nodes: [NodeCoef; {n_switched}],\n    }}\n");
         let _ = writeln!(s, "    impl Plant {{");
@@ -236,7 +236,7 @@ impl Writer<'_> {
         let _ = writeln!(s, "        pub const fn new() -> Self {{");
         let _ = writeln!(
             s,
-            "            Plant {{ n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; {}], chokes: [P::ZERO; {n_chokes}], lx: [P::ZERO; {n_sections}], ly: [P::ZERO; {n_sections}], aps: [P::ZERO; {n_allpass}], held: [P::ZERO; {n_held}], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }}",
+            "            Plant {{ n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; {}], chokes: [P::ZERO; {n_chokes}], lx: [P::ZERO; {n_sections}], ly: [P::ZERO; {n_sections}], lr: [P::ZERO; {n_sections}], aps: [P::ZERO; {n_allpass}], held: [P::ZERO; {n_held}], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }}",
             self.layout.states
         );
         let _ = writeln!(s, "        }}\n    }}\n");
@@ -355,10 +355,12 @@ impl Writer<'_> {
                 let (g, gb, a) = (lp.g[k], lp.gb[k], lp.a[k]);
                 let _ = writeln!(
                     s,
-                    "            let y = P::loss_section(x, self.lx[{sec}], self.ly[{sec}], {g}u32, {gb}i32, {a}u32);"
+                    "            let (y, r) = P::loss_section(x, self.lx[{sec}], self.ly[{sec}], self.lr[{sec}], {g}u32, {gb}i32, {a}u32);"
                 );
-                let _ =
-                    writeln!(s, "            self.lx[{sec}] = x;\n            self.ly[{sec}] = y;\n            x = y;");
+                let _ = writeln!(
+                    s,
+                    "            self.lx[{sec}] = x;\n            self.ly[{sec}] = y;\n            self.lr[{sec}] = r;\n            x = y;"
+                );
                 sec += 1;
             }
             if let Some((a, c)) = lp.allpass {
@@ -389,7 +391,7 @@ impl Writer<'_> {
         let _ = writeln!(s, "        fn reset(&mut self) {{");
         // In place: no temporary of the plant's size on the stack (a Cortex-M0 has little).
         let _ = writeln!(s, "            self.n = 0;");
-        for field in ["mem", "b", "chokes", "lx", "ly", "aps", "held", "hist"] {
+        for field in ["mem", "b", "chokes", "lx", "ly", "lr", "aps", "held", "hist"] {
             let _ = writeln!(s, "            self.{field}.iter_mut().for_each(|w| *w = P::ZERO);");
         }
         let _ = writeln!(s, "            self.probes.iter_mut().for_each(|w| *w = 0);\n        }}\n");
