@@ -390,3 +390,33 @@ proptest::proptest! {
         proptest::prop_assert!(tail <= 0.01 * all, "tail {tail} of peak {all}\n{text}");
     }
 }
+
+#[test]
+fn inspect_reports_each_cable_runs_network() {
+    // The demo irrigation plant's Cat 5e weather link, as a user reads it: text and JSON.
+    let plant = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/plants/irrigation-network.toml");
+    let json = std::env::temp_dir().join(format!("tidewire-zc-{}.json", std::process::id()));
+    let out = assert_cmd::Command::cargo_bin("tidewire")
+        .unwrap()
+        .args(["inspect", plant.to_str().unwrap(), "--json", json.to_str().unwrap()])
+        .assert()
+        .success();
+    let text = String::from_utf8_lossy(&out.get_output().stdout).into_owned();
+    let line = text.lines().find(|l| l.contains("segment weather-link")).unwrap_or_else(|| panic!("{text}"));
+    assert!(line.contains("Zc network on") && line.contains("least margin +"), "{line}");
+    let v: serde_json::Value = serde_json::from_slice(&std::fs::read(&json).unwrap()).unwrap();
+    let _ = std::fs::remove_file(&json);
+    let run = &v["zc_runs"][0];
+    assert_eq!(run["segment"], "weather-link");
+    assert_eq!(run["network"], true);
+    // Off by default on this branch: the core does not run the networks yet.
+    assert_eq!(run["in_core_network"], false);
+    assert!(run["refused_because"].is_null());
+    let (m, e, e0) = (
+        run["least_margin"].as_f64().unwrap(),
+        run["fit_error_fraction"].as_f64().unwrap(),
+        run["constant_port_error_fraction"].as_f64().unwrap(),
+    );
+    assert!(m >= SAFETY && e < e0, "{run}");
+    assert_eq!(v["zc_passivity_margin"]["margin"].as_f64(), Some(m));
+}

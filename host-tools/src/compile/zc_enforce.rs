@@ -383,4 +383,21 @@ mod tests {
         let (m, _) = line_margin(&|_| Complex64::new(100.0, 0.0), &line, fs, 30);
         assert!(m.is_infinite(), "{m}");
     }
+
+    #[test]
+    fn a_run_no_scale_can_make_passive_gets_no_network() {
+        // A lossy cable's fit on a line without an arrival filter (|A| = 1): any section
+        // makes it active, and with every section scaled away nothing of the network is
+        // left, so the run keeps its constant port and says why.
+        let c = crate::plant::presets::find("cat5e").unwrap();
+        let fs = 100e6;
+        let fit = super::super::zc::fit(&c, fs, super::super::zc::band(fs, 4e-6)).unwrap();
+        let lines = [LineView { delay: 10, loss: None }];
+        let (e0, d) = enforce(&c, &fit, &lines, c.z0, fs, 30);
+        assert!(e0 > 0.1, "constant port error {e0}");
+        match d {
+            Decision::Refused { reason, best: None } => assert!(reason.contains("no scale"), "{reason}"),
+            other => panic!("{other:?}"),
+        }
+    }
 }
