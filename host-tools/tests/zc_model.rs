@@ -4,7 +4,7 @@
 //!
 //! The core does not run the Zc networks yet; these tests measure the model it is to follow.
 use std::path::Path;
-use tidewire_host::compile::zc_enforce::{fine_margin, realised_zc, Decision, LineView, SAFETY};
+use tidewire_host::compile::zc_enforce::{fine_margin, realised_zc, scales_text, Decision, LineView, SAFETY};
 use tidewire_host::compile::{compile, compile_with, CompileOptions, Compiled, ProfileKind};
 use tidewire_host::plant::{parse_plant, Plant};
 use tidewire_host::reference::{exact_response, ExactOptions};
@@ -80,10 +80,10 @@ fn report(name: &str, p: &Plant, c: &Compiled, exact: &[Vec<f64>]) -> (Vec<f64>,
     let mut least = f64::INFINITY;
     for (run, e) in c.report.zc_runs.iter().zip(networks(c)) {
         eprintln!(
-            "{name}: segment {} ({} lines): sections x{:.4}, Z_inf {:.3} ohm, Z_p {:.3} ohm, Zc error {:.3} % (constant port {:.3} %), least margin {:.3e} at {:.4e} Hz",
+            "{name}: segment {} ({} lines): sections x[{}], Z_inf {:.3} ohm, Z_p {:.3} ohm, Zc error {:.3} % (constant port {:.3} %), least margin {:.3e} at {:.4e} Hz",
             run.segment,
             run.lines.len(),
-            e.scale,
+            scales_text(&e.scales),
             e.z_inf,
             f64::from(e.z_p_milliohm) / 1000.0,
             100.0 * e.max_rel_error,
@@ -215,7 +215,12 @@ fn narrow_profile_networks_are_passive_too() {
         for run in &c.report.zc_runs {
             match &run.decision {
                 Decision::Network(e) => {
-                    eprintln!("narrow: segment {} margin {:.3e} scale {:.3}", run.segment, e.margin.0, e.scale);
+                    eprintln!(
+                        "narrow: segment {} margin {:.3e} scales {}",
+                        run.segment,
+                        e.margin.0,
+                        scales_text(&e.scales)
+                    );
                     assert!(e.margin.0 >= SAFETY);
                 }
                 Decision::Refused { reason, .. } => eprintln!("narrow: segment {} refused: {reason}", run.segment),

@@ -196,8 +196,8 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
                 Decision::Network(e) => {
                     let _ = writeln!(
                         s,
-                        "   segment {name:<12} Zc network on {lines} line(s): sections ×{:.3}, Z_p {:.3} Ω   Zc error {:.3} % (constant port {:.3} %)   least margin {:+.2e} at {}{}",
-                        e.scale,
+                        "   segment {name:<12} Zc network on {lines} line(s): sections ×[{}], Z_p {:.3} Ω   Zc error {:.3} % (constant port {:.3} %)   least margin {:+.2e} at {}{}",
+                        crate::compile::zc_enforce::scales_text(&e.scales),
                         f64::from(e.z_p_milliohm) / 1000.0,
                         100.0 * e.max_rel_error,
                         100.0 * run.constant_error,

@@ -220,7 +220,7 @@ pub fn inspect_json(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Va
                 "network": reason.is_none(),
                 "in_core_network": run.compiled,
                 "refused_because": reason,
-                "section_scale": e.map(|e| num(e.scale)),
+                "section_scales": e.map(|e| e.scales.iter().map(|x| num(*x)).collect::<Vec<_>>()),
                 "z_inf_ohm": e.map(|e| num(e.z_inf)),
                 "z_p_ohm": e.map(|e| num(f64::from(e.z_p_milliohm) / 1000.0)),
                 "fit_error_fraction": e.map(|e| num(e.max_rel_error)),

@@ -19,12 +19,14 @@
 //! points on either side, and P uses that bound (capped at |A|). Points: 1024 log-spaced
 //! from fs·10⁻⁶ (a decade below the lowest fit band) and 4096 evenly spaced up to Nyquist.
 //!
-//! **The enforcement** (after the "scale the residues" family of passivity enforcement,
-//! Gustavsen & Semlyen 2001 [memory], in its simplest one-parameter form): every section's
-//! resistance R_i is scaled by one factor λ in [0, 1] (time constants kept), Z_inf refitted by
-//! least squares for that λ, the network quantized as the core holds it, and λ bisected to the
-//! largest value whose least margin over every line of the cable run, at Q30 and at the
-//! profile's LOSS_FRAC bits, is at least [`SAFETY`]. At λ = 0 the network is the constant
+//! **The enforcement** (after the "perturb the residues" family of passivity enforcement,
+//! Gustavsen & Semlyen 2001 [memory], in a simple form): the sections' resistances R_i are
+//! scaled by factors λ_i in [0, 1] (time constants kept), Z_inf refitted by least squares,
+//! the network quantized as the core holds it, until the least margin over every line of the
+//! cable run, at Q30 and at the profile's LOSS_FRAC bits, is at least [`SAFETY`]. Two
+//! searches, the one with the smaller Zc error kept: (a) one common λ, bisected; (b) the
+//! slowest section's λ bisected alone, and where even 0 does not suffice, that section
+//! dropped and the next slowest bisected. At λ = 0 the network is the constant
 //! Z_inf, passive on any line whose loss filter attenuates. Then the per-run decision: the
 //! network is kept only when its largest |Zc_realised − Zc|/|Zc| over the fit band is below
 //! the constant port's |Z0 − Zc|/|Zc|.
@@ -49,8 +51,9 @@ const ERROR_POINTS: usize = 64;
 /// One enforced network of a cable run (one plant segment, all its core lines).
 #[derive(Debug, Clone, PartialEq)]
 pub struct Enforced {
-    /// The scale λ of the sections' resistances (1: the fit as is).
-    pub scale: f64,
+    /// The scale λ_i of each section's resistance, by increasing time constant (1: the fit
+    /// as is; 0: the section dropped).
+    pub scales: Vec<f64>,
     /// Z_inf after the refit, ohms.
     pub z_inf: f64,
     /// The core's network and its port resistance Z_p, mΩ (the lines' `z_milliohm`).
@@ -262,16 +265,16 @@ fn band_targets(cable: &CableType, fit: &ZcFit) -> Vec<(f64, Complex64)> {
         .collect()
 }
 
-/// The network with sections scaled by `scale`, Z_inf refitted, realised and measured.
+/// The network with section i scaled by `scales[i]`, Z_inf refitted, realised and measured.
 fn candidate(
     fit: &ZcFit,
     targets: &[(f64, Complex64)],
-    scale: f64,
+    scales: &[f64],
     lines: &[Response],
     fs: f64,
     frac: u32,
 ) -> Option<Enforced> {
-    let sections: Vec<(f64, f64)> = fit.sections.iter().map(|&(r, tau)| (r * scale, tau)).collect();
+    let sections: Vec<(f64, f64)> = fit.sections.iter().zip(scales).map(|(&(r, tau), x)| (r * x, tau)).collect();
     // Z_inf minimising Σ |Z_inf + S(f) − Zc(f)|²/|Zc(f)|² over the band (S the sections).
     let s_at = |f: f64| ZcFit { z_inf: 0.0, sections: sections.clone(), ..ZcFit::default() }.at(f, fs);
     let (num, den) = targets.iter().fold((0.0, 0.0), |(n, d), (f, t)| {
@@ -288,7 +291,7 @@ fn candidate(
         .map(|(f, t)| (realised_zc(&network, z_p_milliohm, 30, *f, fs) - t).norm() / t.norm())
         .fold(0.0, f64::max);
     let margin = network_margin(&network, z_p_milliohm, lines, fs, frac);
-    Some(Enforced { scale, z_inf, network, z_p_milliohm, max_rel_error, margin })
+    Some(Enforced { scales: scales.to_vec(), z_inf, network, z_p_milliohm, max_rel_error, margin })
 }
 
 /// Enforce passivity of `fit` (of `cable`) on the cable run `lines`, whose constant port is
@@ -312,30 +315,56 @@ fn decide(
     frac: u32,
 ) -> Decision {
     let ok = |e: &Enforced| e.margin.0 >= SAFETY;
-    let best = match candidate(fit, targets, 1.0, lines, fs, frac) {
-        Some(e) if ok(&e) => Some(e),
-        _ => {
-            // Bisect λ: the largest scale that keeps the margin (λ = 1 does not).
-            let (mut lo, mut hi, mut best) = (0.0, 1.0, None);
-            for _ in 0..BISECTIONS {
-                let mid = 0.5 * (lo + hi);
-                match candidate(fit, targets, mid, lines, fs, frac) {
-                    Some(e) if ok(&e) => {
-                        lo = mid;
-                        best = Some(e);
-                    }
-                    _ => hi = mid,
+    let n = fit.sections.len();
+    let try_scales = |scales: &[f64]| candidate(fit, targets, scales, lines, fs, frac).filter(ok);
+    // The largest value of one scale in [0, 1) that keeps the margin, the others as `set`
+    // puts them (the margin falls as a section's resistance grows).
+    let bisect = |set: &dyn Fn(f64) -> Vec<f64>| {
+        let (mut lo, mut hi, mut best) = (0.0, 1.0, None);
+        for _ in 0..BISECTIONS {
+            let mid = 0.5 * (lo + hi);
+            match try_scales(&set(mid)) {
+                Some(e) => {
+                    lo = mid;
+                    best = Some(e);
                 }
+                None => hi = mid,
             }
-            best
+        }
+        best
+    };
+    let best = match try_scales(&vec![1.0; n]) {
+        Some(e) => Some(e),
+        None => {
+            // (a) One common scale of every section.
+            let common = bisect(&|x| vec![x; n]);
+            // (b) The slowest sections first, one at a time (the violations sit at the
+            // bottom of the band): scale the slowest down until the margin holds; where
+            // even zero does not suffice, drop it and go on to the next.
+            let mut scales = vec![1.0; n];
+            let mut slowest_first = None;
+            for i in (0..n).rev() {
+                let found = bisect(&|x| {
+                    let mut v = scales.clone();
+                    v[i] = x;
+                    v
+                });
+                if found.is_some() {
+                    slowest_first = found;
+                    break;
+                }
+                scales[i] = 0.0;
+            }
+            // The one with the smaller Zc error.
+            [common, slowest_first].into_iter().flatten().min_by(|a, b| a.max_rel_error.total_cmp(&b.max_rel_error))
         }
     };
     match best {
         Some(e) if e.max_rel_error < constant_error => Decision::Network(e),
         Some(e) => Decision::Refused {
             reason: format!(
-                "after passivity enforcement (sections scaled by {:.3}) its Zc error {:.3} % is not below the constant port's {:.3} %",
-                e.scale,
+                "after passivity enforcement (sections scaled by {}) its Zc error {:.3} % is not below the constant port's {:.3} %",
+                scales_text(&e.scales),
                 100.0 * e.max_rel_error,
                 100.0 * constant_error
             ),
@@ -348,6 +377,11 @@ fn decide(
             best: None,
         },
     }
+}
+
+/// The sections' scales as text: "1.000 1.000 0.950 0.412" (by increasing time constant).
+pub fn scales_text(scales: &[f64]) -> String {
+    scales.iter().map(|x| format!("{x:.3}")).collect::<Vec<_>>().join(" ")
 }
 
 #[cfg(test)]
