@@ -300,7 +300,16 @@ fn candidate(
 pub fn enforce(cable: &CableType, fit: &ZcFit, lines: &[LineView<'_>], z0: f64, fs: f64, frac: u32) -> (f64, Decision) {
     let targets = band_targets(cable, fit);
     let g = compiler_grid(fs);
-    let lines: Vec<Response> = lines.iter().map(|l| Response::of(l, fs, frac, &g, true)).collect();
+    // The pieces of a run are mostly alike (same delay, same loss design): each distinct
+    // one once.
+    let key = |l: &LineView<'_>| (l.delay, l.loss.map(|x| (x.sections, x.poles, x.zeros, x.allpass)));
+    let mut distinct: Vec<&LineView<'_>> = vec![];
+    for l in lines {
+        if !distinct.iter().any(|d| key(d) == key(l)) {
+            distinct.push(l);
+        }
+    }
+    let lines: Vec<Response> = distinct.into_iter().map(|l| Response::of(l, fs, frac, &g, true)).collect();
     let lines = &lines[..];
     let constant_error = targets.iter().map(|(_, t)| (z0 - t).norm() / t.norm()).fold(0.0, f64::max);
     (constant_error, decide(fit, &targets, lines, constant_error, fs, frac))
