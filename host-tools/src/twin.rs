@@ -11,7 +11,6 @@
 use crate::compile::{Compiled, CoreAction, HostDrive};
 use tidewire_core::Drive;
 use tidewire_twin::Twin;
-pub use tidewire_twin::ZcRealisation;
 
 /// Time series of one run: per probe (V or A), and the a-waves at both ends of every line
 /// (for the lattice view), if recorded.
@@ -26,25 +25,19 @@ pub struct Recording {
 
 /// Run the twin for `samples` samples; record line-end waves of the lines in `record`.
 pub fn run(c: &Compiled, samples: usize, record: &[u16]) -> Recording {
-    run_twin(c, samples, record, None)
+    run_twin(c, Twin::new(&c.net.network()), samples, record)
 }
 
-/// The twin with the fitted Zc(s) networks of `c.report.zc` at the node ends of every
-/// lossy line, realised as `how` (`docs/zc-model.md`). The core does not run them yet; this
-/// is the model the core is to follow, measured against the exact reference.
-pub fn run_with_zc(c: &Compiled, samples: usize, how: ZcRealisation) -> Recording {
-    run_twin(c, samples, &[], Some(how))
+/// The twin over the network as a compile with `CompileOptions::zc_networks` carries it:
+/// every enforced Zc(s) network of `c.report.zc_runs` at both ends of its lines
+/// (`Compiled::with_zc_networks`, read by the twin from `LineLoss::zc`). The same run as
+/// [`run`] when the compile already carries them.
+pub fn run_with_zc(c: &Compiled, samples: usize) -> Recording {
+    let net = c.with_zc_networks();
+    run_twin(c, Twin::new(&net.network()), samples, &[])
 }
 
-fn run_twin(c: &Compiled, samples: usize, record: &[u16], zc: Option<ZcRealisation>) -> Recording {
-    let mut twin = Twin::new(&c.net.network());
-    if let Some(how) = zc {
-        for &(line, k) in &c.report.zc_lines {
-            if let Some(fit) = c.report.zc.get(k) {
-                twin.set_zc(line as usize, fit.z_inf, &fit.wave_sections(c.dt), how);
-            }
-        }
-    }
+fn run_twin(c: &Compiled, mut twin: Twin, samples: usize, record: &[u16]) -> Recording {
     if let (Drive::Rig { junction, .. }, HostDrive::Rig { dut_resistance, .. }) = (c.net.drive, &c.host_drive) {
         twin.set_source(junction as usize, 1.0 / dut_resistance);
     }

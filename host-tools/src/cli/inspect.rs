@@ -1,6 +1,7 @@
 //! `tidewire inspect`: what the compiled emulation will be, in the engineer's units.
 use super::{load_and_prepare, Failure};
 use crate::analysis::Analysis;
+use crate::compile::zc_enforce::Decision;
 use crate::compile::{Compiled, ProfileKind};
 use crate::plant::Plant;
 use std::fmt::Write as _;
@@ -183,19 +184,39 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
                 100.0 * z.max_rel_error
             );
         }
-        if let Some((m, f, line)) = r.zc_margin {
-            let verdict =
-                if m >= 0.0 { "passive on the grid" } else { "ACTIVE there: not fit for the fixed-point core" };
-            let _ = writeln!(
-                s,
-                "   line two-ports with these networks: least passivity margin {m:+.2e} at {} (core line {line}): {verdict}",
-                eng(f, "Hz")
-            );
-        }
         let _ = writeln!(
             s,
-            "   (the core runs each line with its constant Z0; the f64 twin can run these networks: docs/zc-model.md)"
+            "   per cable run, the network after passivity enforcement (margin (L − P)/(L + P) >= {} on every line: docs/zc-model.md):",
+            crate::compile::zc_enforce::SAFETY
         );
+        for run in &r.zc_runs {
+            let name = plant.segments.get(run.segment).map_or("?", |x| x.name.as_str());
+            let lines = run.lines.len();
+            match &run.decision {
+                Decision::Network(e) => {
+                    let _ = writeln!(
+                        s,
+                        "   segment {name:<12} Zc network on {lines} line(s): sections ×[{}], Z_p {:.3} Ω   Zc error {:.3} % (constant port {:.3} %)   least margin {:+.2e} at {}{}",
+                        crate::compile::zc_enforce::scales_text(&e.scales),
+                        f64::from(e.z_p_milliohm) / 1000.0,
+                        100.0 * e.max_rel_error,
+                        100.0 * run.constant_error,
+                        e.margin.0,
+                        eng(e.margin.1, "Hz"),
+                        if run.compiled { "" } else { "   (not in the core's network yet)" }
+                    );
+                }
+                Decision::Refused { reason, .. } => {
+                    let _ = writeln!(s, "   segment {name:<12} no Zc network: {reason}");
+                }
+            }
+        }
+        if r.zc_runs.iter().any(|x| !x.compiled) {
+            let _ = writeln!(
+                s,
+                "   (runs not in the core's network keep the constant Z0; the f64 twin and verify's \"with Zc(s)\" run the networks: docs/zc-model.md)"
+            );
+        }
     }
     let _ = writeln!(s, "\n-- reflection coefficient for a wave arriving at a node on a segment (resistive parts)");
     for g in &r.reflections {

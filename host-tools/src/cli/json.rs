@@ -2,6 +2,7 @@
 //! `docs/json-output.md`; its `schema` field names the version, bumped on any change that
 //! renames or removes a field (new fields may appear without a bump).
 use crate::analysis::Analysis;
+use crate::compile::zc_enforce::Decision;
 use crate::compile::{Compiled, CoreAction};
 use crate::plant::{EventAction, Plant};
 use crate::verify::Verification;
@@ -200,10 +201,44 @@ pub fn inspect_json(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Va
                 "band_hz": [num(z.band.0), num(z.band.1)],
                 "zc_at_band_edges_ohm": [num(z.zc_edges.0), num(z.zc_edges.1)],
                 "fit_error_fraction": num(z.max_rel_error),
-                "run_by_core": false,
+                "run_by_core": r.zc_runs.iter().any(|run| run.compiled && r.zc.get(run.fit) == Some(z)),
             })
         })
         .collect();
+    let zc_runs: Vec<Value> = r
+        .zc_runs
+        .iter()
+        .map(|run| {
+            let (e, reason) = match &run.decision {
+                Decision::Network(e) => (Some(e), None),
+                Decision::Refused { reason, best } => (best.as_ref(), Some(reason.clone())),
+            };
+            json!({
+                "segment": plant.segments.get(run.segment).map(|x| x.name.clone()),
+                "cable": r.zc.get(run.fit).map(|z| z.cable.clone()),
+                "lines": run.lines,
+                "network": reason.is_none(),
+                "in_core_network": run.compiled,
+                "refused_because": reason,
+                "section_scales": e.map(|e| e.scales.iter().map(|x| num(*x)).collect::<Vec<_>>()),
+                "z_inf_ohm": e.map(|e| num(e.z_inf)),
+                "z_p_ohm": e.map(|e| num(f64::from(e.z_p_milliohm) / 1000.0)),
+                "fit_error_fraction": e.map(|e| num(e.max_rel_error)),
+                "constant_port_error_fraction": num(run.constant_error),
+                "least_margin": e.map(|e| num(e.margin.0)),
+                "least_margin_frequency_hz": e.map(|e| num(e.margin.1)),
+            })
+        })
+        .collect();
+    // The least margin over the networks the runs get.
+    let least = r
+        .zc_runs
+        .iter()
+        .filter_map(|run| match &run.decision {
+            Decision::Network(e) => Some((e.margin.0, e.margin.1, run.lines.first().copied().unwrap_or(0))),
+            Decision::Refused { .. } => None,
+        })
+        .min_by(|a, b| a.0.total_cmp(&b.0));
     json!({
         "schema": INSPECT_SCHEMA,
         "plant": plant.name,
@@ -215,7 +250,8 @@ pub fn inspect_json(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Va
         "reflections": reflections,
         "reactive": reactive,
         "zc_fits": zc,
-        "zc_passivity_margin": r.zc_margin.map(|(m, f, line)| json!({ "margin": num(m), "frequency_hz": num(f), "line": line })),
+        "zc_runs": zc_runs,
+        "zc_passivity_margin": least.map(|(m, f, line)| json!({ "margin": num(m), "frequency_hz": num(f), "line": line })),
         "judged_rise_s": num(r.judged_rise),
         "shortest_edge_s": opt(r.shortest_edge),
         "dc_point": dc,

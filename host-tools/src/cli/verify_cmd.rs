@@ -87,7 +87,7 @@ pub fn verdict_text(plant: &Plant, c: &Compiled, v: &Verification) -> String {
         if let Some(z) = p.zc_model_error {
             let _ = writeln!(
                 s,
-                "   with Zc(s)       model with the lossy lines' Zc networks (twin - exact) {} ({:.3} %): not yet run by the core (docs/zc-model.md)",
+                "   with Zc(s)       model with the compiler's passivity-enforced Zc networks (twin - exact) {} ({:.3} %): not yet run by the core (docs/zc-model.md)",
                 si(z, u),
                 pct(z)
             );

@@ -28,9 +28,11 @@ pub mod pi;
 mod report;
 mod segments;
 pub mod zc;
+pub mod zc_enforce;
+mod zc_runs;
 
 pub use lumped::{LumpKind, LUMP_BELOW_SAMPLES};
-pub use report::{ReactiveError, Reflection, Report, SegmentModel, SegmentTiming};
+pub use report::{ReactiveError, Reflection, Report, SegmentModel, SegmentTiming, ZcRun};
 pub use segments::{
     LinePiece, DROPPED_ABOVE_CORE, DROPPED_BELOW_CORE, DROPPED_ONE_SAMPLE, MIN_FRACTIONAL_DELAY, SECTION_R_OVER_Z0,
 };
@@ -156,7 +158,36 @@ pub(crate) fn err(
 /// scale is one volt per code with no fraction bits until `crate::analysis::analyse` sets
 /// it; use `crate::analysis::prepare` for a configuration ready to load.
 pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compiled, PlantError> {
-    build(plant, file, profile, true)
+    compile_with(plant, file, profile, CompileOptions::default())
+}
+
+/// [`compile`] with explicit [`CompileOptions`].
+pub fn compile_with(
+    plant: &Plant,
+    file: &str,
+    profile: ProfileKind,
+    opts: CompileOptions,
+) -> Result<Compiled, PlantError> {
+    build(plant, file, profile, Some(opts))
+}
+
+/// Whether lossy lines carry their Zc(s) networks by default. Off until the core runs them
+/// (its loader refuses `LineLoss::zc` today); the f64 twin runs them either way
+/// (`twin::run_with_zc`).
+pub const ZC_NETWORKS_DEFAULT: bool = false;
+
+/// Choices of a compile that the plant file does not make.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct CompileOptions {
+    /// Give every cable run that gets an enforced Zc(s) network (`zc_enforce.rs`) that
+    /// network at every end of its lines (`LineLoss::zc`), with Z_p as the lines' impedance.
+    pub zc_networks: bool,
+}
+
+impl Default for CompileOptions {
+    fn default() -> Self {
+        CompileOptions { zc_networks: ZC_NETWORKS_DEFAULT }
+    }
 }
 
 /// Lay `plant` out without fitting its loss filters, to size it before the fits run (they
@@ -166,10 +197,17 @@ pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compil
 /// lengthens a line by whole samples (`segments::Builder::add_loss`), and no model-error
 /// report. For sizing only: it is not checked against the core and must not be loaded.
 pub fn lay_out(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compiled, PlantError> {
-    build(plant, file, profile, false)
+    build(plant, file, profile, None)
 }
 
-fn build(plant: &Plant, file: &str, profile: ProfileKind, fit_losses: bool) -> Result<Compiled, PlantError> {
+/// `opts`: `None` lays out without fitting (see [`lay_out`]).
+fn build(
+    plant: &Plant,
+    file: &str,
+    profile: ProfileKind,
+    opts: Option<CompileOptions>,
+) -> Result<Compiled, PlantError> {
+    let fit_losses = opts.is_some();
     let dt = 1.0 / plant.sample_rate;
     let exact_samples = (plant.duration / dt).round();
     // Checked before anything is sized by it (the drive's samples, the twin's traces).
@@ -432,50 +470,14 @@ fn build(plant: &Plant, file: &str, profile: ProfileKind, fit_losses: bool) -> R
         probe_names,
         report: Report { segments: report_segments, ..Report::default() },
     };
-    if !fit_losses {
+    let Some(opts) = opts else {
         report::sizes(&mut compiled);
         return Ok(compiled);
-    }
-    fit_zc(&mut compiled, plant);
+    };
+    zc_runs::fit(&mut compiled, plant, opts);
     core_check::check(&compiled, plant, file)?;
     report::fill(&mut compiled, plant, &lump);
     Ok(compiled)
-}
-
-/// Fit Zc(s) once per lossy cable type in use over the plant's band (`zc::band`) and list
-/// the lines each fit belongs to.
-fn fit_zc(c: &mut Compiled, plant: &Plant) {
-    let fs = 1.0 / c.dt;
-    let band = zc::band(fs, plant.duration);
-    let mut by_cable: Vec<(usize, Option<usize>)> = vec![];
-    for (seg, pieces) in plant.segments.iter().zip(&c.segment_pieces) {
-        let slot = match by_cable.iter().find(|(k, _)| *k == seg.cable) {
-            Some((_, slot)) => *slot,
-            None => {
-                let slot = plant.cables.get(seg.cable).and_then(|cable| zc::fit(cable, fs, band)).map(|f| {
-                    c.report.zc.push(f);
-                    c.report.zc.len() - 1
-                });
-                by_cable.push((seg.cable, slot));
-                slot
-            }
-        };
-        if let Some(k) = slot {
-            c.report.zc_lines.extend(pieces.iter().map(|p| (p.line, k)));
-        }
-    }
-    let frac = match c.profile {
-        ProfileKind::Wide => <tidewire_core::Wide as tidewire_core::Profile>::LOSS_FRAC,
-        ProfileKind::Narrow => <tidewire_core::Narrow as tidewire_core::Profile>::LOSS_FRAC,
-    };
-    for &(line, k) in &c.report.zc_lines {
-        let (Some(fit), Some(l)) = (c.report.zc.get(k), c.net.lines.get(line as usize)) else { continue };
-        let loss = c.net.losses.iter().find(|x| x.line == line);
-        let (m, f) = zc::passivity_margin(fit, loss, l.delay, fs, frac);
-        if c.report.zc_margin.is_none_or(|(least, _, _)| m < least) {
-            c.report.zc_margin = Some((m, f, line));
-        }
-    }
 }
 
 /// Most samples of a plant's own run (its duration): `verify`, the fixed-point scale and

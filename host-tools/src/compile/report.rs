@@ -150,13 +150,27 @@ pub struct Report {
     /// up to 10^7 samples).
     pub shortest_edge: Option<f64>,
     /// Fitted characteristic impedances Zc(s), one per lossy cable type in use (`zc.rs`).
-    /// Not yet run by the core: the f64 twin runs them on request (`twin::run_with_zc`).
     pub zc: Vec<super::zc::ZcFit>,
-    /// (core line, index into `zc`) for every line of a lossy cable.
-    pub zc_lines: Vec<(u16, usize)>,
-    /// The least passivity margin over those lines with their networks in node-wave form
-    /// (`zc::passivity_margin`): (margin, frequency Hz, core line); < 0 is active there.
-    pub zc_margin: Option<(f64, f64, u16)>,
+    /// Per cable run (plant segment) of a lossy cable: its enforced network or why it has
+    /// none (`zc_enforce.rs`).
+    pub zc_runs: Vec<ZcRun>,
+}
+
+/// The Zc(s) network of one cable run (all core lines of one plant segment).
+#[derive(Debug, Clone, PartialEq)]
+pub struct ZcRun {
+    /// Plant segment index.
+    pub segment: usize,
+    /// Index into `Report::zc` of the cable's fit.
+    pub fit: usize,
+    /// The run's core lines.
+    pub lines: Vec<u16>,
+    /// Largest |Z0 − Zc|/|Zc| over the fit band: the constant port's error.
+    pub constant_error: f64,
+    /// The enforced network, or why the run has none.
+    pub decision: super::zc_enforce::Decision,
+    /// Whether the compiled network carries it (`CompileOptions::zc_networks`).
+    pub compiled: bool,
 }
 
 impl Report {

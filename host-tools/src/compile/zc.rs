@@ -150,50 +150,6 @@ pub fn fit(cable: &CableType, fs: f64, band: (f64, f64)) -> Option<ZcFit> {
     ok.then(|| ZcFit { cable: cable.name.clone(), z_inf, sections, band, max_rel_error, zc_edges: (z_lo, z_hi) })
 }
 
-/// How far one lossy line with Zc networks at both ends is from losing passivity, as a
-/// two-port in the node-wave form: with A(z) the line's propagation (z^−N, the quantized
-/// loss sections at `frac` bits and the fractional allpass), the two-port's even and odd
-/// admittances are Y_e = (1 − A)/(Zc·(1 + A)) and Y_o = (1 + A)/(Zc·(1 − A)) [closed form
-/// from v2 − Zc·i2 = A·(v1 + Zc·i1) and the same with 1 and 2 exchanged]. The two-port is
-/// passive at a frequency iff Re Y_e >= 0 and Re Y_o >= 0. Returns the least
-/// cos(arg Y) over both and over 4096 frequencies up to Nyquist, and where (Hz): >= 0 means
-/// passive on that grid. A model check, not yet a load-time check (`docs/zc-model.md`).
-pub fn passivity_margin(
-    fit: &ZcFit,
-    loss: Option<&tidewire_core::LineLoss>,
-    delay: u32,
-    fs: f64,
-    frac: u32,
-) -> (f64, f64) {
-    let sections = loss.map(|l| super::loss::quantized(l, frac)).unwrap_or_default();
-    let lattice =
-        loss.and_then(|l| l.allpass).and_then(|ap| tidewire_core::quantize::allpass(ap.a, ap.c, frac)).map(|(a, c)| {
-            let one = (1u64 << frac) as f64;
-            (f64::from(a) / one, f64::from(c) / one)
-        });
-    let mut worst = (f64::INFINITY, 0.0);
-    for k in 1..4096 {
-        let f = 0.5 * fs * k as f64 / 4096.0;
-        let z1 = Complex64::from_polar(1.0, -2.0 * PI * f / fs);
-        let mut a = z1.powu(delay);
-        for &(p, g, gb) in &sections {
-            a *= (g - gb * z1) / (1.0 - p * z1);
-        }
-        if let Some((ap, c)) = lattice {
-            // y = a·x + c·s, s' = c·x − a·s: Y/X = (a + (a² + c²)·z⁻¹)/(1 + a·z⁻¹).
-            a *= (ap + (ap * ap + c * c) * z1) / (1.0 + ap * z1);
-        }
-        let zc = fit.at(f, fs);
-        for y in [(1.0 - a) / (zc * (1.0 + a)), (1.0 + a) / (zc * (1.0 - a))] {
-            let m = y.re / y.norm();
-            if m.is_finite() && m < worst.0 {
-                worst = (m, f);
-            }
-        }
-    }
-    worst
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;

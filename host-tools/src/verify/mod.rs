@@ -97,9 +97,10 @@ pub struct ProbeFigures {
     pub arithmetic_error: f64,
     /// twin − exact, largest (model error).
     pub model_error: f64,
-    /// The twin with the fitted Zc(s) networks at every lossy line end − exact, largest:
-    /// what the model of `docs/zc-model.md` gives (the core does not run it yet). `None`
-    /// for a plant without a lossy cable.
+    /// The twin over the network with the compiler's enforced Zc(s) networks
+    /// (`twin::run_with_zc`) − exact, largest: the model error of what a compile with
+    /// `CompileOptions::zc_networks` carries (`docs/zc-model.md`). `None` for a plant in
+    /// which no cable run gets a network.
     pub zc_model_error: Option<f64>,
     /// First-edge arrival (samples) of the core and of the exact reference.
     pub arrival_core: Option<f64>,
@@ -183,7 +184,9 @@ pub fn verify(
     let n = c.samples;
     let core = run_core(c, n, record, progress).map_err(|e| located(file, e))?;
     let tw = twin::run(c, n, record);
-    let tw_zc = (!c.report.zc_lines.is_empty()).then(|| twin::run_with_zc(c, n, twin::ZcRealisation::NodeWave));
+    let has_zc =
+        c.report.zc_runs.iter().any(|r| matches!(r.decision, crate::compile::zc_enforce::Decision::Network(_)));
+    let tw_zc = has_zc.then(|| twin::run_with_zc(c, n));
     let opts = ExactOptions { samples: n.max(1), ..ExactOptions::for_plant(plant) };
     // An event the exact reference cannot follow (two breaks of one segment): compare with
     // the physics up to the first event only, and say so in the verdict (exact_samples).
