@@ -14,7 +14,7 @@
 //! after validation) or masks, arithmetic is wrapping or saturating where the ranges were
 //! argued, and no division happens here.
 
-use crate::network::{MAX_LOSS_SECTIONS, MAX_PROBES};
+use crate::network::{MAX_LOSS_SECTIONS, MAX_PROBES, MAX_ZC_SECTIONS};
 use crate::profile::Profile;
 
 /// Size of the rig-port history ring (a power of two > MAX_RIG_LATENCY).
@@ -109,6 +109,43 @@ pub(crate) struct LossRt<W: Copy> {
     pub ap_a: i32,
     pub ap_c: u32,
     pub ap_s: W,
+    /// Zc(s) network at this end ([`crate::ZcNetwork`], node-wave form): sections in use
+    /// (0: none), k_i, 2k_i − 1 and ρ_i in `LOSS_FRAC` bits, the states s_i, this sample's
+    /// c = Σ k_i·s_i, and the junction's outgoing wave a_p kept while the ring takes
+    /// a_p + c.
+    pub zc_n: u8,
+    pub zc_k: [u32; MAX_ZC_SECTIONS],
+    pub zc_pole: [i32; MAX_ZC_SECTIONS],
+    pub zc_rho: [u32; MAX_ZC_SECTIONS],
+    pub zc_s: [W; MAX_ZC_SECTIONS],
+    pub zc_c: W,
+    pub zc_ap: W,
+}
+
+impl<W: Copy> LossRt<W> {
+    /// A record with no section, no allpass and no Zc network (all states `zero`).
+    pub(crate) const fn empty(port: u16, zero: W) -> Self {
+        LossRt {
+            port,
+            sections: 0,
+            g: [0; MAX_LOSS_SECTIONS],
+            gb: [0; MAX_LOSS_SECTIONS],
+            a: [0; MAX_LOSS_SECTIONS],
+            x1: [zero; MAX_LOSS_SECTIONS],
+            y1: [zero; MAX_LOSS_SECTIONS],
+            ap: false,
+            ap_a: 0,
+            ap_c: 0,
+            ap_s: zero,
+            zc_n: 0,
+            zc_k: [0; MAX_ZC_SECTIONS],
+            zc_pole: [0; MAX_ZC_SECTIONS],
+            zc_rho: [0; MAX_ZC_SECTIONS],
+            zc_s: [zero; MAX_ZC_SECTIONS],
+            zc_c: zero,
+            zc_ap: zero,
+        }
+    }
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -172,6 +209,8 @@ pub struct Solver<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM:
     pub(crate) drive: DriveRt,
     /// Whether any junction is a series branch (then the branch pass runs).
     pub(crate) branches: bool,
+    /// Whether any line end has a Zc(s) network (then its post-step runs).
+    pub(crate) zc: bool,
     pub(crate) io_shift: u32,
     pub(crate) volts_per_code: f32,
 }
@@ -191,19 +230,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             juncs: [JunctionRt::Unused; JUNCS],
             elements: [ElementRt { port: 0, mu: 0, negate: false }; PORTS],
             n_elements: 0,
-            losses: [LossRt {
-                port: 0,
-                sections: 0,
-                g: [0; MAX_LOSS_SECTIONS],
-                gb: [0; MAX_LOSS_SECTIONS],
-                a: [0; MAX_LOSS_SECTIONS],
-                x1: [P::ZERO; MAX_LOSS_SECTIONS],
-                y1: [P::ZERO; MAX_LOSS_SECTIONS],
-                ap: false,
-                ap_a: 0,
-                ap_c: 0,
-                ap_s: P::ZERO,
-            }; LOSSES],
+            losses: [LossRt::empty(0, P::ZERO); LOSSES],
             n_losses: 0,
             probes: [ProbeRt { current: false, port: 0, z_milliohm: 1 }; MAX_PROBES],
             probe_out: [0; MAX_PROBES],
@@ -218,6 +245,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             exponent: 0,
             drive: DriveRt::None,
             branches: false,
+            zc: false,
             io_shift: 0,
             volts_per_code: 1.0,
         }
@@ -240,6 +268,9 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             l.x1 = [P::ZERO; MAX_LOSS_SECTIONS];
             l.y1 = [P::ZERO; MAX_LOSS_SECTIONS];
             l.ap_s = P::ZERO;
+            l.zc_s = [P::ZERO; MAX_ZC_SECTIONS];
+            l.zc_c = P::ZERO;
+            l.zc_ap = P::ZERO;
         }
         for r in self.rings.iter_mut() {
             r.cursor = r.start;
@@ -446,6 +477,23 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     /// Line pass: write each a into the ring towards the partner end, advance, read next b.
     #[inline(always)]
     fn propagate(&mut self) {
+        let n_loss = self.n_losses.min(LOSSES);
+        if self.zc {
+            // Zc(s) ends, post-step: the sections take d = a_p − b_p, and the ring takes
+            // a = a_p + c (`docs/zc-model.md`) while the port keeps a_p (restored below), so
+            // probes, the hold rule and host views stay in junction terms.
+            for l in self.losses.iter_mut().take(n_loss) {
+                if l.zc_n == 0 {
+                    continue;
+                }
+                let (Some(a), Some(b)) = (self.a.get_mut(l.port as usize), self.b.get(l.port as usize)) else {
+                    continue;
+                };
+                l.zc_ap = *a;
+                let n = (l.zc_n as usize).min(MAX_ZC_SECTIONS);
+                *a = P::zc_post(*a, *b, l.zc_c, &mut l.zc_s, &l.zc_pole, &l.zc_rho, n);
+            }
+        }
         let n = self.n_ports.min(PORTS);
         for (r, b) in self.rings.iter_mut().zip(self.b.iter_mut()).take(n) {
             let val = self.a.get(r.partner as usize).copied().unwrap_or(P::ZERO);
@@ -459,7 +507,6 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         // Lossy lines and fractional delays: the wave arriving at each end passes the line's
         // loss sections, then its allpass (LTI filters commute with the delay, so filtering
         // at the arrival is the same line).
-        let n_loss = self.n_losses.min(LOSSES);
         for l in self.losses.iter_mut().take(n_loss) {
             let Some(b) = self.b.get_mut(l.port as usize) else {
                 continue;
@@ -478,6 +525,17 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                 let (y, s_next) = P::allpass(x, l.ap_s, l.ap_a, l.ap_c);
                 l.ap_s = s_next;
                 x = y;
+            }
+            if l.zc_n != 0 {
+                // Zc(s) end, pre-step: the junction sees b_p = b + c, c = Σ k_i·s_i; the
+                // port's a goes back to the junction's a_p.
+                let n = (l.zc_n as usize).min(MAX_ZC_SECTIONS);
+                let (c, bp) = P::zc_pre(x, &l.zc_s, &l.zc_k, n);
+                l.zc_c = c;
+                x = bp;
+                if let Some(a) = self.a.get_mut(l.port as usize) {
+                    *a = l.zc_ap;
+                }
             }
             *b = x;
         }
@@ -512,12 +570,14 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         }
     }
 
-    /// True when every wave in every line and at every port is exactly zero.
+    /// True when every wave in every line and at every port, and every Zc(s) section state,
+    /// is exactly zero.
     pub fn is_at_rest(&self) -> bool {
         let z = P::ZERO;
         self.mem.iter().take(self.mem_used).all(|w| *w == z)
             && self.a.iter().take(self.n_ports).all(|w| *w == z)
             && self.b.iter().take(self.n_ports).all(|w| *w == z)
+            && self.losses.iter().take(self.n_losses).all(|l| l.zc_s.iter().all(|w| *w == z))
     }
 
     /// The waves (a, b) at one end of a line after the last step, raw wave LSBs (read-out

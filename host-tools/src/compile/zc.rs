@@ -151,13 +151,13 @@ pub fn fit(cable: &CableType, fs: f64, band: (f64, f64)) -> Option<ZcFit> {
 }
 
 /// How far one lossy line with Zc networks at both ends is from losing passivity, as a
-/// two-port in the node-wave form: with A(z) the line's propagation (z^−N, the quantized
-/// loss sections at `frac` bits and the fractional allpass), the two-port's even and odd
-/// admittances are Y_e = (1 − A)/(Zc·(1 + A)) and Y_o = (1 + A)/(Zc·(1 − A)) [closed form
-/// from v2 − Zc·i2 = A·(v1 + Zc·i1) and the same with 1 and 2 exchanged]. The two-port is
-/// passive at a frequency iff Re Y_e >= 0 and Re Y_o >= 0. Returns the least
-/// cos(arg Y) over both and over 4096 frequencies up to Nyquist, and where (Hz): >= 0 means
-/// passive on that grid. A model check, not yet a load-time check (`docs/zc-model.md`).
+/// two-port in the node-wave form: the least cos(arg Y) of its even and odd admittances
+/// and where (Hz); >= 0 means passive on the check's grid. A thin wrapper: the one
+/// implementation is the core's load-time check, `tidewire_core::configure::
+/// zc_passivity_margin` (the realised line from the integers at `frac` bits: quantized loss
+/// sections and allpass, whole delay, quantized Zc coefficients; see `configure/zc.rs` for
+/// the grid and what it proves). The network is `loss.zc` when the compiler filled it, else
+/// [`network_of`] of `fit`. A line the check cannot complete gives (−∞, 0).
 pub fn passivity_margin(
     fit: &ZcFit,
     loss: Option<&tidewire_core::LineLoss>,
@@ -165,33 +165,45 @@ pub fn passivity_margin(
     fs: f64,
     frac: u32,
 ) -> (f64, f64) {
-    let sections = loss.map(|l| super::loss::quantized(l, frac)).unwrap_or_default();
-    let lattice =
-        loss.and_then(|l| l.allpass).and_then(|ap| tidewire_core::quantize::allpass(ap.a, ap.c, frac)).map(|(a, c)| {
-            let one = (1u64 << frac) as f64;
-            (f64::from(a) / one, f64::from(c) / one)
-        });
-    let mut worst = (f64::INFINITY, 0.0);
-    for k in 1..4096 {
-        let f = 0.5 * fs * k as f64 / 4096.0;
-        let z1 = Complex64::from_polar(1.0, -2.0 * PI * f / fs);
-        let mut a = z1.powu(delay);
-        for &(p, g, gb) in &sections {
-            a *= (g - gb * z1) / (1.0 - p * z1);
-        }
-        if let Some((ap, c)) = lattice {
-            // y = a·x + c·s, s' = c·x − a·s: Y/X = (a + (a² + c²)·z⁻¹)/(1 + a·z⁻¹).
-            a *= (ap + (ap * ap + c * c) * z1) / (1.0 + ap * z1);
-        }
-        let zc = fit.at(f, fs);
-        for y in [(1.0 - a) / (zc * (1.0 + a)), (1.0 + a) / (zc * (1.0 - a))] {
-            let m = y.re / y.norm();
-            if m.is_finite() && m < worst.0 {
-                worst = (m, f);
-            }
-        }
+    let zc = loss.and_then(|l| l.zc).or_else(|| network_of(fit, 1.0 / fs));
+    let empty = tidewire_core::LineLoss {
+        line: 0,
+        sections: 0,
+        poles: [0; tidewire_core::MAX_LOSS_SECTIONS],
+        zeros: [0; tidewire_core::MAX_LOSS_SECTIONS],
+        allpass: None,
+        zc: None,
+    };
+    let line = tidewire_core::LineLoss { zc, ..loss.copied().unwrap_or(empty) };
+    match tidewire_core::configure::zc_passivity_margin(&line, delay, frac) {
+        Some(m) => (m.least, m.omega * fs / (2.0 * PI)),
+        None => (f64::NEG_INFINITY, 0.0),
     }
-    worst
+}
+
+/// The core's network of a fit at time step `dt` (node-wave form, Q30, truncated toward
+/// zero): k_i and ρ_i = r_i/Z_p with Z_p = Z_inf + Σ r_i (`tidewire_core::ZcNetwork`).
+/// `None` for a fit with more than `MAX_ZC_SECTIONS` sections or values out of range.
+pub fn network_of(fit: &ZcFit, dt: f64) -> Option<tidewire_core::ZcNetwork> {
+    let sections = fit.wave_sections(dt);
+    if sections.is_empty() || sections.len() > tidewire_core::MAX_ZC_SECTIONS {
+        return None;
+    }
+    let zp = fit.z_inf + sections.iter().map(|(r, _)| r).sum::<f64>();
+    let q30 = |x: f64| {
+        let v = (x * (1u64 << 30) as f64).floor();
+        (v.is_finite() && v >= 0.0 && v <= u32::MAX as f64).then_some(v as u32)
+    };
+    let mut zc = tidewire_core::ZcNetwork {
+        sections: sections.len() as u8,
+        k: [0; tidewire_core::MAX_ZC_SECTIONS],
+        rho: [0; tidewire_core::MAX_ZC_SECTIONS],
+    };
+    for (i, (r, k)) in sections.iter().enumerate() {
+        zc.k[i] = q30(*k)?;
+        zc.rho[i] = q30(r / zp)?;
+    }
+    Some(zc)
 }
 
 #[cfg(test)]
