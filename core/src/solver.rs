@@ -526,18 +526,26 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                 l.ap_s = s_next;
                 x = y;
             }
-            if l.zc_n != 0 {
-                // Zc(s) end, pre-step: the junction sees b_p = b + c, c = Σ k_i·s_i; the
-                // port's a goes back to the junction's a_p.
+            *b = x;
+        }
+        if self.zc {
+            // Zc(s) ends, pre-step: the junction sees b_p = b + c, c = Σ k_i·s_i (b after the
+            // arrival filter above); the port's a goes back to the junction's a_p. A loop of
+            // its own, so plants without Zc ends pay only the flag.
+            for l in self.losses.iter_mut().take(n_loss) {
+                if l.zc_n == 0 {
+                    continue;
+                }
                 let n = (l.zc_n as usize).min(MAX_ZC_SECTIONS);
-                let (c, bp) = P::zc_pre(x, &l.zc_s, &l.zc_k, n);
-                l.zc_c = c;
-                x = bp;
+                if let Some(b) = self.b.get_mut(l.port as usize) {
+                    let (c, bp) = P::zc_pre(*b, &l.zc_s, &l.zc_k, n);
+                    l.zc_c = c;
+                    *b = bp;
+                }
                 if let Some(a) = self.a.get_mut(l.port as usize) {
                     *a = l.zc_ap;
                 }
             }
-            *b = x;
         }
     }
 

@@ -22,7 +22,7 @@ fn write_if_changed(path: &Path, bytes: &[u8]) -> Result<(), String> {
 /// wide plants of at most 9 ports (larger solvers do not fit its RAM beside the firmware).
 /// The plant with a series branch (`p9b_*`) runs on the M4 only: with it the M0 image
 /// overflowed its 256 KB flash by 37 KB (each plant brings its generic, image and
-/// specialised forms). The plant with Zc(s) networks (`p9z_*`) likewise: the M4 carries the
+/// specialised forms). The plant with Zc(s) networks (`p8z_*`) likewise: the M4 carries the
 /// Zc ends' no-panic and instruction-count checks.
 pub fn fits_m0(p: &TestPlant) -> bool {
     let m4_only = p.name.contains("b_") || p.name.contains("z_");

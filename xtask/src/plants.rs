@@ -249,7 +249,7 @@ pub fn test_plants(profile: &str, io_shift: u8) -> Vec<TestPlant> {
     let mut b = with_branch(bus("", 1, io_shift));
     b.name = format!("p{}b_{profile}", b.ports());
     plants.push(b);
-    // And the 9-port plant with a Zc(s) network on its lossy drop line (`p9z_<profile>`, 2
+    // And the 8-port plant with a Zc(s) network on its lossy drop line (`p8z_<profile>`, 2
     // Zc line ends).
     let mut z = with_zc(bus("", 1, io_shift));
     z.name = format!("p{}z_{profile}", z.ports());

@@ -34,9 +34,10 @@
 //! smooth on the coarse grid's scale, and the dense step resolves the delay's phase.
 
 use crate::error::BuildError;
-use crate::network::{LineLoss, Network, ZcNetwork, MAX_LOSS_SECTIONS, MAX_ZC_SECTIONS};
+use crate::network::{LineLoss, Network, ZcNetwork, MAX_ZC_SECTIONS};
 use crate::profile::Profile;
 use crate::solver::LossRt;
+#[cfg(feature = "zc-check")]
 use core::f64::consts::PI;
 
 /// The most exact evaluations one margin may take (dense cells); past it the line is not
@@ -118,145 +119,163 @@ pub(crate) fn check_line<P: Profile>(
     }
 }
 
-/// A complex number (the few operations the margin needs).
-#[derive(Debug, Clone, Copy)]
-struct C {
-    re: f64,
-    im: f64,
-}
+#[cfg(feature = "zc-check")]
+mod float {
+    use super::*;
+    use crate::network::MAX_LOSS_SECTIONS;
 
-impl C {
-    const ONE: C = C { re: 1.0, im: 0.0 };
-    fn new(re: f64, im: f64) -> C {
-        C { re, im }
+    /// A complex number (the few operations the margin needs).
+    #[derive(Debug, Clone, Copy)]
+    pub(super) struct C {
+        re: f64,
+        im: f64,
     }
-    fn add(self, o: C) -> C {
-        C::new(self.re + o.re, self.im + o.im)
-    }
-    fn sub(self, o: C) -> C {
-        C::new(self.re - o.re, self.im - o.im)
-    }
-    fn mul(self, o: C) -> C {
-        C::new(self.re * o.re - self.im * o.im, self.re * o.im + self.im * o.re)
-    }
-    fn scale(self, x: f64) -> C {
-        C::new(self.re * x, self.im * x)
-    }
-    fn conj(self) -> C {
-        C::new(self.re, -self.im)
-    }
-    fn norm2(self) -> f64 {
-        self.re * self.re + self.im * self.im
-    }
-    fn norm(self) -> f64 {
-        libm::sqrt(self.norm2())
-    }
-    fn div(self, o: C) -> C {
-        self.mul(o.conj()).scale(1.0 / o.norm2())
-    }
-    /// cos(arg self), NaN for 0.
-    fn cos_arg(self) -> f64 {
-        self.re / self.norm()
-    }
-    fn unit(phase: f64) -> C {
-        let (s, c) = libm::sincos(phase);
-        C::new(c, s)
-    }
-}
 
-/// The realised line at `frac` bits, as numbers: loss sections (a, g, gb), the allpass
-/// (a, a² + c²) and the Zc sections (k, ρ), all over 2^frac.
-struct Realised {
-    loss: [(f64, f64, f64); MAX_LOSS_SECTIONS],
-    n_loss: usize,
-    allpass: Option<(f64, f64)>,
-    zc: [(f64, f64); MAX_ZC_SECTIONS],
-    n_zc: usize,
-}
-
-impl Realised {
-    fn new(ll: &LineLoss, zc: &ZcNetwork, frac: u32) -> Option<Realised> {
-        let one = f64::from(1u32.checked_shl(frac)?);
-        let n_loss = (ll.sections as usize).min(MAX_LOSS_SECTIONS);
-        let mut loss = [(0.0, 0.0, 0.0); MAX_LOSS_SECTIONS];
-        for ((slot, pole), zero) in loss.iter_mut().zip(ll.poles.iter()).zip(ll.zeros.iter()).take(n_loss) {
-            let (a, g, gb) = crate::quantize::loss_section(i64::from(*pole), i64::from(*zero), frac)?;
-            // |a|, |g|, |gb| < 2^32: exact in f64.
-            *slot = (a as f64 / one, g as f64 / one, gb as f64 / one);
+    impl C {
+        const ONE: C = C { re: 1.0, im: 0.0 };
+        fn new(re: f64, im: f64) -> C {
+            C { re, im }
         }
-        let allpass = match ll.allpass {
-            Some(ap) => {
-                let (a, c) = crate::quantize::allpass(ap.a, ap.c, frac)?;
-                let (a, c) = (f64::from(a) / one, f64::from(c) / one);
-                Some((a, a * a + c * c))
+        fn add(self, o: C) -> C {
+            C::new(self.re + o.re, self.im + o.im)
+        }
+        fn sub(self, o: C) -> C {
+            C::new(self.re - o.re, self.im - o.im)
+        }
+        fn mul(self, o: C) -> C {
+            C::new(self.re * o.re - self.im * o.im, self.re * o.im + self.im * o.re)
+        }
+        fn scale(self, x: f64) -> C {
+            C::new(self.re * x, self.im * x)
+        }
+        fn conj(self) -> C {
+            C::new(self.re, -self.im)
+        }
+        fn norm2(self) -> f64 {
+            self.re * self.re + self.im * self.im
+        }
+        fn norm(self) -> f64 {
+            libm::sqrt(self.norm2())
+        }
+        fn div(self, o: C) -> C {
+            self.mul(o.conj()).scale(1.0 / o.norm2())
+        }
+        /// cos(arg self), NaN for 0.
+        fn cos_arg(self) -> f64 {
+            self.re / self.norm()
+        }
+        fn unit(phase: f64) -> C {
+            let (s, c) = libm::sincos(phase);
+            C::new(c, s)
+        }
+    }
+
+    /// The realised line at `frac` bits, as numbers: loss sections (a, g, gb), the allpass
+    /// (a, a² + c²) and the Zc sections (k, ρ), all over 2^frac.
+    pub(super) struct Realised {
+        loss: [(f64, f64, f64); MAX_LOSS_SECTIONS],
+        n_loss: usize,
+        allpass: Option<(f64, f64)>,
+        zc: [(f64, f64); MAX_ZC_SECTIONS],
+        n_zc: usize,
+    }
+
+    impl Realised {
+        pub(super) fn new(ll: &LineLoss, zc: &ZcNetwork, frac: u32) -> Option<Realised> {
+            let one = f64::from(1u32.checked_shl(frac)?);
+            let n_loss = (ll.sections as usize).min(MAX_LOSS_SECTIONS);
+            let mut loss = [(0.0, 0.0, 0.0); MAX_LOSS_SECTIONS];
+            for ((slot, pole), zero) in loss.iter_mut().zip(ll.poles.iter()).zip(ll.zeros.iter()).take(n_loss) {
+                let (a, g, gb) = crate::quantize::loss_section(i64::from(*pole), i64::from(*zero), frac)?;
+                // |a|, |g|, |gb| < 2^32: exact in f64.
+                *slot = (a as f64 / one, g as f64 / one, gb as f64 / one);
             }
-            None => None,
-        };
-        let n_zc = (zc.sections as usize).min(MAX_ZC_SECTIONS);
-        let mut zcs = [(0.0, 0.0); MAX_ZC_SECTIONS];
-        for ((slot, k), rho) in zcs.iter_mut().zip(zc.k.iter()).zip(zc.rho.iter()).take(n_zc) {
-            let (k, rho) = crate::quantize::zc_section(*k, *rho, frac)?;
-            *slot = (f64::from(k) / one, f64::from(rho) / one);
+            let allpass = match ll.allpass {
+                Some(ap) => {
+                    let (a, c) = crate::quantize::allpass(ap.a, ap.c, frac)?;
+                    let (a, c) = (f64::from(a) / one, f64::from(c) / one);
+                    Some((a, a * a + c * c))
+                }
+                None => None,
+            };
+            let n_zc = (zc.sections as usize).min(MAX_ZC_SECTIONS);
+            let mut zcs = [(0.0, 0.0); MAX_ZC_SECTIONS];
+            for ((slot, k), rho) in zcs.iter_mut().zip(zc.k.iter()).zip(zc.rho.iter()).take(n_zc) {
+                let (k, rho) = crate::quantize::zc_section(*k, *rho, frac)?;
+                *slot = (f64::from(k) / one, f64::from(rho) / one);
+            }
+            Some(Realised { loss, n_loss, allpass, zc: zcs, n_zc })
         }
-        Some(Realised { loss, n_loss, allpass, zc: zcs, n_zc })
+
+        /// H(e^{jω}) (loss sections and allpass, without the delay) and Zc(e^{jω})/Z_p.
+        pub(super) fn at(&self, w: f64) -> (C, C) {
+            let z1 = C::unit(-w); // z^−1
+            let mut h = C::ONE;
+            for &(a, g, gb) in self.loss.iter().take(self.n_loss) {
+                // y = g·x − gb·x[n−1] + a·y[n−1]: (g − gb·z⁻¹)/(1 − a·z⁻¹).
+                h = h.mul(C::new(g, 0.0).sub(z1.scale(gb)).div(C::ONE.sub(z1.scale(a))));
+            }
+            if let Some((a, r2)) = self.allpass {
+                // y = a·x + c·s, s' = c·x − a·s: (a + (a² + c²)·z⁻¹)/(1 + a·z⁻¹).
+                h = h.mul(C::new(a, 0.0).add(z1.scale(r2)).div(C::ONE.add(z1.scale(a))));
+            }
+            let z = z1.conj();
+            let mut zc = C::ONE;
+            for &(k, rho) in self.zc.iter().take(self.n_zc) {
+                zc = zc.add(C::new(2.0 * k * rho, 0.0).div(z.add(C::new(1.0 - 2.0 * k, 0.0))));
+            }
+            (h, zc)
+        }
     }
 
-    /// H(e^{jω}) (loss sections and allpass, without the delay) and Zc(e^{jω})/Z_p.
-    fn at(&self, w: f64) -> (C, C) {
-        let z1 = C::unit(-w); // z^−1
-        let mut h = C::ONE;
-        for &(a, g, gb) in self.loss.iter().take(self.n_loss) {
-            // y = g·x − gb·x[n−1] + a·y[n−1]: (g − gb·z⁻¹)/(1 − a·z⁻¹).
-            h = h.mul(C::new(g, 0.0).sub(z1.scale(gb)).div(C::ONE.sub(z1.scale(a))));
+    /// The delay-independent lower bound of cos(arg Y) (see the module docs): >= 0 iff
+    /// cos(arg Zc) >= 2h/(1 + h²).
+    pub(super) fn bound(h: C, zc: C) -> f64 {
+        let m2 = h.norm2();
+        let (sh, ch) = (2.0 * libm::sqrt(m2) / (1.0 + m2), (1.0 - m2) / (1.0 + m2));
+        let n = zc.norm();
+        let (cz, sz) = (zc.re / n, libm::fabs(zc.im) / n);
+        let b = cz * ch - sz * sh;
+        if b.is_finite() {
+            b
+        } else {
+            -1.0
         }
-        if let Some((a, r2)) = self.allpass {
-            // y = a·x + c·s, s' = c·x − a·s: (a + (a² + c²)·z⁻¹)/(1 + a·z⁻¹).
-            h = h.mul(C::new(a, 0.0).add(z1.scale(r2)).div(C::ONE.add(z1.scale(a))));
-        }
-        let z = z1.conj();
-        let mut zc = C::ONE;
-        for &(k, rho) in self.zc.iter().take(self.n_zc) {
-            zc = zc.add(C::new(2.0 * k * rho, 0.0).div(z.add(C::new(1.0 - 2.0 * k, 0.0))));
-        }
-        (h, zc)
     }
-}
 
-/// The delay-independent lower bound of cos(arg Y) (see the module docs): >= 0 iff
-/// cos(arg Zc) >= 2h/(1 + h²).
-fn bound(h: C, zc: C) -> f64 {
-    let m2 = h.norm2();
-    let (sh, ch) = (2.0 * libm::sqrt(m2) / (1.0 + m2), (1.0 - m2) / (1.0 + m2));
-    let n = zc.norm();
-    let (cz, sz) = (zc.re / n, libm::fabs(zc.im) / n);
-    let b = cz * ch - sz * sh;
-    if b.is_finite() {
-        b
-    } else {
-        -1.0
+    /// The least cos(arg Y) of both admittances at one frequency, with A = H·e^{−jωN}.
+    pub(super) fn exact(h: C, zc: C, w: f64, delay: u32) -> f64 {
+        let a = h.mul(C::unit(-w * f64::from(delay)));
+        let (p, m) = (C::ONE.add(a), C::ONE.sub(a));
+        let ye = m.mul(p.conj()).mul(zc.conj()).cos_arg();
+        let yo = p.mul(m.conj()).mul(zc.conj()).cos_arg();
+        // A = ±1 exactly (a lossless pole of one admittance) counts as passive there.
+        match (ye.is_nan(), yo.is_nan()) {
+            (true, true) => 1.0,
+            (true, false) => yo,
+            (false, true) => ye,
+            (false, false) => ye.min(yo),
+        }
     }
 }
-
-/// The least cos(arg Y) of both admittances at one frequency, with A = H·e^{−jωN}.
-fn exact(h: C, zc: C, w: f64, delay: u32) -> f64 {
-    let a = h.mul(C::unit(-w * f64::from(delay)));
-    let (p, m) = (C::ONE.add(a), C::ONE.sub(a));
-    let ye = m.mul(p.conj()).mul(zc.conj()).cos_arg();
-    let yo = p.mul(m.conj()).mul(zc.conj()).cos_arg();
-    // A = ±1 exactly (a lossless pole of one admittance) counts as passive there.
-    match (ye.is_nan(), yo.is_nan()) {
-        (true, true) => 1.0,
-        (true, false) => yo,
-        (false, true) => ye,
-        (false, false) => ye.min(yo),
-    }
-}
+#[cfg(feature = "zc-check")]
+use float::{bound, exact, Realised};
 
 /// The least passivity margin of one line with the Zc network `ll.zc` at both ends, from
 /// the integers at `frac` bits: the quantized loss sections and allpass of `ll`, the whole
 /// delay `delay` and the quantized Zc coefficients (see the module docs for the grid and
 /// what is and is not proven). `None` for a line without a Zc network, coefficients that do
 /// not quantize, or a line that needs more than [`MAX_MARGIN_EVALUATIONS`].
+///
+/// Without the crate feature `zc-check` there is no floating point in the core and this
+/// returns `None` for every line: `load` then refuses every line with a Zc(s) network.
+#[cfg(not(feature = "zc-check"))]
+pub fn passivity_margin(_ll: &LineLoss, _delay: u32, _frac: u32) -> Option<ZcMargin> {
+    None
+}
+
+/// The least passivity margin of one line (see the `zc-check` version's documentation).
+#[cfg(feature = "zc-check")]
 pub fn passivity_margin(ll: &LineLoss, delay: u32, frac: u32) -> Option<ZcMargin> {
     let zc = ll.zc?;
     let r = Realised::new(ll, &zc, frac)?;
