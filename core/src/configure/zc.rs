@@ -42,7 +42,7 @@ use core::f64::consts::PI;
 
 /// The most exact evaluations one margin may take (dense cells); past it the line is not
 /// verified (a very long line whose loss is too weak to pass the sufficient test).
-pub const MAX_MARGIN_EVALUATIONS: u64 = 1 << 22;
+pub const MAX_MARGIN_EVALUATIONS: u64 = 1 << 20;
 
 /// The least passivity margin of one line's realised two-port.
 #[derive(Debug, Clone, Copy, PartialEq)]
