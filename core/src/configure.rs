@@ -10,6 +10,7 @@
 //! zero (see the crate documentation).
 
 mod branch;
+mod loss;
 mod mode;
 mod passive;
 mod shape;
@@ -17,9 +18,10 @@ mod weights;
 mod zc;
 
 use crate::error::{BuildError, ConfigError, Table};
-use crate::network::{ElementKind, Junction, Network, ProbeKind, Shunt, Side, MAX_LOSS_SECTIONS};
+use crate::network::{ElementKind, Junction, Network, ProbeKind, Shunt, Side};
 use crate::profile::{hold_threshold, reciprocal, Profile};
-use crate::solver::{DriveRt, ElementRt, JunctionRt, LossRt, Mode, ProbeRt, Solver};
+use crate::solver::{DriveRt, ElementRt, JunctionRt, Mode, ProbeRt, Solver};
+use loss::loss_record;
 pub(crate) use mode::{lone_open, mode_of};
 pub(crate) use passive::node_ok as passive_node;
 use shape::{cap, ports_at, Shape};
@@ -132,40 +134,6 @@ fn element_mu<P: Profile>(port_milliohm: u32, series_milliohm: u32) -> u32 {
     // rp, series < 2^32: the shift and the sum are exact in u128.
     let mu = (rp << P::SERIES_FRAC).checked_div(rp.saturating_add(u128::from(series_milliohm))).unwrap_or(0);
     u32::try_from(mu).unwrap_or(0)
-}
-
-/// The run-time record of one loss filter (loss filter `index` of the network):
-/// [`BuildError::BadLoss`] if a section does not quantize to an attenuating shelf (see
-/// [`quantize_loss_section`]) or the allpass is not passive, [`BuildError::BadZc`] if its
-/// Zc(s) network is out of range (`configure/zc.rs`).
-fn loss_record<P: Profile>(
-    ll: &crate::network::LineLoss,
-    port: u16,
-    index: usize,
-) -> Result<LossRt<P::Wave>, BuildError> {
-    let loss = index.min(u16::MAX as usize) as u16;
-    let bad = BuildError::BadLoss { loss };
-    let mut rt = LossRt::empty(port, P::ZERO);
-    rt.sections = ll.sections;
-    let n = ll.sections as usize;
-    if (n == 0 && ll.allpass.is_none()) || n > MAX_LOSS_SECTIONS {
-        return Err(bad);
-    }
-    if let Some(ap) = ll.allpass {
-        (rt.ap_a, rt.ap_c) = quantize_allpass::<P>(ap.a, ap.c).ok_or(bad)?;
-        rt.ap = true;
-    }
-    let coefs = ll.poles.iter().zip(ll.zeros.iter()).zip(rt.g.iter_mut().zip(rt.gb.iter_mut()).zip(rt.a.iter_mut()));
-    for ((pole, zero), ((rg, rgb), ra)) in coefs.take(n) {
-        (*rg, *rgb, *ra) = quantize_loss_section::<P>(*pole, *zero).ok_or(bad)?;
-    }
-    if let Some(net) = ll.zc {
-        zc::record::<P>(&net, &mut rt).ok_or(BuildError::BadZc { loss })?;
-    }
-    if !passive::loss_ok::<P>(&rt) {
-        return Err(bad);
-    }
-    Ok(rt)
 }
 
 /// The run-time record of junction `j` (whose ports start at `first`), with the sum of its
