@@ -13,11 +13,12 @@
 //! resistive, capacitor and inductor elements alone and behind a resistor, loss filters of six
 //! sections, a rig port with latency 2, and events: a load switched (open → resistor,
 //! short → open, open → resistor → short → open), a node broken and joined again; a series
-//! branch between two nodes (a lumped pi section).
+//! branch between two nodes (a lumped pi section); lossy lines with Zc(s) networks at both
+//! ends (node-wave form), through a series junction, a one-sample line and a break.
 use std::path::{Path, PathBuf};
 use tidewire::core::{
-    ConfigError, Drive, Element, ElementKind, Junction, Line, Narrow, Network, PlantStep, Probe, ProbeKind, Shunt,
-    Side, Solver, Wide,
+    Allpass, ConfigError, Drive, Element, ElementKind, Junction, Line, LineLoss, Narrow, Network, PlantStep, Probe,
+    ProbeKind, Shunt, Side, Solver, Wide, ZcNetwork,
 };
 use tidewire::host::analysis::prepare;
 use tidewire::host::compile::{CoreAction, ProfileKind};
@@ -41,7 +42,9 @@ generated!(
     reactive_narrow,
     one_line_wide,
     pi_section_wide,
-    pi_section_narrow
+    pi_section_narrow,
+    zc_ladder_wide,
+    zc_ladder_narrow
 );
 
 /// A change applied to both forms before sample `.0`.
@@ -157,6 +160,68 @@ fn one_line_case() -> (String, Vec<(usize, Ev)>) {
     (src, vec![(700, Ev::Shunt(1, Shunt::Open))])
 }
 
+/// A hand-built lossy ladder of our own with Zc(s) networks at every end of its lossy lines:
+/// a source node, a series resistor between two lossy lines (the lumped conductor
+/// resistance, as the compiler builds it), a one-sample lossy line, a lossy line with a
+/// fractional delay, a lossless stub, a current probe on a Zc end; the middle node is broken
+/// and joined again, the far load opened and closed. The shelf (pole 1/2, zero −1/2)
+/// attenuates by 1/9 at Nyquist; the network (k = 1/2 and 7/10, ρ = 1/50 and 1/100) passes
+/// the load-time margin.
+fn zc_ladder_case(profile: ProfileKind) -> (String, Vec<(usize, Ev)>) {
+    let z = 100_000;
+    let lines = [
+        Line { z_milliohm: z, delay: 6, a: 0, b: 1 },
+        Line { z_milliohm: z, delay: 1, a: 1, b: 2 },
+        Line { z_milliohm: z, delay: 9, a: 2, b: 3 },
+        Line { z_milliohm: 75_000, delay: 4, a: 2, b: 4 },
+    ];
+    let junctions = [
+        Junction::Node { shunt: Shunt::Open },
+        Junction::Series { milliohm: 2_000 },
+        Junction::Node { shunt: Shunt::Open },
+        Junction::Node { shunt: Shunt::Resistor { milliohm: 100_000 } },
+        Junction::Node { shunt: Shunt::Resistor { milliohm: 150_000 } },
+    ];
+    let q30 = |x: f64| (x * (1u64 << 30) as f64) as u32;
+    let zc = Some(ZcNetwork { sections: 2, k: [q30(0.5), q30(0.7), 0, 0], rho: [q30(0.02), q30(0.01), 0, 0] });
+    let shelf = |line: u16, allpass: Option<Allpass>| LineLoss {
+        line,
+        sections: 1,
+        poles: [q30(0.5), 0, 0, 0, 0, 0],
+        zeros: [-(q30(0.5) as i32), 0, 0, 0, 0, 0],
+        allpass,
+        zc,
+    };
+    // A quarter-sample fraction: a = (1 − d)/(1 + d) with d = 0.75, c = sqrt(1 − a²).
+    let a = 0.25 / 1.75;
+    let ap = Allpass { a: q30(a) as i32, c: q30((1.0 - a * a).sqrt()) };
+    let losses = [shelf(0, None), shelf(1, None), shelf(2, Some(ap))];
+    let probes = [
+        Probe { kind: ProbeKind::Voltage, line: 0, side: Side::A },
+        Probe { kind: ProbeKind::Current, line: 0, side: Side::A },
+        Probe { kind: ProbeKind::Voltage, line: 1, side: Side::B },
+        Probe { kind: ProbeKind::Current, line: 2, side: Side::B },
+        Probe { kind: ProbeKind::Voltage, line: 3, side: Side::B },
+    ];
+    let net = Network {
+        lines: &lines,
+        junctions: &junctions,
+        elements: &[],
+        losses: &losses,
+        drive: Drive::Source { junction: 0, milliohm: 100_000 },
+        probes: &probes,
+        io_shift: if profile == ProfileKind::Wide { 8 } else { 0 },
+        volts_per_code: 1.0 / 4096.0,
+    };
+    let events = vec![
+        (300, Ev::Broken(2, true)),
+        (450, Ev::Broken(2, false)),
+        (550, Ev::Shunt(3, Shunt::Open)),
+        (700, Ev::Shunt(3, Shunt::Resistor { milliohm: 100_000 })),
+    ];
+    (plant_rust_source(&net, profile, &[2, 3], "Zc ladder (test)").unwrap(), events)
+}
+
 fn fresh(name: &str) -> (String, Vec<(usize, Ev)>) {
     let profile = if name.ends_with("wide") { ProfileKind::Wide } else { ProfileKind::Narrow };
     match name.trim_end_matches("_wide").trim_end_matches("_narrow") {
@@ -164,11 +229,12 @@ fn fresh(name: &str) -> (String, Vec<(usize, Ev)>) {
         "rig_break" => plant_file_case("examples/plants/rig-break.toml", profile),
         "one_line" => one_line_case(),
         "pi_section" => plant_file_case("tests/plants/pi-section.toml", profile),
+        "zc_ladder" => zc_ladder_case(profile),
         _ => reactive_case(profile),
     }
 }
 
-const CASES: [&str; 9] = [
+const CASES: [&str; 11] = [
     "every_kind_wide",
     "every_kind_narrow",
     "rig_break_wide",
@@ -178,6 +244,8 @@ const CASES: [&str; 9] = [
     "one_line_wide",
     "pi_section_wide",
     "pi_section_narrow",
+    "zc_ladder_wide",
+    "zc_ladder_narrow",
 ];
 
 #[test]
@@ -300,6 +368,12 @@ fn reactive_elements_and_every_shunt_are_bit_exact() {
 fn a_series_branch_between_nodes_is_bit_exact() {
     check("pi_section_wide", &forms!(pi_section_wide, Wide));
     check("pi_section_narrow", &forms!(pi_section_narrow, Narrow));
+}
+
+#[test]
+fn lossy_lines_with_zc_networks_are_bit_exact() {
+    check("zc_ladder_wide", &forms!(zc_ladder_wide, Wide));
+    check("zc_ladder_narrow", &forms!(zc_ladder_narrow, Narrow));
 }
 
 #[test]

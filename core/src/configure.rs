@@ -10,20 +10,24 @@
 //! zero (see the crate documentation).
 
 mod branch;
+mod loss;
 mod mode;
 mod passive;
 mod shape;
 mod weights;
+mod zc;
 
 use crate::error::{BuildError, ConfigError, Table};
-use crate::network::{ElementKind, Junction, Network, ProbeKind, Shunt, Side, MAX_LOSS_SECTIONS};
+use crate::network::{ElementKind, Junction, Network, ProbeKind, Shunt, Side};
 use crate::profile::{hold_threshold, reciprocal, Profile};
-use crate::solver::{DriveRt, ElementRt, JunctionRt, LossRt, Mode, ProbeRt, Solver};
+use crate::solver::{DriveRt, ElementRt, JunctionRt, Mode, ProbeRt, Solver};
+use loss::loss_record;
 pub(crate) use mode::{lone_open, mode_of};
 pub(crate) use passive::node_ok as passive_node;
 use shape::{cap, ports_at, Shape};
 use weights::weight;
 pub(crate) use weights::TOP;
+pub use zc::{passivity_margin as zc_passivity_margin, ZcMargin, MAX_MARGIN_EVALUATIONS};
 
 /// `slot[i] = v` for an index the checks above keep in range; out of range (unreachable after
 /// validation) it writes nothing instead of panicking, so `load` has no panic path.
@@ -99,7 +103,8 @@ pub fn check<P: Profile>(net: &Network<'_>) -> Result<u32, BuildError> {
         }
     }
     for (n, ll) in net.losses.iter().enumerate() {
-        loss_record::<P>(ll, 0).ok_or(BuildError::BadLoss { loss: n as u16 })?;
+        loss_record::<P>(ll, 0, n)?;
+        zc::check_line::<P>(net, ll, shape.rig.map(|r| r.2))?;
     }
     Ok(c)
 }
@@ -130,43 +135,6 @@ fn element_mu<P: Profile>(port_milliohm: u32, series_milliohm: u32) -> u32 {
     // rp, series < 2^32: the shift and the sum are exact in u128.
     let mu = (rp << P::SERIES_FRAC).checked_div(rp.saturating_add(u128::from(series_milliohm))).unwrap_or(0);
     u32::try_from(mu).unwrap_or(0)
-}
-
-/// The run-time record of one loss filter (`None` if a section does not quantize to an
-/// attenuating shelf, see [`quantize_loss_section`]).
-fn loss_record<P: Profile>(ll: &crate::network::LineLoss, port: u16) -> Option<LossRt<P::Wave>> {
-    let mut rt = LossRt {
-        port,
-        sections: ll.sections,
-        g: [0; MAX_LOSS_SECTIONS],
-        gb: [0; MAX_LOSS_SECTIONS],
-        a: [0; MAX_LOSS_SECTIONS],
-        x1: [P::ZERO; MAX_LOSS_SECTIONS],
-        y1: [P::ZERO; MAX_LOSS_SECTIONS],
-        r1: [P::ZERO; MAX_LOSS_SECTIONS],
-        ap: false,
-        ap_a: 0,
-        ap_c: 0,
-        ap_s: P::ZERO,
-    };
-    let n = ll.sections as usize;
-    if (n == 0 && ll.allpass.is_none()) || n > MAX_LOSS_SECTIONS {
-        return None;
-    }
-    // Zc(s) networks are described by the network format but not yet run by this solver:
-    // refuse them rather than run the line with a wrong port.
-    if ll.zc.is_some() {
-        return None;
-    }
-    if let Some(ap) = ll.allpass {
-        (rt.ap_a, rt.ap_c) = quantize_allpass::<P>(ap.a, ap.c)?;
-        rt.ap = true;
-    }
-    let coefs = ll.poles.iter().zip(ll.zeros.iter()).zip(rt.g.iter_mut().zip(rt.gb.iter_mut()).zip(rt.a.iter_mut()));
-    for ((pole, zero), ((rg, rgb), ra)) in coefs.take(n) {
-        (*rg, *rgb, *ra) = quantize_loss_section::<P>(*pole, *zero)?;
-    }
-    passive::loss_ok::<P>(&rt).then_some(rt)
 }
 
 /// The run-time record of junction `j` (whose ports start at `first`), with the sum of its
@@ -279,7 +247,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         let k = weights::shift::<P>(net, &shape)?;
         self.exponent = TOP.saturating_sub(k); // k <= TOP
         self.layout_ports(net);
-        self.build_losses(net)?;
+        self.build_losses(net, shape.rig.map(|r| r.2))?;
         self.build_rings(net, &shape)?;
         self.build_weights(net, k)?;
         self.build_junctions(net, &shape, k)?;
@@ -323,18 +291,20 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     }
 
     /// Loss filters: one per lossy line, applied at both of its ends.
-    fn build_losses(&mut self, net: &Network<'_>) -> Result<(), BuildError> {
+    fn build_losses(&mut self, net: &Network<'_>, rig_line: Option<usize>) -> Result<(), BuildError> {
         let mut nloss = 0usize;
         for (k, ll) in net.losses.iter().enumerate() {
             let li = ll.line as usize;
             for side in 0..2 {
                 let port = at(&self.port_of, end_index(li, side == 1)) as u16;
-                let rt = loss_record::<P>(ll, port).ok_or(BuildError::BadLoss { loss: k as u16 })?;
+                let rt = loss_record::<P>(ll, port, k)?;
                 set(&mut self.losses, nloss, rt);
                 nloss = nloss.saturating_add(1);
             }
+            zc::check_line::<P>(net, ll, rig_line)?;
         }
         self.n_losses = nloss;
+        self.zc = net.losses.iter().any(|l| l.zc.is_some());
         Ok(())
     }
 
@@ -476,6 +446,9 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         if let Some(bad) = self.losses.iter().take(self.n_losses).position(|l| !passive::loss_ok::<P>(l)) {
             return Err(BuildError::BadLoss { loss: (bad / 2) as u16 });
         }
+        if let Some(bad) = self.losses.iter().take(self.n_losses).position(|l| !zc::zc_ok::<P>(l)) {
+            return Err(BuildError::BadZc { loss: (bad / 2) as u16 });
+        }
         Ok(())
     }
 
@@ -491,6 +464,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.mem_used = 0;
         self.drive = DriveRt::None;
         self.branches = false;
+        self.zc = false;
         self.reset();
     }
 

@@ -126,6 +126,21 @@ pub struct LossPlan {
     /// The fractional-delay allpass after the sections, (a, c) in `LOSS_FRAC` bits
     /// (`Profile::allpass`), if the line has one.
     pub allpass: Option<(i32, u32)>,
+    /// The Zc(s) network at this end, if the line has one.
+    pub zc: Option<ZcPlan>,
+}
+
+/// One line end's Zc(s) network, as loaded (`Profile::zc_pre`, `Profile::zc_post`).
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct ZcPlan {
+    /// Sections in use.
+    pub sections: u8,
+    /// k_i (`LOSS_FRAC` bits).
+    pub k: [u32; crate::network::MAX_ZC_SECTIONS],
+    /// 2k_i − 1 (`LOSS_FRAC` bits).
+    pub pole: [i32; crate::network::MAX_ZC_SECTIONS],
+    /// ρ_i (`LOSS_FRAC` bits).
+    pub rho: [u32; crate::network::MAX_ZC_SECTIONS],
 }
 
 /// A probe, as loaded.
@@ -295,6 +310,7 @@ impl<'s, P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, c
             gb: l.gb,
             a: l.a,
             allpass: l.ap.then_some((l.ap_a, l.ap_c)),
+            zc: (l.zc_n != 0).then_some(ZcPlan { sections: l.zc_n, k: l.zc_k, pole: l.zc_pole, rho: l.zc_rho }),
         })
     }
 

@@ -147,6 +147,35 @@ pub enum BuildError {
         /// Index of the branch junction.
         junction: u16,
     },
+    /// A loss filter's Zc(s) network is out of range: it needs 1..=MAX_ZC_SECTIONS sections,
+    /// 0 < k < 1, ρ > 0 and Σ ρ < 1 after quantization, and loss sections on its line (a Zc
+    /// network on a lossless line is active).
+    #[error(
+        "loss filter {loss}: Zc(s) network out of range (needs 1 to 4 sections, 0 < k < 1, rho > 0 and sum of rho < 1 \
+         after quantization, and loss sections on the line)"
+    )]
+    BadZc {
+        /// Index of the loss filter.
+        loss: u16,
+    },
+    /// A lossy line's Zc(s) network and its loss filter form an active two-port: the least
+    /// passivity margin (`configure::zc_passivity_margin`, computed at load from the
+    /// integers) is below 0, or the check could not be completed for this line.
+    #[error(
+        "line {line}: its Zc(s) network and loss filter form an active two-port (least passivity margin below 0, \
+         or not verifiable within the load-time budget)"
+    )]
+    ZcNotPassive {
+        /// Index of the line.
+        line: u16,
+    },
+    /// A Zc(s) network on the line of the rig port (its two directions have different
+    /// delays there): not supported by this solver.
+    #[error("line {line}: a Zc(s) network on the rig port's line is not supported")]
+    ZcOnRigLine {
+        /// Index of the line.
+        line: u16,
+    },
     /// `io_shift` is larger than the number profile allows.
     #[error("io_shift {io_shift} > maximum {max}")]
     IoShiftTooLarge {

@@ -31,6 +31,12 @@
 //!   group delay at low frequency is d. It runs as the normalised (Gray–Markel) lattice,
 //!   a lossless two-port between the arriving wave x and a state s:
 //!   y = a·x + c·s, s' = c·x − a·s, c = sqrt(1 − a²).
+//! * A **Zc(s) network** ([`ZcNetwork`]) gives a lossy line the frequency-dependent
+//!   characteristic impedance of a real cable, Zc(s) ≈ Z_inf + Σ R_i/(1 + s·R_i·C_i) (J. Marti
+//!   1982), at both of its ends in node-wave form: the junction sees the port Z_p with
+//!   incident wave b_p = b + c, c = Σ k_i·s_i, and the line gets a = a_p + c; each section's
+//!   state follows s_i' = (2k_i − 1)·s_i + ρ_i·(a_p − b_p). Probes read the junction's
+//!   waves (v = a_p + b_p). See `docs/zc-model.md`.
 //! * A **rig port** is a node with one line end where a real device is attached through a
 //!   physical resistor R_ref = Z0 to a DAC: the core reads the pin voltage v, computes
 //!   a = v − b and drives the DAC at 2·b. The rig's ADC-to-DAC latency L is taken out of
@@ -110,6 +116,19 @@
 //! (`core/tests/passivity.rs`) and constant-drive settling (`core/tests/settle.rs`) run with
 //! these sections.
 //!
+//! **Zc(s) networks: what is and is not proven.** A Zc end shifts both of its waves by the same
+//! c, so it is not a lossless adaptor between constant port resistances, and the energy
+//! argument above does not cover it. Its arithmetic follows the rule all the same (c and each
+//! s_i' one exact sum, truncated toward zero, saturated; `core/tests/oracle.rs`), and with no
+//! current (an open or broken end: a_p = b_p) each state shrinks strictly, |s_i'| < |s_i|
+//! (|2k_i − 1| < 1). What is passive or not is each line with its two ends: `load` computes
+//! the least passivity margin of that two-port from the integers (quantized loss sections,
+//! allpass, whole delay, quantized Zc coefficients: `configure::zc_passivity_margin`) over a
+//! frequency grid and refuses a line whose margin is below 0 ([`BuildError::ZcNotPassive`]).
+//! This is a check on a grid of the quantized linear model, not a proof for the truncated
+//! arithmetic: zero-input decay to exactly 0 and the passive bound are measured over random
+//! trees and loops of accepted plants (`core/tests/zc.rs`), not derived.
+//!
 //! **Constant drive.** Around a non-zero working point every outgoing wave of a node has one
 //! sign, so truncation toward zero rounds them all the same way; for small deviations the node
 //! then acts as if only v were quantized, and in a lightly damped plant the deviations wander
@@ -129,7 +148,9 @@
 //! `step` does O(ports + junctions) work, independent of the delays (ring buffers, no data
 //! shifting), no division, no floating point, no allocation, and cannot panic once
 //! [`Solver::load`] has accepted the network. Coefficients are computed by the core itself,
-//! with integer arithmetic, in `load` and in [`Solver::set_shunt`].
+//! with integer arithmetic, in `load` and in [`Solver::set_shunt`]; the one floating-point
+//! computation is `load`'s passivity margin of lines with Zc(s) networks (`libm`, off the
+//! per-sample path).
 #![no_std]
 #![forbid(unsafe_code)]
 // Panics are ruled out by the compiler as well as by the firmware's link check: no indexing

@@ -114,6 +114,29 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
         gb: i32,
         a: u32,
     ) -> (Self::Wave, Self::Wave);
+    /// The pre-step of a line end's Zc(s) network ([`crate::ZcNetwork`], node-wave form), after
+    /// the arrival filter: c = trunc(Σ k_i·s_i) over the first `n` sections (one exact sum,
+    /// one truncation toward zero, saturated; k_i in `LOSS_FRAC` bits) and the wave the
+    /// junction sees, b_p = sat(b + c). Returns (c, b_p).
+    fn zc_pre(
+        b: Self::Wave,
+        s: &[Self::Wave; crate::network::MAX_ZC_SECTIONS],
+        k: &[u32; crate::network::MAX_ZC_SECTIONS],
+        n: usize,
+    ) -> (Self::Wave, Self::Wave);
+    /// The post-step of a line end's Zc(s) network, after the junction: with d = a_p − b_p,
+    /// every section's state becomes s_i' = trunc((2k_i − 1)·s_i + ρ_i·d) (one exact sum, one
+    /// truncation toward zero, saturated; `pole[i]` = 2k_i − 1 and ρ_i in `LOSS_FRAC` bits),
+    /// and the wave sent into the line is sat(a_p + c).
+    fn zc_post(
+        ap: Self::Wave,
+        bp: Self::Wave,
+        c: Self::Wave,
+        s: &mut [Self::Wave; crate::network::MAX_ZC_SECTIONS],
+        pole: &[i32; crate::network::MAX_ZC_SECTIONS],
+        rho: &[u32; crate::network::MAX_ZC_SECTIONS],
+        n: usize,
+    ) -> Self::Wave;
     /// Fractional bits of the series-inductor coefficients (c, rho < 1).
     const CHOKE_FRAC: u32;
     /// Series inductor with its state kept in voltage scale: s = −(2Z/R_L)·b_L, so a large

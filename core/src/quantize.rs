@@ -55,3 +55,11 @@ pub fn allpass(a: i32, c: u32, frac: u32) -> Option<(i32, u32)> {
     let aq = if a < 0 { aq.checked_neg()? } else { aq };
     Some((aq, c.checked_shr(gap)?))
 }
+
+/// One Zc(s) section's coefficients at `frac` fraction bits, from Q30 (`k` = k·2^30,
+/// `rho` = ρ·2^30; see [`crate::ZcNetwork`]): both truncated toward zero (so k_q <= k and
+/// ρ_q <= ρ). Returns `(k_q, ρ_q)`; `None` for `frac` > 30. The loader checks the ranges.
+pub fn zc_section(k: u32, rho: u32, frac: u32) -> Option<(u32, u32)> {
+    let gap = 30u32.checked_sub(frac)?;
+    Some((k.checked_shr(gap)?, rho.checked_shr(gap)?))
+}

@@ -14,7 +14,9 @@
 //! after validation) or masks, arithmetic is wrapping or saturating where the ranges were
 //! argued, and no division happens here.
 
-use crate::network::{MAX_LOSS_SECTIONS, MAX_PROBES};
+mod lines;
+
+use crate::network::{MAX_LOSS_SECTIONS, MAX_PROBES, MAX_ZC_SECTIONS};
 use crate::profile::Profile;
 
 /// Size of the rig-port history ring (a power of two > MAX_RIG_LATENCY).
@@ -110,6 +112,44 @@ pub(crate) struct LossRt<W: Copy> {
     pub ap_a: i32,
     pub ap_c: u32,
     pub ap_s: W,
+    /// Zc(s) network at this end ([`crate::ZcNetwork`], node-wave form): sections in use
+    /// (0: none), k_i, 2k_i − 1 and ρ_i in `LOSS_FRAC` bits, the states s_i, this sample's
+    /// c = Σ k_i·s_i, and the junction's outgoing wave a_p kept while the ring takes
+    /// a_p + c.
+    pub zc_n: u8,
+    pub zc_k: [u32; MAX_ZC_SECTIONS],
+    pub zc_pole: [i32; MAX_ZC_SECTIONS],
+    pub zc_rho: [u32; MAX_ZC_SECTIONS],
+    pub zc_s: [W; MAX_ZC_SECTIONS],
+    pub zc_c: W,
+    pub zc_ap: W,
+}
+
+impl<W: Copy> LossRt<W> {
+    /// A record with no section, no allpass and no Zc network (all states `zero`).
+    pub(crate) const fn empty(port: u16, zero: W) -> Self {
+        LossRt {
+            port,
+            sections: 0,
+            g: [0; MAX_LOSS_SECTIONS],
+            gb: [0; MAX_LOSS_SECTIONS],
+            a: [0; MAX_LOSS_SECTIONS],
+            x1: [zero; MAX_LOSS_SECTIONS],
+            y1: [zero; MAX_LOSS_SECTIONS],
+            r1: [zero; MAX_LOSS_SECTIONS],
+            ap: false,
+            ap_a: 0,
+            ap_c: 0,
+            ap_s: zero,
+            zc_n: 0,
+            zc_k: [0; MAX_ZC_SECTIONS],
+            zc_pole: [0; MAX_ZC_SECTIONS],
+            zc_rho: [0; MAX_ZC_SECTIONS],
+            zc_s: [zero; MAX_ZC_SECTIONS],
+            zc_c: zero,
+            zc_ap: zero,
+        }
+    }
 }
 
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
@@ -173,6 +213,8 @@ pub struct Solver<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM:
     pub(crate) drive: DriveRt,
     /// Whether any junction is a series branch (then the branch pass runs).
     pub(crate) branches: bool,
+    /// Whether any line end has a Zc(s) network (then its post-step runs).
+    pub(crate) zc: bool,
     pub(crate) io_shift: u32,
     pub(crate) volts_per_code: f32,
 }
@@ -192,20 +234,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             juncs: [JunctionRt::Unused; JUNCS],
             elements: [ElementRt { port: 0, mu: 0, negate: false }; PORTS],
             n_elements: 0,
-            losses: [LossRt {
-                port: 0,
-                sections: 0,
-                g: [0; MAX_LOSS_SECTIONS],
-                gb: [0; MAX_LOSS_SECTIONS],
-                a: [0; MAX_LOSS_SECTIONS],
-                x1: [P::ZERO; MAX_LOSS_SECTIONS],
-                y1: [P::ZERO; MAX_LOSS_SECTIONS],
-                r1: [P::ZERO; MAX_LOSS_SECTIONS],
-                ap: false,
-                ap_a: 0,
-                ap_c: 0,
-                ap_s: P::ZERO,
-            }; LOSSES],
+            losses: [LossRt::empty(0, P::ZERO); LOSSES],
             n_losses: 0,
             probes: [ProbeRt { current: false, port: 0, z_milliohm: 1 }; MAX_PROBES],
             probe_out: [0; MAX_PROBES],
@@ -220,6 +249,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             exponent: 0,
             drive: DriveRt::None,
             branches: false,
+            zc: false,
             io_shift: 0,
             volts_per_code: 1.0,
         }
@@ -239,8 +269,13 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             }
         }
         for l in self.losses.iter_mut() {
-            let z = [P::ZERO; MAX_LOSS_SECTIONS];
-            (l.x1, l.y1, l.r1, l.ap_s) = (z, z, z, P::ZERO);
+            l.x1 = [P::ZERO; MAX_LOSS_SECTIONS];
+            l.y1 = [P::ZERO; MAX_LOSS_SECTIONS];
+            l.r1 = [P::ZERO; MAX_LOSS_SECTIONS];
+            l.ap_s = P::ZERO;
+            l.zc_s = [P::ZERO; MAX_ZC_SECTIONS];
+            l.zc_c = P::ZERO;
+            l.zc_ap = P::ZERO;
         }
         for r in self.rings.iter_mut() {
             r.cursor = r.start;
@@ -444,46 +479,6 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         }
     }
 
-    /// Line pass: write each a into the ring towards the partner end, advance, read next b.
-    #[inline(always)]
-    fn propagate(&mut self) {
-        let n = self.n_ports.min(PORTS);
-        for (r, b) in self.rings.iter_mut().zip(self.b.iter_mut()).take(n) {
-            let val = self.a.get(r.partner as usize).copied().unwrap_or(P::ZERO);
-            if let Some(m) = self.mem.get_mut(r.cursor as usize) {
-                *m = val;
-            }
-            let next = r.cursor.wrapping_add(1);
-            r.cursor = if next == r.end { r.start } else { next };
-            *b = self.mem.get(r.cursor as usize).copied().unwrap_or(P::ZERO);
-        }
-        // Lossy lines and fractional delays: the wave arriving at each end passes the line's
-        // loss sections, then its allpass (LTI filters commute with the delay, so filtering
-        // at the arrival is the same line).
-        let n_loss = self.n_losses.min(LOSSES);
-        for l in self.losses.iter_mut().take(n_loss) {
-            let Some(b) = self.b.get_mut(l.port as usize) else {
-                continue;
-            };
-            let mut x = *b;
-            let k = (l.sections as usize).min(MAX_LOSS_SECTIONS);
-            let state = l.x1.iter_mut().zip(l.y1.iter_mut()).zip(l.r1.iter_mut());
-            let sections = state.zip(l.g.iter().zip(l.gb.iter()).zip(l.a.iter()));
-            for (((x1, y1), r1), ((g, gb), a)) in sections.take(k) {
-                let (y, r) = P::loss_section(x, *x1, *y1, *r1, *g, *gb, *a);
-                (*x1, *y1, *r1) = (x, y, r);
-                x = y;
-            }
-            if l.ap {
-                // Lattice: y = a·x + c·s, s' = c·x − a·s (`Profile::allpass`).
-                let (y, s_next) = P::allpass(x, l.ap_s, l.ap_a, l.ap_c);
-                l.ap_s = s_next;
-                x = y;
-            }
-            *b = x;
-        }
-    }
-
     /// The DAC drive code the next `step` of a rig port will return (it depends only on
     /// waves already in the lines, not on the pin voltage about to be read); 0 without a rig.
     pub fn rig_drive(&self) -> i16 {
@@ -513,12 +508,14 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         }
     }
 
-    /// True when every wave in every line and at every port is exactly zero.
+    /// True when every wave in every line and at every port, and every Zc(s) section state,
+    /// is exactly zero.
     pub fn is_at_rest(&self) -> bool {
         let z = P::ZERO;
         self.mem.iter().take(self.mem_used).all(|w| *w == z)
             && self.a.iter().take(self.n_ports).all(|w| *w == z)
             && self.b.iter().take(self.n_ports).all(|w| *w == z)
+            && self.losses.iter().take(self.n_losses).all(|l| l.zc_s.iter().all(|w| *w == z))
     }
 
     /// The waves (a, b) at one end of a line after the last step, raw wave LSBs (read-out

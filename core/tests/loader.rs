@@ -7,7 +7,7 @@ use proptest::prelude::*;
 use tidewire_core::image::header;
 use tidewire_core::{
     Allpass, BuildError, Drive, Element, ElementKind, Junction, Line, LineLoss, Narrow, Network, Probe, ProbeKind,
-    Profile, Shunt, Side, Solver, Wide, MAX_LOSS_SECTIONS,
+    Profile, Shunt, Side, Solver, Wide, ZcNetwork, MAX_LOSS_SECTIONS,
 };
 
 type WideSolver = Solver<Wide, 24, 8, 4096, 8>;
@@ -101,20 +101,29 @@ fn loss() -> impl Strategy<Value = LineLoss> {
         }),
         1 => (any::<i32>(), any::<u32>()).prop_map(|(a, c)| Some(Allpass { a, c })),
     ];
+    // Zc(s) networks: none, one in range (small ρ, any k), or any integers at all.
+    let zc = prop_oneof![
+        4 => Just(None),
+        2 => (1u8..=4, any::<[u32; 4]>(), any::<[u32; 4]>()).prop_map(|(sections, k, r)| {
+            Some(ZcNetwork { sections, k: k.map(|x| 1 + x % ((1 << 30) - 1)), rho: r.map(|x| 1 + x % (1 << 24)) })
+        }),
+        1 => (any::<u8>(), any::<[u32; 4]>(), any::<[u32; 4]>()).prop_map(|(sections, k, rho)| Some(ZcNetwork { sections, k, rho })),
+    ];
     (
         index(6),
         prop_oneof![12 => 1u8..=3, 3 => Just(0u8), 1 => 0u8..=255],
         proptest::collection::vec(section, MAX_LOSS_SECTIONS),
         allpass,
+        zc,
     )
-        .prop_map(|(line, sections, s, allpass)| {
+        .prop_map(|(line, sections, s, allpass, zc)| {
             let mut poles = [0u32; MAX_LOSS_SECTIONS];
             let mut zeros = [0i32; MAX_LOSS_SECTIONS];
             for (k, (p, z)) in s.into_iter().enumerate() {
                 poles[k] = p;
                 zeros[k] = z;
             }
-            LineLoss { line, sections, poles, zeros, allpass, zc: None }
+            LineLoss { line, sections, poles, zeros, allpass, zc }
         })
 }
 
@@ -345,4 +354,104 @@ fn allpass_coefficients_are_checked_at_load() {
     assert_eq!(try_load(Some(Allpass { a: i32::MAX, c: 1 }), 0), (bad, bad));
     // Neither sections nor an allpass.
     assert_eq!(try_load(None, 0), (bad, bad));
+}
+
+/// Zc(s) networks are checked at load from the integers (`configure/zc.rs`): 1..=4 sections,
+/// 0 < k < 1, ρ > 0, Σ ρ < 1 after quantization, loss sections on the line, not the rig
+/// port's line, and a passivity margin >= 0. Refused with a located error, never a panic.
+#[test]
+fn zc_networks_are_checked_at_load() {
+    let lines = [Line { z_milliohm: 100_000, delay: 20, a: 0, b: 1 }];
+    let junctions = [Junction::Node { shunt: Shunt::Resistor { milliohm: 100_000 } }; 2];
+    let one = 1u32 << 30;
+    // A shelf with DC gain 1 (pole 0.5, zero −0.5): it attenuates by 1/3 at Nyquist.
+    let try_load = |zc: ZcNetwork, sections: u8, drive: Drive| {
+        let losses = [LineLoss {
+            line: 0,
+            sections,
+            poles: [one / 2, 0, 0, 0, 0, 0],
+            zeros: [-(one as i32) / 2, 0, 0, 0, 0, 0],
+            allpass: if sections == 0 { Some(Allpass { a: 0, c: one }) } else { None },
+            zc: Some(zc),
+        }];
+        let net = Network {
+            lines: &lines,
+            junctions: &junctions,
+            elements: &[],
+            losses: &losses,
+            drive,
+            probes: &[],
+            io_shift: 0,
+            volts_per_code: 1.0,
+        };
+        let wide = Solver::<Wide, 8, 4, 64, 2>::new().load(&net);
+        let narrow = Solver::<Narrow, 8, 4, 64, 2>::new().load(&net);
+        assert_eq!(wide.is_ok(), tidewire_core::configure::check::<Wide>(&net).is_ok());
+        assert_eq!(narrow.is_ok(), tidewire_core::configure::check::<Narrow>(&net).is_ok());
+        (wide, narrow)
+    };
+    let src = Drive::Source { junction: 0, milliohm: 100_000 };
+    let zc = |sections: u8, k: u32, rho: u32| ZcNetwork { sections, k: [k; 4], rho: [rho; 4] };
+    // A small network (Σ ρ = 1/1024, k = 1/2) on this lossy line: passive, accepted.
+    let good = zc(1, one / 2, one >> 10);
+    assert_eq!(try_load(good, 1, src), (Ok(()), Ok(())));
+    let m = tidewire_core::configure::zc_passivity_margin(
+        &LineLoss {
+            line: 0,
+            sections: 1,
+            poles: [one / 2, 0, 0, 0, 0, 0],
+            zeros: [-(one as i32) / 2, 0, 0, 0, 0, 0],
+            allpass: None,
+            zc: Some(good),
+        },
+        20,
+        30,
+    )
+    .unwrap();
+    assert!(m.least >= 0.0 && m.least < 1.0, "{m:?}");
+    let bad = Err(BuildError::BadZc { loss: 0 });
+    // On a lossless line (an allpass only): active, refused.
+    assert_eq!(try_load(good, 0, src), (bad, bad));
+    // Sections 0 and 5 (and 255).
+    for n in [0, 5, 255] {
+        assert_eq!(try_load(zc(n, one / 2, one >> 10), 1, src), (bad, bad));
+    }
+    // k >= 1, k = 0, k quantizing to 0 in the narrow profile only.
+    assert_eq!(try_load(zc(1, one, one >> 10), 1, src), (bad, bad));
+    assert_eq!(try_load(zc(1, u32::MAX, one >> 10), 1, src), (bad, bad));
+    assert_eq!(try_load(zc(1, 0, one >> 10), 1, src), (bad, bad));
+    assert_eq!(try_load(zc(1, 1 << 10, one >> 10), 1, src).1, bad);
+    // ρ = 0, Σ ρ = 1, Σ ρ > 1, huge ρ.
+    assert_eq!(try_load(zc(1, one / 2, 0), 1, src), (bad, bad));
+    assert_eq!(try_load(zc(4, one / 2, one / 4), 1, src), (bad, bad));
+    assert_eq!(try_load(zc(2, one / 2, one / 4 * 3), 1, src), (bad, bad));
+    assert_eq!(try_load(zc(4, u32::MAX, u32::MAX), 1, src), (bad, bad));
+    // In range but active: a large, slow network (Σ ρ = 0.9, k near 1) whose phase the
+    // line's weak loss does not pay for.
+    let active = Err(BuildError::ZcNotPassive { line: 0 });
+    assert_eq!(try_load(zc(1, one - (one >> 6), one / 10 * 9), 1, src), (active, active));
+    // On the rig port's line: not supported, refused.
+    let rig = Drive::Rig { junction: 0, latency: 2 };
+    let junctions_rig =
+        [Junction::Node { shunt: Shunt::Open }, Junction::Node { shunt: Shunt::Resistor { milliohm: 100_000 } }];
+    let losses = [LineLoss {
+        line: 0,
+        sections: 1,
+        poles: [one / 2, 0, 0, 0, 0, 0],
+        zeros: [-(one as i32) / 2, 0, 0, 0, 0, 0],
+        allpass: None,
+        zc: Some(good),
+    }];
+    let net = Network {
+        lines: &lines,
+        junctions: &junctions_rig,
+        elements: &[],
+        losses: &losses,
+        drive: rig,
+        probes: &[],
+        io_shift: 0,
+        volts_per_code: 1.0,
+    };
+    assert_eq!(Solver::<Wide, 8, 4, 64, 2>::new().load(&net), Err(BuildError::ZcOnRigLine { line: 0 }));
+    assert_eq!(tidewire_core::configure::check::<Narrow>(&net), Err(BuildError::ZcOnRigLine { line: 0 }));
 }

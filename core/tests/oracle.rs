@@ -116,6 +116,58 @@ fn check_allpass<P: Profile>(au: u32, cu: u32, u: [u32; 2]) -> Result<(), TestCa
     Ok(())
 }
 
+/// A Zc(s) end over its whole accepted coefficient range (0 < k < 1, ρ > 0, Σ ρ < 1 at
+/// `LOSS_FRAC` bits) and any waves and states: the pre-step c = trunc(Σ k_i·s_i), b_p =
+/// sat(b + c), and the post-step s_i' = trunc((2k_i − 1)·s_i + ρ_i·(a_p − b_p)), a =
+/// sat(a_p + c), each one exact sum truncated toward zero and saturated, in i128.
+fn check_zc<P: Profile>(ku: [u32; 4], ru: [u32; 4], n: usize, u: [u32; 6]) -> Result<(), TestCaseError> {
+    use tidewire_core::MAX_ZC_SECTIONS;
+    let one = 1i128 << P::LOSS_FRAC;
+    let n = 1 + n % MAX_ZC_SECTIONS;
+    let mut k = [0u32; MAX_ZC_SECTIONS];
+    let mut pole = [0i32; MAX_ZC_SECTIONS];
+    let mut rho = [0u32; MAX_ZC_SECTIONS];
+    let mut left = one - 1; // Σ ρ < one
+    for i in 0..n {
+        let ki = 1 + ku[i] as i128 % (one - 1); // in [1, one − 1]
+        k[i] = ki as u32;
+        pole[i] = (2 * ki - one) as i32;
+        let ri = if left > (n - i) as i128 { 1 + ru[i] as i128 % (left - (n - i - 1) as i128) } else { 1 };
+        left -= ri;
+        rho[i] = ri as u32;
+    }
+    let mut s = [P::ZERO; MAX_ZC_SECTIONS];
+    for i in 0..MAX_ZC_SECTIONS {
+        s[i] = wave::<P>(u[i]);
+    }
+    let (b, ap) = (wave::<P>(u[4]), wave::<P>(u[5]));
+    let (c, bp) = P::zc_pre(b, &s, &k, n);
+    let sum: i128 = (0..n).map(|i| k[i] as i128 * w::<P>(s[i])).sum();
+    prop_assert_eq!(w::<P>(c), trunc_sat::<P>(sum, P::LOSS_FRAC));
+    prop_assert_eq!(w::<P>(bp), trunc_sat::<P>(w::<P>(b) + w::<P>(c), 0));
+    let before = s;
+    let out = P::zc_post(ap, bp, c, &mut s, &pole, &rho, n);
+    for i in 0..MAX_ZC_SECTIONS {
+        let want = if i < n {
+            trunc_sat::<P>(
+                pole[i] as i128 * w::<P>(before[i]) + rho[i] as i128 * (w::<P>(ap) - w::<P>(bp)),
+                P::LOSS_FRAC,
+            )
+        } else {
+            w::<P>(before[i]) // sections not in use are left alone
+        };
+        prop_assert_eq!(w::<P>(s[i]), want, "section {}", i);
+    }
+    prop_assert_eq!(w::<P>(out), trunc_sat::<P>(w::<P>(ap) + w::<P>(c), 0));
+    // With d = 0 (an open end) a section's state shrinks strictly: |2k − 1| < 1.
+    let mut s0 = before;
+    let _ = P::zc_post(bp, bp, c, &mut s0, &pole, &rho, n);
+    for i in 0..n {
+        prop_assert!(w::<P>(s0[i]).abs() < w::<P>(before[i]).abs() || before[i] == P::ZERO);
+    }
+    Ok(())
+}
+
 /// A node: up to 8 ports, weights with Σ g + g_src <= 2^WEIGHT_BITS, a total between that sum
 /// and `TOTAL_MAX` (a shunt of any strength), any waves and source EMF.
 ///
@@ -303,6 +355,12 @@ proptest! {
     fn allpass_is_exact_then_truncated_and_passive(au: u32, cu: u32, u: [u32; 2]) {
         check_allpass::<Wide>(au, cu, u)?;
         check_allpass::<Narrow>(au, cu, u)?;
+    }
+
+    #[test]
+        fn zc_end_is_exact_then_truncated(ku: [u32; 4], ru: [u32; 4], n in 0usize..4, u: [u32; 6]) {
+        check_zc::<Wide>(ku, ru, n, u)?;
+        check_zc::<Narrow>(ku, ru, n, u)?;
     }
 
     #[test]

@@ -234,20 +234,27 @@ impl Twin {
             zc: vec![None; 2 * nl],
             zc_io: vec![(0.0, 0.0); 2 * nl],
         };
-        twin.zc_from_network(net);
+        twin.zc_from_network(net, 30);
         twin
     }
 
     /// Read the Zc(s) networks the network itself carries (`LineLoss::zc`, Q30), node-wave
-    /// form at both ends: r_i = ρ_i·Z_p, Z_inf = Z_p − Σ r_i with Z_p the line's impedance.
-    fn zc_from_network(&mut self, net: &Network<'_>) {
-        let q30 = (1u64 << 30) as f64;
+    /// form at both ends: r_i = ρ_i·Z_p, Z_inf = Z_p − Σ r_i with Z_p the line's impedance;
+    /// k_i and ρ_i truncated to `frac` bits as the core quantizes them
+    /// ([`tidewire_core::quantize::zc_section`]; 30: as given).
+    fn zc_from_network(&mut self, net: &Network<'_>, frac: u32) {
+        let one = (1u64 << frac.min(30)) as f64;
         for l in net.losses {
             let (Some(zc), Some(line)) = (l.zc, net.lines.get(l.line as usize)) else { continue };
             let zp = f64::from(line.z_milliohm) / 1000.0;
             let n = (zc.sections as usize).min(tidewire_core::MAX_ZC_SECTIONS);
-            let sections: Vec<(f64, f64)> =
-                (0..n).map(|i| (f64::from(zc.rho[i]) / q30 * zp, f64::from(zc.k[i]) / q30)).collect();
+            let sections: Vec<(f64, f64)> = (0..n)
+                .map(|i| {
+                    let (k, rho) =
+                        tidewire_core::quantize::zc_section(zc.k[i], zc.rho[i], frac.min(30)).unwrap_or((0, 0));
+                    (f64::from(rho) / one * zp, f64::from(k) / one)
+                })
+                .collect();
             let z_inf = zp - sections.iter().map(|(r, _)| r).sum::<f64>();
             self.set_zc(l.line as usize, z_inf, &sections, ZcRealisation::NodeWave);
         }
@@ -264,6 +271,8 @@ impl Twin {
         for f in t.filters.iter_mut() {
             f.allpass = allpass_at(f.design, q.allpass_frac);
         }
+        // Zc(s) networks with the profile's coefficient bits (the same `LOSS_FRAC`).
+        t.zc_from_network(net, q.allpass_frac);
         t.coef = Some(q);
         t
     }
@@ -279,7 +288,7 @@ impl Twin {
     /// gives them. Both ends, also at series junctions: the node-wave form keeps current
     /// continuity through a line at DC only when both its ends have the same network
     /// (`docs/zc-model.md`). Nominal coefficients at series junctions (the quantized twin's
-    /// series coefficient does not apply to a Zc port). The core does not run these yet.
+    /// series coefficient does not apply to a Zc port).
     pub fn set_zc(&mut self, line: usize, z_inf: f64, sections: &[(f64, f64)], how: ZcRealisation) {
         let port = z_inf + sections.iter().map(|(r, _)| r).sum::<f64>();
         for side in 0..2 {
@@ -402,9 +411,12 @@ impl Twin {
         for (k, pr) in self.probes.iter().enumerate() {
             let p = 2 * pr.line as usize + usize::from(pr.side == Side::B);
             let zc = self.zc[p].as_ref().map(|e| e.how);
+            let zc_port = self.zc[p].as_ref().map_or(1.0, |e| e.port);
             self.out[k] = match (pr.kind, quantized) {
-                // A Zc end: the current through its network, the node's voltage.
-                (ProbeKind::Current, _) if zc.is_some() => self.zc_io[p].0,
+                // A Zc end: the current through its network (as the core's raw read-out,
+                // Z_p·i = a_p − b_p, when quantized), the node's voltage.
+                (ProbeKind::Current, false) if zc.is_some() => self.zc_io[p].0,
+                (ProbeKind::Current, true) if zc.is_some() => self.zc_io[p].0 * zc_port,
                 _ if zc == Some(ZcRealisation::SeriesAdaptor) => self.a[p] + self.b[p] + self.zc_io[p].1,
                 (ProbeKind::Current, false) => (self.a[p] - self.b[p]) / self.z[p / 2],
                 (ProbeKind::Current, true) => self.a[p] - self.b[p],

@@ -22,10 +22,11 @@ fn write_if_changed(path: &Path, bytes: &[u8]) -> Result<(), String> {
 /// wide plants of at most 9 ports (larger solvers do not fit its RAM beside the firmware).
 /// The plant with a series branch (`p9b_*`) runs on the M4 only: with it the M0 image
 /// overflowed its 256 KB flash by 37 KB (each plant brings its generic, image and
-/// specialised forms).
+/// specialised forms). The plant with Zc(s) networks (`p8z_*`) likewise: the M4 carries the
+/// Zc ends' no-panic and instruction-count checks.
 pub fn fits_m0(p: &TestPlant) -> bool {
-    let branch = p.name.contains("b_");
-    !branch && (p.ports() <= 9 || (p.ports() <= 40 && p.name.ends_with("narrow")))
+    let m4_only = p.name.contains("b_") || p.name.contains("z_");
+    !m4_only && (p.ports() <= 9 || (p.ports() <= 40 && p.name.ends_with("narrow")))
 }
 
 /// Generate all plant files into `dir`; `plants` holds (profile, plants of that profile).

@@ -4,7 +4,7 @@
 //! here, or (later) one from the host compiler through [`TestPlant::from_network`].
 
 use tidewire_core::{
-    Allpass, Drive, Element, ElementKind, Junction, Line, LineLoss, Network, Probe, ProbeKind, Shunt, Side,
+    Allpass, Drive, Element, ElementKind, Junction, Line, LineLoss, Network, Probe, ProbeKind, Shunt, Side, ZcNetwork,
     MAX_LOSS_SECTIONS, MAX_PROBES,
 };
 
@@ -206,6 +206,24 @@ pub fn with_branch(mut p: TestPlant) -> TestPlant {
     p
 }
 
+/// The same plant with a Zc(s) network ([`ZcNetwork`], node-wave form) at both ends of every
+/// lossy line except the rig port's (the core does not run one there), so the firmware's
+/// no-panic link check and instruction counts cover the Zc pre- and post-steps: the
+/// difference to the plant without it is the cost of its Zc line ends. Two sections
+/// (k = 1/2 and 4/5, ρ = 1/100 and 1/200, Q30): small enough that the two-section loss
+/// filter of [`loss`] pays for their phase, so the load-time passivity margin is >= 0.
+pub fn with_zc(mut p: TestPlant) -> TestPlant {
+    let q30 = |x: f64| (x * (1u64 << 30) as f64) as u32;
+    let rig_line = match p.drive {
+        Drive::Rig { junction, .. } => p.lines.iter().position(|l| l.a == junction || l.b == junction),
+        _ => None,
+    };
+    for l in p.losses.iter_mut().filter(|l| l.sections > 0 && Some(l.line as usize) != rig_line) {
+        l.zc = Some(ZcNetwork { sections: 2, k: [q30(0.5), q30(0.8), 0, 0], rho: [q30(0.01), q30(0.005), 0, 0] });
+    }
+    p
+}
+
 /// The profiles a plant is generated for, with the `io_shift` each one uses.
 pub const PROFILES: [(&str, u8); 2] = [("wide", 4), ("narrow", 0)];
 
@@ -231,5 +249,29 @@ pub fn test_plants(profile: &str, io_shift: u8) -> Vec<TestPlant> {
     let mut b = with_branch(bus("", 1, io_shift));
     b.name = format!("p{}b_{profile}", b.ports());
     plants.push(b);
+    // And the 8-port plant with a Zc(s) network on its lossy drop line (`p8z_<profile>`, 2
+    // Zc line ends).
+    let mut z = with_zc(bus("", 1, io_shift));
+    z.name = format!("p{}z_{profile}", z.ports());
+    plants.push(z);
     plants
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn the_zc_plant_has_zc_ends_and_both_loaders_accept_it() {
+        for (profile, shift) in PROFILES {
+            let p = with_zc(bus("", 1, shift));
+            assert_eq!(p.losses.iter().filter(|l| l.zc.is_some()).count(), 1);
+            let ok = if profile == "wide" {
+                tidewire_core::configure::check::<tidewire_core::Wide>(&p.network()).is_ok()
+            } else {
+                tidewire_core::configure::check::<tidewire_core::Narrow>(&p.network()).is_ok()
+            };
+            assert!(ok, "{profile}: {:?}", tidewire_core::configure::check::<tidewire_core::Wide>(&p.network()));
+        }
+    }
 }

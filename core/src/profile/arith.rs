@@ -247,6 +247,47 @@ macro_rules! junction_rules {
         }
 
         #[inline(always)]
+        fn zc_pre(
+            b: Self::Wave,
+            s: &[Self::Wave; $crate::network::MAX_ZC_SECTIONS],
+            k: &[u32; $crate::network::MAX_ZC_SECTIONS],
+            n: usize,
+        ) -> (Self::Wave, Self::Wave) {
+            // 0 <= k_i < 2^f (checked at load) and |s_i| <= 2^(wave bits − 1): each product
+            // < 2^(f + wave bits − 1), four of them < 2^(f + wave bits + 1) (i64: < 2^63;
+            // i32: < 2^31): the sum is exact.
+            type A = $acc;
+            let mut acc: A = 0;
+            for (si, ki) in s.iter().zip(k.iter()).take(n) {
+                acc = acc.wrapping_add(<A as Acc>::mul(*ki, *si));
+            }
+            let c = $sat($trunc(acc, Self::LOSS_FRAC));
+            // Two waves: exact in the accumulator, then saturated.
+            (c, $sat(A::from(b).wrapping_add(A::from(c))))
+        }
+
+        #[inline(always)]
+        fn zc_post(
+            ap: Self::Wave,
+            bp: Self::Wave,
+            c: Self::Wave,
+            s: &mut [Self::Wave; $crate::network::MAX_ZC_SECTIONS],
+            pole: &[i32; $crate::network::MAX_ZC_SECTIONS],
+            rho: &[u32; $crate::network::MAX_ZC_SECTIONS],
+            n: usize,
+        ) -> Self::Wave {
+            // |2k − 1| < 2^f and 0 < ρ < 2^f (checked at load): |(2k − 1)·s| < 2^(f + W − 1)
+            // and |ρ·(a_p − b_p)| < 2^(f + W) (two products in `mul_diff`), so the sum is
+            // below 2^(f + W + 1) (i64: W = 32, f = 30: < 2^63; i32: W = 16, f = 14: < 2^31).
+            type A = $acc;
+            for ((si, pi), ri) in s.iter_mut().zip(pole.iter()).zip(rho.iter()).take(n) {
+                let acc = A::from(*pi).wrapping_mul(A::from(*si)).wrapping_add(<A as Acc>::mul_diff(*ri, ap, bp));
+                *si = $sat($trunc(acc, Self::LOSS_FRAC));
+            }
+            $sat(A::from(ap).wrapping_add(A::from(c)))
+        }
+
+        #[inline(always)]
         fn adapt(b: Self::Wave, a: Self::Wave, mu: u32, negate: bool) -> Self::Wave {
             // |b·2^f| and |μ·(a − b)| <= 2^f·2^(wave bits + 1) (μ <= 1, checked at load).
             type A = $acc;

@@ -294,3 +294,56 @@ pub fn with_branches(net: Owned) -> impl Strategy<Value = Owned> {
         out
     })
 }
+
+/// Random Zc(s) networks (1–4 sections, 0.02 < k < 0.98) on every line of `net` that has
+/// loss sections, sized so that the line's loss pays for the network's phase near DC.
+///
+/// Near DC a loss filter of DC gain 1 attenuates by ε ≈ C·ω² (per section
+/// C = (a − g·gb)/(2(1 − a)²), from |H|² = ((g − gb)² + 2g·gb(1 − cos ω))/((1 − a)² +
+/// 2a(1 − cos ω)) with g − gb = 1 − a), the line's phase is φ ≈ ω·τ (τ = N + the sections'
+/// group delay a/(1 − a) − b/(1 − b)), and the network's phase is arg Zc ≈ −d·ω with
+/// d = Σ k·ρ/(2(1 − k)²)/Zc(1). The even admittance then needs ε/φ >= |arg Zc|, i.e.
+/// C/τ >= d (the condition α >= ω·τ·tan(−arg Zc) of `docs/zc-model.md`). Σ ρ is drawn as
+/// u·C/(τ·d₁) (d₁ the slope per unit Σ ρ), u in [0.05, 1.2), capped at 0.5: a line whose
+/// Zc rises by what its attenuation pays for, and some that do not. Not every draw is
+/// passive at every frequency: tests keep the plants the loader accepts ([`zc_accepted`])
+/// and count them.
+pub fn with_zc(net: Owned) -> impl Strategy<Value = Owned> {
+    let n = net.losses.len();
+    proptest::collection::vec((proptest::collection::vec((0.02f64..0.98, 0.05f64..1.0), 1..=4), 0.05f64..1.2), n)
+        .prop_map(move |specs| {
+            let mut out = net.clone();
+            let q30 = (1u64 << 30) as f64;
+            for (l, (sections, u)) in out.losses.iter_mut().zip(specs) {
+                if l.sections == 0 {
+                    continue;
+                }
+                let delay = out.lines[l.line as usize].delay as f64;
+                let (mut c, mut tau) = (0.0, delay);
+                for (p, z) in l.poles.iter().zip(l.zeros.iter()).take(l.sections as usize) {
+                    let (a, b) = (*p as f64 / q30, *z as f64 / q30);
+                    let g = (1.0 - a) / (1.0 - b);
+                    c += (a - g * g * b) / (2.0 * (1.0 - a) * (1.0 - a));
+                    tau += a / (1.0 - a) - b / (1.0 - b);
+                }
+                let share: f64 = sections.iter().map(|(_, w)| w).sum();
+                let d1: f64 = sections.iter().map(|(k, w)| k * (w / share) / (2.0 * (1.0 - k) * (1.0 - k))).sum();
+                let total = (u * c / (tau * d1)).clamp(1e-4, 0.5);
+                let mut zc = tidewire_core::ZcNetwork { sections: sections.len() as u8, k: [0; 4], rho: [0; 4] };
+                for (i, (k, w)) in sections.iter().enumerate() {
+                    zc.k[i] = (k * q30) as u32;
+                    zc.rho[i] = ((total * w / share) * q30).max(1.0) as u32;
+                }
+                l.zc = Some(zc);
+            }
+            out
+        })
+}
+
+/// Whether both profiles' loaders accept `net` (with io_shift 0 for the narrow one).
+pub fn zc_accepted(net: &Owned) -> bool {
+    let mut n16 = net.clone();
+    n16.io_shift = 0;
+    tidewire_core::configure::check::<tidewire_core::Wide>(&net.network()).is_ok()
+        && tidewire_core::configure::check::<tidewire_core::Narrow>(&n16.network()).is_ok()
+}

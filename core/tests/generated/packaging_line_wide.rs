@@ -125,7 +125,7 @@ pub static NETWORK: Network<'static> = Network {
 #[allow(clippy::all, unused_imports, unused_variables, unused_mut, non_snake_case, dead_code)]
 pub mod specialised {
     use tidewire_core::emitted::{node_coefficients, NodeCoef};
-    use tidewire_core::{ConfigError, PlantStep, Profile, Shunt};
+    use tidewire_core::{ConfigError, PlantStep, Profile, Shunt, MAX_ZC_SECTIONS};
 
     type P = tidewire_core::Wide;
     type W = i32;
@@ -147,8 +147,9 @@ pub mod specialised {
         chokes: [W; 0],
         lx: [W; 0],
         ly: [W; 0],
-        lr: [W; 0],
         aps: [W; 22],
+        zcs: [[W; MAX_ZC_SECTIONS]; 0],
+        zcc: [W; 0],
         held: [W; 11],
         hist: [W; HIST],
         probes: [i32; PROBES],
@@ -158,7 +159,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 27], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 22], held: [P::ZERO; 11], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 27], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], aps: [P::ZERO; 22], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 11], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -513,10 +514,11 @@ pub mod specialised {
             self.chokes.iter_mut().for_each(|w| *w = P::ZERO);
             self.lx.iter_mut().for_each(|w| *w = P::ZERO);
             self.ly.iter_mut().for_each(|w| *w = P::ZERO);
-            self.lr.iter_mut().for_each(|w| *w = P::ZERO);
             self.aps.iter_mut().for_each(|w| *w = P::ZERO);
+            self.zcc.iter_mut().for_each(|w| *w = P::ZERO);
             self.held.iter_mut().for_each(|w| *w = P::ZERO);
             self.hist.iter_mut().for_each(|w| *w = P::ZERO);
+            self.zcs.iter_mut().for_each(|z| *z = [P::ZERO; MAX_ZC_SECTIONS]);
             self.probes.iter_mut().for_each(|w| *w = 0);
         }
 

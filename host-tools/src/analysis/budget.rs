@@ -67,9 +67,9 @@ fn fit(part: &Part) -> Option<(f64, f64, String, usize)> {
         .iter()
         .filter(|r| r.part == part.figures_part && r.profile == part.profile && r.form == part.form)
         // Plants named `p<ports>f_…` carry a fractional delay on every line (the cost of a
-        // fraction, measured beside the plain plant), `p<ports>b_…` a series branch; they stay
-        // out of the per-port fit.
-        .filter(|r| !r.plant.contains("f_") && !r.plant.contains("b_"))
+        // fraction, measured beside the plain plant), `p<ports>b_…` a series branch,
+        // `p<ports>z_…` Zc(s) networks on its lossy lines; they stay out of the per-port fit.
+        .filter(|r| !r.plant.contains("f_") && !r.plant.contains("b_") && !r.plant.contains("z_"))
         .collect();
     if rows.len() < 2 {
         return None;
@@ -144,7 +144,7 @@ mod tests {
             let (per_port, base, _, _) = fit(p).expect("the figures hold this part");
             let rows =
                 figs.rows.iter().filter(|r| r.part == p.figures_part && r.profile == p.profile && r.form == p.form);
-            for r in rows.filter(|r| !r.plant.contains("f_") && !r.plant.contains("b_")) {
+            for r in rows.filter(|r| !r.plant.contains("f_") && !r.plant.contains("b_") && !r.plant.contains("z_")) {
                 let model = per_port * r.ports as f64 + base;
                 assert!((model / r.instructions_per_sample - 1.0).abs() < 0.10, "{} {} ports", p.name, r.ports);
             }

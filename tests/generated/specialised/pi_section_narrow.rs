@@ -59,7 +59,7 @@ pub static NETWORK: Network<'static> = Network {
 #[allow(clippy::all, unused_imports, unused_variables, unused_mut, non_snake_case, dead_code)]
 pub mod specialised {
     use tidewire_core::emitted::{node_coefficients, NodeCoef};
-    use tidewire_core::{ConfigError, PlantStep, Profile, Shunt};
+    use tidewire_core::{ConfigError, PlantStep, Profile, Shunt, MAX_ZC_SECTIONS};
 
     type P = tidewire_core::Narrow;
     type W = i16;
@@ -84,6 +84,8 @@ pub mod specialised {
         ly: [W; 0],
         lr: [W; 0],
         aps: [W; 4],
+        zcs: [[W; MAX_ZC_SECTIONS]; 0],
+        zcc: [W; 0],
         held: [W; 1],
         hist: [W; HIST],
         probes: [i32; PROBES],
@@ -93,7 +95,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 1], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 4], held: [P::ZERO; 1], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 1], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 4], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 1], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -183,8 +185,10 @@ pub mod specialised {
             self.ly.iter_mut().for_each(|w| *w = P::ZERO);
             self.lr.iter_mut().for_each(|w| *w = P::ZERO);
             self.aps.iter_mut().for_each(|w| *w = P::ZERO);
+            self.zcc.iter_mut().for_each(|w| *w = P::ZERO);
             self.held.iter_mut().for_each(|w| *w = P::ZERO);
             self.hist.iter_mut().for_each(|w| *w = P::ZERO);
+            self.zcs.iter_mut().for_each(|z| *z = [P::ZERO; MAX_ZC_SECTIONS]);
             self.probes.iter_mut().for_each(|w| *w = 0);
         }
 

@@ -172,6 +172,7 @@ impl Writer<'_> {
         let n_chokes = l.junctions.iter().filter(|j| has_choke(j)).count();
         let n_sections: usize = l.losses.iter().map(|x| x.sections as usize).sum();
         let n_allpass = l.losses.iter().filter(|x| x.allpass.is_some()).count();
+        let n_zc = l.losses.iter().filter(|x| x.zc.is_some()).count();
         let held = self.held_slots(&slots);
         let n_held = held.iter().flatten().count();
         let rig = match l.drive {
@@ -199,7 +200,7 @@ impl Writer<'_> {
         );
         let _ = writeln!(s, "pub mod specialised {{");
         let _ = writeln!(s, "    use tidewire_core::emitted::{{node_coefficients, NodeCoef}};");
-        let _ = writeln!(s, "    use tidewire_core::{{ConfigError, PlantStep, Profile, Shunt}};\n");
+        let _ = writeln!(s, "    use tidewire_core::{{ConfigError, PlantStep, Profile, Shunt, MAX_ZC_SECTIONS}};\n");
         let _ = writeln!(s, "    type P = tidewire_core::{pname};");
         let _ = writeln!(s, "    type W = {wave};");
         let _ = writeln!(s, "    /// Delay memory, waves (a power of two: every ring is addressed through `MASK`).");
@@ -228,7 +229,7 @@ impl Writer<'_> {
         let _ = writeln!(s, "        n: u32,\n        mem: [W; MEM],\n        b: [W; {}],", self.layout.states);
         let _ = writeln!(
             s,
-            "        chokes: [W; {n_chokes}],\n        lx: [W; {n_sections}],\n        ly: [W; {n_sections}],\n        lr: [W; {n_sections}],\n        aps: [W; {n_allpass}],\n        held: [W; {n_held}],"
+            "        chokes: [W; {n_chokes}],\n        lx: [W; {n_sections}],\n        ly: [W; {n_sections}],\n        lr: [W; {n_sections}],\n        aps: [W; {n_allpass}],\n        zcs: [[W; MAX_ZC_SECTIONS]; {n_zc}],\n        zcc: [W; {n_zc}],\n        held: [W; {n_held}],"
         );
         let _ = writeln!(s, "        hist: [W; HIST],\n        probes: [i32; PROBES],\n        nodes: [NodeCoef; {n_switched}],\n    }}\n");
         let _ = writeln!(s, "    impl Plant {{");
@@ -236,7 +237,7 @@ impl Writer<'_> {
         let _ = writeln!(s, "        pub const fn new() -> Self {{");
         let _ = writeln!(
             s,
-            "            Plant {{ n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; {}], chokes: [P::ZERO; {n_chokes}], lx: [P::ZERO; {n_sections}], ly: [P::ZERO; {n_sections}], lr: [P::ZERO; {n_sections}], aps: [P::ZERO; {n_allpass}], held: [P::ZERO; {n_held}], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }}",
+            "            Plant {{ n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; {}], chokes: [P::ZERO; {n_chokes}], lx: [P::ZERO; {n_sections}], ly: [P::ZERO; {n_sections}], lr: [P::ZERO; {n_sections}], aps: [P::ZERO; {n_allpass}], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; {n_zc}], zcc: [P::ZERO; {n_zc}], held: [P::ZERO; {n_held}], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }}",
             self.layout.states
         );
         let _ = writeln!(s, "        }}\n    }}\n");
@@ -261,7 +262,22 @@ impl Writer<'_> {
             return;
         }
         if let Some(w) = self.layout.write.get(port.partner as usize).copied().flatten() {
-            let _ = writeln!(s, "            self.mem[(n.wrapping_add({w}) & MASK) as usize] = a{p};");
+            // A Zc(s) end: its post-step (the sections take d = a_p − b_p) and the wave into
+            // the line a_p + c; a{p} itself stays the junction's a_p for read-out and holds.
+            let zc = self.l.losses.iter().filter(|x| x.zc.is_some()).position(|x| x.port as usize == p);
+            match (zc, self.l.losses.iter().find(|x| x.port as usize == p).and_then(|x| x.zc)) {
+                (Some(z), Some(zp)) => {
+                    let _ = writeln!(
+                        s,
+                        "            let line{p} = P::zc_post(a{p}, b{p}, self.zcc[{z}], &mut self.zcs[{z}], &{:?}, &{:?}, {});",
+                        zp.pole, zp.rho, zp.sections
+                    );
+                    let _ = writeln!(s, "            self.mem[(n.wrapping_add({w}) & MASK) as usize] = line{p};");
+                }
+                _ => {
+                    let _ = writeln!(s, "            self.mem[(n.wrapping_add({w}) & MASK) as usize] = a{p};");
+                }
+            }
         }
     }
 
@@ -342,7 +358,7 @@ impl Writer<'_> {
         };
         let _ = writeln!(s, "            let output = {output};");
         // Loss filters, in the generic solver's order, on the waves that just arrived.
-        let (mut sec, mut ap) = (0usize, 0usize);
+        let (mut sec, mut ap, mut zc) = (0usize, 0usize, 0usize);
         for lp in &l.losses {
             let p = lp.port as usize;
             let (Some(r), Some(Arrival::State { slot })) =
@@ -370,6 +386,14 @@ impl Writer<'_> {
                 );
                 ap += 1;
             }
+            if let Some(zp) = lp.zc {
+                let _ = writeln!(
+                    s,
+                    "            let (c, bp) = P::zc_pre(x, &self.zcs[{zc}], &{:?}, {});\n            self.zcc[{zc}] = c;\n            x = bp;",
+                    zp.k, zp.sections
+                );
+                zc += 1;
+            }
             let _ = writeln!(s, "            self.b[{slot}] = x;");
         }
         let _ = writeln!(s, "            self.n = n.wrapping_add(1);\n            output\n        }}\n");
@@ -391,9 +415,10 @@ impl Writer<'_> {
         let _ = writeln!(s, "        fn reset(&mut self) {{");
         // In place: no temporary of the plant's size on the stack (a Cortex-M0 has little).
         let _ = writeln!(s, "            self.n = 0;");
-        for field in ["mem", "b", "chokes", "lx", "ly", "lr", "aps", "held", "hist"] {
+        for field in ["mem", "b", "chokes", "lx", "ly", "lr", "aps", "zcc", "held", "hist"] {
             let _ = writeln!(s, "            self.{field}.iter_mut().for_each(|w| *w = P::ZERO);");
         }
+        let _ = writeln!(s, "            self.zcs.iter_mut().for_each(|z| *z = [P::ZERO; MAX_ZC_SECTIONS]);");
         let _ = writeln!(s, "            self.probes.iter_mut().for_each(|w| *w = 0);\n        }}\n");
         let mut shunt_arms = String::new();
         let mut broken_arms = String::new();
