@@ -130,20 +130,17 @@ pub fn realised_zc(net: &ZcNetwork, z_p_milliohm: u32, bits: u32, f: f64, fs: f6
 /// profile's `frac` bits, as the core quantizes them (the whole delay apart).
 fn arrival_filter(loss: Option<&LineLoss>, frac: u32) -> impl Fn(f64) -> Complex64 {
     let sections = loss.map(|l| quantized(l, frac)).unwrap_or_default();
-    let lattice =
-        loss.and_then(|l| l.allpass).and_then(|ap| tidewire_core::quantize::allpass(ap.a, ap.c, frac)).map(|(a, c)| {
-            let one = (1u64 << frac) as f64;
-            (f64::from(a) / one, f64::from(c) / one)
-        });
+    // (a_q, a_q² + c_q²): the realised allpass, from the one quantization the core uses.
+    let lattice = loss.and_then(|l| l.allpass).map(|ap| super::fraction::quantized(ap, frac));
     move |w| {
         let z1 = Complex64::from_polar(1.0, -w);
         let mut h = Complex64::new(1.0, 0.0);
         for &(p, g, gb) in &sections {
             h *= (g - gb * z1) / (1.0 - p * z1);
         }
-        if let Some((ap, c)) = lattice {
+        if let Some((ap, k)) = lattice {
             // y = a·x + c·s, s' = c·x − a·s: Y/X = (a + (a² + c²)·z⁻¹)/(1 + a·z⁻¹).
-            h *= (ap + (ap * ap + c * c) * z1) / (1.0 + ap * z1);
+            h *= (ap + k * z1) / (1.0 + ap * z1);
         }
         h
     }
