@@ -105,8 +105,9 @@ fn step_response_is_within_two_percent_of_the_exact_reference() {
 /// (`Profile::loss_section`), so they add no DC error; the narrow profile's remaining offset
 /// comes from the rest of its 16-bit arithmetic. Measured 2 Dec 2026 at 300 us: narrow
 /// −0.073 % (−318 µV, 8 I/O codes; it was 80 mV, −82 %, before the DC-exact sections), wide
-/// −0.0006 %; both constant to the last bit over the last 50 us (the wide one follows the
-/// cable's slow tail until about 250 us, as the exact filter does).
+/// −0.0006 % with the constant port; with the Zc(s) networks (default since 3 Dec 2026) narrow
+/// −0.047 %, wide −0.0014 % and still rising by 3 µV over the last 50 us (the networks' slow
+/// tail, as the cable's skin effect has one).
 #[test]
 fn a_long_lossy_pair_settles_on_its_dc_point_in_both_profiles() {
     let text = r#"
@@ -146,7 +147,12 @@ node = "far"
         let (lo, hi) = tail.iter().fold((f64::INFINITY, f64::NEG_INFINITY), |(l, h), v| (l.min(*v), h.max(*v)));
         let last = *trace.last().unwrap();
         eprintln!("{profile:?}: far end {last} V, DC point {dc} V ({:+.4} %)", 100.0 * (last / dc - 1.0));
-        assert!(hi - lo <= c.volts_per_lsb() * 1.5, "{profile:?}: still moving over the last 50 us: {lo} .. {hi} V");
+        // Narrow: constant to the last bit. Wide: its Zc(s) networks (on by default) keep a
+        // slow tail as the cable's skin effect does (the slowest section's time constant is
+        // tens of microseconds at this run's band): measured 3.0 µV over the last 50 us,
+        // 7e-6 of the DC point; 1e-5 is allowed.
+        let moving = if profile == ProfileKind::Narrow { c.volts_per_lsb() * 1.5 } else { 1e-5 * dc };
+        assert!(hi - lo <= moving, "{profile:?}: still moving over the last 50 us: {lo} .. {hi} V");
         assert!((last / dc - 1.0).abs() < tol, "{profile:?}: far end {last} V against the DC point {dc} V");
     }
 }

@@ -11,6 +11,7 @@ use tidewire_host::reference::{exact_response, ExactOptions};
 use tidewire_host::twin::{run, run_with_zc, Recording};
 
 const WITH_ZC: CompileOptions = CompileOptions { zc_networks: true };
+const CONSTANT_PORT: CompileOptions = CompileOptions { zc_networks: false };
 
 /// One segment between a source and a load, both `r` ohms, probes at both ends.
 fn plant(cable: &str, length: &str, r: &str, rate: &str, rise: &str, duration: &str) -> String {
@@ -75,7 +76,7 @@ fn networks(c: &Compiled) -> Vec<&tidewire_host::compile::zc_enforce::Enforced> 
 /// compiled Zc networks (twin over the compiled network), and the least margin.
 fn report(name: &str, p: &Plant, c: &Compiled, exact: &[Vec<f64>]) -> (Vec<f64>, Vec<f64>, f64) {
     let n = c.samples;
-    let plain = worst(&run(&compile(p, "zc.toml", ProfileKind::Wide).unwrap(), n, &[]), exact);
+    let plain = worst(&run(&compile_with(p, "zc.toml", ProfileKind::Wide, CONSTANT_PORT).unwrap(), n, &[]), exact);
     let node = worst(&run(c, n, &[]), exact);
     let mut least = f64::INFINITY;
     for (run, e) in c.report.zc_runs.iter().zip(networks(c)) {
@@ -181,9 +182,40 @@ fn cat5e_100m_with_zc_is_within_two_percent_at_both_ends() {
         }
     }
     assert_eq!(series, c.report.zc_runs[0].lines.len() - 1);
+    // The default compile carries the networks; a compile with the option off keeps the
+    // constant port, and its `run_with_zc` is the twin of the networks all the same.
     let default = compile(&p, "zc.toml", ProfileKind::Wide).unwrap();
-    assert!(default.net.losses.iter().all(|l| l.zc.is_none()));
-    assert_eq!(run_with_zc(&default, c.samples).probes, run(&c, c.samples, &[]).probes);
+    assert_eq!(default.net, c.net);
+    let constant = compile_with(&p, "zc.toml", ProfileKind::Wide, CONSTANT_PORT).unwrap();
+    assert!(constant.net.losses.iter().all(|l| l.zc.is_none()));
+    assert_eq!(run_with_zc(&constant, c.samples).probes, run(&c, c.samples, &[]).probes);
+}
+
+#[test]
+fn the_core_runs_the_cat5e_case_within_two_percent_at_both_ends_in_both_profiles() {
+    // The must-show in fixed point: the default compile (Zc networks in the core's
+    // network) run by the core, against the exact reference, % of the 1 V step.
+    let text = plant("cat5e", "100 m", "100 ohm", "100 MHz", "40 ns", "4 us");
+    let p = parse_plant(&text, "zc.toml", Path::new(".")).unwrap();
+    let ex = exact_response(&p, &ExactOptions::for_plant(&p)).unwrap();
+    let exact: Vec<Vec<f64>> = ex.traces.iter().map(|t| t.values.clone()).collect();
+    for profile in [ProfileKind::Wide, ProfileKind::Narrow] {
+        // As `verify` runs it (the drive scaled to the I/O codes).
+        let c = tidewire_host::analysis::prepare(&p, "zc.toml", profile).unwrap().0;
+        assert!(c.net.losses.iter().any(|l| l.zc.is_some()), "{profile:?}: no network compiled");
+        let core = tidewire_host::host_core::run_core(&c, c.samples, &[], &|_| {}).unwrap();
+        let e: Vec<f64> = core
+            .recording
+            .probes
+            .iter()
+            .zip(&exact)
+            .map(|(m, x)| m.iter().zip(x).map(|(a, b)| (a - b).abs()).fold(0.0, f64::max))
+            .collect();
+        eprintln!("core {profile:?}: drive end {:.3} %, far end {:.3} % of the step", 100.0 * e[0], 100.0 * e[1]);
+        for (k, e) in e.iter().enumerate() {
+            assert!(*e < 0.02, "{profile:?} probe {k}: {e:.4} of the step");
+        }
+    }
 }
 
 #[test]
@@ -414,8 +446,8 @@ fn inspect_reports_each_cable_runs_network() {
     let run = &v["zc_runs"][0];
     assert_eq!(run["segment"], "weather-link");
     assert_eq!(run["network"], true);
-    // Off by default on this branch: the core does not run the networks yet.
-    assert_eq!(run["in_core_network"], false);
+    // On by default: the core runs the network.
+    assert_eq!(run["in_core_network"], true);
     assert!(run["refused_because"].is_null());
     let (m, e, e0) = (
         run["least_margin"].as_f64().unwrap(),

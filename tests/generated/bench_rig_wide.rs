@@ -80,6 +80,7 @@ pub mod specialised {
         chokes: [W; 0],
         lx: [W; 0],
         ly: [W; 0],
+        lr: [W; 0],
         aps: [W; 0],
         zcs: [[W; MAX_ZC_SECTIONS]; 0],
         zcc: [W; 0],
@@ -92,7 +93,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 1], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 1], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -166,6 +167,7 @@ pub mod specialised {
             self.chokes.iter_mut().for_each(|w| *w = P::ZERO);
             self.lx.iter_mut().for_each(|w| *w = P::ZERO);
             self.ly.iter_mut().for_each(|w| *w = P::ZERO);
+            self.lr.iter_mut().for_each(|w| *w = P::ZERO);
             self.aps.iter_mut().for_each(|w| *w = P::ZERO);
             self.zcc.iter_mut().for_each(|w| *w = P::ZERO);
             self.held.iter_mut().for_each(|w| *w = P::ZERO);

@@ -139,9 +139,6 @@ mod float {
         fn add(self, o: C) -> C {
             C::new(self.re + o.re, self.im + o.im)
         }
-        fn sub(self, o: C) -> C {
-            C::new(self.re - o.re, self.im - o.im)
-        }
         fn mul(self, o: C) -> C {
             C::new(self.re * o.re - self.im * o.im, self.re * o.im + self.im * o.re)
         }
@@ -171,13 +168,32 @@ mod float {
     }
 
     /// The realised line at `frac` bits, as numbers: loss sections (a, g, gb), the allpass
-    /// (a, a² + c²) and the Zc sections (k, ρ), all over 2^frac.
+    /// (a, a² + c², 1 − a² − c²) and the Zc sections (k, ρ), all over 2^frac.
     pub(super) struct Realised {
         loss: [(f64, f64, f64); MAX_LOSS_SECTIONS],
         n_loss: usize,
-        allpass: Option<(f64, f64)>,
+        allpass: Option<(f64, f64, f64)>,
         zc: [(f64, f64); MAX_ZC_SECTIONS],
         n_zc: usize,
+    }
+
+    /// The line's arrival filter H (loss sections and allpass, without the delay) at one
+    /// frequency, in the form the margin needs without cancellation near DC: 1 − |H|², |H|²
+    /// and arg H (forming 1 − A from A ≈ 1 loses every digit below ω ≈ 1e−8, where the
+    /// DC-exact sections make |H| = 1 at DC).
+    #[derive(Debug, Clone, Copy)]
+    pub(super) struct Arrival {
+        loss: f64,
+        mag2: f64,
+        phase: f64,
+    }
+
+    impl Arrival {
+        /// Cascade one more factor of 1 − |F|² = `l`, |F|² = `m`, arg F = `p`:
+        /// 1 − |H·F|² = (1 − |H|²) + |H|²·(1 − |F|²), no difference of near-equal terms.
+        fn then(self, l: f64, m: f64, p: f64) -> Arrival {
+            Arrival { loss: self.loss + self.mag2 * l, mag2: self.mag2 * m, phase: self.phase + p }
+        }
     }
 
     impl Realised {
@@ -193,33 +209,70 @@ mod float {
             let allpass = match ll.allpass {
                 Some(ap) => {
                     let (a, c) = crate::quantize::allpass(ap.a, ap.c, frac)?;
+                    // 1 − a² − c² from the integers (exact in i128; a² + c² <= one² is a
+                    // load check), so a lossless allpass has exactly 0 there.
+                    let (ai, ci) = (i128::from(a), i128::from(c));
+                    let one2 = 1i128.checked_shl(frac.checked_mul(2)?)?;
+                    let rest = one2.checked_sub(ai.checked_mul(ai)?.checked_add(ci.checked_mul(ci)?)?)?;
                     let (a, c) = (f64::from(a) / one, f64::from(c) / one);
-                    Some((a, a * a + c * c))
+                    Some((a, a * a + c * c, rest as f64 / (one * one)))
                 }
                 None => None,
             };
-            let n_zc = (zc.sections as usize).min(MAX_ZC_SECTIONS);
+            // The loader's range rule (`zc_ok`), so that a margin exists only for a network
+            // the loader takes: loss sections on the line, 1..=MAX_ZC_SECTIONS sections,
+            // 0 < k_q < one, ρ_q > 0, Σ ρ_q < one.
+            let n_zc = zc.sections as usize;
+            if n_loss == 0 || !(1..=MAX_ZC_SECTIONS).contains(&n_zc) {
+                return None;
+            }
             let mut zcs = [(0.0, 0.0); MAX_ZC_SECTIONS];
+            let mut sum = 0u64;
             for ((slot, k), rho) in zcs.iter_mut().zip(zc.k.iter()).zip(zc.rho.iter()).take(n_zc) {
                 let (k, rho) = crate::quantize::zc_section(*k, *rho, frac)?;
+                if k == 0 || f64::from(k) >= one || rho == 0 {
+                    return None;
+                }
+                sum = sum.saturating_add(u64::from(rho));
                 *slot = (f64::from(k) / one, f64::from(rho) / one);
+            }
+            if sum as f64 >= one {
+                return None;
             }
             Some(Realised { loss, n_loss, allpass, zc: zcs, n_zc })
         }
 
-        /// H(e^{jω}) (loss sections and allpass, without the delay) and Zc(e^{jω})/Z_p.
-        pub(super) fn at(&self, w: f64) -> (C, C) {
-            let z1 = C::unit(-w); // z^−1
-            let mut h = C::ONE;
+        /// H(e^{jω}) as an [`Arrival`] and Zc(e^{jω})/Z_p.
+        pub(super) fn at(&self, w: f64) -> (Arrival, C) {
+            // 1 − cos ω = 2·sin²(ω/2), exact in relative terms down to the smallest ω.
+            let s2 = {
+                let s = libm::sin(w / 2.0);
+                4.0 * s * s
+            };
+            let (sin, cos) = libm::sincos(w);
+            let mut h = Arrival { loss: 0.0, mag2: 1.0, phase: 0.0 };
             for &(a, g, gb) in self.loss.iter().take(self.n_loss) {
-                // y = g·x − gb·x[n−1] + a·y[n−1]: (g − gb·z⁻¹)/(1 − a·z⁻¹).
-                h = h.mul(C::new(g, 0.0).sub(z1.scale(gb)).div(C::ONE.sub(z1.scale(a))));
+                // y = g·x − gb·x[n−1] + a·y[n−1]: F = (g − gb·z⁻¹)/(1 − a·z⁻¹), so
+                // |den|² = (1 − a)² + a·s2, |num|² = (g − gb)² + g·gb·s2 and
+                // |den|² − |num|² = ((1 − a) − (g − gb))·((1 − a) + (g − gb)) + (a − g·gb)·s2,
+                // the first product exactly 0 for the DC-exact sections (g − gb = 1 − a).
+                let (da, dg) = (1.0 - a, g - gb);
+                let den = da * da + a * s2;
+                let num = dg * dg + g * gb * s2;
+                let l = ((da - dg) * (da + dg) + (a - g * gb) * s2) / den;
+                let p = libm::atan2(gb * sin, g - gb * cos) - libm::atan2(a * sin, 1.0 - a * cos);
+                h = h.then(l, num / den, p);
             }
-            if let Some((a, r2)) = self.allpass {
-                // y = a·x + c·s, s' = c·x − a·s: (a + (a² + c²)·z⁻¹)/(1 + a·z⁻¹).
-                h = h.mul(C::new(a, 0.0).add(z1.scale(r2)).div(C::ONE.add(z1.scale(a))));
+            if let Some((a, r2, rest)) = self.allpass {
+                // y = a·x + c·s, s' = c·x − a·s: F = (a + r2·z⁻¹)/(1 + a·z⁻¹), r2 = a² + c²;
+                // |den|² − |num|² = (1 − r2)·(1 + r2 + 2a·cos ω).
+                let den = 1.0 + a * a + 2.0 * a * cos;
+                let num = a * a + r2 * r2 + 2.0 * a * r2 * cos;
+                let l = rest * (1.0 + r2 + 2.0 * a * cos) / den;
+                let p = libm::atan2(-r2 * sin, a + r2 * cos) - libm::atan2(-a * sin, 1.0 + a * cos);
+                h = h.then(l, num / den, p);
             }
-            let z = z1.conj();
+            let z = C::unit(w);
             let mut zc = C::ONE;
             for &(k, rho) in self.zc.iter().take(self.n_zc) {
                 zc = zc.add(C::new(2.0 * k * rho, 0.0).div(z.add(C::new(1.0 - 2.0 * k, 0.0))));
@@ -230,9 +283,9 @@ mod float {
 
     /// The delay-independent lower bound of cos(arg Y) (see the module docs): >= 0 iff
     /// cos(arg Zc) >= 2h/(1 + h²).
-    pub(super) fn bound(h: C, zc: C) -> f64 {
-        let m2 = h.norm2();
-        let (sh, ch) = (2.0 * libm::sqrt(m2) / (1.0 + m2), (1.0 - m2) / (1.0 + m2));
+    pub(super) fn bound(h: Arrival, zc: C) -> f64 {
+        let m2 = h.mag2;
+        let (sh, ch) = (2.0 * libm::sqrt(m2) / (1.0 + m2), h.loss / (1.0 + m2));
         let n = zc.norm();
         let (cz, sz) = (zc.re / n, libm::fabs(zc.im) / n);
         let b = cz * ch - sz * sh;
@@ -243,12 +296,13 @@ mod float {
         }
     }
 
-    /// The least cos(arg Y) of both admittances at one frequency, with A = H·e^{−jωN}.
-    pub(super) fn exact(h: C, zc: C, w: f64, delay: u32) -> f64 {
-        let a = h.mul(C::unit(-w * f64::from(delay)));
-        let (p, m) = (C::ONE.add(a), C::ONE.sub(a));
-        let ye = m.mul(p.conj()).mul(zc.conj()).cos_arg();
-        let yo = p.mul(m.conj()).mul(zc.conj()).cos_arg();
+    /// The least cos(arg Y) of both admittances at one frequency, with A = H·e^{−jωN}:
+    /// Y_e ∝ ((1 − |A|²) − 2j·Im A)·conj(Zc) and Y_o ∝ ((1 − |A|²) + 2j·Im A)·conj(Zc)
+    /// (multiplying (1 ∓ A)/(1 ± A) by |1 ± A|² > 0 keeps the argument).
+    pub(super) fn exact(h: Arrival, zc: C, w: f64, delay: u32) -> f64 {
+        let im_a = libm::sqrt(h.mag2) * libm::sin(h.phase - w * f64::from(delay));
+        let ye = C::new(h.loss, -2.0 * im_a).mul(zc.conj()).cos_arg();
+        let yo = C::new(h.loss, 2.0 * im_a).mul(zc.conj()).cos_arg();
         // A = ±1 exactly (a lossless pole of one admittance) counts as passive there.
         match (ye.is_nan(), yo.is_nan()) {
             (true, true) => 1.0,
@@ -264,8 +318,10 @@ use float::{bound, exact, Realised};
 /// The least passivity margin of one line with the Zc network `ll.zc` at both ends, from
 /// the integers at `frac` bits: the quantized loss sections and allpass of `ll`, the whole
 /// delay `delay` and the quantized Zc coefficients (see the module docs for the grid and
-/// what is and is not proven). `None` for a line without a Zc network, coefficients that do
-/// not quantize, or a line that needs more than [`MAX_MARGIN_EVALUATIONS`].
+/// what is and is not proven). `None` for a line without a Zc network, a network outside the
+/// loader's ranges at `frac` bits (as `load` checks them: loss sections on the line, 0 < k <
+/// 1, ρ > 0, Σ ρ < 1), or a line that needs more than [`MAX_MARGIN_EVALUATIONS`]: `load`
+/// refuses each of these.
 ///
 /// Without the crate feature `zc-check` there is no floating point in the core and this
 /// returns `None` for every line: `load` then refuses every line with a Zc(s) network.

@@ -147,6 +147,7 @@ pub mod specialised {
         chokes: [W; 0],
         lx: [W; 0],
         ly: [W; 0],
+        lr: [W; 0],
         aps: [W; 22],
         zcs: [[W; MAX_ZC_SECTIONS]; 0],
         zcc: [W; 0],
@@ -159,7 +160,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 27], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], aps: [P::ZERO; 22], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 11], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 27], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 22], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 11], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -514,6 +515,7 @@ pub mod specialised {
             self.chokes.iter_mut().for_each(|w| *w = P::ZERO);
             self.lx.iter_mut().for_each(|w| *w = P::ZERO);
             self.ly.iter_mut().for_each(|w| *w = P::ZERO);
+            self.lr.iter_mut().for_each(|w| *w = P::ZERO);
             self.aps.iter_mut().for_each(|w| *w = P::ZERO);
             self.zcc.iter_mut().for_each(|w| *w = P::ZERO);
             self.held.iter_mut().for_each(|w| *w = P::ZERO);

@@ -87,7 +87,7 @@ pub fn verdict_text(plant: &Plant, c: &Compiled, v: &Verification) -> String {
         if let Some(z) = p.zc_model_error {
             let _ = writeln!(
                 s,
-                "   with Zc(s)       model with the compiler's passivity-enforced Zc networks (twin - exact) {} ({:.3} %): not yet run by the core (docs/zc-model.md)",
+                "   with Zc(s)       model with the compiler's passivity-enforced Zc networks (twin - exact) {} ({:.3} %): this compile kept the constant port (docs/zc-model.md)",
                 si(z, u),
                 pct(z)
             );
@@ -101,7 +101,16 @@ pub fn verdict_text(plant: &Plant, c: &Compiled, v: &Verification) -> String {
             t.arrival_samples,
             ok(p.pass_arrival)
         );
-        if p.final_check == crate::verify::FinalCheck::NonePeriodic {
+        if p.final_check == crate::verify::FinalCheck::Unsettled {
+            let _ = writeln!(
+                s,
+                "   final value      not judged: the exact reference is not yet within {:.2} % of its DC point at the end of the run (lengthen the duration to check it); core {}, exact {} ({:+.3} %)",
+                100.0 * t.final_error,
+                si(p.final_core, u),
+                si(p.final_expected, u),
+                pct(p.final_core - p.final_expected),
+            );
+        } else if p.final_check == crate::verify::FinalCheck::NonePeriodic {
             let _ = writeln!(
                 s,
                 "   final value      not checked: the drive is periodic (PWM) and never settles; core {}, exact {}",

@@ -6,23 +6,12 @@ use super::{err, Compiled, ProfileKind};
 use crate::plant::{Plant, PlantError, Span};
 use tidewire_core::{BuildError, Narrow, Profile, Wide};
 
-/// Run `tidewire_core::configure::check` for the compiled profile.
-///
-/// The core refuses `LineLoss::zc` until it runs Zc(s) networks, so a network compiled with
-/// them (`CompileOptions::zc_networks`) is checked with them set aside: the junctions with
-/// the lines' Z_p, the loss filters, but not the networks (their passivity is the
-/// compiler's, `zc_enforce.rs`). When the core takes them, check the network as it is.
+/// Run `tidewire_core::configure::check` for the compiled profile, on the network as it is
+/// emitted (Zc(s) networks included: their passivity margin is the loader's to check).
 pub(crate) fn check(c: &Compiled, plant: &Plant, file: &str) -> Result<(), PlantError> {
-    let mut net = c.net.clone();
-    if net.losses.iter().any(|l| l.zc.is_some()) {
-        net.losses.retain(|l| l.sections > 0 || l.allpass.is_some());
-        for l in net.losses.iter_mut() {
-            l.zc = None;
-        }
-    }
     let r = match c.profile {
-        ProfileKind::Wide => tidewire_core::configure::check::<Wide>(&net.network()),
-        ProfileKind::Narrow => tidewire_core::configure::check::<Narrow>(&net.network()),
+        ProfileKind::Wide => tidewire_core::configure::check::<Wide>(&c.net.network()),
+        ProfileKind::Narrow => tidewire_core::configure::check::<Narrow>(&c.net.network()),
     };
     r.map(|_| ()).map_err(|e| located(c, plant, file, e))
 }
@@ -44,6 +33,24 @@ fn place(c: &Compiled, plant: &Plant, junction: u16) -> (Span, String) {
 }
 
 fn located(c: &Compiled, plant: &Plant, file: &str, e: BuildError) -> PlantError {
+    let zc_line = match e {
+        BuildError::ZcNotPassive { line } | BuildError::ZcOnRigLine { line } => Some(line),
+        BuildError::BadZc { loss } => c.net.losses.get(loss as usize).map(|l| l.line),
+        _ => None,
+    };
+    if let Some(line) = zc_line {
+        // The compiler gates every Zc(s) network on the loader's own checks
+        // (`zc_enforce::core_accepts`), so this is a compiler fault: located at the segment.
+        let at = c.net.lines.get(line as usize).map(|l| place(c, plant, l.a));
+        let (span, field) = at.unwrap_or((Span::default(), "plant".to_string()));
+        return err(
+            file,
+            span,
+            field,
+            format!("the core refuses this cable run's Zc(s) network: {e}"),
+            "this is a compiler fault for a plant file that parsed: please report it with the plant file",
+        );
+    }
     let junction = match e {
         BuildError::CoefficientOutOfRange { junction } | BuildError::NotPassive { junction } => Some(junction),
         _ => None,

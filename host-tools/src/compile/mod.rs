@@ -171,10 +171,10 @@ pub fn compile_with(
     build(plant, file, profile, Some(opts))
 }
 
-/// Whether lossy lines carry their Zc(s) networks by default. Off until the core runs them
-/// (its loader refuses `LineLoss::zc` today); the f64 twin runs them either way
-/// (`twin::run_with_zc`).
-pub const ZC_NETWORKS_DEFAULT: bool = false;
+/// Whether lossy lines carry their Zc(s) networks by default: on. The core runs them in both
+/// profiles and checks each line's passivity margin at load (`docs/zc-model.md`); a compile
+/// with the option off keeps the constant port impedance (to compare, `twin::run_with_zc`).
+pub const ZC_NETWORKS_DEFAULT: bool = true;
 
 /// Choices of a compile that the plant file does not make.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]

@@ -23,7 +23,10 @@
 //! Gustavsen & Semlyen 2001 [memory], in a simple form): the sections' resistances R_i are
 //! scaled by factors λ_i in [0, 1] (time constants kept), Z_inf refitted by least squares,
 //! the network quantized as the core holds it, until the least margin over every line of the
-//! cable run, at Q30 and at the profile's LOSS_FRAC bits, is at least [`SAFETY`]. Two
+//! cable run, at Q30 and at the profile's LOSS_FRAC bits, is at least [`SAFETY`] and the core's
+//! own load-time check (`tidewire_core::configure::zc_passivity_margin`, the same condition
+//! as cos(arg Y) >= 0 on its grid) accepts every line, so the loader never refuses what the
+//! compiler emits. Two
 //! searches, the one with the smaller Zc error kept: (a) one common λ, bisected; (b) the
 //! slowest section's λ bisected alone, and where even 0 does not suffice, that section
 //! dropped and the next slowest bisected. At λ = 0 the network is the constant
@@ -82,18 +85,24 @@ pub struct LineView<'a> {
 
 /// Quantize Z_inf + sections (R_i, τ_i) at sample period `dt` to the core's network:
 /// k_i = r_i/(T/2C_i) rounded, ρ_i = r_i/Z_p rounded down (so Σ ρ_i < 1 holds), Z_p in mΩ.
-/// Sections whose ρ rounds to zero are dropped. `None` when nothing is left or a value is
-/// out of the core's range.
-pub fn realise(z_inf: f64, sections: &[(f64, f64)], dt: f64) -> Option<(ZcNetwork, u32)> {
+/// A section whose k or ρ the core would truncate to zero at its `frac` bits is dropped
+/// (and Z_p is the sum of what is kept: dropping one only raises the others' ρ). `None`
+/// when nothing is left or a value is out of the core's range.
+pub fn realise(z_inf: f64, sections: &[(f64, f64)], dt: f64, frac: u32) -> Option<(ZcNetwork, u32)> {
     let fit = ZcFit { z_inf, sections: sections.to_vec(), ..ZcFit::default() };
-    let waves = fit.wave_sections(dt);
-    let z_p = z_inf + waves.iter().map(|(r, _)| r).sum::<f64>();
-    let z_p_milliohm = super::to_milliohm(z_p)?;
     let one = (1u64 << 30) as f64;
+    // The least Q30 value that survives the core's truncation to `frac` bits.
+    let lsb = (1u64 << 30u32.saturating_sub(frac.min(30))) as f64;
+    let mut waves: Vec<(f64, f64)> = fit.wave_sections(dt).into_iter().filter(|(_, k)| (k * one).round() >= lsb).collect();
+    let z_p = |w: &[(f64, f64)]| z_inf + w.iter().map(|(r, _)| r).sum::<f64>();
+    let first = z_p(&waves);
+    waves.retain(|(r, _)| (r / first * one).floor() >= lsb);
+    let z_p = z_p(&waves);
+    let z_p_milliohm = super::to_milliohm(z_p)?;
     let mut net = ZcNetwork { sections: 0, k: [0; MAX_ZC_SECTIONS], rho: [0; MAX_ZC_SECTIONS] };
     for (r, k) in waves.into_iter().take(MAX_ZC_SECTIONS) {
         let (kq, rq) = ((k * one).round(), (r / z_p * one).floor());
-        if !(kq >= 1.0 && kq < one && rq >= 1.0 && rq < one) {
+        if !(kq >= lsb && kq < one && rq >= lsb && rq < one) {
             continue;
         }
         let i = net.sections as usize;
@@ -282,7 +291,7 @@ fn candidate(
     if !(z_inf.is_finite() && z_inf > 0.0) {
         return None;
     }
-    let (network, z_p_milliohm) = realise(z_inf, &sections, 1.0 / fs)?;
+    let (network, z_p_milliohm) = realise(z_inf, &sections, 1.0 / fs, frac)?;
     let max_rel_error = targets
         .iter()
         .map(|(f, t)| (realised_zc(&network, z_p_milliohm, 30, *f, fs) - t).norm() / t.norm())
@@ -306,21 +315,42 @@ pub fn enforce(cable: &CableType, fit: &ZcFit, lines: &[LineView<'_>], z0: f64, 
             distinct.push(l);
         }
     }
-    let lines: Vec<Response> = distinct.into_iter().map(|l| Response::of(l, fs, frac, &g, true)).collect();
-    let lines = &lines[..];
+    let responses: Vec<Response> = distinct.iter().map(|l| Response::of(l, fs, frac, &g, true)).collect();
+    let run = Run { views: &distinct, responses: &responses };
     let constant_error = targets.iter().map(|(_, t)| (z0 - t).norm() / t.norm()).fold(0.0, f64::max);
-    (constant_error, decide(fit, &targets, lines, constant_error, fs, frac))
+    (constant_error, decide(fit, &targets, &run, constant_error, fs, frac))
+}
+
+/// The distinct lines of a run: as the core's loader sees them, and their responses on the
+/// compiler's grid.
+struct Run<'a, 'b> {
+    views: &'a [&'a LineView<'b>],
+    responses: &'a [Response],
+}
+
+/// Whether the core's loader accepts `net` on every line of the run: its own margin
+/// (`tidewire_core::configure::zc_passivity_margin`, from the integers at `frac` bits) is
+/// >= 0 on each. The compiler's margin m >= [`SAFETY`] steers the search; this is the gate,
+/// so that nothing the compiler emits is refused at load (a line without loss sections
+/// cannot carry a network at all).
+fn core_accepts(net: &ZcNetwork, views: &[&LineView<'_>], frac: u32) -> bool {
+    views.iter().all(|v| {
+        let Some(loss) = v.loss else { return false };
+        let line = LineLoss { zc: Some(*net), ..*loss };
+        tidewire_core::configure::zc_passivity_margin(&line, v.delay, frac).is_some_and(|m| m.least >= 0.0)
+    })
 }
 
 fn decide(
     fit: &ZcFit,
     targets: &[(f64, Complex64)],
-    lines: &[Response],
+    run: &Run<'_, '_>,
     constant_error: f64,
     fs: f64,
     frac: u32,
 ) -> Decision {
-    let ok = |e: &Enforced| e.margin.0 >= SAFETY;
+    let lines = run.responses;
+    let ok = |e: &Enforced| e.margin.0 >= SAFETY && core_accepts(&e.network, run.views, frac);
     let n = fit.sections.len();
     let try_scales = |scales: &[f64]| candidate(fit, targets, scales, lines, fs, frac).filter(ok);
     // The largest value of one scale in [0, 1) that keeps the margin, the others as `set`
@@ -378,7 +408,7 @@ fn decide(
         },
         None => Decision::Refused {
             reason: format!(
-                "no scale of its RC sections keeps every line passive with a margin of {SAFETY} (the loss filters take out too little)"
+                "no scale of its RC sections keeps every line passive with a margin of {SAFETY} and passes the core's load-time check (the loss filters take out too little)"
             ),
             best: None,
         },
@@ -400,7 +430,7 @@ mod tests {
         // fitted function at s = j·(2/T)·tan(ωT/2) to the rounding of Z_p (1 mΩ).
         let fs = 100e6;
         let fit = ZcFit { z_inf: 100.0, sections: vec![(20.0, 50.0 / fs), (5.0, 3.0 / fs)], ..ZcFit::default() };
-        let (net, zp) = realise(fit.z_inf, &fit.sections, 1.0 / fs).unwrap();
+        let (net, zp) = realise(fit.z_inf, &fit.sections, 1.0 / fs, 30).unwrap();
         assert_eq!(net.sections, 2);
         for f in [1e3, 1e5, 1e6, 1e7, 4.9e7] {
             let (got, want) = (realised_zc(&net, zp, 30, f, fs), fit.at(f, fs));
@@ -416,7 +446,7 @@ mod tests {
         // No loss filter: |A| = 1, L = 0, so any Im Zc ≠ 0 makes the two-port active; a real
         // Zc leaves L = P = 0 everywhere (no margin to report, the lossless line is lossless).
         let fs = 100e6;
-        let (net, zp) = realise(100.0, &[(20.0, 50.0 / fs)], 1.0 / fs).unwrap();
+        let (net, zp) = realise(100.0, &[(20.0, 50.0 / fs)], 1.0 / fs, 30).unwrap();
         let line = LineView { delay: 10, loss: None };
         let (m, _) = line_margin(&|f| realised_zc(&net, zp, 30, f, fs), &line, fs, 30);
         assert!(m < -0.99, "{m}");

@@ -13,16 +13,16 @@ pub const MEMORY: usize = 133;
 pub const LOSS_ENDS: usize = 26;
 
 static LINES: [Line; 13] = [
-    Line { z_milliohm: 100000, delay: 7, a: 0, b: 9 },
-    Line { z_milliohm: 100000, delay: 6, a: 9, b: 8 },
-    Line { z_milliohm: 100000, delay: 9, a: 8, b: 10 },
-    Line { z_milliohm: 100000, delay: 8, a: 10, b: 1 },
+    Line { z_milliohm: 101780, delay: 7, a: 0, b: 9 },
+    Line { z_milliohm: 101780, delay: 6, a: 9, b: 8 },
+    Line { z_milliohm: 101780, delay: 9, a: 8, b: 10 },
+    Line { z_milliohm: 101780, delay: 8, a: 10, b: 1 },
     Line { z_milliohm: 75000, delay: 4, a: 1, b: 2 },
     Line { z_milliohm: 75000, delay: 3, a: 1, b: 3 },
-    Line { z_milliohm: 100000, delay: 2, a: 1, b: 12 },
-    Line { z_milliohm: 100000, delay: 2, a: 12, b: 11 },
-    Line { z_milliohm: 100000, delay: 2, a: 11, b: 13 },
-    Line { z_milliohm: 100000, delay: 3, a: 13, b: 4 },
+    Line { z_milliohm: 102121, delay: 2, a: 1, b: 12 },
+    Line { z_milliohm: 102121, delay: 2, a: 12, b: 11 },
+    Line { z_milliohm: 102121, delay: 2, a: 11, b: 13 },
+    Line { z_milliohm: 102121, delay: 3, a: 13, b: 4 },
     Line { z_milliohm: 75000, delay: 2, a: 4, b: 5 },
     Line { z_milliohm: 75000, delay: 5, a: 4, b: 6 },
     Line { z_milliohm: 75000, delay: 12, a: 1, b: 7 },
@@ -52,16 +52,16 @@ static ELEMENTS: [Element; 3] = [
 ];
 
 static LOSSES: [LineLoss; 13] = [
-    LineLoss { line: 0, sections: 6, poles: [1073063210, 1068151972, 1045606384, 957190173, 662711042, 49409566], zeros: [1073061007, 1068116179, 1045240711, 954320972, 644514472, 1982433], allpass: None, zc: None },
-    LineLoss { line: 1, sections: 6, poles: [1073066635, 1068202182, 1045930653, 958506458, 665433948, 49409566], zeros: [1073064767, 1068172048, 1045623879, 956096682, 650029565, 8600599], allpass: None, zc: None },
-    LineLoss { line: 2, sections: 6, poles: [1073054497, 1068023418, 1044774532, 953822186, 655852905, 49409566], zeros: [1073051391, 1067972055, 1044245103, 949679358, 630100584, -14967831], allpass: Some(Allpass { a: 292407199, c: 1033159975 }), zc: None },
-    LineLoss { line: 3, sections: 6, poles: [1073057945, 1068074421, 1045104787, 955157635, 658553366, 49409566], zeros: [1073055205, 1068029426, 1044642616, 951537312, 635870151, -8242194], allpass: None, zc: None },
+    LineLoss { line: 0, sections: 6, poles: [1073063210, 1068151972, 1045606384, 957190173, 662711042, 49409566], zeros: [1073061007, 1068116179, 1045240711, 954320972, 644514472, 1982433], allpass: None, zc: Some(ZcNetwork { sections: 4, k: [350794561, 953220089, 1055064486, 1071643500], rho: [11803151, 3869820, 1394682, 690029] }) },
+    LineLoss { line: 1, sections: 6, poles: [1073066635, 1068202182, 1045930653, 958506458, 665433948, 49409566], zeros: [1073064767, 1068172048, 1045623879, 956096682, 650029565, 8600599], allpass: None, zc: Some(ZcNetwork { sections: 4, k: [350794561, 953220089, 1055064486, 1071643500], rho: [11803151, 3869820, 1394682, 690029] }) },
+    LineLoss { line: 2, sections: 6, poles: [1073054497, 1068023418, 1044774532, 953822186, 655852905, 49409566], zeros: [1073051391, 1067972055, 1044245103, 949679358, 630100584, -14967831], allpass: Some(Allpass { a: 292407199, c: 1033159975 }), zc: Some(ZcNetwork { sections: 4, k: [350794561, 953220089, 1055064486, 1071643500], rho: [11803151, 3869820, 1394682, 690029] }) },
+    LineLoss { line: 3, sections: 6, poles: [1073057945, 1068074421, 1045104787, 955157635, 658553366, 49409566], zeros: [1073055205, 1068029426, 1044642616, 951537312, 635870151, -8242194], allpass: None, zc: Some(ZcNetwork { sections: 4, k: [350794561, 953220089, 1055064486, 1071643500], rho: [11803151, 3869820, 1394682, 690029] }) },
     LineLoss { line: 4, sections: 0, poles: [0, 0, 0, 0, 0, 0], zeros: [0, 0, 0, 0, 0, 0], allpass: Some(Allpass { a: -1855129, c: 1073740221 }), zc: None },
     LineLoss { line: 5, sections: 0, poles: [0, 0, 0, 0, 0, 0], zeros: [0, 0, 0, 0, 0, 0], allpass: Some(Allpass { a: 151573970, c: 1062989574 }), zc: None },
-    LineLoss { line: 6, sections: 6, poles: [1073080482, 1068403299, 1047225243, 963777413, 676577514, 49409566], zeros: [1073079866, 1068393652, 1047128429, 963013198, 671532559, 35141854], allpass: None, zc: None },
-    LineLoss { line: 7, sections: 6, poles: [1073080482, 1068403299, 1047225243, 963777413, 676577514, 49409566], zeros: [1073079866, 1068393652, 1047128429, 963013198, 671532559, 35141854], allpass: None, zc: None },
-    LineLoss { line: 8, sections: 6, poles: [1073076719, 1068348956, 1046876216, 962354190, 673530783, 49409566], zeros: [1073075779, 1068334105, 1046726589, 961174717, 665812435, 27963866], allpass: Some(Allpass { a: -93082853, c: 1069699531 }), zc: None },
-    LineLoss { line: 9, sections: 6, poles: [1073076719, 1068348956, 1046876216, 962354190, 673530783, 49409566], zeros: [1073075779, 1068334105, 1046726589, 961174717, 665812435, 27963866], allpass: None, zc: None },
+    LineLoss { line: 6, sections: 6, poles: [1073080482, 1068403299, 1047225243, 963777413, 676577514, 49409566], zeros: [1073079866, 1068393652, 1047128429, 963013198, 671532559, 35141854], allpass: None, zc: Some(ZcNetwork { sections: 4, k: [350794561, 953220089, 1055064486, 1071643500], rho: [10534600, 3453909, 1244788, 704095] }) },
+    LineLoss { line: 7, sections: 6, poles: [1073080482, 1068403299, 1047225243, 963777413, 676577514, 49409566], zeros: [1073079866, 1068393652, 1047128429, 963013198, 671532559, 35141854], allpass: None, zc: Some(ZcNetwork { sections: 4, k: [350794561, 953220089, 1055064486, 1071643500], rho: [10534600, 3453909, 1244788, 704095] }) },
+    LineLoss { line: 8, sections: 6, poles: [1073076719, 1068348956, 1046876216, 962354190, 673530783, 49409566], zeros: [1073075779, 1068334105, 1046726589, 961174717, 665812435, 27963866], allpass: Some(Allpass { a: -93082853, c: 1069699531 }), zc: Some(ZcNetwork { sections: 4, k: [350794561, 953220089, 1055064486, 1071643500], rho: [10534600, 3453909, 1244788, 704095] }) },
+    LineLoss { line: 9, sections: 6, poles: [1073076719, 1068348956, 1046876216, 962354190, 673530783, 49409566], zeros: [1073075779, 1068334105, 1046726589, 961174717, 665812435, 27963866], allpass: None, zc: Some(ZcNetwork { sections: 4, k: [350794561, 953220089, 1055064486, 1071643500], rho: [10534600, 3453909, 1244788, 704095] }) },
     LineLoss { line: 10, sections: 0, poles: [0, 0, 0, 0, 0, 0], zeros: [0, 0, 0, 0, 0, 0], allpass: Some(Allpass { a: 45505324, c: 1072777129 }), zc: None },
     LineLoss { line: 11, sections: 0, poles: [0, 0, 0, 0, 0, 0], zeros: [0, 0, 0, 0, 0, 0], allpass: Some(Allpass { a: -121136521, c: 1066886801 }), zc: None },
     LineLoss { line: 12, sections: 0, poles: [0, 0, 0, 0, 0, 0], zeros: [0, 0, 0, 0, 0, 0], allpass: Some(Allpass { a: 349702027, c: 1015199486 }), zc: None },
@@ -83,7 +83,7 @@ pub static NETWORK: Network<'static> = Network {
     drive: Drive::Source { junction: 0, milliohm: 50000 },
     probes: &PROBES,
     io_shift: 0,
-    volts_per_code: 0.00023884913,
+    volts_per_code: 0.0002721563,
 };
 
 /// The plant-specialised solver of this plant (narrow profile): the generic solver's
@@ -107,7 +107,7 @@ pub mod specialised {
     const INITIAL_NODES: [NodeCoef; 3] = [
         NodeCoef { recip: 0, shift: 0, total: 3579, short: true, broken: false, open: false, hold: 0 },
         NodeCoef { recip: 37501, shift: 11, total: 3579, short: false, broken: false, open: true, hold: 0 },
-        NodeCoef { recip: 50006, shift: 12, total: 5368, short: false, broken: false, open: false, hold: 0 },
+        NodeCoef { recip: 51072, shift: 12, total: 5256, short: false, broken: false, open: false, hold: 0 },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -120,8 +120,8 @@ pub mod specialised {
         ly: [W; 96],
         lr: [W; 96],
         aps: [W; 14],
-        zcs: [[W; MAX_ZC_SECTIONS]; 0],
-        zcc: [W; 0],
+        zcs: [[W; MAX_ZC_SECTIONS]; 16],
+        zcc: [W; 16],
         held: [W; 9],
         hist: [W; HIST],
         probes: [i32; PROBES],
@@ -131,7 +131,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 29], chokes: [P::ZERO; 1], lx: [P::ZERO; 96], ly: [P::ZERO; 96], lr: [P::ZERO; 96], aps: [P::ZERO; 14], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 9], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 29], chokes: [P::ZERO; 1], lx: [P::ZERO; 96], ly: [P::ZERO; 96], lr: [P::ZERO; 96], aps: [P::ZERO; 14], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 16], zcc: [P::ZERO; 16], held: [P::ZERO; 9], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -148,19 +148,22 @@ pub mod specialised {
             let e: W = P::from_code(input, IO_SHIFT);
             let b0: W = self.b[0];
             // junction 0: node of 1 port(s), fixed
-            let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[2684u32], &mut o, e, 5368u32, 33337u32, 12u32, 8052u64); o };
-            self.mem[(n.wrapping_add(110) & MASK) as usize] = a0;
+            let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[2637u32], &mut o, e, 5368u32, 33533u32, 12u32, 8005u64); o };
+            let line0 = P::zc_post(a0, b0, self.zcc[0], &mut self.zcs[0], &[-5680, 12704, 15814, 16318], &[180, 59, 21, 10], 4);
+            self.mem[(n.wrapping_add(110) & MASK) as usize] = line0;
             let b1: W = self.b[1];
             let b2: W = self.b[2];
             let b3: W = self.b[3];
             let b4: W = self.b[4];
             let b5: W = self.b[5];
             // junction 1: node of 5 port(s), fixed
-            let [a1, a2, a3, a4, a5] = { let mut o = [P::ZERO; 5]; P::node_scatter(&[b1, b2, b3, b4, b5], &[2684u32, 3579u32, 3579u32, 2684u32, 3579u32], &mut o, e, 0u32, 33335u32, 13u32, 16105u64); o };
-            self.mem[(n.wrapping_add(136) & MASK) as usize] = a1;
+            let [a1, a2, a3, a4, a5] = { let mut o = [P::ZERO; 5]; P::node_scatter(&[b1, b2, b3, b4, b5], &[2637u32, 3579u32, 3579u32, 2628u32, 3579u32], &mut o, e, 0u32, 33550u32, 13u32, 16002u64); o };
+            let line1 = P::zc_post(a1, b1, self.zcc[7], &mut self.zcs[7], &[-5680, 12704, 15814, 16318], &[180, 59, 21, 10], 4);
+            self.mem[(n.wrapping_add(136) & MASK) as usize] = line1;
             self.mem[(n.wrapping_add(46) & MASK) as usize] = a2;
             self.mem[(n.wrapping_add(50) & MASK) as usize] = a3;
-            self.mem[(n.wrapping_add(145) & MASK) as usize] = a4;
+            let line4 = P::zc_post(a4, b4, self.zcc[8], &mut self.zcs[8], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
+            self.mem[(n.wrapping_add(145) & MASK) as usize] = line4;
             self.mem[(n.wrapping_add(85) & MASK) as usize] = a5;
             let b6: W = self.b[6];
             // junction 2: node of 1 port(s), switched by the plant's events
@@ -178,8 +181,9 @@ pub mod specialised {
             let b9: W = self.b[9];
             let b10: W = self.b[10];
             // junction 4: node of 3 port(s), fixed
-            let [a8, a9, a10] = { let mut o = [self.held[2], self.held[3], self.held[4]]; P::node_scatter_held(&[b8, b9, b10], &[2684u32, 3579u32, 3579u32], &mut o, e, 0u32, 34518u32, 13u32, 15553u64, 4u32); o };
-            self.mem[(n.wrapping_add(155) & MASK) as usize] = a8;
+            let [a8, a9, a10] = { let mut o = [self.held[2], self.held[3], self.held[4]]; P::node_scatter_held(&[b8, b9, b10], &[2628u32, 3579u32, 3579u32], &mut o, e, 0u32, 34643u32, 13u32, 15497u64, 4u32); o };
+            let line8 = P::zc_post(a8, b8, self.zcc[15], &mut self.zcs[15], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
+            self.mem[(n.wrapping_add(155) & MASK) as usize] = line8;
             self.held[2] = a8;
             self.mem[(n.wrapping_add(66) & MASK) as usize] = a9;
             self.held[3] = a9;
@@ -210,44 +214,56 @@ pub mod specialised {
             self.held[6] = a16;
             let b17: W = self.b[17];
             let b18: W = self.b[18];
-            // junction 8: series inductor, c = 1436, rho = 6753
-            let (a17, a18, s0) = P::series_l(b17, b18, self.chokes[0], 1436u32, 6753u32);
+            // junction 8: series inductor, c = 1457, rho = 6732
+            let (a17, a18, s0) = P::series_l(b17, b18, self.chokes[0], 1457u32, 6732u32);
             self.chokes[0] = s0;
-            self.mem[(n.wrapping_add(117) & MASK) as usize] = a17;
-            self.mem[(n.wrapping_add(127) & MASK) as usize] = a18;
+            let line17 = P::zc_post(a17, b17, self.zcc[3], &mut self.zcs[3], &[-5680, 12704, 15814, 16318], &[180, 59, 21, 10], 4);
+            self.mem[(n.wrapping_add(117) & MASK) as usize] = line17;
+            let line18 = P::zc_post(a18, b18, self.zcc[4], &mut self.zcs[4], &[-5680, 12704, 15814, 16318], &[180, 59, 21, 10], 4);
+            self.mem[(n.wrapping_add(127) & MASK) as usize] = line18;
             let b19: W = self.b[19];
             let b20: W = self.b[20];
-            // junction 9: series resistor, c = 16221
-            let (a19, a20) = P::series(b19, b20, 16221u32);
-            self.mem[(n.wrapping_add(7) & MASK) as usize] = a19;
-            self.mem[(n.wrapping_add(92) & MASK) as usize] = a20;
+            // junction 9: series resistor, c = 16224
+            let (a19, a20) = P::series(b19, b20, 16224u32);
+            let line19 = P::zc_post(a19, b19, self.zcc[1], &mut self.zcs[1], &[-5680, 12704, 15814, 16318], &[180, 59, 21, 10], 4);
+            self.mem[(n.wrapping_add(7) & MASK) as usize] = line19;
+            let line20 = P::zc_post(a20, b20, self.zcc[2], &mut self.zcs[2], &[-5680, 12704, 15814, 16318], &[180, 59, 21, 10], 4);
+            self.mem[(n.wrapping_add(92) & MASK) as usize] = line20;
             let b21: W = self.b[21];
             let b22: W = self.b[22];
-            // junction 10: series resistor, c = 16157
-            let (a21, a22) = P::series(b21, b22, 16157u32);
-            self.mem[(n.wrapping_add(102) & MASK) as usize] = a21;
-            self.mem[(n.wrapping_add(16) & MASK) as usize] = a22;
+            // junction 10: series resistor, c = 16161
+            let (a21, a22) = P::series(b21, b22, 16161u32);
+            let line21 = P::zc_post(a21, b21, self.zcc[5], &mut self.zcs[5], &[-5680, 12704, 15814, 16318], &[180, 59, 21, 10], 4);
+            self.mem[(n.wrapping_add(102) & MASK) as usize] = line21;
+            let line22 = P::zc_post(a22, b22, self.zcc[6], &mut self.zcs[6], &[-5680, 12704, 15814, 16318], &[180, 59, 21, 10], 4);
+            self.mem[(n.wrapping_add(16) & MASK) as usize] = line22;
             let b23: W = self.b[23];
             let b24: W = self.b[24];
             // junction 11: node of 2 port(s), switched by the plant's events
             let c = self.nodes[2];
-            let [a23, a24] = if c.scatters() { { let mut o = [self.held[7], self.held[8]]; P::node_scatter_held(&[b23, b24], &[2684u32, 2684u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b23, b24] } else { [P::neg(b23), P::neg(b24)] };
-            self.mem[(n.wrapping_add(148) & MASK) as usize] = a23;
+            let [a23, a24] = if c.scatters() { { let mut o = [self.held[7], self.held[8]]; P::node_scatter_held(&[b23, b24], &[2628u32, 2628u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b23, b24] } else { [P::neg(b23), P::neg(b24)] };
+            let line23 = P::zc_post(a23, b23, self.zcc[11], &mut self.zcs[11], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
+            self.mem[(n.wrapping_add(148) & MASK) as usize] = line23;
             self.held[7] = a23;
-            self.mem[(n.wrapping_add(151) & MASK) as usize] = a24;
+            let line24 = P::zc_post(a24, b24, self.zcc[12], &mut self.zcs[12], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
+            self.mem[(n.wrapping_add(151) & MASK) as usize] = line24;
             self.held[8] = a24;
             let b25: W = self.b[25];
             let b26: W = self.b[26];
-            // junction 12: series resistor, c = 16331
-            let (a25, a26) = P::series(b25, b26, 16331u32);
-            self.mem[(n.wrapping_add(28) & MASK) as usize] = a25;
-            self.mem[(n.wrapping_add(139) & MASK) as usize] = a26;
+            // junction 12: series resistor, c = 16332
+            let (a25, a26) = P::series(b25, b26, 16332u32);
+            let line25 = P::zc_post(a25, b25, self.zcc[9], &mut self.zcs[9], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
+            self.mem[(n.wrapping_add(28) & MASK) as usize] = line25;
+            let line26 = P::zc_post(a26, b26, self.zcc[10], &mut self.zcs[10], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
+            self.mem[(n.wrapping_add(139) & MASK) as usize] = line26;
             let b27: W = self.b[27];
             let b28: W = self.b[28];
-            // junction 13: series resistor, c = 16305
-            let (a27, a28) = P::series(b27, b28, 16305u32);
-            self.mem[(n.wrapping_add(142) & MASK) as usize] = a27;
-            self.mem[(n.wrapping_add(54) & MASK) as usize] = a28;
+            // junction 13: series resistor, c = 16307
+            let (a27, a28) = P::series(b27, b28, 16307u32);
+            let line27 = P::zc_post(a27, b27, self.zcc[13], &mut self.zcs[13], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
+            self.mem[(n.wrapping_add(142) & MASK) as usize] = line27;
+            let line28 = P::zc_post(a28, b28, self.zcc[14], &mut self.zcs[14], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
+            self.mem[(n.wrapping_add(54) & MASK) as usize] = line28;
             self.probes[0] = P::sum(a0, b0);
             self.probes[1] = P::sum(a1, b1);
             self.probes[2] = P::sum(a15, b15);
@@ -284,6 +300,9 @@ pub mod specialised {
             self.ly[5] = y;
             self.lr[5] = r;
             x = y;
+            let (c, bp) = P::zc_pre(x, &self.zcs[0], &[5352, 14544, 16099, 16351], 4);
+            self.zcc[0] = c;
+            x = bp;
             self.b[0] = x;
             let mut x: W = self.mem[(n.wrapping_add(104) & MASK) as usize];
             let (y, r) = P::loss_section(x, self.lx[6], self.ly[6], self.lr[6], 16331u32, 16321i32, 16374u32);
@@ -316,6 +335,9 @@ pub mod specialised {
             self.ly[11] = y;
             self.lr[11] = r;
             x = y;
+            let (c, bp) = P::zc_pre(x, &self.zcs[1], &[5352, 14544, 16099, 16351], 4);
+            self.zcc[1] = c;
+            x = bp;
             self.b[19] = x;
             let mut x: W = self.mem[(n.wrapping_add(112) & MASK) as usize];
             let (y, r) = P::loss_section(x, self.lx[12], self.ly[12], self.lr[12], 16339u32, 16329i32, 16374u32);
@@ -348,6 +370,9 @@ pub mod specialised {
             self.ly[17] = y;
             self.lr[17] = r;
             x = y;
+            let (c, bp) = P::zc_pre(x, &self.zcs[2], &[5352, 14544, 16099, 16351], 4);
+            self.zcc[2] = c;
+            x = bp;
             self.b[20] = x;
             let mut x: W = self.mem[(n.wrapping_add(87) & MASK) as usize];
             let (y, r) = P::loss_section(x, self.lx[18], self.ly[18], self.lr[18], 16339u32, 16329i32, 16374u32);
@@ -380,6 +405,9 @@ pub mod specialised {
             self.ly[23] = y;
             self.lr[23] = r;
             x = y;
+            let (c, bp) = P::zc_pre(x, &self.zcs[3], &[5352, 14544, 16099, 16351], 4);
+            self.zcc[3] = c;
+            x = bp;
             self.b[17] = x;
             let mut x: W = self.mem[(n.wrapping_add(94) & MASK) as usize];
             let (y, r) = P::loss_section(x, self.lx[24], self.ly[24], self.lr[24], 16310u32, 16300i32, 16374u32);
@@ -415,6 +443,9 @@ pub mod specialised {
             let (y, s_next) = P::allpass(x, self.aps[0], 4461i32, 15764u32);
             self.aps[0] = s_next;
             x = y;
+            let (c, bp) = P::zc_pre(x, &self.zcs[4], &[5352, 14544, 16099, 16351], 4);
+            self.zcc[4] = c;
+            x = bp;
             self.b[18] = x;
             let mut x: W = self.mem[(n.wrapping_add(119) & MASK) as usize];
             let (y, r) = P::loss_section(x, self.lx[30], self.ly[30], self.lr[30], 16310u32, 16300i32, 16374u32);
@@ -450,6 +481,9 @@ pub mod specialised {
             let (y, s_next) = P::allpass(x, self.aps[1], 4461i32, 15764u32);
             self.aps[1] = s_next;
             x = y;
+            let (c, bp) = P::zc_pre(x, &self.zcs[5], &[5352, 14544, 16099, 16351], 4);
+            self.zcc[5] = c;
+            x = bp;
             self.b[21] = x;
             let mut x: W = self.mem[(n.wrapping_add(129) & MASK) as usize];
             let (y, r) = P::loss_section(x, self.lx[36], self.ly[36], self.lr[36], 16319u32, 16309i32, 16374u32);
@@ -482,6 +516,9 @@ pub mod specialised {
             self.ly[41] = y;
             self.lr[41] = r;
             x = y;
+            let (c, bp) = P::zc_pre(x, &self.zcs[6], &[5352, 14544, 16099, 16351], 4);
+            self.zcc[6] = c;
+            x = bp;
             self.b[22] = x;
             let mut x: W = self.mem[(n.wrapping_add(9) & MASK) as usize];
             let (y, r) = P::loss_section(x, self.lx[42], self.ly[42], self.lr[42], 16319u32, 16309i32, 16374u32);
@@ -514,6 +551,9 @@ pub mod specialised {
             self.ly[47] = y;
             self.lr[47] = r;
             x = y;
+            let (c, bp) = P::zc_pre(x, &self.zcs[7], &[5352, 14544, 16099, 16351], 4);
+            self.zcc[7] = c;
+            x = bp;
             self.b[1] = x;
             let mut x: W = self.mem[(n.wrapping_add(18) & MASK) as usize];
             let (y, s_next) = P::allpass(x, self.aps[2], -28i32, 16383u32);
@@ -566,6 +606,9 @@ pub mod specialised {
             self.ly[53] = y;
             self.lr[53] = r;
             x = y;
+            let (c, bp) = P::zc_pre(x, &self.zcs[8], &[5352, 14544, 16099, 16351], 4);
+            self.zcc[8] = c;
+            x = bp;
             self.b[4] = x;
             let mut x: W = self.mem[(n.wrapping_add(144) & MASK) as usize];
             let (y, r) = P::loss_section(x, self.lx[54], self.ly[54], self.lr[54], 16369u32, 16359i32, 16374u32);
@@ -598,6 +641,9 @@ pub mod specialised {
             self.ly[59] = y;
             self.lr[59] = r;
             x = y;
+            let (c, bp) = P::zc_pre(x, &self.zcs[9], &[5352, 14544, 16099, 16351], 4);
+            self.zcc[9] = c;
+            x = bp;
             self.b[25] = x;
             let mut x: W = self.mem[(n.wrapping_add(147) & MASK) as usize];
             let (y, r) = P::loss_section(x, self.lx[60], self.ly[60], self.lr[60], 16369u32, 16359i32, 16374u32);
@@ -630,6 +676,9 @@ pub mod specialised {
             self.ly[65] = y;
             self.lr[65] = r;
             x = y;
+            let (c, bp) = P::zc_pre(x, &self.zcs[10], &[5352, 14544, 16099, 16351], 4);
+            self.zcc[10] = c;
+            x = bp;
             self.b[26] = x;
             let mut x: W = self.mem[(n.wrapping_add(138) & MASK) as usize];
             let (y, r) = P::loss_section(x, self.lx[66], self.ly[66], self.lr[66], 16369u32, 16359i32, 16374u32);
@@ -662,6 +711,9 @@ pub mod specialised {
             self.ly[71] = y;
             self.lr[71] = r;
             x = y;
+            let (c, bp) = P::zc_pre(x, &self.zcs[11], &[5352, 14544, 16099, 16351], 4);
+            self.zcc[11] = c;
+            x = bp;
             self.b[23] = x;
             let mut x: W = self.mem[(n.wrapping_add(141) & MASK) as usize];
             let (y, r) = P::loss_section(x, self.lx[72], self.ly[72], self.lr[72], 16361u32, 16351i32, 16374u32);
@@ -697,6 +749,9 @@ pub mod specialised {
             let (y, s_next) = P::allpass(x, self.aps[6], -1420i32, 16322u32);
             self.aps[6] = s_next;
             x = y;
+            let (c, bp) = P::zc_pre(x, &self.zcs[12], &[5352, 14544, 16099, 16351], 4);
+            self.zcc[12] = c;
+            x = bp;
             self.b[24] = x;
             let mut x: W = self.mem[(n.wrapping_add(150) & MASK) as usize];
             let (y, r) = P::loss_section(x, self.lx[78], self.ly[78], self.lr[78], 16361u32, 16351i32, 16374u32);
@@ -732,6 +787,9 @@ pub mod specialised {
             let (y, s_next) = P::allpass(x, self.aps[7], -1420i32, 16322u32);
             self.aps[7] = s_next;
             x = y;
+            let (c, bp) = P::zc_pre(x, &self.zcs[13], &[5352, 14544, 16099, 16351], 4);
+            self.zcc[13] = c;
+            x = bp;
             self.b[27] = x;
             let mut x: W = self.mem[(n.wrapping_add(153) & MASK) as usize];
             let (y, r) = P::loss_section(x, self.lx[84], self.ly[84], self.lr[84], 16361u32, 16351i32, 16374u32);
@@ -764,6 +822,9 @@ pub mod specialised {
             self.ly[89] = y;
             self.lr[89] = r;
             x = y;
+            let (c, bp) = P::zc_pre(x, &self.zcs[14], &[5352, 14544, 16099, 16351], 4);
+            self.zcc[14] = c;
+            x = bp;
             self.b[28] = x;
             let mut x: W = self.mem[(n.wrapping_add(52) & MASK) as usize];
             let (y, r) = P::loss_section(x, self.lx[90], self.ly[90], self.lr[90], 16361u32, 16351i32, 16374u32);
@@ -796,6 +857,9 @@ pub mod specialised {
             self.ly[95] = y;
             self.lr[95] = r;
             x = y;
+            let (c, bp) = P::zc_pre(x, &self.zcs[15], &[5352, 14544, 16099, 16351], 4);
+            self.zcc[15] = c;
+            x = bp;
             self.b[8] = x;
             let mut x: W = self.mem[(n.wrapping_add(56) & MASK) as usize];
             let (y, s_next) = P::allpass(x, self.aps[8], 694i32, 16369u32);
@@ -870,7 +934,7 @@ pub mod specialised {
                     Ok(())
                 }
                 11 => {
-                    self.nodes[2] = node_coefficients::<P>(junction, 0, 5368, 2684, EXPONENT, self.nodes[2], shunt)?;
+                    self.nodes[2] = node_coefficients::<P>(junction, 0, 5256, 2628, EXPONENT, self.nodes[2], shunt)?;
                     Ok(())
                 }
                 0 | 1 | 4 | 5 | 6 | 7 => Err(ConfigError::FixedNode { junction }),

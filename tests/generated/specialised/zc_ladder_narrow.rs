@@ -87,6 +87,7 @@ pub mod specialised {
         chokes: [W; 0],
         lx: [W; 6],
         ly: [W; 6],
+        lr: [W; 6],
         aps: [W; 2],
         zcs: [[W; MAX_ZC_SECTIONS]; 6],
         zcc: [W; 6],
@@ -99,7 +100,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 0], lx: [P::ZERO; 6], ly: [P::ZERO; 6], aps: [P::ZERO; 2], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 6], zcc: [P::ZERO; 6], held: [P::ZERO; 5], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 0], lx: [P::ZERO; 6], ly: [P::ZERO; 6], lr: [P::ZERO; 6], aps: [P::ZERO; 2], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 6], zcc: [P::ZERO; 6], held: [P::ZERO; 5], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -160,45 +161,50 @@ pub mod specialised {
             self.probes[4] = P::sum(a7, b7);
             let output = P::to_code(P::sum(a0, b0), IO_SHIFT);
             let mut x: W = self.mem[(n.wrapping_add(1) & MASK) as usize];
-            let (y, _r) = P::loss_section(x, self.lx[0], self.ly[0], P::ZERO, 5461u32, -2730i32, 8192u32);
+            let (y, r) = P::loss_section(x, self.lx[0], self.ly[0], self.lr[0], 5461u32, -2731i32, 8192u32);
             self.lx[0] = x;
             self.ly[0] = y;
+            self.lr[0] = r;
             x = y;
             let (c, bp) = P::zc_pre(x, &self.zcs[0], &[8192, 11468, 0, 0], 2);
             self.zcc[0] = c;
             x = bp;
             self.b[0] = x;
             let mut x: W = self.mem[(n.wrapping_add(8) & MASK) as usize];
-            let (y, _r) = P::loss_section(x, self.lx[1], self.ly[1], P::ZERO, 5461u32, -2730i32, 8192u32);
+            let (y, r) = P::loss_section(x, self.lx[1], self.ly[1], self.lr[1], 5461u32, -2731i32, 8192u32);
             self.lx[1] = x;
             self.ly[1] = y;
+            self.lr[1] = r;
             x = y;
             let (c, bp) = P::zc_pre(x, &self.zcs[1], &[8192, 11468, 0, 0], 2);
             self.zcc[1] = c;
             x = bp;
             self.b[1] = x;
             let mut x: W = self.mem[(n.wrapping_add(15) & MASK) as usize];
-            let (y, _r) = P::loss_section(x, self.lx[2], self.ly[2], P::ZERO, 5461u32, -2730i32, 8192u32);
+            let (y, r) = P::loss_section(x, self.lx[2], self.ly[2], self.lr[2], 5461u32, -2731i32, 8192u32);
             self.lx[2] = x;
             self.ly[2] = y;
+            self.lr[2] = r;
             x = y;
             let (c, bp) = P::zc_pre(x, &self.zcs[2], &[8192, 11468, 0, 0], 2);
             self.zcc[2] = c;
             x = bp;
             self.b[2] = x;
             let mut x: W = self.mem[(n.wrapping_add(17) & MASK) as usize];
-            let (y, _r) = P::loss_section(x, self.lx[3], self.ly[3], P::ZERO, 5461u32, -2730i32, 8192u32);
+            let (y, r) = P::loss_section(x, self.lx[3], self.ly[3], self.lr[3], 5461u32, -2731i32, 8192u32);
             self.lx[3] = x;
             self.ly[3] = y;
+            self.lr[3] = r;
             x = y;
             let (c, bp) = P::zc_pre(x, &self.zcs[3], &[8192, 11468, 0, 0], 2);
             self.zcc[3] = c;
             x = bp;
             self.b[3] = x;
             let mut x: W = self.mem[(n.wrapping_add(19) & MASK) as usize];
-            let (y, _r) = P::loss_section(x, self.lx[4], self.ly[4], P::ZERO, 5461u32, -2730i32, 8192u32);
+            let (y, r) = P::loss_section(x, self.lx[4], self.ly[4], self.lr[4], 5461u32, -2731i32, 8192u32);
             self.lx[4] = x;
             self.ly[4] = y;
+            self.lr[4] = r;
             x = y;
             let (y, s_next) = P::allpass(x, self.aps[0], 2340i32, 16215u32);
             self.aps[0] = s_next;
@@ -208,9 +214,10 @@ pub mod specialised {
             x = bp;
             self.b[4] = x;
             let mut x: W = self.mem[(n.wrapping_add(34) & MASK) as usize];
-            let (y, _r) = P::loss_section(x, self.lx[5], self.ly[5], P::ZERO, 5461u32, -2730i32, 8192u32);
+            let (y, r) = P::loss_section(x, self.lx[5], self.ly[5], self.lr[5], 5461u32, -2731i32, 8192u32);
             self.lx[5] = x;
             self.ly[5] = y;
+            self.lr[5] = r;
             x = y;
             let (y, s_next) = P::allpass(x, self.aps[1], 2340i32, 16215u32);
             self.aps[1] = s_next;
@@ -242,6 +249,7 @@ pub mod specialised {
             self.chokes.iter_mut().for_each(|w| *w = P::ZERO);
             self.lx.iter_mut().for_each(|w| *w = P::ZERO);
             self.ly.iter_mut().for_each(|w| *w = P::ZERO);
+            self.lr.iter_mut().for_each(|w| *w = P::ZERO);
             self.aps.iter_mut().for_each(|w| *w = P::ZERO);
             self.zcc.iter_mut().for_each(|w| *w = P::ZERO);
             self.held.iter_mut().for_each(|w| *w = P::ZERO);
