@@ -79,6 +79,15 @@ fn time_steps<S: PlantStep>(syst: &mut SYST, solver: &mut S, seed: u32) -> u32 {
     t
 }
 
+/// `Solver::new()`, out of line: the solver is built through the return slot in the caller's
+/// frame, and the temporaries LLVM makes for it (on the M0 a second copy of the loss records,
+/// 2.2 KB for p34_narrow) live in this frame only while it runs, not in `run_plant`'s under
+/// the image loader's (together they overflowed the M0's 16 KB of RAM).
+#[inline(never)]
+fn fresh<P: Profile, const PO: usize, const J: usize, const M: usize, const L: usize>() -> Solver<P, PO, J, M, L> {
+    Solver::new()
+}
+
 /// `Solver::load`, out of line: its temporaries (on the M0 several KB) live in this frame
 /// only while loading, not in `run_plant`'s for the whole run.
 #[inline(never)]
@@ -109,7 +118,7 @@ pub fn run_plant<P: Profile, const PO: usize, const J: usize, const M: usize, co
     image: &[u8],
 ) -> bool {
     // On the stack: the frame is given back before the next plant runs.
-    let mut solver: Solver<P, PO, J, M, L> = Solver::new();
+    let mut solver: Solver<P, PO, J, M, L> = fresh();
     out.str("RAM")
         .word(profile)
         .word(name)
