@@ -93,7 +93,8 @@ pub fn realise(z_inf: f64, sections: &[(f64, f64)], dt: f64, frac: u32) -> Optio
     let one = (1u64 << 30) as f64;
     // The least Q30 value that survives the core's truncation to `frac` bits.
     let lsb = (1u64 << 30u32.saturating_sub(frac.min(30))) as f64;
-    let mut waves: Vec<(f64, f64)> = fit.wave_sections(dt).into_iter().filter(|(_, k)| (k * one).round() >= lsb).collect();
+    let mut waves: Vec<(f64, f64)> =
+        fit.wave_sections(dt).into_iter().filter(|(_, k)| (k * one).round() >= lsb).collect();
     let z_p = |w: &[(f64, f64)]| z_inf + w.iter().map(|(r, _)| r).sum::<f64>();
     let first = z_p(&waves);
     waves.retain(|(r, _)| (r / first * one).floor() >= lsb);
@@ -330,7 +331,7 @@ struct Run<'a, 'b> {
 
 /// Whether the core's loader accepts `net` on every line of the run: its own margin
 /// (`tidewire_core::configure::zc_passivity_margin`, from the integers at `frac` bits) is
-/// >= 0 on each. The compiler's margin m >= [`SAFETY`] steers the search; this is the gate,
+/// at least 0 on each. The compiler's margin m >= [`SAFETY`] steers the search; this is the gate,
 /// so that nothing the compiler emits is refused at load (a line without loss sections
 /// cannot carry a network at all).
 fn core_accepts(net: &ZcNetwork, views: &[&LineView<'_>], frac: u32) -> bool {

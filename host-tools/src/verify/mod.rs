@@ -240,9 +240,7 @@ pub fn verify(
             FinalCheck::NonePeriodic => FinalCheck::NonePeriodic,
             _ if exact_len < n => FinalCheck::TwinEnd,
             FinalCheck::DcPoint => match (p.kind, &dc) {
-                (ProbeKind::Voltage(node), Some(dc))
-                    if (exact_end - dc[node]).abs() > tol.final_error * norm =>
-                {
+                (ProbeKind::Voltage(node), Some(dc)) if (exact_end - dc[node]).abs() > tol.final_error * norm => {
                     FinalCheck::Unsettled
                 }
                 _ => FinalCheck::DcPoint,
