@@ -47,6 +47,7 @@ fn plant(length: f64, load: Load, events: Vec<(f64, EventAction)>) -> Plant {
         tolerances: Tolerances::default(),
         events: events.into_iter().map(|(at, action)| Event { at, action, span: Span::default() }).collect(),
         lattice_path: vec![],
+        zc_networks: true,
     }
 }
 

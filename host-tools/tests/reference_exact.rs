@@ -42,6 +42,7 @@ fn one_line(c: CableType, length: f64, emf: Waveform, rs: f64, load: Load, rate:
         tolerances: Tolerances::default(),
         events: vec![],
         lattice_path: vec![],
+        zc_networks: true,
     }
 }
 

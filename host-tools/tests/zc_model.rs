@@ -457,3 +457,22 @@ fn inspect_reports_each_cable_runs_network() {
     assert!(m >= SAFETY && e < e0, "{run}");
     assert_eq!(v["zc_passivity_margin"]["margin"].as_f64(), Some(m));
 }
+
+#[test]
+fn a_plant_file_can_keep_the_constant_port_and_a_wrong_choice_is_located() {
+    // `[plant] characteristic_impedance = "constant"`: the compile a core without its
+    // zc-check feature can load (no LineLoss::zc anywhere, lines at Z0).
+    let text = plant("cat5e", "100 m", "100 ohm", "100 MHz", "40 ns", "4 us");
+    let fitted = parse_plant(&text, "zc.toml", Path::new(".")).unwrap();
+    assert!(compile(&fitted, "zc.toml", ProfileKind::Wide).unwrap().net.losses.iter().any(|l| l.zc.is_some()));
+    let with = |choice: &str| {
+        text.replace("duration = \"4 us\"", &format!("duration = \"4 us\"\ncharacteristic_impedance = \"{choice}\""))
+    };
+    let p = parse_plant(&with("constant"), "zc.toml", Path::new(".")).unwrap();
+    let c = compile(&p, "zc.toml", ProfileKind::Wide).unwrap();
+    assert!(c.net.losses.iter().all(|l| l.zc.is_none()));
+    assert!(c.report.zc_runs.iter().all(|r| !r.compiled));
+    let e = parse_plant(&with("sqrt"), "zc.toml", Path::new(".")).unwrap_err();
+    assert_eq!((e.line, e.field.as_str()), (6, "plant.characteristic_impedance"), "{e:?}");
+    assert!(e.message.contains("sqrt") && e.hint.contains("constant"), "{e:?}");
+}

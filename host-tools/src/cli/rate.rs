@@ -178,6 +178,12 @@ fn real_time(plant: &Plant, file: &str, part: &RigPart, form: Form) -> Result<i3
     let fs = plant.sample_rate;
     println!("== {} on {} ==", plant.name, part.name);
     println!("   part: {}; {} KiB RAM, {} KiB flash", part.description, part.ram / 1024, part.flash / 1024);
+    let zc_runs = own.report.zc_runs.iter().filter(|r| r.compiled).count();
+    if !part.zc_check && zc_runs > 0 {
+        println!(
+            "   note: this part's core is built without its zc-check feature, so its loader refuses the Zc(s) networks of {zc_runs} cable run(s); set [plant] characteristic_impedance = \"constant\" to run the plant there (figures below are with the networks)"
+        );
+    }
     println!(
         "   form: {} ({}); instruction counts from docs/firmware-figures.json",
         form.name(),

@@ -158,7 +158,7 @@ pub(crate) fn err(
 /// scale is one volt per code with no fraction bits until `crate::analysis::analyse` sets
 /// it; use `crate::analysis::prepare` for a configuration ready to load.
 pub fn compile(plant: &Plant, file: &str, profile: ProfileKind) -> Result<Compiled, PlantError> {
-    compile_with(plant, file, profile, CompileOptions::default())
+    compile_with(plant, file, profile, CompileOptions::for_plant(plant))
 }
 
 /// [`compile`] with explicit [`CompileOptions`].
@@ -182,6 +182,13 @@ pub struct CompileOptions {
     /// Give every cable run that gets an enforced Zc(s) network (`zc_enforce.rs`) that
     /// network at every end of its lines (`LineLoss::zc`), with Z_p as the lines' impedance.
     pub zc_networks: bool,
+}
+
+impl CompileOptions {
+    /// The plant file's choices (`[plant] characteristic_impedance`).
+    pub fn for_plant(plant: &Plant) -> Self {
+        CompileOptions { zc_networks: plant.zc_networks }
+    }
 }
 
 impl Default for CompileOptions {

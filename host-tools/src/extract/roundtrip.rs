@@ -82,6 +82,7 @@ pub fn model_plant(frame: &Frame, lines: &[Run], load: EndLoad) -> Plant {
         drive: Drive::Source { node: 0, emf: frame.emf.clone(), rs: frame.rs },
         probes: vec![Probe { name: "port".into(), kind: ProbeKind::Voltage(0) }],
         tolerances: Tolerances::default(),
+        zc_networks: crate::compile::ZC_NETWORKS_DEFAULT,
         events: vec![],
         lattice_path: vec![],
     }

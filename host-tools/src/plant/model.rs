@@ -310,6 +310,10 @@ pub struct Plant {
     pub sample_rate: f64,
     /// How long `simulate`/`verify` run by default, seconds.
     pub duration: f64,
+    /// Whether lossy cable runs get their Zc(s) networks (`[plant] characteristic_impedance =
+    /// "fitted"`, the default) or keep a constant port impedance (`"constant"`: for a core
+    /// built without its `zc-check` feature, whose loader refuses the networks).
+    pub zc_networks: bool,
     pub cables: Vec<CableType>,
     pub nodes: Vec<Node>,
     pub segments: Vec<Segment>,

@@ -308,6 +308,7 @@ mod tests {
             tolerances: Tolerances::default(),
             events: vec![],
             lattice_path: vec![],
+            zc_networks: true,
         }
     }
 

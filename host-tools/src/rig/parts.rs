@@ -44,6 +44,10 @@ pub struct RigPart {
     pub firmware_flash: Option<usize>,
     /// Where that figure comes from.
     pub firmware_source: &'static str,
+    /// Whether the part's firmware builds the core with its `zc-check` feature (the load-time
+    /// passivity check of Zc(s) networks, soft-float f64 code): without it `load` refuses
+    /// every plant that carries a network.
+    pub zc_check: bool,
 }
 
 impl RigPart {
@@ -71,6 +75,8 @@ pub const RIG_PARTS: [RigPart; 3] = [
         cost: 0,
         firmware_flash: None,
         firmware_source: "no rig firmware for this part",
+        // examples/firmware builds the M0 without it: its flash cannot hold the soft-float code.
+        zc_check: false,
     },
     RigPart {
         name: "m4",
@@ -83,6 +89,7 @@ pub const RIG_PARTS: [RigPart; 3] = [
         // llvm-size of examples/rig (release, 2026-12-02): text 63 964 + data 151 992 bytes.
         firmware_flash: Some(63_964 + 151_992),
         firmware_source: "llvm-size examples/rig/target/thumbv7em-none-eabihf/release/tidewire-rig",
+        zc_check: true,
     },
     RigPart {
         name: "stm32f407",
@@ -95,6 +102,7 @@ pub const RIG_PARTS: [RigPart; 3] = [
         // llvm-size of examples/rig-board (release, 2026-12-02): text 62 128 + data 70 072 bytes.
         firmware_flash: Some(62_128 + 70_072),
         firmware_source: "llvm-size examples/rig-board/target/thumbv7em-none-eabihf/release/tidewire-rig-board",
+        zc_check: true,
     },
 ];
 

@@ -11,6 +11,8 @@
 //! sample_rate = "200 MHz"          # emulation rate, > 0
 //! duration = "20 us"               # default run length for simulate/verify, > 0
 //! notes = ["free text shown by inspect"]
+//! characteristic_impedance = "fitted"  # lossy cable: "fitted" Zc(s) networks (default) or
+//!                                  # "constant" port impedance (a core built without zc-check)
 //!
 //! [cable.trunk]                    # a named cable type
 //! preset = "twisted-pair-120"      # optional: start from a built-in preset, then override
@@ -129,6 +131,20 @@ pub fn parse_plant(text: &str, file_name: &str, base_dir: &Path) -> Result<Plant
         ));
     }
 
+    let zc_networks = match header.characteristic_impedance.as_ref() {
+        None => true,
+        Some(t) if t.get_ref() == "fitted" => true,
+        Some(t) if t.get_ref() == "constant" => false,
+        Some(t) => {
+            return Err(src.error(
+                t.span(),
+                "plant.characteristic_impedance",
+                format!("unknown choice \"{}\"", t.get_ref()),
+                "write \"fitted\" (Zc(s) networks on lossy cable runs, the default) or \"constant\" (a constant port impedance, for a core built without its zc-check feature)",
+            ))
+        }
+    };
+
     let mut cables = cables::Cables::read(&src, &raw.cable)?;
     let topo = topology::Topology::read(&src, &raw.node, &raw.segment, &mut cables)?;
 
@@ -156,6 +172,7 @@ pub fn parse_plant(text: &str, file_name: &str, base_dir: &Path) -> Result<Plant
         notes: header.notes.clone(),
         sample_rate,
         duration,
+        zc_networks,
         cables: cables.list,
         nodes: topo.nodes,
         segments: topo.segments,

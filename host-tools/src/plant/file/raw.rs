@@ -42,6 +42,8 @@ pub struct RawHeader {
     pub duration: Raw,
     #[serde(default)]
     pub notes: Vec<String>,
+    /// "fitted" (default) or "constant": whether lossy cable runs get Zc(s) networks.
+    pub characteristic_impedance: Option<Text>,
 }
 
 #[derive(Debug, Deserialize)]
