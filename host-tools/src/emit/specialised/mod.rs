@@ -1,7 +1,7 @@
 //! The plant-specialised solver: Rust source for one plant and profile, a type implementing
 //! `tidewire_core::PlantStep` with the coefficients as constants, the junction sequence
-//! unrolled (no dispatch), every ring addressed from one sample counter through a mask (no
-//! per-port cursors, no bounds check that can fail), and the same arithmetic as the generic
+//! unrolled (no dispatch), every ring addressed from one sample counter as a base and a
+//! constant offset (no per-port cursors, no bounds check that can fail; `layout`), and the same arithmetic as the generic
 //! `Solver`: the same `Profile` calls in the same order on the coefficients the core itself
 //! computed when it loaded the plant (`loaded`), so the two forms agree bit for bit.
 //!
@@ -105,6 +105,11 @@ pub fn specialised_source(
     Writer { l: &l, layout: &layout, profile, switched }.write()
 }
 
+/// The first statement of every read of the rings: the window of the coming sample. The
+/// `min` costs one compare per sample and lets the compiler prove every `mem[i + offset]` in
+/// bounds (i < SPAN, offset < SPAN, MEM = 2·SPAN): no bounds check that can fail.
+const WINDOW: &str = "let i = (self.i as usize).min(SPAN - 1);";
+
 struct Writer<'a> {
     l: &'a Loaded,
     layout: &'a Layout,
@@ -155,7 +160,7 @@ impl Writer<'_> {
     /// The expression of port p's arriving wave at the start of a sample (counter `n`).
     fn arrival(&self, p: usize) -> String {
         match self.layout.arrival.get(p) {
-            Some(Arrival::Memory { offset }) => format!("self.mem[(n.wrapping_add({offset}) & MASK) as usize]"),
+            Some(Arrival::Memory { offset }) => format!("self.mem[i + {offset}]"),
             Some(Arrival::State { slot }) => format!("self.b[{slot}]"),
             None => "P::ZERO".into(),
         }
@@ -203,9 +208,14 @@ impl Writer<'_> {
         let _ = writeln!(s, "    use tidewire_core::{{ConfigError, PlantStep, Profile, Shunt, MAX_ZC_SECTIONS}};\n");
         let _ = writeln!(s, "    type P = tidewire_core::{pname};");
         let _ = writeln!(s, "    type W = {wave};");
-        let _ = writeln!(s, "    /// Delay memory, waves (a power of two: every ring is addressed through `MASK`).");
-        let _ = writeln!(s, "    pub const MEM: usize = {};", self.layout.mem_len);
-        let _ = writeln!(s, "    const MASK: u32 = {};", self.layout.mem_len - 1);
+        let _ =
+            writeln!(s, "    /// The rings' span, waves: the window of one sample, and the period of its position.");
+        let _ = writeln!(s, "    pub const SPAN: usize = {};", self.layout.span);
+        let _ = writeln!(
+            s,
+            "    /// Delay memory, waves: two windows (the upper half holds the waves in flight at a wrap)."
+        );
+        let _ = writeln!(s, "    pub const MEM: usize = 2 * SPAN;");
         let _ = writeln!(s, "    const IO_SHIFT: u32 = {};", l.io_shift);
         let _ = writeln!(s, "    const EXPONENT: u32 = {};", l.exponent);
         let _ = writeln!(s, "    const PROBES: usize = {};", l.probes.len());
@@ -226,7 +236,11 @@ impl Writer<'_> {
             "    /// The plant's state: one delay memory, one sample counter, the states that outlive a sample."
         );
         let _ = writeln!(s, "    pub struct Plant {{");
-        let _ = writeln!(s, "        n: u32,\n        mem: [W; MEM],\n        b: [W; {}],", self.layout.states);
+        let _ = writeln!(
+            s,
+            "        n: u32,\n        i: u32,\n        mem: [W; MEM],\n        b: [W; {}],",
+            self.layout.states
+        );
         let _ = writeln!(
             s,
             "        chokes: [W; {n_chokes}],\n        lx: [W; {n_sections}],\n        ly: [W; {n_sections}],\n        lr: [W; {n_sections}],\n        aps: [W; {n_allpass}],\n        zcs: [[W; MAX_ZC_SECTIONS]; {n_zc}],\n        zcc: [W; {n_zc}],\n        held: [W; {n_held}],"
@@ -237,7 +251,7 @@ impl Writer<'_> {
         let _ = writeln!(s, "        pub const fn new() -> Self {{");
         let _ = writeln!(
             s,
-            "            Plant {{ n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; {}], chokes: [P::ZERO; {n_chokes}], lx: [P::ZERO; {n_sections}], ly: [P::ZERO; {n_sections}], lr: [P::ZERO; {n_sections}], aps: [P::ZERO; {n_allpass}], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; {n_zc}], zcc: [P::ZERO; {n_zc}], held: [P::ZERO; {n_held}], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }}",
+            "            Plant {{ n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; {}], chokes: [P::ZERO; {n_chokes}], lx: [P::ZERO; {n_sections}], ly: [P::ZERO; {n_sections}], lr: [P::ZERO; {n_sections}], aps: [P::ZERO; {n_allpass}], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; {n_zc}], zcc: [P::ZERO; {n_zc}], held: [P::ZERO; {n_held}], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }}",
             self.layout.states
         );
         let _ = writeln!(s, "        }}\n    }}\n");
@@ -272,10 +286,10 @@ impl Writer<'_> {
                         "            let line{p} = P::zc_post(a{p}, b{p}, self.zcc[{z}], &mut self.zcs[{z}], &{:?}, &{:?}, {});",
                         zp.pole, zp.rho, zp.sections
                     );
-                    let _ = writeln!(s, "            self.mem[(n.wrapping_add({w}) & MASK) as usize] = line{p};");
+                    let _ = writeln!(s, "            self.mem[i + {w}] = line{p};");
                 }
                 _ => {
-                    let _ = writeln!(s, "            self.mem[(n.wrapping_add({w}) & MASK) as usize] = a{p};");
+                    let _ = writeln!(s, "            self.mem[i + {w}] = a{p};");
                 }
             }
         }
@@ -285,7 +299,10 @@ impl Writer<'_> {
     fn step(&self, s: &mut String, slots: &[Option<usize>], held: &[Option<usize>]) -> Result<(), EmitError> {
         let l = self.l;
         let _ = writeln!(s, "        #[inline]\n        fn step(&mut self, input: i16) -> i16 {{");
-        let _ = writeln!(s, "            let n = self.n;\n            let e: W = P::from_code(input, IO_SHIFT);");
+        let _ = writeln!(
+            s,
+            "            let n = self.n;\n            {WINDOW}\n            let e: W = P::from_code(input, IO_SHIFT);"
+        );
         // The rig port's arriving wave goes into the latency history before any junction runs.
         if let DrivePlan::Rig { port, .. } = l.drive {
             let _ = writeln!(s, "            let b{port}: W = {};", self.arrival(port as usize));
@@ -366,7 +383,7 @@ impl Writer<'_> {
             else {
                 return Err(EmitError::Unsupported { what: "a loss filter on an element port".into(), junction: None });
             };
-            let _ = writeln!(s, "            let mut x: W = self.mem[(n.wrapping_add({}) & MASK) as usize];", r + 1);
+            let _ = writeln!(s, "            let mut x: W = self.mem[i + {}];", r + 1);
             for k in 0..lp.sections as usize {
                 let (g, gb, a) = (lp.g[k], lp.gb[k], lp.a[k]);
                 let _ = writeln!(
@@ -396,7 +413,14 @@ impl Writer<'_> {
             }
             let _ = writeln!(s, "            self.b[{slot}] = x;");
         }
-        let _ = writeln!(s, "            self.n = n.wrapping_add(1);\n            output\n        }}\n");
+        let _ = writeln!(s, "            self.n = n.wrapping_add(1);");
+        // The window moves up by one; at the end of the first half it wraps to 0 and the waves
+        // in flight move down with it (see `layout`): a branch on time, never on data.
+        let _ = writeln!(
+            s,
+            "            if i + 1 < SPAN {{\n                self.i = (i + 1) as u32;\n            }} else {{\n                self.mem.copy_within(SPAN..MEM, 0);\n                self.i = 0;\n            }}"
+        );
+        let _ = writeln!(s, "            output\n        }}\n");
         Ok(())
     }
 
@@ -406,7 +430,7 @@ impl Writer<'_> {
         let _ = writeln!(s, "        fn probe_count(&self) -> usize {{\n            PROBES\n        }}\n");
         let drive = match rig {
             Some((port, _)) => format!(
-                "let n = self.n;\n            let b: W = {};\n            P::to_code(P::sum(b, b), IO_SHIFT)",
+                "{WINDOW}\n            let b: W = {};\n            P::to_code(P::sum(b, b), IO_SHIFT)",
                 self.arrival(port as usize)
             ),
             None => "0".into(),
@@ -414,7 +438,7 @@ impl Writer<'_> {
         let _ = writeln!(s, "        fn rig_drive(&self) -> i16 {{\n            {drive}\n        }}\n");
         let _ = writeln!(s, "        fn reset(&mut self) {{");
         // In place: no temporary of the plant's size on the stack (a Cortex-M0 has little).
-        let _ = writeln!(s, "            self.n = 0;");
+        let _ = writeln!(s, "            self.n = 0;\n            self.i = 0;");
         for field in ["mem", "b", "chokes", "lx", "ly", "lr", "aps", "zcc", "held", "hist"] {
             let _ = writeln!(s, "            self.{field}.iter_mut().for_each(|w| *w = P::ZERO);");
         }
