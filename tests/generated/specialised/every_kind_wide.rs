@@ -97,9 +97,10 @@ pub mod specialised {
 
     type P = tidewire_core::Wide;
     type W = i32;
-    /// Delay memory, waves (a power of two: every ring is addressed through `MASK`).
-    pub const MEM: usize = 256;
-    const MASK: u32 = 255;
+    /// The rings' span, waves: the window of one sample, and the period of its position.
+    pub const SPAN: usize = 156;
+    /// Delay memory, waves: two windows (the upper half holds the waves in flight at a wrap).
+    pub const MEM: usize = 2 * SPAN;
     const IO_SHIFT: u32 = 12;
     const EXPONENT: u32 = 44;
     const PROBES: usize = 4;
@@ -113,6 +114,7 @@ pub mod specialised {
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
     pub struct Plant {
         n: u32,
+        i: u32,
         mem: [W; MEM],
         b: [W; 29],
         chokes: [W; 1],
@@ -131,7 +133,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 29], chokes: [P::ZERO; 1], lx: [P::ZERO; 96], ly: [P::ZERO; 96], lr: [P::ZERO; 96], aps: [P::ZERO; 14], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 16], zcc: [P::ZERO; 16], held: [P::ZERO; 9], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 29], chokes: [P::ZERO; 1], lx: [P::ZERO; 96], ly: [P::ZERO; 96], lr: [P::ZERO; 96], aps: [P::ZERO; 14], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 16], zcc: [P::ZERO; 16], held: [P::ZERO; 9], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -145,12 +147,13 @@ pub mod specialised {
         #[inline]
         fn step(&mut self, input: i16) -> i16 {
             let n = self.n;
+            let i = (self.i as usize).min(SPAN - 1);
             let e: W = P::from_code(input, IO_SHIFT);
             let b0: W = self.b[0];
             // junction 0: node of 1 port(s), fixed
             let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[172841819u32], &mut o, e, 351843720u32, 2197357119u32, 28u32, 524685539u64); o };
             let line0 = P::zc_post(a0, b0, self.zcc[0], &mut self.zcs[0], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
-            self.mem[(n.wrapping_add(110) & MASK) as usize] = line0;
+            self.mem[i + 110] = line0;
             let b1: W = self.b[1];
             let b2: W = self.b[2];
             let b3: W = self.b[3];
@@ -159,23 +162,23 @@ pub mod specialised {
             // junction 1: node of 5 port(s), fixed
             let [a1, a2, a3, a4, a5] = { let mut o = [P::ZERO; 5]; P::node_scatter(&[b1, b2, b3, b4, b5], &[172841819u32, 234562480u32, 234562480u32, 172200605u32, 234562480u32], &mut o, e, 0u32, 2198700626u32, 29u32, 1048729864u64); o };
             let line1 = P::zc_post(a1, b1, self.zcc[7], &mut self.zcs[7], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
-            self.mem[(n.wrapping_add(136) & MASK) as usize] = line1;
-            self.mem[(n.wrapping_add(46) & MASK) as usize] = a2;
-            self.mem[(n.wrapping_add(50) & MASK) as usize] = a3;
+            self.mem[i + 136] = line1;
+            self.mem[i + 46] = a2;
+            self.mem[i + 50] = a3;
             let line4 = P::zc_post(a4, b4, self.zcc[8], &mut self.zcs[8], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
-            self.mem[(n.wrapping_add(145) & MASK) as usize] = line4;
-            self.mem[(n.wrapping_add(85) & MASK) as usize] = a5;
+            self.mem[i + 145] = line4;
+            self.mem[i + 85] = a5;
             let b6: W = self.b[6];
             // junction 2: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
             let [a6] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b6], &[234562480u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b6] } else { [P::neg(b6)] };
-            self.mem[(n.wrapping_add(21) & MASK) as usize] = a6;
+            self.mem[i + 21] = a6;
             self.held[0] = a6;
             let b7: W = self.b[7];
             // junction 3: node of 1 port(s), switched by the plant's events
             let c = self.nodes[1];
             let [a7] = if c.scatters() { { let mut o = [self.held[1]]; P::node_scatter_held(&[b7], &[234562480u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b7] } else { [P::neg(b7)] };
-            self.mem[(n.wrapping_add(25) & MASK) as usize] = a7;
+            self.mem[i + 25] = a7;
             self.held[1] = a7;
             let b8: W = self.b[8];
             let b9: W = self.b[9];
@@ -183,31 +186,31 @@ pub mod specialised {
             // junction 4: node of 3 port(s), fixed
             let [a8, a9, a10] = { let mut o = [self.held[2], self.held[3], self.held[4]]; P::node_scatter_held(&[b8, b9, b10], &[172200605u32, 234562480u32, 234562480u32], &mut o, e, 0u32, 2270363147u32, 29u32, 1015627395u64, 4u32); o };
             let line8 = P::zc_post(a8, b8, self.zcc[15], &mut self.zcs[15], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
-            self.mem[(n.wrapping_add(155) & MASK) as usize] = line8;
+            self.mem[i + 155] = line8;
             self.held[2] = a8;
-            self.mem[(n.wrapping_add(66) & MASK) as usize] = a9;
+            self.mem[i + 66] = a9;
             self.held[3] = a9;
-            self.mem[(n.wrapping_add(72) & MASK) as usize] = a10;
+            self.mem[i + 72] = a10;
             self.held[4] = a10;
             let b11: W = self.b[11];
             let b12: W = self.b[12];
             // junction 5: node of 2 port(s), fixed
             let [a11, a12] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b11, b12], &[234562480u32, 351843720u32], &mut o, e, 0u32, 3932160009u32, 29u32, 586406200u64); o };
-            self.mem[(n.wrapping_add(57) & MASK) as usize] = a11;
+            self.mem[i + 57] = a11;
             let a12 = P::adapt(b12, a12, 1073741824u32, false);
             self.b[12] = a12;
             let b13: W = self.b[13];
             let b14: W = self.b[14];
             // junction 6: node of 2 port(s), fixed
             let [a13, a14] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b13, b14], &[234562480u32, 140737488u32], &mut o, e, 0u32, 3072000007u32, 28u32, 375299968u64); o };
-            self.mem[(n.wrapping_add(63) & MASK) as usize] = a13;
+            self.mem[i + 63] = a13;
             let a14 = P::adapt(b14, a14, 42949672u32, false);
             self.b[14] = a14;
             let b15: W = self.b[15];
             let b16: W = self.b[16];
             // junction 7: node of 2 port(s), fixed
             let [a15, a16] = { let mut o = [self.held[5], self.held[6]]; P::node_scatter_held(&[b15, b16], &[234562480u32, 774065474u32], &mut o, e, 0u32, 2246928236u32, 29u32, 1026220140u64, 115u32); o };
-            self.mem[(n.wrapping_add(41) & MASK) as usize] = a15;
+            self.mem[i + 41] = a15;
             self.held[5] = a15;
             let a16 = P::adapt(b16, a16, 1073741824u32, false);
             self.b[16] = a16;
@@ -218,58 +221,58 @@ pub mod specialised {
             let (a17, a18, s0) = P::series_l(b17, b18, self.chokes[0], 95542468u32, 441187638u32);
             self.chokes[0] = s0;
             let line17 = P::zc_post(a17, b17, self.zcc[3], &mut self.zcs[3], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
-            self.mem[(n.wrapping_add(117) & MASK) as usize] = line17;
+            self.mem[i + 117] = line17;
             let line18 = P::zc_post(a18, b18, self.zcc[4], &mut self.zcs[4], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
-            self.mem[(n.wrapping_add(127) & MASK) as usize] = line18;
+            self.mem[i + 127] = line18;
             let b19: W = self.b[19];
             let b20: W = self.b[20];
             // junction 9: series resistor, c = 1063295035
             let (a19, a20) = P::series(b19, b20, 1063295035u32);
             let line19 = P::zc_post(a19, b19, self.zcc[1], &mut self.zcs[1], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
-            self.mem[(n.wrapping_add(7) & MASK) as usize] = line19;
+            self.mem[i + 7] = line19;
             let line20 = P::zc_post(a20, b20, self.zcc[2], &mut self.zcs[2], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
-            self.mem[(n.wrapping_add(92) & MASK) as usize] = line20;
+            self.mem[i + 92] = line20;
             let b21: W = self.b[21];
             let b22: W = self.b[22];
             // junction 10: series resistor, c = 1059173017
             let (a21, a22) = P::series(b21, b22, 1059173017u32);
             let line21 = P::zc_post(a21, b21, self.zcc[5], &mut self.zcs[5], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
-            self.mem[(n.wrapping_add(102) & MASK) as usize] = line21;
+            self.mem[i + 102] = line21;
             let line22 = P::zc_post(a22, b22, self.zcc[6], &mut self.zcs[6], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
-            self.mem[(n.wrapping_add(16) & MASK) as usize] = line22;
+            self.mem[i + 16] = line22;
             let b23: W = self.b[23];
             let b24: W = self.b[24];
             // junction 11: node of 2 port(s), switched by the plant's events
             let c = self.nodes[2];
             let [a23, a24] = if c.scatters() { { let mut o = [self.held[7], self.held[8]]; P::node_scatter_held(&[b23, b24], &[172200605u32, 172200605u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b23, b24] } else { [P::neg(b23), P::neg(b24)] };
             let line23 = P::zc_post(a23, b23, self.zcc[11], &mut self.zcs[11], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
-            self.mem[(n.wrapping_add(148) & MASK) as usize] = line23;
+            self.mem[i + 148] = line23;
             self.held[7] = a23;
             let line24 = P::zc_post(a24, b24, self.zcc[12], &mut self.zcs[12], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
-            self.mem[(n.wrapping_add(151) & MASK) as usize] = line24;
+            self.mem[i + 151] = line24;
             self.held[8] = a24;
             let b25: W = self.b[25];
             let b26: W = self.b[26];
             // junction 12: series resistor, c = 1070389032
             let (a25, a26) = P::series(b25, b26, 1070389032u32);
             let line25 = P::zc_post(a25, b25, self.zcc[9], &mut self.zcs[9], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
-            self.mem[(n.wrapping_add(28) & MASK) as usize] = line25;
+            self.mem[i + 28] = line25;
             let line26 = P::zc_post(a26, b26, self.zcc[10], &mut self.zcs[10], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
-            self.mem[(n.wrapping_add(139) & MASK) as usize] = line26;
+            self.mem[i + 139] = line26;
             let b27: W = self.b[27];
             let b28: W = self.b[28];
             // junction 13: series resistor, c = 1068720477
             let (a27, a28) = P::series(b27, b28, 1068720477u32);
             let line27 = P::zc_post(a27, b27, self.zcc[13], &mut self.zcs[13], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
-            self.mem[(n.wrapping_add(142) & MASK) as usize] = line27;
+            self.mem[i + 142] = line27;
             let line28 = P::zc_post(a28, b28, self.zcc[14], &mut self.zcs[14], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
-            self.mem[(n.wrapping_add(54) & MASK) as usize] = line28;
+            self.mem[i + 54] = line28;
             self.probes[0] = P::sum(a0, b0);
             self.probes[1] = P::sum(a1, b1);
             self.probes[2] = P::sum(a15, b15);
             self.probes[3] = P::diff(a4, b4);
             let output = P::to_code(P::sum(a0, b0), IO_SHIFT);
-            let mut x: W = self.mem[(n.wrapping_add(1) & MASK) as usize];
+            let mut x: W = self.mem[i + 1];
             let (y, r) = P::loss_section(x, self.lx[0], self.ly[0], self.lr[0], 1070267391u32, 1069588777i32, 1073063210u32);
             self.lx[0] = x;
             self.ly[0] = y;
@@ -304,7 +307,7 @@ pub mod specialised {
             self.zcc[0] = c;
             x = bp;
             self.b[0] = x;
-            let mut x: W = self.mem[(n.wrapping_add(104) & MASK) as usize];
+            let mut x: W = self.mem[i + 104];
             let (y, r) = P::loss_section(x, self.lx[6], self.ly[6], self.lr[6], 1070267391u32, 1069588777i32, 1073063210u32);
             self.lx[6] = x;
             self.ly[6] = y;
@@ -339,7 +342,7 @@ pub mod specialised {
             self.zcc[1] = c;
             x = bp;
             self.b[19] = x;
-            let mut x: W = self.mem[(n.wrapping_add(112) & MASK) as usize];
+            let mut x: W = self.mem[i + 112];
             let (y, r) = P::loss_section(x, self.lx[12], self.ly[12], self.lr[12], 1070779371u32, 1070104182i32, 1073066635u32);
             self.lx[12] = x;
             self.ly[12] = y;
@@ -374,7 +377,7 @@ pub mod specialised {
             self.zcc[2] = c;
             x = bp;
             self.b[20] = x;
-            let mut x: W = self.mem[(n.wrapping_add(87) & MASK) as usize];
+            let mut x: W = self.mem[i + 87];
             let (y, r) = P::loss_section(x, self.lx[18], self.ly[18], self.lr[18], 1070779371u32, 1070104182i32, 1073066635u32);
             self.lx[18] = x;
             self.ly[18] = y;
@@ -409,7 +412,7 @@ pub mod specialised {
             self.zcc[3] = c;
             x = bp;
             self.b[17] = x;
-            let mut x: W = self.mem[(n.wrapping_add(94) & MASK) as usize];
+            let mut x: W = self.mem[i + 94];
             let (y, r) = P::loss_section(x, self.lx[24], self.ly[24], self.lr[24], 1068911461u32, 1068224134i32, 1073054497u32);
             self.lx[24] = x;
             self.ly[24] = y;
@@ -447,7 +450,7 @@ pub mod specialised {
             self.zcc[4] = c;
             x = bp;
             self.b[18] = x;
-            let mut x: W = self.mem[(n.wrapping_add(119) & MASK) as usize];
+            let mut x: W = self.mem[i + 119];
             let (y, r) = P::loss_section(x, self.lx[30], self.ly[30], self.lr[30], 1068911461u32, 1068224134i32, 1073054497u32);
             self.lx[30] = x;
             self.ly[30] = y;
@@ -485,7 +488,7 @@ pub mod specialised {
             self.zcc[5] = c;
             x = bp;
             self.b[21] = x;
-            let mut x: W = self.mem[(n.wrapping_add(129) & MASK) as usize];
+            let mut x: W = self.mem[i + 129];
             let (y, r) = P::loss_section(x, self.lx[36], self.ly[36], self.lr[36], 1069456984u32, 1068773105i32, 1073057945u32);
             self.lx[36] = x;
             self.ly[36] = y;
@@ -520,7 +523,7 @@ pub mod specialised {
             self.zcc[6] = c;
             x = bp;
             self.b[22] = x;
-            let mut x: W = self.mem[(n.wrapping_add(9) & MASK) as usize];
+            let mut x: W = self.mem[i + 9];
             let (y, r) = P::loss_section(x, self.lx[42], self.ly[42], self.lr[42], 1069456984u32, 1068773105i32, 1073057945u32);
             self.lx[42] = x;
             self.ly[42] = y;
@@ -555,27 +558,27 @@ pub mod specialised {
             self.zcc[7] = c;
             x = bp;
             self.b[1] = x;
-            let mut x: W = self.mem[(n.wrapping_add(18) & MASK) as usize];
+            let mut x: W = self.mem[i + 18];
             let (y, s_next) = P::allpass(x, self.aps[2], -1855129i32, 1073740221u32);
             self.aps[2] = s_next;
             x = y;
             self.b[2] = x;
-            let mut x: W = self.mem[(n.wrapping_add(43) & MASK) as usize];
+            let mut x: W = self.mem[i + 43];
             let (y, s_next) = P::allpass(x, self.aps[3], -1855129i32, 1073740221u32);
             self.aps[3] = s_next;
             x = y;
             self.b[6] = x;
-            let mut x: W = self.mem[(n.wrapping_add(23) & MASK) as usize];
+            let mut x: W = self.mem[i + 23];
             let (y, s_next) = P::allpass(x, self.aps[4], 151573970i32, 1062989574u32);
             self.aps[4] = s_next;
             x = y;
             self.b[3] = x;
-            let mut x: W = self.mem[(n.wrapping_add(48) & MASK) as usize];
+            let mut x: W = self.mem[i + 48];
             let (y, s_next) = P::allpass(x, self.aps[5], 151573970i32, 1062989574u32);
             self.aps[5] = s_next;
             x = y;
             self.b[7] = x;
-            let mut x: W = self.mem[(n.wrapping_add(27) & MASK) as usize];
+            let mut x: W = self.mem[i + 27];
             let (y, r) = P::loss_section(x, self.lx[48], self.ly[48], self.lr[48], 1072742629u32, 1072081287i32, 1073080482u32);
             self.lx[48] = x;
             self.ly[48] = y;
@@ -610,7 +613,7 @@ pub mod specialised {
             self.zcc[8] = c;
             x = bp;
             self.b[4] = x;
-            let mut x: W = self.mem[(n.wrapping_add(144) & MASK) as usize];
+            let mut x: W = self.mem[i + 144];
             let (y, r) = P::loss_section(x, self.lx[54], self.ly[54], self.lr[54], 1072742629u32, 1072081287i32, 1073080482u32);
             self.lx[54] = x;
             self.ly[54] = y;
@@ -645,7 +648,7 @@ pub mod specialised {
             self.zcc[9] = c;
             x = bp;
             self.b[25] = x;
-            let mut x: W = self.mem[(n.wrapping_add(147) & MASK) as usize];
+            let mut x: W = self.mem[i + 147];
             let (y, r) = P::loss_section(x, self.lx[60], self.ly[60], self.lr[60], 1072742629u32, 1072081287i32, 1073080482u32);
             self.lx[60] = x;
             self.ly[60] = y;
@@ -680,7 +683,7 @@ pub mod specialised {
             self.zcc[10] = c;
             x = bp;
             self.b[26] = x;
-            let mut x: W = self.mem[(n.wrapping_add(138) & MASK) as usize];
+            let mut x: W = self.mem[i + 138];
             let (y, r) = P::loss_section(x, self.lx[66], self.ly[66], self.lr[66], 1072742629u32, 1072081287i32, 1073080482u32);
             self.lx[66] = x;
             self.ly[66] = y;
@@ -715,7 +718,7 @@ pub mod specialised {
             self.zcc[11] = c;
             x = bp;
             self.b[23] = x;
-            let mut x: W = self.mem[(n.wrapping_add(141) & MASK) as usize];
+            let mut x: W = self.mem[i + 141];
             let (y, r) = P::loss_section(x, self.lx[72], self.ly[72], self.lr[72], 1072226435u32, 1071561330i32, 1073076719u32);
             self.lx[72] = x;
             self.ly[72] = y;
@@ -753,7 +756,7 @@ pub mod specialised {
             self.zcc[12] = c;
             x = bp;
             self.b[24] = x;
-            let mut x: W = self.mem[(n.wrapping_add(150) & MASK) as usize];
+            let mut x: W = self.mem[i + 150];
             let (y, r) = P::loss_section(x, self.lx[78], self.ly[78], self.lr[78], 1072226435u32, 1071561330i32, 1073076719u32);
             self.lx[78] = x;
             self.ly[78] = y;
@@ -791,7 +794,7 @@ pub mod specialised {
             self.zcc[13] = c;
             x = bp;
             self.b[27] = x;
-            let mut x: W = self.mem[(n.wrapping_add(153) & MASK) as usize];
+            let mut x: W = self.mem[i + 153];
             let (y, r) = P::loss_section(x, self.lx[84], self.ly[84], self.lr[84], 1072226435u32, 1071561330i32, 1073076719u32);
             self.lx[84] = x;
             self.ly[84] = y;
@@ -826,7 +829,7 @@ pub mod specialised {
             self.zcc[14] = c;
             x = bp;
             self.b[28] = x;
-            let mut x: W = self.mem[(n.wrapping_add(52) & MASK) as usize];
+            let mut x: W = self.mem[i + 52];
             let (y, r) = P::loss_section(x, self.lx[90], self.ly[90], self.lr[90], 1072226435u32, 1071561330i32, 1073076719u32);
             self.lx[90] = x;
             self.ly[90] = y;
@@ -861,37 +864,43 @@ pub mod specialised {
             self.zcc[15] = c;
             x = bp;
             self.b[8] = x;
-            let mut x: W = self.mem[(n.wrapping_add(56) & MASK) as usize];
+            let mut x: W = self.mem[i + 56];
             let (y, s_next) = P::allpass(x, self.aps[8], 45505324i32, 1072777129u32);
             self.aps[8] = s_next;
             x = y;
             self.b[9] = x;
-            let mut x: W = self.mem[(n.wrapping_add(65) & MASK) as usize];
+            let mut x: W = self.mem[i + 65];
             let (y, s_next) = P::allpass(x, self.aps[9], 45505324i32, 1072777129u32);
             self.aps[9] = s_next;
             x = y;
             self.b[11] = x;
-            let mut x: W = self.mem[(n.wrapping_add(59) & MASK) as usize];
+            let mut x: W = self.mem[i + 59];
             let (y, s_next) = P::allpass(x, self.aps[10], -121136521i32, 1066886801u32);
             self.aps[10] = s_next;
             x = y;
             self.b[10] = x;
-            let mut x: W = self.mem[(n.wrapping_add(68) & MASK) as usize];
+            let mut x: W = self.mem[i + 68];
             let (y, s_next) = P::allpass(x, self.aps[11], -121136521i32, 1066886801u32);
             self.aps[11] = s_next;
             x = y;
             self.b[13] = x;
-            let mut x: W = self.mem[(n.wrapping_add(30) & MASK) as usize];
+            let mut x: W = self.mem[i + 30];
             let (y, s_next) = P::allpass(x, self.aps[12], 349702027i32, 1015199486u32);
             self.aps[12] = s_next;
             x = y;
             self.b[5] = x;
-            let mut x: W = self.mem[(n.wrapping_add(74) & MASK) as usize];
+            let mut x: W = self.mem[i + 74];
             let (y, s_next) = P::allpass(x, self.aps[13], 349702027i32, 1015199486u32);
             self.aps[13] = s_next;
             x = y;
             self.b[15] = x;
             self.n = n.wrapping_add(1);
+            if i + 1 < SPAN {
+                self.i = (i + 1) as u32;
+            } else {
+                self.mem.copy_within(SPAN..MEM, 0);
+                self.i = 0;
+            }
             output
         }
 
@@ -909,6 +918,7 @@ pub mod specialised {
 
         fn reset(&mut self) {
             self.n = 0;
+            self.i = 0;
             self.mem.iter_mut().for_each(|w| *w = P::ZERO);
             self.b.iter_mut().for_each(|w| *w = P::ZERO);
             self.chokes.iter_mut().for_each(|w| *w = P::ZERO);
