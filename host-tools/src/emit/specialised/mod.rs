@@ -176,6 +176,14 @@ impl Writer<'_> {
         let n_switched = slots.iter().flatten().count();
         let n_chokes = l.junctions.iter().filter(|j| has_choke(j)).count();
         let n_sections: usize = l.losses.iter().map(|x| x.sections as usize).sum();
+        // Loss state (see `step`): the first section's previous input per end, and the previous
+        // outputs the sections cannot read elsewhere.
+        let n_lx = l.losses.iter().filter(|x| x.sections > 0).count();
+        let n_ly: usize = l
+            .losses
+            .iter()
+            .map(|x| x.sections as usize - usize::from(x.sections > 0 && x.allpass.is_none() && x.zc.is_none()))
+            .sum();
         let n_allpass = l.losses.iter().filter(|x| x.allpass.is_some()).count();
         let n_zc = l.losses.iter().filter(|x| x.zc.is_some()).count();
         let held = self.held_slots(&slots);
@@ -243,7 +251,7 @@ impl Writer<'_> {
         );
         let _ = writeln!(
             s,
-            "        chokes: [W; {n_chokes}],\n        lx: [W; {n_sections}],\n        ly: [W; {n_sections}],\n        lr: [W; {n_sections}],\n        aps: [W; {n_allpass}],\n        zcs: [[W; MAX_ZC_SECTIONS]; {n_zc}],\n        zcc: [W; {n_zc}],\n        held: [W; {n_held}],"
+            "        chokes: [W; {n_chokes}],\n        lx: [W; {n_lx}],\n        ly: [W; {n_ly}],\n        lr: [W; {n_sections}],\n        aps: [W; {n_allpass}],\n        zcs: [[W; MAX_ZC_SECTIONS]; {n_zc}],\n        zcc: [W; {n_zc}],\n        held: [W; {n_held}],"
         );
         let _ = writeln!(s, "        hist: [W; HIST],\n        probes: [i32; PROBES],\n        nodes: [NodeCoef; {n_switched}],\n    }}\n");
         let _ = writeln!(s, "    impl Plant {{");
@@ -251,7 +259,7 @@ impl Writer<'_> {
         let _ = writeln!(s, "        pub const fn new() -> Self {{");
         let _ = writeln!(
             s,
-            "            Plant {{ n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; {}], chokes: [P::ZERO; {n_chokes}], lx: [P::ZERO; {n_sections}], ly: [P::ZERO; {n_sections}], lr: [P::ZERO; {n_sections}], aps: [P::ZERO; {n_allpass}], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; {n_zc}], zcc: [P::ZERO; {n_zc}], held: [P::ZERO; {n_held}], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }}",
+            "            Plant {{ n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; {}], chokes: [P::ZERO; {n_chokes}], lx: [P::ZERO; {n_lx}], ly: [P::ZERO; {n_ly}], lr: [P::ZERO; {n_sections}], aps: [P::ZERO; {n_allpass}], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; {n_zc}], zcc: [P::ZERO; {n_zc}], held: [P::ZERO; {n_held}], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }}",
             self.layout.states
         );
         let _ = writeln!(s, "        }}\n    }}\n");
@@ -375,7 +383,7 @@ impl Writer<'_> {
         };
         let _ = writeln!(s, "            let output = {output};");
         // Loss filters, in the generic solver's order, on the waves that just arrived.
-        let (mut sec, mut ap, mut zc) = (0usize, 0usize, 0usize);
+        let (mut sec, mut ap, mut zc, mut lx, mut ly) = (0usize, 0usize, 0usize, 0usize, 0usize);
         for lp in &l.losses {
             let p = lp.port as usize;
             let (Some(r), Some(Arrival::State { slot })) =
@@ -384,16 +392,33 @@ impl Writer<'_> {
                 return Err(EmitError::Unsupported { what: "a loss filter on an element port".into(), junction: None });
             };
             let _ = writeln!(s, "            let mut x: W = self.mem[i + {}];", r + 1);
-            for k in 0..lp.sections as usize {
+            // Section k's previous input is section k − 1's previous output, so only the first
+            // section keeps its input (`lx`, one per end); the last section's previous output is
+            // the wave it left in `b[slot]` when nothing follows it (`ly` only where needed).
+            let sections = lp.sections as usize;
+            let last_in_b = lp.allpass.is_none() && lp.zc.is_none();
+            if sections > 0 {
+                let _ = writeln!(s, "            let mut x1: W = self.lx[{lx}];\n            self.lx[{lx}] = x;");
+                lx += 1;
+            }
+            for k in 0..sections {
                 let (g, gb, a) = (lp.g[k], lp.gb[k], lp.a[k]);
+                let last = k + 1 == sections;
+                let y1 = if last && last_in_b { format!("self.b[{slot}]") } else { format!("self.ly[{ly}]") };
+                let _ = writeln!(s, "            let y1: W = {y1};");
                 let _ = writeln!(
                     s,
-                    "            let (y, r) = P::loss_section(x, self.lx[{sec}], self.ly[{sec}], self.lr[{sec}], {g}u32, {gb}i32, {a}u32);"
+                    "            let (y, r) = P::loss_section(x, x1, y1, self.lr[{sec}], {g}u32, {gb}i32, {a}u32);"
                 );
-                let _ = writeln!(
-                    s,
-                    "            self.lx[{sec}] = x;\n            self.ly[{sec}] = y;\n            self.lr[{sec}] = r;\n            x = y;"
-                );
+                let _ = writeln!(s, "            self.lr[{sec}] = r;");
+                if !(last && last_in_b) {
+                    let _ = writeln!(s, "            self.ly[{ly}] = y;");
+                    ly += 1;
+                }
+                if !last {
+                    let _ = writeln!(s, "            x1 = y1;");
+                }
+                let _ = writeln!(s, "            x = y;");
                 sec += 1;
             }
             if let Some((a, c)) = lp.allpass {
