@@ -22,6 +22,10 @@ pub(crate) trait Acc: Sized {
     /// c·(x − y) exactly, for c <= 2^30 (`i64`: two 32x32 products, since x − y needs 33
     /// bits) or c <= 2^14 (`i32`: one product of the 17-bit difference).
     fn mul_diff(c: u32, x: Self::W, y: Self::W) -> Self;
+    /// The series junction's numerators b1·2^f − c·(b1 − b2) and b2·2^f + c·(b1 − b2),
+    /// exactly, for c <= 2^f with 2^f·2^(wave bits + 1) within the accumulator (see
+    /// `Profile::series`).
+    fn series_num(c: u32, f: u32, b1: Self::W, b2: Self::W) -> (Self, Self);
     /// A threshold in wave LSB, saturated to the accumulator's range.
     fn from_u32(x: u32) -> Self;
     /// The node quotient of the cheap rule (see `Profile::node_scatter`):
@@ -56,6 +60,28 @@ impl Acc for i64 {
     fn mul_diff(c: u32, x: i32, y: i32) -> i64 {
         // Two 32x32 products (each <= 2^61) instead of a 32x64 one.
         Self::mul(c, x).wrapping_sub(Self::mul(c, y))
+    }
+    #[inline(always)]
+    fn series_num(c: u32, f: u32, b1: i32, b2: i32) -> (i64, i64) {
+        // The same integers regrouped as (2^f − c)·b1 + c·b2 and c·b1 + (2^f − c)·b2: four
+        // 32x32 multiply-accumulates (`SMULL`/`SMLAL`), where the difference form needed two
+        // products, two 64-bit shifts and two 64-bit adds. 0 <= 2^f − c <= 2^f = 2^30 < 2^31
+        // (c <= 2^f is checked at load), each product <= 2^61 and each sum <= 2^62.
+        // Where a 64-bit product is itself several 32-bit ones (ARMv6-M), the difference
+        // form with two products is cheaper and gives the same integers.
+        #[cfg(tidewire_no_long_mul)]
+        {
+            let cx = Self::mul_diff(c, b1, b2);
+            (i64::from(b1).wrapping_shl(f).wrapping_sub(cx), i64::from(b2).wrapping_shl(f).wrapping_add(cx))
+        }
+        #[cfg(not(tidewire_no_long_mul))]
+        {
+            let k = (1u32 << f).wrapping_sub(c);
+            (
+                Self::mul(k, b1).wrapping_add(Self::mul(c, b2)),
+                Self::mul(c, b1).wrapping_add(Self::mul(k, b2)),
+            )
+        }
     }
     #[inline(always)]
     fn from_u32(x: u32) -> i64 {
@@ -102,6 +128,16 @@ impl Acc for i32 {
     fn mul_diff(c: u32, x: i16, y: i16) -> i32 {
         // |x − y| < 2^16 and c <= 2^14: one product < 2^30.
         (c as i32).wrapping_mul(i32::from(x).wrapping_sub(i32::from(y)))
+    }
+    #[inline(always)]
+    fn series_num(c: u32, f: u32, b1: i16, b2: i16) -> (i32, i32) {
+        // The difference form: one product of the 17-bit difference (c <= 2^14), where the
+        // regrouped form of `i64` would take four `MULS` on the Cortex-M0.
+        let cx = Self::mul_diff(c, b1, b2);
+        (
+            i32::from(b1).wrapping_shl(f).wrapping_sub(cx),
+            i32::from(b2).wrapping_shl(f).wrapping_add(cx),
+        )
     }
     #[inline(always)]
     fn from_u32(x: u32) -> i32 {
@@ -183,9 +219,7 @@ macro_rules! junction_rules {
             // |c·x| <= 2^f·2^(wave bits + 1), |b·2^f| below the same: exact in the
             // accumulator (i64: <= 2^62; i32: <= 2^30).
             type A = $acc;
-            let cx = <A as Acc>::mul_diff(c, b1, b2);
-            let n1 = A::from(b1).wrapping_shl(Self::SERIES_FRAC).wrapping_sub(cx);
-            let n2 = A::from(b2).wrapping_shl(Self::SERIES_FRAC).wrapping_add(cx);
+            let (n1, n2) = <A as Acc>::series_num(c, Self::SERIES_FRAC, b1, b2);
             let t = |n: A| $sat($trunc(n, Self::SERIES_FRAC));
             (t(n1), t(n2))
         }
@@ -296,7 +330,8 @@ macro_rules! junction_rules {
         fn adapt(b: Self::Wave, a: Self::Wave, mu: u32, negate: bool) -> Self::Wave {
             // |b·2^f| and |μ·(a − b)| <= 2^f·2^(wave bits + 1) (μ <= 1, checked at load).
             type A = $acc;
-            let n = A::from(b).wrapping_shl(Self::SERIES_FRAC).wrapping_add(<A as Acc>::mul_diff(mu, a, b));
+            // b·2^f + μ·(a − b): the second numerator of the series form with b1 = a, b2 = b.
+            let (_, n) = <A as Acc>::series_num(mu, Self::SERIES_FRAC, a, b);
             let m = $trunc(n, Self::SERIES_FRAC);
             $sat(if negate { m.wrapping_neg() } else { m })
         }
