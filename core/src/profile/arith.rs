@@ -77,10 +77,7 @@ impl Acc for i64 {
         #[cfg(not(tidewire_no_long_mul))]
         {
             let k = (1u32 << f).wrapping_sub(c);
-            (
-                Self::mul(k, b1).wrapping_add(Self::mul(c, b2)),
-                Self::mul(c, b1).wrapping_add(Self::mul(k, b2)),
-            )
+            (Self::mul(k, b1).wrapping_add(Self::mul(c, b2)), Self::mul(c, b1).wrapping_add(Self::mul(k, b2)))
         }
     }
     #[inline(always)]
@@ -134,10 +131,7 @@ impl Acc for i32 {
         // The difference form: one product of the 17-bit difference (c <= 2^14), where the
         // regrouped form of `i64` would take four `MULS` on the Cortex-M0.
         let cx = Self::mul_diff(c, b1, b2);
-        (
-            i32::from(b1).wrapping_shl(f).wrapping_sub(cx),
-            i32::from(b2).wrapping_shl(f).wrapping_add(cx),
-        )
+        (i32::from(b1).wrapping_shl(f).wrapping_sub(cx), i32::from(b2).wrapping_shl(f).wrapping_add(cx))
     }
     #[inline(always)]
     fn from_u32(x: u32) -> i32 {
