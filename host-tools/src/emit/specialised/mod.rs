@@ -110,6 +110,14 @@ pub fn specialised_source(
 /// bounds (i < SPAN, offset < SPAN, MEM = 2·SPAN): no bounds check that can fail.
 const WINDOW: &str = "let i = (self.i as usize).min(SPAN - 1);";
 
+/// Between two junctions: no load or store moves across it, and it
+/// is no instruction. The step is one basic block, and without it the instruction scheduler
+/// hoists later junctions' ring loads far ahead of their use, where they spill to the stack
+/// (the firmware's p85_wide step on the M4: 252 stack accesses without it, 76 with it;
+/// `cargo run -p xtask -- step-profile`). Not between lossy line ends, where it cost more
+/// than it saved.
+const FENCE: &str = "core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);";
+
 struct Writer<'a> {
     l: &'a Loaded,
     layout: &'a Layout,
@@ -369,6 +377,7 @@ impl Writer<'_> {
                     let _ = writeln!(s, "            self.held[{h}] = a{p};");
                 }
             }
+            let _ = writeln!(s, "            {FENCE}");
         }
         for (k, pr) in l.probes.iter().enumerate() {
             let f = if pr.current { "diff" } else { "sum" };
