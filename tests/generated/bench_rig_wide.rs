@@ -118,29 +118,34 @@ pub mod specialised {
             // junction 0: rig port, a = v − b[n − latency]
             let a0 = P::sub(e, rig_back);
             self.mem[i + 24] = a0;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b1: W = self.mem[i + 7];
             // junction 1: node of 1 port(s), fixed
             let [a1] = { let mut o = [self.held[0]]; P::node_scatter_held(&[b1], &[586406201u32], &mut o, e, 0u32, 3932160003u32, 30u32, 1172812402u64, 2u32); o };
             self.mem[i + 105] = a1;
             self.held[0] = a1;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b2: W = self.mem[i + 16];
             let b3: W = self.mem[i + 25];
             // junction 2: series resistor, c = 1053260299
             let (a2, a3) = P::series(b2, b3, 1053260299u32);
             self.mem[i + 6] = a2;
             self.mem[i + 60] = a3;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b4: W = self.mem[i + 43];
             let b5: W = self.mem[i + 61];
             // junction 3: series resistor, c = 1053260299
             let (a4, a5) = P::series(b4, b5, 1053260299u32);
             self.mem[i + 42] = a4;
             self.mem[i + 96] = a5;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b6: W = self.mem[i + 79];
             let b7: W = self.mem[i + 97];
             // junction 4: series resistor, c = 1053260299
             let (a6, a7) = P::series(b6, b7, 1053260299u32);
             self.mem[i + 78] = a6;
             self.mem[i + 15] = a7;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a0, rig_back);
             self.probes[1] = P::sum(a1, b1);
             self.probes[2] = P::diff(a0, rig_back);

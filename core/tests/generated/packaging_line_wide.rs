@@ -183,6 +183,7 @@ pub mod specialised {
             let [a0] = { let mut o = [self.held[0]]; P::node_scatter_held(&[b0], &[146601550u32], &mut o, e, 351843720u32, 3574690918u32, 29u32, 645046820u64, 2u32); o };
             self.mem[i + 1013] = a0;
             self.held[0] = a0;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b1: W = self.mem[i + 77];
             let b2: W = self.mem[i + 154];
             let b3: W = self.b[0];
@@ -191,6 +192,7 @@ pub mod specialised {
             self.mem[i + 1392] = a1;
             self.mem[i + 1460] = a2;
             self.mem[i + 3857] = a3;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b4: W = self.mem[i + 230];
             let b5: W = self.mem[i + 298];
             let b6: W = self.b[1];
@@ -199,6 +201,7 @@ pub mod specialised {
             self.mem[i + 2070] = a4;
             self.mem[i + 2160] = a5;
             self.mem[i + 3872] = a6;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b7: W = self.mem[i + 395];
             let b8: W = self.mem[i + 484];
             let b9: W = self.b[2];
@@ -207,6 +210,7 @@ pub mod specialised {
             self.mem[i + 2603] = a7;
             self.mem[i + 2680] = a8;
             self.mem[i + 3889] = a9;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b10: W = self.mem[i + 571];
             let b11: W = self.mem[i + 648];
             let b12: W = self.b[3];
@@ -215,6 +219,7 @@ pub mod specialised {
             self.mem[i + 3365] = a10;
             self.mem[i + 3429] = a11;
             self.mem[i + 3909] = a12;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b13: W = self.mem[i + 721];
             let b14: W = self.b[4];
             let b15: W = self.b[5];
@@ -223,10 +228,12 @@ pub mod specialised {
             self.mem[i + 3747] = a13;
             self.mem[i + 3798] = a14;
             self.mem[i + 3926] = a15;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b16: W = self.mem[i + 843];
             // junction 6: node of 1 port(s), fixed
             let [a16] = [b16];
             self.mem[i + 3849] = a16;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b17: W = self.mem[i + 894];
             let b18: W = self.b[6];
             // junction 7: node of 2 port(s), fixed
@@ -236,6 +243,7 @@ pub mod specialised {
             let a18 = P::adapt(b18, a18, 1073741824u32, false);
             self.b[6] = a18;
             self.held[2] = a18;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b19: W = self.mem[i + 902];
             let b20: W = self.b[7];
             // junction 8: node of 2 port(s), fixed
@@ -245,6 +253,7 @@ pub mod specialised {
             let a20 = P::adapt(b20, a20, 1073741824u32, false);
             self.b[7] = a20;
             self.held[4] = a20;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b21: W = self.mem[i + 909];
             let b22: W = self.b[8];
             // junction 9: node of 2 port(s), fixed
@@ -254,6 +263,7 @@ pub mod specialised {
             let a22 = P::adapt(b22, a22, 1073741824u32, false);
             self.b[8] = a22;
             self.held[6] = a22;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b23: W = self.mem[i + 920];
             let b24: W = self.b[9];
             // junction 10: node of 2 port(s), fixed
@@ -263,6 +273,7 @@ pub mod specialised {
             let a24 = P::adapt(b24, a24, 1073741824u32, false);
             self.b[9] = a24;
             self.held[8] = a24;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b25: W = self.mem[i + 930];
             let b26: W = self.b[10];
             // junction 11: node of 2 port(s), fixed
@@ -272,114 +283,133 @@ pub mod specialised {
             let a26 = P::adapt(b26, a26, 1073741824u32, false);
             self.b[10] = a26;
             self.held[10] = a26;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b27: W = self.mem[i + 937];
             let b28: W = self.b[11];
             // junction 12: series resistor, c = 1051657026
             let (a27, a28) = P::series(b27, b28, 1051657026u32);
             self.mem[i + 76] = a27;
             self.mem[i + 1315] = a28;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b29: W = self.b[12];
             let b30: W = self.mem[i + 1316];
             // junction 13: series resistor, c = 1051657026
             let (a29, a30) = P::series(b29, b30, 1051657026u32);
             self.mem[i + 1164] = a29;
             self.mem[i + 153] = a30;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b31: W = self.mem[i + 1393];
             let b32: W = self.b[13];
             // junction 14: series resistor, c = 1054065926
             let (a31, a32) = P::series(b31, b32, 1054065926u32);
             self.mem[i + 221] = a31;
             self.mem[i + 1730] = a32;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b33: W = self.b[14];
             let b34: W = self.mem[i + 1731];
             // junction 15: series resistor, c = 1054065926
             let (a33, a34) = P::series(b33, b34, 1054065926u32);
             self.mem[i + 1595] = a33;
             self.mem[i + 2002] = a34;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b35: W = self.mem[i + 1867];
             let b36: W = self.mem[i + 2003];
             // junction 16: series resistor, c = 1054065926
             let (a35, a36) = P::series(b35, b36, 1054065926u32);
             self.mem[i + 1866] = a35;
             self.mem[i + 297] = a36;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b37: W = self.mem[i + 2071];
             let b38: W = self.b[15];
             // junction 17: series resistor, c = 1048064249
             let (a37, a38) = P::series(b37, b38, 1048064249u32);
             self.mem[i + 387] = a37;
             self.mem[i + 2514] = a38;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b39: W = self.b[16];
             let b40: W = self.mem[i + 2515];
             // junction 18: series resistor, c = 1048064249
             let (a39, a40) = P::series(b39, b40, 1048064249u32);
             self.mem[i + 2337] = a39;
             self.mem[i + 483] = a40;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b41: W = self.mem[i + 2604];
             let b42: W = self.b[17];
             // junction 19: series resistor, c = 1051657026
             let (a41, a42) = P::series(b41, b42, 1051657026u32);
             self.mem[i + 560] = a41;
             self.mem[i + 2984] = a42;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b43: W = self.b[18];
             let b44: W = self.mem[i + 2985];
             // junction 20: series resistor, c = 1051657026
             let (a43, a44) = P::series(b43, b44, 1051657026u32);
             self.mem[i + 2832] = a43;
             self.mem[i + 3288] = a44;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b45: W = self.mem[i + 3137];
             let b46: W = self.mem[i + 3289];
             // junction 21: series resistor, c = 1051657026
             let (a45, a46) = P::series(b45, b46, 1051657026u32);
             self.mem[i + 3136] = a45;
             self.mem[i + 647] = a46;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b47: W = self.mem[i + 3366];
             let b48: W = self.b[19];
             // junction 22: series resistor, c = 1055274519
             let (a47, a48) = P::series(b47, b48, 1055274519u32);
             self.mem[i + 711] = a47;
             self.mem[i + 3683] = a48;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b49: W = self.b[20];
             let b50: W = self.mem[i + 3684];
             // junction 23: series resistor, c = 1055274519
             let (a49, a50) = P::series(b49, b50, 1055274519u32);
             self.mem[i + 3556] = a49;
             self.mem[i + 784] = a50;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b51: W = self.b[21];
             let b52: W = self.mem[i + 3799];
             // junction 24: series resistor, c = 1058916986
             let (a51, a52) = P::series(b51, b52, 1058916986u32);
             self.mem[i + 835] = a51;
             self.mem[i + 893] = a52;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b53: W = self.b[22];
             let b54: W = self.mem[i + 3858];
             // junction 25: series resistor, c = 1071491691
             let (a53, a54) = P::series(b53, b54, 1071491691u32);
             self.mem[i + 229] = a53;
             self.mem[i + 901] = a54;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b55: W = self.b[23];
             let b56: W = self.mem[i + 3873];
             // junction 26: series resistor, c = 1071866058
             let (a55, a56) = P::series(b55, b56, 1071866058u32);
             self.mem[i + 394] = a55;
             self.mem[i + 908] = a56;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b57: W = self.b[24];
             let b58: W = self.mem[i + 3890];
             // junction 27: series resistor, c = 1070743741
             let (a57, a58) = P::series(b57, b58, 1070743741u32);
             self.mem[i + 570] = a57;
             self.mem[i + 919] = a58;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b59: W = self.b[25];
             let b60: W = self.mem[i + 3910];
             // junction 28: series resistor, c = 1071117585
             let (a59, a60) = P::series(b59, b60, 1071117585u32);
             self.mem[i + 720] = a59;
             self.mem[i + 929] = a60;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b61: W = self.b[26];
             let b62: W = self.mem[i + 3927];
             // junction 29: series resistor, c = 1071866058
             let (a61, a62) = P::series(b61, b62, 1071866058u32);
             self.mem[i + 842] = a61;
             self.mem[i + 936] = a62;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a0, b0);
             self.probes[1] = P::sum(a16, b16);
             self.probes[2] = P::sum(a21, b21);

@@ -154,6 +154,7 @@ pub mod specialised {
             let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[172841819u32], &mut o, e, 351843720u32, 2197357119u32, 28u32, 524685539u64); o };
             let line0 = P::zc_post(a0, b0, self.zcc[0], &mut self.zcs[0], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
             self.mem[i + 110] = line0;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b1: W = self.b[1];
             let b2: W = self.b[2];
             let b3: W = self.b[3];
@@ -168,18 +169,21 @@ pub mod specialised {
             let line4 = P::zc_post(a4, b4, self.zcc[8], &mut self.zcs[8], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
             self.mem[i + 145] = line4;
             self.mem[i + 85] = a5;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b6: W = self.b[6];
             // junction 2: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
             let [a6] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b6], &[234562480u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b6] } else { [P::neg(b6)] };
             self.mem[i + 21] = a6;
             self.held[0] = a6;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b7: W = self.b[7];
             // junction 3: node of 1 port(s), switched by the plant's events
             let c = self.nodes[1];
             let [a7] = if c.scatters() { { let mut o = [self.held[1]]; P::node_scatter_held(&[b7], &[234562480u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b7] } else { [P::neg(b7)] };
             self.mem[i + 25] = a7;
             self.held[1] = a7;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b8: W = self.b[8];
             let b9: W = self.b[9];
             let b10: W = self.b[10];
@@ -192,6 +196,7 @@ pub mod specialised {
             self.held[3] = a9;
             self.mem[i + 72] = a10;
             self.held[4] = a10;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b11: W = self.b[11];
             let b12: W = self.b[12];
             // junction 5: node of 2 port(s), fixed
@@ -199,6 +204,7 @@ pub mod specialised {
             self.mem[i + 57] = a11;
             let a12 = P::adapt(b12, a12, 1073741824u32, false);
             self.b[12] = a12;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b13: W = self.b[13];
             let b14: W = self.b[14];
             // junction 6: node of 2 port(s), fixed
@@ -206,6 +212,7 @@ pub mod specialised {
             self.mem[i + 63] = a13;
             let a14 = P::adapt(b14, a14, 42949672u32, false);
             self.b[14] = a14;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b15: W = self.b[15];
             let b16: W = self.b[16];
             // junction 7: node of 2 port(s), fixed
@@ -215,6 +222,7 @@ pub mod specialised {
             let a16 = P::adapt(b16, a16, 1073741824u32, false);
             self.b[16] = a16;
             self.held[6] = a16;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b17: W = self.b[17];
             let b18: W = self.b[18];
             // junction 8: series inductor, c = 95542468, rho = 441187638
@@ -224,6 +232,7 @@ pub mod specialised {
             self.mem[i + 117] = line17;
             let line18 = P::zc_post(a18, b18, self.zcc[4], &mut self.zcs[4], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
             self.mem[i + 127] = line18;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b19: W = self.b[19];
             let b20: W = self.b[20];
             // junction 9: series resistor, c = 1063295035
@@ -232,6 +241,7 @@ pub mod specialised {
             self.mem[i + 7] = line19;
             let line20 = P::zc_post(a20, b20, self.zcc[2], &mut self.zcs[2], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
             self.mem[i + 92] = line20;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b21: W = self.b[21];
             let b22: W = self.b[22];
             // junction 10: series resistor, c = 1059173017
@@ -240,6 +250,7 @@ pub mod specialised {
             self.mem[i + 102] = line21;
             let line22 = P::zc_post(a22, b22, self.zcc[6], &mut self.zcs[6], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
             self.mem[i + 16] = line22;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b23: W = self.b[23];
             let b24: W = self.b[24];
             // junction 11: node of 2 port(s), switched by the plant's events
@@ -251,6 +262,7 @@ pub mod specialised {
             let line24 = P::zc_post(a24, b24, self.zcc[12], &mut self.zcs[12], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
             self.mem[i + 151] = line24;
             self.held[8] = a24;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b25: W = self.b[25];
             let b26: W = self.b[26];
             // junction 12: series resistor, c = 1070389032
@@ -259,6 +271,7 @@ pub mod specialised {
             self.mem[i + 28] = line25;
             let line26 = P::zc_post(a26, b26, self.zcc[10], &mut self.zcs[10], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
             self.mem[i + 139] = line26;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b27: W = self.b[27];
             let b28: W = self.b[28];
             // junction 13: series resistor, c = 1068720477
@@ -267,6 +280,7 @@ pub mod specialised {
             self.mem[i + 142] = line27;
             let line28 = P::zc_post(a28, b28, self.zcc[14], &mut self.zcs[14], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
             self.mem[i + 54] = line28;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a0, b0);
             self.probes[1] = P::sum(a1, b1);
             self.probes[2] = P::sum(a15, b15);

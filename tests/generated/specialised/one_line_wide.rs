@@ -108,12 +108,14 @@ pub mod specialised {
             // junction 0: node of 1 port(s), fixed
             let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[351843720u32], &mut o, e, 351843720u32, 3276800008u32, 29u32, 703687440u64); o };
             self.mem[i + 1001] = a0;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b1: W = self.mem[i + 501];
             // junction 1: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
             let [a1] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b1], &[351843720u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b1] } else { [P::neg(b1)] };
             self.mem[i + 500] = a1;
             self.held[0] = a1;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a1, b1);
             let output = P::to_code(P::sum(a0, b0), IO_SHIFT);
             self.n = n.wrapping_add(1);

@@ -117,12 +117,14 @@ pub mod specialised {
             // junction 0: node of 1 port(s), fixed
             let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[2684u32], &mut o, e, 2684u32, 50006u32, 12u32, 5368u64); o };
             self.mem[i + 45] = a0;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b5: W = self.b[5];
             // junction 3: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
             let [a5] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b5], &[2684u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b5] } else { [P::neg(b5)] };
             self.mem[i + 68] = a5;
             self.held[0] = a5;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b1: W = self.b[1];
             let b2: W = self.b[2];
             let b3: W = self.b[3];
@@ -140,6 +142,7 @@ pub mod specialised {
             self.mem[i + 91] = a3;
             let a4 = P::adapt(b4, a4, 16384u32, false);
             self.b[4] = a4;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a5, b5);
             self.probes[1] = P::sum(a1, b1);
             let output = P::to_code(P::sum(a0, b0), IO_SHIFT);

@@ -126,6 +126,7 @@ pub mod specialised {
             // junction 0: node of 1 port(s), fixed
             let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[671u32], &mut o, e, 1342u32, 33337u32, 10u32, 2013u64); o };
             self.mem[i + 11] = a0;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b1: W = self.mem[i + 6];
             let b2: W = self.mem[i + 12];
             let b3: W = self.mem[i + 16];
@@ -146,6 +147,7 @@ pub mod specialised {
             let a5 = P::adapt(b5, a5, 4890u32, false);
             self.b[1] = a5;
             self.held[4] = a5;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b6: W = self.mem[i + 24];
             let b7: W = self.mem[i + 28];
             // junction 2: series inductor, c = 6826, rho = 1366
@@ -153,6 +155,7 @@ pub mod specialised {
             self.chokes[0] = s0;
             self.mem[i + 15] = a6;
             self.mem[i + 48] = a7;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b8: W = self.mem[i + 33];
             let b9: W = self.mem[i + 41];
             let b10: W = self.b[2];
@@ -166,16 +169,19 @@ pub mod specialised {
             let a10 = P::adapt(b10, a10, 16384u32, false);
             self.b[2] = a10;
             self.held[7] = a10;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b11: W = self.mem[i + 44];
             let b12: W = self.mem[i + 49];
             // junction 4: series resistor, c = 16181
             let (a11, a12) = P::series(b11, b12, 16181u32);
             self.mem[i + 32] = a11;
             self.mem[i + 68] = a12;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b13: W = self.mem[i + 59];
             // junction 5: node of 1 port(s), fixed
             let [a13] = [P::neg(b13)];
             self.mem[i + 58] = a13;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b14: W = self.mem[i + 69];
             let b15: W = self.b[3];
             // junction 6: node of 2 port(s), fixed
@@ -183,6 +189,7 @@ pub mod specialised {
             self.mem[i + 43] = a14;
             let a15 = P::adapt(b15, a15, 15753u32, true);
             self.b[3] = a15;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a0, b0);
             self.probes[1] = P::sum(a2, b2);
             self.probes[2] = P::diff(a8, b8);

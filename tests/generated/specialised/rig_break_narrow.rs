@@ -124,29 +124,34 @@ pub mod specialised {
             // junction 0: rig port, a = v − b[n − latency]
             let a0 = P::sub(e, rig_back);
             self.mem[i + 35] = a0;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b1: W = self.mem[i + 7];
             let b2: W = self.mem[i + 15];
             // junction 1: node of 2 port(s), fixed
             let [a1, a2] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b1, b2], &[4473u32, 4473u32], &mut o, e, 0u32, 60012u32, 13u32, 8946u64); o };
             self.mem[i + 75] = a1;
             self.mem[i + 91] = a2;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b3: W = self.mem[i + 19];
             // junction 2: node of 1 port(s), fixed
             let [a3] = { let mut o = [self.held[0]]; P::node_scatter_held(&[b3], &[4473u32], &mut o, e, 0u32, 60012u32, 13u32, 8946u64, 2u32); o };
             self.mem[i + 111] = a3;
             self.held[0] = a3;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b4: W = self.mem[i + 27];
             let b5: W = self.mem[i + 36];
             // junction 3: series resistor, c = 16102
             let (a4, a5) = P::series(b4, b5, 16102u32);
             self.mem[i + 6] = a4;
             self.mem[i + 67] = a5;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b6: W = self.mem[i + 52];
             let b7: W = self.mem[i + 68];
             // junction 4: series resistor, c = 16102
             let (a6, a7) = P::series(b6, b7, 16102u32);
             self.mem[i + 51] = a6;
             self.mem[i + 14] = a7;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b8: W = self.mem[i + 76];
             let b9: W = self.mem[i + 79];
             // junction 5: node of 2 port(s), switched by the plant's events
@@ -156,18 +161,21 @@ pub mod specialised {
             self.held[1] = a8;
             self.mem[i + 103] = a9;
             self.held[2] = a9;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b10: W = self.mem[i + 88];
             let b11: W = self.mem[i + 92];
             // junction 6: series resistor, c = 16288
             let (a10, a11) = P::series(b10, b11, 16288u32);
             self.mem[i + 18] = a10;
             self.mem[i + 78] = a11;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b12: W = self.mem[i + 95];
             let b13: W = self.mem[i + 104];
             // junction 7: series resistor, c = 16102
             let (a12, a13) = P::series(b12, b13, 16102u32);
             self.mem[i + 87] = a12;
             self.mem[i + 26] = a13;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a0, rig_back);
             self.probes[1] = P::sum(a3, b3);
             let output = P::to_code(P::sum(b0, b0), IO_SHIFT);

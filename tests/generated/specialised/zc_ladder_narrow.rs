@@ -123,6 +123,7 @@ pub mod specialised {
             let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[2684u32], &mut o, e, 2684u32, 50006u32, 12u32, 5368u64); o };
             let line0 = P::zc_post(a0, b0, self.zcc[0], &mut self.zcs[0], &[0, 6552, 0, 0], &[327, 163, 0, 0], 2);
             self.mem[i + 13] = line0;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b1: W = self.b[1];
             let b2: W = self.b[2];
             // junction 1: series resistor, c = 16221
@@ -131,6 +132,7 @@ pub mod specialised {
             self.mem[i + 6] = line1;
             let line2 = P::zc_post(a2, b2, self.zcc[2], &mut self.zcs[2], &[0, 6552, 0, 0], &[327, 163, 0, 0], 2);
             self.mem[i + 17] = line2;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b3: W = self.b[3];
             let b4: W = self.b[4];
             let b5: W = self.mem[i + 28];
@@ -145,6 +147,7 @@ pub mod specialised {
             self.held[1] = a4;
             self.mem[i + 47] = a5;
             self.held[2] = a5;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b6: W = self.b[5];
             // junction 3: node of 1 port(s), switched by the plant's events
             let c = self.nodes[1];
@@ -152,11 +155,13 @@ pub mod specialised {
             let line6 = P::zc_post(a6, b6, self.zcc[5], &mut self.zcs[5], &[0, 6552, 0, 0], &[327, 163, 0, 0], 2);
             self.mem[i + 27] = line6;
             self.held[3] = a6;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b7: W = self.mem[i + 43];
             // junction 4: node of 1 port(s), fixed
             let [a7] = { let mut o = [self.held[4]]; P::node_scatter_held(&[b7], &[3579u32], &mut o, e, 0u32, 50006u32, 12u32, 5368u64, 5u32); o };
             self.mem[i + 32] = a7;
             self.held[4] = a7;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a0, b0);
             self.probes[1] = P::diff(a0, b0);
             self.probes[2] = P::sum(a3, b3);
