@@ -10,6 +10,7 @@
 //! `llvm-objdump` and `llvm-addr2line` (the Debian package `llvm`) on the PATH.
 
 use std::collections::BTreeMap;
+use std::io::Write as _;
 use std::process::Command;
 
 fn tool(name: &str, args: &[&str]) -> Result<String, String> {
@@ -140,26 +141,32 @@ pub fn step_profile(args: &[&str]) -> Result<(), String> {
     }
     let count = |k: &str| src.lines().filter(|l| l.contains("// junction ") && l.contains(&format!(": {k}"))).count();
     let total = insns.len() as u64;
-    println!(
+    // Printing to a closed pipe (`| head`) ends the listing, not in a panic.
+    let mut out = std::io::stdout().lock();
+    let closed = |e: std::io::Error| format!("writing the listing: {e}");
+    writeln!(
+        out,
         "{plant} on {} ({}): specialised step, {total} instructions (straight line: one pass per sample)",
         part.name, part.target
-    );
-    println!("\nby junction kind (with its ports' ring and state accesses):");
+    )
+    .map_err(closed)?;
+    writeln!(out, "\nby junction kind (with its ports' ring and state accesses):").map_err(closed)?;
     let mut kinds_sorted: Vec<_> = by_kind.into_iter().collect();
     kinds_sorted.sort_by_key(|x| std::cmp::Reverse(x.1));
     for (k, n) in kinds_sorted {
         let c = count(&k);
         let per = if c > 0 { format!("{c} × {:.1}", n as f64 / c as f64) } else { String::new() };
-        println!("  {n:6} {:5.1} %  {k} {per}", 100.0 * n as f64 / total as f64);
+        writeln!(out, "  {n:6} {:5.1} %  {k} {per}", 100.0 * n as f64 / total as f64).map_err(closed)?;
     }
-    println!("\nby operation (the Profile call each instruction is inlined from):");
+    writeln!(out, "\nby operation (the Profile call each instruction is inlined from):").map_err(closed)?;
     let mut ops: Vec<_> = by_op.into_iter().collect();
     ops.sort_by_key(|x| std::cmp::Reverse(x.1));
     for (k, n) in ops.iter().take(16) {
-        println!("  {n:6} {:5.1} %  {k}", 100.0 * *n as f64 / total as f64);
+        writeln!(out, "  {n:6} {:5.1} %  {k}", 100.0 * *n as f64 / total as f64).map_err(closed)?;
     }
     let sections = src.matches("P::loss_section(").count();
-    println!("\nloss sections: {sections}");
-    println!("\nstack accesses (register spills and reloads): {spills}; movw/movt (32-bit constants): {consts}");
+    writeln!(out, "\nloss sections: {sections}").map_err(closed)?;
+    writeln!(out, "\nstack accesses (register spills and reloads): {spills}; movw/movt (32-bit constants): {consts}")
+        .map_err(closed)?;
     Ok(())
 }
