@@ -113,8 +113,10 @@ impl Acc for i64 {
     #[inline(always)]
     fn port(fl: i32, b: i32, nz: i32) -> i32 {
         let s = fl.saturating_sub(b);
-        // s < 0 adds nz (0 or 1): no overflow.
-        s.wrapping_add((s >> 31) & nz)
+        // s < 0 adds nz (0 or 1): no overflow. The sign as 0/1 (a logical shift) and-ed with
+        // nz: on the M4 `and` with a shifted operand and an `add`, where the sign mask
+        // (s >> 31) & nz became a compare and a conditional add (one instruction per port more).
+        s.wrapping_add(((s as u32 >> 31) as i32) & nz)
     }
     #[inline(always)]
     fn floor_div_abs(acc: i64, recip: u32, shift: u32, total: u64) -> (i64, i64) {
