@@ -398,3 +398,22 @@ fn nodes_no_event_switches_are_fixed_and_say_so() {
     assert!(s.set_shunt(1, zero).is_err());
     let _ = Path::new(".");
 }
+
+#[test]
+fn the_checked_runs_cross_the_ring_windows_wrap() {
+    // The specialised rings live in a window of SPAN waves whose position wraps every SPAN
+    // samples, the upper half of the memory copied down (`emit/specialised/layout.rs`): the
+    // bit-exact runs above must cross that wrap, more than once, to prove the copy.
+    for (name, span) in [
+        ("every_kind_wide", every_kind_wide::specialised::SPAN),
+        ("every_kind_narrow", every_kind_narrow::specialised::SPAN),
+        ("rig_break_wide", rig_break_wide::specialised::SPAN),
+        ("reactive_narrow", reactive_narrow::specialised::SPAN),
+        ("pi_section_wide", pi_section_wide::specialised::SPAN),
+        ("zc_ladder_narrow", zc_ladder_narrow::specialised::SPAN),
+    ] {
+        let (_, events) = fresh(name);
+        let samples = events.iter().map(|e| e.0).max().unwrap_or(0) + 600;
+        assert!(samples > 2 * span, "{name}: {samples} samples cross the window's wrap less than twice (span {span})");
+    }
+}

@@ -62,9 +62,10 @@ pub mod specialised {
 
     type P = tidewire_core::Wide;
     type W = i32;
-    /// Delay memory, waves (a power of two: every ring is addressed through `MASK`).
-    pub const MEM: usize = 128;
-    const MASK: u32 = 127;
+    /// The rings' span, waves: the window of one sample, and the period of its position.
+    pub const SPAN: usize = 106;
+    /// Delay memory, waves: two windows (the upper half holds the waves in flight at a wrap).
+    pub const MEM: usize = 2 * SPAN;
     const IO_SHIFT: u32 = 12;
     const EXPONENT: u32 = 46;
     const PROBES: usize = 3;
@@ -75,6 +76,7 @@ pub mod specialised {
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
     pub struct Plant {
         n: u32,
+        i: u32,
         mem: [W; MEM],
         b: [W; 0],
         chokes: [W; 0],
@@ -93,7 +95,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 1], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 1], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -107,42 +109,54 @@ pub mod specialised {
         #[inline]
         fn step(&mut self, input: i16) -> i16 {
             let n = self.n;
+            let i = (self.i as usize).min(SPAN - 1);
             let e: W = P::from_code(input, IO_SHIFT);
-            let b0: W = self.mem[(n.wrapping_add(0) & MASK) as usize];
+            let b0: W = self.mem[i + 0];
             // rig port: the pin was read while the DAC showed the wave of `latency` samples ago
             self.hist[(n as usize) & (HIST - 1)] = b0;
             let rig_back = self.hist[(n.wrapping_sub(2) as usize) & (HIST - 1)];
             // junction 0: rig port, a = v − b[n − latency]
             let a0 = P::sub(e, rig_back);
-            self.mem[(n.wrapping_add(24) & MASK) as usize] = a0;
-            let b1: W = self.mem[(n.wrapping_add(7) & MASK) as usize];
+            self.mem[i + 24] = a0;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b1: W = self.mem[i + 7];
             // junction 1: node of 1 port(s), fixed
             let [a1] = { let mut o = [self.held[0]]; P::node_scatter_held(&[b1], &[586406201u32], &mut o, e, 0u32, 3932160003u32, 30u32, 1172812402u64, 2u32); o };
-            self.mem[(n.wrapping_add(105) & MASK) as usize] = a1;
+            self.mem[i + 105] = a1;
             self.held[0] = a1;
-            let b2: W = self.mem[(n.wrapping_add(16) & MASK) as usize];
-            let b3: W = self.mem[(n.wrapping_add(25) & MASK) as usize];
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b2: W = self.mem[i + 16];
+            let b3: W = self.mem[i + 25];
             // junction 2: series resistor, c = 1053260299
             let (a2, a3) = P::series(b2, b3, 1053260299u32);
-            self.mem[(n.wrapping_add(6) & MASK) as usize] = a2;
-            self.mem[(n.wrapping_add(60) & MASK) as usize] = a3;
-            let b4: W = self.mem[(n.wrapping_add(43) & MASK) as usize];
-            let b5: W = self.mem[(n.wrapping_add(61) & MASK) as usize];
+            self.mem[i + 6] = a2;
+            self.mem[i + 60] = a3;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b4: W = self.mem[i + 43];
+            let b5: W = self.mem[i + 61];
             // junction 3: series resistor, c = 1053260299
             let (a4, a5) = P::series(b4, b5, 1053260299u32);
-            self.mem[(n.wrapping_add(42) & MASK) as usize] = a4;
-            self.mem[(n.wrapping_add(96) & MASK) as usize] = a5;
-            let b6: W = self.mem[(n.wrapping_add(79) & MASK) as usize];
-            let b7: W = self.mem[(n.wrapping_add(97) & MASK) as usize];
+            self.mem[i + 42] = a4;
+            self.mem[i + 96] = a5;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b6: W = self.mem[i + 79];
+            let b7: W = self.mem[i + 97];
             // junction 4: series resistor, c = 1053260299
             let (a6, a7) = P::series(b6, b7, 1053260299u32);
-            self.mem[(n.wrapping_add(78) & MASK) as usize] = a6;
-            self.mem[(n.wrapping_add(15) & MASK) as usize] = a7;
+            self.mem[i + 78] = a6;
+            self.mem[i + 15] = a7;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a0, rig_back);
             self.probes[1] = P::sum(a1, b1);
             self.probes[2] = P::diff(a0, rig_back);
             let output = P::to_code(P::sum(b0, b0), IO_SHIFT);
             self.n = n.wrapping_add(1);
+            if i + 1 < SPAN {
+                self.i = (i + 1) as u32;
+            } else {
+                self.mem.copy_within(SPAN..MEM, 0);
+                self.i = 0;
+            }
             output
         }
 
@@ -155,13 +169,14 @@ pub mod specialised {
         }
 
         fn rig_drive(&self) -> i16 {
-            let n = self.n;
-            let b: W = self.mem[(n.wrapping_add(0) & MASK) as usize];
+            let i = (self.i as usize).min(SPAN - 1);
+            let b: W = self.mem[i + 0];
             P::to_code(P::sum(b, b), IO_SHIFT)
         }
 
         fn reset(&mut self) {
             self.n = 0;
+            self.i = 0;
             self.mem.iter_mut().for_each(|w| *w = P::ZERO);
             self.b.iter_mut().for_each(|w| *w = P::ZERO);
             self.chokes.iter_mut().for_each(|w| *w = P::ZERO);

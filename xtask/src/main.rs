@@ -13,11 +13,14 @@
 //! * `rig`: the rig firmware in QEMU driven by `tidewire rig` end to end (see `rig.rs`).
 //! * `stream [--samples N]`: streaming `simulate` measured: time, output size, peak memory.
 //! * `scale` (use `--release`): verify time and peak memory of generated plants (see `scale.rs`).
+//! * `step-profile [PLANT] [m4|m0]`: where the instructions of a plant-specialised step go,
+//!   from the ELF of the last `firmware` run (see `profile.rs`).
 mod figures;
 mod gen;
 mod host;
 mod parts;
 mod plants;
+mod profile;
 mod rig;
 mod run;
 mod scale;
@@ -49,7 +52,8 @@ fn main() -> ExitCode {
         ["stream", rest @ ..] => stream::stream(rest),
         ["scale"] => scale::scale(),
         ["scale-one", path] => scale::one(path),
-        _ => Err("usage: cargo run -p xtask -- firmware [--inject-panic] | soak [--cases N] [--hours H] | rig | stream [--samples N] | scale"
+        ["step-profile", rest @ ..] => profile::step_profile(rest),
+        _ => Err("usage: cargo run -p xtask -- firmware [--inject-panic] | soak [--cases N] [--hours H] | rig | stream [--samples N] | scale | step-profile [PLANT] [m4|m0]"
             .into()),
     };
     match result {

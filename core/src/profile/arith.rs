@@ -22,6 +22,14 @@ pub(crate) trait Acc: Sized {
     /// c·(x − y) exactly, for c <= 2^30 (`i64`: two 32x32 products, since x − y needs 33
     /// bits) or c <= 2^14 (`i32`: one product of the 17-bit difference).
     fn mul_diff(c: u32, x: Self::W, y: Self::W) -> Self;
+    /// The series junction's numerators b1·2^f − c·(b1 − b2) and b2·2^f + c·(b1 − b2),
+    /// exactly, for c <= 2^f with 2^f·2^(wave bits + 1) within the accumulator (see
+    /// `Profile::series`).
+    fn series_num(c: u32, f: u32, b1: Self::W, b2: Self::W) -> (Self, Self);
+    /// A loss section's n = g·x − gb·x1 + a·y1 + r1 exactly (ranges in `loss_section`; the
+    /// residue 0 <= r1 < 2^LOSS_FRAC). The order of the sum differs by width, not its value.
+    #[allow(clippy::too_many_arguments)]
+    fn loss_sum(g: u32, x: Self::W, gb: i32, x1: Self::W, a: u32, y1: Self::W, r1: Self::W) -> Self;
     /// A threshold in wave LSB, saturated to the accumulator's range.
     fn from_u32(x: u32) -> Self;
     /// The node quotient of the cheap rule (see `Profile::node_scatter`):
@@ -58,20 +66,57 @@ impl Acc for i64 {
         Self::mul(c, x).wrapping_sub(Self::mul(c, y))
     }
     #[inline(always)]
+    fn series_num(c: u32, f: u32, b1: i32, b2: i32) -> (i64, i64) {
+        // The same integers regrouped as (2^f − c)·b1 + c·b2 and c·b1 + (2^f − c)·b2: four
+        // 32x32 multiply-accumulates (`SMULL`/`SMLAL`), where the difference form needed two
+        // products, two 64-bit shifts and two 64-bit adds. 0 <= 2^f − c <= 2^f = 2^30 < 2^31
+        // (c <= 2^f is checked at load), each product <= 2^61 and each sum <= 2^62.
+        // Where a 64-bit product is itself several 32-bit ones (ARMv6-M), the difference
+        // form with two products is cheaper and gives the same integers.
+        #[cfg(tidewire_no_long_mul)]
+        {
+            let cx = Self::mul_diff(c, b1, b2);
+            (i64::from(b1).wrapping_shl(f).wrapping_sub(cx), i64::from(b2).wrapping_shl(f).wrapping_add(cx))
+        }
+        #[cfg(not(tidewire_no_long_mul))]
+        {
+            let k = (1u32 << f).wrapping_sub(c);
+            (Self::mul(k, b1).wrapping_add(Self::mul(c, b2)), Self::mul(c, b1).wrapping_add(Self::mul(k, b2)))
+        }
+    }
+    #[inline(always)]
+    fn loss_sum(g: u32, x: i32, gb: i32, x1: i32, a: u32, y1: i32, r1: i32) -> i64 {
+        // The residue first and zero-extended (r1 >= 0, so the same value): the sum starts
+        // from it with a known zero high word, three `SMLAL`s on the M4, where adding it last
+        // took an add and an add-with-carry of its sign word (about 1.4 instructions per
+        // section fewer on the 85-port plant).
+        i64::from(r1 as u32)
+            .wrapping_add(Self::mul(g, x))
+            .wrapping_sub(i64::from(gb).wrapping_mul(i64::from(x1)))
+            .wrapping_add(Self::mul(a, y1))
+    }
+    #[inline(always)]
     fn from_u32(x: u32) -> i64 {
         i64::from(x)
     }
     #[inline(always)]
     fn quotient_abs(acc: i64, recip: u32, shift: u32, _total: u64) -> (i32, i32) {
-        // |acc| <= 2^62: q < 2^61, capped to 2^31 − 1, so the cast is exact.
-        let q = super::quotient64(acc.unsigned_abs(), recip, shift).min(i32::MAX as u64);
-        (q as i32, (acc != 0) as i32)
+        // q < |v| <= 2^32, so its low word is all of it and the cap is one 32-bit compare
+        // (a 64-bit cap took about ten instructions per node on the M4). The bound: with
+        // |b_k|, |e| <= 2^31, |acc| <= (2·Σ g_k + g_src)·2^31, and the node's total is at
+        // least Σ g_k + g_src (the port weights and the source; the shunt only adds, and
+        // `TOTAL_MAX` caps it far above them), so |v| = |acc|/total <= 2^32; q < |v|
+        // whenever acc != 0 (the reciprocal's strict rounding) and q = 0 when acc = 0.
+        let q = super::quotient64(acc.unsigned_abs(), recip, shift) as u32;
+        (q.min(i32::MAX as u32) as i32, (acc != 0) as i32)
     }
     #[inline(always)]
     fn port(fl: i32, b: i32, nz: i32) -> i32 {
         let s = fl.saturating_sub(b);
-        // s < 0 adds nz (0 or 1): no overflow.
-        s.wrapping_add((s >> 31) & nz)
+        // s < 0 adds nz (0 or 1): no overflow. The sign as 0/1 (a logical shift) and-ed with
+        // nz: on the M4 `and` with a shifted operand and an `add`, where the sign mask
+        // (s >> 31) & nz became a compare and a conditional add (one instruction per port more).
+        s.wrapping_add(((s as u32 >> 31) as i32) & nz)
     }
     #[inline(always)]
     fn floor_div_abs(acc: i64, recip: u32, shift: u32, total: u64) -> (i64, i64) {
@@ -97,6 +142,22 @@ impl Acc for i32 {
     fn mul_diff(c: u32, x: i16, y: i16) -> i32 {
         // |x − y| < 2^16 and c <= 2^14: one product < 2^30.
         (c as i32).wrapping_mul(i32::from(x).wrapping_sub(i32::from(y)))
+    }
+    #[inline(always)]
+    fn series_num(c: u32, f: u32, b1: i16, b2: i16) -> (i32, i32) {
+        // The difference form: one product of the 17-bit difference (c <= 2^14), where the
+        // regrouped form of `i64` would take four `MULS` on the Cortex-M0.
+        let cx = Self::mul_diff(c, b1, b2);
+        (i32::from(b1).wrapping_shl(f).wrapping_sub(cx), i32::from(b2).wrapping_shl(f).wrapping_add(cx))
+    }
+    #[inline(always)]
+    fn loss_sum(g: u32, x: i16, gb: i32, x1: i16, a: u32, y1: i16, r1: i16) -> i32 {
+        // The residue last: first on the Cortex-M0 it cost 10 instructions per sample more on
+        // the 34-port plant.
+        Self::mul(g, x)
+            .wrapping_sub(gb.wrapping_mul(i32::from(x1)))
+            .wrapping_add(Self::mul(a, y1))
+            .wrapping_add(i32::from(r1))
     }
     #[inline(always)]
     fn from_u32(x: u32) -> i32 {
@@ -178,9 +239,7 @@ macro_rules! junction_rules {
             // |c·x| <= 2^f·2^(wave bits + 1), |b·2^f| below the same: exact in the
             // accumulator (i64: <= 2^62; i32: <= 2^30).
             type A = $acc;
-            let cx = <A as Acc>::mul_diff(c, b1, b2);
-            let n1 = A::from(b1).wrapping_shl(Self::SERIES_FRAC).wrapping_sub(cx);
-            let n2 = A::from(b2).wrapping_shl(Self::SERIES_FRAC).wrapping_add(cx);
+            let (n1, n2) = <A as Acc>::series_num(c, Self::SERIES_FRAC, b1, b2);
             let t = |n: A| $sat($trunc(n, Self::SERIES_FRAC));
             (t(n1), t(n2))
         }
@@ -237,10 +296,7 @@ macro_rules! junction_rules {
             // |n| < 3·2^(f + wave bits − 1) + 2^f (i64, f = 30: < 2^63; i32, f = 14: < 2^31)
             // whatever the wrapping order; r < 2^f fits a wave (2^30 < 2^31, 2^14 < 2^15).
             type A = $acc;
-            let n = <A as Acc>::mul(g, x)
-                .wrapping_sub(A::from(gb).wrapping_mul(A::from(x1)))
-                .wrapping_add(<A as Acc>::mul(a, y1))
-                .wrapping_add(A::from(r1));
+            let n = <A as Acc>::loss_sum(g, x, gb, x1, a, y1, r1);
             let low = (1 as A).wrapping_shl(Self::LOSS_FRAC).wrapping_sub(1);
             // The low bits as a wave (< 2^f, so the cast keeps the value).
             ($sat(n.wrapping_shr(Self::LOSS_FRAC)), (n & low) as Self::Wave)
@@ -291,7 +347,8 @@ macro_rules! junction_rules {
         fn adapt(b: Self::Wave, a: Self::Wave, mu: u32, negate: bool) -> Self::Wave {
             // |b·2^f| and |μ·(a − b)| <= 2^f·2^(wave bits + 1) (μ <= 1, checked at load).
             type A = $acc;
-            let n = A::from(b).wrapping_shl(Self::SERIES_FRAC).wrapping_add(<A as Acc>::mul_diff(mu, a, b));
+            // b·2^f + μ·(a − b): the second numerator of the series form with b1 = a, b2 = b.
+            let (_, n) = <A as Acc>::series_num(mu, Self::SERIES_FRAC, a, b);
             let m = $trunc(n, Self::SERIES_FRAC);
             $sat(if negate { m.wrapping_neg() } else { m })
         }

@@ -129,9 +129,10 @@ pub mod specialised {
 
     type P = tidewire_core::Narrow;
     type W = i16;
-    /// Delay memory, waves (a power of two: every ring is addressed through `MASK`).
-    pub const MEM: usize = 4096;
-    const MASK: u32 = 4095;
+    /// The rings' span, waves: the window of one sample, and the period of its position.
+    pub const SPAN: usize = 3934;
+    /// Delay memory, waves: two windows (the upper half holds the waves in flight at a wrap).
+    pub const MEM: usize = 2 * SPAN;
     const IO_SHIFT: u32 = 0;
     const EXPONENT: u32 = 28;
     const PROBES: usize = 4;
@@ -142,6 +143,7 @@ pub mod specialised {
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
     pub struct Plant {
         n: u32,
+        i: u32,
         mem: [W; MEM],
         b: [W; 27],
         chokes: [W; 0],
@@ -160,7 +162,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 27], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 22], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 11], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 27], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 22], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 11], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -174,325 +176,362 @@ pub mod specialised {
         #[inline]
         fn step(&mut self, input: i16) -> i16 {
             let n = self.n;
+            let i = (self.i as usize).min(SPAN - 1);
             let e: W = P::from_code(input, IO_SHIFT);
-            let b0: W = self.mem[(n.wrapping_add(0) & MASK) as usize];
+            let b0: W = self.mem[i + 0];
             // junction 0: node of 1 port(s), fixed
             let [a0] = { let mut o = [self.held[0]]; P::node_scatter_held(&[b0], &[2236u32], &mut o, e, 5368u32, 54560u32, 13u32, 9840u64, 2u32); o };
-            self.mem[(n.wrapping_add(1013) & MASK) as usize] = a0;
+            self.mem[i + 1013] = a0;
             self.held[0] = a0;
-            let b1: W = self.mem[(n.wrapping_add(77) & MASK) as usize];
-            let b2: W = self.mem[(n.wrapping_add(154) & MASK) as usize];
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b1: W = self.mem[i + 77];
+            let b2: W = self.mem[i + 154];
             let b3: W = self.b[0];
             // junction 1: node of 3 port(s), fixed
             let [a1, a2, a3] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b1, b2, b3], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64); o };
-            self.mem[(n.wrapping_add(1392) & MASK) as usize] = a1;
-            self.mem[(n.wrapping_add(1460) & MASK) as usize] = a2;
-            self.mem[(n.wrapping_add(3857) & MASK) as usize] = a3;
-            let b4: W = self.mem[(n.wrapping_add(230) & MASK) as usize];
-            let b5: W = self.mem[(n.wrapping_add(298) & MASK) as usize];
+            self.mem[i + 1392] = a1;
+            self.mem[i + 1460] = a2;
+            self.mem[i + 3857] = a3;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b4: W = self.mem[i + 230];
+            let b5: W = self.mem[i + 298];
             let b6: W = self.b[1];
             // junction 2: node of 3 port(s), fixed
             let [a4, a5, a6] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b4, b5, b6], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64); o };
-            self.mem[(n.wrapping_add(2070) & MASK) as usize] = a4;
-            self.mem[(n.wrapping_add(2160) & MASK) as usize] = a5;
-            self.mem[(n.wrapping_add(3872) & MASK) as usize] = a6;
-            let b7: W = self.mem[(n.wrapping_add(395) & MASK) as usize];
-            let b8: W = self.mem[(n.wrapping_add(484) & MASK) as usize];
+            self.mem[i + 2070] = a4;
+            self.mem[i + 2160] = a5;
+            self.mem[i + 3872] = a6;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b7: W = self.mem[i + 395];
+            let b8: W = self.mem[i + 484];
             let b9: W = self.b[2];
             // junction 3: node of 3 port(s), fixed
             let [a7, a8, a9] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b7, b8, b9], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64); o };
-            self.mem[(n.wrapping_add(2603) & MASK) as usize] = a7;
-            self.mem[(n.wrapping_add(2680) & MASK) as usize] = a8;
-            self.mem[(n.wrapping_add(3889) & MASK) as usize] = a9;
-            let b10: W = self.mem[(n.wrapping_add(571) & MASK) as usize];
-            let b11: W = self.mem[(n.wrapping_add(648) & MASK) as usize];
+            self.mem[i + 2603] = a7;
+            self.mem[i + 2680] = a8;
+            self.mem[i + 3889] = a9;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b10: W = self.mem[i + 571];
+            let b11: W = self.mem[i + 648];
             let b12: W = self.b[3];
             // junction 4: node of 3 port(s), fixed
             let [a10, a11, a12] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b10, b11, b12], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64); o };
-            self.mem[(n.wrapping_add(3365) & MASK) as usize] = a10;
-            self.mem[(n.wrapping_add(3429) & MASK) as usize] = a11;
-            self.mem[(n.wrapping_add(3909) & MASK) as usize] = a12;
-            let b13: W = self.mem[(n.wrapping_add(721) & MASK) as usize];
+            self.mem[i + 3365] = a10;
+            self.mem[i + 3429] = a11;
+            self.mem[i + 3909] = a12;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b13: W = self.mem[i + 721];
             let b14: W = self.b[4];
             let b15: W = self.b[5];
             // junction 5: node of 3 port(s), fixed
             let [a13, a14, a15] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b13, b14, b15], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64); o };
-            self.mem[(n.wrapping_add(3747) & MASK) as usize] = a13;
-            self.mem[(n.wrapping_add(3798) & MASK) as usize] = a14;
-            self.mem[(n.wrapping_add(3926) & MASK) as usize] = a15;
-            let b16: W = self.mem[(n.wrapping_add(843) & MASK) as usize];
+            self.mem[i + 3747] = a13;
+            self.mem[i + 3798] = a14;
+            self.mem[i + 3926] = a15;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b16: W = self.mem[i + 843];
             // junction 6: node of 1 port(s), fixed
             let [a16] = [b16];
-            self.mem[(n.wrapping_add(3849) & MASK) as usize] = a16;
-            let b17: W = self.mem[(n.wrapping_add(894) & MASK) as usize];
+            self.mem[i + 3849] = a16;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b17: W = self.mem[i + 894];
             let b18: W = self.b[6];
             // junction 7: node of 2 port(s), fixed
             let [a17, a18] = { let mut o = [self.held[1], self.held[2]]; P::node_scatter_held(&[b17, b18], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64, 1180u32); o };
-            self.mem[(n.wrapping_add(3865) & MASK) as usize] = a17;
+            self.mem[i + 3865] = a17;
             self.held[1] = a17;
             let a18 = P::adapt(b18, a18, 16384u32, false);
             self.b[6] = a18;
             self.held[2] = a18;
-            let b19: W = self.mem[(n.wrapping_add(902) & MASK) as usize];
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b19: W = self.mem[i + 902];
             let b20: W = self.b[7];
             // junction 8: node of 2 port(s), fixed
             let [a19, a20] = { let mut o = [self.held[3], self.held[4]]; P::node_scatter_held(&[b19, b20], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64, 1180u32); o };
-            self.mem[(n.wrapping_add(3879) & MASK) as usize] = a19;
+            self.mem[i + 3879] = a19;
             self.held[3] = a19;
             let a20 = P::adapt(b20, a20, 16384u32, false);
             self.b[7] = a20;
             self.held[4] = a20;
-            let b21: W = self.mem[(n.wrapping_add(909) & MASK) as usize];
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b21: W = self.mem[i + 909];
             let b22: W = self.b[8];
             // junction 9: node of 2 port(s), fixed
             let [a21, a22] = { let mut o = [self.held[5], self.held[6]]; P::node_scatter_held(&[b21, b22], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64, 1180u32); o };
-            self.mem[(n.wrapping_add(3900) & MASK) as usize] = a21;
+            self.mem[i + 3900] = a21;
             self.held[5] = a21;
             let a22 = P::adapt(b22, a22, 16384u32, false);
             self.b[8] = a22;
             self.held[6] = a22;
-            let b23: W = self.mem[(n.wrapping_add(920) & MASK) as usize];
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b23: W = self.mem[i + 920];
             let b24: W = self.b[9];
             // junction 10: node of 2 port(s), fixed
             let [a23, a24] = { let mut o = [self.held[7], self.held[8]]; P::node_scatter_held(&[b23, b24], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64, 1180u32); o };
-            self.mem[(n.wrapping_add(3919) & MASK) as usize] = a23;
+            self.mem[i + 3919] = a23;
             self.held[7] = a23;
             let a24 = P::adapt(b24, a24, 16384u32, false);
             self.b[9] = a24;
             self.held[8] = a24;
-            let b25: W = self.mem[(n.wrapping_add(930) & MASK) as usize];
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b25: W = self.mem[i + 930];
             let b26: W = self.b[10];
             // junction 11: node of 2 port(s), fixed
             let [a25, a26] = { let mut o = [self.held[9], self.held[10]]; P::node_scatter_held(&[b25, b26], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64, 1180u32); o };
-            self.mem[(n.wrapping_add(3933) & MASK) as usize] = a25;
+            self.mem[i + 3933] = a25;
             self.held[9] = a25;
             let a26 = P::adapt(b26, a26, 16384u32, false);
             self.b[10] = a26;
             self.held[10] = a26;
-            let b27: W = self.mem[(n.wrapping_add(937) & MASK) as usize];
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b27: W = self.mem[i + 937];
             let b28: W = self.b[11];
             // junction 12: series resistor, c = 16047
             let (a27, a28) = P::series(b27, b28, 16047u32);
-            self.mem[(n.wrapping_add(76) & MASK) as usize] = a27;
-            self.mem[(n.wrapping_add(1315) & MASK) as usize] = a28;
+            self.mem[i + 76] = a27;
+            self.mem[i + 1315] = a28;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b29: W = self.b[12];
-            let b30: W = self.mem[(n.wrapping_add(1316) & MASK) as usize];
+            let b30: W = self.mem[i + 1316];
             // junction 13: series resistor, c = 16047
             let (a29, a30) = P::series(b29, b30, 16047u32);
-            self.mem[(n.wrapping_add(1164) & MASK) as usize] = a29;
-            self.mem[(n.wrapping_add(153) & MASK) as usize] = a30;
-            let b31: W = self.mem[(n.wrapping_add(1393) & MASK) as usize];
+            self.mem[i + 1164] = a29;
+            self.mem[i + 153] = a30;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b31: W = self.mem[i + 1393];
             let b32: W = self.b[13];
             // junction 14: series resistor, c = 16083
             let (a31, a32) = P::series(b31, b32, 16083u32);
-            self.mem[(n.wrapping_add(221) & MASK) as usize] = a31;
-            self.mem[(n.wrapping_add(1730) & MASK) as usize] = a32;
+            self.mem[i + 221] = a31;
+            self.mem[i + 1730] = a32;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b33: W = self.b[14];
-            let b34: W = self.mem[(n.wrapping_add(1731) & MASK) as usize];
+            let b34: W = self.mem[i + 1731];
             // junction 15: series resistor, c = 16083
             let (a33, a34) = P::series(b33, b34, 16083u32);
-            self.mem[(n.wrapping_add(1595) & MASK) as usize] = a33;
-            self.mem[(n.wrapping_add(2002) & MASK) as usize] = a34;
-            let b35: W = self.mem[(n.wrapping_add(1867) & MASK) as usize];
-            let b36: W = self.mem[(n.wrapping_add(2003) & MASK) as usize];
+            self.mem[i + 1595] = a33;
+            self.mem[i + 2002] = a34;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b35: W = self.mem[i + 1867];
+            let b36: W = self.mem[i + 2003];
             // junction 16: series resistor, c = 16083
             let (a35, a36) = P::series(b35, b36, 16083u32);
-            self.mem[(n.wrapping_add(1866) & MASK) as usize] = a35;
-            self.mem[(n.wrapping_add(297) & MASK) as usize] = a36;
-            let b37: W = self.mem[(n.wrapping_add(2071) & MASK) as usize];
+            self.mem[i + 1866] = a35;
+            self.mem[i + 297] = a36;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b37: W = self.mem[i + 2071];
             let b38: W = self.b[15];
             // junction 17: series resistor, c = 15992
             let (a37, a38) = P::series(b37, b38, 15992u32);
-            self.mem[(n.wrapping_add(387) & MASK) as usize] = a37;
-            self.mem[(n.wrapping_add(2514) & MASK) as usize] = a38;
+            self.mem[i + 387] = a37;
+            self.mem[i + 2514] = a38;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b39: W = self.b[16];
-            let b40: W = self.mem[(n.wrapping_add(2515) & MASK) as usize];
+            let b40: W = self.mem[i + 2515];
             // junction 18: series resistor, c = 15992
             let (a39, a40) = P::series(b39, b40, 15992u32);
-            self.mem[(n.wrapping_add(2337) & MASK) as usize] = a39;
-            self.mem[(n.wrapping_add(483) & MASK) as usize] = a40;
-            let b41: W = self.mem[(n.wrapping_add(2604) & MASK) as usize];
+            self.mem[i + 2337] = a39;
+            self.mem[i + 483] = a40;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b41: W = self.mem[i + 2604];
             let b42: W = self.b[17];
             // junction 19: series resistor, c = 16047
             let (a41, a42) = P::series(b41, b42, 16047u32);
-            self.mem[(n.wrapping_add(560) & MASK) as usize] = a41;
-            self.mem[(n.wrapping_add(2984) & MASK) as usize] = a42;
+            self.mem[i + 560] = a41;
+            self.mem[i + 2984] = a42;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b43: W = self.b[18];
-            let b44: W = self.mem[(n.wrapping_add(2985) & MASK) as usize];
+            let b44: W = self.mem[i + 2985];
             // junction 20: series resistor, c = 16047
             let (a43, a44) = P::series(b43, b44, 16047u32);
-            self.mem[(n.wrapping_add(2832) & MASK) as usize] = a43;
-            self.mem[(n.wrapping_add(3288) & MASK) as usize] = a44;
-            let b45: W = self.mem[(n.wrapping_add(3137) & MASK) as usize];
-            let b46: W = self.mem[(n.wrapping_add(3289) & MASK) as usize];
+            self.mem[i + 2832] = a43;
+            self.mem[i + 3288] = a44;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b45: W = self.mem[i + 3137];
+            let b46: W = self.mem[i + 3289];
             // junction 21: series resistor, c = 16047
             let (a45, a46) = P::series(b45, b46, 16047u32);
-            self.mem[(n.wrapping_add(3136) & MASK) as usize] = a45;
-            self.mem[(n.wrapping_add(647) & MASK) as usize] = a46;
-            let b47: W = self.mem[(n.wrapping_add(3366) & MASK) as usize];
+            self.mem[i + 3136] = a45;
+            self.mem[i + 647] = a46;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b47: W = self.mem[i + 3366];
             let b48: W = self.b[19];
             // junction 22: series resistor, c = 16102
             let (a47, a48) = P::series(b47, b48, 16102u32);
-            self.mem[(n.wrapping_add(711) & MASK) as usize] = a47;
-            self.mem[(n.wrapping_add(3683) & MASK) as usize] = a48;
+            self.mem[i + 711] = a47;
+            self.mem[i + 3683] = a48;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b49: W = self.b[20];
-            let b50: W = self.mem[(n.wrapping_add(3684) & MASK) as usize];
+            let b50: W = self.mem[i + 3684];
             // junction 23: series resistor, c = 16102
             let (a49, a50) = P::series(b49, b50, 16102u32);
-            self.mem[(n.wrapping_add(3556) & MASK) as usize] = a49;
-            self.mem[(n.wrapping_add(784) & MASK) as usize] = a50;
+            self.mem[i + 3556] = a49;
+            self.mem[i + 784] = a50;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b51: W = self.b[21];
-            let b52: W = self.mem[(n.wrapping_add(3799) & MASK) as usize];
+            let b52: W = self.mem[i + 3799];
             // junction 24: series resistor, c = 16157
             let (a51, a52) = P::series(b51, b52, 16157u32);
-            self.mem[(n.wrapping_add(835) & MASK) as usize] = a51;
-            self.mem[(n.wrapping_add(893) & MASK) as usize] = a52;
+            self.mem[i + 835] = a51;
+            self.mem[i + 893] = a52;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b53: W = self.b[22];
-            let b54: W = self.mem[(n.wrapping_add(3858) & MASK) as usize];
+            let b54: W = self.mem[i + 3858];
             // junction 25: series resistor, c = 16349
             let (a53, a54) = P::series(b53, b54, 16349u32);
-            self.mem[(n.wrapping_add(229) & MASK) as usize] = a53;
-            self.mem[(n.wrapping_add(901) & MASK) as usize] = a54;
+            self.mem[i + 229] = a53;
+            self.mem[i + 901] = a54;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b55: W = self.b[23];
-            let b56: W = self.mem[(n.wrapping_add(3873) & MASK) as usize];
+            let b56: W = self.mem[i + 3873];
             // junction 26: series resistor, c = 16355
             let (a55, a56) = P::series(b55, b56, 16355u32);
-            self.mem[(n.wrapping_add(394) & MASK) as usize] = a55;
-            self.mem[(n.wrapping_add(908) & MASK) as usize] = a56;
+            self.mem[i + 394] = a55;
+            self.mem[i + 908] = a56;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b57: W = self.b[24];
-            let b58: W = self.mem[(n.wrapping_add(3890) & MASK) as usize];
+            let b58: W = self.mem[i + 3890];
             // junction 27: series resistor, c = 16338
             let (a57, a58) = P::series(b57, b58, 16338u32);
-            self.mem[(n.wrapping_add(570) & MASK) as usize] = a57;
-            self.mem[(n.wrapping_add(919) & MASK) as usize] = a58;
+            self.mem[i + 570] = a57;
+            self.mem[i + 919] = a58;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b59: W = self.b[25];
-            let b60: W = self.mem[(n.wrapping_add(3910) & MASK) as usize];
+            let b60: W = self.mem[i + 3910];
             // junction 28: series resistor, c = 16343
             let (a59, a60) = P::series(b59, b60, 16343u32);
-            self.mem[(n.wrapping_add(720) & MASK) as usize] = a59;
-            self.mem[(n.wrapping_add(929) & MASK) as usize] = a60;
+            self.mem[i + 720] = a59;
+            self.mem[i + 929] = a60;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b61: W = self.b[26];
-            let b62: W = self.mem[(n.wrapping_add(3927) & MASK) as usize];
+            let b62: W = self.mem[i + 3927];
             // junction 29: series resistor, c = 16355
             let (a61, a62) = P::series(b61, b62, 16355u32);
-            self.mem[(n.wrapping_add(842) & MASK) as usize] = a61;
-            self.mem[(n.wrapping_add(936) & MASK) as usize] = a62;
+            self.mem[i + 842] = a61;
+            self.mem[i + 936] = a62;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a0, b0);
             self.probes[1] = P::sum(a16, b16);
             self.probes[2] = P::sum(a21, b21);
             self.probes[3] = P::diff(a0, b0);
             let output = P::to_code(P::sum(a0, b0), IO_SHIFT);
-            let mut x: W = self.mem[(n.wrapping_add(1015) & MASK) as usize];
+            let mut x: W = self.mem[i + 1015];
             let (y, s_next) = P::allpass(x, self.aps[0], -1755i32, 16289u32);
             self.aps[0] = s_next;
             x = y;
             self.b[11] = x;
-            let mut x: W = self.mem[(n.wrapping_add(1166) & MASK) as usize];
+            let mut x: W = self.mem[i + 1166];
             let (y, s_next) = P::allpass(x, self.aps[1], -1755i32, 16289u32);
             self.aps[1] = s_next;
             x = y;
             self.b[12] = x;
-            let mut x: W = self.mem[(n.wrapping_add(1462) & MASK) as usize];
+            let mut x: W = self.mem[i + 1462];
             let (y, s_next) = P::allpass(x, self.aps[2], -2260i32, 16227u32);
             self.aps[2] = s_next;
             x = y;
             self.b[13] = x;
-            let mut x: W = self.mem[(n.wrapping_add(1597) & MASK) as usize];
+            let mut x: W = self.mem[i + 1597];
             let (y, s_next) = P::allpass(x, self.aps[3], -2260i32, 16227u32);
             self.aps[3] = s_next;
             x = y;
             self.b[14] = x;
-            let mut x: W = self.mem[(n.wrapping_add(2162) & MASK) as usize];
+            let mut x: W = self.mem[i + 2162];
             let (y, s_next) = P::allpass(x, self.aps[4], 2023i32, 16258u32);
             self.aps[4] = s_next;
             x = y;
             self.b[15] = x;
-            let mut x: W = self.mem[(n.wrapping_add(2339) & MASK) as usize];
+            let mut x: W = self.mem[i + 2339];
             let (y, s_next) = P::allpass(x, self.aps[5], 2023i32, 16258u32);
             self.aps[5] = s_next;
             x = y;
             self.b[16] = x;
-            let mut x: W = self.mem[(n.wrapping_add(2682) & MASK) as usize];
+            let mut x: W = self.mem[i + 2682];
             let (y, s_next) = P::allpass(x, self.aps[6], 1231i32, 16337u32);
             self.aps[6] = s_next;
             x = y;
             self.b[17] = x;
-            let mut x: W = self.mem[(n.wrapping_add(2834) & MASK) as usize];
+            let mut x: W = self.mem[i + 2834];
             let (y, s_next) = P::allpass(x, self.aps[7], 1231i32, 16337u32);
             self.aps[7] = s_next;
             x = y;
             self.b[18] = x;
-            let mut x: W = self.mem[(n.wrapping_add(3431) & MASK) as usize];
+            let mut x: W = self.mem[i + 3431];
             let (y, s_next) = P::allpass(x, self.aps[8], 2890i32, 16127u32);
             self.aps[8] = s_next;
             x = y;
             self.b[19] = x;
-            let mut x: W = self.mem[(n.wrapping_add(3558) & MASK) as usize];
+            let mut x: W = self.mem[i + 3558];
             let (y, s_next) = P::allpass(x, self.aps[9], 2890i32, 16127u32);
             self.aps[9] = s_next;
             x = y;
             self.b[20] = x;
-            let mut x: W = self.mem[(n.wrapping_add(786) & MASK) as usize];
+            let mut x: W = self.mem[i + 786];
             let (y, s_next) = P::allpass(x, self.aps[10], -630i32, 16371u32);
             self.aps[10] = s_next;
             x = y;
             self.b[4] = x;
-            let mut x: W = self.mem[(n.wrapping_add(3749) & MASK) as usize];
+            let mut x: W = self.mem[i + 3749];
             let (y, s_next) = P::allpass(x, self.aps[11], -630i32, 16371u32);
             self.aps[11] = s_next;
             x = y;
             self.b[21] = x;
-            let mut x: W = self.mem[(n.wrapping_add(223) & MASK) as usize];
+            let mut x: W = self.mem[i + 223];
             let (y, s_next) = P::allpass(x, self.aps[12], -1227i32, 16337u32);
             self.aps[12] = s_next;
             x = y;
             self.b[0] = x;
-            let mut x: W = self.mem[(n.wrapping_add(3851) & MASK) as usize];
+            let mut x: W = self.mem[i + 3851];
             let (y, s_next) = P::allpass(x, self.aps[13], -1227i32, 16337u32);
             self.aps[13] = s_next;
             x = y;
             self.b[22] = x;
-            let mut x: W = self.mem[(n.wrapping_add(389) & MASK) as usize];
+            let mut x: W = self.mem[i + 389];
             let (y, s_next) = P::allpass(x, self.aps[14], 3657i32, 15970u32);
             self.aps[14] = s_next;
             x = y;
             self.b[1] = x;
-            let mut x: W = self.mem[(n.wrapping_add(3867) & MASK) as usize];
+            let mut x: W = self.mem[i + 3867];
             let (y, s_next) = P::allpass(x, self.aps[15], 3657i32, 15970u32);
             self.aps[15] = s_next;
             x = y;
             self.b[23] = x;
-            let mut x: W = self.mem[(n.wrapping_add(562) & MASK) as usize];
+            let mut x: W = self.mem[i + 562];
             let (y, s_next) = P::allpass(x, self.aps[16], -1597i32, 16305u32);
             self.aps[16] = s_next;
             x = y;
             self.b[2] = x;
-            let mut x: W = self.mem[(n.wrapping_add(3881) & MASK) as usize];
+            let mut x: W = self.mem[i + 3881];
             let (y, s_next) = P::allpass(x, self.aps[17], -1597i32, 16305u32);
             self.aps[17] = s_next;
             x = y;
             self.b[24] = x;
-            let mut x: W = self.mem[(n.wrapping_add(713) & MASK) as usize];
+            let mut x: W = self.mem[i + 713];
             let (y, s_next) = P::allpass(x, self.aps[18], 3016i32, 16103u32);
             self.aps[18] = s_next;
             x = y;
             self.b[3] = x;
-            let mut x: W = self.mem[(n.wrapping_add(3902) & MASK) as usize];
+            let mut x: W = self.mem[i + 3902];
             let (y, s_next) = P::allpass(x, self.aps[19], 3016i32, 16103u32);
             self.aps[19] = s_next;
             x = y;
             self.b[25] = x;
-            let mut x: W = self.mem[(n.wrapping_add(837) & MASK) as usize];
+            let mut x: W = self.mem[i + 837];
             let (y, s_next) = P::allpass(x, self.aps[20], 3657i32, 15970u32);
             self.aps[20] = s_next;
             x = y;
             self.b[5] = x;
-            let mut x: W = self.mem[(n.wrapping_add(3921) & MASK) as usize];
+            let mut x: W = self.mem[i + 3921];
             let (y, s_next) = P::allpass(x, self.aps[21], 3657i32, 15970u32);
             self.aps[21] = s_next;
             x = y;
             self.b[26] = x;
             self.n = n.wrapping_add(1);
+            if i + 1 < SPAN {
+                self.i = (i + 1) as u32;
+            } else {
+                self.mem.copy_within(SPAN..MEM, 0);
+                self.i = 0;
+            }
             output
         }
 
@@ -510,6 +549,7 @@ pub mod specialised {
 
         fn reset(&mut self) {
             self.n = 0;
+            self.i = 0;
             self.mem.iter_mut().for_each(|w| *w = P::ZERO);
             self.b.iter_mut().for_each(|w| *w = P::ZERO);
             self.chokes.iter_mut().for_each(|w| *w = P::ZERO);

@@ -54,9 +54,10 @@ pub mod specialised {
 
     type P = tidewire_core::Wide;
     type W = i32;
-    /// Delay memory, waves (a power of two: every ring is addressed through `MASK`).
-    pub const MEM: usize = 1024;
-    const MASK: u32 = 1023;
+    /// The rings' span, waves: the window of one sample, and the period of its position.
+    pub const SPAN: usize = 1002;
+    /// Delay memory, waves: two windows (the upper half holds the waves in flight at a wrap).
+    pub const MEM: usize = 2 * SPAN;
     const IO_SHIFT: u32 = 8;
     const EXPONENT: u32 = 44;
     const PROBES: usize = 1;
@@ -68,6 +69,7 @@ pub mod specialised {
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
     pub struct Plant {
         n: u32,
+        i: u32,
         mem: [W; MEM],
         b: [W; 0],
         chokes: [W; 0],
@@ -86,7 +88,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 1], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 1], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -100,20 +102,29 @@ pub mod specialised {
         #[inline]
         fn step(&mut self, input: i16) -> i16 {
             let n = self.n;
+            let i = (self.i as usize).min(SPAN - 1);
             let e: W = P::from_code(input, IO_SHIFT);
-            let b0: W = self.mem[(n.wrapping_add(0) & MASK) as usize];
+            let b0: W = self.mem[i + 0];
             // junction 0: node of 1 port(s), fixed
             let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[351843720u32], &mut o, e, 351843720u32, 3276800008u32, 29u32, 703687440u64); o };
-            self.mem[(n.wrapping_add(1001) & MASK) as usize] = a0;
-            let b1: W = self.mem[(n.wrapping_add(501) & MASK) as usize];
+            self.mem[i + 1001] = a0;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b1: W = self.mem[i + 501];
             // junction 1: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
             let [a1] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b1], &[351843720u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b1] } else { [P::neg(b1)] };
-            self.mem[(n.wrapping_add(500) & MASK) as usize] = a1;
+            self.mem[i + 500] = a1;
             self.held[0] = a1;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a1, b1);
             let output = P::to_code(P::sum(a0, b0), IO_SHIFT);
             self.n = n.wrapping_add(1);
+            if i + 1 < SPAN {
+                self.i = (i + 1) as u32;
+            } else {
+                self.mem.copy_within(SPAN..MEM, 0);
+                self.i = 0;
+            }
             output
         }
 
@@ -131,6 +142,7 @@ pub mod specialised {
 
         fn reset(&mut self) {
             self.n = 0;
+            self.i = 0;
             self.mem.iter_mut().for_each(|w| *w = P::ZERO);
             self.b.iter_mut().for_each(|w| *w = P::ZERO);
             self.chokes.iter_mut().for_each(|w| *w = P::ZERO);

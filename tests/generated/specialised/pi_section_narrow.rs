@@ -63,9 +63,10 @@ pub mod specialised {
 
     type P = tidewire_core::Narrow;
     type W = i16;
-    /// Delay memory, waves (a power of two: every ring is addressed through `MASK`).
-    pub const MEM: usize = 128;
-    const MASK: u32 = 127;
+    /// The rings' span, waves: the window of one sample, and the period of its position.
+    pub const SPAN: usize = 92;
+    /// Delay memory, waves: two windows (the upper half holds the waves in flight at a wrap).
+    pub const MEM: usize = 2 * SPAN;
     const IO_SHIFT: u32 = 0;
     const EXPONENT: u32 = 28;
     const PROBES: usize = 2;
@@ -77,6 +78,7 @@ pub mod specialised {
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
     pub struct Plant {
         n: u32,
+        i: u32,
         mem: [W; MEM],
         b: [W; 6],
         chokes: [W; 1],
@@ -95,7 +97,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 1], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 4], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 1], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 1], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 4], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 1], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -109,17 +111,20 @@ pub mod specialised {
         #[inline]
         fn step(&mut self, input: i16) -> i16 {
             let n = self.n;
+            let i = (self.i as usize).min(SPAN - 1);
             let e: W = P::from_code(input, IO_SHIFT);
             let b0: W = self.b[0];
             // junction 0: node of 1 port(s), fixed
             let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[2684u32], &mut o, e, 2684u32, 50006u32, 12u32, 5368u64); o };
-            self.mem[(n.wrapping_add(45) & MASK) as usize] = a0;
+            self.mem[i + 45] = a0;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b5: W = self.b[5];
             // junction 3: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
             let [a5] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b5], &[2684u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b5] } else { [P::neg(b5)] };
-            self.mem[(n.wrapping_add(68) & MASK) as usize] = a5;
+            self.mem[i + 68] = a5;
             self.held[0] = a5;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b1: W = self.b[1];
             let b2: W = self.b[2];
             let b3: W = self.b[3];
@@ -131,36 +136,43 @@ pub mod specialised {
             let [a1, a2] = { let mut o = [P::ZERO; 2]; P::branch_node(&[b1, b2], &[2684u32, 814u32], &mut o, e, 0u32, 3498u32, ra4, 38369u32, 12u32, 6996u64); o };
             let [a3, a4] = { let mut o = [P::ZERO; 2]; P::branch_node(&[b3, b4], &[2684u32, 814u32], &mut o, e, 0u32, 3498u32, rb4, 38369u32, 12u32, 6996u64); o };
             self.chokes[0] = P::neg(al4);
-            self.mem[(n.wrapping_add(22) & MASK) as usize] = a1;
+            self.mem[i + 22] = a1;
             let a2 = P::adapt(b2, a2, 16384u32, false);
             self.b[2] = a2;
-            self.mem[(n.wrapping_add(91) & MASK) as usize] = a3;
+            self.mem[i + 91] = a3;
             let a4 = P::adapt(b4, a4, 16384u32, false);
             self.b[4] = a4;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a5, b5);
             self.probes[1] = P::sum(a1, b1);
             let output = P::to_code(P::sum(a0, b0), IO_SHIFT);
-            let mut x: W = self.mem[(n.wrapping_add(1) & MASK) as usize];
+            let mut x: W = self.mem[i + 1];
             let (y, s_next) = P::allpass(x, self.aps[0], 2415i32, 16204u32);
             self.aps[0] = s_next;
             x = y;
             self.b[0] = x;
-            let mut x: W = self.mem[(n.wrapping_add(24) & MASK) as usize];
+            let mut x: W = self.mem[i + 24];
             let (y, s_next) = P::allpass(x, self.aps[1], 2415i32, 16204u32);
             self.aps[1] = s_next;
             x = y;
             self.b[1] = x;
-            let mut x: W = self.mem[(n.wrapping_add(47) & MASK) as usize];
+            let mut x: W = self.mem[i + 47];
             let (y, s_next) = P::allpass(x, self.aps[2], 2415i32, 16204u32);
             self.aps[2] = s_next;
             x = y;
             self.b[3] = x;
-            let mut x: W = self.mem[(n.wrapping_add(70) & MASK) as usize];
+            let mut x: W = self.mem[i + 70];
             let (y, s_next) = P::allpass(x, self.aps[3], 2415i32, 16204u32);
             self.aps[3] = s_next;
             x = y;
             self.b[5] = x;
             self.n = n.wrapping_add(1);
+            if i + 1 < SPAN {
+                self.i = (i + 1) as u32;
+            } else {
+                self.mem.copy_within(SPAN..MEM, 0);
+                self.i = 0;
+            }
             output
         }
 
@@ -178,6 +190,7 @@ pub mod specialised {
 
         fn reset(&mut self) {
             self.n = 0;
+            self.i = 0;
             self.mem.iter_mut().for_each(|w| *w = P::ZERO);
             self.b.iter_mut().for_each(|w| *w = P::ZERO);
             self.chokes.iter_mut().for_each(|w| *w = P::ZERO);

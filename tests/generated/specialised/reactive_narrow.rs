@@ -71,9 +71,10 @@ pub mod specialised {
 
     type P = tidewire_core::Narrow;
     type W = i16;
-    /// Delay memory, waves (a power of two: every ring is addressed through `MASK`).
-    pub const MEM: usize = 128;
-    const MASK: u32 = 127;
+    /// The rings' span, waves: the window of one sample, and the period of its position.
+    pub const SPAN: usize = 72;
+    /// Delay memory, waves: two windows (the upper half holds the waves in flight at a wrap).
+    pub const MEM: usize = 2 * SPAN;
     const IO_SHIFT: u32 = 0;
     const EXPONENT: u32 = 26;
     const PROBES: usize = 4;
@@ -86,6 +87,7 @@ pub mod specialised {
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
     pub struct Plant {
         n: u32,
+        i: u32,
         mem: [W; MEM],
         b: [W; 4],
         chokes: [W; 1],
@@ -104,7 +106,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 4], chokes: [P::ZERO; 1], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 8], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 4], chokes: [P::ZERO; 1], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 8], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -118,24 +120,26 @@ pub mod specialised {
         #[inline]
         fn step(&mut self, input: i16) -> i16 {
             let n = self.n;
+            let i = (self.i as usize).min(SPAN - 1);
             let e: W = P::from_code(input, IO_SHIFT);
-            let b0: W = self.mem[(n.wrapping_add(0) & MASK) as usize];
+            let b0: W = self.mem[i + 0];
             // junction 0: node of 1 port(s), fixed
             let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[671u32], &mut o, e, 1342u32, 33337u32, 10u32, 2013u64); o };
-            self.mem[(n.wrapping_add(11) & MASK) as usize] = a0;
-            let b1: W = self.mem[(n.wrapping_add(6) & MASK) as usize];
-            let b2: W = self.mem[(n.wrapping_add(12) & MASK) as usize];
-            let b3: W = self.mem[(n.wrapping_add(16) & MASK) as usize];
+            self.mem[i + 11] = a0;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b1: W = self.mem[i + 6];
+            let b2: W = self.mem[i + 12];
+            let b3: W = self.mem[i + 16];
             let b4: W = self.b[0];
             let b5: W = self.b[1];
             // junction 1: node of 5 port(s), switched by the plant's events
             let c = self.nodes[0];
             let [a1, a2, a3, a4, a5] = if c.scatters() { { let mut o = [self.held[0], self.held[1], self.held[2], self.held[3], self.held[4]]; P::node_scatter_held(&[b1, b2, b3, b4, b5], &[671u32, 671u32, 447u32, 74u32, 1001u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b1, b2, b3, b4, b5] } else { [P::neg(b1), P::neg(b2), P::neg(b3), P::neg(b4), P::neg(b5)] };
-            self.mem[(n.wrapping_add(5) & MASK) as usize] = a1;
+            self.mem[i + 5] = a1;
             self.held[0] = a1;
-            self.mem[(n.wrapping_add(27) & MASK) as usize] = a2;
+            self.mem[i + 27] = a2;
             self.held[1] = a2;
-            self.mem[(n.wrapping_add(40) & MASK) as usize] = a3;
+            self.mem[i + 40] = a3;
             self.held[2] = a3;
             let a4 = P::adapt(b4, a4, 16384u32, true);
             self.b[0] = a4;
@@ -143,49 +147,61 @@ pub mod specialised {
             let a5 = P::adapt(b5, a5, 4890u32, false);
             self.b[1] = a5;
             self.held[4] = a5;
-            let b6: W = self.mem[(n.wrapping_add(24) & MASK) as usize];
-            let b7: W = self.mem[(n.wrapping_add(28) & MASK) as usize];
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b6: W = self.mem[i + 24];
+            let b7: W = self.mem[i + 28];
             // junction 2: series inductor, c = 6826, rho = 1366
             let (a6, a7, s0) = P::series_l(b6, b7, self.chokes[0], 6826u32, 1366u32);
             self.chokes[0] = s0;
-            self.mem[(n.wrapping_add(15) & MASK) as usize] = a6;
-            self.mem[(n.wrapping_add(48) & MASK) as usize] = a7;
-            let b8: W = self.mem[(n.wrapping_add(33) & MASK) as usize];
-            let b9: W = self.mem[(n.wrapping_add(41) & MASK) as usize];
+            self.mem[i + 15] = a6;
+            self.mem[i + 48] = a7;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b8: W = self.mem[i + 33];
+            let b9: W = self.mem[i + 41];
             let b10: W = self.b[2];
             // junction 3: node of 3 port(s), switched by the plant's events
             let c = self.nodes[1];
             let [a8, a9, a10] = if c.scatters() { { let mut o = [self.held[5], self.held[6], self.held[7]]; P::node_scatter_held(&[b8, b9, b10], &[447u32, 1118u32, 13421u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b8, b9, b10] } else { [P::neg(b8), P::neg(b9), P::neg(b10)] };
-            self.mem[(n.wrapping_add(23) & MASK) as usize] = a8;
+            self.mem[i + 23] = a8;
             self.held[5] = a8;
-            self.mem[(n.wrapping_add(71) & MASK) as usize] = a9;
+            self.mem[i + 71] = a9;
             self.held[6] = a9;
             let a10 = P::adapt(b10, a10, 16384u32, false);
             self.b[2] = a10;
             self.held[7] = a10;
-            let b11: W = self.mem[(n.wrapping_add(44) & MASK) as usize];
-            let b12: W = self.mem[(n.wrapping_add(49) & MASK) as usize];
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b11: W = self.mem[i + 44];
+            let b12: W = self.mem[i + 49];
             // junction 4: series resistor, c = 16181
             let (a11, a12) = P::series(b11, b12, 16181u32);
-            self.mem[(n.wrapping_add(32) & MASK) as usize] = a11;
-            self.mem[(n.wrapping_add(68) & MASK) as usize] = a12;
-            let b13: W = self.mem[(n.wrapping_add(59) & MASK) as usize];
+            self.mem[i + 32] = a11;
+            self.mem[i + 68] = a12;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b13: W = self.mem[i + 59];
             // junction 5: node of 1 port(s), fixed
             let [a13] = [P::neg(b13)];
-            self.mem[(n.wrapping_add(58) & MASK) as usize] = a13;
-            let b14: W = self.mem[(n.wrapping_add(69) & MASK) as usize];
+            self.mem[i + 58] = a13;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b14: W = self.mem[i + 69];
             let b15: W = self.b[3];
             // junction 6: node of 2 port(s), fixed
             let [a14, a15] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b14, b15], &[1118u32, 258u32], &mut o, e, 0u32, 48770u32, 10u32, 1376u64); o };
-            self.mem[(n.wrapping_add(43) & MASK) as usize] = a14;
+            self.mem[i + 43] = a14;
             let a15 = P::adapt(b15, a15, 15753u32, true);
             self.b[3] = a15;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a0, b0);
             self.probes[1] = P::sum(a2, b2);
             self.probes[2] = P::diff(a8, b8);
             self.probes[3] = P::sum(a14, b14);
             let output = P::to_code(P::sum(a0, b0), IO_SHIFT);
             self.n = n.wrapping_add(1);
+            if i + 1 < SPAN {
+                self.i = (i + 1) as u32;
+            } else {
+                self.mem.copy_within(SPAN..MEM, 0);
+                self.i = 0;
+            }
             output
         }
 
@@ -203,6 +219,7 @@ pub mod specialised {
 
         fn reset(&mut self) {
             self.n = 0;
+            self.i = 0;
             self.mem.iter_mut().for_each(|w| *w = P::ZERO);
             self.b.iter_mut().for_each(|w| *w = P::ZERO);
             self.chokes.iter_mut().for_each(|w| *w = P::ZERO);

@@ -67,9 +67,10 @@ pub mod specialised {
 
     type P = tidewire_core::Wide;
     type W = i32;
-    /// Delay memory, waves (a power of two: every ring is addressed through `MASK`).
-    pub const MEM: usize = 128;
-    const MASK: u32 = 127;
+    /// The rings' span, waves: the window of one sample, and the period of its position.
+    pub const SPAN: usize = 112;
+    /// Delay memory, waves: two windows (the upper half holds the waves in flight at a wrap).
+    pub const MEM: usize = 2 * SPAN;
     const IO_SHIFT: u32 = 12;
     const EXPONENT: u32 = 45;
     const PROBES: usize = 2;
@@ -81,6 +82,7 @@ pub mod specialised {
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
     pub struct Plant {
         n: u32,
+        i: u32,
         mem: [W; MEM],
         b: [W; 0],
         chokes: [W; 0],
@@ -99,7 +101,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 3], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 3], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -113,62 +115,77 @@ pub mod specialised {
         #[inline]
         fn step(&mut self, input: i16) -> i16 {
             let n = self.n;
+            let i = (self.i as usize).min(SPAN - 1);
             let e: W = P::from_code(input, IO_SHIFT);
-            let b0: W = self.mem[(n.wrapping_add(0) & MASK) as usize];
+            let b0: W = self.mem[i + 0];
             // rig port: the pin was read while the DAC showed the wave of `latency` samples ago
             self.hist[(n as usize) & (HIST - 1)] = b0;
             let rig_back = self.hist[(n.wrapping_sub(2) as usize) & (HIST - 1)];
             // junction 0: rig port, a = v − b[n − latency]
             let a0 = P::sub(e, rig_back);
-            self.mem[(n.wrapping_add(35) & MASK) as usize] = a0;
-            let b1: W = self.mem[(n.wrapping_add(7) & MASK) as usize];
-            let b2: W = self.mem[(n.wrapping_add(15) & MASK) as usize];
+            self.mem[i + 35] = a0;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b1: W = self.mem[i + 7];
+            let b2: W = self.mem[i + 15];
             // junction 1: node of 2 port(s), fixed
             let [a1, a2] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b1, b2], &[293203100u32, 293203100u32], &mut o, e, 0u32, 3932160009u32, 29u32, 586406200u64); o };
-            self.mem[(n.wrapping_add(75) & MASK) as usize] = a1;
-            self.mem[(n.wrapping_add(91) & MASK) as usize] = a2;
-            let b3: W = self.mem[(n.wrapping_add(19) & MASK) as usize];
+            self.mem[i + 75] = a1;
+            self.mem[i + 91] = a2;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b3: W = self.mem[i + 19];
             // junction 2: node of 1 port(s), fixed
             let [a3] = { let mut o = [self.held[0]]; P::node_scatter_held(&[b3], &[293203100u32], &mut o, e, 0u32, 3932160009u32, 29u32, 586406200u64, 2u32); o };
-            self.mem[(n.wrapping_add(111) & MASK) as usize] = a3;
+            self.mem[i + 111] = a3;
             self.held[0] = a3;
-            let b4: W = self.mem[(n.wrapping_add(27) & MASK) as usize];
-            let b5: W = self.mem[(n.wrapping_add(36) & MASK) as usize];
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b4: W = self.mem[i + 27];
+            let b5: W = self.mem[i + 36];
             // junction 3: series resistor, c = 1055274519
             let (a4, a5) = P::series(b4, b5, 1055274519u32);
-            self.mem[(n.wrapping_add(6) & MASK) as usize] = a4;
-            self.mem[(n.wrapping_add(67) & MASK) as usize] = a5;
-            let b6: W = self.mem[(n.wrapping_add(52) & MASK) as usize];
-            let b7: W = self.mem[(n.wrapping_add(68) & MASK) as usize];
+            self.mem[i + 6] = a4;
+            self.mem[i + 67] = a5;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b6: W = self.mem[i + 52];
+            let b7: W = self.mem[i + 68];
             // junction 4: series resistor, c = 1055274519
             let (a6, a7) = P::series(b6, b7, 1055274519u32);
-            self.mem[(n.wrapping_add(51) & MASK) as usize] = a6;
-            self.mem[(n.wrapping_add(14) & MASK) as usize] = a7;
-            let b8: W = self.mem[(n.wrapping_add(76) & MASK) as usize];
-            let b9: W = self.mem[(n.wrapping_add(79) & MASK) as usize];
+            self.mem[i + 51] = a6;
+            self.mem[i + 14] = a7;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b8: W = self.mem[i + 76];
+            let b9: W = self.mem[i + 79];
             // junction 5: node of 2 port(s), switched by the plant's events
             let c = self.nodes[0];
             let [a8, a9] = if c.scatters() { { let mut o = [self.held[1], self.held[2]]; P::node_scatter_held(&[b8, b9], &[293203100u32, 293203100u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b8, b9] } else { [P::neg(b8), P::neg(b9)] };
-            self.mem[(n.wrapping_add(94) & MASK) as usize] = a8;
+            self.mem[i + 94] = a8;
             self.held[1] = a8;
-            self.mem[(n.wrapping_add(103) & MASK) as usize] = a9;
+            self.mem[i + 103] = a9;
             self.held[2] = a9;
-            let b10: W = self.mem[(n.wrapping_add(88) & MASK) as usize];
-            let b11: W = self.mem[(n.wrapping_add(92) & MASK) as usize];
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b10: W = self.mem[i + 88];
+            let b11: W = self.mem[i + 92];
             // junction 6: series resistor, c = 1067514655
             let (a10, a11) = P::series(b10, b11, 1067514655u32);
-            self.mem[(n.wrapping_add(18) & MASK) as usize] = a10;
-            self.mem[(n.wrapping_add(78) & MASK) as usize] = a11;
-            let b12: W = self.mem[(n.wrapping_add(95) & MASK) as usize];
-            let b13: W = self.mem[(n.wrapping_add(104) & MASK) as usize];
+            self.mem[i + 18] = a10;
+            self.mem[i + 78] = a11;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b12: W = self.mem[i + 95];
+            let b13: W = self.mem[i + 104];
             // junction 7: series resistor, c = 1055274519
             let (a12, a13) = P::series(b12, b13, 1055274519u32);
-            self.mem[(n.wrapping_add(87) & MASK) as usize] = a12;
-            self.mem[(n.wrapping_add(26) & MASK) as usize] = a13;
+            self.mem[i + 87] = a12;
+            self.mem[i + 26] = a13;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a0, rig_back);
             self.probes[1] = P::sum(a3, b3);
             let output = P::to_code(P::sum(b0, b0), IO_SHIFT);
             self.n = n.wrapping_add(1);
+            if i + 1 < SPAN {
+                self.i = (i + 1) as u32;
+            } else {
+                self.mem.copy_within(SPAN..MEM, 0);
+                self.i = 0;
+            }
             output
         }
 
@@ -181,13 +198,14 @@ pub mod specialised {
         }
 
         fn rig_drive(&self) -> i16 {
-            let n = self.n;
-            let b: W = self.mem[(n.wrapping_add(0) & MASK) as usize];
+            let i = (self.i as usize).min(SPAN - 1);
+            let b: W = self.mem[i + 0];
             P::to_code(P::sum(b, b), IO_SHIFT)
         }
 
         fn reset(&mut self) {
             self.n = 0;
+            self.i = 0;
             self.mem.iter_mut().for_each(|w| *w = P::ZERO);
             self.b.iter_mut().for_each(|w| *w = P::ZERO);
             self.chokes.iter_mut().for_each(|w| *w = P::ZERO);

@@ -67,9 +67,10 @@ pub mod specialised {
 
     type P = tidewire_core::Wide;
     type W = i32;
-    /// Delay memory, waves (a power of two: every ring is addressed through `MASK`).
-    pub const MEM: usize = 64;
-    const MASK: u32 = 63;
+    /// The rings' span, waves: the window of one sample, and the period of its position.
+    pub const SPAN: usize = 48;
+    /// Delay memory, waves: two windows (the upper half holds the waves in flight at a wrap).
+    pub const MEM: usize = 2 * SPAN;
     const IO_SHIFT: u32 = 8;
     const EXPONENT: u32 = 44;
     const PROBES: usize = 5;
@@ -82,6 +83,7 @@ pub mod specialised {
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
     pub struct Plant {
         n: u32,
+        i: u32,
         mem: [W; MEM],
         b: [W; 6],
         chokes: [W; 0],
@@ -100,7 +102,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 0], lx: [P::ZERO; 6], ly: [P::ZERO; 6], lr: [P::ZERO; 6], aps: [P::ZERO; 2], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 6], zcc: [P::ZERO; 6], held: [P::ZERO; 5], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 0], lx: [P::ZERO; 6], ly: [P::ZERO; 6], lr: [P::ZERO; 6], aps: [P::ZERO; 2], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 6], zcc: [P::ZERO; 6], held: [P::ZERO; 5], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -114,97 +116,113 @@ pub mod specialised {
         #[inline]
         fn step(&mut self, input: i16) -> i16 {
             let n = self.n;
+            let i = (self.i as usize).min(SPAN - 1);
             let e: W = P::from_code(input, IO_SHIFT);
             let b0: W = self.b[0];
             // junction 0: node of 1 port(s), fixed
             let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[175921860u32], &mut o, e, 175921860u32, 3276800008u32, 28u32, 351843720u64); o };
             let line0 = P::zc_post(a0, b0, self.zcc[0], &mut self.zcs[0], &[0, 429496728, 0, 0], &[21474836, 10737418, 0, 0], 2);
-            self.mem[(n.wrapping_add(13) & MASK) as usize] = line0;
+            self.mem[i + 13] = line0;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b1: W = self.b[1];
             let b2: W = self.b[2];
             // junction 1: series resistor, c = 1063110716
             let (a1, a2) = P::series(b1, b2, 1063110716u32);
             let line1 = P::zc_post(a1, b1, self.zcc[1], &mut self.zcs[1], &[0, 429496728, 0, 0], &[21474836, 10737418, 0, 0], 2);
-            self.mem[(n.wrapping_add(6) & MASK) as usize] = line1;
+            self.mem[i + 6] = line1;
             let line2 = P::zc_post(a2, b2, self.zcc[2], &mut self.zcs[2], &[0, 429496728, 0, 0], &[21474836, 10737418, 0, 0], 2);
-            self.mem[(n.wrapping_add(17) & MASK) as usize] = line2;
+            self.mem[i + 17] = line2;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b3: W = self.b[3];
             let b4: W = self.b[4];
-            let b5: W = self.mem[(n.wrapping_add(28) & MASK) as usize];
+            let b5: W = self.mem[i + 28];
             // junction 2: node of 3 port(s), switched by the plant's events
             let c = self.nodes[0];
             let [a3, a4, a5] = if c.scatters() { { let mut o = [self.held[0], self.held[1], self.held[2]]; P::node_scatter_held(&[b3, b4, b5], &[175921860u32, 175921860u32, 234562480u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b3, b4, b5] } else { [P::neg(b3), P::neg(b4), P::neg(b5)] };
             let line3 = P::zc_post(a3, b3, self.zcc[3], &mut self.zcs[3], &[0, 429496728, 0, 0], &[21474836, 10737418, 0, 0], 2);
-            self.mem[(n.wrapping_add(15) & MASK) as usize] = line3;
+            self.mem[i + 15] = line3;
             self.held[0] = a3;
             let line4 = P::zc_post(a4, b4, self.zcc[4], &mut self.zcs[4], &[0, 429496728, 0, 0], &[21474836, 10737418, 0, 0], 2);
-            self.mem[(n.wrapping_add(42) & MASK) as usize] = line4;
+            self.mem[i + 42] = line4;
             self.held[1] = a4;
-            self.mem[(n.wrapping_add(47) & MASK) as usize] = a5;
+            self.mem[i + 47] = a5;
             self.held[2] = a5;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b6: W = self.b[5];
             // junction 3: node of 1 port(s), switched by the plant's events
             let c = self.nodes[1];
             let [a6] = if c.scatters() { { let mut o = [self.held[3]]; P::node_scatter_held(&[b6], &[175921860u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b6] } else { [P::neg(b6)] };
             let line6 = P::zc_post(a6, b6, self.zcc[5], &mut self.zcs[5], &[0, 429496728, 0, 0], &[21474836, 10737418, 0, 0], 2);
-            self.mem[(n.wrapping_add(27) & MASK) as usize] = line6;
+            self.mem[i + 27] = line6;
             self.held[3] = a6;
-            let b7: W = self.mem[(n.wrapping_add(43) & MASK) as usize];
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
+            let b7: W = self.mem[i + 43];
             // junction 4: node of 1 port(s), fixed
             let [a7] = { let mut o = [self.held[4]]; P::node_scatter_held(&[b7], &[234562480u32], &mut o, e, 0u32, 3276800008u32, 28u32, 351843720u64, 4u32); o };
-            self.mem[(n.wrapping_add(32) & MASK) as usize] = a7;
+            self.mem[i + 32] = a7;
             self.held[4] = a7;
+            core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a0, b0);
             self.probes[1] = P::diff(a0, b0);
             self.probes[2] = P::sum(a3, b3);
             self.probes[3] = P::diff(a6, b6);
             self.probes[4] = P::sum(a7, b7);
             let output = P::to_code(P::sum(a0, b0), IO_SHIFT);
-            let mut x: W = self.mem[(n.wrapping_add(1) & MASK) as usize];
-            let (y, r) = P::loss_section(x, self.lx[0], self.ly[0], self.lr[0], 357913941u32, -178956971i32, 536870912u32);
+            let mut x: W = self.mem[i + 1];
+            let mut x1: W = self.lx[0];
             self.lx[0] = x;
-            self.ly[0] = y;
+            let y1: W = self.ly[0];
+            let (y, r) = P::loss_section(x, x1, y1, self.lr[0], 357913941u32, -178956971i32, 536870912u32);
             self.lr[0] = r;
+            self.ly[0] = y;
             x = y;
             let (c, bp) = P::zc_pre(x, &self.zcs[0], &[536870912, 751619276, 0, 0], 2);
             self.zcc[0] = c;
             x = bp;
             self.b[0] = x;
-            let mut x: W = self.mem[(n.wrapping_add(8) & MASK) as usize];
-            let (y, r) = P::loss_section(x, self.lx[1], self.ly[1], self.lr[1], 357913941u32, -178956971i32, 536870912u32);
+            let mut x: W = self.mem[i + 8];
+            let mut x1: W = self.lx[1];
             self.lx[1] = x;
-            self.ly[1] = y;
+            let y1: W = self.ly[1];
+            let (y, r) = P::loss_section(x, x1, y1, self.lr[1], 357913941u32, -178956971i32, 536870912u32);
             self.lr[1] = r;
+            self.ly[1] = y;
             x = y;
             let (c, bp) = P::zc_pre(x, &self.zcs[1], &[536870912, 751619276, 0, 0], 2);
             self.zcc[1] = c;
             x = bp;
             self.b[1] = x;
-            let mut x: W = self.mem[(n.wrapping_add(15) & MASK) as usize];
-            let (y, r) = P::loss_section(x, self.lx[2], self.ly[2], self.lr[2], 357913941u32, -178956971i32, 536870912u32);
+            let mut x: W = self.mem[i + 15];
+            let mut x1: W = self.lx[2];
             self.lx[2] = x;
-            self.ly[2] = y;
+            let y1: W = self.ly[2];
+            let (y, r) = P::loss_section(x, x1, y1, self.lr[2], 357913941u32, -178956971i32, 536870912u32);
             self.lr[2] = r;
+            self.ly[2] = y;
             x = y;
             let (c, bp) = P::zc_pre(x, &self.zcs[2], &[536870912, 751619276, 0, 0], 2);
             self.zcc[2] = c;
             x = bp;
             self.b[2] = x;
-            let mut x: W = self.mem[(n.wrapping_add(17) & MASK) as usize];
-            let (y, r) = P::loss_section(x, self.lx[3], self.ly[3], self.lr[3], 357913941u32, -178956971i32, 536870912u32);
+            let mut x: W = self.mem[i + 17];
+            let mut x1: W = self.lx[3];
             self.lx[3] = x;
-            self.ly[3] = y;
+            let y1: W = self.ly[3];
+            let (y, r) = P::loss_section(x, x1, y1, self.lr[3], 357913941u32, -178956971i32, 536870912u32);
             self.lr[3] = r;
+            self.ly[3] = y;
             x = y;
             let (c, bp) = P::zc_pre(x, &self.zcs[3], &[536870912, 751619276, 0, 0], 2);
             self.zcc[3] = c;
             x = bp;
             self.b[3] = x;
-            let mut x: W = self.mem[(n.wrapping_add(19) & MASK) as usize];
-            let (y, r) = P::loss_section(x, self.lx[4], self.ly[4], self.lr[4], 357913941u32, -178956971i32, 536870912u32);
+            let mut x: W = self.mem[i + 19];
+            let mut x1: W = self.lx[4];
             self.lx[4] = x;
-            self.ly[4] = y;
+            let y1: W = self.ly[4];
+            let (y, r) = P::loss_section(x, x1, y1, self.lr[4], 357913941u32, -178956971i32, 536870912u32);
             self.lr[4] = r;
+            self.ly[4] = y;
             x = y;
             let (y, s_next) = P::allpass(x, self.aps[0], 153391689i32, 1062728796u32);
             self.aps[0] = s_next;
@@ -213,11 +231,13 @@ pub mod specialised {
             self.zcc[4] = c;
             x = bp;
             self.b[4] = x;
-            let mut x: W = self.mem[(n.wrapping_add(34) & MASK) as usize];
-            let (y, r) = P::loss_section(x, self.lx[5], self.ly[5], self.lr[5], 357913941u32, -178956971i32, 536870912u32);
+            let mut x: W = self.mem[i + 34];
+            let mut x1: W = self.lx[5];
             self.lx[5] = x;
-            self.ly[5] = y;
+            let y1: W = self.ly[5];
+            let (y, r) = P::loss_section(x, x1, y1, self.lr[5], 357913941u32, -178956971i32, 536870912u32);
             self.lr[5] = r;
+            self.ly[5] = y;
             x = y;
             let (y, s_next) = P::allpass(x, self.aps[1], 153391689i32, 1062728796u32);
             self.aps[1] = s_next;
@@ -227,6 +247,12 @@ pub mod specialised {
             x = bp;
             self.b[5] = x;
             self.n = n.wrapping_add(1);
+            if i + 1 < SPAN {
+                self.i = (i + 1) as u32;
+            } else {
+                self.mem.copy_within(SPAN..MEM, 0);
+                self.i = 0;
+            }
             output
         }
 
@@ -244,6 +270,7 @@ pub mod specialised {
 
         fn reset(&mut self) {
             self.n = 0;
+            self.i = 0;
             self.mem.iter_mut().for_each(|w| *w = P::ZERO);
             self.b.iter_mut().for_each(|w| *w = P::ZERO);
             self.chokes.iter_mut().for_each(|w| *w = P::ZERO);

@@ -1,14 +1,23 @@
 //! Where every port's waves live in the specialised solver.
 //!
-//! All line rings share one delay memory of M = 2^k waves and one sample counter n. Port p
-//! (arriving delay d_p) owns d_p + 1 consecutive offsets [S_p, S_p + d_p] (S_p = Σ of
-//! (d + 1) over the ports before it, so the spans are disjoint and fit in M). The wave its
-//! partner sends at sample n is written at (n + S_p + d_p) & (M − 1); the wave arriving at
-//! sample n, sent d_p samples earlier, sits at (n + S_p) & (M − 1). Every span moves up by one
-//! per sample, so one counter replaces every per-port cursor, and the mask lets the compiler
-//! prove every index in bounds. The one spare slot per port is what lets a junction write its
-//! outgoing waves straight into the rings while later junctions still read this sample's
-//! arriving waves: no write of sample n lands on a wave another port reads at sample n.
+//! All line rings share one delay memory and one sample counter. Port p (arriving delay d_p)
+//! owns d_p + 1 consecutive offsets [S_p, S_p + d_p] (S_p = Σ of (d + 1) over the ports
+//! before it, so the spans are disjoint; their total is the span P). The wave its partner
+//! sends at sample n is written at offset S_p + d_p of that sample's window, the wave arriving
+//! at sample n (sent d_p samples earlier) is read at offset S_p. The window moves up by one
+//! per sample, so one counter replaces every per-port cursor. The one spare slot per port is
+//! what lets a junction write its outgoing waves straight into the rings while later
+//! junctions still read this sample's arriving waves: no write of sample n lands on a wave
+//! another port reads at sample n.
+//!
+//! The window of sample n starts at i = n mod P in a memory of 2P waves, so every access is
+//! `mem[i + offset]`: one base address per sample and a constant offset per access (on the
+//! Cortex-M4 one load or store with an immediate offset, where masking the position of every
+//! access took an add, a bit clear and an indexed load). When i wraps from P − 1 to 0, the
+//! upper half [P, 2P) is copied down to [0, P): every wave still in flight across the wrap
+//! sits there (it was written at an offset that reaches past P), and nothing in [0, P) is
+//! read after the wrap without being written first (an offset is below P and the period is
+//! P). The copy is P waves once every P samples, one wave per sample.
 //!
 //! A port whose arriving wave must be kept between samples (it passes a loss filter, or it
 //! is a reactive element's state, a ring of one sample feeding itself) keeps it in `b[p]`.
@@ -18,7 +27,7 @@ use super::loaded::Loaded;
 /// Where port p's arriving wave for the coming sample is read from.
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub enum Arrival {
-    /// From the delay memory at (n + offset) & MASK, with n the counter of the coming sample.
+    /// From the delay memory at i + offset, with i the window of the coming sample.
     Memory { offset: u32 },
     /// From the state array `b[slot]`.
     State { slot: usize },
@@ -27,21 +36,21 @@ pub enum Arrival {
 /// The whole layout.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct Layout {
-    /// Delay memory length M (a power of two, >= 1).
-    pub mem_len: u32,
+    /// The span P (>= 1): the counter's period and the window's length; the memory is 2P.
+    pub span: u32,
     /// Per port: its arrival.
     pub arrival: Vec<Arrival>,
-    /// Per line port: the offset its ring is written at, (n + S_p + d_p); `None` for elements.
+    /// Per line port: the offset its ring is written at, S_p + d_p; `None` for elements.
     pub write: Vec<Option<u32>>,
-    /// Per line port: S_p, where this sample's arriving wave sits (n + S_p) and, after the
-    /// writes of sample n, the next sample's (n + 1 + S_p).
+    /// Per line port: S_p, where this sample's arriving wave sits (offset S_p) and, after the
+    /// writes of sample n, the next sample's (offset S_p + 1).
     pub read: Vec<Option<u32>>,
     /// Length of the state array `b`.
     pub states: usize,
 }
 
 impl Layout {
-    /// The layout of `l`, or `None` if the delay memory would not fit a u32 index.
+    /// The layout of `l`, or `None` if the delay memory (2P) would not fit a u32 index.
     pub fn of(l: &Loaded) -> Option<Layout> {
         let lossy: Vec<bool> = (0..l.ports.len()).map(|p| l.losses.iter().any(|x| x.port as usize == p)).collect();
         let mut start: u64 = 0;
@@ -58,7 +67,10 @@ impl Layout {
             read.push(Some(start));
             start += d + 1;
         }
-        let mem_len = start.max(1).checked_next_power_of_two().filter(|m| *m <= 1 << 31)?;
+        let span = start.max(1);
+        if span > 1 << 30 {
+            return None;
+        }
         let mut states = 0usize;
         let arrival = l
             .ports
@@ -74,6 +86,6 @@ impl Layout {
             })
             .collect();
         let to32 = |v: Vec<Option<u64>>| v.into_iter().map(|x| x.map(|x| x as u32)).collect();
-        Some(Layout { mem_len: mem_len as u32, arrival, write: to32(write), read: to32(read), states })
+        Some(Layout { span: span as u32, arrival, write: to32(write), read: to32(read), states })
     }
 }

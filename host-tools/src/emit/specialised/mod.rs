@@ -1,7 +1,7 @@
 //! The plant-specialised solver: Rust source for one plant and profile, a type implementing
 //! `tidewire_core::PlantStep` with the coefficients as constants, the junction sequence
-//! unrolled (no dispatch), every ring addressed from one sample counter through a mask (no
-//! per-port cursors, no bounds check that can fail), and the same arithmetic as the generic
+//! unrolled (no dispatch), every ring addressed from one sample counter as a base and a
+//! constant offset (no per-port cursors, no bounds check that can fail; `layout`), and the same arithmetic as the generic
 //! `Solver`: the same `Profile` calls in the same order on the coefficients the core itself
 //! computed when it loaded the plant (`loaded`), so the two forms agree bit for bit.
 //!
@@ -105,6 +105,19 @@ pub fn specialised_source(
     Writer { l: &l, layout: &layout, profile, switched }.write()
 }
 
+/// The first statement of every read of the rings: the window of the coming sample. The
+/// `min` costs one compare per sample and lets the compiler prove every `mem[i + offset]` in
+/// bounds (i < SPAN, offset < SPAN, MEM = 2·SPAN): no bounds check that can fail.
+const WINDOW: &str = "let i = (self.i as usize).min(SPAN - 1);";
+
+/// Between two junctions: no load or store moves across it, and it
+/// is no instruction. The step is one basic block, and without it the instruction scheduler
+/// hoists later junctions' ring loads far ahead of their use, where they spill to the stack
+/// (the firmware's p85_wide step on the M4: 252 stack accesses without it, 76 with it;
+/// `cargo run -p xtask -- step-profile`). Not between lossy line ends, where it cost more
+/// than it saved.
+const FENCE: &str = "core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);";
+
 struct Writer<'a> {
     l: &'a Loaded,
     layout: &'a Layout,
@@ -155,7 +168,7 @@ impl Writer<'_> {
     /// The expression of port p's arriving wave at the start of a sample (counter `n`).
     fn arrival(&self, p: usize) -> String {
         match self.layout.arrival.get(p) {
-            Some(Arrival::Memory { offset }) => format!("self.mem[(n.wrapping_add({offset}) & MASK) as usize]"),
+            Some(Arrival::Memory { offset }) => format!("self.mem[i + {offset}]"),
             Some(Arrival::State { slot }) => format!("self.b[{slot}]"),
             None => "P::ZERO".into(),
         }
@@ -171,6 +184,14 @@ impl Writer<'_> {
         let n_switched = slots.iter().flatten().count();
         let n_chokes = l.junctions.iter().filter(|j| has_choke(j)).count();
         let n_sections: usize = l.losses.iter().map(|x| x.sections as usize).sum();
+        // Loss state (see `step`): the first section's previous input per end, and the previous
+        // outputs the sections cannot read elsewhere.
+        let n_lx = l.losses.iter().filter(|x| x.sections > 0).count();
+        let n_ly: usize = l
+            .losses
+            .iter()
+            .map(|x| x.sections as usize - usize::from(x.sections > 0 && x.allpass.is_none() && x.zc.is_none()))
+            .sum();
         let n_allpass = l.losses.iter().filter(|x| x.allpass.is_some()).count();
         let n_zc = l.losses.iter().filter(|x| x.zc.is_some()).count();
         let held = self.held_slots(&slots);
@@ -203,9 +224,14 @@ impl Writer<'_> {
         let _ = writeln!(s, "    use tidewire_core::{{ConfigError, PlantStep, Profile, Shunt, MAX_ZC_SECTIONS}};\n");
         let _ = writeln!(s, "    type P = tidewire_core::{pname};");
         let _ = writeln!(s, "    type W = {wave};");
-        let _ = writeln!(s, "    /// Delay memory, waves (a power of two: every ring is addressed through `MASK`).");
-        let _ = writeln!(s, "    pub const MEM: usize = {};", self.layout.mem_len);
-        let _ = writeln!(s, "    const MASK: u32 = {};", self.layout.mem_len - 1);
+        let _ =
+            writeln!(s, "    /// The rings' span, waves: the window of one sample, and the period of its position.");
+        let _ = writeln!(s, "    pub const SPAN: usize = {};", self.layout.span);
+        let _ = writeln!(
+            s,
+            "    /// Delay memory, waves: two windows (the upper half holds the waves in flight at a wrap)."
+        );
+        let _ = writeln!(s, "    pub const MEM: usize = 2 * SPAN;");
         let _ = writeln!(s, "    const IO_SHIFT: u32 = {};", l.io_shift);
         let _ = writeln!(s, "    const EXPONENT: u32 = {};", l.exponent);
         let _ = writeln!(s, "    const PROBES: usize = {};", l.probes.len());
@@ -226,10 +252,14 @@ impl Writer<'_> {
             "    /// The plant's state: one delay memory, one sample counter, the states that outlive a sample."
         );
         let _ = writeln!(s, "    pub struct Plant {{");
-        let _ = writeln!(s, "        n: u32,\n        mem: [W; MEM],\n        b: [W; {}],", self.layout.states);
         let _ = writeln!(
             s,
-            "        chokes: [W; {n_chokes}],\n        lx: [W; {n_sections}],\n        ly: [W; {n_sections}],\n        lr: [W; {n_sections}],\n        aps: [W; {n_allpass}],\n        zcs: [[W; MAX_ZC_SECTIONS]; {n_zc}],\n        zcc: [W; {n_zc}],\n        held: [W; {n_held}],"
+            "        n: u32,\n        i: u32,\n        mem: [W; MEM],\n        b: [W; {}],",
+            self.layout.states
+        );
+        let _ = writeln!(
+            s,
+            "        chokes: [W; {n_chokes}],\n        lx: [W; {n_lx}],\n        ly: [W; {n_ly}],\n        lr: [W; {n_sections}],\n        aps: [W; {n_allpass}],\n        zcs: [[W; MAX_ZC_SECTIONS]; {n_zc}],\n        zcc: [W; {n_zc}],\n        held: [W; {n_held}],"
         );
         let _ = writeln!(s, "        hist: [W; HIST],\n        probes: [i32; PROBES],\n        nodes: [NodeCoef; {n_switched}],\n    }}\n");
         let _ = writeln!(s, "    impl Plant {{");
@@ -237,7 +267,7 @@ impl Writer<'_> {
         let _ = writeln!(s, "        pub const fn new() -> Self {{");
         let _ = writeln!(
             s,
-            "            Plant {{ n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; {}], chokes: [P::ZERO; {n_chokes}], lx: [P::ZERO; {n_sections}], ly: [P::ZERO; {n_sections}], lr: [P::ZERO; {n_sections}], aps: [P::ZERO; {n_allpass}], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; {n_zc}], zcc: [P::ZERO; {n_zc}], held: [P::ZERO; {n_held}], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }}",
+            "            Plant {{ n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; {}], chokes: [P::ZERO; {n_chokes}], lx: [P::ZERO; {n_lx}], ly: [P::ZERO; {n_ly}], lr: [P::ZERO; {n_sections}], aps: [P::ZERO; {n_allpass}], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; {n_zc}], zcc: [P::ZERO; {n_zc}], held: [P::ZERO; {n_held}], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }}",
             self.layout.states
         );
         let _ = writeln!(s, "        }}\n    }}\n");
@@ -272,10 +302,10 @@ impl Writer<'_> {
                         "            let line{p} = P::zc_post(a{p}, b{p}, self.zcc[{z}], &mut self.zcs[{z}], &{:?}, &{:?}, {});",
                         zp.pole, zp.rho, zp.sections
                     );
-                    let _ = writeln!(s, "            self.mem[(n.wrapping_add({w}) & MASK) as usize] = line{p};");
+                    let _ = writeln!(s, "            self.mem[i + {w}] = line{p};");
                 }
                 _ => {
-                    let _ = writeln!(s, "            self.mem[(n.wrapping_add({w}) & MASK) as usize] = a{p};");
+                    let _ = writeln!(s, "            self.mem[i + {w}] = a{p};");
                 }
             }
         }
@@ -285,7 +315,10 @@ impl Writer<'_> {
     fn step(&self, s: &mut String, slots: &[Option<usize>], held: &[Option<usize>]) -> Result<(), EmitError> {
         let l = self.l;
         let _ = writeln!(s, "        #[inline]\n        fn step(&mut self, input: i16) -> i16 {{");
-        let _ = writeln!(s, "            let n = self.n;\n            let e: W = P::from_code(input, IO_SHIFT);");
+        let _ = writeln!(
+            s,
+            "            let n = self.n;\n            {WINDOW}\n            let e: W = P::from_code(input, IO_SHIFT);"
+        );
         // The rig port's arriving wave goes into the latency history before any junction runs.
         if let DrivePlan::Rig { port, .. } = l.drive {
             let _ = writeln!(s, "            let b{port}: W = {};", self.arrival(port as usize));
@@ -344,6 +377,7 @@ impl Writer<'_> {
                     let _ = writeln!(s, "            self.held[{h}] = a{p};");
                 }
             }
+            let _ = writeln!(s, "            {FENCE}");
         }
         for (k, pr) in l.probes.iter().enumerate() {
             let f = if pr.current { "diff" } else { "sum" };
@@ -358,7 +392,7 @@ impl Writer<'_> {
         };
         let _ = writeln!(s, "            let output = {output};");
         // Loss filters, in the generic solver's order, on the waves that just arrived.
-        let (mut sec, mut ap, mut zc) = (0usize, 0usize, 0usize);
+        let (mut sec, mut ap, mut zc, mut lx, mut ly) = (0usize, 0usize, 0usize, 0usize, 0usize);
         for lp in &l.losses {
             let p = lp.port as usize;
             let (Some(r), Some(Arrival::State { slot })) =
@@ -366,17 +400,34 @@ impl Writer<'_> {
             else {
                 return Err(EmitError::Unsupported { what: "a loss filter on an element port".into(), junction: None });
             };
-            let _ = writeln!(s, "            let mut x: W = self.mem[(n.wrapping_add({}) & MASK) as usize];", r + 1);
-            for k in 0..lp.sections as usize {
+            let _ = writeln!(s, "            let mut x: W = self.mem[i + {}];", r + 1);
+            // Section k's previous input is section k − 1's previous output, so only the first
+            // section keeps its input (`lx`, one per end); the last section's previous output is
+            // the wave it left in `b[slot]` when nothing follows it (`ly` only where needed).
+            let sections = lp.sections as usize;
+            let last_in_b = lp.allpass.is_none() && lp.zc.is_none();
+            if sections > 0 {
+                let _ = writeln!(s, "            let mut x1: W = self.lx[{lx}];\n            self.lx[{lx}] = x;");
+                lx += 1;
+            }
+            for k in 0..sections {
                 let (g, gb, a) = (lp.g[k], lp.gb[k], lp.a[k]);
+                let last = k + 1 == sections;
+                let y1 = if last && last_in_b { format!("self.b[{slot}]") } else { format!("self.ly[{ly}]") };
+                let _ = writeln!(s, "            let y1: W = {y1};");
                 let _ = writeln!(
                     s,
-                    "            let (y, r) = P::loss_section(x, self.lx[{sec}], self.ly[{sec}], self.lr[{sec}], {g}u32, {gb}i32, {a}u32);"
+                    "            let (y, r) = P::loss_section(x, x1, y1, self.lr[{sec}], {g}u32, {gb}i32, {a}u32);"
                 );
-                let _ = writeln!(
-                    s,
-                    "            self.lx[{sec}] = x;\n            self.ly[{sec}] = y;\n            self.lr[{sec}] = r;\n            x = y;"
-                );
+                let _ = writeln!(s, "            self.lr[{sec}] = r;");
+                if !(last && last_in_b) {
+                    let _ = writeln!(s, "            self.ly[{ly}] = y;");
+                    ly += 1;
+                }
+                if !last {
+                    let _ = writeln!(s, "            x1 = y1;");
+                }
+                let _ = writeln!(s, "            x = y;");
                 sec += 1;
             }
             if let Some((a, c)) = lp.allpass {
@@ -396,7 +447,14 @@ impl Writer<'_> {
             }
             let _ = writeln!(s, "            self.b[{slot}] = x;");
         }
-        let _ = writeln!(s, "            self.n = n.wrapping_add(1);\n            output\n        }}\n");
+        let _ = writeln!(s, "            self.n = n.wrapping_add(1);");
+        // The window moves up by one; at the end of the first half it wraps to 0 and the waves
+        // in flight move down with it (see `layout`): a branch on time, never on data.
+        let _ = writeln!(
+            s,
+            "            if i + 1 < SPAN {{\n                self.i = (i + 1) as u32;\n            }} else {{\n                self.mem.copy_within(SPAN..MEM, 0);\n                self.i = 0;\n            }}"
+        );
+        let _ = writeln!(s, "            output\n        }}\n");
         Ok(())
     }
 
@@ -406,7 +464,7 @@ impl Writer<'_> {
         let _ = writeln!(s, "        fn probe_count(&self) -> usize {{\n            PROBES\n        }}\n");
         let drive = match rig {
             Some((port, _)) => format!(
-                "let n = self.n;\n            let b: W = {};\n            P::to_code(P::sum(b, b), IO_SHIFT)",
+                "{WINDOW}\n            let b: W = {};\n            P::to_code(P::sum(b, b), IO_SHIFT)",
                 self.arrival(port as usize)
             ),
             None => "0".into(),
@@ -414,7 +472,7 @@ impl Writer<'_> {
         let _ = writeln!(s, "        fn rig_drive(&self) -> i16 {{\n            {drive}\n        }}\n");
         let _ = writeln!(s, "        fn reset(&mut self) {{");
         // In place: no temporary of the plant's size on the stack (a Cortex-M0 has little).
-        let _ = writeln!(s, "            self.n = 0;");
+        let _ = writeln!(s, "            self.n = 0;\n            self.i = 0;");
         for field in ["mem", "b", "chokes", "lx", "ly", "lr", "aps", "zcc", "held", "hist"] {
             let _ = writeln!(s, "            self.{field}.iter_mut().for_each(|w| *w = P::ZERO);");
         }
