@@ -66,15 +66,17 @@ pub(super) fn narrow_open(b: &[i16], g: &[u32], a: &mut [i16], e: i16, recip: u3
         acc = acc.wrapping_add((*gk as i32).wrapping_mul(i32::from(*bk)));
     }
     let acc = acc.wrapping_shl(1);
-    let t = total as u32; // <= 2^14 (narrow node budget, checked at load)
-    let (q, nz) = floor_div32::<2>(acc.unsigned_abs(), recip, shift, t);
-    // r = |N| − q·T exactly (q is the exact floor): in [0, T).
-    let r = acc.unsigned_abs().wrapping_sub(q.wrapping_mul(t)) as i32;
-    let (q, nz) = (q as i32, nz as i32);
-    // σ as a 0/−1 mask: x ^ mask − mask is σ·x, branch-free.
-    let mask = (acc >> 31) & 1;
-    let mask = opaque(mask).wrapping_neg();
+    // T <= 2^14 (narrow node budget, checked at load).
+    let t = total as u32;
+    // σ as a 0/−1 mask: x ^ mask − mask is σ·x, branch-free. |N| is formed with it too
+    // (`unsigned_abs` next to the mask became a conditional branch on ARMv6-M).
+    let mask = opaque((acc as u32 >> 31) as i32).wrapping_neg();
     let flip = |x: i32| (x ^ mask).wrapping_sub(mask);
+    let mag = flip(acc) as u32; // |N| <= 2^30
+    let (q, nz) = floor_div32::<2>(mag, recip, shift, t);
+    // r = |N| − q·T exactly (q is the exact floor): in [0, T).
+    let r = mag.wrapping_sub(q.wrapping_mul(t)) as i32;
+    let (q, nz) = (q as i32, nz as i32);
     // floor(v) in the real frame, as `Acc::port` wants it: q for N >= 0, −q − 1 for N < 0
     // with a remainder (nz), −q without.
     let fl = flip(q).wrapping_sub(nz & mask & 1);
