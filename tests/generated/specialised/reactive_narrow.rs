@@ -79,7 +79,7 @@ pub mod specialised {
     const PROBES: usize = 4;
     const HIST: usize = 0;
     const INITIAL_NODES: [NodeCoef; 2] = [
-        NodeCoef { recip: 46863, shift: 11, total: 2864, short: false, broken: false, open: false, hold: 0 },
+        NodeCoef { recip: 46863, shift: 11, total: 2864, short: false, broken: false, open: false, hold: 4294967295 },
         NodeCoef { recip: 35346, shift: 13, total: 15189, short: false, broken: false, open: false, hold: 148 },
     ];
 
@@ -93,7 +93,7 @@ pub mod specialised {
         ly: [W; 0],
         lr: [W; 0],
         aps: [W; 0],
-        held: [W; 8],
+        held: [W; 10],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 2],
@@ -102,7 +102,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 4], chokes: [P::ZERO; 1], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], held: [P::ZERO; 8], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 4], chokes: [P::ZERO; 1], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], held: [P::ZERO; 10], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -174,10 +174,12 @@ pub mod specialised {
             let b14: W = self.mem[(n.wrapping_add(69) & MASK) as usize];
             let b15: W = self.b[3];
             // junction 6: node of 2 port(s), fixed
-            let [a14, a15] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b14, b15], &[1118u32, 258u32], &mut o, e, 0u32, 48770u32, 10u32, 1376u64); o };
+            let [a14, a15] = { let mut o = [self.held[8], self.held[9]]; P::node_scatter_held(&[b14, b15], &[1118u32, 258u32], &mut o, e, 0u32, 48770u32, 10u32, 1376u64, 4294967295u32); o };
             self.mem[(n.wrapping_add(43) & MASK) as usize] = a14;
+            self.held[8] = a14;
             let a15 = P::adapt(b15, a15, 15753u32, true);
             self.b[3] = a15;
+            self.held[9] = a15;
             self.probes[0] = P::sum(a0, b0);
             self.probes[1] = P::sum(a2, b2);
             self.probes[2] = P::diff(a8, b8);
