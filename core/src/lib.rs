@@ -139,10 +139,21 @@
 //! and the plant locks onto a fixed point. Holding adds less than 2·g_k·q of energy per
 //! port; the shunt dissipates g_sh·v'² >= g_sh·q², and the rule applies only where
 //! q >= 2·G/g_sh ([`profile::hold_threshold`]), so the node stays passive. With E = 0 the plain rule runs,
-//! so the zero-input argument above holds unchanged. The hold does not reach loops through
-//! series resistors, impedance steps at open nodes or reactances' adaptors: there the narrow
-//! profile can still keep a small oscillation (`core/tests/settle.rs` states the measured
-//! band).
+//! so the zero-input argument above holds unchanged.
+//!
+//! A [`Narrow`] node without shunt or source (a tap, an impedance step) has no dissipation to
+//! pay for a hold, but its exact division knows what its own truncation removes: with
+//! v = σ·(q + r/T) (σ the sign of N, q the floor, r the remainder) and m_k = q − σ·b_k, every
+//! port at the floor m_k leaves Σ g_k·(m_k² − (m_k + r/T)²) = −q·r against the lossless
+//! exact node, and one port at the ceiling m_k + 1 instead adds g_k·(2·m_k + 1). So while the
+//! drive is on, a port keeps its previous wave when that is the ceiling (away from zero) and
+//! its cost fits what is left of q·r (the open-node hold, `profile/hold.rs`): the node still
+//! adds no energy, and with E = 0 it runs the plain rule. On the packaging-line example this
+//! removes the narrow oscillation the fractional-delay lattices had been blamed for (it
+//! circulated through the open trunk taps: 28 codes to 0, `core/tests/packaging_line.rs`).
+//! No hold reaches loops through series resistors, series branches, series inductors or
+//! reactances' adaptors: there the narrow profile can still keep an oscillation of tens of
+//! codes (`core/tests/settle.rs` states the measured band).
 //!
 //! ## Real-time guarantees
 //! `step` does O(ports + junctions) work, independent of the delays (ring buffers, no data

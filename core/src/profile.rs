@@ -239,12 +239,33 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
         shift: u32,
         total: u64,
     );
+    /// The open-node hold ([`OPEN_HOLD`], `profile/hold.rs`): a node without shunt and source
+    /// (`total` = Σ g) that, while driven (e != 0), keeps a port's previous outgoing wave where
+    /// it is the neighbour of trunc(v − b_k) away from zero and the node's own truncation loss
+    /// pays for it, so that no energy is added. Only an exact node knows that loss to the LSB:
+    /// [`Narrow`] runs the rule; for a profile without an exact node this is the plain rule
+    /// (and [`hold_threshold`] never selects it there).
+    #[allow(clippy::too_many_arguments)]
+    #[inline(always)]
+    fn node_scatter_open(
+        b: &[Self::Wave],
+        g: &[u32],
+        a: &mut [Self::Wave],
+        e: Self::Wave,
+        recip: u32,
+        shift: u32,
+        total: u64,
+    ) {
+        Self::node_scatter_held(b, g, a, e, 0, recip, shift, total, 0);
+    }
     /// Fractional-delay allpass (lattice, state s, coefficients in `LOSS_FRAC` bits): (y, s') =
     /// (trunc(a·x + c·s), trunc(c·x − a·s)), saturated; passive for a² + c² <= 1 (`lattice.rs`).
     fn allpass(x: Self::Wave, s: Self::Wave, a: i32, c: u32) -> (Self::Wave, Self::Wave);
 }
 
+mod hold;
 mod lattice;
+pub use hold::OPEN_HOLD;
 mod sealed {
     pub trait Sealed {}
     impl Sealed for super::Wide {}
@@ -523,6 +544,10 @@ impl Profile for Narrow {
     fn allpass(x: i16, s: i16, a: i32, c: u32) -> (i16, i16) {
         lattice::narrow(x, s, a, c)
     }
+    #[inline(always)]
+    fn node_scatter_open(b: &[i16], g: &[u32], a: &mut [i16], e: i16, recip: u32, shift: u32, total: u64) {
+        hold::narrow_open(b, g, a, e, recip, shift, total)
+    }
 }
 
 /// Reciprocal of a node's total weight: `shift = floor(log2 total)` (one less for a
@@ -562,7 +587,9 @@ pub fn reciprocal(total: u64, recip_bits: u32, strict: bool) -> Option<(u32, u32
 
 /// The hold threshold of a node (see [`Profile::node_scatter_held`]): the least integer
 /// |v| >= 1 with g_sh·|v| >= 2·G, where G = `g_ports` − `g_src` (the line and element port
-/// weights) and g_sh = `total` − `g_ports` the shunt weight; 0 (never hold) without a shunt.
+/// weights) and g_sh = `total` − `g_ports` the shunt weight; 0 (never hold) without a shunt,
+/// except at an open node (no shunt, no source) of a profile with an exact node, which gets
+/// [`OPEN_HOLD`]: the hold paid by the node's own truncation loss (`profile/hold.rs`).
 ///
 /// Derivation: the exact node with its shunt as a matched port (b = 0) and the source as a
 /// port (b = e/2) is lossless, so Σ g_k·a_k² (lines) = Σ g_k·b_k² + g_src·e²/4 −
@@ -575,6 +602,10 @@ pub fn reciprocal(total: u64, recip_bits: u32, strict: bool) -> Option<(u32, u32
 pub fn hold_threshold<P: Profile>(g_ports: u64, g_src: u32, total: u64) -> u32 {
     let g_lines = g_ports.saturating_sub(u64::from(g_src));
     let g_sh = total.saturating_sub(g_ports);
+    if g_sh == 0 && g_src == 0 && g_lines > 0 && P::EXACT_NODE {
+        // An open node of an exact profile: the hold paid by its own truncation loss.
+        return OPEN_HOLD;
+    }
     if g_sh == 0 || g_lines == 0 {
         return 0;
     }

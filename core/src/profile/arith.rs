@@ -454,6 +454,11 @@ macro_rules! junction_rules {
             total: u64,
             hold_min: u32,
         ) {
+            // An open node of an exact profile: the hold paid by its own truncation loss
+            // (`profile/hold.rs`; a branch on the configuration, folded away without an exact node).
+            if Self::EXACT_NODE && hold_min == $crate::profile::OPEN_HOLD {
+                return Self::node_scatter_open(b, g, a, e, recip, shift, total);
+            }
             // Σ g + g_src <= 2^WEIGHT_BITS (node budget), so the numerator
             // 2·Σ g_k·b_k + g_src·e is exact (i64: <= 2^62; i32: <= 2^30).
             type A = $acc;
