@@ -26,7 +26,11 @@ fn write_if_changed(path: &Path, bytes: &[u8]) -> Result<(), String> {
 /// Zc ends' no-panic and instruction-count checks.
 pub fn fits_m0(p: &TestPlant) -> bool {
     let m4_only = p.name.contains("b_") || p.name.contains("z_");
-    !m4_only && (p.ports() <= 9 || (p.ports() <= 40 && p.name.ends_with("narrow")))
+    // The M0's 256 KB flash holds the narrow plants (its profile) and two wide ones: with
+    // the fractional wide plant too the build overflowed by 2.3 KB (3 Dec 2026). The M0
+    // wide profile has no aim; its fractional cost is measured on the M4.
+    let wide_fraction = p.name.ends_with("f_wide");
+    !m4_only && !wide_fraction && (p.ports() <= 9 || (p.ports() <= 40 && p.name.ends_with("narrow")))
 }
 
 /// Generate all plant files into `dir`; `plants` holds (profile, plants of that profile).

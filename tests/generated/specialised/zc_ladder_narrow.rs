@@ -76,7 +76,7 @@ pub mod specialised {
     const PROBES: usize = 5;
     const HIST: usize = 0;
     const INITIAL_NODES: [NodeCoef; 2] = [
-        NodeCoef { recip: 60005, shift: 13, total: 8947, short: false, broken: false, open: false, hold: 0 },
+        NodeCoef { recip: 60005, shift: 13, total: 8947, short: false, broken: false, open: false, hold: 4294967295 },
         NodeCoef { recip: 50006, shift: 12, total: 5368, short: false, broken: false, open: false, hold: 2 },
     ];
 
