@@ -261,7 +261,7 @@ mod tests {
             },
             probes: vec![],
             tolerances: Tolerances::default(),
-            zc_networks: crate::compile::ZC_NETWORKS_DEFAULT,
+            zc_networks: true,
             events: vec![],
             lattice_path: vec![],
         }
