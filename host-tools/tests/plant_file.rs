@@ -435,3 +435,17 @@ fn a_long_chain_plant_loads_without_deep_recursion() {
     let p = parse(&text).unwrap();
     assert_eq!(p.lattice_path, (0..n).collect::<Vec<_>>());
 }
+
+#[test]
+fn a_cable_resistance_beyond_any_cable_is_located() {
+    // 1e300 ohm/m used to reach the exact reference and fail there without a position.
+    let text = MINIMAL
+        .replace("cable = \"twisted-pair-120\"", "cable = \"wire\"")
+        .replace("[node.a]", "[cable.wire]\npreset = \"twisted-pair-120\"\nresistance = \"1e300 ohm/m\"\n\n[node.a]");
+    let err = parse_plant(&text, "t.toml", Path::new(".")).unwrap_err();
+    assert_eq!((err.line, err.field.as_str()), (9, "cable.wire.resistance"), "{err:?}");
+    assert!(err.message.contains("beyond any cable"), "{err:?}");
+    // A heater-wire value is still a cable.
+    let ok = text.replace("1e300 ohm/m", "5 ohm/m");
+    assert!(parse_plant(&ok, "t.toml", Path::new(".")).is_ok());
+}

@@ -18,6 +18,11 @@ use crate::plant::model::{CableId, CableType, LossModel, C0};
 use crate::plant::presets;
 use crate::plant::units::UnitKind;
 
+/// The largest DC loop resistance per metre a cable may have: 1 kohm/m is far above any cable
+/// (resistance wire for heaters is a few ohm/m; 24 AWG copper pairs about 0.19 ohm/m
+/// [memory]) and keeps the exact reference's nodal solution finite.
+const MAX_RESISTANCE_PER_M: f64 = 1e3;
+
 /// The cable types of a plant: those of the file, then presets used by name.
 pub struct Cables {
     pub list: Vec<CableType>,
@@ -165,6 +170,17 @@ fn cable(src: &Source, key: &Text, c: &RawCable) -> Result<CableType, PlantError
     if let Some(r) = &c.resistance {
         let f = &path("resistance");
         out.r_per_m = non_negative(src, r, UnitKind::ResistancePerLength, f, "resistance")?;
+        if out.r_per_m > MAX_RESISTANCE_PER_M {
+            return Err(src.error(
+                r.span(),
+                f.as_str(),
+                format!(
+                    "cable \"{name}\" resistance {:.3e} ohm/m is beyond any cable ({MAX_RESISTANCE_PER_M:.0e} ohm/m at most): the line equations lose their meaning and the reference cannot solve them",
+                    out.r_per_m
+                ),
+                "give the DC loop resistance of both conductors per metre (copper pairs: tens to a few hundred mohm/m); model a resistor as a node load instead",
+            ));
+        }
         overridden.push("resistance");
     }
     if let Some(loss) = read_loss(src, c, &name)? {
