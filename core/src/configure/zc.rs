@@ -87,14 +87,23 @@ pub(crate) fn zc_ok<P: Profile>(rt: &LossRt<P::Wave>) -> bool {
         return true;
     }
     let one = 1i64 << P::LOSS_FRAC;
-    let coefs = rt.zc_k.iter().zip(rt.zc_pole.iter()).zip(rt.zc_rho.iter()).take(n);
-    let each = coefs.clone().all(|((k, p), r)| {
-        let (k, p, r) = (i64::from(*k), i64::from(*p), i64::from(*r));
-        // Operands < 2^32: exact in i64 (saturating only for the lint).
-        k > 0 && k < one && r > 0 && p == k.saturating_mul(2).saturating_sub(one)
-    });
-    let sum = coefs.fold(0i64, |s, (_, r)| s.saturating_add(i64::from(*r)));
-    n <= MAX_ZC_SECTIONS && rt.sections >= 1 && each && sum < one
+    let pairs = rt.zc_k.iter().copied().zip(rt.zc_rho.iter().copied()).take(n);
+    // The pole 2k − 1 is the loader's own (`record`); operands < 2^32, exact in i64.
+    let mut poles = rt.zc_k.iter().zip(rt.zc_pole.iter()).take(n);
+    let poles_ok = poles.all(|(k, p)| i64::from(*p) == i64::from(*k).saturating_mul(2).saturating_sub(one));
+    ranges_ok(rt.sections, n, pairs, P::LOSS_FRAC) && poles_ok
+}
+
+/// The range rule on a network's coefficients as the core holds them (k_q, ρ_q at `frac`
+/// bits): loss sections on the line (`loss_sections` >= 1), 1..=MAX_ZC_SECTIONS sections,
+/// 0 < k_q < one, ρ_q > 0 and Σ ρ_q < one. Shared by the loader ([`zc_ok`]) and the margin
+/// ([`passivity_margin`]), so a margin exists only for a network `load` takes.
+fn ranges_ok(loss_sections: u8, n: usize, pairs: impl Iterator<Item = (u32, u32)> + Clone, frac: u32) -> bool {
+    let Some(one) = 1i64.checked_shl(frac) else { return false };
+    // Operands < 2^32: exact in i64 (saturating only for the lint).
+    let each = pairs.clone().all(|(k, r)| i64::from(k) > 0 && i64::from(k) < one && r > 0);
+    let sum = pairs.fold(0i64, |s, (_, r)| s.saturating_add(i64::from(r)));
+    loss_sections >= 1 && (1..=MAX_ZC_SECTIONS).contains(&n) && each && sum < one
 }
 
 /// Check a line's Zc network at load: the line has loss sections, is not the rig port's line
@@ -219,26 +228,16 @@ mod float {
                 }
                 None => None,
             };
-            // The loader's range rule (`zc_ok`), so that a margin exists only for a network
-            // the loader takes: loss sections on the line, 1..=MAX_ZC_SECTIONS sections,
-            // 0 < k_q < one, ρ_q > 0, Σ ρ_q < one.
+            // The loader's range rule ([`ranges_ok`]) on the coefficients as the core holds them.
             let n_zc = zc.sections as usize;
-            if n_loss == 0 || !(1..=MAX_ZC_SECTIONS).contains(&n_zc) {
+            let mut held = [(0u32, 0u32); MAX_ZC_SECTIONS];
+            for ((slot, k), rho) in held.iter_mut().zip(zc.k.iter()).zip(zc.rho.iter()).take(n_zc) {
+                *slot = crate::quantize::zc_section(*k, *rho, frac)?;
+            }
+            if !ranges_ok(ll.sections, n_zc, held.iter().copied().take(n_zc), frac) {
                 return None;
             }
-            let mut zcs = [(0.0, 0.0); MAX_ZC_SECTIONS];
-            let mut sum = 0u64;
-            for ((slot, k), rho) in zcs.iter_mut().zip(zc.k.iter()).zip(zc.rho.iter()).take(n_zc) {
-                let (k, rho) = crate::quantize::zc_section(*k, *rho, frac)?;
-                if k == 0 || f64::from(k) >= one || rho == 0 {
-                    return None;
-                }
-                sum = sum.saturating_add(u64::from(rho));
-                *slot = (f64::from(k) / one, f64::from(rho) / one);
-            }
-            if sum as f64 >= one {
-                return None;
-            }
+            let zcs = held.map(|(k, rho)| (f64::from(k) / one, f64::from(rho) / one));
             Some(Realised { loss, n_loss, allpass, zc: zcs, n_zc })
         }
 
