@@ -150,62 +150,6 @@ pub fn fit(cable: &CableType, fs: f64, band: (f64, f64)) -> Option<ZcFit> {
     ok.then(|| ZcFit { cable: cable.name.clone(), z_inf, sections, band, max_rel_error, zc_edges: (z_lo, z_hi) })
 }
 
-/// How far one lossy line with Zc networks at both ends is from losing passivity, as a
-/// two-port in the node-wave form: the least cos(arg Y) of its even and odd admittances
-/// and where (Hz); >= 0 means passive on the check's grid. A thin wrapper: the one
-/// implementation is the core's load-time check, `tidewire_core::configure::
-/// zc_passivity_margin` (the realised line from the integers at `frac` bits: quantized loss
-/// sections and allpass, whole delay, quantized Zc coefficients; see `configure/zc.rs` for
-/// the grid and what it proves). The network is `loss.zc` when the compiler filled it, else
-/// [`network_of`] of `fit`. A line the check cannot complete gives (−∞, 0).
-pub fn passivity_margin(
-    fit: &ZcFit,
-    loss: Option<&tidewire_core::LineLoss>,
-    delay: u32,
-    fs: f64,
-    frac: u32,
-) -> (f64, f64) {
-    let zc = loss.and_then(|l| l.zc).or_else(|| network_of(fit, 1.0 / fs));
-    let empty = tidewire_core::LineLoss {
-        line: 0,
-        sections: 0,
-        poles: [0; tidewire_core::MAX_LOSS_SECTIONS],
-        zeros: [0; tidewire_core::MAX_LOSS_SECTIONS],
-        allpass: None,
-        zc: None,
-    };
-    let line = tidewire_core::LineLoss { zc, ..loss.copied().unwrap_or(empty) };
-    match tidewire_core::configure::zc_passivity_margin(&line, delay, frac) {
-        Some(m) => (m.least, m.omega * fs / (2.0 * PI)),
-        None => (f64::NEG_INFINITY, 0.0),
-    }
-}
-
-/// The core's network of a fit at time step `dt` (node-wave form, Q30, truncated toward
-/// zero): k_i and ρ_i = r_i/Z_p with Z_p = Z_inf + Σ r_i (`tidewire_core::ZcNetwork`).
-/// `None` for a fit with more than `MAX_ZC_SECTIONS` sections or values out of range.
-pub fn network_of(fit: &ZcFit, dt: f64) -> Option<tidewire_core::ZcNetwork> {
-    let sections = fit.wave_sections(dt);
-    if sections.is_empty() || sections.len() > tidewire_core::MAX_ZC_SECTIONS {
-        return None;
-    }
-    let zp = fit.z_inf + sections.iter().map(|(r, _)| r).sum::<f64>();
-    let q30 = |x: f64| {
-        let v = (x * (1u64 << 30) as f64).floor();
-        (v.is_finite() && v >= 0.0 && v <= u32::MAX as f64).then_some(v as u32)
-    };
-    let mut zc = tidewire_core::ZcNetwork {
-        sections: sections.len() as u8,
-        k: [0; tidewire_core::MAX_ZC_SECTIONS],
-        rho: [0; tidewire_core::MAX_ZC_SECTIONS],
-    };
-    for (i, (r, k)) in sections.iter().enumerate() {
-        zc.k[i] = q30(*k)?;
-        zc.rho[i] = q30(r / zp)?;
-    }
-    Some(zc)
-}
-
 #[cfg(test)]
 mod tests {
     use super::*;
