@@ -476,3 +476,27 @@ fn a_plant_file_can_keep_the_constant_port_and_a_wrong_choice_is_located() {
     assert_eq!((e.line, e.field.as_str()), (6, "plant.characteristic_impedance"), "{e:?}");
     assert!(e.message.contains("sqrt") && e.hint.contains("constant"), "{e:?}");
 }
+
+#[test]
+fn verify_does_not_judge_a_final_value_the_exact_reference_has_not_reached() {
+    // 4 us of 100 m Cat 5e: the skin-effect tail keeps the exact reference itself more than
+    // the 0.2 % final-value tolerance from the DC point at the end, so the final value is
+    // not judged (the max and RMS errors judge the end) and the run passes.
+    let dir = tempfile::tempdir().unwrap();
+    let (file, json) = (dir.path().join("cat5e.toml"), dir.path().join("v.json"));
+    std::fs::write(&file, plant("cat5e", "100 m", "100 ohm", "100 MHz", "40 ns", "4 us")).unwrap();
+    let out = assert_cmd::Command::cargo_bin("tidewire")
+        .unwrap()
+        .args(["verify", file.to_str().unwrap(), "--json", json.to_str().unwrap()])
+        .assert()
+        .success();
+    let text = String::from_utf8_lossy(&out.get_output().stdout).into_owned();
+    assert!(text.contains("final value      not judged"), "{text}");
+    let v: serde_json::Value = serde_json::from_slice(&std::fs::read(&json).unwrap()).unwrap();
+    for p in v["probes"].as_array().unwrap() {
+        assert_eq!(p["final_value"]["against"], "unsettled", "{p}");
+        assert_eq!(p["final_value"]["checked"], false, "{p}");
+        assert!(p["pass"]["final_value"].is_null(), "{p}");
+    }
+    assert_eq!(v["verdict"], "pass");
+}

@@ -99,7 +99,7 @@ pub fn verify_json(plant: &Plant, c: &Compiled, v: &Verification, file: &str, pa
                     "exact_samples": opt(p.arrival_exact),
                 },
                 "final_value": {
-                    "checked": settles && p.final_check != crate::verify::FinalCheck::Unsettled,
+                    "checked": settles && p.final_check.judged(),
                     "against": p.final_check,
                     "core": num(p.final_core),
                     "expected": num(p.final_expected),
@@ -112,7 +112,7 @@ pub fn verify_json(plant: &Plant, c: &Compiled, v: &Verification, file: &str, pa
                     "max_error": p.pass_max,
                     "rms_error": p.pass_rms,
                     "arrival": p.pass_arrival,
-                    "final_value": if settles && p.final_check != crate::verify::FinalCheck::Unsettled { json!(p.pass_final) } else { Value::Null },
+                    "final_value": if settles && p.final_check.judged() { json!(p.pass_final) } else { Value::Null },
                 },
                 "verdict": if super::verify_cmd::probe_pass(p, settles) { "pass" } else { "fail" },
             })
