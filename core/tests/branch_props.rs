@@ -70,18 +70,6 @@ fn narrow(net: &Owned) -> Result<Option<(Owned, Box<NarrowSolver>)>, TestCaseErr
     }
 }
 
-fn quantized<P: Profile, const A: usize, const B: usize, const C: usize, const D: usize>(
-    s: &Solver<P, A, B, C, D>,
-) -> common::Quantized {
-    common::Quantized {
-        g: (0..A / 2).map(|l| s.line_weight(l) as u64).collect(),
-        exponent: s.weight_exponent(),
-        series_frac: P::SERIES_FRAC,
-        total_max: P::TOTAL_MAX,
-        allpass_frac: P::LOSS_FRAC,
-    }
-}
-
 proptest! {
     #![proptest_config(config())]
 
@@ -177,9 +165,9 @@ proptest! {
         // 96 codes for plants without branches.
         let mut s = Box::new(WideSolver::new());
         s.load(&net.network()).map_err(|e| TestCaseError::fail(format!("wide load: {e}")))?;
-        let mut twin = Twin::quantized(&net.network(), quantized(&*s));
+        let mut twin = Twin::quantized(&net.network(), common::quantized(&*s));
         let mut s16 = narrow(&net)?.map(|(n16, s16)| {
-            let t = Twin::quantized(&n16.network(), quantized(&*s16));
+            let t = Twin::quantized(&n16.network(), common::quantized(&*s16));
             (s16, t)
         });
         for n in 0..800 {

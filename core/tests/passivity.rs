@@ -187,12 +187,12 @@ proptest! {
         // gain of a plant with impedance steps from 10 Ω to 1 kΩ can exceed 10).
         let mut s = WideSolver::new();
         s.load(&net.network()).unwrap();
-        let mut twin = Twin::quantized(&net.network(), quantized(&s, Wide::SERIES_FRAC, Wide::TOTAL_MAX));
+        let mut twin = Twin::quantized(&net.network(), common::quantized(&s));
         let mut net16 = net.clone();
         net16.io_shift = 0;
         let mut s16 = NarrowSolver::new();
         s16.load(&net16.network()).unwrap();
-        let mut twin16 = Twin::quantized(&net16.network(), quantized(&s16, Narrow::SERIES_FRAC, Narrow::TOTAL_MAX));
+        let mut twin16 = Twin::quantized(&net16.network(), common::quantized(&s16));
         for n in 0..1500 {
             let x = if n < drive.len() { drive[n] } else { 0 };
             s.step(x);
@@ -297,12 +297,12 @@ proptest! {
         prop_assume!(net.losses.iter().any(|l| l.allpass.is_some()));
         let mut s = WideSolver::new();
         s.load(&net.network()).unwrap();
-        let mut twin = Twin::quantized(&net.network(), quantized(&s, Wide::SERIES_FRAC, Wide::TOTAL_MAX));
+        let mut twin = Twin::quantized(&net.network(), common::quantized(&s));
         let mut net16 = net.clone();
         net16.io_shift = 0;
         let mut s16 = NarrowSolver::new();
         s16.load(&net16.network()).unwrap();
-        let mut twin16 = Twin::quantized(&net16.network(), quantized(&s16, Narrow::SERIES_FRAC, Narrow::TOTAL_MAX));
+        let mut twin16 = Twin::quantized(&net16.network(), common::quantized(&s16));
         for n in 0..1500 {
             let x = if n < drive.len() { drive[n] } else { 0 };
             s.step(x);
@@ -317,19 +317,5 @@ proptest! {
                 prop_assert!((got16 - want16[k]).abs() <= 400.0, "narrow probe {k} n={n}: {got16} vs {}", want16[k]);
             }
         }
-    }
-}
-
-fn quantized<P: Profile, const A: usize, const B: usize, const C: usize, const D: usize>(
-    s: &Solver<P, A, B, C, D>,
-    series_frac: u32,
-    total_max: u64,
-) -> common::Quantized {
-    common::Quantized {
-        g: (0..A / 2).map(|l| s.line_weight(l) as u64).collect(),
-        exponent: s.weight_exponent(),
-        series_frac,
-        total_max,
-        allpass_frac: P::LOSS_FRAC,
     }
 }

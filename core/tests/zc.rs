@@ -198,12 +198,12 @@ proptest! {
         // arithmetic error is measured, over 1500 samples.
         let mut s = Box::new(WideSolver::new());
         s.load(&net.network()).unwrap();
-        let mut twin = Twin::quantized(&net.network(), quantized(&*s, Wide::SERIES_FRAC, Wide::TOTAL_MAX));
+        let mut twin = Twin::quantized(&net.network(), common::quantized(&*s));
         let mut n16 = net.clone();
         n16.io_shift = 0;
         let mut s16 = Box::new(NarrowSolver::new());
         s16.load(&n16.network()).unwrap();
-        let mut twin16 = Twin::quantized(&n16.network(), quantized(&*s16, Narrow::SERIES_FRAC, Narrow::TOTAL_MAX));
+        let mut twin16 = Twin::quantized(&n16.network(), common::quantized(&*s16));
         let (mut worst, mut worst16) = (0.0f64, 0.0f64);
         for n in 0..1500 {
             let x = if n < drive.len() { drive[n] } else { 0 };
@@ -235,17 +235,3 @@ proptest! {
 /// stayed within 135 LSB. The bound is observed, not derived.
 const TRACK_WIDE: f64 = 2048.0;
 const TRACK_NARROW: f64 = 96.0;
-
-fn quantized<P: Profile, const A: usize, const B: usize, const C: usize, const D: usize>(
-    s: &Solver<P, A, B, C, D>,
-    series_frac: u32,
-    total_max: u64,
-) -> common::Quantized {
-    common::Quantized {
-        g: (0..A / 2).map(|l| s.line_weight(l) as u64).collect(),
-        exponent: s.weight_exponent(),
-        series_frac,
-        total_max,
-        allpass_frac: P::LOSS_FRAC,
-    }
-}

@@ -167,6 +167,20 @@ pub fn network(loads: Loads, max_delay: u32, io_shift: u8) -> impl Strategy<Valu
 #[allow(unused_imports)]
 pub use tidewire_twin::{Quantized, Twin};
 
+/// The twin's quantized coefficients of a loaded solver: its line weights and weight
+/// exponent, and the profile's series and allpass fractions and weight total.
+pub fn quantized<P: tidewire_core::Profile, const A: usize, const B: usize, const C: usize, const D: usize>(
+    s: &tidewire_core::Solver<P, A, B, C, D>,
+) -> Quantized {
+    Quantized {
+        g: (0..A / 2).map(|l| u64::from(s.line_weight(l))).collect(),
+        exponent: s.weight_exponent(),
+        series_frac: P::SERIES_FRAC,
+        total_max: P::TOTAL_MAX,
+        allpass_frac: P::LOSS_FRAC,
+    }
+}
+
 /// Random loss filters (1–3 attenuating sections each) on some of the lines of `net`.
 pub fn with_losses(net: Owned) -> impl Strategy<Value = Owned> {
     let n = net.lines.len();
