@@ -563,7 +563,9 @@ pub(crate) fn apply_shunt<P: Profile>(rt: &mut JunctionRt, shunt: Shunt, c: u32)
     let total = g_ports.saturating_add(g_sh).min(P::TOTAL_MAX);
     let (r, s) = if is_short { (0, 0) } else { reciprocal(total, P::RECIP_BITS, !P::EXACT_NODE).ok_or(())? };
     *t = total;
-    *hold = if is_short { 0 } else { hold_threshold::<P>(*g_ports, *g_src, total) };
+    // Only a profile whose LSB is an I/O code holds (`Profile::HOLDS`): elsewhere a wave
+    // wandering by a few LSB round its working point stays far below one code.
+    *hold = if is_short || !P::HOLDS { 0 } else { hold_threshold::<P>(*g_ports, *g_src, total) };
     *recip = r;
     *shift = s;
     *short = is_short;

@@ -133,13 +133,18 @@
 //! sign, so truncation toward zero rounds them all the same way; for small deviations the node
 //! then acts as if only v were quantized, and in a lightly damped plant the deviations wander
 //! by tens of LSB without ever settling (the packaging-line example: 40 codes in the narrow
-//! profile). So at nodes with a shunt, while the drive is on (E != 0), a port whose previous
+//! profile). So in the [`Narrow`] profile, whose wave LSB is one I/O code
+//! ([`Profile::HOLDS`]), at nodes with a shunt, while the drive is on (E != 0), a port whose previous
 //! outgoing wave is the floor or the ceiling of v' − b_k, and no larger than q, keeps
 //! it (the hold rule, [`Profile::node_scatter_held`]): a deviation below one LSB is absorbed
 //! and the plant locks onto a fixed point. Holding adds less than 2·g_k·q of energy per
 //! port; the shunt dissipates g_sh·v'² >= g_sh·q², and the rule applies only where
 //! q >= 2·G/g_sh ([`profile::hold_threshold`]), so the node stays passive. With E = 0 the plain rule runs,
-//! so the zero-input argument above holds unchanged.
+//! so the zero-input argument above holds unchanged. [`Wide`] runs the plain rule everywhere:
+//! its waves keep 12 or more bits below the I/O code on the example plants, so a deviation of
+//! tens of LSB is a fraction of a code, and the outputs of every random plant of
+//! `core/tests/settle.rs` stay within 1 code without the hold (which saves its per-port tests
+//! on the per-sample path).
 //!
 //! A [`Narrow`] node without shunt or source (a tap, an impedance step) has no dissipation to
 //! pay for a hold, but its exact division knows what its own truncation removes: with

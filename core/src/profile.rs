@@ -32,6 +32,14 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     /// [`Narrow`]) or runs the rule without correction steps ([`Wide`]); see
     /// [`Self::node_scatter`]. Selects the reciprocal's rounding ([`reciprocal`]).
     const EXACT_NODE: bool;
+    /// Whether nodes run the hold rules while driven ([`hold_threshold`],
+    /// [`Self::node_scatter_held`]). Only [`Narrow`], whose wave LSB is one I/O code: there a
+    /// deviation circulating round the working point is seen in every output. [`Wide`] keeps
+    /// `MAX_IO_SHIFT`-style fraction bits below the code (12 on the example plants), so the
+    /// same few-LSB deviation stays far below one code and the plain rule is enough (every
+    /// random plant of `core/tests/settle.rs` within 1 code without it); dropping the hold
+    /// there saves its per-port tests on the per-sample path.
+    const HOLDS: bool;
     /// Fractional bits of the series-junction coefficients.
     const SERIES_FRAC: u32;
     /// Largest `io_shift` the wave range leaves room for.
@@ -293,6 +301,7 @@ impl Profile for Wide {
     const WEIGHT_BITS: u32 = 30;
     const RECIP_BITS: u32 = 32;
     const EXACT_NODE: bool = false;
+    const HOLDS: bool = false;
     const SERIES_FRAC: u32 = 30;
     const MAX_IO_SHIFT: u8 = 15;
     const FIXED_NODES: bool = true;
@@ -345,6 +354,7 @@ impl Profile for Narrow {
     const WEIGHT_BITS: u32 = 14;
     const RECIP_BITS: u32 = 16;
     const EXACT_NODE: bool = true;
+    const HOLDS: bool = true;
     const SERIES_FRAC: u32 = 14;
     const MAX_IO_SHIFT: u8 = 0;
     const FIXED_NODES: bool = false;

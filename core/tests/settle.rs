@@ -31,7 +31,10 @@
 //! its transient up to sample 1 000 000 (seed 12345, 512 cases, the first 500 narrow runs),
 //! 84 of the 100 runs above 2 codes stayed above 2: limit cycles, not slow transients.
 //!
-//! The wide profile (12 more fraction bits) stayed within 1 code in every run.
+//! The wide profile (12 more fraction bits) stayed within 1 code in every run; since 3 Dec
+//! 2026 it runs no hold at all (`Profile::HOLDS`), and still stayed within 1 code in every run
+//! (`PROPTEST_RNG_SEED=12345 PROPTEST_CASES=1024 cargo test --release -p tidewire-core --test
+//! settle`, 2050 runs).
 
 mod common;
 

@@ -86,7 +86,7 @@ pub mod specialised {
         aps: [W; 0],
         zcs: [[W; MAX_ZC_SECTIONS]; 0],
         zcc: [W; 0],
-        held: [W; 1],
+        held: [W; 0],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 0],
@@ -95,7 +95,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 1], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 0], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -121,9 +121,8 @@ pub mod specialised {
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b1: W = self.mem[i + 7];
             // junction 1: node of 1 port(s), fixed
-            let [a1] = { let mut o = [self.held[0]]; P::node_scatter_held(&[b1], &[586406201u32], &mut o, e, 0u32, 3932160003u32, 30u32, 1172812402u64, 2u32); o };
+            let [a1] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b1], &[586406201u32], &mut o, e, 0u32, 3932160003u32, 30u32, 1172812402u64); o };
             self.mem[i + 105] = a1;
-            self.held[0] = a1;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b2: W = self.mem[i + 16];
             let b3: W = self.mem[i + 25];

@@ -153,7 +153,7 @@ pub mod specialised {
         aps: [W; 22],
         zcs: [[W; MAX_ZC_SECTIONS]; 0],
         zcc: [W; 0],
-        held: [W; 11],
+        held: [W; 0],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 0],
@@ -162,7 +162,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 27], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 22], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 11], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 27], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 22], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 0], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -180,9 +180,8 @@ pub mod specialised {
             let e: W = P::from_code(input, IO_SHIFT);
             let b0: W = self.mem[i + 0];
             // junction 0: node of 1 port(s), fixed
-            let [a0] = { let mut o = [self.held[0]]; P::node_scatter_held(&[b0], &[146601550u32], &mut o, e, 351843720u32, 3574690918u32, 29u32, 645046820u64, 2u32); o };
+            let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[146601550u32], &mut o, e, 351843720u32, 3574690918u32, 29u32, 645046820u64); o };
             self.mem[i + 1013] = a0;
-            self.held[0] = a0;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b1: W = self.mem[i + 77];
             let b2: W = self.mem[i + 154];
@@ -237,52 +236,42 @@ pub mod specialised {
             let b17: W = self.mem[i + 894];
             let b18: W = self.b[6];
             // junction 7: node of 2 port(s), fixed
-            let [a17, a18] = { let mut o = [self.held[1], self.held[2]]; P::node_scatter_held(&[b17, b18], &[146601550u32, 703687441u32], &mut o, e, 0u32, 2707166958u32, 29u32, 851755006u64, 1161u32); o };
+            let [a17, a18] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b17, b18], &[146601550u32, 703687441u32], &mut o, e, 0u32, 2707166958u32, 29u32, 851755006u64); o };
             self.mem[i + 3865] = a17;
-            self.held[1] = a17;
             let a18 = P::adapt(b18, a18, 1073741824u32, false);
             self.b[6] = a18;
-            self.held[2] = a18;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b19: W = self.mem[i + 902];
             let b20: W = self.b[7];
             // junction 8: node of 2 port(s), fixed
-            let [a19, a20] = { let mut o = [self.held[3], self.held[4]]; P::node_scatter_held(&[b19, b20], &[146601550u32, 703687441u32], &mut o, e, 0u32, 2707166958u32, 29u32, 851755006u64, 1161u32); o };
+            let [a19, a20] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b19, b20], &[146601550u32, 703687441u32], &mut o, e, 0u32, 2707166958u32, 29u32, 851755006u64); o };
             self.mem[i + 3879] = a19;
-            self.held[3] = a19;
             let a20 = P::adapt(b20, a20, 1073741824u32, false);
             self.b[7] = a20;
-            self.held[4] = a20;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b21: W = self.mem[i + 909];
             let b22: W = self.b[8];
             // junction 9: node of 2 port(s), fixed
-            let [a21, a22] = { let mut o = [self.held[5], self.held[6]]; P::node_scatter_held(&[b21, b22], &[146601550u32, 703687441u32], &mut o, e, 0u32, 2707166958u32, 29u32, 851755006u64, 1161u32); o };
+            let [a21, a22] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b21, b22], &[146601550u32, 703687441u32], &mut o, e, 0u32, 2707166958u32, 29u32, 851755006u64); o };
             self.mem[i + 3900] = a21;
-            self.held[5] = a21;
             let a22 = P::adapt(b22, a22, 1073741824u32, false);
             self.b[8] = a22;
-            self.held[6] = a22;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b23: W = self.mem[i + 920];
             let b24: W = self.b[9];
             // junction 10: node of 2 port(s), fixed
-            let [a23, a24] = { let mut o = [self.held[7], self.held[8]]; P::node_scatter_held(&[b23, b24], &[146601550u32, 703687441u32], &mut o, e, 0u32, 2707166958u32, 29u32, 851755006u64, 1161u32); o };
+            let [a23, a24] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b23, b24], &[146601550u32, 703687441u32], &mut o, e, 0u32, 2707166958u32, 29u32, 851755006u64); o };
             self.mem[i + 3919] = a23;
-            self.held[7] = a23;
             let a24 = P::adapt(b24, a24, 1073741824u32, false);
             self.b[9] = a24;
-            self.held[8] = a24;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b25: W = self.mem[i + 930];
             let b26: W = self.b[10];
             // junction 11: node of 2 port(s), fixed
-            let [a25, a26] = { let mut o = [self.held[9], self.held[10]]; P::node_scatter_held(&[b25, b26], &[146601550u32, 703687441u32], &mut o, e, 0u32, 2707166958u32, 29u32, 851755006u64, 1161u32); o };
+            let [a25, a26] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b25, b26], &[146601550u32, 703687441u32], &mut o, e, 0u32, 2707166958u32, 29u32, 851755006u64); o };
             self.mem[i + 3933] = a25;
-            self.held[9] = a25;
             let a26 = P::adapt(b26, a26, 1073741824u32, false);
             self.b[10] = a26;
-            self.held[10] = a26;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b27: W = self.mem[i + 937];
             let b28: W = self.b[11];

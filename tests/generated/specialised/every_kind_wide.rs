@@ -124,7 +124,7 @@ pub mod specialised {
         aps: [W; 14],
         zcs: [[W; MAX_ZC_SECTIONS]; 16],
         zcc: [W; 16],
-        held: [W; 9],
+        held: [W; 4],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 3],
@@ -133,7 +133,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 29], chokes: [P::ZERO; 1], lx: [P::ZERO; 16], ly: [P::ZERO; 96], lr: [P::ZERO; 96], aps: [P::ZERO; 14], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 16], zcc: [P::ZERO; 16], held: [P::ZERO; 9], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 29], chokes: [P::ZERO; 1], lx: [P::ZERO; 16], ly: [P::ZERO; 96], lr: [P::ZERO; 96], aps: [P::ZERO; 14], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 16], zcc: [P::ZERO; 16], held: [P::ZERO; 4], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -188,14 +188,11 @@ pub mod specialised {
             let b9: W = self.b[9];
             let b10: W = self.b[10];
             // junction 4: node of 3 port(s), fixed
-            let [a8, a9, a10] = { let mut o = [self.held[2], self.held[3], self.held[4]]; P::node_scatter_held(&[b8, b9, b10], &[172200605u32, 234562480u32, 234562480u32], &mut o, e, 0u32, 2270363147u32, 29u32, 1015627395u64, 4u32); o };
+            let [a8, a9, a10] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b8, b9, b10], &[172200605u32, 234562480u32, 234562480u32], &mut o, e, 0u32, 2270363147u32, 29u32, 1015627395u64); o };
             let line8 = P::zc_post(a8, b8, self.zcc[15], &mut self.zcs[15], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
             self.mem[i + 155] = line8;
-            self.held[2] = a8;
             self.mem[i + 66] = a9;
-            self.held[3] = a9;
             self.mem[i + 72] = a10;
-            self.held[4] = a10;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b11: W = self.b[11];
             let b12: W = self.b[12];
@@ -216,12 +213,10 @@ pub mod specialised {
             let b15: W = self.b[15];
             let b16: W = self.b[16];
             // junction 7: node of 2 port(s), fixed
-            let [a15, a16] = { let mut o = [self.held[5], self.held[6]]; P::node_scatter_held(&[b15, b16], &[234562480u32, 774065474u32], &mut o, e, 0u32, 2246928236u32, 29u32, 1026220140u64, 115u32); o };
+            let [a15, a16] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b15, b16], &[234562480u32, 774065474u32], &mut o, e, 0u32, 2246928236u32, 29u32, 1026220140u64); o };
             self.mem[i + 41] = a15;
-            self.held[5] = a15;
             let a16 = P::adapt(b16, a16, 1073741824u32, false);
             self.b[16] = a16;
-            self.held[6] = a16;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b17: W = self.b[17];
             let b18: W = self.b[18];
@@ -255,13 +250,13 @@ pub mod specialised {
             let b24: W = self.b[24];
             // junction 11: node of 2 port(s), switched by the plant's events
             let c = self.nodes[2];
-            let [a23, a24] = if c.scatters() { { let mut o = [self.held[7], self.held[8]]; P::node_scatter_held(&[b23, b24], &[172200605u32, 172200605u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b23, b24] } else { [P::neg(b23), P::neg(b24)] };
+            let [a23, a24] = if c.scatters() { { let mut o = [self.held[2], self.held[3]]; P::node_scatter_held(&[b23, b24], &[172200605u32, 172200605u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b23, b24] } else { [P::neg(b23), P::neg(b24)] };
             let line23 = P::zc_post(a23, b23, self.zcc[11], &mut self.zcs[11], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
             self.mem[i + 148] = line23;
-            self.held[7] = a23;
+            self.held[2] = a23;
             let line24 = P::zc_post(a24, b24, self.zcc[12], &mut self.zcs[12], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
             self.mem[i + 151] = line24;
-            self.held[8] = a24;
+            self.held[3] = a24;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b25: W = self.b[25];
             let b26: W = self.b[26];

@@ -63,7 +63,7 @@ pub mod specialised {
     const PROBES: usize = 1;
     const HIST: usize = 0;
     const INITIAL_NODES: [NodeCoef; 1] = [
-        NodeCoef { recip: 3276800008, shift: 29, total: 703687440, short: false, broken: false, open: false, hold: 2 },
+        NodeCoef { recip: 3276800008, shift: 29, total: 703687440, short: false, broken: false, open: false, hold: 0 },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.

@@ -72,7 +72,7 @@ pub mod specialised {
     const PROBES: usize = 2;
     const HIST: usize = 0;
     const INITIAL_NODES: [NodeCoef; 1] = [
-        NodeCoef { recip: 2978909098, shift: 27, total: 193514046, short: false, broken: false, open: false, hold: 20 },
+        NodeCoef { recip: 2978909098, shift: 27, total: 193514046, short: false, broken: false, open: false, hold: 0 },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.

@@ -81,7 +81,7 @@ pub mod specialised {
     const HIST: usize = 0;
     const INITIAL_NODES: [NodeCoef; 2] = [
         NodeCoef { recip: 3069375393, shift: 27, total: 187810443, short: false, broken: false, open: false, hold: 0 },
-        NodeCoef { recip: 2316131729, shift: 29, total: 995557800, short: false, broken: false, open: false, hold: 148 },
+        NodeCoef { recip: 2316131729, shift: 29, total: 995557800, short: false, broken: false, open: false, hold: 0 },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.

@@ -92,7 +92,7 @@ pub mod specialised {
         aps: [W; 0],
         zcs: [[W; MAX_ZC_SECTIONS]; 0],
         zcc: [W; 0],
-        held: [W; 3],
+        held: [W; 2],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 1],
@@ -101,7 +101,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 3], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 2], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -134,9 +134,8 @@ pub mod specialised {
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b3: W = self.mem[i + 19];
             // junction 2: node of 1 port(s), fixed
-            let [a3] = { let mut o = [self.held[0]]; P::node_scatter_held(&[b3], &[293203100u32], &mut o, e, 0u32, 3932160009u32, 29u32, 586406200u64, 2u32); o };
+            let [a3] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b3], &[293203100u32], &mut o, e, 0u32, 3932160009u32, 29u32, 586406200u64); o };
             self.mem[i + 111] = a3;
-            self.held[0] = a3;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b4: W = self.mem[i + 27];
             let b5: W = self.mem[i + 36];
@@ -156,11 +155,11 @@ pub mod specialised {
             let b9: W = self.mem[i + 79];
             // junction 5: node of 2 port(s), switched by the plant's events
             let c = self.nodes[0];
-            let [a8, a9] = if c.scatters() { { let mut o = [self.held[1], self.held[2]]; P::node_scatter_held(&[b8, b9], &[293203100u32, 293203100u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b8, b9] } else { [P::neg(b8), P::neg(b9)] };
+            let [a8, a9] = if c.scatters() { { let mut o = [self.held[0], self.held[1]]; P::node_scatter_held(&[b8, b9], &[293203100u32, 293203100u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b8, b9] } else { [P::neg(b8), P::neg(b9)] };
             self.mem[i + 94] = a8;
-            self.held[1] = a8;
+            self.held[0] = a8;
             self.mem[i + 103] = a9;
-            self.held[2] = a9;
+            self.held[1] = a9;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b10: W = self.mem[i + 88];
             let b11: W = self.mem[i + 92];

@@ -77,7 +77,7 @@ pub mod specialised {
     const HIST: usize = 0;
     const INITIAL_NODES: [NodeCoef; 2] = [
         NodeCoef { recip: 3932160009, shift: 29, total: 586406200, short: false, broken: false, open: false, hold: 0 },
-        NodeCoef { recip: 3276800008, shift: 28, total: 351843720, short: false, broken: false, open: false, hold: 2 },
+        NodeCoef { recip: 3276800008, shift: 28, total: 351843720, short: false, broken: false, open: false, hold: 0 },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -93,7 +93,7 @@ pub mod specialised {
         aps: [W; 2],
         zcs: [[W; MAX_ZC_SECTIONS]; 6],
         zcc: [W; 6],
-        held: [W; 5],
+        held: [W; 4],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 2],
@@ -102,7 +102,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 0], lx: [P::ZERO; 6], ly: [P::ZERO; 6], lr: [P::ZERO; 6], aps: [P::ZERO; 2], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 6], zcc: [P::ZERO; 6], held: [P::ZERO; 5], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 0], lx: [P::ZERO; 6], ly: [P::ZERO; 6], lr: [P::ZERO; 6], aps: [P::ZERO; 2], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 6], zcc: [P::ZERO; 6], held: [P::ZERO; 4], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -158,9 +158,8 @@ pub mod specialised {
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b7: W = self.mem[i + 43];
             // junction 4: node of 1 port(s), fixed
-            let [a7] = { let mut o = [self.held[4]]; P::node_scatter_held(&[b7], &[234562480u32], &mut o, e, 0u32, 3276800008u32, 28u32, 351843720u64, 4u32); o };
+            let [a7] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b7], &[234562480u32], &mut o, e, 0u32, 3276800008u32, 28u32, 351843720u64); o };
             self.mem[i + 32] = a7;
-            self.held[4] = a7;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a0, b0);
             self.probes[1] = P::diff(a0, b0);
