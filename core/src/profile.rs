@@ -340,7 +340,7 @@ impl Profile for Wide {
         a.saturating_sub(b)
     }
 
-    arith::junction_rules!(i64, trunc_shr64, sat64_to_i32);
+    arith::junction_rules!(i64, trunc_shr64, sat64_to_i32, trunc_sat64, floor_sat64);
     #[inline(always)]
     fn allpass(x: i32, s: i32, a: i32, c: u32) -> (i32, i32) {
         lattice::wide(x, s, a, c)
@@ -393,7 +393,7 @@ impl Profile for Narrow {
         (a as i32).wrapping_sub(b as i32) // two i16: exact in i32
     }
 
-    arith::junction_rules!(i32, trunc_shr32, sat_i16);
+    arith::junction_rules!(i32, trunc_shr32, sat_i16, trunc_sat32, floor_sat32);
     #[inline(always)]
     fn allpass(x: i16, s: i16, a: i32, c: u32) -> (i16, i16) {
         lattice::narrow(x, s, a, c)

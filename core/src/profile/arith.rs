@@ -219,7 +219,7 @@ pub(crate) use node_numerator;
 /// rule; the coefficient bounds are checked at load) and quantizes each once: truncated
 /// toward zero, then saturated to a wave.
 macro_rules! junction_rules {
-    ($acc:ty, $trunc:ident, $sat:ident) => {
+    ($acc:ty, $trunc:ident, $sat:ident, $trunc_sat:ident, $floor_sat:ident) => {
         #[inline(always)]
         fn node_scatter(
             b: &[Self::Wave],
@@ -240,7 +240,7 @@ macro_rules! junction_rules {
             // accumulator (i64: <= 2^62; i32: <= 2^30).
             type A = $acc;
             let (n1, n2) = <A as Acc>::series_num(c, Self::SERIES_FRAC, b1, b2);
-            let t = |n: A| $sat($trunc(n, Self::SERIES_FRAC));
+            let t = |n: A| $trunc_sat(n, Self::SERIES_FRAC);
             (t(n1), t(n2))
         }
 
@@ -256,7 +256,7 @@ macro_rules! junction_rules {
             // i32 (f = 13): c·(b1 − b2) < 2^29, rho·s <= 2^28, so 2y + s·2^13 < 2^31.
             type A = $acc;
             let y = <A as Acc>::mul_diff(c, b1, b2).wrapping_add(<A as Acc>::mul(rho, s));
-            let t = |n: A| $sat($trunc(n, Self::CHOKE_FRAC));
+            let t = |n: A| $trunc_sat(n, Self::CHOKE_FRAC);
             (
                 t(A::from(b1).wrapping_shl(Self::CHOKE_FRAC).wrapping_sub(y)),
                 t(A::from(b2).wrapping_shl(Self::CHOKE_FRAC).wrapping_add(y)),
@@ -299,7 +299,7 @@ macro_rules! junction_rules {
             let n = <A as Acc>::loss_sum(g, x, gb, x1, a, y1, r1);
             let low = (1 as A).wrapping_shl(Self::LOSS_FRAC).wrapping_sub(1);
             // The low bits as a wave (< 2^f, so the cast keeps the value).
-            ($sat(n.wrapping_shr(Self::LOSS_FRAC)), (n & low) as Self::Wave)
+            ($floor_sat(n, Self::LOSS_FRAC), (n & low) as Self::Wave)
         }
 
         #[inline(always)]
@@ -317,7 +317,7 @@ macro_rules! junction_rules {
             for (si, ki) in s.iter().zip(k.iter()).take(n) {
                 acc = acc.wrapping_add(<A as Acc>::mul(*ki, *si));
             }
-            let c = $sat($trunc(acc, Self::LOSS_FRAC));
+            let c = $trunc_sat(acc, Self::LOSS_FRAC);
             // Two waves: exact in the accumulator, then saturated.
             (c, $sat(A::from(b).wrapping_add(A::from(c))))
         }
@@ -338,7 +338,7 @@ macro_rules! junction_rules {
             type A = $acc;
             for ((si, pi), ri) in s.iter_mut().zip(pole.iter()).zip(rho.iter()).take(n) {
                 let acc = A::from(*pi).wrapping_mul(A::from(*si)).wrapping_add(<A as Acc>::mul_diff(*ri, ap, bp));
-                *si = $sat($trunc(acc, Self::LOSS_FRAC));
+                *si = $trunc_sat(acc, Self::LOSS_FRAC);
             }
             $sat(A::from(ap).wrapping_add(A::from(c)))
         }

@@ -9,14 +9,14 @@
 //! y_q² + s'_q² <= x² + s²: the section sends on and keeps at most what arrived and what it
 //! kept.
 use super::arith::Acc;
-use super::{sat64_to_i32, sat_i16, trunc_shr32, trunc_shr64, Profile, Wide};
+use super::{sat_i16, trunc_sat64, trunc_shr32, Profile, Wide};
 
 /// Wide: |a|, c <= 2^30 (checked at load) and |x|, |s| <= 2^31, so each product is at most
 /// 2^61 and each sum of two at most 2^62: exact in i64.
 #[inline(always)]
 pub(super) fn wide(x: i32, s: i32, a: i32, c: u32) -> (i32, i32) {
     let (ax, a_s) = (i64::from(a).wrapping_mul(i64::from(x)), i64::from(a).wrapping_mul(i64::from(s)));
-    let t = |n: i64| sat64_to_i32(trunc_shr64(n, Wide::LOSS_FRAC));
+    let t = |n: i64| trunc_sat64(n, Wide::LOSS_FRAC);
     (t(ax.wrapping_add(<i64 as Acc>::mul(c, s))), t(<i64 as Acc>::mul(c, x).wrapping_sub(a_s)))
 }
 

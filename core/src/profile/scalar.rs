@@ -73,6 +73,44 @@ pub(super) fn sat64_to_i32(t: i64) -> i32 {
     }
 }
 
+/// floor(n / 2^f) as an i32, saturated toward zero, for 1 <= f <= 31: exactly the floor
+/// where it fits an i32; where it does not, a value of the same sign, no larger in magnitude
+/// than the floor and within 2^(32 − f) − 1 of the i32 limit (the low bits of the word pair
+/// stay as they are). The floor fits iff the high word h = n >> 32 lies in
+/// [−2^(f−1), 2^(f−1)), so the high word alone is clamped there (one `SSAT` on the M4) and the
+/// result is (h << (32 − f)) | (low word >> f): three instructions where the exact 64-bit
+/// saturation [`sat64_to_i32`] of the shifted value took six (a compare and a conditional
+/// select over both words). Saturation happens only at the edge of the wave range, where
+/// every rule only needs |result| <= |exact| (the passive bound), which this keeps.
+#[inline(always)]
+pub(super) fn floor_sat64(n: i64, f: u32) -> i32 {
+    let hi = (n >> 32) as i32;
+    let lim = 1i32.wrapping_shl(f.wrapping_sub(1));
+    // max then min, not `clamp` (which can panic on a reversed range): lim >= 1.
+    let hs = hi.max(lim.wrapping_neg()).min(lim.wrapping_sub(1));
+    ((hs as u32).wrapping_shl(32u32.wrapping_sub(f)) | (n as u32).wrapping_shr(f)) as i32
+}
+
+/// trunc(n / 2^f) toward zero as an i32, saturated as in [`floor_sat64`], for |n| < 2^63 − 2^f
+/// and 1 <= f <= 31: the floor of the biased n of [`trunc_shr64`].
+#[inline(always)]
+pub(super) fn trunc_sat64(n: i64, f: u32) -> i32 {
+    let bias = ((n >> 63) as u64).checked_shr(64u32.wrapping_sub(f)).unwrap_or(0) as i64;
+    floor_sat64(n.wrapping_add(bias), f)
+}
+
+/// floor(n / 2^f) saturated to i16 (the narrow counterpart of [`floor_sat64`]: exact clamp).
+#[inline(always)]
+pub(super) fn floor_sat32(n: i32, f: u32) -> i16 {
+    sat_i16(n.wrapping_shr(f))
+}
+
+/// trunc(n / 2^f) toward zero saturated to i16 (exact clamp).
+#[inline(always)]
+pub(super) fn trunc_sat32(n: i32, f: u32) -> i16 {
+    sat_i16(trunc_shr32(n, f))
+}
+
 /// trunc(n / 2^f) toward zero, for |n| < 2^63 and f < 63: the same value as
 /// sign(n)·(|n| >> f). A negative n gets 2^f − 1 added before the arithmetic shift (which
 /// floors), so the shift rounds it up, toward zero; n < 0 cannot overflow by the addition.
