@@ -78,7 +78,7 @@ pub(crate) fn node_ok<P: Profile>(rt: &JunctionRt, port_sum: u64, port_min: u64)
         return port_min >= 1 && with_src == g_ports && linked && !short && !broken && hold == 0 && division;
     }
     // The hold threshold is the one that keeps the held node passive (or 0, never).
-    let held = hold == 0 || (!short && hold == hold_threshold::<P>(g_ports, g_src, total));
+    let held = hold == 0 || (P::HOLDS && !short && hold == hold_threshold::<P>(g_ports, g_src, total));
     let mode_ok = mode == super::mode_of(short, broken, super::lone_open(count, g_src, g_ports, total, short));
     coefficients && division && held && mode_ok
 }
