@@ -73,9 +73,10 @@ pub(crate) fn node_ok<P: Profile>(rt: &JunctionRt, port_sum: u64, port_min: u64)
         short || reciprocal(total, P::RECIP_BITS, !P::EXACT_NODE && mode != Mode::Linked) == Some((recip, shift));
     if mode == Mode::Linked {
         // One end of a series branch: total = 2G with G >= Σ g_k + g_src (its shunt >= 0),
-        // 2G within the budget (the numerator with the link port stays exact), no hold.
+        // 2G within the budget (the numerator with the link port stays exact), its hold threshold that of `linked_hold_threshold`.
         let linked = total % 2 == 0 && total / 2 >= with_src && total <= 1u64 << P::WEIGHT_BITS;
-        return port_min >= 1 && with_src == g_ports && linked && !short && !broken && hold == 0 && division;
+        let held = hold == crate::profile::linked_hold_threshold::<P>(g_ports, g_src, total / 2);
+        return port_min >= 1 && with_src == g_ports && linked && !short && !broken && held && division;
     }
     // The hold threshold is the one that keeps the held node passive (or 0, never).
     let held = hold == 0 || (!short && hold == hold_threshold::<P>(g_ports, g_src, total));
