@@ -30,7 +30,10 @@
 //!   inductor (b_L[n] = −a_L[n − 1]) is lossless, and so the whole tree is passive. Ranges:
 //!   2G <= 2^WB at each node, n_a, n_b, n_l, n_r <= 2^(WB − 1), n <= 2^WB (the bounds
 //!   `Profile::branch_series` argues with), and the reciprocal of n is the one [`reciprocal`]
-//!   gives.
+//!   gives. A linked node's hold threshold is exactly
+//!   [`crate::profile::linked_hold_threshold`] of its weights (0 where it has no shunt, and in
+//!   `Wide`): its shunt pays for every held port as at a plain node
+//!   (`Profile::branch_node_held`).
 //! * **element adaptor**: 0 <= μ <= 1.
 //! * **loss section** H(z) = (g − gb·z⁻¹)/(1 − a·z⁻¹): 0 < a < 1, g > 0, −g <= gb,
 //!   g − gb = 1 − a exactly (DC gain exactly 1, so the DC operating point is Ohm's law's)
