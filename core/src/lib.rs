@@ -146,6 +146,11 @@
 //! `core/tests/settle.rs` stay within 1 code without the hold (which saves its per-port tests
 //! on the per-sample path).
 //!
+//! In [`Narrow`] the nodes a series branch joins hold the same way ([`Profile::branch_node_held`]):
+//! their exact identity counts the link port (weight G, incident r), the source and the shunt
+//! as ports, so the shunt's g_sh·v² pays for every held port above the same threshold
+//! ([`profile::linked_hold_threshold`]); with E = 0 they run the plain stage 3.
+//!
 //! A [`Narrow`] node without shunt or source (a tap, an impedance step) has no dissipation to
 //! pay for a hold, but its exact division knows what its own truncation removes: with
 //! v = σ·(q + r/T) (σ the sign of N, q the floor, r the remainder) and m_k = q − σ·b_k, every
@@ -156,8 +161,9 @@
 //! adds no energy, and with E = 0 it runs the plain rule. On the packaging-line example this
 //! removes the narrow oscillation the fractional-delay lattices had been blamed for (it
 //! circulated through the open trunk taps: 28 codes to 0, `core/tests/packaging_line.rs`).
-//! No hold reaches loops through series resistors, series branches, series inductors or
-//! reactances' adaptors: there the narrow profile can still keep an oscillation of tens of
+//! No hold reaches loops through series resistors, series inductors or reactances' adaptors
+//! (a passive series-resistor hold was tried and broke the packaging line's flatness,
+//! docs/firmware.md): there the narrow profile can still keep an oscillation of tens of
 //! codes (`core/tests/settle.rs` states the measured band).
 //!
 //! ## Real-time guarantees

@@ -266,6 +266,28 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     ) {
         Self::node_scatter_held(b, g, a, e, 0, recip, shift, total, 0);
     }
+    /// [`Self::branch_node`] with the hold rule of [`Self::node_scatter_held`] at the linked
+    /// node's ports: while driven (e != 0) and q = floor(|v|) >= `hold_min` (> 0), a port whose
+    /// previous outgoing wave (`a[k]` on entry) is the floor or the ceiling of v − b_k, and at
+    /// most q in magnitude, keeps it. `hold_min` is [`linked_hold_threshold`] (0: never hold,
+    /// the plain stage 3). Passive by the shunt argument of [`hold_threshold`]: the linked
+    /// node's exact identity counts its link port (weight G, incident r), source and shunt as
+    /// ports, so the lines receive at most their incoming energy plus the link's and source's
+    /// minus g_sh·v², and each held port adds less than 2·g_k·q.
+    #[allow(clippy::too_many_arguments)]
+    fn branch_node_held(
+        b: &[Self::Wave],
+        g: &[u32],
+        a: &mut [Self::Wave],
+        e: Self::Wave,
+        g_src: u32,
+        link: u32,
+        r: Self::Wave,
+        recip: u32,
+        shift: u32,
+        total: u64,
+        hold_min: u32,
+    );
     /// Fractional-delay allpass (lattice, state s, coefficients in `LOSS_FRAC` bits): (y, s') =
     /// (trunc(a·x + c·s), trunc(c·x − a·s)), saturated; passive for a² + c² <= 1 (`lattice.rs`).
     fn allpass(x: Self::Wave, s: Self::Wave, a: i32, c: u32) -> (Self::Wave, Self::Wave);
@@ -466,6 +488,20 @@ pub fn hold_threshold<P: Profile>(g_ports: u64, g_src: u32, total: u64) -> u32 {
     // ceil(2G/g_sh) with G <= 2^30: at most 2^31, so it fits u32 (saturating all the same).
     let need = g_lines.saturating_mul(2).div_ceil(g_sh).max(1);
     u32::try_from(need).unwrap_or(u32::MAX)
+}
+
+/// The hold threshold of a node a series branch links ([`Profile::branch_node_held`]), from
+/// its weights before the link port (G = `g` = ports, source and shunt): the shunt-node
+/// threshold of [`hold_threshold`] in a profile with an exact node ([`Narrow`]), 0 (never
+/// hold) without a shunt and in [`Wide`], which is flat without it (`core/tests/settle.rs`).
+pub fn linked_hold_threshold<P: Profile>(g_ports: u64, g_src: u32, g: u64) -> u32 {
+    if !P::EXACT_NODE {
+        return 0;
+    }
+    match hold_threshold::<P>(g_ports, g_src, g) {
+        OPEN_HOLD => 0,
+        h => h,
+    }
 }
 
 #[cfg(test)]

@@ -6,7 +6,7 @@
 
 use proptest::prelude::*;
 use tidewire_core::configure::quantize_loss_section;
-use tidewire_core::profile::{hold_threshold, reciprocal, OPEN_HOLD};
+use tidewire_core::profile::{hold_threshold, linked_hold_threshold, reciprocal, OPEN_HOLD};
 use tidewire_core::{Narrow, Profile, Wide};
 
 fn config() -> ProptestConfig {
@@ -529,7 +529,8 @@ proptest! {
     }
 }
 
-/// The series branch's three stages (`branch_open`, `branch_series`, `branch_node`) against
+/// The series branch's three stages (`branch_open`, `branch_series`, `branch_node` and its
+/// held form `branch_node_held`) against
 /// their formulas in i128, over the whole documented range: node weights with the link port
 /// 2G <= 2^WEIGHT_BITS, port numbers n_a, n_b, n_l, n_r <= 2^(WEIGHT_BITS − 1),
 /// n <= 2^WEIGHT_BITS, waves anywhere in the profile's range (extremes included).
@@ -572,6 +573,42 @@ fn check_branch<P: Profile>(us: [u32; 8], gs: [u32; 3], ns: [u32; 4], pick: u32)
     for (ak, bk) in a.iter().zip(&b) {
         let want = ((num3 - w::<P>(*bk) * total as i128) / total as i128).clamp(lo, hi);
         prop_assert_eq!(w::<P>(*ak), want);
+    }
+    // Stage 3 with the hold (`branch_node_held`), from previous waves near v − b_k (and a
+    // few far): a port keeps its previous value exactly when the drive is on,
+    // q = floor(|v|) >= hold_min > 0, the previous value is the floor or the ceiling of
+    // v − b_k and |prev| <= q; at the linked node's own threshold (its shunt G − Σ g − g_src,
+    // `linked_hold_threshold`) the lines never receive more than the node's exact identity
+    // brings in (lines, source at e/2, link port of weight G at r), in units of 1/4.
+    let e2 = w::<P>(e);
+    let (q, nz) = (num3.abs() / total as i128, i128::from(num3 % total as i128 != 0));
+    let fl = num3.div_euclid(total as i128);
+    let prev: Vec<P::Wave> = b
+        .iter()
+        .zip(us.iter())
+        .map(|(bk, u)| {
+            let t = fl - w::<P>(*bk) + (*u % 3) as i128 - 1 + nz * ((*u / 3) % 2) as i128;
+            P::wave_from_i32(t.clamp(i32::MIN as i128, i32::MAX as i128) as i32)
+        })
+        .collect();
+    let own = linked_hold_threshold::<P>(sum, g_src, gg);
+    for hold_min in [0, 1, own, own.saturating_add(5)] {
+        let mut held = prev.clone();
+        P::branch_node_held(&b, &g, &mut held, e, g_src, gg as u32, link_r, r, s, total, hold_min);
+        for (k, bk) in b.iter().enumerate() {
+            let p = w::<P>(prev[k]);
+            let (f, c) = (fl - w::<P>(*bk), fl - w::<P>(*bk) + nz);
+            let keep = e2 != 0 && hold_min != 0 && q >= hold_min as i128 && (p == f || p == c) && p.abs() <= q;
+            let plain = ((num3 - w::<P>(*bk) * total as i128) / total as i128).clamp(lo, hi);
+            prop_assert_eq!(w::<P>(held[k]), if keep { p } else { plain }, "held port {} hold_min {}", k, hold_min);
+        }
+        if hold_min == own {
+            let incoming: i128 = 4 * b.iter().zip(&g).map(|(b, g)| *g as i128 * w::<P>(*b).pow(2)).sum::<i128>()
+                + g_src as i128 * e2 * e2
+                + 4 * gg as i128 * w::<P>(link_r).pow(2);
+            let outgoing: i128 = 4 * held.iter().zip(&g).map(|(a, g)| *g as i128 * w::<P>(*a).pow(2)).sum::<i128>();
+            prop_assert!(outgoing <= incoming, "linked node energy grew: {} > {}", outgoing, incoming);
+        }
     }
     // Stage 2: port numbers within the budget, n = Σ with the resistor's.
     // n_a at its largest in the big cases (the quotient then reaches 5/2 of the wave range).

@@ -30,7 +30,10 @@
 //!   inductor (b_L[n] = −a_L[n − 1]) is lossless, and so the whole tree is passive. Ranges:
 //!   2G <= 2^WB at each node, n_a, n_b, n_l, n_r <= 2^(WB − 1), n <= 2^WB (the bounds
 //!   `Profile::branch_series` argues with), and the reciprocal of n is the one [`reciprocal`]
-//!   gives.
+//!   gives. A linked node's hold threshold is exactly
+//!   [`crate::profile::linked_hold_threshold`] of its weights (0 where it has no shunt, and in
+//!   `Wide`): its shunt pays for every held port as at a plain node
+//!   (`Profile::branch_node_held`).
 //! * **element adaptor**: 0 <= μ <= 1.
 //! * **loss section** H(z) = (g − gb·z⁻¹)/(1 − a·z⁻¹): 0 < a < 1, g > 0, −g <= gb,
 //!   g − gb = 1 − a exactly (DC gain exactly 1, so the DC operating point is Ohm's law's)
@@ -73,9 +76,10 @@ pub(crate) fn node_ok<P: Profile>(rt: &JunctionRt, port_sum: u64, port_min: u64)
         short || reciprocal(total, P::RECIP_BITS, !P::EXACT_NODE && mode != Mode::Linked) == Some((recip, shift));
     if mode == Mode::Linked {
         // One end of a series branch: total = 2G with G >= Σ g_k + g_src (its shunt >= 0),
-        // 2G within the budget (the numerator with the link port stays exact), no hold.
+        // 2G within the budget (the numerator with the link port stays exact), its hold threshold that of `linked_hold_threshold`.
         let linked = total % 2 == 0 && total / 2 >= with_src && total <= 1u64 << P::WEIGHT_BITS;
-        return port_min >= 1 && with_src == g_ports && linked && !short && !broken && hold == 0 && division;
+        let held = hold == crate::profile::linked_hold_threshold::<P>(g_ports, g_src, total / 2);
+        return port_min >= 1 && with_src == g_ports && linked && !short && !broken && held && division;
     }
     // The hold threshold is the one that keeps the held node passive (or 0, never).
     let held = hold == 0 || (P::HOLDS && !short && hold == hold_threshold::<P>(g_ports, g_src, total));

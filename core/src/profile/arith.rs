@@ -442,6 +442,55 @@ macro_rules! junction_rules {
             }
         }
 
+        // As `branch_node`: one copy per profile (the branch pass is not the hot loop).
+        #[inline(never)]
+        fn branch_node_held(
+            b: &[Self::Wave],
+            g: &[u32],
+            a: &mut [Self::Wave],
+            e: Self::Wave,
+            g_src: u32,
+            link: u32,
+            r: Self::Wave,
+            recip: u32,
+            shift: u32,
+            total: u64,
+            hold_min: u32,
+        ) {
+            if hold_min == 0 {
+                // Never holds: the plain stage 3 (a branch on the configuration).
+                return Self::branch_node(b, g, a, e, g_src, link, r, recip, shift, total);
+            }
+            // The numerator, the exact floor and the plain waves as in `branch_node` (same
+            // ranges); the hold as in `node_scatter_held`, branch-free, with q = floor(|v|)
+            // exact here (the linked node divides exactly in both profiles).
+            type A = $acc;
+            let acc = $crate::profile::arith::node_numerator!(A, b, g, e, g_src, <A as Acc>::mul(link, r));
+            let (q, nz) = <A as Acc>::floor_div_abs(acc, recip, shift, total);
+            let neg = (acc < 0) as A;
+            let mask = neg.wrapping_neg();
+            let fl = (q.wrapping_add(nz & neg) ^ mask).wrapping_sub(mask);
+            let bits = <A>::BITS - 1;
+            let e_a = A::from(e);
+            // Driven (e != 0) and q >= hold_min: a node-wide sign bit, opaque as in
+            // `node_scatter_held` (no unswitching of the port loop on data).
+            let node = core::hint::black_box(
+                (e_a | e_a.wrapping_neg()) & !q.wrapping_sub(opaque(<A as Acc>::from_u32(hold_min))),
+            );
+            for (ak, bk) in a.iter_mut().zip(b.iter()) {
+                let m = fl.wrapping_sub(A::from(*bk));
+                let t = A::from($sat(m.wrapping_add(((m < 0) as A) & nz)));
+                // Held when the previous wave is the floor or the ceiling of v − b_k (prev − m
+                // in {0, nz}) and |prev| <= q: the sign bit of node & !(the terms' or).
+                let prev = opaque(A::from(*ak));
+                let d = prev.wrapping_sub(m);
+                let any_neg = d | nz.wrapping_sub(d) | q.wrapping_sub(prev) | q.wrapping_add(prev);
+                let keep = opaque(((node & !any_neg) >> bits) & 1).wrapping_neg();
+                // Both candidates are waves, so the cast is exact.
+                *ak = (t ^ ((t ^ prev) & keep)) as Self::Wave;
+            }
+        }
+
         #[inline(always)]
         fn node_scatter_held(
             b: &[Self::Wave],

@@ -20,7 +20,7 @@ static LINES: [Line; 2] = [
 static JUNCTION_TABLE: [Junction; 5] = [
     Junction::Node { shunt: Shunt::Open },
     Junction::Node { shunt: Shunt::Open },
-    Junction::Node { shunt: Shunt::Open },
+    Junction::Node { shunt: Shunt::Resistor { milliohm: 2000000 } },
     Junction::Node { shunt: Shunt::Resistor { milliohm: 1000000 } },
     Junction::Branch { a: 1, b: 2, port_milliohm: 34115, milliohm: 0 },
 ];
@@ -88,7 +88,7 @@ pub mod specialised {
         aps: [W; 4],
         zcs: [[W; MAX_ZC_SECTIONS]; 0],
         zcc: [W; 0],
-        held: [W; 1],
+        held: [W; 3],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 1],
@@ -97,7 +97,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 1], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 4], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 1], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 1], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 4], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 3], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -121,27 +121,29 @@ pub mod specialised {
             let b5: W = self.b[5];
             // junction 3: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
-            let [a5] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b5], &[2684u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b5] } else { [P::neg(b5)] };
+            let [a5] = if c.scatters() { { let mut o = [self.held[2]]; P::node_scatter_held(&[b5], &[2684u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b5] } else { [P::neg(b5)] };
             self.mem[i + 68] = a5;
-            self.held[0] = a5;
+            self.held[2] = a5;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b1: W = self.b[1];
             let b2: W = self.b[2];
             let b3: W = self.b[3];
             let b4: W = self.b[4];
-            // junction 4: series branch from node 1 to node 2, n = 8551
+            // junction 4: series branch from node 1 to node 2, n = 8745
             let wa4: W = P::branch_open(&[b1, b2], &[2684u32, 814u32], e, 0u32, 38369u32, 12u32, 6996u64);
-            let wb4: W = P::branch_open(&[b3, b4], &[2684u32, 814u32], e, 0u32, 38369u32, 12u32, 6996u64);
-            let (ra4, rb4, al4) = P::branch_series(wa4, wb4, self.chokes[0], 3498u32, 3498u32, 1555u32, 62784u32, 13u32, 8551u32);
+            let wb4: W = P::branch_open(&[b3, b4], &[2684u32, 814u32], e, 0u32, 36954u32, 12u32, 7264u64);
+            let (ra4, rb4, al4) = P::branch_series(wa4, wb4, self.chokes[0], 3632u32, 3498u32, 1615u32, 61391u32, 13u32, 8745u32);
             let [a1, a2] = { let mut o = [P::ZERO; 2]; P::branch_node(&[b1, b2], &[2684u32, 814u32], &mut o, e, 0u32, 3498u32, ra4, 38369u32, 12u32, 6996u64); o };
-            let [a3, a4] = { let mut o = [P::ZERO; 2]; P::branch_node(&[b3, b4], &[2684u32, 814u32], &mut o, e, 0u32, 3498u32, rb4, 38369u32, 12u32, 6996u64); o };
+            let [a3, a4] = { let mut o = [self.held[0], self.held[1]]; P::branch_node_held(&[b3, b4], &[2684u32, 814u32], &mut o, e, 0u32, 3632u32, rb4, 36954u32, 12u32, 7264u64, 53u32); o };
             self.chokes[0] = P::neg(al4);
             self.mem[i + 22] = a1;
             let a2 = P::adapt(b2, a2, 16384u32, false);
             self.b[2] = a2;
             self.mem[i + 91] = a3;
+            self.held[0] = a3;
             let a4 = P::adapt(b4, a4, 16384u32, false);
             self.b[4] = a4;
+            self.held[1] = a4;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a5, b5);
             self.probes[1] = P::sum(a1, b1);

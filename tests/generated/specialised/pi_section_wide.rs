@@ -20,7 +20,7 @@ static LINES: [Line; 2] = [
 static JUNCTION_TABLE: [Junction; 5] = [
     Junction::Node { shunt: Shunt::Open },
     Junction::Node { shunt: Shunt::Open },
-    Junction::Node { shunt: Shunt::Open },
+    Junction::Node { shunt: Shunt::Resistor { milliohm: 2000000 } },
     Junction::Node { shunt: Shunt::Resistor { milliohm: 1000000 } },
     Junction::Branch { a: 1, b: 2, port_milliohm: 34115, milliohm: 0 },
 ];
@@ -129,12 +129,12 @@ pub mod specialised {
             let b2: W = self.b[2];
             let b3: W = self.b[3];
             let b4: W = self.b[4];
-            // junction 4: series branch from node 1 to node 2, n = 560469522
+            // junction 4: series branch from node 1 to node 2, n = 573176360
             let wa4: W = P::branch_open(&[b1, b2], &[175921860u32, 53346512u32], e, 0u32, 2514349219u32, 28u32, 458536744u64);
-            let wb4: W = P::branch_open(&[b3, b4], &[175921860u32, 53346512u32], e, 0u32, 2514349219u32, 28u32, 458536744u64);
-            let (ra4, rb4, al4) = P::branch_series(wa4, wb4, self.chokes[0], 229268372u32, 229268372u32, 101932778u32, 4114127385u32, 29u32, 560469522u32);
+            let wb4: W = P::branch_open(&[b3, b4], &[175921860u32, 53346512u32], e, 0u32, 2421448124u32, 28u32, 476128930u64);
+            let (ra4, rb4, al4) = P::branch_series(wa4, wb4, self.chokes[0], 238064465u32, 229268372u32, 105843523u32, 4022920640u32, 29u32, 573176360u32);
             let [a1, a2] = { let mut o = [P::ZERO; 2]; P::branch_node(&[b1, b2], &[175921860u32, 53346512u32], &mut o, e, 0u32, 229268372u32, ra4, 2514349219u32, 28u32, 458536744u64); o };
-            let [a3, a4] = { let mut o = [P::ZERO; 2]; P::branch_node(&[b3, b4], &[175921860u32, 53346512u32], &mut o, e, 0u32, 229268372u32, rb4, 2514349219u32, 28u32, 458536744u64); o };
+            let [a3, a4] = { let mut o = [P::ZERO; 2]; P::branch_node(&[b3, b4], &[175921860u32, 53346512u32], &mut o, e, 0u32, 238064465u32, rb4, 2421448124u32, 28u32, 476128930u64); o };
             self.chokes[0] = P::neg(al4);
             self.mem[i + 22] = a1;
             let a2 = P::adapt(b2, a2, 1073741824u32, false);

@@ -57,7 +57,14 @@ pub fn emit(s: &mut String, j: usize, plan: &JunctionPlan, cx: &Ctx<'_>) -> Resu
                         .map(|p| cx.weights.get(*p).map(|g| format!("{g}u32")))
                         .collect::<Option<Vec<_>>>()?;
                     let div = format!("{}u32, {}u32, {}u64", coef.recip, coef.shift, coef.total);
-                    Some((ports, g.join(", "), format!("{g_src}u32"), div, coef.total / 2))
+                    // Its ports' previous waves where the node holds (`Profile::branch_node_held`).
+                    let prev = ports
+                        .iter()
+                        .map(|p| cx.held.get(*p).copied().flatten().map(|h| format!("self.held[{h}]")))
+                        .collect::<Option<Vec<_>>>()
+                        .filter(|_| coef.hold != 0)
+                        .map(|v| (v.join(", "), coef.hold));
+                    Some((ports, g.join(", "), format!("{g_src}u32"), div, coef.total / 2, prev))
                 }
                 _ => None,
             };
@@ -65,8 +72,8 @@ pub fn emit(s: &mut String, j: usize, plan: &JunctionPlan, cx: &Ctx<'_>) -> Resu
                 what: "a series branch whose ends are not nodes".into(),
                 junction: Some(j),
             };
-            let (pa, ga, sa, xa, la) = side(a).ok_or_else(bad)?;
-            let (pb, gb, sb, xb, lb) = side(b).ok_or_else(bad)?;
+            let (pa, ga, sa, xa, la, ha) = side(a).ok_or_else(bad)?;
+            let (pb, gb, sb, xb, lb, hb) = side(b).ok_or_else(bad)?;
             let _ = writeln!(s, "        // junction {j}: series branch from node {a} to node {b}, n = {n}");
             let _ =
                 writeln!(s, "        let wa{j}: W = P::branch_open(&[{}], &[{ga}], e, {sa}, {xa});", list(&pa, "b"));
@@ -76,14 +83,28 @@ pub fn emit(s: &mut String, j: usize, plan: &JunctionPlan, cx: &Ctx<'_>) -> Resu
                 s,
                 "        let (ra{j}, rb{j}, al{j}) = P::branch_series(wa{j}, wb{j}, self.chokes[{k}], {na}u32, {nb}u32, {nl}u32, {recip}u32, {shift}u32, {n}u32);"
             );
-            for (ports, g, src, x, link, r) in [(&pa, &ga, &sa, &xa, la, "ra"), (&pb, &gb, &sb, &xb, lb, "rb")] {
-                let _ = writeln!(
-                    s,
-                    "        let [{}] = {{ let mut o = [P::ZERO; {}]; P::branch_node(&[{}], &[{g}], &mut o, e, {src}, {link}u32, {r}{j}, {x}); o }};",
-                    list(ports, "a"),
-                    ports.len(),
-                    list(ports, "b"),
-                );
+            for (ports, g, src, x, link, r, held) in
+                [(&pa, &ga, &sa, &xa, la, "ra", &ha), (&pb, &gb, &sb, &xb, lb, "rb", &hb)]
+            {
+                match held {
+                    Some((prev, hold)) => {
+                        let _ = writeln!(
+                            s,
+                            "        let [{}] = {{ let mut o = [{prev}]; P::branch_node_held(&[{}], &[{g}], &mut o, e, {src}, {link}u32, {r}{j}, {x}, {hold}u32); o }};",
+                            list(ports, "a"),
+                            list(ports, "b"),
+                        );
+                    }
+                    None => {
+                        let _ = writeln!(
+                            s,
+                            "        let [{}] = {{ let mut o = [P::ZERO; {}]; P::branch_node(&[{}], &[{g}], &mut o, e, {src}, {link}u32, {r}{j}, {x}); o }};",
+                            list(ports, "a"),
+                            ports.len(),
+                            list(ports, "b"),
+                        );
+                    }
+                }
             }
             let _ = writeln!(s, "        self.chokes[{k}] = P::neg(al{j});");
             Ok(())
