@@ -495,7 +495,7 @@ pub fn hold_threshold<P: Profile>(g_ports: u64, g_src: u32, total: u64) -> u32 {
 /// threshold of [`hold_threshold`] in a profile with an exact node ([`Narrow`]), 0 (never
 /// hold) without a shunt and in [`Wide`], which is flat without it (`core/tests/settle.rs`).
 pub fn linked_hold_threshold<P: Profile>(g_ports: u64, g_src: u32, g: u64) -> u32 {
-    if !P::EXACT_NODE {
+    if !P::HOLDS {
         return 0;
     }
     match hold_threshold::<P>(g_ports, g_src, g) {
