@@ -13,6 +13,7 @@ mod branch;
 mod loss;
 mod mode;
 mod passive;
+mod schedule;
 mod shape;
 mod weights;
 mod zc;
@@ -219,7 +220,6 @@ fn junction_record<P: Profile>(
                 q: first16.wrapping_add(1),
                 c: u32::try_from(c).map_err(|_| out_of_range)?,
                 rho: u32::try_from(rho).map_err(|_| out_of_range)?,
-                s: 0,
             }
         }
     })
@@ -251,6 +251,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.build_rings(net, &shape)?;
         self.build_weights(net, k)?;
         self.build_junctions(net, &shape, k)?;
+        self.schedule_nodes();
+        self.schedule_pairs();
         self.branches = net.junctions.iter().any(|j| matches!(j, Junction::Branch { .. }));
         self.build_probes(net);
         self.build_drive(net, &shape);
@@ -465,6 +467,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.drive = DriveRt::None;
         self.branches = false;
         self.zc = false;
+        self.schedule_nodes();
+        self.schedule_pairs();
         self.reset();
     }
 
@@ -487,6 +491,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             return Err(refused);
         }
         set(&mut self.juncs, j, new);
+        self.schedule_nodes();
         Ok(())
     }
 
@@ -498,10 +503,11 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             Some(JunctionRt::Node { mode, short, broken: b, count, g_src, g_ports, total, .. }) => {
                 *b = broken;
                 *mode = mode_of(*short, broken, lone_open(*count, *g_src, *g_ports, *total, *short));
-                Ok(())
             }
-            _ => Err(ConfigError::NotANode { junction }),
+            _ => return Err(ConfigError::NotANode { junction }),
         }
+        self.schedule_nodes();
+        Ok(())
     }
 
     /// The exponent c of the weight unit: a line's weight is floor(2^c / Z0[mΩ]).
