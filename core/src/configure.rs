@@ -21,7 +21,7 @@ mod zc;
 use crate::error::{BuildError, ConfigError, Table};
 use crate::network::{ElementKind, Junction, Network, ProbeKind, Shunt, Side};
 use crate::profile::{hold_threshold, reciprocal, Profile};
-use crate::solver::{DriveRt, ElementRt, JunctionRt, Mode, ProbeRt, Solver};
+use crate::solver::{DriveRt, ElementRt, JunctionRt, Mode, ProbeRt, Solver, NODE_GROUPS};
 use loss::loss_record;
 pub(crate) use mode::{lone_open, mode_of};
 pub(crate) use passive::node_ok as passive_node;
@@ -252,7 +252,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.build_weights(net, k)?;
         self.build_junctions(net, &shape, k)?;
         self.schedule_nodes();
-        self.schedule_pairs();
+        self.schedule_pairs()?;
         self.branches = net.junctions.iter().any(|j| matches!(j, Junction::Branch { .. }));
         self.build_probes(net);
         self.build_drive(net, &shape);
@@ -467,8 +467,10 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.drive = DriveRt::None;
         self.branches = false;
         self.zc = false;
-        self.schedule_nodes();
-        self.schedule_pairs();
+        self.node_ends = [0; NODE_GROUPS];
+        self.n_series = 0;
+        self.n_pairs = 0;
+        self.rig_junction = None;
         self.reset();
     }
 

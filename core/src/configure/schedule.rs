@@ -5,6 +5,7 @@
 //! (O(junctions), between samples, no allocation).
 
 use super::set;
+use crate::error::BuildError;
 use crate::profile::Profile;
 use crate::solver::{JunctionRt, Mode, NodeRun, PairRun, Solver};
 use crate::solver::{NODE_GROUPS, N_PORT, ONE_PORT, OPEN, SHORT, THREE_PORT, TWO_PORT};
@@ -47,20 +48,26 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     }
 
     /// Series resistors, then chokes (states zero), and the rig port. At load only: the
-    /// two-ports are not switchable, and their states must survive a node's change.
-    pub(super) fn schedule_pairs(&mut self) {
+    /// two-ports are not switchable, and their states must survive a node's change. A
+    /// two-port whose ports are not adjacent (p, p + 1), which the junction records never
+    /// build, is refused rather than trusted: the junction pass reads both ports as a pair.
+    pub(super) fn schedule_pairs(&mut self) -> Result<(), BuildError> {
         let mut n = 0usize;
-        for rt in self.juncs.iter().take(self.n_juncs) {
-            if let JunctionRt::Series { p, q, c } = *rt {
-                set(&mut self.pairs, n, PairRun { p, q, c, rho: 0, s: 0 });
+        for want_choke in [false, true] {
+            for (j, rt) in self.juncs.iter().enumerate().take(self.n_juncs) {
+                let (p, q, c, rho) = match *rt {
+                    JunctionRt::Series { p, q, c } if !want_choke => (p, q, c, 0),
+                    JunctionRt::SeriesL { p, q, c, rho } if want_choke => (p, q, c, rho),
+                    _ => continue,
+                };
+                if p.checked_add(1) != Some(q) {
+                    return Err(BuildError::CoefficientOutOfRange { junction: j as u16 });
+                }
+                set(&mut self.pairs, n, PairRun { p, c, rho, s: 0 });
                 n = n.saturating_add(1);
             }
-        }
-        self.n_series = n.min(JUNCS) as u16;
-        for rt in self.juncs.iter().take(self.n_juncs) {
-            if let JunctionRt::SeriesL { p, q, c, rho } = *rt {
-                set(&mut self.pairs, n, PairRun { p, q, c, rho, s: 0 });
-                n = n.saturating_add(1);
+            if !want_choke {
+                self.n_series = n.min(JUNCS) as u16;
             }
         }
         self.n_pairs = n.min(JUNCS) as u16;
@@ -68,5 +75,6 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             JunctionRt::Rig { port } => Some(port),
             _ => None,
         });
+        Ok(())
     }
 }

@@ -33,19 +33,18 @@ impl NodeRun {
     pub(crate) const EMPTY: NodeRun = NodeRun { first: 0, count: 0, g_src: 0, recip: 0, shift: 0, hold: 0, total: 0 };
 }
 
-/// A two-port between line ends `p` and `q`: a series resistor (coefficient `c`) or a choke
+/// A two-port between ports `p` and p + 1: a series resistor (coefficient `c`) or a choke
 /// (coefficients `c`, `rho` and its state s = −(2Z/R_L)·b_L, see `Profile::series_l`).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub(crate) struct PairRun {
     pub p: u16,
-    pub q: u16,
     pub c: u32,
     pub rho: u32,
     pub s: i32,
 }
 
 impl PairRun {
-    pub(crate) const EMPTY: PairRun = PairRun { p: 0, q: 0, c: 0, rho: 0, s: 0 };
+    pub(crate) const EMPTY: PairRun = PairRun { p: 0, c: 0, rho: 0, s: 0 };
 }
 
 /// The node groups of `Solver::nodes`, in this order; `node_ends[k]` is where group k ends.
@@ -121,35 +120,38 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         }
         let n_series = usize::from(*n_series);
         let (series, chokes) = pairs.split_at_mut(n_series.min(JUNCS));
+        // A two-port's ports are adjacent (checked by the schedule builder), so one range
+        // check covers both.
         for r in series.iter() {
-            let b1 = b.get(r.p as usize).copied().unwrap_or(P::ZERO);
-            let b2 = b.get(r.q as usize).copied().unwrap_or(P::ZERO);
-            let (a1, a2) = P::series(b1, b2, r.c);
-            if let Some(x) = a.get_mut(r.p as usize) {
-                *x = a1;
-            }
-            if let Some(x) = a.get_mut(r.q as usize) {
-                *x = a2;
+            if let (Some([b1, b2]), Some([a1, a2])) = (pair(b, r.p), pair_mut(a, r.p)) {
+                (*a1, *a2) = P::series(*b1, *b2, r.c);
             }
         }
         let n_chokes = usize::from(*n_pairs).saturating_sub(n_series);
         for r in chokes.iter_mut().take(n_chokes) {
-            let b1 = b.get(r.p as usize).copied().unwrap_or(P::ZERO);
-            let b2 = b.get(r.q as usize).copied().unwrap_or(P::ZERO);
-            let (a1, a2, s_next) = P::series_l(b1, b2, P::wave_from_i32(r.s), r.c, r.rho);
-            if let Some(x) = a.get_mut(r.p as usize) {
-                *x = a1;
+            if let (Some([b1, b2]), Some([a1, a2])) = (pair(b, r.p), pair_mut(a, r.p)) {
+                let s_next;
+                (*a1, *a2, s_next) = P::series_l(*b1, *b2, P::wave_from_i32(r.s), r.c, r.rho);
+                r.s = s_next.into();
             }
-            if let Some(x) = a.get_mut(r.q as usize) {
-                *x = a2;
-            }
-            r.s = s_next.into();
         }
         // Rig port: a = v − b[n − latency] (see `step`).
         if let Some(x) = rig_junction.and_then(|port| a.get_mut(port as usize)) {
             *x = P::sub(e, rig_back);
         }
     }
+}
+
+/// The two waves at ports p and p + 1 (`None` past the table, impossible after `load`).
+#[inline(always)]
+fn pair<W>(w: &[W], p: u16) -> Option<&[W; 2]> {
+    w.get(p as usize..).and_then(|s| s.first_chunk::<2>())
+}
+
+/// [`pair`], mutable.
+#[inline(always)]
+fn pair_mut<W>(w: &mut [W], p: u16) -> Option<&mut [W; 2]> {
+    w.get_mut(p as usize..).and_then(|s| s.first_chunk_mut::<2>())
 }
 
 /// A node record's port range (first, first + count).
