@@ -3,7 +3,7 @@
 //! ends' post- and pre-steps (`docs/zc-model.md`). Same no-panic rule as the rest of the
 //! per-sample path (see the parent module).
 
-use super::{Ring, Solver};
+use super::{LossRt, Ring, Solver};
 use crate::network::{MAX_LOSS_SECTIONS, MAX_ZC_SECTIONS};
 use crate::profile::Profile;
 
@@ -42,22 +42,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             let Some(b) = self.b.get_mut(l.port as usize) else {
                 continue;
             };
-            let mut x = *b;
-            let k = (l.sections as usize).min(MAX_LOSS_SECTIONS);
-            let state = l.x1.iter_mut().zip(l.y1.iter_mut()).zip(l.r1.iter_mut());
-            let sections = state.zip(l.g.iter().zip(l.gb.iter()).zip(l.a.iter()));
-            for (((x1, y1), r1), ((g, gb), a)) in sections.take(k) {
-                let (y, r) = P::loss_section(x, *x1, *y1, *r1, *g, *gb, *a);
-                (*x1, *y1, *r1) = (x, y, r);
-                x = y;
-            }
-            if l.ap {
-                // Lattice: y = a·x + c·s, s' = c·x − a·s (`Profile::allpass`).
-                let (y, s_next) = P::allpass(x, l.ap_s, l.ap_a, l.ap_c);
-                l.ap_s = s_next;
-                x = y;
-            }
-            *b = x;
+            *b = arrival_filter::<P>(l, *b);
         }
         if self.zc {
             // Zc(s) ends, pre-step: the junction sees b_p = b + c, c = Σ k_i·s_i (b after the
@@ -113,4 +98,25 @@ fn ring_pass<P: Profile, const MEM: usize>(r: &mut Ring, a: &[P::Wave], mem: &mu
         r.cursor = if next == r.end { r.start } else { next };
         mem.get(r.cursor as usize).copied().unwrap_or(P::ZERO)
     }
+}
+
+/// A lossy or fractional line end's arrival filter: its loss sections, then its allpass;
+/// returns the filtered wave.
+#[inline(always)]
+fn arrival_filter<P: Profile>(l: &mut LossRt<P::Wave>, mut x: P::Wave) -> P::Wave {
+    let k = (l.sections as usize).min(MAX_LOSS_SECTIONS);
+    let state = l.x1.iter_mut().zip(l.y1.iter_mut()).zip(l.r1.iter_mut());
+    let sections = state.zip(l.g.iter().zip(l.gb.iter()).zip(l.a.iter()));
+    for (((x1, y1), r1), ((g, gb), a)) in sections.take(k) {
+        let (y, r) = P::loss_section(x, *x1, *y1, *r1, *g, *gb, *a);
+        (*x1, *y1, *r1) = (x, y, r);
+        x = y;
+    }
+    if l.ap {
+        // Lattice: y = a·x + c·s, s' = c·x − a·s (`Profile::allpass`).
+        let (y, s_next) = P::allpass(x, l.ap_s, l.ap_a, l.ap_c);
+        l.ap_s = s_next;
+        x = y;
+    }
+    x
 }

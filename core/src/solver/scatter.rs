@@ -120,24 +120,35 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         }
         let n_series = usize::from(*n_series);
         let (series, chokes) = pairs.split_at_mut(n_series.min(JUNCS));
-        // A two-port's ports are adjacent (checked by the schedule builder), so one range
-        // check covers both.
-        for r in series.iter() {
-            if let (Some([b1, b2]), Some([a1, a2])) = (pair(b, r.p), pair_mut(a, r.p)) {
-                (*a1, *a2) = P::series(*b1, *b2, r.c);
-            }
-        }
+        series_pass::<P>(series, b, a);
         let n_chokes = usize::from(*n_pairs).saturating_sub(n_series);
-        for r in chokes.iter_mut().take(n_chokes) {
-            if let (Some([b1, b2]), Some([a1, a2])) = (pair(b, r.p), pair_mut(a, r.p)) {
-                let s_next;
-                (*a1, *a2, s_next) = P::series_l(*b1, *b2, P::wave_from_i32(r.s), r.c, r.rho);
-                r.s = s_next.into();
-            }
-        }
+        choke_pass::<P>(chokes.get_mut(..n_chokes).unwrap_or(&mut []), b, a);
         // Rig port: a = v − b[n − latency] (see `step`).
         if let Some(x) = rig_junction.and_then(|port| a.get_mut(port as usize)) {
             *x = P::sub(e, rig_back);
+        }
+    }
+}
+
+/// Series resistors: `Profile::series` on each pair of ports. A two-port's ports are
+/// adjacent (checked by the schedule builder), so one range check covers both.
+#[inline(always)]
+fn series_pass<P: Profile>(series: &[PairRun], b: &[P::Wave], a: &mut [P::Wave]) {
+    for r in series {
+        if let (Some([b1, b2]), Some([a1, a2])) = (pair(b, r.p), pair_mut(a, r.p)) {
+            (*a1, *a2) = P::series(*b1, *b2, r.c);
+        }
+    }
+}
+
+/// Chokes: `Profile::series_l` on each pair of ports, and the choke's new state.
+#[inline(always)]
+fn choke_pass<P: Profile>(chokes: &mut [PairRun], b: &[P::Wave], a: &mut [P::Wave]) {
+    for r in chokes {
+        if let (Some([b1, b2]), Some([a1, a2])) = (pair(b, r.p), pair_mut(a, r.p)) {
+            let s_next;
+            (*a1, *a2, s_next) = P::series_l(*b1, *b2, P::wave_from_i32(r.s), r.c, r.rho);
+            r.s = s_next.into();
         }
     }
 }
