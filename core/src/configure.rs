@@ -467,7 +467,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.drive = DriveRt::None;
         self.branches = false;
         self.zc = false;
-        self.node_ends = [0; NODE_GROUPS];
+        self.node_bounds = [0; NODE_GROUPS + 1];
         self.n_series = 0;
         self.n_pairs = 0;
         self.rig_junction = None;

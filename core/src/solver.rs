@@ -198,11 +198,11 @@ pub struct Solver<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM:
     pub(crate) mem: [P::Wave; MEM],
     pub(crate) juncs: [JunctionRt; JUNCS],
     /// The junction pass's run tables, built from `juncs` (`configure/schedule.rs`): the
-    /// scattering, short and open nodes grouped by kind (`node_ends[k]`: where group k ends,
-    /// see `scatter.rs`), the series resistors (`pairs[..n_series]`) and chokes
+    /// scattering, short and open nodes grouped by kind (group k is
+    /// `nodes[node_bounds[k]..node_bounds[k + 1]]`, see `scatter.rs`), the series resistors (`pairs[..n_series]`) and chokes
     /// (`pairs[n_series..n_pairs]`), and the rig port's junction port.
     pub(crate) nodes: [NodeRun; JUNCS],
-    pub(crate) node_ends: [u16; NODE_GROUPS],
+    pub(crate) node_bounds: [u16; NODE_GROUPS + 1],
     pub(crate) pairs: [PairRun; JUNCS],
     pub(crate) n_series: u16,
     pub(crate) n_pairs: u16,
@@ -245,7 +245,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             mem: [P::ZERO; MEM],
             juncs: [JunctionRt::Unused; JUNCS],
             nodes: [NodeRun::EMPTY; JUNCS],
-            node_ends: [0; NODE_GROUPS],
+            node_bounds: [0; NODE_GROUPS + 1],
             pairs: [PairRun::EMPTY; JUNCS],
             n_series: 0,
             n_pairs: 0,

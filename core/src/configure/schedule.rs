@@ -27,12 +27,12 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     Solver<P, PORTS, JUNCS, MEM, LOSSES>
 {
     /// The node groups, in group order and within a group in network order. Every node of
-    /// the first `n_juncs` records is in at most one group, so the ends stay <= `n_juncs`
+    /// the first `n_juncs` records is in at most one group, so the bounds stay <= `n_juncs`
     /// <= JUNCS (< 2^16, shape check).
     pub(super) fn schedule_nodes(&mut self) {
-        let mut ends = [0u16; NODE_GROUPS];
+        let mut bounds = [0u16; NODE_GROUPS + 1];
         let mut n = 0usize;
-        for (k, end) in ends.iter_mut().enumerate() {
+        for (k, end) in bounds.iter_mut().skip(1).enumerate() {
             for rt in self.juncs.iter().take(self.n_juncs) {
                 let JunctionRt::Node { first, count, mode, g_src, recip, shift, total, hold, .. } = *rt else {
                     continue;
@@ -44,7 +44,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             }
             *end = n.min(JUNCS) as u16;
         }
-        self.node_ends = ends;
+        self.node_bounds = bounds;
     }
 
     /// Series resistors, then chokes (states zero), and the rig port. At load only: the

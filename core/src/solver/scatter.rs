@@ -47,7 +47,8 @@ impl PairRun {
     pub(crate) const EMPTY: PairRun = PairRun { p: 0, c: 0, rho: 0, s: 0 };
 }
 
-/// The node groups of `Solver::nodes`, in this order; `node_ends[k]` is where group k ends.
+/// The node groups of `Solver::nodes`, in this order: group k is
+/// `nodes[node_bounds[k]..node_bounds[k + 1]]`, `node_bounds[0] = 0`.
 pub(crate) const ONE_PORT: usize = 0;
 pub(crate) const TWO_PORT: usize = 1;
 pub(crate) const THREE_PORT: usize = 2;
@@ -56,16 +57,17 @@ pub(crate) const SHORT: usize = 4;
 pub(crate) const OPEN: usize = 5;
 pub(crate) const NODE_GROUPS: usize = 6;
 
-/// The records of node group `k` (empty if the bounds are not in order, which the schedule
-/// builder rules out).
+/// The records of node group `k`, or `None` if it is empty (or, impossible after the
+/// schedule builder, its bounds are out of order). `k` is a constant at every call, so the
+/// bounds are two loads; an empty group costs a compare and a branch, not the slice's checks
+/// (a small plant has most groups empty).
 #[inline(always)]
-fn group<'a>(nodes: &'a [NodeRun], ends: &[u16; NODE_GROUPS], k: usize) -> &'a [NodeRun] {
-    let lo = match k.checked_sub(1) {
-        Some(before) => ends.get(before).copied().unwrap_or(0) as usize,
-        None => 0,
-    };
-    let hi = ends.get(k).copied().unwrap_or(0) as usize;
-    nodes.get(lo..hi).unwrap_or(&[])
+fn group<'a>(nodes: &'a [NodeRun], bounds: &[u16; NODE_GROUPS + 1], k: usize) -> Option<&'a [NodeRun]> {
+    let [lo, hi] = *bounds.get(k..)?.first_chunk::<2>()?;
+    if lo == hi {
+        return None;
+    }
+    nodes.get(lo as usize..hi as usize)
 }
 
 impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const LOSSES: usize>
@@ -74,7 +76,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     /// Junction pass: b → a at every junction that is not part of a series branch.
     #[inline(always)]
     pub(super) fn scatter(&mut self, e: P::Wave, rig_back: P::Wave) {
-        let Self { nodes, node_ends, pairs, n_series, n_pairs, rig_junction, b, g, a, .. } = self;
+        let Self { nodes, node_bounds, pairs, n_series, n_pairs, rig_junction, b, g, a, .. } = self;
         let (b, g) = (&*b, &*g);
         // v = (2·Σ G_k·b_k + E·G_src) / G_total; a_k = trunc(v' − b_k) with v' strictly
         // between 0 and v (`Profile::node_scatter`), or a_k kept while driven at a node with a
@@ -83,27 +85,27 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         // arrays, so the compiler unrolls them exactly (in the profiles that ask for it,
         // `Profile::FIXED_NODES`); the arithmetic is the same `node_scatter_held`.
         if P::FIXED_NODES {
-            for r in group(nodes, node_ends, ONE_PORT) {
+            for r in group(nodes, node_bounds, ONE_PORT).unwrap_or(&[]) {
                 node::<P, 1>(b, g, a, r, e);
             }
-            for r in group(nodes, node_ends, TWO_PORT) {
+            for r in group(nodes, node_bounds, TWO_PORT).unwrap_or(&[]) {
                 node::<P, 2>(b, g, a, r, e);
             }
-            for r in group(nodes, node_ends, THREE_PORT) {
+            for r in group(nodes, node_bounds, THREE_PORT).unwrap_or(&[]) {
                 node::<P, 3>(b, g, a, r, e);
             }
-            for r in group(nodes, node_ends, N_PORT) {
+            for r in group(nodes, node_bounds, N_PORT).unwrap_or(&[]) {
                 node_any::<P>(b, g, a, r, e);
             }
         } else {
             // The groups of scattering nodes are contiguous: one loop, one copy of the code.
-            let end = node_ends.get(N_PORT).copied().unwrap_or(0) as usize;
+            let end = node_bounds.get(N_PORT + 1).copied().unwrap_or(0) as usize;
             for r in nodes.get(..end).unwrap_or(&[]) {
                 node_any::<P>(b, g, a, r, e);
             }
         }
         // v = 0: a = −b.
-        for r in group(nodes, node_ends, SHORT) {
+        for r in group(nodes, node_bounds, SHORT).unwrap_or(&[]) {
             let (lo, hi) = ports(r);
             if let (Some(bs), Some(as_)) = (b.get(lo..hi), a.get_mut(lo..hi)) {
                 for (ak, bk) in as_.iter_mut().zip(bs.iter()) {
@@ -112,7 +114,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             }
         }
         // A broken node, or a lone open end: a = b.
-        for r in group(nodes, node_ends, OPEN) {
+        for r in group(nodes, node_bounds, OPEN).unwrap_or(&[]) {
             let (lo, hi) = ports(r);
             if let (Some(bs), Some(as_)) = (b.get(lo..hi), a.get_mut(lo..hi)) {
                 as_.copy_from_slice(bs);
@@ -120,9 +122,13 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         }
         let n_series = usize::from(*n_series);
         let (series, chokes) = pairs.split_at_mut(n_series.min(JUNCS));
-        series_pass::<P>(series, b, a);
+        if n_series != 0 {
+            series_pass::<P>(series, b, a);
+        }
         let n_chokes = usize::from(*n_pairs).saturating_sub(n_series);
-        choke_pass::<P>(chokes.get_mut(..n_chokes).unwrap_or(&mut []), b, a);
+        if n_chokes != 0 {
+            choke_pass::<P>(chokes.get_mut(..n_chokes).unwrap_or(&mut []), b, a);
+        }
         // Rig port: a = v − b[n − latency] (see `step`).
         if let Some(x) = rig_junction.and_then(|port| a.get_mut(port as usize)) {
             *x = P::sub(e, rig_back);
