@@ -232,7 +232,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     /// left empty (it steps as a network without drive).
     ///
     /// Phases: the shape against the capacities (nothing written yet), the weight unit, the
-    /// port layout, loss filters, delay rings, weights, junction records, probes and drive,
+    /// port layout, loss filters, delay rings, weights, junction records and their run tables
+    /// (`configure/schedule.rs`), probes and drive,
     /// and last a check that every quantized junction, element and loss section is passive.
     pub fn load(&mut self, net: &Network<'_>) -> Result<(), BuildError> {
         let r = self.load_inner(net);

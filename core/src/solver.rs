@@ -1,7 +1,8 @@
 //! The solver: state, the per-sample loop and read-out.
 //!
 //! Per sample, in this order (every loop bounded by the validated port and junction counts):
-//! 1. every junction turns the waves arriving at its ports (b) into outgoing waves (a);
+//! 1. every junction turns the waves arriving at its ports (b) into outgoing waves (a), one
+//!    loop per junction kind over its run table (`scatter.rs`), then the series branches;
 //! 2. probes and the drive output are read from a and b of this sample;
 //! 3. every port's a is written into the ring of the line towards its partner end, every
 //!    ring cursor advances by one, and the b of the next sample is read at the new cursor.
