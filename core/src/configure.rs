@@ -13,6 +13,7 @@ mod branch;
 mod loss;
 mod mode;
 mod passive;
+mod schedule;
 mod shape;
 mod weights;
 mod zc;
@@ -20,7 +21,7 @@ mod zc;
 use crate::error::{BuildError, ConfigError, Table};
 use crate::network::{ElementKind, Junction, Network, ProbeKind, Shunt, Side};
 use crate::profile::{hold_threshold, reciprocal, Profile};
-use crate::solver::{DriveRt, ElementRt, JunctionRt, Mode, ProbeRt, Solver};
+use crate::solver::{DriveRt, ElementRt, JunctionRt, Mode, ProbeRt, Solver, NODE_GROUPS};
 use loss::loss_record;
 pub(crate) use mode::{lone_open, mode_of};
 pub(crate) use passive::node_ok as passive_node;
@@ -219,7 +220,6 @@ fn junction_record<P: Profile>(
                 q: first16.wrapping_add(1),
                 c: u32::try_from(c).map_err(|_| out_of_range)?,
                 rho: u32::try_from(rho).map_err(|_| out_of_range)?,
-                s: 0,
             }
         }
     })
@@ -232,7 +232,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     /// left empty (it steps as a network without drive).
     ///
     /// Phases: the shape against the capacities (nothing written yet), the weight unit, the
-    /// port layout, loss filters, delay rings, weights, junction records, probes and drive,
+    /// port layout, loss filters, delay rings, weights, junction records and their run tables
+    /// (`configure/schedule.rs`), probes and drive,
     /// and last a check that every quantized junction, element and loss section is passive.
     pub fn load(&mut self, net: &Network<'_>) -> Result<(), BuildError> {
         let r = self.load_inner(net);
@@ -251,6 +252,8 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.build_rings(net, &shape)?;
         self.build_weights(net, k)?;
         self.build_junctions(net, &shape, k)?;
+        self.schedule_nodes();
+        self.schedule_pairs()?;
         self.branches = net.junctions.iter().any(|j| matches!(j, Junction::Branch { .. }));
         self.build_probes(net);
         self.build_drive(net, &shape);
@@ -465,6 +468,10 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.drive = DriveRt::None;
         self.branches = false;
         self.zc = false;
+        self.node_bounds = [0; NODE_GROUPS + 1];
+        self.n_series = 0;
+        self.n_pairs = 0;
+        self.rig_junction = None;
         self.reset();
     }
 
@@ -487,6 +494,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             return Err(refused);
         }
         set(&mut self.juncs, j, new);
+        self.schedule_nodes();
         Ok(())
     }
 
@@ -498,10 +506,11 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             Some(JunctionRt::Node { mode, short, broken: b, count, g_src, g_ports, total, .. }) => {
                 *b = broken;
                 *mode = mode_of(*short, broken, lone_open(*count, *g_src, *g_ports, *total, *short));
-                Ok(())
             }
-            _ => Err(ConfigError::NotANode { junction }),
+            _ => return Err(ConfigError::NotANode { junction }),
         }
+        self.schedule_nodes();
+        Ok(())
     }
 
     /// The exponent c of the weight unit: a line's weight is floor(2^c / Z0[mΩ]).

@@ -1,7 +1,8 @@
 //! The solver: state, the per-sample loop and read-out.
 //!
 //! Per sample, in this order (every loop bounded by the validated port and junction counts):
-//! 1. every junction turns the waves arriving at its ports (b) into outgoing waves (a);
+//! 1. every junction turns the waves arriving at its ports (b) into outgoing waves (a), one
+//!    loop per junction kind over its run table (`scatter.rs`), then the series branches;
 //! 2. probes and the drive output are read from a and b of this sample;
 //! 3. every port's a is written into the ring of the line towards its partner end, every
 //!    ring cursor advances by one, and the b of the next sample is read at the new cursor.
@@ -15,6 +16,9 @@
 //! argued, and no division happens here.
 
 mod lines;
+mod scatter;
+
+pub(crate) use scatter::{NodeRun, PairRun, NODE_GROUPS, N_PORT, ONE_PORT, OPEN, SHORT, THREE_PORT, TWO_PORT};
 
 use crate::network::{MAX_LOSS_SECTIONS, MAX_PROBES, MAX_ZC_SECTIONS};
 use crate::profile::Profile;
@@ -59,13 +63,12 @@ pub(crate) enum JunctionRt {
         q: u16,
         c: u32,
     },
-    /// Series inductor: coefficients and its state s = −(2Z/R_L)·b_L.
+    /// Series inductor: coefficients (its state runs in its [`PairRun`]).
     SeriesL {
         p: u16,
         q: u16,
         c: u32,
         rho: u32,
-        s: i32,
     },
     Rig {
         port: u16,
@@ -195,6 +198,16 @@ pub struct Solver<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM:
     pub(crate) b: [P::Wave; PORTS],
     pub(crate) mem: [P::Wave; MEM],
     pub(crate) juncs: [JunctionRt; JUNCS],
+    /// The junction pass's run tables, built from `juncs` (`configure/schedule.rs`): the
+    /// scattering, short and open nodes grouped by kind (group k is
+    /// `nodes[node_bounds[k]..node_bounds[k + 1]]`, see `scatter.rs`), the series resistors (`pairs[..n_series]`) and chokes
+    /// (`pairs[n_series..n_pairs]`), and the rig port's junction port.
+    pub(crate) nodes: [NodeRun; JUNCS],
+    pub(crate) node_bounds: [u16; NODE_GROUPS + 1],
+    pub(crate) pairs: [PairRun; JUNCS],
+    pub(crate) n_series: u16,
+    pub(crate) n_pairs: u16,
+    pub(crate) rig_junction: Option<u16>,
     pub(crate) elements: [ElementRt; PORTS],
     pub(crate) n_elements: usize,
     pub(crate) losses: [LossRt<P::Wave>; LOSSES],
@@ -232,6 +245,12 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             b: [P::ZERO; PORTS],
             mem: [P::ZERO; MEM],
             juncs: [JunctionRt::Unused; JUNCS],
+            nodes: [NodeRun::EMPTY; JUNCS],
+            node_bounds: [0; NODE_GROUPS + 1],
+            pairs: [PairRun::EMPTY; JUNCS],
+            n_series: 0,
+            n_pairs: 0,
+            rig_junction: None,
             elements: [ElementRt { port: 0, mu: 0, negate: false }; PORTS],
             n_elements: 0,
             losses: [LossRt::empty(0, P::ZERO); LOSSES],
@@ -264,10 +283,11 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.probe_out.iter_mut().for_each(|w| *w = 0);
         self.hist_pos = 0;
         for j in self.juncs.iter_mut() {
-            if let JunctionRt::SeriesL { s, .. } | JunctionRt::Branch { s, .. } = j {
+            if let JunctionRt::Branch { s, .. } = j {
                 *s = 0;
             }
         }
+        self.pairs.iter_mut().for_each(|r| r.s = 0);
         for l in self.losses.iter_mut() {
             l.x1 = [P::ZERO; MAX_LOSS_SECTIONS];
             l.y1 = [P::ZERO; MAX_LOSS_SECTIONS];
@@ -348,90 +368,6 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
 
         self.propagate();
         output
-    }
-
-    /// Junction pass: b → a at every junction.
-    #[inline(always)]
-    fn scatter(&mut self, e: P::Wave, rig_back: P::Wave) {
-        let n = self.n_juncs.min(JUNCS);
-        for j in self.juncs.iter_mut().take(n) {
-            match *j {
-                JunctionRt::Node { first, count, mode, g_src, recip, shift, total, hold, .. } => {
-                    let lo = first as usize;
-                    let (b, g, a) = (&self.b, &self.g, &mut self.a);
-                    if mode == Mode::Scatter {
-                        // v = (2·Σ G_k·b_k + E·G_src) / G_total; a_k = trunc(v' − b_k) with v'
-                        // strictly between 0 and v (`Profile::node_scatter`), or
-                        // a_k kept while driven at a node with a shunt (the hold rule,
-                        // `Profile::node_scatter_held`: a constant drive settles).
-                        // Nodes of 1, 2 and 3 ports (line ends, drops, taps: most of a
-                        // plant) run on fixed-size arrays, so the compiler unrolls them
-                        // exactly (in the profiles that ask for it, `Profile::FIXED_NODES`); the arithmetic is
-                        // the same `node_scatter`.
-                        let c = (e, g_src, recip, shift, total, hold);
-                        match if P::FIXED_NODES { count } else { 0 } {
-                            1 => node_fixed::<P, 1>(b, g, a, lo, c),
-                            2 => node_fixed::<P, 2>(b, g, a, lo, c),
-                            3 => node_fixed::<P, 3>(b, g, a, lo, c),
-                            _ => {
-                                let hi = lo.saturating_add(count as usize);
-                                if let (Some(bs), Some(gs), Some(as_)) =
-                                    (b.get(lo..hi), g.get(lo..hi), a.get_mut(lo..hi))
-                                {
-                                    P::node_scatter_held(bs, gs, as_, e, g_src, recip, shift, total, hold);
-                                }
-                            }
-                        }
-                        continue;
-                    }
-                    let hi = lo.saturating_add(count as usize);
-                    let (Some(bs), Some(as_)) = (b.get(lo..hi), a.get_mut(lo..hi)) else {
-                        continue;
-                    };
-                    match mode {
-                        Mode::Short => {
-                            for (ak, bk) in as_.iter_mut().zip(bs.iter()) {
-                                *ak = P::neg(*bk);
-                            }
-                        }
-                        Mode::Broken => as_.copy_from_slice(bs),
-                        // Scattered by its branch (`scatter_branches`).
-                        Mode::Scatter | Mode::Linked => {}
-                    }
-                }
-                JunctionRt::Series { p, q, c } => {
-                    let b1 = self.b.get(p as usize).copied().unwrap_or(P::ZERO);
-                    let b2 = self.b.get(q as usize).copied().unwrap_or(P::ZERO);
-                    let (a1, a2) = P::series(b1, b2, c);
-                    if let Some(x) = self.a.get_mut(p as usize) {
-                        *x = a1;
-                    }
-                    if let Some(x) = self.a.get_mut(q as usize) {
-                        *x = a2;
-                    }
-                }
-                JunctionRt::SeriesL { p, q, c, rho, s } => {
-                    let b1 = self.b.get(p as usize).copied().unwrap_or(P::ZERO);
-                    let b2 = self.b.get(q as usize).copied().unwrap_or(P::ZERO);
-                    let (a1, a2, s_next) = P::series_l(b1, b2, P::wave_from_i32(s), c, rho);
-                    if let Some(x) = self.a.get_mut(p as usize) {
-                        *x = a1;
-                    }
-                    if let Some(x) = self.a.get_mut(q as usize) {
-                        *x = a2;
-                    }
-                    if let JunctionRt::SeriesL { s: state, .. } = j {
-                        *state = s_next.into();
-                    }
-                }
-                JunctionRt::Rig { port } => {
-                    if let Some(x) = self.a.get_mut(port as usize) {
-                        *x = P::sub(e, rig_back);
-                    }
-                }
-                JunctionRt::Unused | JunctionRt::Branch { .. } => {}
-            }
-        }
     }
 
     /// Branch pass: every series branch and its two linked nodes, as a wave-digital tree
@@ -569,27 +505,6 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             *y = self.step(*x);
             *p = self.probe_raw(k);
         }
-    }
-}
-
-/// A scattering node of exactly `N` ports starting at port `lo`: the waves, weights and
-/// outputs as `[_; N]` arrays, so `node_scatter_held` is unrolled for this count. `c` holds
-/// (E, g_src, recip, shift, total, hold). A range past the tables (impossible after `load`)
-/// does nothing.
-#[inline(always)]
-fn node_fixed<P: Profile, const N: usize>(
-    b: &[P::Wave],
-    g: &[u32],
-    a: &mut [P::Wave],
-    lo: usize,
-    c: (P::Wave, u32, u32, u32, u64, u32),
-) {
-    let bs = b.get(lo..).and_then(|s| s.first_chunk::<N>());
-    let gs = g.get(lo..).and_then(|s| s.first_chunk::<N>());
-    let as_ = a.get_mut(lo..).and_then(|s| s.first_chunk_mut::<N>());
-    if let (Some(bs), Some(gs), Some(as_)) = (bs, gs, as_) {
-        let (e, g_src, recip, shift, total, hold) = c;
-        P::node_scatter_held(bs, gs, as_, e, g_src, recip, shift, total, hold);
     }
 }
 

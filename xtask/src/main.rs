@@ -15,8 +15,11 @@
 //! * `scale` (use `--release`): verify time and peak memory of generated plants (see `scale.rs`).
 //! * `step-profile [PLANT] [m4|m0]`: where the instructions of a plant-specialised step go,
 //!   from the ELF of the last `firmware` run (see `profile.rs`).
+//! * `generic-profile [PLANT] [m4|m0]`: where the executed instructions of the generic step
+//!   go, counted under QEMU from the same ELF (see `generic_profile.rs`).
 mod figures;
 mod gen;
+mod generic_profile;
 mod host;
 mod parts;
 mod plants;
@@ -53,7 +56,8 @@ fn main() -> ExitCode {
         ["scale"] => scale::scale(),
         ["scale-one", path] => scale::one(path),
         ["step-profile", rest @ ..] => profile::step_profile(rest),
-        _ => Err("usage: cargo run -p xtask -- firmware [--inject-panic] | soak [--cases N] [--hours H] | rig | stream [--samples N] | scale | step-profile [PLANT] [m4|m0]"
+        ["generic-profile", rest @ ..] => generic_profile::generic_profile(rest),
+        _ => Err("usage: cargo run -p xtask -- firmware [--inject-panic] | soak [--cases N] [--hours H] | rig | stream [--samples N] | scale | step-profile [PLANT] [m4|m0] | generic-profile [PLANT] [m4|m0]"
             .into()),
     };
     match result {

@@ -13,7 +13,7 @@ use std::collections::BTreeMap;
 use std::io::Write as _;
 use std::process::Command;
 
-fn tool(name: &str, args: &[&str]) -> Result<String, String> {
+pub(crate) fn tool(name: &str, args: &[&str]) -> Result<String, String> {
     let out = Command::new(name)
         .args(args)
         .output()

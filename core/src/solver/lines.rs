@@ -3,7 +3,7 @@
 //! ends' post- and pre-steps (`docs/zc-model.md`). Same no-panic rule as the rest of the
 //! per-sample path (see the parent module).
 
-use super::Solver;
+use super::{LossRt, Ring, Solver};
 use crate::network::{MAX_LOSS_SECTIONS, MAX_ZC_SECTIONS};
 use crate::profile::Profile;
 
@@ -31,14 +31,9 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             }
         }
         let n = self.n_ports.min(PORTS);
+        let (a, mem) = (&self.a, &mut self.mem);
         for (r, b) in self.rings.iter_mut().zip(self.b.iter_mut()).take(n) {
-            let val = self.a.get(r.partner as usize).copied().unwrap_or(P::ZERO);
-            if let Some(m) = self.mem.get_mut(r.cursor as usize) {
-                *m = val;
-            }
-            let next = r.cursor.wrapping_add(1);
-            r.cursor = if next == r.end { r.start } else { next };
-            *b = self.mem.get(r.cursor as usize).copied().unwrap_or(P::ZERO);
+            *b = ring_pass::<P, MEM>(r, a, mem);
         }
         // Lossy lines and fractional delays: the wave arriving at each end passes the line's
         // loss sections, then its allpass (LTI filters commute with the delay, so filtering
@@ -47,22 +42,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             let Some(b) = self.b.get_mut(l.port as usize) else {
                 continue;
             };
-            let mut x = *b;
-            let k = (l.sections as usize).min(MAX_LOSS_SECTIONS);
-            let state = l.x1.iter_mut().zip(l.y1.iter_mut()).zip(l.r1.iter_mut());
-            let sections = state.zip(l.g.iter().zip(l.gb.iter()).zip(l.a.iter()));
-            for (((x1, y1), r1), ((g, gb), a)) in sections.take(k) {
-                let (y, r) = P::loss_section(x, *x1, *y1, *r1, *g, *gb, *a);
-                (*x1, *y1, *r1) = (x, y, r);
-                x = y;
-            }
-            if l.ap {
-                // Lattice: y = a·x + c·s, s' = c·x − a·s (`Profile::allpass`).
-                let (y, s_next) = P::allpass(x, l.ap_s, l.ap_a, l.ap_c);
-                l.ap_s = s_next;
-                x = y;
-            }
-            *b = x;
+            *b = arrival_filter::<P>(l, *b);
         }
         if self.zc {
             // Zc(s) ends, pre-step: the junction sees b_p = b + c, c = Σ k_i·s_i (b after the
@@ -84,4 +64,59 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             }
         }
     }
+}
+
+/// One port's ring: write its partner's outgoing wave at the cursor, advance the cursor
+/// (back to `start` at `end`), and return the wave at the new cursor, this port's next b.
+///
+/// Two schedules of the same operations, per target (`cargo run -p xtask -- firmware`,
+/// 3 Dec 2026, instructions per sample of the largest plants): reading the whole record
+/// first saves 142 on the M4 wide p85 plant (the compiler otherwise reloads the cursor after
+/// the store into `mem`), but costs 197 on the M0 narrow p34 plant (register pressure on
+/// ARMv6-M's eight low registers), which keeps the store-first order.
+#[inline(always)]
+fn ring_pass<P: Profile, const MEM: usize>(r: &mut Ring, a: &[P::Wave], mem: &mut [P::Wave; MEM]) -> P::Wave {
+    #[cfg(not(tidewire_no_cond_select))]
+    {
+        let (cursor, start, end, partner) = (r.cursor, r.start, r.end, r.partner);
+        let next = cursor.wrapping_add(1);
+        let next = if next == end { start } else { next };
+        r.cursor = next;
+        let val = a.get(partner as usize).copied().unwrap_or(P::ZERO);
+        if let Some(m) = mem.get_mut(cursor as usize) {
+            *m = val;
+        }
+        mem.get(next as usize).copied().unwrap_or(P::ZERO)
+    }
+    #[cfg(tidewire_no_cond_select)]
+    {
+        let val = a.get(r.partner as usize).copied().unwrap_or(P::ZERO);
+        if let Some(m) = mem.get_mut(r.cursor as usize) {
+            *m = val;
+        }
+        let next = r.cursor.wrapping_add(1);
+        r.cursor = if next == r.end { r.start } else { next };
+        mem.get(r.cursor as usize).copied().unwrap_or(P::ZERO)
+    }
+}
+
+/// A lossy or fractional line end's arrival filter: its loss sections, then its allpass;
+/// returns the filtered wave.
+#[inline(always)]
+fn arrival_filter<P: Profile>(l: &mut LossRt<P::Wave>, mut x: P::Wave) -> P::Wave {
+    let k = (l.sections as usize).min(MAX_LOSS_SECTIONS);
+    let state = l.x1.iter_mut().zip(l.y1.iter_mut()).zip(l.r1.iter_mut());
+    let sections = state.zip(l.g.iter().zip(l.gb.iter()).zip(l.a.iter()));
+    for (((x1, y1), r1), ((g, gb), a)) in sections.take(k) {
+        let (y, r) = P::loss_section(x, *x1, *y1, *r1, *g, *gb, *a);
+        (*x1, *y1, *r1) = (x, y, r);
+        x = y;
+    }
+    if l.ap {
+        // Lattice: y = a·x + c·s, s' = c·x − a·s (`Profile::allpass`).
+        let (y, s_next) = P::allpass(x, l.ap_s, l.ap_a, l.ap_c);
+        l.ap_s = s_next;
+        x = y;
+    }
+    x
 }

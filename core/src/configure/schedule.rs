@@ -1,0 +1,80 @@
+//! The junction pass's run tables (`solver/scatter.rs`), built from the junction records:
+//! scattering nodes grouped by port count, shorted nodes, open nodes, series resistors,
+//! chokes and the rig port, each kind a plain array the pass walks without dispatch. Built at
+//! load; the node groups again whenever `set_shunt` or `set_broken` changes a node's mode
+//! (O(junctions), between samples, no allocation).
+
+use super::set;
+use crate::error::BuildError;
+use crate::profile::Profile;
+use crate::solver::{JunctionRt, Mode, NodeRun, PairRun, Solver};
+use crate::solver::{NODE_GROUPS, N_PORT, ONE_PORT, OPEN, SHORT, THREE_PORT, TWO_PORT};
+
+/// The group of a node record, or `None` for a linked node (its branch scatters it).
+fn group_of(mode: Mode, count: u16) -> Option<usize> {
+    match (mode, count) {
+        (Mode::Scatter, 1) => Some(ONE_PORT),
+        (Mode::Scatter, 2) => Some(TWO_PORT),
+        (Mode::Scatter, 3) => Some(THREE_PORT),
+        (Mode::Scatter, _) => Some(N_PORT),
+        (Mode::Short, _) => Some(SHORT),
+        (Mode::Broken, _) => Some(OPEN),
+        (Mode::Linked, _) => None,
+    }
+}
+
+impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const LOSSES: usize>
+    Solver<P, PORTS, JUNCS, MEM, LOSSES>
+{
+    /// The node groups, in group order and within a group in network order. Every node of
+    /// the first `n_juncs` records is in at most one group, so the bounds stay <= `n_juncs`
+    /// <= JUNCS (< 2^16, shape check).
+    pub(super) fn schedule_nodes(&mut self) {
+        let mut bounds = [0u16; NODE_GROUPS + 1];
+        let mut n = 0usize;
+        for (k, end) in bounds.iter_mut().skip(1).enumerate() {
+            for rt in self.juncs.iter().take(self.n_juncs) {
+                let JunctionRt::Node { first, count, mode, g_src, recip, shift, total, hold, .. } = *rt else {
+                    continue;
+                };
+                if group_of(mode, count) == Some(k) {
+                    set(&mut self.nodes, n, NodeRun { first, count, g_src, recip, shift, hold, total });
+                    n = n.saturating_add(1);
+                }
+            }
+            *end = n.min(JUNCS) as u16;
+        }
+        self.node_bounds = bounds;
+    }
+
+    /// Series resistors, then chokes (states zero), and the rig port. At load only: the
+    /// two-ports are not switchable, and their states must survive a node's change. A
+    /// two-port whose ports are not adjacent (p, p + 1), which the junction records never
+    /// build, is refused rather than trusted: the junction pass reads both ports as a pair.
+    pub(super) fn schedule_pairs(&mut self) -> Result<(), BuildError> {
+        let mut n = 0usize;
+        for want_choke in [false, true] {
+            for (j, rt) in self.juncs.iter().enumerate().take(self.n_juncs) {
+                let (p, q, c, rho) = match *rt {
+                    JunctionRt::Series { p, q, c } if !want_choke => (p, q, c, 0),
+                    JunctionRt::SeriesL { p, q, c, rho } if want_choke => (p, q, c, rho),
+                    _ => continue,
+                };
+                if p.checked_add(1) != Some(q) {
+                    return Err(BuildError::CoefficientOutOfRange { junction: j as u16 });
+                }
+                set(&mut self.pairs, n, PairRun { p, c, rho, s: 0 });
+                n = n.saturating_add(1);
+            }
+            if !want_choke {
+                self.n_series = n.min(JUNCS) as u16;
+            }
+        }
+        self.n_pairs = n.min(JUNCS) as u16;
+        self.rig_junction = self.juncs.iter().take(self.n_juncs).find_map(|rt| match *rt {
+            JunctionRt::Rig { port } => Some(port),
+            _ => None,
+        });
+        Ok(())
+    }
+}
