@@ -76,12 +76,14 @@ fn rate_says_whether_a_part_keeps_up_and_names_unknown_parts() {
     let out = String::from_utf8_lossy(&a.get_output().stdout).into_owned();
     assert!(out.contains("slower than real time") && out.contains("no real-time rate"), "{out}");
     assert!(out.contains("RAM: solver about") && out.contains("flash: rig firmware"), "{out}");
-    // A long line sampled slowly: real time on every part, and a highest rate is found.
+    // A long line sampled slowly: real time on every part, and a highest rate is found. At
+    // 10 kS/s: the Cortex-M0's generic step keeps about 20 kS/s on this two-port plant
+    // (docs/firmware-figures.json), so the margin is twice the rate, not a few per cent.
     let text = std::fs::read_to_string(dir.join("bench-rig.toml")).unwrap();
     let slow = text
-        .replace("sample_rate = \"100 MHz\"", "sample_rate = \"20 kHz\"")
-        .replace("duration = \"10 us\"", "duration = \"20 ms\"")
-        .replace("length = \"100 m\"", "length = \"40 km\"")
+        .replace("sample_rate = \"100 MHz\"", "sample_rate = \"10 kHz\"")
+        .replace("duration = \"10 us\"", "duration = \"40 ms\"")
+        .replace("length = \"100 m\"", "length = \"80 km\"")
         .replace("rise = \"50 ns\", delay = \"200 ns\"", "rise = \"200 us\", delay = \"400 us\"")
         .replace("arrival = \"10 ns\"", "arrival = \"100 us\"");
     let guard = tempfile::Builder::new().prefix("tidewire-rate-").tempdir().unwrap();
