@@ -51,6 +51,9 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         if let Some(run) = group(losses, bounds, TWO_SECTIONS) {
             arrival_run::<P>(run, b, |l, x| arrival_filter::<P>(l, x, 2, false));
         }
+        if let Some(run) = group(losses, bounds, ALLPASS_ONLY) {
+            arrival_run::<P>(run, b, |l, x| arrival_filter::<P>(l, x, 0, true));
+        }
         if let Some(run) = group(losses, bounds, OTHER_FILTERS) {
             arrival_run::<P>(run, b, |l, x| {
                 let k = (l.sections as usize).min(MAX_LOSS_SECTIONS);
@@ -114,19 +117,23 @@ fn ring_pass<P: Profile, const MEM: usize>(r: &mut Ring, a: &[P::Wave], mem: &mu
 }
 
 /// The loss-filter groups of `Solver::losses`, in this order: group k is
-/// `losses[loss_bounds[k]..loss_bounds[k + 1]]`, `loss_bounds[0] = 0`. Ends of one or two
-/// sections without allpass run with constant counts; every other end (three or more
-/// sections, or a fractional-delay allpass) runs the general filter, which reads both.
+/// `losses[loss_bounds[k]..loss_bounds[k + 1]]`, `loss_bounds[0] = 0`. The usual ends run
+/// with constant counts: one or two loss sections, a fractional delay alone (an allpass on a
+/// lossless line), two sections and an allpass; every other end (three or more sections, one
+/// and an allpass) runs the general filter, which reads both from its record. Each group
+/// costs code in every generic step (the Cortex-M0's flash is nearly full), so only these.
 pub(crate) const ONE_SECTION: usize = 0;
 pub(crate) const TWO_SECTIONS: usize = 1;
-pub(crate) const OTHER_FILTERS: usize = 2;
-pub(crate) const LOSS_GROUPS: usize = 3;
+pub(crate) const ALLPASS_ONLY: usize = 2;
+pub(crate) const OTHER_FILTERS: usize = 3;
+pub(crate) const LOSS_GROUPS: usize = 4;
 
 /// The group of a loss filter with `sections` sections and an allpass or not.
 pub(crate) fn loss_group(sections: u8, allpass: bool) -> usize {
     match (sections, allpass) {
         (1, false) => ONE_SECTION,
         (2, false) => TWO_SECTIONS,
+        (0, true) => ALLPASS_ONLY,
         _ => OTHER_FILTERS,
     }
 }
