@@ -21,7 +21,7 @@ mod zc;
 use crate::error::{BuildError, ConfigError, Table};
 use crate::network::{ElementKind, Junction, Network, ProbeKind, Shunt, Side};
 use crate::profile::{hold_threshold, reciprocal, Profile};
-use crate::solver::{DriveRt, ElementRt, JunctionRt, Mode, ProbeRt, Solver, NODE_GROUPS};
+use crate::solver::{loss_group, DriveRt, ElementRt, JunctionRt, Mode, ProbeRt, Solver, LOSS_GROUPS, NODE_GROUPS};
 use loss::loss_record;
 pub(crate) use mode::{lone_open, mode_of};
 pub(crate) use passive::node_ok as passive_node;
@@ -293,19 +293,35 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.n_lines = net.lines.len();
     }
 
-    /// Loss filters: one per lossy line, applied at both of its ends.
+    /// Loss filters: one per lossy line, applied at both of its ends, laid out in run order:
+    /// grouped by [`loss_group`] (`solver/lines.rs`), within a group in network order, each
+    /// record knowing its network end for errors and host views. The shape check bounds the
+    /// count by LOSSES (< 2^16 ends), so the bounds fit.
     fn build_losses(&mut self, net: &Network<'_>, rig_line: Option<usize>) -> Result<(), BuildError> {
-        let mut nloss = 0usize;
+        // Network order first, so the error reported is the first bad filter's.
         for (k, ll) in net.losses.iter().enumerate() {
-            let li = ll.line as usize;
-            for side in 0..2 {
-                let port = at(&self.port_of, end_index(li, side == 1)) as u16;
-                let rt = loss_record::<P>(ll, port, k)?;
-                set(&mut self.losses, nloss, rt);
-                nloss = nloss.saturating_add(1);
-            }
+            loss_record::<P>(ll, 0, k)?;
             zc::check_line::<P>(net, ll, rig_line)?;
         }
+        let mut bounds = [0u16; LOSS_GROUPS + 1];
+        let mut nloss = 0usize;
+        for (g, bound) in bounds.iter_mut().skip(1).enumerate() {
+            for (k, ll) in net.losses.iter().enumerate() {
+                if loss_group(ll.sections, ll.allpass.is_some()) != g {
+                    continue;
+                }
+                let li = ll.line as usize;
+                for side in 0..2 {
+                    let port = at(&self.port_of, end_index(li, side == 1)) as u16;
+                    let mut rt = loss_record::<P>(ll, port, k)?;
+                    rt.end = end_index(k, side == 1).min(u16::MAX as usize) as u16;
+                    set(&mut self.losses, nloss, rt);
+                    nloss = nloss.saturating_add(1);
+                }
+            }
+            *bound = nloss.min(LOSSES) as u16;
+        }
+        self.loss_bounds = bounds;
         self.n_losses = nloss;
         self.zc = net.losses.iter().any(|l| l.zc.is_some());
         Ok(())
@@ -446,11 +462,26 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                 return Err(BuildError::BadElement { element: n as u16 });
             }
         }
-        if let Some(bad) = self.losses.iter().take(self.n_losses).position(|l| !passive::loss_ok::<P>(l)) {
-            return Err(BuildError::BadLoss { loss: (bad / 2) as u16 });
+        if let Some(bad) = self.losses.iter().take(self.n_losses).find(|l| !passive::loss_ok::<P>(l)) {
+            return Err(BuildError::BadLoss { loss: bad.end / 2 });
         }
-        if let Some(bad) = self.losses.iter().take(self.n_losses).position(|l| !zc::zc_ok::<P>(l)) {
-            return Err(BuildError::BadZc { loss: (bad / 2) as u16 });
+        if let Some(bad) = self.losses.iter().take(self.n_losses).find(|l| !zc::zc_ok::<P>(l)) {
+            return Err(BuildError::BadZc { loss: bad.end / 2 });
+        }
+        // The group runs read the section count and allpass flag from their group, not the
+        // record: every record must sit in its own group, and the groups must cover exactly
+        // the loaded filters.
+        let pairs = self.loss_bounds.iter().zip(self.loss_bounds.iter().skip(1));
+        let groups_ok = pairs.enumerate().all(|(g, (&lo, &hi))| {
+            lo <= hi
+                && self
+                    .losses
+                    .get(lo as usize..hi as usize)
+                    .is_some_and(|run| run.iter().all(|l| loss_group(l.sections, l.ap) == g))
+        });
+        if !groups_ok || self.loss_bounds.last().map(|&n| n as usize) != Some(self.n_losses) {
+            let bad = self.losses.first().map_or(0, |l| l.end / 2);
+            return Err(BuildError::BadLoss { loss: bad });
         }
         Ok(())
     }
@@ -464,6 +495,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.n_probes = 0;
         self.n_elements = 0;
         self.n_losses = 0;
+        self.loss_bounds = [0; LOSS_GROUPS + 1];
         self.mem_used = 0;
         self.drive = DriveRt::None;
         self.branches = false;

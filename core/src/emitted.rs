@@ -301,9 +301,12 @@ impl<'s, P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, c
         self.s.elements.iter().take(self.s.n_elements).map(|e| ElementPlan { port: e.port, mu: e.mu, negate: e.negate })
     }
 
-    /// Every loss filter in the order the solver applies them.
+    /// Every loss filter in network order (2·loss + side; the solver runs them grouped by
+    /// kind, which gives the same integers: each end filters only its own port).
     pub fn losses(&self) -> impl Iterator<Item = LossPlan> + '_ {
-        self.s.losses.iter().take(self.s.n_losses).map(|l| LossPlan {
+        let loaded = || self.s.losses.iter().take(self.s.n_losses);
+        let by_end = (0..self.s.n_losses).filter_map(move |e| loaded().find(|l| usize::from(l.end) == e));
+        by_end.map(|l| LossPlan {
             port: l.port,
             sections: l.sections,
             g: l.g,

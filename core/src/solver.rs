@@ -18,6 +18,7 @@
 mod lines;
 mod scatter;
 
+pub(crate) use lines::{loss_group, LOSS_GROUPS};
 pub(crate) use scatter::{NodeRun, PairRun, NODE_GROUPS, N_PORT, ONE_PORT, OPEN, SHORT, THREE_PORT, TWO_PORT};
 
 use crate::network::{MAX_LOSS_SECTIONS, MAX_PROBES, MAX_ZC_SECTIONS};
@@ -101,12 +102,16 @@ pub(crate) struct ElementRt {
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub(crate) struct LossRt<W: Copy> {
     pub port: u16,
+    /// This end in network order, 2·loss + side (the records run grouped, `lines.rs`).
+    pub end: u16,
     pub sections: u8,
     pub g: [u32; MAX_LOSS_SECTIONS],
     pub gb: [i32; MAX_LOSS_SECTIONS],
     pub a: [u32; MAX_LOSS_SECTIONS],
-    /// x[n−1], y[n−1] and the quantization residue (not a wave, `Profile::loss_section`) per section.
-    pub x1: [W; MAX_LOSS_SECTIONS],
+    /// The first section's x[n−1]; per section y[n−1] and the quantization residue (not a
+    /// wave, `Profile::loss_section`). Section k >= 1 takes its x[n−1] from section k − 1's
+    /// y[n−1] (its input is that section's output), so it keeps no state of its own.
+    pub x1: W,
     pub y1: [W; MAX_LOSS_SECTIONS],
     pub r1: [W; MAX_LOSS_SECTIONS],
     /// Fractional-delay allpass after the sections: whether present, its lattice
@@ -133,11 +138,12 @@ impl<W: Copy> LossRt<W> {
     pub(crate) const fn empty(port: u16, zero: W) -> Self {
         LossRt {
             port,
+            end: 0,
             sections: 0,
             g: [0; MAX_LOSS_SECTIONS],
             gb: [0; MAX_LOSS_SECTIONS],
             a: [0; MAX_LOSS_SECTIONS],
-            x1: [zero; MAX_LOSS_SECTIONS],
+            x1: zero,
             y1: [zero; MAX_LOSS_SECTIONS],
             r1: [zero; MAX_LOSS_SECTIONS],
             ap: false,
@@ -210,7 +216,10 @@ pub struct Solver<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM:
     pub(crate) rig_junction: Option<u16>,
     pub(crate) elements: [ElementRt; PORTS],
     pub(crate) n_elements: usize,
+    /// The loss filters in run order, grouped by kind (`lines.rs`): group k is
+    /// `losses[loss_bounds[k]..loss_bounds[k + 1]]`, within a group in network order.
     pub(crate) losses: [LossRt<P::Wave>; LOSSES],
+    pub(crate) loss_bounds: [u16; LOSS_GROUPS + 1],
     pub(crate) n_losses: usize,
     pub(crate) probes: [ProbeRt; MAX_PROBES],
     pub(crate) probe_out: [i32; MAX_PROBES],
@@ -254,6 +263,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             elements: [ElementRt { port: 0, mu: 0, negate: false }; PORTS],
             n_elements: 0,
             losses: [LossRt::empty(0, P::ZERO); LOSSES],
+            loss_bounds: [0; LOSS_GROUPS + 1],
             n_losses: 0,
             probes: [ProbeRt { current: false, port: 0, z_milliohm: 1 }; MAX_PROBES],
             probe_out: [0; MAX_PROBES],
@@ -289,7 +299,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         }
         self.pairs.iter_mut().for_each(|r| r.s = 0);
         for l in self.losses.iter_mut() {
-            l.x1 = [P::ZERO; MAX_LOSS_SECTIONS];
+            l.x1 = P::ZERO;
             l.y1 = [P::ZERO; MAX_LOSS_SECTIONS];
             l.r1 = [P::ZERO; MAX_LOSS_SECTIONS];
             l.ap_s = P::ZERO;
