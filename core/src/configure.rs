@@ -293,40 +293,6 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.n_lines = net.lines.len();
     }
 
-    /// Loss filters: one per lossy line, applied at both of its ends, laid out in run order:
-    /// grouped by [`loss_group`] (`solver/lines.rs`), within a group in network order, each
-    /// record knowing its network end for errors and host views. The shape check bounds the
-    /// count by LOSSES (< 2^16 ends), so the bounds fit.
-    fn build_losses(&mut self, net: &Network<'_>, rig_line: Option<usize>) -> Result<(), BuildError> {
-        // Network order first, so the error reported is the first bad filter's.
-        for (k, ll) in net.losses.iter().enumerate() {
-            loss_record::<P>(ll, 0, k)?;
-            zc::check_line::<P>(net, ll, rig_line)?;
-        }
-        let mut bounds = [0u16; LOSS_GROUPS + 1];
-        let mut nloss = 0usize;
-        for (g, bound) in bounds.iter_mut().skip(1).enumerate() {
-            for (k, ll) in net.losses.iter().enumerate() {
-                if loss_group(ll.sections, ll.allpass.is_some()) != g {
-                    continue;
-                }
-                let li = ll.line as usize;
-                for side in 0..2 {
-                    let port = at(&self.port_of, end_index(li, side == 1)) as u16;
-                    let mut rt = loss_record::<P>(ll, port, k)?;
-                    rt.end = end_index(k, side == 1).min(u16::MAX as usize) as u16;
-                    set(&mut self.losses, nloss, rt);
-                    nloss = nloss.saturating_add(1);
-                }
-            }
-            *bound = nloss.min(LOSSES) as u16;
-        }
-        self.loss_bounds = bounds;
-        self.n_losses = nloss;
-        self.zc = net.losses.iter().any(|l| l.zc.is_some());
-        Ok(())
-    }
-
     /// Rings: the ring a port reads from carries the wave towards it. Each reactance keeps its
     /// state in a ring of one sample that feeds itself. Every end is formed with checked
     /// arithmetic (a 32-bit `usize` cannot wrap) and checked against `MEM`.
