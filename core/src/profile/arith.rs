@@ -207,6 +207,46 @@ macro_rules! node_numerator {
 }
 pub(crate) use node_numerator;
 
+/// The hold rule's per-port choice, written once for the shunt-node hold
+/// (`Profile::node_scatter_held`) and the linked-node hold (`Profile::branch_node_held`):
+/// with the node's floor `fl`, q = floor(|v|) and the fraction flag `nz` in the accumulator
+/// `A`, each port keeps its previous wave (`a[k]` on entry) while driven (e != 0) and
+/// q >= `hold_min`, where that wave is the floor or the ceiling of v − b_k (prev − m in
+/// {0, nz}) and |prev| <= q; otherwise it gets `$plain(b_k)`, the rule's truncated wave.
+///
+/// Branch-free, so that the instruction count does not depend on the data. Every condition is
+/// the sign bit of a difference whose range is small (|.| < 2^34 in i64, < 2^19 in i32): x >= 0
+/// is the sign bit of !x, x != 0 that of x | −x, and a conjunction is the sign bit of the and
+/// of its terms. Only the final sign bit is extracted (one shift), as 0/1, and turned into a
+/// 0/−1 mask after `opaque`: on ARMv6-M LLVM lowers a mask it can see to be a compare result,
+/// or an and of compares, as selects (conditional branches there). The node-wide flag is
+/// opaque to the optimizer so that it cannot unswitch the port loop on it (a branch on the
+/// data, seen on the M4 in a plant with a series branch); `hold_min` is opaque on ARMv6-M so
+/// that LLVM does not turn q − hold_min into a compare; `prev` is opaque there so that, with
+/// its range unknown, LLVM keeps the sign tests instead of making signed compares.
+macro_rules! held_ports {
+    ($A:ty, $W:ty, $a:expr, $b:expr, $fl:expr, $q:expr, $nz:expr, $e:expr, $hold_min:expr, $plain:expr) => {{
+        let (fl, q, nz): ($A, $A, $A) = ($fl, $q, $nz);
+        let bits = <$A>::BITS - 1;
+        let e_a = <$A>::from($e);
+        let node = core::hint::black_box(
+            (e_a | e_a.wrapping_neg()) & !q.wrapping_sub($crate::profile::opaque(<$A as Acc>::from_u32($hold_min))),
+        );
+        for (ak, bk) in $a.iter_mut().zip($b.iter()) {
+            // v − b = (fl − b) + frac, frac > 0 iff nz: the floor is m, the ceiling m + nz.
+            let m = fl.wrapping_sub(<$A>::from(*bk));
+            let t = <$A>::from($plain(*bk));
+            let prev = $crate::profile::opaque(<$A>::from(*ak));
+            let d = prev.wrapping_sub(m);
+            let any_neg = d | nz.wrapping_sub(d) | q.wrapping_sub(prev) | q.wrapping_add(prev);
+            let keep = $crate::profile::opaque(((node & !any_neg) >> bits) & 1).wrapping_neg();
+            // Both candidates are waves, so the cast is exact.
+            *ak = (t ^ ((t ^ prev) & keep)) as $W;
+        }
+    }};
+}
+pub(crate) use held_ports;
+
 /// The junction rules, written once: expanded inside `impl Profile for Wide` (accumulator
 /// `i64`, `trunc_shr64`, `sat64_to_i32`) and `impl Profile for Narrow` (`i32`,
 /// `trunc_shr32`, `sat_i16`) as the trait's own method bodies. (Written as generic functions
@@ -470,25 +510,11 @@ macro_rules! junction_rules {
             let neg = (acc < 0) as A;
             let mask = neg.wrapping_neg();
             let fl = (q.wrapping_add(nz & neg) ^ mask).wrapping_sub(mask);
-            let bits = <A>::BITS - 1;
-            let e_a = A::from(e);
-            // Driven (e != 0) and q >= hold_min: a node-wide sign bit, opaque as in
-            // `node_scatter_held` (no unswitching of the port loop on data).
-            let node = core::hint::black_box(
-                (e_a | e_a.wrapping_neg()) & !q.wrapping_sub(opaque(<A as Acc>::from_u32(hold_min))),
-            );
-            for (ak, bk) in a.iter_mut().zip(b.iter()) {
-                let m = fl.wrapping_sub(A::from(*bk));
-                let t = A::from($sat(m.wrapping_add(((m < 0) as A) & nz)));
-                // Held when the previous wave is the floor or the ceiling of v − b_k (prev − m
-                // in {0, nz}) and |prev| <= q: the sign bit of node & !(the terms' or).
-                let prev = opaque(A::from(*ak));
-                let d = prev.wrapping_sub(m);
-                let any_neg = d | nz.wrapping_sub(d) | q.wrapping_sub(prev) | q.wrapping_add(prev);
-                let keep = opaque(((node & !any_neg) >> bits) & 1).wrapping_neg();
-                // Both candidates are waves, so the cast is exact.
-                *ak = (t ^ ((t ^ prev) & keep)) as Self::Wave;
-            }
+            let plain = |bk: Self::Wave| {
+                let m = fl.wrapping_sub(A::from(bk));
+                $sat(m.wrapping_add(((m < 0) as A) & nz))
+            };
+            $crate::profile::arith::held_ports!(A, Self::Wave, a, b, fl, q, nz, e, hold_min, plain);
         }
 
         #[inline(always)]
@@ -527,38 +553,20 @@ macro_rules! junction_rules {
                 }
                 return;
             }
-            // The hold rule (see `Profile::node_scatter_held`), branch-free so that the
-            // instruction count does not depend on the data. Every condition is the sign bit
-            // of a difference whose range is small (|.| < 2^34 in i64, < 2^19 in i32): x >= 0
-            // is the sign bit of !x, x != 0 that of x | −x, and a conjunction is the sign bit
-            // of the and of its terms. Only the final sign bit is extracted (one shift), as 0/1,
-            // and turned into a 0/−1 mask after `opaque`: on ARMv6-M LLVM lowers a mask it can
-            // see to be a compare result, or an and of compares, as selects (conditional
-            // branches there).
-            let bits = <A>::BITS - 1;
-            let e_a = A::from(e);
-            let (q, nz_a) = (A::from(q), A::from(nz));
-            // driven (e != 0) and q >= hold_min: a node-wide sign bit.
-            // Opaque to the optimizer: otherwise it may unswitch the port loop on it (a branch
-            // on the data, seen on the M4 in a plant with a series branch). `hold_min` is
-            // opaque on ARMv6-M so that LLVM does not turn q − hold_min into a compare.
-            let node = core::hint::black_box(
-                (e_a | e_a.wrapping_neg()) & !q.wrapping_sub(opaque(<A as Acc>::from_u32(hold_min))),
+            // The hold rule (see `Profile::node_scatter_held`).
+            let plain = |bk: Self::Wave| <A as Acc>::port(fl, bk, nz);
+            $crate::profile::arith::held_ports!(
+                A,
+                Self::Wave,
+                a,
+                b,
+                A::from(fl),
+                A::from(q),
+                A::from(nz),
+                e,
+                hold_min,
+                plain
             );
-            for (ak, bk) in a.iter_mut().zip(b.iter()) {
-                // v' − b = (fl − b) + frac, frac > 0 iff nz: the floor is m, the ceiling m + nz.
-                let m = A::from(fl).wrapping_sub(A::from(*bk));
-                let t = A::from(<A as Acc>::port(fl, *bk, nz));
-                // Held when the previous wave is the floor or the ceiling (prev − m in
-                // {0, nz}) and |prev| <= q. `prev` is opaque on ARMv6-M: with its range
-                // unknown, LLVM keeps these sign tests instead of making signed compares.
-                let prev = opaque(A::from(*ak));
-                let d = prev.wrapping_sub(m);
-                let any_neg = d | nz_a.wrapping_sub(d) | q.wrapping_sub(prev) | q.wrapping_add(prev);
-                let keep = opaque(((node & !any_neg) >> bits) & 1).wrapping_neg();
-                // Both candidates are waves, so the cast is exact.
-                *ak = (t ^ ((t ^ prev) & keep)) as Self::Wave;
-            }
         }
     };
 }
