@@ -22,7 +22,7 @@ use std::collections::{BTreeMap, HashMap};
 use std::io::{BufRead as _, BufReader, Write as _};
 use std::process::{Command, Stdio};
 
-use super::profile::tool;
+use super::profile::{method, target, tool, Target};
 
 /// Logged instructions to count (about 2000 calls of the 85-port plant's step, 30 s).
 const LOG_LINES: usize = 16_000_000;
@@ -77,26 +77,9 @@ fn trace(machine: &str, elf: &str, addr: u64, size: u64) -> Result<HashMap<u64, 
     Ok(counts)
 }
 
-/// The method name of a demangled (or partly demangled) function name, without its hash.
-fn method(f: &str) -> String {
-    let is_hash = |s: &str| s.len() == 17 && s.starts_with('h') && s[1..].chars().all(|c| c.is_ascii_hexdigit());
-    let last = f.rsplit("::").find(|s| !is_hash(s)).unwrap_or(f);
-    last.split('$').next().unwrap_or(last).to_string()
-}
-
 pub fn generic_profile(args: &[&str]) -> Result<(), String> {
-    let plant = args.first().copied().unwrap_or("p85_wide");
-    let part = match args.get(1).copied().unwrap_or("m4") {
-        "m4" => &super::PARTS[0],
-        "m0" => &super::PARTS[1],
-        other => return Err(format!("unknown part `{other}` (m4 or m0)")),
-    };
-    let p = super::paths();
-    let elf = p.target_dir.join(part.target).join("release/tidewire-firmware");
-    let elf_s = elf.to_str().ok_or("non-UTF-8 path")?;
-    let gen = p.crate_dir.join(format!("plants/gen/{plant}.rs"));
-    let src = std::fs::read_to_string(&gen)
-        .map_err(|e| format!("{}: {e} (run `cargo run -p xtask -- firmware` first)", gen.display()))?;
+    let Target { plant, part, elf, gen, src } = target(args)?;
+    let elf_s = elf.as_str();
     let ports: usize = src
         .lines()
         .find_map(|l| l.strip_prefix("pub const PORTS: usize = ")?.trim_end_matches(';').parse().ok())

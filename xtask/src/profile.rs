@@ -71,14 +71,30 @@ fn operation(frames: &[(String, String)], line: &str) -> String {
         };
         return what.into();
     }
-    let f = &frames[frames.len() - 2].0;
-    let name = f.rsplit("::").find(|s| !s.starts_with('h') || s.len() != 17).unwrap_or(f);
-    let name = name.split('$').next().unwrap_or(name);
-    name.to_string()
+    method(&frames[frames.len() - 2].0)
 }
 
-pub fn step_profile(args: &[&str]) -> Result<(), String> {
-    let plant = args.first().copied().unwrap_or("p85_wide");
+/// The method name of a demangled (or partly demangled) function name, without its hash.
+pub(crate) fn method(f: &str) -> String {
+    let is_hash = |s: &str| s.len() == 17 && s.starts_with('h') && s[1..].chars().all(|c| c.is_ascii_hexdigit());
+    let last = f.rsplit("::").find(|s| !is_hash(s)).unwrap_or(f);
+    last.split('$').next().unwrap_or(last).to_string()
+}
+
+/// What a profiling command reads: the plant (first argument, default `p85_wide`), the part
+/// (second, `m4` or `m0`), its firmware ELF and the plant's generated source, both written by
+/// `cargo run -p xtask -- firmware`.
+pub(crate) struct Target {
+    pub plant: String,
+    pub part: &'static super::parts::Part,
+    pub elf: String,
+    pub gen: std::path::PathBuf,
+    pub src: String,
+}
+
+/// The [`Target`] of a profiling command's arguments.
+pub(crate) fn target(args: &[&str]) -> Result<Target, String> {
+    let plant = args.first().copied().unwrap_or("p85_wide").to_string();
     let part = match args.get(1).copied().unwrap_or("m4") {
         "m4" => &super::PARTS[0],
         "m0" => &super::PARTS[1],
@@ -86,10 +102,16 @@ pub fn step_profile(args: &[&str]) -> Result<(), String> {
     };
     let p = super::paths();
     let elf = p.target_dir.join(part.target).join("release/tidewire-firmware");
-    let elf_s = elf.to_str().ok_or("non-UTF-8 path")?;
+    let elf = elf.to_str().ok_or("non-UTF-8 path")?.to_string();
     let gen = p.crate_dir.join(format!("plants/gen/{plant}.rs"));
     let src = std::fs::read_to_string(&gen)
         .map_err(|e| format!("{}: {e} (run `cargo run -p xtask -- firmware` first)", gen.display()))?;
+    Ok(Target { plant, part, elf, gen, src })
+}
+
+pub fn step_profile(args: &[&str]) -> Result<(), String> {
+    let Target { plant, part, elf, gen: _, src } = target(args)?;
+    let elf_s = elf.as_str();
     let needle = format!("plants..{plant}..specialised..Plant");
     let nm = tool("llvm-nm", &["-C", "-S", elf_s])?;
     let (addr, size) = nm
@@ -99,7 +121,7 @@ pub fn step_profile(args: &[&str]) -> Result<(), String> {
             let mut it = l.split_whitespace();
             Some((u64::from_str_radix(it.next()?, 16).ok()?, u64::from_str_radix(it.next()?, 16).ok()?))
         })
-        .ok_or(format!("no specialised step of {plant} in {}", elf.display()))?;
+        .ok_or(format!("no specialised step of {plant} in {elf}"))?;
     let (start, stop) = (format!("--start-address={addr}"), format!("--stop-address={}", addr + size));
     let dis = tool("llvm-objdump", &["-d", "--no-show-raw-insn", &start, &stop, elf_s])?;
     let insns: Vec<(String, String)> = dis
