@@ -2,7 +2,7 @@
 //! the fitted networks run in the f64 twin against the exact reference, on the two cables
 //! where a constant port impedance misses. Run with `--nocapture` for the figures.
 //!
-//! The core does not run the Zc networks yet; these tests measure the model it is to follow.
+//! The core runs the same networks (`core/tests/zc.rs`); here the model and its enforcement.
 use std::path::Path;
 use tidewire_host::compile::zc_enforce::{fine_margin, realised_zc, scales_text, Decision, LineView, SAFETY};
 use tidewire_host::compile::{compile, compile_with, CompileOptions, Compiled, ProfileKind};
@@ -499,4 +499,46 @@ fn verify_does_not_judge_a_final_value_the_exact_reference_has_not_reached() {
         assert!(p["pass"]["final_value"].is_null(), "{p}");
     }
     assert_eq!(v["verdict"], "pass");
+}
+
+#[test]
+fn equal_cable_runs_share_one_enforcement_and_it_is_the_direct_one() {
+    // A trunk of four runs (three of 40 m, one of 25 m): the compiler enforces each kind of
+    // run once (`zc_runs.rs`). Every run's recorded result must equal `enforce` called
+    // directly on that run's own lines.
+    let mut text = String::from(
+        "[plant]\nname = \"equal runs\"\nsample_rate = \"100 MHz\"\nduration = \"4 us\"\n[cable.c]\npreset = \"cat5e\"\n",
+    );
+    for k in 0..=4 {
+        text += &format!("[node.n{k}]\n");
+    }
+    text += "load = \"100 ohm\"\n";
+    for (k, len) in ["40 m", "40 m", "25 m", "40 m"].iter().enumerate() {
+        text += &format!("[[segment]]\nfrom = \"n{k}\"\nto = \"n{}\"\ncable = \"c\"\nlength = \"{len}\"\n", k + 1);
+    }
+    text += "[drive]\nkind = \"source\"\nnode = \"n0\"\nresistance = \"100 ohm\"\n\
+             waveform = { step = \"1 V\", rise = \"40 ns\", delay = \"0 s\" }\n\
+             [[probe]]\nname = \"far\"\nnode = \"n4\"\n";
+    let p = parse_plant(&text, "runs.toml", Path::new(".")).unwrap();
+    let c = compile_with(&p, "runs.toml", ProfileKind::Wide, CONSTANT_PORT).unwrap();
+    assert_eq!(c.report.zc_runs.len(), 4, "one Zc(s) run per lossy segment");
+    let frac = <tidewire_core::Wide as tidewire_core::Profile>::LOSS_FRAC;
+    for run in &c.report.zc_runs {
+        let views: Vec<LineView<'_>> = run
+            .lines
+            .iter()
+            .map(|&l| LineView {
+                delay: c.net.lines[l as usize].delay,
+                loss: c.net.losses.iter().find(|x| x.line == l),
+            })
+            .collect();
+        let z0 = f64::from(c.net.lines[run.lines[0] as usize].z_milliohm) / 1000.0;
+        let cable = &p.cables[p.segments[run.segment].cable];
+        let direct =
+            tidewire_host::compile::zc_enforce::enforce(cable, &c.report.zc[run.fit], &views, z0, 1.0 / c.dt, frac);
+        assert_eq!((run.constant_error, &run.decision), (direct.0, &direct.1), "segment {}", run.segment);
+    }
+    let r = &c.report.zc_runs;
+    assert_eq!(r[0].decision, r[1].decision, "equal runs, equal decisions");
+    assert_eq!(r[0].decision, r[3].decision, "equal runs, equal decisions");
 }

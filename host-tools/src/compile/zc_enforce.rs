@@ -38,7 +38,7 @@ use super::zc::{target, ZcFit};
 use crate::plant::CableType;
 use num_complex::Complex64;
 use std::f64::consts::PI;
-use tidewire_core::{LineLoss, ZcNetwork, MAX_ZC_SECTIONS};
+use tidewire_core::{Allpass, LineLoss, ZcNetwork, MAX_LOSS_SECTIONS, MAX_ZC_SECTIONS};
 
 /// The least margin m an emitted network must keep on every line (see the module doc):
 /// m >= 0.02 means L >= P·(1 + m)/(1 − m), the line's loss exceeds the network's reactive
@@ -81,6 +81,36 @@ pub enum Decision {
 pub struct LineView<'a> {
     pub delay: u32,
     pub loss: Option<&'a LineLoss>,
+}
+
+/// What of a line [`enforce`] reads: its delay and its loss design (the Zc(s) network it
+/// would carry is what is being decided).
+pub type LineKey = (u32, Option<(u8, [u32; MAX_LOSS_SECTIONS], [i32; MAX_LOSS_SECTIONS], Option<Allpass>)>);
+
+impl LineView<'_> {
+    /// The line as [`enforce`] sees it: two lines of equal key get the same decision.
+    pub fn key(&self) -> LineKey {
+        (self.delay, self.loss.map(|x| (x.sections, x.poles, x.zeros, x.allpass)))
+    }
+}
+
+/// A run as [`enforce`] sees it, for one cable at one constant port: the distinct keys of its
+/// lines. Runs whose keys are the same set get the same result (the decision depends on
+/// nothing else), so a plant of many equal stubs enforces once ([`same_run`]).
+pub fn run_key(lines: &[LineView<'_>]) -> Vec<LineKey> {
+    let mut k: Vec<LineKey> = vec![];
+    for l in lines {
+        let key = l.key();
+        if !k.contains(&key) {
+            k.push(key);
+        }
+    }
+    k
+}
+
+/// Whether two [`run_key`]s hold the same lines (each key appears once in either).
+pub fn same_run(a: &[LineKey], b: &[LineKey]) -> bool {
+    a.len() == b.len() && a.iter().all(|k| b.contains(k))
 }
 
 /// Quantize Z_inf + sections (R_i, τ_i) at sample period `dt` to the core's network:
@@ -309,10 +339,9 @@ pub fn enforce(cable: &CableType, fit: &ZcFit, lines: &[LineView<'_>], z0: f64, 
     let g = compiler_grid(fs);
     // The pieces of a run are mostly alike (same delay, same loss design): each distinct
     // one once.
-    let key = |l: &LineView<'_>| (l.delay, l.loss.map(|x| (x.sections, x.poles, x.zeros, x.allpass)));
     let mut distinct: Vec<&LineView<'_>> = vec![];
     for l in lines {
-        if !distinct.iter().any(|d| key(d) == key(l)) {
+        if !distinct.iter().any(|d| d.key() == l.key()) {
             distinct.push(l);
         }
     }

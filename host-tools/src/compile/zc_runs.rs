@@ -15,6 +15,10 @@ pub(super) fn fit(c: &mut Compiled, plant: &Plant, opts: CompileOptions) {
         ProfileKind::Narrow => <tidewire_core::Narrow as tidewire_core::Profile>::LOSS_FRAC,
     };
     let mut by_cable: Vec<(usize, Option<usize>)> = vec![];
+    // Runs already enforced: (cable, constant port's bits, run key) and the result. A plant of
+    // many equal segments (a chain of equal stubs) enforces each kind of run once.
+    type Done = (usize, u64, Vec<zc_enforce::LineKey>, (f64, zc_enforce::Decision));
+    let mut done: Vec<Done> = vec![];
     for (si, (seg, pieces)) in plant.segments.iter().zip(&c.segment_pieces).enumerate() {
         let Some(cable) = plant.cables.get(seg.cable) else { continue };
         let slot = match by_cable.iter().find(|(k, _)| *k == seg.cable) {
@@ -37,7 +41,16 @@ pub(super) fn fit(c: &mut Compiled, plant: &Plant, opts: CompileOptions) {
                 Some(zc_enforce::LineView { delay: l.delay, loss: c.net.losses.iter().find(|x| x.line == p.line) })
             })
             .collect();
-        let (constant_error, decision) = zc_enforce::enforce(cable, &c.report.zc[k], &views, z0, fs, frac);
+        let key = zc_enforce::run_key(&views);
+        let same = |d: &&Done| d.0 == seg.cable && d.1 == z0.to_bits() && zc_enforce::same_run(&d.2, &key);
+        let (constant_error, decision) = match done.iter().find(same) {
+            Some(d) => d.3.clone(),
+            None => {
+                let r = zc_enforce::enforce(cable, &c.report.zc[k], &views, z0, fs, frac);
+                done.push((seg.cable, z0.to_bits(), key, r.clone()));
+                r
+            }
+        };
         let lines = pieces.iter().map(|p| p.line).collect();
         let compiled = opts.zc_networks && matches!(decision, zc_enforce::Decision::Network(_));
         c.report.zc_runs.push(ZcRun { segment: si, fit: k, lines, constant_error, decision, compiled });
