@@ -18,20 +18,18 @@ fn write_if_changed(path: &Path, bytes: &[u8]) -> Result<(), String> {
     write_atomic(path, bytes).map_err(|e| format!("writing {}: {e}", path.display()))
 }
 
-/// Whether `p` runs on the micro:bit (16 KB RAM): narrow plants up to the 34-port bus, and
-/// wide plants of at most 9 ports (larger solvers do not fit its RAM beside the firmware).
-/// The plants with a series branch (`p8b_*`) run on the M4 only: with them the M0 image
-/// overflowed its 256 KB flash by 37 KB (each plant brings its generic, image and
-/// specialised forms); `p8b_narrow` alone fitted with the old generic step and overflowed by
-/// 12 KB with the per-kind run tables (3 Dec 2026). The plant with Zc(s) networks (`p8z_*`)
-/// likewise: the M4 carries the Zc ends' no-panic and instruction-count checks.
+/// Whether `p` runs on the micro:bit (16 KB RAM, 256 KB flash): the narrow plants up to the
+/// 34-port bus (its profile), the series-branch plant `p8b_narrow` included, and of the wide
+/// plants only the 2-port one. Each plant brings its own generic solver (monomorphised for
+/// its capacities, 20-30 KB of flash with its loader), its image and its specialised form:
+/// with `p8_wide` too, `p8b_narrow` overflowed the flash by 12 KB (3 Dec 2026). The M0 wide
+/// profile has no aim; the 2-port plant keeps its cost measured, larger wide plants are
+/// measured on the M4. The plant with Zc(s) networks (`p8z_*`) runs on the M4 only: the M0
+/// leaves out the core's load-time Zc(s) check (soft-float f64 its flash cannot hold).
 pub fn fits_m0(p: &TestPlant) -> bool {
-    let m4_only = p.name.contains("b_") || p.name.contains("z_");
-    // The M0's 256 KB flash holds the narrow plants (its profile) and two wide ones: with
-    // the fractional wide plant too the build overflowed by 2.3 KB (3 Dec 2026). The M0
-    // wide profile has no aim; its fractional cost is measured on the M4.
-    let wide_fraction = p.name.ends_with("f_wide");
-    !m4_only && !wide_fraction && (p.ports() <= 9 || (p.ports() <= 40 && p.name.ends_with("narrow")))
+    let zc = p.name.contains("z_");
+    let narrow = p.name.ends_with("narrow");
+    !zc && if narrow { p.ports() <= 40 } else { p.ports() <= 2 }
 }
 
 /// Generate all plant files into `dir`; `plants` holds (profile, plants of that profile).

@@ -231,7 +231,7 @@ pub const PROFILES: [(&str, u8); 2] = [("wide", 4), ("narrow", 0)];
 pub fn test_plants(profile: &str, io_shift: u8) -> Vec<TestPlant> {
     // A host-compiled plant goes here as well, e.g.
     // `TestPlant::from_network(&format!("c_{profile}"), &compiled.network())`.
-    // 2, 9 and 34 ports on both parts, 86 ports on the M4 only (see `gen::fits_m0`).
+    // 2, 9, 34 and 86 ports (which of them the M0 runs: `gen::fits_m0`).
     // Then the 9-port plant with a fraction on every line (`p9f_<profile>`, 8 fractional
     // line ends), and with a series branch (`p9b_<profile>`).
     let mut plants: Vec<TestPlant> = [0usize, 1, 5, 13]
