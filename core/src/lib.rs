@@ -164,7 +164,10 @@
 //! No hold reaches loops through series resistors, series inductors or reactances' adaptors
 //! (a passive series-resistor hold was tried and broke the packaging line's flatness,
 //! docs/firmware.md): there the narrow profile can still keep an oscillation of tens of
-//! codes (`core/tests/settle.rs` states the measured band).
+//! codes (`core/tests/settle.rs` states the measured band). Quantizing only a series
+//! resistor's increment (y = trunc(c·x), a1 = b1 − y, a2 = b2 + y: passive for any y between
+//! 0 and x, common mode exact) was measured too and not kept: it broke the packaging line's
+//! flatness and widened the saved regression plant (docs/firmware.md).
 //!
 //! ## Real-time guarantees
 //! `step` does O(ports + junctions) work, independent of the delays (ring buffers, no data

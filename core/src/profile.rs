@@ -90,6 +90,8 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     /// Series two-port between lines of equal impedance, coefficient c = 2Z/(2Z + R) in
     /// `SERIES_FRAC` fractional bits (c <= 1): x = b1 − b2, a1 = trunc(b1 − c·x),
     /// a2 = trunc(b2 + c·x), each truncated toward zero from its exact value, saturated.
+    /// Energy: a1² + a2² = b1² + b2² − 2y·(x − y) for a1 = b1 − y, a2 = b2 + y, which is
+    /// <= b1² + b2² for y = c·x; truncation only lowers each |a| (`core/tests/oracle.rs`).
     fn series(b1: Self::Wave, b2: Self::Wave, c: u32) -> (Self::Wave, Self::Wave);
     /// a = sat(v − b) (rig port: a = v − b with v the measured pin voltage).
     fn sub(v: Self::Wave, b: Self::Wave) -> Self::Wave;
@@ -102,6 +104,15 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     const TOTAL_MAX: u64;
     /// Reactance adaptor: a_c = trunc(b + μ·(a − b)) toward zero from its exact value, μ in
     /// `SERIES_FRAC` fractional bits (μ <= 1), negated when `negate` (an inductor).
+    ///
+    /// Energy: the element (a reactance of port resistance R_p behind R_s; the node's port
+    /// R_1 = R_p + R_s, μ = R_p/R_1) stores b²/R_p and receives (a² − b²)/R_1 in a sample, so
+    /// a new state b' is passive iff b'² <= (1 − μ)·b² + μ·a². The exact b' = (1 − μ)·b + μ·a
+    /// meets it (convexity) and truncation toward zero only lowers |b'| (`core/tests/oracle.rs`
+    /// checks the inequality). Quantizing only the increment, b + trunc(μ·(a − b)), does not
+    /// meet it where |a| < |b| (b = 100, a = 99, μ = 1/2 keeps b' = 100); the passive
+    /// increment rounding (toward whichever of a and b is smaller in magnitude) is this rule
+    /// itself wherever a and b have one sign, as at every working point (docs/firmware.md).
     fn adapt(b: Self::Wave, a: Self::Wave, mu: u32, negate: bool) -> Self::Wave;
     /// Fractional bits of loss-filter coefficients in this profile.
     const LOSS_FRAC: u32;
@@ -151,6 +162,12 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     /// inductor does not need a huge wave. y = c·(b1 − b2) + rho·s exactly, then
     /// a1 = trunc(b1 − y), a2 = trunc(b2 + y), s' = trunc(2y − s), each toward zero from its
     /// exact value and saturated (c = 2Z/ΣR, rho = R_L/ΣR, c + rho <= 1 keeps it passive).
+    ///
+    /// Energy: the state's weight against the lines' is rho/(2c) = R_L/(4Z) (b_L²/R_L with
+    /// s = −(2Z/R_L)·b_L). For outputs b1 − y, b2 + y, 2y − s the energy changes by
+    /// (2/c)·((c + rho)·y² − y·y_e), y_e = c·(b1 − b2) + rho·s: 0 at y = 0 and
+    /// (2/c)·y_e²·(c + rho − 1) <= 0 at y = y_e; truncating each output toward zero only
+    /// lowers it (`core/tests/oracle.rs` checks 2c·(a1² + a2²) + rho·s'² <= 2c·(b1² + b2²) + rho·s²).
     fn series_l(
         b1: Self::Wave,
         b2: Self::Wave,

@@ -76,6 +76,10 @@ fn check_series<P: Profile>(u1: u32, u2: u32, c: u64) -> Result<(), TestCaseErro
     let f = P::SERIES_FRAC;
     prop_assert_eq!(w::<P>(a1), trunc_sat::<P>((w::<P>(b1) << f) - c as i128 * x, f));
     prop_assert_eq!(w::<P>(a2), trunc_sat::<P>((w::<P>(b2) << f) + c as i128 * x, f));
+    // Energy [closed form]: a1² + a2² = b1² + b2² − 2y·(x − y) for a1 = b1 − y, a2 = b2 + y,
+    // <= b1² + b2² for y = c·x (0 <= c <= 1), and truncation only lowers each |a|.
+    let sq = |v: P::Wave| w::<P>(v) * w::<P>(v);
+    prop_assert!(sq(a1) + sq(a2) <= sq(b1) + sq(b2));
     Ok(())
 }
 
@@ -90,6 +94,14 @@ fn check_series_l<P: Profile>(u: [u32; 3], c: u64, rho: u64) -> Result<(), TestC
     prop_assert_eq!(w::<P>(a1), trunc_sat::<P>((w::<P>(b1) << f) - y, f));
     prop_assert_eq!(w::<P>(a2), trunc_sat::<P>((w::<P>(b2) << f) + y, f));
     prop_assert_eq!(w::<P>(s2), trunc_sat::<P>(2 * y - (w::<P>(s) << f), f));
+    // Energy [closed form], with the state's weight ρ/(2c) against the lines' 1 (the inductor
+    // port R_L holds b_L²/R_L = s²·R_L/(4Z) with s = −(2Z/R_L)·b_L, and ρ/(2c) = R_L/(4Z)):
+    // for outputs b1 − y, b2 + y, 2y − s the change is (2/c)·((c + ρ)·y² − y·y_e), y_e the
+    // exact y, <= 0 at y = y_e (c + ρ <= 1); truncating each output toward zero only lowers it.
+    // Times 2c (integers): 2c·(a1² + a2²) + ρ·s'² <= 2c·(b1² + b2²) + ρ·s².
+    let sq = |v: P::Wave| w::<P>(v) * w::<P>(v);
+    let (ci, ri) = (c as i128, rho as i128);
+    prop_assert!(2 * ci * (sq(a1) + sq(a2)) + ri * sq(s2) <= 2 * ci * (sq(b1) + sq(b2)) + ri * sq(s));
     Ok(())
 }
 
@@ -101,6 +113,13 @@ fn check_adapt<P: Profile>(u1: u32, u2: u32, mu: u64, negate: bool) -> Result<()
     let m = ((w::<P>(b) << f) + mu as i128 * (w::<P>(a) - w::<P>(b))) / (1i128 << f);
     let (lo, hi) = wave_range::<P>();
     prop_assert_eq!(w::<P>(got), (if negate { -m } else { m }).clamp(lo, hi));
+    // Energy [closed form]: the element (reactance of port resistance R_p behind R_s, node
+    // port R_1 = R_p + R_s, μ = R_p/R_1) stores b²/R_p and receives (a² − b²)/R_1, so it is
+    // passive iff b'² <= (1 − μ)·b² + μ·a²; the exact b' = (1 − μ)·b + μ·a meets it by
+    // convexity, and truncation only lowers |b'|. Times 2^f: 2^f·b'² <= (2^f − μ)·b² + μ·a².
+    let sq = |v: P::Wave| w::<P>(v) * w::<P>(v);
+    let one = 1i128 << f;
+    prop_assert!(one * sq(got) <= (one - mu as i128) * sq(b) + mu as i128 * sq(a));
     Ok(())
 }
 

@@ -52,6 +52,13 @@
 //! from 48 to 65 codes, and on the reactance adaptor, which kept some plants from coming to
 //! rest) and their bands: docs/firmware.md, "Constant drive (item 8)".
 //!
+//! A fourth session quantized only the increment at series resistors and series inductors
+//! (y = Q(c·x), a1 = b1 − y, a2 = b2 + y, passive for every y between 0 and x): at the
+//! resistors, toward zero, it took the widest of the 2048 runs from 36 to 24 codes, but it
+//! widened both replayed regression plants (48 -> 60, 36 -> 51) and broke the packaging line's
+//! flatness (through its fractional-delay allpasses), so it was not kept; the other forms
+//! were worse or a reshuffle (docs/firmware.md, "The increment form at series elements").
+//!
 //! The wide profile (12 more fraction bits) stayed within 1 code in every run; since 3 Dec
 //! 2026 it runs no hold at all (`Profile::HOLDS`), and still stayed within 1 code in every run
 //! (`PROPTEST_RNG_SEED=12345 PROPTEST_CASES=1024 cargo test --release -p tidewire-core --test
@@ -79,7 +86,7 @@ const BAND_WIDE: i64 = 1;
 /// about 55 codes; random runs may break this bound (docs/firmware.md, "Constant drive
 /// (item 8)"). The linked-node hold (second session) left the widest band of 2048 runs at 36
 /// codes and that plant's band unchanged, so the bound stays (the third session's error-feedback
-/// rules were not kept, see above).
+/// rules and the fourth session's increment forms were not kept, see above).
 const BAND_NARROW: i64 = 64;
 
 /// The latest sample a band is measured from (see `check`).
