@@ -90,3 +90,66 @@ fn a_pwm_plant_passes_where_the_core_agrees_and_an_error_still_fails() {
     assert!(!bad.pass(), "{bad:#?}");
     assert!(!bad.probes[0].pass_max || !bad.probes[0].pass_rms);
 }
+
+fn example(name: &str) -> Plant {
+    load_plant(&Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/plants").join(name)).unwrap()
+}
+
+/// `verify` and the working-point check on `plant` as compiled for `profile`.
+fn held(plant: &Plant, profile: ProfileKind) -> Verification {
+    let (c, _) = prepare(plant, "test.toml", profile).unwrap();
+    let (mut v, _) = verify(plant, "test.toml", &c, &[], &|_| {}).unwrap();
+    v.hold_check(plant, "test.toml", &c).unwrap();
+    v
+}
+
+#[test]
+fn the_working_point_check_sees_the_narrow_limit_cycle_and_judges_it_against_the_tolerance() {
+    // drive-to-motor, step to 680 V: wide holds every code; narrow keeps a 10-code cycle at
+    // the motor terminals (the present narrow rounding, README "Limits"; if this test finds
+    // the band gone, the rule improved: update the README). Within the plant's final-value
+    // tolerance (0.5 % of 680 V, 72 codes) it passes, and the text names the cycle.
+    let plant = example("drive-to-motor.toml");
+    let wide = held(&plant, ProfileKind::Wide);
+    let h = wide.hold.as_ref().expect("a step drive is checked");
+    assert_eq!(h.emf, 680.0);
+    assert_eq!((h.widest(), h.watched, h.held), (0, h.held / 2, 160_000), "{h:#?}");
+    assert_eq!(h.outputs.len(), 1 + plant.probes.len(), "the drive's code and every probe");
+    let narrow = held(&plant, ProfileKind::Narrow);
+    let h = narrow.hold.as_ref().unwrap();
+    let motor = h.outputs.iter().find(|o| o.name == "motor terminals").unwrap();
+    assert!(motor.band > tidewire_host::verify::hold::FEW_CODES, "{h:#?}");
+    assert!(motor.low <= motor.last && motor.last <= motor.high);
+    assert_eq!(h.limit, (0.005 * 680.0 / plant_vpc(&plant, ProfileKind::Narrow)).floor() as u32);
+    assert!(h.pass() && narrow.pass(), "{h:#?}");
+    // A final-value tolerance tighter than the band: the check fails the verdict, for the
+    // outputs that cycle and only those.
+    let mut tight = plant.clone();
+    tight.tolerances.final_error = 2e-4; // 136 mV, under 3 codes of 47 mV
+    let v = held(&tight, ProfileKind::Narrow);
+    let h = v.hold.as_ref().unwrap();
+    assert_eq!(h.limit, tidewire_host::verify::hold::FEW_CODES, "never tighter than a few codes");
+    assert!(!h.pass() && !v.pass(), "{h:#?}");
+    assert!(h.outputs.iter().all(|o| o.pass == (o.band <= h.limit)));
+}
+
+fn plant_vpc(plant: &Plant, profile: ProfileKind) -> f64 {
+    let (c, _) = prepare(plant, "test.toml", profile).unwrap();
+    f64::from(c.net.volts_per_code)
+}
+
+#[test]
+fn the_working_point_check_is_the_zero_input_rest_after_a_pulse_and_absent_for_pwm() {
+    // irrigation-network: a pulse, so the drive held after the run is 0 V; every path has
+    // loss, so every code must be exactly 0 (the zero-input property), in both profiles.
+    let plant = example("irrigation-network.toml");
+    for profile in [ProfileKind::Wide, ProfileKind::Narrow] {
+        let v = held(&plant, profile);
+        let h = v.hold.as_ref().unwrap();
+        assert_eq!(h.emf, 0.0);
+        assert!(h.outputs.iter().all(|o| (o.low, o.high, o.last) == (0, 0, 0)), "{profile:?}: {h:#?}");
+    }
+    // A PWM drive never holds a value: no check.
+    let pwm = parse_plant(PWM_PLANT, "pwm.toml", Path::new(".")).unwrap();
+    assert!(held(&pwm, ProfileKind::Wide).hold.is_none());
+}

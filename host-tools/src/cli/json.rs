@@ -137,6 +137,14 @@ pub fn verify_json(plant: &Plant, c: &Compiled, v: &Verification, file: &str, pa
         },
         "probes": probes,
         "events": events(plant, c, Some(v)),
+        "working_point": v.hold.as_ref().map(|h| json!({
+            "emf": num(h.emf),
+            "held_samples": h.held,
+            "watched_samples": h.watched,
+            "limit_codes": h.limit,
+            "outputs": h.outputs,
+            "pass": h.pass(),
+        })),
     })
 }
 

@@ -29,7 +29,7 @@ pub(crate) fn probe_pass(p: &crate::verify::ProbeFigures, settles: bool) -> bool
 
 /// The run's verdict (see [`probe_pass`]).
 pub(crate) fn run_pass(plant: &Plant, v: &Verification) -> bool {
-    v.probes.iter().all(|p| probe_pass(p, plant.drive.settles_to_dc()))
+    v.probes.iter().all(|p| probe_pass(p, plant.drive.settles_to_dc())) && v.hold.as_ref().is_none_or(|h| h.pass())
 }
 
 /// The verdict as text.
@@ -172,12 +172,49 @@ pub fn verdict_text(plant: &Plant, c: &Compiled, v: &Verification) -> String {
             }
         }
     }
+    if let Some(h) = &v.hold {
+        fails += hold_text(&mut s, c, h);
+    }
     if fails == 0 {
         let _ = writeln!(s, "\n== PASS: {} probes within tolerance", v.probes.len());
     } else {
         let _ = writeln!(s, "\n== FAIL: {fails} figure group(s) outside tolerance (probes and after-event windows)");
     }
     s
+}
+
+/// The working-point check's lines; returns the number of outputs outside their band.
+fn hold_text(s: &mut String, c: &Compiled, h: &crate::verify::hold::HoldFigures) -> usize {
+    let _ = writeln!(
+        s,
+        "\n-- working point: drive held at {} for {} more samples; output codes over the last {}",
+        si(h.emf, "V"),
+        h.held,
+        h.watched
+    );
+    for o in &h.outputs {
+        let _ = writeln!(
+            s,
+            "   {:<16} codes {} .. {} (band {}, last {})   limit {}   {}",
+            o.name,
+            o.low,
+            o.high,
+            o.band,
+            o.last,
+            h.limit,
+            ok(o.pass)
+        );
+    }
+    if h.widest() > crate::verify::hold::FEW_CODES {
+        let _ = writeln!(
+            s,
+            "   more than {} codes: the {} profile's rounding holds a limit cycle around this working point{}",
+            crate::verify::hold::FEW_CODES,
+            c.profile.name(),
+            if c.profile == ProfileKind::Narrow { " (the wide profile keeps 12 bits below the code)" } else { "" }
+        );
+    }
+    h.outputs.iter().filter(|o| !o.pass).count()
 }
 
 /// The events inside the run, as picture marks.
@@ -267,8 +304,9 @@ pub(crate) fn verify_and_write(
         _ => vec![],
     };
     let pb = progress(c.samples, "verify");
-    let (v, tr) = verify(plant, file, c, &record, &|k| pb.set_position(k as u64))?;
+    let (mut v, tr) = verify(plant, file, c, &record, &|k| pb.set_position(k as u64))?;
     pb.finish_and_clear();
+    v.hold_check(plant, file, c)?;
     if let Some(p) = svg {
         write_svg(p, c, &v, &tr, &shown)?;
     }

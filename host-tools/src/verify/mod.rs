@@ -20,6 +20,7 @@
 //! RMS errors already compare every period with the exact reference), and the result says
 //! so. A drive from samples is compared with the exact reference's last sample.
 
+pub mod hold;
 pub mod lattice;
 pub mod metrics;
 
@@ -167,12 +168,24 @@ pub struct Verification {
     pub tolerances: crate::plant::Tolerances,
     /// One entry per scheduled event inside the run, in time order.
     pub events: Vec<EventFigures>,
+    /// The working-point check ([`hold`]), where the caller ran it ([`Verification::hold_check`]).
+    pub hold: Option<hold::HoldFigures>,
 }
 
 impl Verification {
     pub fn pass(&self) -> bool {
         self.probes.iter().all(|p| p.pass())
             && self.events.iter().all(|e| e.probes.iter().all(|p| p.pass_max && p.pass_rms))
+            && self.hold.as_ref().is_none_or(|h| h.pass())
+    }
+
+    /// Run the working-point check ([`hold`]) on `c` and keep its figures. Separate from
+    /// [`verify`] because it runs the core for up to 2^20 more samples: `tidewire verify` and
+    /// the demo run it, a sample-rate search does not.
+    pub fn hold_check(&mut self, plant: &Plant, file: &str, c: &Compiled) -> Result<(), PlantError> {
+        self.hold =
+            hold::check(c, plant.drive.settles_to_dc(), &self.tolerances, self.step).map_err(|e| located(file, e))?;
+        Ok(())
     }
 }
 
@@ -299,6 +312,7 @@ pub fn verify(
         wrap_bound: ex.wrap_bound,
         tolerances: tol,
         events,
+        hold: None,
     };
     Ok((v, Traces { core, twin: tw, exact, dt: c.dt, exact_len }))
 }
