@@ -1,11 +1,15 @@
 //! `tidewire sweep`: the command around `crate::analysis::sweep` (arguments, table, SVG).
 use super::{io_failure, Failure};
-use crate::analysis::sweep::{rise_of, sweep, Parameter, SweepError};
+use crate::analysis::sweep::{rise_of, sweep, Parameter, SweepError, SweepPoint};
 use crate::compile::ProfileKind;
 use crate::plant::units::{parse_quantity, UnitKind};
 use crate::plant::{load_plant, Plant};
 use crate::plot::{write_sweep, SweepPlot};
 use std::path::Path;
+
+/// Segments shorter than this many samples one way are "short" to a length sweep's note
+/// (their model is lumped or a fractional delay of a few samples) [practice].
+const SHORT_SAMPLES: f64 = 3.0;
 
 /// Most points of one sweep (each is a whole compile, core run and exact run).
 pub const MAX_STEPS: usize = 1000;
@@ -119,6 +123,21 @@ pub(super) fn run(
     let fails = pts.iter().filter(|p| !p.pass).count();
     if fails > 0 {
         println!("   outside the plant's tolerances: {fails} of {} points (ringed in the picture)", pts.len());
+        // A length sweep's failures are mostly the short end, where the segment is a few
+        // samples long and its model (lumped sections, a fractional delay) carries the error:
+        // say how long the failing segments are in samples, and what resolves them.
+        if let (Parameter::Length(_), Some((_, v))) = (param, lc) {
+            let samples = |p: &&SweepPoint| p.value / v * plant.sample_rate;
+            let failing: Vec<f64> = pts.iter().filter(|p| !p.pass).map(|p| samples(&p)).collect();
+            let longest = failing.iter().copied().fold(0.0, f64::max);
+            if longest < SHORT_SAMPLES {
+                println!(
+                    "   every failing point is a segment of at most {longest:.1} samples one way at {}: the short-line model \
+                     (lumped sections, fractional delay) dominates there; a higher plant.sample_rate resolves it",
+                    crate::si::format(plant.sample_rate, "Hz")
+                );
+            }
+        }
     }
     if let Some(out) = svg {
         let core: Vec<(f64, f64)> = pts.iter().map(|p| (p.value, p.peak_ratio)).collect();
