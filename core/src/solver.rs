@@ -16,6 +16,8 @@
 //! argued, and no division happens here.
 
 mod lines;
+#[cfg(test)]
+mod rest_tests;
 mod scatter;
 
 pub(crate) use lines::{loss_group, LOSS_GROUPS};
@@ -460,14 +462,26 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         }
     }
 
-    /// True when every wave in every line and at every port, and every Zc(s) section state,
-    /// is exactly zero.
+    /// True when the plant holds nothing that a later step could send out: every wave in
+    /// every line and at every port, the rig port's latency history, and every state is
+    /// exactly zero (loss sections' x[n−1] and y[n−1], allpass and Zc(s) section states,
+    /// choke and series-branch states). The loss sections' quantization residues are not
+    /// waves and may stay: with every wave zero a residue alone never makes one
+    /// (`Profile::loss_section`).
     pub fn is_at_rest(&self) -> bool {
         let z = P::ZERO;
-        self.mem.iter().take(self.mem_used).all(|w| *w == z)
-            && self.a.iter().take(self.n_ports).all(|w| *w == z)
-            && self.b.iter().take(self.n_ports).all(|w| *w == z)
-            && self.losses.iter().take(self.n_losses).all(|l| l.zc_s.iter().all(|w| *w == z))
+        let zero = |w: &[P::Wave], n: usize| w.iter().take(n).all(|w| *w == z);
+        let waves = |w: &[P::Wave]| zero(w, w.len());
+        let lines = zero(&self.mem, self.mem_used)
+            && zero(&self.a, self.n_ports)
+            && zero(&self.b, self.n_ports)
+            && waves(&self.hist);
+        let losses =
+            self.losses.iter().take(self.n_losses).all(|l| l.x1 == z && waves(&l.y1) && l.ap_s == z && waves(&l.zc_s));
+        let pairs = self.pairs.iter().take(usize::from(self.n_pairs)).all(|p| p.s == 0);
+        let branches =
+            self.juncs.iter().take(self.n_juncs).all(|j| !matches!(j, JunctionRt::Branch { s, .. } if *s != 0));
+        lines && losses && pairs && branches
     }
 
     /// The waves (a, b) at one end of a line after the last step, raw wave LSBs (read-out
