@@ -3,7 +3,7 @@
 //! ends' post- and pre-steps (`docs/zc-model.md`). Same no-panic rule as the rest of the
 //! per-sample path (see the parent module).
 //!
-//! The arrival filters run as flat runs: at load (`configure.rs`, `build_losses`) the loss
+//! The arrival filters run as flat runs: at load (`configure/loss.rs`, `build_losses`) the loss
 //! records are laid out grouped by [`loss_group`], and each group is a tight loop whose
 //! section count and allpass flag are constants (the sections unrolled). The ends of one
 //! sample are independent (each filters its own port's b with its own state), so the group
@@ -119,8 +119,9 @@ fn ring_pass<P: Profile, const MEM: usize>(r: &mut Ring, a: &[P::Wave], mem: &mu
 /// The loss-filter groups of `Solver::losses`, in this order: group k is
 /// `losses[loss_bounds[k]..loss_bounds[k + 1]]`, `loss_bounds[0] = 0`. The usual ends run
 /// with constant counts: one or two loss sections, a fractional delay alone (an allpass on a
-/// lossless line), two sections and an allpass; every other end (three or more sections, one
-/// and an allpass) runs the general filter, which reads both from its record. Each group
+/// lossless line); every other end (sections with an allpass, three or more sections) runs
+/// the general filter, which reads both from its record (a group of its own for two sections
+/// and an allpass was measured and kept out: docs/firmware.md). Each group
 /// costs code in every generic step (the Cortex-M0's flash is nearly full), so only these.
 pub(crate) const ONE_SECTION: usize = 0;
 pub(crate) const TWO_SECTIONS: usize = 1;
