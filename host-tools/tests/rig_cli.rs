@@ -70,8 +70,9 @@ fn bad_arguments_are_exit_2_before_any_connection() {
 fn rate_says_whether_a_part_keeps_up_and_names_unknown_parts() {
     let dir = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/plants");
     let plant = dir.join("rig-break.toml");
-    // 14 line ends at 100 MS/s: about 1 700 instructions per sample, far from real time on
-    // a 168 MHz part, and the plant's 60 m segment cannot be sampled at the ~98 kS/s it keeps.
+    // 14 line ends at 100 MS/s: about 1 260 instructions per sample (generic step), far from
+    // real time on a 168 MHz part, and the plant's first segment cannot be sampled at the
+    // ~133 kS/s it keeps.
     let a = tidewire().args(["rate", plant.to_str().unwrap(), "--part", "stm32f407"]).assert().code(1);
     let out = String::from_utf8_lossy(&a.get_output().stdout).into_owned();
     assert!(out.contains("slower than real time") && out.contains("no real-time rate"), "{out}");
