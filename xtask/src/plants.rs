@@ -75,8 +75,8 @@ const END_DELAY: u32 = 37;
 /// resistor, one more port). The series junction is the lumped conductor resistance (1.5 Ω),
 /// except at every third tap a choke (a series inductor of port resistance 200 Ω with its
 /// 1.5 Ω winding resistance). The first trunk line and every drop line carry a loss filter
-/// (two first-order sections). Ports: 2 + 6 per tap + elements, so `taps` = 0, 1, 5 give 2, 9
-/// and 34 ports; [`test_plants`] adds larger ones.
+/// (two first-order sections). Ports: line ends and elements ([`TestPlant::ports`]), so
+/// `taps` = 0, 1, 5 and 13 give the 2-, 8-, 34- and 85-port plants of [`test_plants`].
 pub fn bus(name: &str, taps: usize, io_shift: u8) -> TestPlant {
     const MOHM: u32 = 1000;
     let trunk_z = 100 * MOHM;
@@ -231,9 +231,9 @@ pub const PROFILES: [(&str, u8); 2] = [("wide", 4), ("narrow", 0)];
 pub fn test_plants(profile: &str, io_shift: u8) -> Vec<TestPlant> {
     // A host-compiled plant goes here as well, e.g.
     // `TestPlant::from_network(&format!("c_{profile}"), &compiled.network())`.
-    // 2, 9, 34 and 86 ports (which of them the M0 runs: `gen::fits_m0`).
-    // Then the 9-port plant with a fraction on every line (`p9f_<profile>`, 8 fractional
-    // line ends), and with a series branch (`p9b_<profile>`).
+    // 2, 8, 34 and 85 ports (which of them the M0 runs: `gen::fits_m0`).
+    // Then the 8-port plant with a fraction on every line (`p8f_<profile>`, 8 fractional
+    // line ends), and with a series branch (`p8b_<profile>`).
     let mut plants: Vec<TestPlant> = [0usize, 1, 5, 13]
         .iter()
         .map(|&taps| {
@@ -245,7 +245,7 @@ pub fn test_plants(profile: &str, io_shift: u8) -> Vec<TestPlant> {
     let mut f = with_fractions(bus("", 1, io_shift));
     f.name = format!("p{}f_{profile}", f.ports());
     plants.push(f);
-    // And the 9-port plant with a series branch between two of its nodes (`p9b_<profile>`).
+    // And the 8-port plant with a series branch between two of its nodes (`p8b_<profile>`).
     let mut b = with_branch(bus("", 1, io_shift));
     b.name = format!("p{}b_{profile}", b.ports());
     plants.push(b);
