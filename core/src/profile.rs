@@ -330,8 +330,8 @@ pub struct Wide;
 pub struct Narrow;
 
 mod scalar;
-pub(crate) use scalar::opaque;
 use scalar::*;
+pub(crate) use scalar::{node_flag, veil};
 
 impl Profile for Wide {
     type Wave = i32;

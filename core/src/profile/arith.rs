@@ -37,13 +37,15 @@ pub(crate) trait Acc: Sized {
     /// reciprocal's rounding), capped at 2^31 − 1 (a smaller |v'| is as passive, and the
     /// node's floor −q − 1 then fits an i32), and nz = (acc != 0) as 0/1: the node voltage
     /// v' = sign·(q + ε) always has a fraction when acc != 0.
-    fn quotient_abs(acc: Self, recip: u32, shift: u32, total: u64) -> (i32, i32);
+    /// `z` is the node's [`super::veil`] (used by the exact narrow division's flags).
+    fn quotient_abs(acc: Self, recip: u32, shift: u32, total: u64, z: i32) -> (i32, i32);
     /// One outgoing wave from the node's floor fl = floor(v') and nz: trunc(v' − b) toward
     /// zero, v' − b = (fl − b) + fraction, saturated. Wide saturates first, s = sat(fl − b),
     /// then adds 1 where s < 0 and nz: one instruction on the M4 (`QSUB`) instead of a 64-bit
     /// clamp; where fl − b is below the wave range the result is MIN + nz, still no larger in
     /// magnitude than v' − b. Narrow adds first and saturates after (exact in i32).
-    fn port(fl: i32, b: Self::W, nz: i32) -> Self::W;
+    /// `z` is the node's [`super::veil`] (hides Narrow's saturation flag).
+    fn port(fl: i32, b: Self::W, nz: i32, z: i32) -> Self::W;
     /// floor(|acc| / total) and (remainder != 0) as 0/1, from the node's reciprocal (see
     /// [`super::reciprocal`]) and two exact correction steps.
     fn floor_div_abs(acc: Self, recip: u32, shift: u32, total: u64) -> (Self, Self);
@@ -100,7 +102,7 @@ impl Acc for i64 {
         i64::from(x)
     }
     #[inline(always)]
-    fn quotient_abs(acc: i64, recip: u32, shift: u32, _total: u64) -> (i32, i32) {
+    fn quotient_abs(acc: i64, recip: u32, shift: u32, _total: u64, _z: i32) -> (i32, i32) {
         // q < |v| <= 2^32, so its low word is all of it and the cap is one 32-bit compare
         // (a 64-bit cap took about ten instructions per node on the M4). The bound: with
         // |b_k|, |e| <= 2^31, |acc| <= (2·Σ g_k + g_src)·2^31, and the node's total is at
@@ -111,7 +113,7 @@ impl Acc for i64 {
         (q.min(i32::MAX as u32) as i32, (acc != 0) as i32)
     }
     #[inline(always)]
-    fn port(fl: i32, b: i32, nz: i32) -> i32 {
+    fn port(fl: i32, b: i32, nz: i32, _z: i32) -> i32 {
         let s = fl.saturating_sub(b);
         // s < 0 adds nz (0 or 1): no overflow. The sign as 0/1 (a logical shift) and-ed with
         // nz: on the M4 `and` with a shifted operand and an `add`, where the sign mask
@@ -164,9 +166,11 @@ impl Acc for i32 {
         i32::try_from(x).unwrap_or(i32::MAX)
     }
     #[inline(always)]
-    fn quotient_abs(acc: i32, recip: u32, shift: u32, total: u64) -> (i32, i32) {
-        // Narrow divides exactly (see `super::floor_div32`): q <= 2^29, below the cap.
-        Self::floor_div_abs(acc, recip, shift, total)
+    fn quotient_abs(acc: i32, recip: u32, shift: u32, total: u64, z: i32) -> (i32, i32) {
+        // Narrow divides exactly (see `super::floor_div32`): q <= 2^29, below the cap; as
+        // `floor_div_abs`, with the node's veil.
+        let (q, nz) = super::floor_div32_veiled::<2>(acc.unsigned_abs(), recip, shift, total as u32, z);
+        (q as i32, nz as i32)
     }
     #[inline(always)]
     fn floor_div_abs(acc: i32, recip: u32, shift: u32, total: u64) -> (i32, i32) {
@@ -181,14 +185,14 @@ impl Acc for i32 {
         (q as i32, nz as i32)
     }
     #[inline(always)]
-    fn port(fl: i32, b: i16, nz: i32) -> i16 {
+    fn port(fl: i32, b: i16, nz: i32, z: i32) -> i16 {
         // |fl| <= 2^29 + 1 and |b| <= 2^15: the difference and the increment are exact in
         // i32, so Narrow truncates the exact value and then saturates (the exact node's
         // outputs, bit for bit as before the Wide rule changed).
         // The sign as 0/1 (logical shift) and-ed with the 0/1 nz: a sign mask (m >> 31) & nz
         // is turned into a select by LLVM, a conditional branch on ARMv6-M.
         let m = fl.wrapping_sub(i32::from(b));
-        super::sat_i16(m.wrapping_add(((m as u32 >> 31) as i32) & nz))
+        super::sat_i16_veiled(m.wrapping_add(((m as u32 >> 31) as i32) & nz), z)
     }
 }
 
@@ -218,28 +222,32 @@ pub(crate) use node_numerator;
 /// the sign bit of a difference whose range is small (|.| < 2^34 in i64, < 2^19 in i32): x >= 0
 /// is the sign bit of !x, x != 0 that of x | −x, and a conjunction is the sign bit of the and
 /// of its terms. Only the final sign bit is extracted (one shift), as 0/1, and turned into a
-/// 0/−1 mask after `opaque`: on ARMv6-M LLVM lowers a mask it can see to be a compare result,
-/// or an and of compares, as selects (conditional branches there). The node-wide flag is
-/// opaque to the optimizer so that it cannot unswitch the port loop on it (a branch on the
-/// data, seen on the M4 in a plant with a series branch); `hold_min` is opaque on ARMv6-M so
-/// that LLVM does not turn q − hold_min into a compare; `prev` is opaque there so that, with
-/// its range unknown, LLVM keeps the sign tests instead of making signed compares.
+/// 0/−1 mask after it is or-ed with the node's veil `z` (`profile::veil`, 0 at run time; one
+/// `black_box` per node instead of one per flag): on ARMv6-M LLVM lowers a mask it can see
+/// to be a compare result, or an and of compares, as selects (conditional branches there).
+/// The node-wide flag is hidden from the optimizer (`profile::node_flag`) so that it cannot
+/// unswitch the port loop on it (a branch on the data, seen on the M4 in a plant with a
+/// series branch); `hold_min` is veiled on ARMv6-M so that LLVM does not turn q − hold_min
+/// into a compare; `prev` is veiled there so that, with its range unknown, LLVM keeps the
+/// sign tests instead of making signed compares.
 macro_rules! held_ports {
-    ($A:ty, $W:ty, $a:expr, $b:expr, $fl:expr, $q:expr, $nz:expr, $e:expr, $hold_min:expr, $plain:expr) => {{
+    ($A:ty, $W:ty, $a:expr, $b:expr, $fl:expr, $q:expr, $nz:expr, $e:expr, $hold_min:expr, $z:expr, $plain:expr) => {{
         let (fl, q, nz): ($A, $A, $A) = ($fl, $q, $nz);
+        let z = <$A>::from($z);
         let bits = <$A>::BITS - 1;
         let e_a = <$A>::from($e);
-        let node = core::hint::black_box(
-            (e_a | e_a.wrapping_neg()) & !q.wrapping_sub($crate::profile::opaque(<$A as Acc>::from_u32($hold_min))),
+        let node = $crate::profile::node_flag(
+            (e_a | e_a.wrapping_neg()) & !q.wrapping_sub(<$A as Acc>::from_u32($hold_min) | z),
+            z,
         );
         for (ak, bk) in $a.iter_mut().zip($b.iter()) {
             // v − b = (fl − b) + frac, frac > 0 iff nz: the floor is m, the ceiling m + nz.
             let m = fl.wrapping_sub(<$A>::from(*bk));
             let t = <$A>::from($plain(*bk));
-            let prev = $crate::profile::opaque(<$A>::from(*ak));
+            let prev = <$A>::from(*ak) | z;
             let d = prev.wrapping_sub(m);
             let any_neg = d | nz.wrapping_sub(d) | q.wrapping_sub(prev) | q.wrapping_add(prev);
-            let keep = $crate::profile::opaque(((node & !any_neg) >> bits) & 1).wrapping_neg();
+            let keep = ((((node & !any_neg) >> bits) & 1) | z).wrapping_neg();
             // Both candidates are waves, so the cast is exact.
             *ak = (t ^ ((t ^ prev) & keep)) as $W;
         }
@@ -514,7 +522,19 @@ macro_rules! junction_rules {
                 let m = fl.wrapping_sub(A::from(bk));
                 $sat(m.wrapping_add(((m < 0) as A) & nz))
             };
-            $crate::profile::arith::held_ports!(A, Self::Wave, a, b, fl, q, nz, e, hold_min, plain);
+            $crate::profile::arith::held_ports!(
+                A,
+                Self::Wave,
+                a,
+                b,
+                fl,
+                q,
+                nz,
+                e,
+                hold_min,
+                $crate::profile::veil(),
+                plain
+            );
         }
 
         #[inline(always)]
@@ -541,7 +561,11 @@ macro_rules! junction_rules {
             // q = |floor(v')| for N > 0 (|floor(v')| − 1 for N < 0), nz = [N != 0]: v' =
             // sign(N)·(q + ε) has the floor q for N > 0 and −(q + 1) for N < 0, by the
             // branch-free negation (x ^ mask) − mask.
-            let (q, nz) = <A as Acc>::quotient_abs(acc, recip, shift, total);
+            // One veil for the node's flags (`profile::veil`; the constant 0 off ARMv6-M). Only
+            // the exact (narrow) node has flags to hide: the wide node's `quotient_abs` and
+            // `port` ignore it, and an unused `black_box` would still run.
+            let z = if Self::EXACT_NODE { $crate::profile::veil() } else { 0 };
+            let (q, nz) = <A as Acc>::quotient_abs(acc, recip, shift, total, z);
             let neg = (acc < 0) as i32;
             let mask = neg.wrapping_neg();
             // q + 1 <= 2^31: wrapping, (2^31 ^ −1) + 1 is −2^31 exactly.
@@ -549,12 +573,12 @@ macro_rules! junction_rules {
             if hold_min == 0 {
                 // No shunt: the plain rule (a branch on the configuration, not on data).
                 for (ak, bk) in a.iter_mut().zip(b.iter()) {
-                    *ak = <A as Acc>::port(fl, *bk, nz);
+                    *ak = <A as Acc>::port(fl, *bk, nz, z);
                 }
                 return;
             }
             // The hold rule (see `Profile::node_scatter_held`).
-            let plain = |bk: Self::Wave| <A as Acc>::port(fl, bk, nz);
+            let plain = |bk: Self::Wave| <A as Acc>::port(fl, bk, nz, z);
             $crate::profile::arith::held_ports!(
                 A,
                 Self::Wave,
@@ -565,6 +589,7 @@ macro_rules! junction_rules {
                 A::from(nz),
                 e,
                 hold_min,
+                z,
                 plain
             );
         }

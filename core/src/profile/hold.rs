@@ -47,9 +47,9 @@
 //! p = m_k + 1 >= 1 and this is g_k·(2·m_k + 1) ∈ [0, 2^30), so budget − cost is exact;
 //! elsewhere its wrapped sign bit does not matter (the test p − m_k − 1 = 0 fails). Every
 //! condition is a sign bit of a small difference (as in the shunt-node hold), and-ed into
-//! one flag that passes [`super::opaque`] before it becomes a mask, so the Cortex-M0 runs the
-//! same instructions whatever the waves.
-use super::{floor_div32, opaque, sat_i16};
+//! one flag that is or-ed with the node's [`super::veil`] (one `black_box` per node) before
+//! it becomes a mask, so the Cortex-M0 runs the same instructions whatever the waves.
+use super::{floor_div32_veiled, node_flag, sat_i16_veiled, veil};
 
 /// `hold_min` value that selects the open-node rule in [`super::Profile::node_scatter_held`]
 /// (as a shunt-node threshold it would mean "never hold": q never reaches it).
@@ -70,10 +70,12 @@ pub(super) fn narrow_open(b: &[i16], g: &[u32], a: &mut [i16], e: i16, recip: u3
     let t = total as u32;
     // σ as a 0/−1 mask: x ^ mask − mask is σ·x, branch-free. |N| is formed with it too
     // (`unsigned_abs` next to the mask became a conditional branch on ARMv6-M).
-    let mask = opaque((acc as u32 >> 31) as i32).wrapping_neg();
+    // One veil for the whole node (`scalar::veil`): every flag below is or-ed with it.
+    let z = veil();
+    let mask = (((acc as u32 >> 31) as i32) | z).wrapping_neg();
     let flip = |x: i32| (x ^ mask).wrapping_sub(mask);
     let mag = flip(acc) as u32; // |N| <= 2^30
-    let (q, nz) = floor_div32::<2>(mag, recip, shift, t);
+    let (q, nz) = floor_div32_veiled::<2>(mag, recip, shift, t, z);
     // r = |N| − q·T exactly (q is the exact floor): in [0, T).
     let r = mag.wrapping_sub(q.wrapping_mul(t)) as i32;
     let (q, nz) = (q as i32, nz as i32);
@@ -81,19 +83,19 @@ pub(super) fn narrow_open(b: &[i16], g: &[u32], a: &mut [i16], e: i16, recip: u3
     // with a remainder (nz), −q without.
     let fl = flip(q).wrapping_sub(nz & mask & 1);
     let e = i32::from(e);
-    // Node-wide flag, negative iff driven (e != 0) and r > 0; opaque so the optimizer cannot
-    // unswitch the port loop on it (a branch on data).
-    let node = core::hint::black_box((e | e.wrapping_neg()) & r.wrapping_neg());
+    // Node-wide flag, negative iff driven (e != 0) and r > 0; hidden so the optimizer cannot
+    // unswitch the port loop on it (a branch on data; `scalar::node_flag`).
+    let node = node_flag((e | e.wrapping_neg()) & r.wrapping_neg(), z);
     let mut budget = q.wrapping_mul(r); // q·r < 2^30
     for (ak, (bk, gk)) in a.iter_mut().zip(b.iter().zip(g.iter())) {
         let m = q.wrapping_sub(flip(i32::from(*bk)));
         // The plain rule's wave: trunc(v − b_k) toward zero, saturated.
         let plain = {
             let d = fl.wrapping_sub(i32::from(*bk));
-            sat_i16(d.wrapping_add(((d as u32 >> 31) as i32) & nz))
+            sat_i16_veiled(d.wrapping_add(((d as u32 >> 31) as i32) & nz), z)
         };
-        // The previous wave in the σ frame; opaque on ARMv6-M so LLVM keeps the sign tests.
-        let prev = opaque(i32::from(*ak));
+        // The previous wave in the σ frame; veiled on ARMv6-M so LLVM keeps the sign tests.
+        let prev = i32::from(*ak) | z;
         let p = flip(prev);
         let cost = (*gk as i32).wrapping_mul(p.wrapping_shl(1).wrapping_sub(1));
         let d = p.wrapping_sub(m).wrapping_sub(1);
@@ -101,7 +103,7 @@ pub(super) fn narrow_open(b: &[i16], g: &[u32], a: &mut [i16], e: i16, recip: u3
         // Held iff driven, r > 0, m >= 0, p = m + 1 and the cost fits: the sign bit of
         // node & !(m | d | −d | left).
         let any_neg = m | d | d.wrapping_neg() | left;
-        let keep = opaque(((node & !any_neg) >> 31) & 1).wrapping_neg();
+        let keep = ((((node & !any_neg) >> 31) & 1) | z).wrapping_neg();
         budget = budget.wrapping_sub(cost & keep);
         let plain = i32::from(plain);
         // Both candidates are waves, so the cast is exact.

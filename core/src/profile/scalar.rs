@@ -27,6 +27,39 @@ pub(crate) fn opaque<T>(x: T) -> T {
     }
 }
 
+/// A zero the optimizer cannot see through on ARMv6-M ([`opaque`]`(0)`), the plain constant
+/// 0 elsewhere. A flag or-ed with it (`flag | z`) is as opaque as `opaque(flag)`: LLVM no
+/// longer knows it is 0/1, so it cannot turn the mask it becomes into a select. Why: each
+/// `black_box` on ARMv6-M is a store to the stack, the slot's address in a register for the
+/// empty `asm!` (often itself spilled and reloaded) and a load back, and its memory clobber
+/// orders every load and store around it; a node of the 34-port narrow plant ran 14 of them
+/// (681 of the step's 4113 instructions, 504 of its 1212 stack accesses). One veil per node,
+/// or-ed into each flag, costs one `ORRS` per flag (`docs/firmware.md`, "Register spills in
+/// the narrow node"). Where the target has a conditional select, z is the constant 0 and
+/// every `| z` folds away (the M4 and host code is unchanged).
+#[inline(always)]
+pub(crate) fn veil() -> i32 {
+    opaque(0)
+}
+
+/// A node-wide hold flag `x`, hidden from the optimizer so that it cannot unswitch a node's
+/// port loop on it (a branch on the data, seen on the M4 in a plant with a series branch).
+/// On ARMv6-M the node's [`veil`] `z` hides it (`x | z`): every per-port mask formed from it
+/// is veiled too, so there is no select to unswitch on, and a `black_box` fewer per node.
+/// Elsewhere `black_box(x)`.
+#[inline(always)]
+pub(crate) fn node_flag<T: core::ops::BitOr<Output = T>>(x: T, z: T) -> T {
+    #[cfg(tidewire_no_cond_select)]
+    {
+        x | z
+    }
+    #[cfg(not(tidewire_no_cond_select))]
+    {
+        let _ = z;
+        core::hint::black_box(x)
+    }
+}
+
 /// `x` saturated to i16, the value of `x.clamp(i16::MIN, i16::MAX)`: the clamp (`SSAT` on
 /// the M4, `CMOV` on x86-64) where the target has a conditional select, else
 /// [`sat_i16_masked`].
@@ -52,8 +85,34 @@ pub(super) fn sat_i16(x: i32) -> i16 {
 #[cfg_attr(not(any(tidewire_no_cond_select, test)), allow(dead_code))]
 #[inline(always)]
 pub(super) fn sat_i16_masked(x: i32) -> i16 {
+    // The flag itself hidden: or-ed with a fresh veil it costs two instructions more where
+    // there is no node-wide veil to share (measured on the loss filters).
+    sat_i16_hiding(x, opaque)
+}
+
+/// [`sat_i16`] with the fit flag hidden by a caller's [`veil`] `z` (0 at run time) instead of
+/// its own [`opaque`]: on ARMv6-M [`sat_i16_masked`]'s value with one `ORRS` in place of a
+/// `black_box`; elsewhere the clamp.
+#[inline(always)]
+pub(super) fn sat_i16_veiled(x: i32, z: i32) -> i16 {
+    #[cfg(not(tidewire_no_cond_select))]
+    {
+        let _ = z;
+        x.clamp(i16::MIN as i32, i16::MAX as i32) as i16
+    }
+    #[cfg(tidewire_no_cond_select)]
+    {
+        sat_i16_hiding(x, |f| f | z)
+    }
+}
+
+/// The masked saturation of [`sat_i16_masked`], with the 0/1 flag passed through `hide`
+/// ([`opaque`], or an or with a [`veil`]) before it becomes the mask.
+#[cfg_attr(not(any(tidewire_no_cond_select, test)), allow(dead_code))]
+#[inline(always)]
+pub(super) fn sat_i16_hiding(x: i32, hide: impl FnOnce(i32) -> i32) -> i16 {
     let s = x >> 31;
-    let m = opaque(((x >> 15) != s) as i32).wrapping_neg();
+    let m = hide(((x >> 15) != s) as i32).wrapping_neg();
     let lim = s ^ i32::from(i16::MAX);
     (x ^ ((x ^ lim) & m)) as i16
 }
@@ -181,19 +240,33 @@ pub(super) fn floor_div64<const STEPS: usize>(mag: u64, recip: u32, shift: u32, 
 /// a 31-bit reciprocal from four products cost more on the M0 than the correction steps save.
 #[inline(always)]
 pub(super) fn floor_div32<const STEPS: usize>(mag: u32, recip: u32, shift: u32, total: u32) -> (u32, u32) {
+    floor_div32_veiled::<STEPS>(mag, recip, shift, total, veil())
+}
+
+/// [`floor_div32`] with its flags and `total` hidden by a caller's [`veil`] `z` (0 at run
+/// time): one veil per node instead of one `black_box` per correction step.
+#[inline(always)]
+pub(super) fn floor_div32_veiled<const STEPS: usize>(
+    mag: u32,
+    recip: u32,
+    shift: u32,
+    total: u32,
+    z: i32,
+) -> (u32, u32) {
+    let z = z as u32;
     let hi = mag >> 16;
     let lo = mag & 0xFFFF;
     let mut q = hi.wrapping_mul(recip).wrapping_add(lo.wrapping_mul(recip) >> 16).wrapping_shr(shift);
     let mut rem = mag.wrapping_sub(q.wrapping_mul(total));
-    // Opaque on ARMv6-M: with a known total (the specialised form) LLVM turns the sign test
+    // Veiled on ARMv6-M: with a known total (the specialised form) LLVM turns the sign test
     // below back into a compare with a constant, and a compare into a branch there.
-    let total = opaque(total);
+    let total = total | z;
     for _ in 0..STEPS {
         // rem >= total as 0/1 from a sign bit (a compare becomes a branch on ARMv6-M):
         // 0 <= rem <= mag < 2^31 (q is never above the floor) and total < 2^30, so
         // rem − total is exact as an i32, negative iff rem < total. The flag is hidden from
         // the optimizer before it becomes the mask −1/0 (else a select, a branch there).
-        let step = opaque(1 ^ (rem.wrapping_sub(total) >> 31));
+        let step = (1 ^ (rem.wrapping_sub(total) >> 31)) | z;
         q = q.wrapping_add(step);
         rem = rem.wrapping_sub(total & step.wrapping_neg());
     }

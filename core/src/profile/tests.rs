@@ -197,7 +197,11 @@ fn masked_saturation_equals_the_clamp_near_the_limits() {
     for c in centres {
         for d in -(1i32 << 17)..=(1 << 17) {
             let x = c.wrapping_add(d);
-            assert_eq!(sat_i16_masked(x), x.clamp(i16::MIN as i32, i16::MAX as i32) as i16, "{x}");
+            let want = x.clamp(i16::MIN as i32, i16::MAX as i32) as i16;
+            assert_eq!(sat_i16_masked(x), want, "{x}");
+            // The veiled form the narrow node runs (its veil is 0 at run time).
+            assert_eq!(sat_i16_hiding(x, |f| f | veil()), want, "{x}");
+            assert_eq!(sat_i16_veiled(x, veil()), want, "{x}");
         }
     }
 }
