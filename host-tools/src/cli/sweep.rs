@@ -1,6 +1,6 @@
 //! `tidewire sweep`: the command around `crate::analysis::sweep` (arguments, table, SVG).
 use super::{io_failure, Failure};
-use crate::analysis::sweep::{rise_of, sweep, Parameter, SweepError, SweepPoint};
+use crate::analysis::sweep::{rise_of, sweep, Parameter, SweepError};
 use crate::compile::ProfileKind;
 use crate::plant::units::{parse_quantity, UnitKind};
 use crate::plant::{load_plant, Plant};
@@ -127,9 +127,7 @@ pub(super) fn run(
         // samples long and its model (lumped sections, a fractional delay) carries the error:
         // say how long the failing segments are in samples, and what resolves them.
         if let (Parameter::Length(_), Some((_, v))) = (param, lc) {
-            let samples = |p: &&SweepPoint| p.value / v * plant.sample_rate;
-            let failing: Vec<f64> = pts.iter().filter(|p| !p.pass).map(|p| samples(&p)).collect();
-            let longest = failing.iter().copied().fold(0.0, f64::max);
+            let longest = pts.iter().filter(|p| !p.pass).map(|p| p.value / v * plant.sample_rate).fold(0.0, f64::max);
             if longest < SHORT_SAMPLES {
                 println!(
                     "   every failing point is a segment of at most {longest:.1} samples one way at {}: the short-line model \

@@ -211,7 +211,11 @@ fn hold_text(s: &mut String, c: &Compiled, h: &crate::verify::hold::HoldFigures)
             "   more than {} codes: the {} profile's rounding holds a limit cycle around this working point{}",
             crate::verify::hold::FEW_CODES,
             c.profile.name(),
-            if c.profile == ProfileKind::Narrow { " (the wide profile keeps 12 bits below the code)" } else { "" }
+            if c.profile == ProfileKind::Narrow {
+                format!(" (the wide profile keeps {} bits below the code)", crate::analysis::WIDE_IO_SHIFT)
+            } else {
+                String::new()
+            }
         );
     }
     h.outputs.iter().filter(|o| !o.pass).count()

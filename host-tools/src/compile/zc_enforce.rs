@@ -98,14 +98,18 @@ impl LineView<'_> {
 /// lines. Runs whose keys are the same set get the same result (the decision depends on
 /// nothing else), so a plant of many equal stubs enforces once ([`same_run`]).
 pub fn run_key(lines: &[LineView<'_>]) -> Vec<LineKey> {
-    let mut k: Vec<LineKey> = vec![];
+    distinct(lines).iter().map(|l| l.key()).collect()
+}
+
+/// The lines of a run, each distinct [`LineView::key`] once (the first of its kind).
+fn distinct<'a, 'b>(lines: &'a [LineView<'b>]) -> Vec<&'a LineView<'b>> {
+    let mut d: Vec<&LineView<'_>> = vec![];
     for l in lines {
-        let key = l.key();
-        if !k.contains(&key) {
-            k.push(key);
+        if !d.iter().any(|x| x.key() == l.key()) {
+            d.push(l);
         }
     }
-    k
+    d
 }
 
 /// Whether two [`run_key`]s hold the same lines (each key appears once in either).
@@ -339,12 +343,7 @@ pub fn enforce(cable: &CableType, fit: &ZcFit, lines: &[LineView<'_>], z0: f64, 
     let g = compiler_grid(fs);
     // The pieces of a run are mostly alike (same delay, same loss design): each distinct
     // one once.
-    let mut distinct: Vec<&LineView<'_>> = vec![];
-    for l in lines {
-        if !distinct.iter().any(|d| d.key() == l.key()) {
-            distinct.push(l);
-        }
-    }
+    let distinct = distinct(lines);
     let responses: Vec<Response> = distinct.iter().map(|l| Response::of(l, fs, frac, &g, true)).collect();
     let run = Run { views: &distinct, responses: &responses };
     let constant_error = targets.iter().map(|(_, t)| (z0 - t).norm() / t.norm()).fold(0.0, f64::max);

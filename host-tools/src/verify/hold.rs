@@ -13,10 +13,11 @@
 //! step / volts per code), and never tighter than [`FEW_CODES`]: a rig sees codes, and a
 //! band inside the final-value tolerance is one the plant's author has accepted. A PWM drive
 //! never holds a value: no check.
-use crate::compile::Compiled;
+use crate::compile::{Compiled, ProfileKind};
 use crate::host_core::{run_core_with, RunError, SampleOut};
 use crate::plant::Tolerances;
 use serde::Serialize;
+use tidewire_core::{Narrow, Profile, Wide};
 
 /// The band, in codes, that the check always accepts: "a few codes" [practice].
 pub const FEW_CODES: u32 = 4;
@@ -80,7 +81,7 @@ pub fn check(c: &Compiled, settles_to_dc: bool, tol: &Tolerances, step: f64) -> 
     let mut sink = |s: SampleOut<'_>| -> Result<(), RunError> {
         if s.n >= from {
             // The drive's code first, then each probe's I/O code.
-            let codes = std::iter::once(s.drive_out).chain(s.raw.iter().map(|&r| to_code(r, shift)));
+            let codes = std::iter::once(s.drive_out).chain(s.raw.iter().map(|&r| to_code(c.profile, r, shift)));
             for (k, code) in codes.enumerate() {
                 low[k] = low[k].min(code);
                 high[k] = high[k].max(code);
@@ -114,11 +115,13 @@ pub fn check(c: &Compiled, settles_to_dc: bool, tol: &Tolerances, step: f64) -> 
     }))
 }
 
-/// A probe's raw integer as the I/O code the core outputs: trunc(raw / 2^shift) toward zero,
-/// saturated to i16 (`Profile::to_code`).
-fn to_code(raw: i32, shift: u32) -> i16 {
-    let q = i64::from(raw) / (1i64 << shift.min(31));
-    q.clamp(i64::from(i16::MIN), i64::from(i16::MAX)) as i16
+/// A probe's raw integer as the I/O code the core outputs: the profile's own `to_code`
+/// (trunc(raw / 2^shift) toward zero, saturated to i16).
+fn to_code(profile: ProfileKind, raw: i32, shift: u32) -> i16 {
+    match profile {
+        ProfileKind::Wide => <Wide as Profile>::to_code(raw, shift),
+        ProfileKind::Narrow => <Narrow as Profile>::to_code(raw, shift),
+    }
 }
 
 #[cfg(test)]
@@ -127,12 +130,18 @@ mod tests {
 
     #[test]
     fn codes_truncate_toward_zero_and_saturate() {
-        assert_eq!(to_code(4095, 12), 0);
-        assert_eq!(to_code(4096, 12), 1);
-        assert_eq!(to_code(-4095, 12), 0);
-        assert_eq!(to_code(-8193, 12), -2);
-        assert_eq!(to_code(i32::MAX, 0), i16::MAX);
-        assert_eq!(to_code(i32::MIN, 0), i16::MIN);
+        let w = |raw| to_code(ProfileKind::Wide, raw, 12);
+        assert_eq!(w(4095), 0);
+        assert_eq!(w(4096), 1);
+        assert_eq!(w(-4095), 0);
+        assert_eq!(w(-8193), -2);
+        assert_eq!(w(i32::MAX), i16::MAX, "2^19 codes saturate");
+        assert_eq!(w(i32::MIN), i16::MIN);
+        assert_eq!(to_code(ProfileKind::Wide, i32::MAX, 0), i16::MAX);
+        assert_eq!(to_code(ProfileKind::Wide, i32::MIN, 0), i16::MIN);
+        assert_eq!(to_code(ProfileKind::Narrow, i32::MAX, 0), i16::MAX);
+        assert_eq!(to_code(ProfileKind::Narrow, i32::MIN, 0), i16::MIN);
+        assert_eq!(to_code(ProfileKind::Narrow, -7, 0), -7);
     }
 
     #[test]
