@@ -211,6 +211,19 @@ macro_rules! node_numerator {
 }
 pub(crate) use node_numerator;
 
+/// `Profile::branch_node{,_held}`'s exact N = 2·Σ g_k·b_k + g_src·e + link·r (as in `node_scatter`,
+/// weights <= total): (fl, q, nz) = (floor(N/total), floor(|N|/total), remainder != 0).
+macro_rules! linked_floor {
+    ($A:ty, $b:expr, $g:expr, $e:expr, $g_src:expr, $link:expr, $r:expr, $recip:expr, $shift:expr, $total:expr) => {{
+        let acc = $crate::profile::arith::node_numerator!($A, $b, $g, $e, $g_src, <$A as Acc>::mul($link, $r));
+        let (q, nz) = <$A as Acc>::floor_div_abs(acc, $recip, $shift, $total);
+        let neg = (acc < 0) as $A;
+        let mask = neg.wrapping_neg();
+        ((q.wrapping_add(nz & neg) ^ mask).wrapping_sub(mask), q, nz)
+    }};
+}
+pub(crate) use linked_floor;
+
 /// The hold rule's per-port choice, written once for the shunt-node hold
 /// (`Profile::node_scatter_held`) and the linked-node hold (`Profile::branch_node_held`):
 /// with the node's floor `fl`, q = floor(|v|) and the fraction flag `nz` in the accumulator
@@ -475,14 +488,8 @@ macro_rules! junction_rules {
             shift: u32,
             total: u64,
         ) {
-            // Σ g_k + g_src + link <= total <= 2^WEIGHT_BITS: the numerator is exact as in
-            // `node_scatter` (i64: <= 2^62; i32: <= 2^30).
             type A = $acc;
-            let acc = $crate::profile::arith::node_numerator!(A, b, g, e, g_src, <A as Acc>::mul(link, r));
-            let (q, nz) = <A as Acc>::floor_div_abs(acc, recip, shift, total);
-            let neg = (acc < 0) as A;
-            let mask = neg.wrapping_neg();
-            let fl = (q.wrapping_add(nz & neg) ^ mask).wrapping_sub(mask);
+            let (fl, _, nz) = $crate::profile::arith::linked_floor!(A, b, g, e, g_src, link, r, recip, shift, total);
             for (ak, bk) in a.iter_mut().zip(b.iter()) {
                 // As `node_scatter`: v − b = (fl − b) + frac, truncated toward zero.
                 let m = fl.wrapping_sub(A::from(*bk));
@@ -509,15 +516,10 @@ macro_rules! junction_rules {
                 // Never holds: the plain stage 3 (a branch on the configuration).
                 return Self::branch_node(b, g, a, e, g_src, link, r, recip, shift, total);
             }
-            // The numerator, the exact floor and the plain waves as in `branch_node` (same
-            // ranges); the hold as in `node_scatter_held`, branch-free, with q = floor(|v|)
-            // exact here (the linked node divides exactly in both profiles).
+            // The exact floor and the plain waves as in `branch_node`; the hold as in
+            // `node_scatter_held`, branch-free (q = floor(|v|) exact: both profiles divide).
             type A = $acc;
-            let acc = $crate::profile::arith::node_numerator!(A, b, g, e, g_src, <A as Acc>::mul(link, r));
-            let (q, nz) = <A as Acc>::floor_div_abs(acc, recip, shift, total);
-            let neg = (acc < 0) as A;
-            let mask = neg.wrapping_neg();
-            let fl = (q.wrapping_add(nz & neg) ^ mask).wrapping_sub(mask);
+            let (fl, q, nz) = $crate::profile::arith::linked_floor!(A, b, g, e, g_src, link, r, recip, shift, total);
             let plain = |bk: Self::Wave| {
                 let m = fl.wrapping_sub(A::from(bk));
                 $sat(m.wrapping_add(((m < 0) as A) & nz))
