@@ -37,6 +37,9 @@ pub struct FigureRow {
     pub solver_ram_bytes: u32,
     pub instructions_per_sample: f64,
     pub instructions_per_port_update: f64,
+    /// The slowest single sample of an 8192-sample run from rest: what a loop that must
+    /// meet every sample period has to budget for.
+    pub worst_instructions_per_sample: f64,
     /// Both stimuli took the same number of SysTick ticks at `-icount shift=0`.
     pub stimuli_equal: bool,
     /// Instructions of stimulus 1 minus stimulus 0 at `-icount shift=6` (0: data-independent).

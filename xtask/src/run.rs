@@ -5,13 +5,24 @@ use std::collections::BTreeMap;
 /// (profile, plant, form, seed index): which timed block.
 pub type TicksKey = (String, String, String, u32);
 
+/// One timed run: samples; ticks of the run with the step and of the stimulus loop alone (mod
+/// 2^24); the most ticks of one sample, with the step and alone.
+#[derive(Debug, Clone, Copy)]
+pub struct Ticks {
+    pub samples: u32,
+    pub total: u32,
+    pub base: u32,
+    pub worst: u32,
+    pub base_worst: u32,
+}
+
 /// Everything one QEMU run reported.
 #[derive(Debug, Default)]
 pub struct Report {
     /// (profile, plant, "source" | "image", seed index) → hash.
     pub hashes: BTreeMap<(String, String, String, u32), u32>,
-    /// (profile, plant, form, seed index) → (samples, ticks with step, ticks of the baseline loop).
-    pub ticks: BTreeMap<TicksKey, (u32, u32, u32)>,
+    /// (profile, plant, form, seed index) → the timed run.
+    pub ticks: BTreeMap<TicksKey, Ticks>,
     /// (profile, plant, form) → solver size in bytes.
     pub ram: BTreeMap<(String, String, String), u32>,
     /// Calibration: (cycles asked of `asm::delay`, ticks).
@@ -35,9 +46,17 @@ pub fn parse(text: &str) -> Report {
             Some("HASH") => hex(g(4)).zip(hex(g(5))).map(|(seed, h)| {
                 r.hashes.insert((key(1), key(2), key(3), seed), h);
             }),
-            Some("TICKS") => hex(g(4)).zip(hex(g(5))).zip(hex(g(6)).zip(hex(g(7)))).map(|((seed, n), (t, b))| {
-                r.ticks.insert((key(1), key(2), key(3), seed), (n, t, b));
-            }),
+            Some("TICKS") => (|| {
+                let t = Ticks {
+                    samples: hex(g(5))?,
+                    total: hex(g(6))?,
+                    base: hex(g(7))?,
+                    worst: hex(g(8))?,
+                    base_worst: hex(g(9))?,
+                };
+                r.ticks.insert((key(1), key(2), key(3), hex(g(4))?), t);
+                Some(())
+            })(),
             Some("RAM") => hex(g(4)).map(|b| {
                 r.ram.insert((key(1), key(2), key(3)), b);
             }),
