@@ -402,8 +402,9 @@ fn nodes_no_event_switches_are_fixed_and_say_so() {
 #[test]
 fn the_checked_runs_cross_the_ring_windows_wrap() {
     // The specialised rings live in a window of SPAN waves whose position wraps every SPAN
-    // samples, the upper half of the memory copied down (`emit/specialised/layout.rs`): the
-    // bit-exact runs above must cross that wrap, more than once, to prove the copy.
+    // samples, the waves in flight at the wrap read from their second copy one span lower
+    // (`emit/specialised/layout.rs`): the bit-exact runs above must cross that wrap, more
+    // than once, to prove the layout.
     for (name, span) in [
         ("every_kind_wide", every_kind_wide::specialised::SPAN),
         ("every_kind_narrow", every_kind_narrow::specialised::SPAN),

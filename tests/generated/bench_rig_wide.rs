@@ -64,8 +64,9 @@ pub mod specialised {
     type W = i32;
     /// The rings' span, waves: the window of one sample, and the period of its position.
     pub const SPAN: usize = 106;
-    /// Delay memory, waves: two windows (the upper half holds the waves in flight at a wrap).
-    pub const MEM: usize = 2 * SPAN;
+    /// Delay memory, waves: three spans (every write also lands one span lower, where the
+    /// next period reads the waves in flight at a wrap; see the layout in the emitter).
+    pub const MEM: usize = 3 * SPAN;
     const IO_SHIFT: u32 = 12;
     const EXPONENT: u32 = 46;
     const PROBES: usize = 3;
@@ -111,38 +112,46 @@ pub mod specialised {
             let n = self.n;
             let i = (self.i as usize).min(SPAN - 1);
             let e: W = P::from_code(input, IO_SHIFT);
-            let b0: W = self.mem[i + 0];
+            let b0: W = self.mem[i + 106];
             // rig port: the pin was read while the DAC showed the wave of `latency` samples ago
             self.hist[(n as usize) & (HIST - 1)] = b0;
             let rig_back = self.hist[(n.wrapping_sub(2) as usize) & (HIST - 1)];
             // junction 0: rig port, a = v − b[n − latency]
             let a0 = P::sub(e, rig_back);
+            self.mem[i + 130] = a0;
             self.mem[i + 24] = a0;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
-            let b1: W = self.mem[i + 7];
+            let b1: W = self.mem[i + 113];
             // junction 1: node of 1 port(s), fixed
             let [a1] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b1], &[586406201u32], &mut o, e, 0u32, 3932160003u32, 30u32, 1172812402u64); o };
+            self.mem[i + 211] = a1;
             self.mem[i + 105] = a1;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
-            let b2: W = self.mem[i + 16];
-            let b3: W = self.mem[i + 25];
+            let b2: W = self.mem[i + 122];
+            let b3: W = self.mem[i + 131];
             // junction 2: series resistor, c = 1053260299
             let (a2, a3) = P::series(b2, b3, 1053260299u32);
+            self.mem[i + 112] = a2;
             self.mem[i + 6] = a2;
+            self.mem[i + 166] = a3;
             self.mem[i + 60] = a3;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
-            let b4: W = self.mem[i + 43];
-            let b5: W = self.mem[i + 61];
+            let b4: W = self.mem[i + 149];
+            let b5: W = self.mem[i + 167];
             // junction 3: series resistor, c = 1053260299
             let (a4, a5) = P::series(b4, b5, 1053260299u32);
+            self.mem[i + 148] = a4;
             self.mem[i + 42] = a4;
+            self.mem[i + 202] = a5;
             self.mem[i + 96] = a5;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
-            let b6: W = self.mem[i + 79];
-            let b7: W = self.mem[i + 97];
+            let b6: W = self.mem[i + 185];
+            let b7: W = self.mem[i + 203];
             // junction 4: series resistor, c = 1053260299
             let (a6, a7) = P::series(b6, b7, 1053260299u32);
+            self.mem[i + 184] = a6;
             self.mem[i + 78] = a6;
+            self.mem[i + 121] = a7;
             self.mem[i + 15] = a7;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a0, rig_back);
@@ -150,12 +159,7 @@ pub mod specialised {
             self.probes[2] = P::diff(a0, rig_back);
             let output = P::to_code(P::sum(b0, b0), IO_SHIFT);
             self.n = n.wrapping_add(1);
-            if i + 1 < SPAN {
-                self.i = (i + 1) as u32;
-            } else {
-                self.mem.copy_within(SPAN..MEM, 0);
-                self.i = 0;
-            }
+            self.i = if i + 1 < SPAN { (i + 1) as u32 } else { 0 };
             output
         }
 
@@ -169,7 +173,7 @@ pub mod specialised {
 
         fn rig_drive(&self) -> i16 {
             let i = (self.i as usize).min(SPAN - 1);
-            let b: W = self.mem[i + 0];
+            let b: W = self.mem[i + 106];
             P::to_code(P::sum(b, b), IO_SHIFT)
         }
 

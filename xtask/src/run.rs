@@ -5,15 +5,16 @@ use std::collections::BTreeMap;
 /// (profile, plant, form, seed index): which timed block.
 pub type TicksKey = (String, String, String, u32);
 
-/// One timed run: samples; ticks of the run with the step and of the stimulus loop alone (mod
-/// 2^24); the most ticks of one sample, with the step and alone.
+/// One timed run: samples; ticks of the run (mod 2^24); the most ticks of one sample, with the
+/// step and of the stimulus loop alone; the sums of the samples' own readings, the same two.
 #[derive(Debug, Clone, Copy)]
 pub struct Ticks {
     pub samples: u32,
     pub total: u32,
-    pub base: u32,
     pub worst: u32,
     pub base_worst: u32,
+    pub sum: u32,
+    pub base_sum: u32,
 }
 
 /// Everything one QEMU run reported.
@@ -50,9 +51,10 @@ pub fn parse(text: &str) -> Report {
                 let t = Ticks {
                     samples: hex(g(5))?,
                     total: hex(g(6))?,
-                    base: hex(g(7))?,
-                    worst: hex(g(8))?,
-                    base_worst: hex(g(9))?,
+                    worst: hex(g(7))?,
+                    base_worst: hex(g(8))?,
+                    sum: hex(g(9))?,
+                    base_sum: hex(g(10))?,
                 };
                 r.ticks.insert((key(1), key(2), key(3), hex(g(4))?), t);
                 Some(())

@@ -76,10 +76,11 @@ pub fn row(
     };
     let (c0, c1, f0, f1) = (get(coarse, 0)?, get(coarse, 1)?, get(fine, 0)?, get(fine, 1)?);
     let n = c0.samples;
-    let per_sample = instructions(part, f64::from(c0.total) - f64::from(c0.base), 0) / f64::from(n);
-    // The slowest sample, from the fine run: at shift 6 one instruction is longer than one
-    // tick on both parts, so a single sample's reading resolves one instruction. Both stimuli:
-    // the larger.
+    // From the fine run: at shift 6 one instruction is longer than one tick on both parts, so
+    // a single sample's reading resolves one instruction. The average is the sum of the
+    // samples' own readings (the loop between them is not the step's); the slowest sample of
+    // both stimuli is the larger.
+    let per_sample = instructions(part, f64::from(f0.sum) - f64::from(f0.base_sum), 6) / f64::from(n);
     let worst = [f0, f1]
         .iter()
         .map(|t| instructions(part, f64::from(t.worst) - f64::from(t.base_worst), 6))
@@ -131,8 +132,8 @@ pub fn print(rows: &[Row], clocks: &[(&str, f64)]) {
         );
     }
     println!(
-        "\n({} samples per timed run from rest; the stimulus loop alone is subtracted; worst sample: \
-         the slowest single sample of the runs, less the stimulus loop's slowest)",
+        "\n({} samples per timed run from rest, every sample read at -icount shift=6: the average \
+         from their sum, the worst sample from the largest; the stimulus loop's are subtracted)",
         rows.first().map_or(0, |r| r.samples)
     );
 }
@@ -142,10 +143,10 @@ pub fn figures(rows: &[Row]) -> crate::figures::Figures {
     crate::figures::Figures {
         command: "cargo run -p xtask -- firmware".into(),
         method: format!(
-            "QEMU -icount shift=0, SysTick around {}-sample runs from rest, the stimulus loop \
-             subtracted; the worst sample: SysTick around every sample of those runs at -icount \
-             shift=6, the stimulus loop's slowest subtracted; data independence at -icount \
-             shift=6 (docs/firmware.md)",
+            "QEMU -icount shift=6, SysTick around every sample of {}-sample runs from rest: the \
+             average from the sum of the samples' readings, the worst sample from the largest, the \
+             stimulus loop's sum and largest subtracted; data independence: equal run totals at \
+             -icount shift=0 and shift 6 (docs/firmware.md)",
             rows.first().map_or(0, |r| r.samples)
         ),
         rows: rows

@@ -99,8 +99,9 @@ pub mod specialised {
     type W = i16;
     /// The rings' span, waves: the window of one sample, and the period of its position.
     pub const SPAN: usize = 156;
-    /// Delay memory, waves: two windows (the upper half holds the waves in flight at a wrap).
-    pub const MEM: usize = 2 * SPAN;
+    /// Delay memory, waves: three spans (every write also lands one span lower, where the
+    /// next period reads the waves in flight at a wrap; see the layout in the emitter).
+    pub const MEM: usize = 3 * SPAN;
     const IO_SHIFT: u32 = 0;
     const EXPONENT: u32 = 28;
     const PROBES: usize = 4;
@@ -153,6 +154,7 @@ pub mod specialised {
             // junction 0: node of 1 port(s), fixed
             let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[2637u32], &mut o, e, 5368u32, 33533u32, 12u32, 8005u64); o };
             let line0 = P::zc_post(a0, b0, self.zcc[0], &mut self.zcs[0], &[-5680, 12704, 15814, 16318], &[180, 59, 21, 10], 4);
+            self.mem[i + 266] = line0;
             self.mem[i + 110] = line0;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b1: W = self.b[1];
@@ -163,15 +165,20 @@ pub mod specialised {
             // junction 1: node of 5 port(s), fixed
             let [a1, a2, a3, a4, a5] = { let mut o = [self.held[0], self.held[1], self.held[2], self.held[3], self.held[4]]; P::node_scatter_held(&[b1, b2, b3, b4, b5], &[2637u32, 3579u32, 3579u32, 2628u32, 3579u32], &mut o, e, 0u32, 33550u32, 13u32, 16002u64, 4294967295u32); o };
             let line1 = P::zc_post(a1, b1, self.zcc[7], &mut self.zcs[7], &[-5680, 12704, 15814, 16318], &[180, 59, 21, 10], 4);
+            self.mem[i + 292] = line1;
             self.mem[i + 136] = line1;
             self.held[0] = a1;
+            self.mem[i + 202] = a2;
             self.mem[i + 46] = a2;
             self.held[1] = a2;
+            self.mem[i + 206] = a3;
             self.mem[i + 50] = a3;
             self.held[2] = a3;
             let line4 = P::zc_post(a4, b4, self.zcc[8], &mut self.zcs[8], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
+            self.mem[i + 301] = line4;
             self.mem[i + 145] = line4;
             self.held[3] = a4;
+            self.mem[i + 241] = a5;
             self.mem[i + 85] = a5;
             self.held[4] = a5;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
@@ -179,6 +186,7 @@ pub mod specialised {
             // junction 2: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
             let [a6] = if c.scatters() { { let mut o = [self.held[5]]; P::node_scatter_held(&[b6], &[3579u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b6] } else { [P::neg(b6)] };
+            self.mem[i + 177] = a6;
             self.mem[i + 21] = a6;
             self.held[5] = a6;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
@@ -186,6 +194,7 @@ pub mod specialised {
             // junction 3: node of 1 port(s), switched by the plant's events
             let c = self.nodes[1];
             let [a7] = if c.scatters() { { let mut o = [self.held[6]]; P::node_scatter_held(&[b7], &[3579u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b7] } else { [P::neg(b7)] };
+            self.mem[i + 181] = a7;
             self.mem[i + 25] = a7;
             self.held[6] = a7;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
@@ -195,10 +204,13 @@ pub mod specialised {
             // junction 4: node of 3 port(s), fixed
             let [a8, a9, a10] = { let mut o = [self.held[7], self.held[8], self.held[9]]; P::node_scatter_held(&[b8, b9, b10], &[2628u32, 3579u32, 3579u32], &mut o, e, 0u32, 34643u32, 13u32, 15497u64, 4u32); o };
             let line8 = P::zc_post(a8, b8, self.zcc[15], &mut self.zcs[15], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
+            self.mem[i + 311] = line8;
             self.mem[i + 155] = line8;
             self.held[7] = a8;
+            self.mem[i + 222] = a9;
             self.mem[i + 66] = a9;
             self.held[8] = a9;
+            self.mem[i + 228] = a10;
             self.mem[i + 72] = a10;
             self.held[9] = a10;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
@@ -206,6 +218,7 @@ pub mod specialised {
             let b12: W = self.b[12];
             // junction 5: node of 2 port(s), fixed
             let [a11, a12] = { let mut o = [self.held[10], self.held[11]]; P::node_scatter_held(&[b11, b12], &[3579u32, 5368u32], &mut o, e, 0u32, 60005u32, 13u32, 8947u64, 4294967295u32); o };
+            self.mem[i + 213] = a11;
             self.mem[i + 57] = a11;
             self.held[10] = a11;
             let a12 = P::adapt(b12, a12, 16384u32, false);
@@ -216,6 +229,7 @@ pub mod specialised {
             let b14: W = self.b[14];
             // junction 6: node of 2 port(s), fixed
             let [a13, a14] = { let mut o = [self.held[12], self.held[13]]; P::node_scatter_held(&[b13, b14], &[3579u32, 2147u32], &mut o, e, 0u32, 46880u32, 12u32, 5726u64, 4294967295u32); o };
+            self.mem[i + 219] = a13;
             self.mem[i + 63] = a13;
             self.held[12] = a13;
             let a14 = P::adapt(b14, a14, 655u32, false);
@@ -226,6 +240,7 @@ pub mod specialised {
             let b16: W = self.b[16];
             // junction 7: node of 2 port(s), fixed
             let [a15, a16] = { let mut o = [self.held[14], self.held[15]]; P::node_scatter_held(&[b15, b16], &[3579u32, 11811u32], &mut o, e, 0u32, 34287u32, 13u32, 15658u64, 115u32); o };
+            self.mem[i + 197] = a15;
             self.mem[i + 41] = a15;
             self.held[14] = a15;
             let a16 = P::adapt(b16, a16, 16384u32, false);
@@ -238,8 +253,10 @@ pub mod specialised {
             let (a17, a18, s0) = P::series_l(b17, b18, self.chokes[0], 1457u32, 6732u32);
             self.chokes[0] = s0;
             let line17 = P::zc_post(a17, b17, self.zcc[3], &mut self.zcs[3], &[-5680, 12704, 15814, 16318], &[180, 59, 21, 10], 4);
+            self.mem[i + 273] = line17;
             self.mem[i + 117] = line17;
             let line18 = P::zc_post(a18, b18, self.zcc[4], &mut self.zcs[4], &[-5680, 12704, 15814, 16318], &[180, 59, 21, 10], 4);
+            self.mem[i + 283] = line18;
             self.mem[i + 127] = line18;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b19: W = self.b[19];
@@ -247,8 +264,10 @@ pub mod specialised {
             // junction 9: series resistor, c = 16224
             let (a19, a20) = P::series(b19, b20, 16224u32);
             let line19 = P::zc_post(a19, b19, self.zcc[1], &mut self.zcs[1], &[-5680, 12704, 15814, 16318], &[180, 59, 21, 10], 4);
+            self.mem[i + 163] = line19;
             self.mem[i + 7] = line19;
             let line20 = P::zc_post(a20, b20, self.zcc[2], &mut self.zcs[2], &[-5680, 12704, 15814, 16318], &[180, 59, 21, 10], 4);
+            self.mem[i + 248] = line20;
             self.mem[i + 92] = line20;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b21: W = self.b[21];
@@ -256,8 +275,10 @@ pub mod specialised {
             // junction 10: series resistor, c = 16161
             let (a21, a22) = P::series(b21, b22, 16161u32);
             let line21 = P::zc_post(a21, b21, self.zcc[5], &mut self.zcs[5], &[-5680, 12704, 15814, 16318], &[180, 59, 21, 10], 4);
+            self.mem[i + 258] = line21;
             self.mem[i + 102] = line21;
             let line22 = P::zc_post(a22, b22, self.zcc[6], &mut self.zcs[6], &[-5680, 12704, 15814, 16318], &[180, 59, 21, 10], 4);
+            self.mem[i + 172] = line22;
             self.mem[i + 16] = line22;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b23: W = self.b[23];
@@ -266,9 +287,11 @@ pub mod specialised {
             let c = self.nodes[2];
             let [a23, a24] = if c.scatters() { { let mut o = [self.held[16], self.held[17]]; P::node_scatter_held(&[b23, b24], &[2628u32, 2628u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b23, b24] } else { [P::neg(b23), P::neg(b24)] };
             let line23 = P::zc_post(a23, b23, self.zcc[11], &mut self.zcs[11], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
+            self.mem[i + 304] = line23;
             self.mem[i + 148] = line23;
             self.held[16] = a23;
             let line24 = P::zc_post(a24, b24, self.zcc[12], &mut self.zcs[12], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
+            self.mem[i + 307] = line24;
             self.mem[i + 151] = line24;
             self.held[17] = a24;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
@@ -277,8 +300,10 @@ pub mod specialised {
             // junction 12: series resistor, c = 16332
             let (a25, a26) = P::series(b25, b26, 16332u32);
             let line25 = P::zc_post(a25, b25, self.zcc[9], &mut self.zcs[9], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
+            self.mem[i + 184] = line25;
             self.mem[i + 28] = line25;
             let line26 = P::zc_post(a26, b26, self.zcc[10], &mut self.zcs[10], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
+            self.mem[i + 295] = line26;
             self.mem[i + 139] = line26;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b27: W = self.b[27];
@@ -286,8 +311,10 @@ pub mod specialised {
             // junction 13: series resistor, c = 16307
             let (a27, a28) = P::series(b27, b28, 16307u32);
             let line27 = P::zc_post(a27, b27, self.zcc[13], &mut self.zcs[13], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
+            self.mem[i + 298] = line27;
             self.mem[i + 142] = line27;
             let line28 = P::zc_post(a28, b28, self.zcc[14], &mut self.zcs[14], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
+            self.mem[i + 210] = line28;
             self.mem[i + 54] = line28;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a0, b0);
@@ -295,7 +322,7 @@ pub mod specialised {
             self.probes[2] = P::sum(a15, b15);
             self.probes[3] = P::diff(a4, b4);
             let output = P::to_code(P::sum(a0, b0), IO_SHIFT);
-            let mut x: W = self.mem[i + 1];
+            let mut x: W = self.mem[i + 157];
             let mut x1: W = self.lx[0];
             self.lx[0] = x;
             let y1: W = self.ly[0];
@@ -337,7 +364,7 @@ pub mod specialised {
             self.zcc[0] = c;
             x = bp;
             self.b[0] = x;
-            let mut x: W = self.mem[i + 104];
+            let mut x: W = self.mem[i + 260];
             let mut x1: W = self.lx[1];
             self.lx[1] = x;
             let y1: W = self.ly[6];
@@ -379,7 +406,7 @@ pub mod specialised {
             self.zcc[1] = c;
             x = bp;
             self.b[19] = x;
-            let mut x: W = self.mem[i + 112];
+            let mut x: W = self.mem[i + 268];
             let mut x1: W = self.lx[2];
             self.lx[2] = x;
             let y1: W = self.ly[12];
@@ -421,7 +448,7 @@ pub mod specialised {
             self.zcc[2] = c;
             x = bp;
             self.b[20] = x;
-            let mut x: W = self.mem[i + 87];
+            let mut x: W = self.mem[i + 243];
             let mut x1: W = self.lx[3];
             self.lx[3] = x;
             let y1: W = self.ly[18];
@@ -463,7 +490,7 @@ pub mod specialised {
             self.zcc[3] = c;
             x = bp;
             self.b[17] = x;
-            let mut x: W = self.mem[i + 94];
+            let mut x: W = self.mem[i + 250];
             let mut x1: W = self.lx[4];
             self.lx[4] = x;
             let y1: W = self.ly[24];
@@ -508,7 +535,7 @@ pub mod specialised {
             self.zcc[4] = c;
             x = bp;
             self.b[18] = x;
-            let mut x: W = self.mem[i + 119];
+            let mut x: W = self.mem[i + 275];
             let mut x1: W = self.lx[5];
             self.lx[5] = x;
             let y1: W = self.ly[30];
@@ -553,7 +580,7 @@ pub mod specialised {
             self.zcc[5] = c;
             x = bp;
             self.b[21] = x;
-            let mut x: W = self.mem[i + 129];
+            let mut x: W = self.mem[i + 285];
             let mut x1: W = self.lx[6];
             self.lx[6] = x;
             let y1: W = self.ly[36];
@@ -595,7 +622,7 @@ pub mod specialised {
             self.zcc[6] = c;
             x = bp;
             self.b[22] = x;
-            let mut x: W = self.mem[i + 9];
+            let mut x: W = self.mem[i + 165];
             let mut x1: W = self.lx[7];
             self.lx[7] = x;
             let y1: W = self.ly[42];
@@ -637,27 +664,27 @@ pub mod specialised {
             self.zcc[7] = c;
             x = bp;
             self.b[1] = x;
-            let mut x: W = self.mem[i + 18];
+            let mut x: W = self.mem[i + 174];
             let (y, s_next) = P::allpass(x, self.aps[2], -28i32, 16383u32);
             self.aps[2] = s_next;
             x = y;
             self.b[2] = x;
-            let mut x: W = self.mem[i + 43];
+            let mut x: W = self.mem[i + 199];
             let (y, s_next) = P::allpass(x, self.aps[3], -28i32, 16383u32);
             self.aps[3] = s_next;
             x = y;
             self.b[6] = x;
-            let mut x: W = self.mem[i + 23];
+            let mut x: W = self.mem[i + 179];
             let (y, s_next) = P::allpass(x, self.aps[4], 2312i32, 16219u32);
             self.aps[4] = s_next;
             x = y;
             self.b[3] = x;
-            let mut x: W = self.mem[i + 48];
+            let mut x: W = self.mem[i + 204];
             let (y, s_next) = P::allpass(x, self.aps[5], 2312i32, 16219u32);
             self.aps[5] = s_next;
             x = y;
             self.b[7] = x;
-            let mut x: W = self.mem[i + 27];
+            let mut x: W = self.mem[i + 183];
             let mut x1: W = self.lx[8];
             self.lx[8] = x;
             let y1: W = self.ly[48];
@@ -699,7 +726,7 @@ pub mod specialised {
             self.zcc[8] = c;
             x = bp;
             self.b[4] = x;
-            let mut x: W = self.mem[i + 144];
+            let mut x: W = self.mem[i + 300];
             let mut x1: W = self.lx[9];
             self.lx[9] = x;
             let y1: W = self.ly[54];
@@ -741,7 +768,7 @@ pub mod specialised {
             self.zcc[9] = c;
             x = bp;
             self.b[25] = x;
-            let mut x: W = self.mem[i + 147];
+            let mut x: W = self.mem[i + 303];
             let mut x1: W = self.lx[10];
             self.lx[10] = x;
             let y1: W = self.ly[60];
@@ -783,7 +810,7 @@ pub mod specialised {
             self.zcc[10] = c;
             x = bp;
             self.b[26] = x;
-            let mut x: W = self.mem[i + 138];
+            let mut x: W = self.mem[i + 294];
             let mut x1: W = self.lx[11];
             self.lx[11] = x;
             let y1: W = self.ly[66];
@@ -825,7 +852,7 @@ pub mod specialised {
             self.zcc[11] = c;
             x = bp;
             self.b[23] = x;
-            let mut x: W = self.mem[i + 141];
+            let mut x: W = self.mem[i + 297];
             let mut x1: W = self.lx[12];
             self.lx[12] = x;
             let y1: W = self.ly[72];
@@ -870,7 +897,7 @@ pub mod specialised {
             self.zcc[12] = c;
             x = bp;
             self.b[24] = x;
-            let mut x: W = self.mem[i + 150];
+            let mut x: W = self.mem[i + 306];
             let mut x1: W = self.lx[13];
             self.lx[13] = x;
             let y1: W = self.ly[78];
@@ -915,7 +942,7 @@ pub mod specialised {
             self.zcc[13] = c;
             x = bp;
             self.b[27] = x;
-            let mut x: W = self.mem[i + 153];
+            let mut x: W = self.mem[i + 309];
             let mut x1: W = self.lx[14];
             self.lx[14] = x;
             let y1: W = self.ly[84];
@@ -957,7 +984,7 @@ pub mod specialised {
             self.zcc[14] = c;
             x = bp;
             self.b[28] = x;
-            let mut x: W = self.mem[i + 52];
+            let mut x: W = self.mem[i + 208];
             let mut x1: W = self.lx[15];
             self.lx[15] = x;
             let y1: W = self.ly[90];
@@ -999,43 +1026,38 @@ pub mod specialised {
             self.zcc[15] = c;
             x = bp;
             self.b[8] = x;
-            let mut x: W = self.mem[i + 56];
+            let mut x: W = self.mem[i + 212];
             let (y, s_next) = P::allpass(x, self.aps[8], 694i32, 16369u32);
             self.aps[8] = s_next;
             x = y;
             self.b[9] = x;
-            let mut x: W = self.mem[i + 65];
+            let mut x: W = self.mem[i + 221];
             let (y, s_next) = P::allpass(x, self.aps[9], 694i32, 16369u32);
             self.aps[9] = s_next;
             x = y;
             self.b[11] = x;
-            let mut x: W = self.mem[i + 59];
+            let mut x: W = self.mem[i + 215];
             let (y, s_next) = P::allpass(x, self.aps[10], -1848i32, 16279u32);
             self.aps[10] = s_next;
             x = y;
             self.b[10] = x;
-            let mut x: W = self.mem[i + 68];
+            let mut x: W = self.mem[i + 224];
             let (y, s_next) = P::allpass(x, self.aps[11], -1848i32, 16279u32);
             self.aps[11] = s_next;
             x = y;
             self.b[13] = x;
-            let mut x: W = self.mem[i + 30];
+            let mut x: W = self.mem[i + 186];
             let (y, s_next) = P::allpass(x, self.aps[12], 5336i32, 15490u32);
             self.aps[12] = s_next;
             x = y;
             self.b[5] = x;
-            let mut x: W = self.mem[i + 74];
+            let mut x: W = self.mem[i + 230];
             let (y, s_next) = P::allpass(x, self.aps[13], 5336i32, 15490u32);
             self.aps[13] = s_next;
             x = y;
             self.b[15] = x;
             self.n = n.wrapping_add(1);
-            if i + 1 < SPAN {
-                self.i = (i + 1) as u32;
-            } else {
-                self.mem.copy_within(SPAN..MEM, 0);
-                self.i = 0;
-            }
+            self.i = if i + 1 < SPAN { (i + 1) as u32 } else { 0 };
             output
         }
 

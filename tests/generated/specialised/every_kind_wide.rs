@@ -99,8 +99,9 @@ pub mod specialised {
     type W = i32;
     /// The rings' span, waves: the window of one sample, and the period of its position.
     pub const SPAN: usize = 156;
-    /// Delay memory, waves: two windows (the upper half holds the waves in flight at a wrap).
-    pub const MEM: usize = 2 * SPAN;
+    /// Delay memory, waves: three spans (every write also lands one span lower, where the
+    /// next period reads the waves in flight at a wrap; see the layout in the emitter).
+    pub const MEM: usize = 3 * SPAN;
     const IO_SHIFT: u32 = 12;
     const EXPONENT: u32 = 44;
     const PROBES: usize = 4;
@@ -153,6 +154,7 @@ pub mod specialised {
             // junction 0: node of 1 port(s), fixed
             let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[172841819u32], &mut o, e, 351843720u32, 2197357119u32, 28u32, 524685539u64); o };
             let line0 = P::zc_post(a0, b0, self.zcc[0], &mut self.zcs[0], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
+            self.mem[i + 266] = line0;
             self.mem[i + 110] = line0;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b1: W = self.b[1];
@@ -163,17 +165,23 @@ pub mod specialised {
             // junction 1: node of 5 port(s), fixed
             let [a1, a2, a3, a4, a5] = { let mut o = [P::ZERO; 5]; P::node_scatter(&[b1, b2, b3, b4, b5], &[172841819u32, 234562480u32, 234562480u32, 172200605u32, 234562480u32], &mut o, e, 0u32, 2198700626u32, 29u32, 1048729864u64); o };
             let line1 = P::zc_post(a1, b1, self.zcc[7], &mut self.zcs[7], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
+            self.mem[i + 292] = line1;
             self.mem[i + 136] = line1;
+            self.mem[i + 202] = a2;
             self.mem[i + 46] = a2;
+            self.mem[i + 206] = a3;
             self.mem[i + 50] = a3;
             let line4 = P::zc_post(a4, b4, self.zcc[8], &mut self.zcs[8], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
+            self.mem[i + 301] = line4;
             self.mem[i + 145] = line4;
+            self.mem[i + 241] = a5;
             self.mem[i + 85] = a5;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b6: W = self.b[6];
             // junction 2: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
             let [a6] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b6], &[234562480u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b6] } else { [P::neg(b6)] };
+            self.mem[i + 177] = a6;
             self.mem[i + 21] = a6;
             self.held[0] = a6;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
@@ -181,6 +189,7 @@ pub mod specialised {
             // junction 3: node of 1 port(s), switched by the plant's events
             let c = self.nodes[1];
             let [a7] = if c.scatters() { { let mut o = [self.held[1]]; P::node_scatter_held(&[b7], &[234562480u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b7] } else { [P::neg(b7)] };
+            self.mem[i + 181] = a7;
             self.mem[i + 25] = a7;
             self.held[1] = a7;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
@@ -190,14 +199,18 @@ pub mod specialised {
             // junction 4: node of 3 port(s), fixed
             let [a8, a9, a10] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b8, b9, b10], &[172200605u32, 234562480u32, 234562480u32], &mut o, e, 0u32, 2270363147u32, 29u32, 1015627395u64); o };
             let line8 = P::zc_post(a8, b8, self.zcc[15], &mut self.zcs[15], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
+            self.mem[i + 311] = line8;
             self.mem[i + 155] = line8;
+            self.mem[i + 222] = a9;
             self.mem[i + 66] = a9;
+            self.mem[i + 228] = a10;
             self.mem[i + 72] = a10;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b11: W = self.b[11];
             let b12: W = self.b[12];
             // junction 5: node of 2 port(s), fixed
             let [a11, a12] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b11, b12], &[234562480u32, 351843720u32], &mut o, e, 0u32, 3932160009u32, 29u32, 586406200u64); o };
+            self.mem[i + 213] = a11;
             self.mem[i + 57] = a11;
             let a12 = P::adapt(b12, a12, 1073741824u32, false);
             self.b[12] = a12;
@@ -206,6 +219,7 @@ pub mod specialised {
             let b14: W = self.b[14];
             // junction 6: node of 2 port(s), fixed
             let [a13, a14] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b13, b14], &[234562480u32, 140737488u32], &mut o, e, 0u32, 3072000007u32, 28u32, 375299968u64); o };
+            self.mem[i + 219] = a13;
             self.mem[i + 63] = a13;
             let a14 = P::adapt(b14, a14, 42949672u32, false);
             self.b[14] = a14;
@@ -214,6 +228,7 @@ pub mod specialised {
             let b16: W = self.b[16];
             // junction 7: node of 2 port(s), fixed
             let [a15, a16] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b15, b16], &[234562480u32, 774065474u32], &mut o, e, 0u32, 2246928236u32, 29u32, 1026220140u64); o };
+            self.mem[i + 197] = a15;
             self.mem[i + 41] = a15;
             let a16 = P::adapt(b16, a16, 1073741824u32, false);
             self.b[16] = a16;
@@ -224,8 +239,10 @@ pub mod specialised {
             let (a17, a18, s0) = P::series_l(b17, b18, self.chokes[0], 95542468u32, 441187638u32);
             self.chokes[0] = s0;
             let line17 = P::zc_post(a17, b17, self.zcc[3], &mut self.zcs[3], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
+            self.mem[i + 273] = line17;
             self.mem[i + 117] = line17;
             let line18 = P::zc_post(a18, b18, self.zcc[4], &mut self.zcs[4], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
+            self.mem[i + 283] = line18;
             self.mem[i + 127] = line18;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b19: W = self.b[19];
@@ -233,8 +250,10 @@ pub mod specialised {
             // junction 9: series resistor, c = 1063295035
             let (a19, a20) = P::series(b19, b20, 1063295035u32);
             let line19 = P::zc_post(a19, b19, self.zcc[1], &mut self.zcs[1], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
+            self.mem[i + 163] = line19;
             self.mem[i + 7] = line19;
             let line20 = P::zc_post(a20, b20, self.zcc[2], &mut self.zcs[2], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
+            self.mem[i + 248] = line20;
             self.mem[i + 92] = line20;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b21: W = self.b[21];
@@ -242,8 +261,10 @@ pub mod specialised {
             // junction 10: series resistor, c = 1059173017
             let (a21, a22) = P::series(b21, b22, 1059173017u32);
             let line21 = P::zc_post(a21, b21, self.zcc[5], &mut self.zcs[5], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
+            self.mem[i + 258] = line21;
             self.mem[i + 102] = line21;
             let line22 = P::zc_post(a22, b22, self.zcc[6], &mut self.zcs[6], &[-372152702, 832698354, 1036387148, 1069545176], &[11803031, 3869781, 1394668, 687663], 4);
+            self.mem[i + 172] = line22;
             self.mem[i + 16] = line22;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b23: W = self.b[23];
@@ -252,9 +273,11 @@ pub mod specialised {
             let c = self.nodes[2];
             let [a23, a24] = if c.scatters() { { let mut o = [self.held[2], self.held[3]]; P::node_scatter_held(&[b23, b24], &[172200605u32, 172200605u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b23, b24] } else { [P::neg(b23), P::neg(b24)] };
             let line23 = P::zc_post(a23, b23, self.zcc[11], &mut self.zcs[11], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
+            self.mem[i + 304] = line23;
             self.mem[i + 148] = line23;
             self.held[2] = a23;
             let line24 = P::zc_post(a24, b24, self.zcc[12], &mut self.zcs[12], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
+            self.mem[i + 307] = line24;
             self.mem[i + 151] = line24;
             self.held[3] = a24;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
@@ -263,8 +286,10 @@ pub mod specialised {
             // junction 12: series resistor, c = 1070389032
             let (a25, a26) = P::series(b25, b26, 1070389032u32);
             let line25 = P::zc_post(a25, b25, self.zcc[9], &mut self.zcs[9], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
+            self.mem[i + 184] = line25;
             self.mem[i + 28] = line25;
             let line26 = P::zc_post(a26, b26, self.zcc[10], &mut self.zcs[10], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
+            self.mem[i + 295] = line26;
             self.mem[i + 139] = line26;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b27: W = self.b[27];
@@ -272,8 +297,10 @@ pub mod specialised {
             // junction 13: series resistor, c = 1068720477
             let (a27, a28) = P::series(b27, b28, 1068720477u32);
             let line27 = P::zc_post(a27, b27, self.zcc[13], &mut self.zcs[13], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
+            self.mem[i + 298] = line27;
             self.mem[i + 142] = line27;
             let line28 = P::zc_post(a28, b28, self.zcc[14], &mut self.zcs[14], &[-372152702, 832698354, 1036387148, 1069545176], &[10401253, 3410189, 1229031, 695182], 4);
+            self.mem[i + 210] = line28;
             self.mem[i + 54] = line28;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a0, b0);
@@ -281,7 +308,7 @@ pub mod specialised {
             self.probes[2] = P::sum(a15, b15);
             self.probes[3] = P::diff(a4, b4);
             let output = P::to_code(P::sum(a0, b0), IO_SHIFT);
-            let mut x: W = self.mem[i + 1];
+            let mut x: W = self.mem[i + 157];
             let mut x1: W = self.lx[0];
             self.lx[0] = x;
             let y1: W = self.ly[0];
@@ -323,7 +350,7 @@ pub mod specialised {
             self.zcc[0] = c;
             x = bp;
             self.b[0] = x;
-            let mut x: W = self.mem[i + 104];
+            let mut x: W = self.mem[i + 260];
             let mut x1: W = self.lx[1];
             self.lx[1] = x;
             let y1: W = self.ly[6];
@@ -365,7 +392,7 @@ pub mod specialised {
             self.zcc[1] = c;
             x = bp;
             self.b[19] = x;
-            let mut x: W = self.mem[i + 112];
+            let mut x: W = self.mem[i + 268];
             let mut x1: W = self.lx[2];
             self.lx[2] = x;
             let y1: W = self.ly[12];
@@ -407,7 +434,7 @@ pub mod specialised {
             self.zcc[2] = c;
             x = bp;
             self.b[20] = x;
-            let mut x: W = self.mem[i + 87];
+            let mut x: W = self.mem[i + 243];
             let mut x1: W = self.lx[3];
             self.lx[3] = x;
             let y1: W = self.ly[18];
@@ -449,7 +476,7 @@ pub mod specialised {
             self.zcc[3] = c;
             x = bp;
             self.b[17] = x;
-            let mut x: W = self.mem[i + 94];
+            let mut x: W = self.mem[i + 250];
             let mut x1: W = self.lx[4];
             self.lx[4] = x;
             let y1: W = self.ly[24];
@@ -494,7 +521,7 @@ pub mod specialised {
             self.zcc[4] = c;
             x = bp;
             self.b[18] = x;
-            let mut x: W = self.mem[i + 119];
+            let mut x: W = self.mem[i + 275];
             let mut x1: W = self.lx[5];
             self.lx[5] = x;
             let y1: W = self.ly[30];
@@ -539,7 +566,7 @@ pub mod specialised {
             self.zcc[5] = c;
             x = bp;
             self.b[21] = x;
-            let mut x: W = self.mem[i + 129];
+            let mut x: W = self.mem[i + 285];
             let mut x1: W = self.lx[6];
             self.lx[6] = x;
             let y1: W = self.ly[36];
@@ -581,7 +608,7 @@ pub mod specialised {
             self.zcc[6] = c;
             x = bp;
             self.b[22] = x;
-            let mut x: W = self.mem[i + 9];
+            let mut x: W = self.mem[i + 165];
             let mut x1: W = self.lx[7];
             self.lx[7] = x;
             let y1: W = self.ly[42];
@@ -623,27 +650,27 @@ pub mod specialised {
             self.zcc[7] = c;
             x = bp;
             self.b[1] = x;
-            let mut x: W = self.mem[i + 18];
+            let mut x: W = self.mem[i + 174];
             let (y, s_next) = P::allpass(x, self.aps[2], -1855129i32, 1073740221u32);
             self.aps[2] = s_next;
             x = y;
             self.b[2] = x;
-            let mut x: W = self.mem[i + 43];
+            let mut x: W = self.mem[i + 199];
             let (y, s_next) = P::allpass(x, self.aps[3], -1855129i32, 1073740221u32);
             self.aps[3] = s_next;
             x = y;
             self.b[6] = x;
-            let mut x: W = self.mem[i + 23];
+            let mut x: W = self.mem[i + 179];
             let (y, s_next) = P::allpass(x, self.aps[4], 151573970i32, 1062989574u32);
             self.aps[4] = s_next;
             x = y;
             self.b[3] = x;
-            let mut x: W = self.mem[i + 48];
+            let mut x: W = self.mem[i + 204];
             let (y, s_next) = P::allpass(x, self.aps[5], 151573970i32, 1062989574u32);
             self.aps[5] = s_next;
             x = y;
             self.b[7] = x;
-            let mut x: W = self.mem[i + 27];
+            let mut x: W = self.mem[i + 183];
             let mut x1: W = self.lx[8];
             self.lx[8] = x;
             let y1: W = self.ly[48];
@@ -685,7 +712,7 @@ pub mod specialised {
             self.zcc[8] = c;
             x = bp;
             self.b[4] = x;
-            let mut x: W = self.mem[i + 144];
+            let mut x: W = self.mem[i + 300];
             let mut x1: W = self.lx[9];
             self.lx[9] = x;
             let y1: W = self.ly[54];
@@ -727,7 +754,7 @@ pub mod specialised {
             self.zcc[9] = c;
             x = bp;
             self.b[25] = x;
-            let mut x: W = self.mem[i + 147];
+            let mut x: W = self.mem[i + 303];
             let mut x1: W = self.lx[10];
             self.lx[10] = x;
             let y1: W = self.ly[60];
@@ -769,7 +796,7 @@ pub mod specialised {
             self.zcc[10] = c;
             x = bp;
             self.b[26] = x;
-            let mut x: W = self.mem[i + 138];
+            let mut x: W = self.mem[i + 294];
             let mut x1: W = self.lx[11];
             self.lx[11] = x;
             let y1: W = self.ly[66];
@@ -811,7 +838,7 @@ pub mod specialised {
             self.zcc[11] = c;
             x = bp;
             self.b[23] = x;
-            let mut x: W = self.mem[i + 141];
+            let mut x: W = self.mem[i + 297];
             let mut x1: W = self.lx[12];
             self.lx[12] = x;
             let y1: W = self.ly[72];
@@ -856,7 +883,7 @@ pub mod specialised {
             self.zcc[12] = c;
             x = bp;
             self.b[24] = x;
-            let mut x: W = self.mem[i + 150];
+            let mut x: W = self.mem[i + 306];
             let mut x1: W = self.lx[13];
             self.lx[13] = x;
             let y1: W = self.ly[78];
@@ -901,7 +928,7 @@ pub mod specialised {
             self.zcc[13] = c;
             x = bp;
             self.b[27] = x;
-            let mut x: W = self.mem[i + 153];
+            let mut x: W = self.mem[i + 309];
             let mut x1: W = self.lx[14];
             self.lx[14] = x;
             let y1: W = self.ly[84];
@@ -943,7 +970,7 @@ pub mod specialised {
             self.zcc[14] = c;
             x = bp;
             self.b[28] = x;
-            let mut x: W = self.mem[i + 52];
+            let mut x: W = self.mem[i + 208];
             let mut x1: W = self.lx[15];
             self.lx[15] = x;
             let y1: W = self.ly[90];
@@ -985,43 +1012,38 @@ pub mod specialised {
             self.zcc[15] = c;
             x = bp;
             self.b[8] = x;
-            let mut x: W = self.mem[i + 56];
+            let mut x: W = self.mem[i + 212];
             let (y, s_next) = P::allpass(x, self.aps[8], 45505324i32, 1072777129u32);
             self.aps[8] = s_next;
             x = y;
             self.b[9] = x;
-            let mut x: W = self.mem[i + 65];
+            let mut x: W = self.mem[i + 221];
             let (y, s_next) = P::allpass(x, self.aps[9], 45505324i32, 1072777129u32);
             self.aps[9] = s_next;
             x = y;
             self.b[11] = x;
-            let mut x: W = self.mem[i + 59];
+            let mut x: W = self.mem[i + 215];
             let (y, s_next) = P::allpass(x, self.aps[10], -121136521i32, 1066886801u32);
             self.aps[10] = s_next;
             x = y;
             self.b[10] = x;
-            let mut x: W = self.mem[i + 68];
+            let mut x: W = self.mem[i + 224];
             let (y, s_next) = P::allpass(x, self.aps[11], -121136521i32, 1066886801u32);
             self.aps[11] = s_next;
             x = y;
             self.b[13] = x;
-            let mut x: W = self.mem[i + 30];
+            let mut x: W = self.mem[i + 186];
             let (y, s_next) = P::allpass(x, self.aps[12], 349702027i32, 1015199486u32);
             self.aps[12] = s_next;
             x = y;
             self.b[5] = x;
-            let mut x: W = self.mem[i + 74];
+            let mut x: W = self.mem[i + 230];
             let (y, s_next) = P::allpass(x, self.aps[13], 349702027i32, 1015199486u32);
             self.aps[13] = s_next;
             x = y;
             self.b[15] = x;
             self.n = n.wrapping_add(1);
-            if i + 1 < SPAN {
-                self.i = (i + 1) as u32;
-            } else {
-                self.mem.copy_within(SPAN..MEM, 0);
-                self.i = 0;
-            }
+            self.i = if i + 1 < SPAN { (i + 1) as u32 } else { 0 };
             output
         }
 

@@ -56,8 +56,9 @@ pub mod specialised {
     type W = i32;
     /// The rings' span, waves: the window of one sample, and the period of its position.
     pub const SPAN: usize = 1002;
-    /// Delay memory, waves: two windows (the upper half holds the waves in flight at a wrap).
-    pub const MEM: usize = 2 * SPAN;
+    /// Delay memory, waves: three spans (every write also lands one span lower, where the
+    /// next period reads the waves in flight at a wrap; see the layout in the emitter).
+    pub const MEM: usize = 3 * SPAN;
     const IO_SHIFT: u32 = 8;
     const EXPONENT: u32 = 44;
     const PROBES: usize = 1;
@@ -104,27 +105,24 @@ pub mod specialised {
             let n = self.n;
             let i = (self.i as usize).min(SPAN - 1);
             let e: W = P::from_code(input, IO_SHIFT);
-            let b0: W = self.mem[i + 0];
+            let b0: W = self.mem[i + 1002];
             // junction 0: node of 1 port(s), fixed
             let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[351843720u32], &mut o, e, 351843720u32, 3276800008u32, 29u32, 703687440u64); o };
+            self.mem[i + 2003] = a0;
             self.mem[i + 1001] = a0;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
-            let b1: W = self.mem[i + 501];
+            let b1: W = self.mem[i + 1503];
             // junction 1: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
             let [a1] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b1], &[351843720u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b1] } else { [P::neg(b1)] };
+            self.mem[i + 1502] = a1;
             self.mem[i + 500] = a1;
             self.held[0] = a1;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a1, b1);
             let output = P::to_code(P::sum(a0, b0), IO_SHIFT);
             self.n = n.wrapping_add(1);
-            if i + 1 < SPAN {
-                self.i = (i + 1) as u32;
-            } else {
-                self.mem.copy_within(SPAN..MEM, 0);
-                self.i = 0;
-            }
+            self.i = if i + 1 < SPAN { (i + 1) as u32 } else { 0 };
             output
         }
 

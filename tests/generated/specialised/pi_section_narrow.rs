@@ -65,8 +65,9 @@ pub mod specialised {
     type W = i16;
     /// The rings' span, waves: the window of one sample, and the period of its position.
     pub const SPAN: usize = 92;
-    /// Delay memory, waves: two windows (the upper half holds the waves in flight at a wrap).
-    pub const MEM: usize = 2 * SPAN;
+    /// Delay memory, waves: three spans (every write also lands one span lower, where the
+    /// next period reads the waves in flight at a wrap; see the layout in the emitter).
+    pub const MEM: usize = 3 * SPAN;
     const IO_SHIFT: u32 = 0;
     const EXPONENT: u32 = 28;
     const PROBES: usize = 2;
@@ -116,12 +117,14 @@ pub mod specialised {
             let b0: W = self.b[0];
             // junction 0: node of 1 port(s), fixed
             let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[2684u32], &mut o, e, 2684u32, 50006u32, 12u32, 5368u64); o };
+            self.mem[i + 137] = a0;
             self.mem[i + 45] = a0;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b5: W = self.b[5];
             // junction 3: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
             let [a5] = if c.scatters() { { let mut o = [self.held[2]]; P::node_scatter_held(&[b5], &[2684u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b5] } else { [P::neg(b5)] };
+            self.mem[i + 160] = a5;
             self.mem[i + 68] = a5;
             self.held[2] = a5;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
@@ -136,9 +139,11 @@ pub mod specialised {
             let [a1, a2] = { let mut o = [P::ZERO; 2]; P::branch_node(&[b1, b2], &[2684u32, 814u32], &mut o, e, 0u32, 3498u32, ra4, 38369u32, 12u32, 6996u64); o };
             let [a3, a4] = { let mut o = [self.held[0], self.held[1]]; P::branch_node_held(&[b3, b4], &[2684u32, 814u32], &mut o, e, 0u32, 3632u32, rb4, 36954u32, 12u32, 7264u64, 53u32); o };
             self.chokes[0] = P::neg(al4);
+            self.mem[i + 114] = a1;
             self.mem[i + 22] = a1;
             let a2 = P::adapt(b2, a2, 16384u32, false);
             self.b[2] = a2;
+            self.mem[i + 183] = a3;
             self.mem[i + 91] = a3;
             self.held[0] = a3;
             let a4 = P::adapt(b4, a4, 16384u32, false);
@@ -148,33 +153,28 @@ pub mod specialised {
             self.probes[0] = P::sum(a5, b5);
             self.probes[1] = P::sum(a1, b1);
             let output = P::to_code(P::sum(a0, b0), IO_SHIFT);
-            let mut x: W = self.mem[i + 1];
+            let mut x: W = self.mem[i + 93];
             let (y, s_next) = P::allpass(x, self.aps[0], 2415i32, 16204u32);
             self.aps[0] = s_next;
             x = y;
             self.b[0] = x;
-            let mut x: W = self.mem[i + 24];
+            let mut x: W = self.mem[i + 116];
             let (y, s_next) = P::allpass(x, self.aps[1], 2415i32, 16204u32);
             self.aps[1] = s_next;
             x = y;
             self.b[1] = x;
-            let mut x: W = self.mem[i + 47];
+            let mut x: W = self.mem[i + 139];
             let (y, s_next) = P::allpass(x, self.aps[2], 2415i32, 16204u32);
             self.aps[2] = s_next;
             x = y;
             self.b[3] = x;
-            let mut x: W = self.mem[i + 70];
+            let mut x: W = self.mem[i + 162];
             let (y, s_next) = P::allpass(x, self.aps[3], 2415i32, 16204u32);
             self.aps[3] = s_next;
             x = y;
             self.b[5] = x;
             self.n = n.wrapping_add(1);
-            if i + 1 < SPAN {
-                self.i = (i + 1) as u32;
-            } else {
-                self.mem.copy_within(SPAN..MEM, 0);
-                self.i = 0;
-            }
+            self.i = if i + 1 < SPAN { (i + 1) as u32 } else { 0 };
             output
         }
 

@@ -73,8 +73,9 @@ pub mod specialised {
     type W = i32;
     /// The rings' span, waves: the window of one sample, and the period of its position.
     pub const SPAN: usize = 72;
-    /// Delay memory, waves: two windows (the upper half holds the waves in flight at a wrap).
-    pub const MEM: usize = 2 * SPAN;
+    /// Delay memory, waves: three spans (every write also lands one span lower, where the
+    /// next period reads the waves in flight at a wrap; see the layout in the emitter).
+    pub const MEM: usize = 3 * SPAN;
     const IO_SHIFT: u32 = 8;
     const EXPONENT: u32 = 42;
     const PROBES: usize = 4;
@@ -122,23 +123,27 @@ pub mod specialised {
             let n = self.n;
             let i = (self.i as usize).min(SPAN - 1);
             let e: W = P::from_code(input, IO_SHIFT);
-            let b0: W = self.mem[i + 0];
+            let b0: W = self.mem[i + 72];
             // junction 0: node of 1 port(s), fixed
             let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[43980465u32], &mut o, e, 87960930u32, 2184533338u32, 26u32, 131941395u64); o };
+            self.mem[i + 83] = a0;
             self.mem[i + 11] = a0;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
-            let b1: W = self.mem[i + 6];
-            let b2: W = self.mem[i + 12];
-            let b3: W = self.mem[i + 16];
+            let b1: W = self.mem[i + 78];
+            let b2: W = self.mem[i + 84];
+            let b3: W = self.mem[i + 88];
             let b4: W = self.b[0];
             let b5: W = self.b[1];
             // junction 1: node of 5 port(s), switched by the plant's events
             let c = self.nodes[0];
             let [a1, a2, a3, a4, a5] = if c.scatters() { { let mut o = [self.held[0], self.held[1], self.held[2], self.held[3], self.held[4]]; P::node_scatter_held(&[b1, b2, b3, b4, b5], &[43980465u32, 43980465u32, 29320310u32, 4886718u32, 65642485u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b1, b2, b3, b4, b5] } else { [P::neg(b1), P::neg(b2), P::neg(b3), P::neg(b4), P::neg(b5)] };
+            self.mem[i + 77] = a1;
             self.mem[i + 5] = a1;
             self.held[0] = a1;
+            self.mem[i + 99] = a2;
             self.mem[i + 27] = a2;
             self.held[1] = a2;
+            self.mem[i + 112] = a3;
             self.mem[i + 40] = a3;
             self.held[2] = a3;
             let a4 = P::adapt(b4, a4, 1073741824u32, true);
@@ -148,44 +153,52 @@ pub mod specialised {
             self.b[1] = a5;
             self.held[4] = a5;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
-            let b6: W = self.mem[i + 24];
-            let b7: W = self.mem[i + 28];
+            let b6: W = self.mem[i + 96];
+            let b7: W = self.mem[i + 100];
             // junction 2: series inductor, c = 447392426, rho = 89478486
             let (a6, a7, s0) = P::series_l(b6, b7, self.chokes[0], 447392426u32, 89478486u32);
             self.chokes[0] = s0;
+            self.mem[i + 87] = a6;
             self.mem[i + 15] = a6;
+            self.mem[i + 120] = a7;
             self.mem[i + 48] = a7;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
-            let b8: W = self.mem[i + 33];
-            let b9: W = self.mem[i + 41];
+            let b8: W = self.mem[i + 105];
+            let b9: W = self.mem[i + 113];
             let b10: W = self.b[2];
             // junction 3: node of 3 port(s), switched by the plant's events
             let c = self.nodes[1];
             let [a8, a9, a10] = if c.scatters() { { let mut o = [self.held[5], self.held[6], self.held[7]]; P::node_scatter_held(&[b8, b9, b10], &[29320310u32, 73300775u32, 879609302u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b8, b9, b10] } else { [P::neg(b8), P::neg(b9), P::neg(b10)] };
+            self.mem[i + 95] = a8;
             self.mem[i + 23] = a8;
             self.held[5] = a8;
+            self.mem[i + 143] = a9;
             self.mem[i + 71] = a9;
             self.held[6] = a9;
             let a10 = P::adapt(b10, a10, 1073741824u32, false);
             self.b[2] = a10;
             self.held[7] = a10;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
-            let b11: W = self.mem[i + 44];
-            let b12: W = self.mem[i + 49];
+            let b11: W = self.mem[i + 116];
+            let b12: W = self.mem[i + 121];
             // junction 4: series resistor, c = 1060485752
             let (a11, a12) = P::series(b11, b12, 1060485752u32);
+            self.mem[i + 104] = a11;
             self.mem[i + 32] = a11;
+            self.mem[i + 140] = a12;
             self.mem[i + 68] = a12;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
-            let b13: W = self.mem[i + 59];
+            let b13: W = self.mem[i + 131];
             // junction 5: node of 1 port(s), fixed
             let [a13] = [P::neg(b13)];
+            self.mem[i + 130] = a13;
             self.mem[i + 58] = a13;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
-            let b14: W = self.mem[i + 69];
+            let b14: W = self.mem[i + 141];
             let b15: W = self.b[3];
             // junction 6: node of 2 port(s), fixed
             let [a14, a15] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b14, b15], &[73300775u32, 16915563u32], &mut o, e, 0u32, 3194880024u32, 26u32, 90216338u64); o };
+            self.mem[i + 115] = a14;
             self.mem[i + 43] = a14;
             let a15 = P::adapt(b15, a15, 1032444061u32, true);
             self.b[3] = a15;
@@ -196,12 +209,7 @@ pub mod specialised {
             self.probes[3] = P::sum(a14, b14);
             let output = P::to_code(P::sum(a0, b0), IO_SHIFT);
             self.n = n.wrapping_add(1);
-            if i + 1 < SPAN {
-                self.i = (i + 1) as u32;
-            } else {
-                self.mem.copy_within(SPAN..MEM, 0);
-                self.i = 0;
-            }
+            self.i = if i + 1 < SPAN { (i + 1) as u32 } else { 0 };
             output
         }
 

@@ -69,8 +69,9 @@ pub mod specialised {
     type W = i32;
     /// The rings' span, waves: the window of one sample, and the period of its position.
     pub const SPAN: usize = 112;
-    /// Delay memory, waves: two windows (the upper half holds the waves in flight at a wrap).
-    pub const MEM: usize = 2 * SPAN;
+    /// Delay memory, waves: three spans (every write also lands one span lower, where the
+    /// next period reads the waves in flight at a wrap; see the layout in the emitter).
+    pub const MEM: usize = 3 * SPAN;
     const IO_SHIFT: u32 = 12;
     const EXPONENT: u32 = 45;
     const PROBES: usize = 2;
@@ -117,74 +118,83 @@ pub mod specialised {
             let n = self.n;
             let i = (self.i as usize).min(SPAN - 1);
             let e: W = P::from_code(input, IO_SHIFT);
-            let b0: W = self.mem[i + 0];
+            let b0: W = self.mem[i + 112];
             // rig port: the pin was read while the DAC showed the wave of `latency` samples ago
             self.hist[(n as usize) & (HIST - 1)] = b0;
             let rig_back = self.hist[(n.wrapping_sub(2) as usize) & (HIST - 1)];
             // junction 0: rig port, a = v − b[n − latency]
             let a0 = P::sub(e, rig_back);
+            self.mem[i + 147] = a0;
             self.mem[i + 35] = a0;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
-            let b1: W = self.mem[i + 7];
-            let b2: W = self.mem[i + 15];
+            let b1: W = self.mem[i + 119];
+            let b2: W = self.mem[i + 127];
             // junction 1: node of 2 port(s), fixed
             let [a1, a2] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b1, b2], &[293203100u32, 293203100u32], &mut o, e, 0u32, 3932160009u32, 29u32, 586406200u64); o };
+            self.mem[i + 187] = a1;
             self.mem[i + 75] = a1;
+            self.mem[i + 203] = a2;
             self.mem[i + 91] = a2;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
-            let b3: W = self.mem[i + 19];
+            let b3: W = self.mem[i + 131];
             // junction 2: node of 1 port(s), fixed
             let [a3] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b3], &[293203100u32], &mut o, e, 0u32, 3932160009u32, 29u32, 586406200u64); o };
+            self.mem[i + 223] = a3;
             self.mem[i + 111] = a3;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
-            let b4: W = self.mem[i + 27];
-            let b5: W = self.mem[i + 36];
+            let b4: W = self.mem[i + 139];
+            let b5: W = self.mem[i + 148];
             // junction 3: series resistor, c = 1055274519
             let (a4, a5) = P::series(b4, b5, 1055274519u32);
+            self.mem[i + 118] = a4;
             self.mem[i + 6] = a4;
+            self.mem[i + 179] = a5;
             self.mem[i + 67] = a5;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
-            let b6: W = self.mem[i + 52];
-            let b7: W = self.mem[i + 68];
+            let b6: W = self.mem[i + 164];
+            let b7: W = self.mem[i + 180];
             // junction 4: series resistor, c = 1055274519
             let (a6, a7) = P::series(b6, b7, 1055274519u32);
+            self.mem[i + 163] = a6;
             self.mem[i + 51] = a6;
+            self.mem[i + 126] = a7;
             self.mem[i + 14] = a7;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
-            let b8: W = self.mem[i + 76];
-            let b9: W = self.mem[i + 79];
+            let b8: W = self.mem[i + 188];
+            let b9: W = self.mem[i + 191];
             // junction 5: node of 2 port(s), switched by the plant's events
             let c = self.nodes[0];
             let [a8, a9] = if c.scatters() { { let mut o = [self.held[0], self.held[1]]; P::node_scatter_held(&[b8, b9], &[293203100u32, 293203100u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b8, b9] } else { [P::neg(b8), P::neg(b9)] };
+            self.mem[i + 206] = a8;
             self.mem[i + 94] = a8;
             self.held[0] = a8;
+            self.mem[i + 215] = a9;
             self.mem[i + 103] = a9;
             self.held[1] = a9;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
-            let b10: W = self.mem[i + 88];
-            let b11: W = self.mem[i + 92];
+            let b10: W = self.mem[i + 200];
+            let b11: W = self.mem[i + 204];
             // junction 6: series resistor, c = 1067514655
             let (a10, a11) = P::series(b10, b11, 1067514655u32);
+            self.mem[i + 130] = a10;
             self.mem[i + 18] = a10;
+            self.mem[i + 190] = a11;
             self.mem[i + 78] = a11;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
-            let b12: W = self.mem[i + 95];
-            let b13: W = self.mem[i + 104];
+            let b12: W = self.mem[i + 207];
+            let b13: W = self.mem[i + 216];
             // junction 7: series resistor, c = 1055274519
             let (a12, a13) = P::series(b12, b13, 1055274519u32);
+            self.mem[i + 199] = a12;
             self.mem[i + 87] = a12;
+            self.mem[i + 138] = a13;
             self.mem[i + 26] = a13;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a0, rig_back);
             self.probes[1] = P::sum(a3, b3);
             let output = P::to_code(P::sum(b0, b0), IO_SHIFT);
             self.n = n.wrapping_add(1);
-            if i + 1 < SPAN {
-                self.i = (i + 1) as u32;
-            } else {
-                self.mem.copy_within(SPAN..MEM, 0);
-                self.i = 0;
-            }
+            self.i = if i + 1 < SPAN { (i + 1) as u32 } else { 0 };
             output
         }
 
@@ -198,7 +208,7 @@ pub mod specialised {
 
         fn rig_drive(&self) -> i16 {
             let i = (self.i as usize).min(SPAN - 1);
-            let b: W = self.mem[i + 0];
+            let b: W = self.mem[i + 112];
             P::to_code(P::sum(b, b), IO_SHIFT)
         }
 

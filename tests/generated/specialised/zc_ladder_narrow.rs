@@ -69,8 +69,9 @@ pub mod specialised {
     type W = i16;
     /// The rings' span, waves: the window of one sample, and the period of its position.
     pub const SPAN: usize = 48;
-    /// Delay memory, waves: two windows (the upper half holds the waves in flight at a wrap).
-    pub const MEM: usize = 2 * SPAN;
+    /// Delay memory, waves: three spans (every write also lands one span lower, where the
+    /// next period reads the waves in flight at a wrap; see the layout in the emitter).
+    pub const MEM: usize = 3 * SPAN;
     const IO_SHIFT: u32 = 0;
     const EXPONENT: u32 = 28;
     const PROBES: usize = 5;
@@ -122,6 +123,7 @@ pub mod specialised {
             // junction 0: node of 1 port(s), fixed
             let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[2684u32], &mut o, e, 2684u32, 50006u32, 12u32, 5368u64); o };
             let line0 = P::zc_post(a0, b0, self.zcc[0], &mut self.zcs[0], &[0, 6552, 0, 0], &[327, 163, 0, 0], 2);
+            self.mem[i + 61] = line0;
             self.mem[i + 13] = line0;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b1: W = self.b[1];
@@ -129,22 +131,27 @@ pub mod specialised {
             // junction 1: series resistor, c = 16221
             let (a1, a2) = P::series(b1, b2, 16221u32);
             let line1 = P::zc_post(a1, b1, self.zcc[1], &mut self.zcs[1], &[0, 6552, 0, 0], &[327, 163, 0, 0], 2);
+            self.mem[i + 54] = line1;
             self.mem[i + 6] = line1;
             let line2 = P::zc_post(a2, b2, self.zcc[2], &mut self.zcs[2], &[0, 6552, 0, 0], &[327, 163, 0, 0], 2);
+            self.mem[i + 65] = line2;
             self.mem[i + 17] = line2;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b3: W = self.b[3];
             let b4: W = self.b[4];
-            let b5: W = self.mem[i + 28];
+            let b5: W = self.mem[i + 76];
             // junction 2: node of 3 port(s), switched by the plant's events
             let c = self.nodes[0];
             let [a3, a4, a5] = if c.scatters() { { let mut o = [self.held[0], self.held[1], self.held[2]]; P::node_scatter_held(&[b3, b4, b5], &[2684u32, 2684u32, 3579u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b3, b4, b5] } else { [P::neg(b3), P::neg(b4), P::neg(b5)] };
             let line3 = P::zc_post(a3, b3, self.zcc[3], &mut self.zcs[3], &[0, 6552, 0, 0], &[327, 163, 0, 0], 2);
+            self.mem[i + 63] = line3;
             self.mem[i + 15] = line3;
             self.held[0] = a3;
             let line4 = P::zc_post(a4, b4, self.zcc[4], &mut self.zcs[4], &[0, 6552, 0, 0], &[327, 163, 0, 0], 2);
+            self.mem[i + 90] = line4;
             self.mem[i + 42] = line4;
             self.held[1] = a4;
+            self.mem[i + 95] = a5;
             self.mem[i + 47] = a5;
             self.held[2] = a5;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
@@ -153,12 +160,14 @@ pub mod specialised {
             let c = self.nodes[1];
             let [a6] = if c.scatters() { { let mut o = [self.held[3]]; P::node_scatter_held(&[b6], &[2684u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b6] } else { [P::neg(b6)] };
             let line6 = P::zc_post(a6, b6, self.zcc[5], &mut self.zcs[5], &[0, 6552, 0, 0], &[327, 163, 0, 0], 2);
+            self.mem[i + 75] = line6;
             self.mem[i + 27] = line6;
             self.held[3] = a6;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
-            let b7: W = self.mem[i + 43];
+            let b7: W = self.mem[i + 91];
             // junction 4: node of 1 port(s), fixed
             let [a7] = { let mut o = [self.held[4]]; P::node_scatter_held(&[b7], &[3579u32], &mut o, e, 0u32, 50006u32, 12u32, 5368u64, 5u32); o };
+            self.mem[i + 80] = a7;
             self.mem[i + 32] = a7;
             self.held[4] = a7;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
@@ -168,7 +177,7 @@ pub mod specialised {
             self.probes[3] = P::diff(a6, b6);
             self.probes[4] = P::sum(a7, b7);
             let output = P::to_code(P::sum(a0, b0), IO_SHIFT);
-            let mut x: W = self.mem[i + 1];
+            let mut x: W = self.mem[i + 49];
             let mut x1: W = self.lx[0];
             self.lx[0] = x;
             let y1: W = self.ly[0];
@@ -180,7 +189,7 @@ pub mod specialised {
             self.zcc[0] = c;
             x = bp;
             self.b[0] = x;
-            let mut x: W = self.mem[i + 8];
+            let mut x: W = self.mem[i + 56];
             let mut x1: W = self.lx[1];
             self.lx[1] = x;
             let y1: W = self.ly[1];
@@ -192,7 +201,7 @@ pub mod specialised {
             self.zcc[1] = c;
             x = bp;
             self.b[1] = x;
-            let mut x: W = self.mem[i + 15];
+            let mut x: W = self.mem[i + 63];
             let mut x1: W = self.lx[2];
             self.lx[2] = x;
             let y1: W = self.ly[2];
@@ -204,7 +213,7 @@ pub mod specialised {
             self.zcc[2] = c;
             x = bp;
             self.b[2] = x;
-            let mut x: W = self.mem[i + 17];
+            let mut x: W = self.mem[i + 65];
             let mut x1: W = self.lx[3];
             self.lx[3] = x;
             let y1: W = self.ly[3];
@@ -216,7 +225,7 @@ pub mod specialised {
             self.zcc[3] = c;
             x = bp;
             self.b[3] = x;
-            let mut x: W = self.mem[i + 19];
+            let mut x: W = self.mem[i + 67];
             let mut x1: W = self.lx[4];
             self.lx[4] = x;
             let y1: W = self.ly[4];
@@ -231,7 +240,7 @@ pub mod specialised {
             self.zcc[4] = c;
             x = bp;
             self.b[4] = x;
-            let mut x: W = self.mem[i + 34];
+            let mut x: W = self.mem[i + 82];
             let mut x1: W = self.lx[5];
             self.lx[5] = x;
             let y1: W = self.ly[5];
@@ -247,12 +256,7 @@ pub mod specialised {
             x = bp;
             self.b[5] = x;
             self.n = n.wrapping_add(1);
-            if i + 1 < SPAN {
-                self.i = (i + 1) as u32;
-            } else {
-                self.mem.copy_within(SPAN..MEM, 0);
-                self.i = 0;
-            }
+            self.i = if i + 1 < SPAN { (i + 1) as u32 } else { 0 };
             output
         }
 

@@ -10,14 +10,22 @@
 //! junctions still read this sample's arriving waves: no write of sample n lands on a wave
 //! another port reads at sample n.
 //!
-//! The window of sample n starts at i = n mod P in a memory of 2P waves, so every access is
-//! `mem[i + offset]`: one base address per sample and a constant offset per access (on the
-//! Cortex-M4 one load or store with an immediate offset, where masking the position of every
-//! access took an add, a bit clear and an indexed load). When i wraps from P − 1 to 0, the
-//! upper half [P, 2P) is copied down to [0, P): every wave still in flight across the wrap
-//! sits there (it was written at an offset that reaches past P), and nothing in [0, P) is
-//! read after the wrap without being written first (an offset is below P and the period is
-//! P). The copy is P waves once every P samples, one wave per sample.
+//! The window of sample n starts at i = n mod P, and every access is `mem[i + offset]`: one
+//! base address per sample and a constant offset per access (on the Cortex-M4 one load or
+//! store with an immediate offset, where masking the position of every access took an add, a
+//! bit clear and an indexed load). The memory holds three spans. Reads and writes use the
+//! upper two, `mem[P + i + offset]`; every write is stored a second time one span lower, at
+//! `mem[i + offset]`. When i wraps from P − 1 to 0, a wave still in flight was written at
+//! P + i + w with i + w >= P, so its lower copy sits at P + (i + w − P), exactly where the
+//! next period reads it. The lower copy never lands where this period still reads (it is
+//! below P + i), and no later write of this period or earlier write of the next lands on it
+//! before its read (that would put another port's write offset strictly inside this port's
+//! span, and the spans are disjoint). So no sample copies anything: the wrap costs nothing,
+//! and the slowest sample is an ordinary one (a real-time loop must meet its period in every
+//! sample). An earlier layout of two spans copied the upper half down at the wrap, P waves in
+//! one sample: on the firmware's 85-port plant that sample took 7.9 times the average
+//! (`cargo run -p xtask -- firmware`, docs/firmware.md). The price is one store per line port
+//! per sample and a third span of memory.
 //!
 //! A port whose arriving wave must be kept between samples (it passes a loss filter, or it
 //! is a reactive element's state, a ring of one sample feeding itself) keeps it in `b[p]`.
@@ -36,7 +44,7 @@ pub enum Arrival {
 /// The whole layout.
 #[derive(Debug, Clone, PartialEq, Eq)]
 pub struct Layout {
-    /// The span P (>= 1): the counter's period and the window's length; the memory is 2P.
+    /// The span P (>= 1): the counter's period and the window's length; the memory is 3P.
     pub span: u32,
     /// Per port: its arrival.
     pub arrival: Vec<Arrival>,
@@ -50,7 +58,7 @@ pub struct Layout {
 }
 
 impl Layout {
-    /// The layout of `l`, or `None` if the delay memory (2P) would not fit a u32 index.
+    /// The layout of `l`, or `None` if the delay memory (3P) would not fit a u32 index.
     pub fn of(l: &Loaded) -> Option<Layout> {
         let lossy: Vec<bool> = (0..l.ports.len()).map(|p| l.losses.iter().any(|x| x.port as usize == p)).collect();
         let mut start: u64 = 0;

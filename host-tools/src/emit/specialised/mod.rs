@@ -107,7 +107,7 @@ pub fn specialised_source(
 
 /// The first statement of every read of the rings: the window of the coming sample. The
 /// `min` costs one compare per sample and lets the compiler prove every `mem[i + offset]` in
-/// bounds (i < SPAN, offset < SPAN, MEM = 2·SPAN): no bounds check that can fail.
+/// bounds (i < SPAN, offset < 2·SPAN, MEM = 3·SPAN): no bounds check that can fail.
 const WINDOW: &str = "let i = (self.i as usize).min(SPAN - 1);";
 
 /// Between two junctions: no load or store moves across it, and it
@@ -165,10 +165,18 @@ impl Writer<'_> {
         out
     }
 
+    /// A wave into the ring at write offset `w`: at the window's upper copy (offset SPAN + w,
+    /// where this period reads it) and one span lower (offset w, where the next period reads
+    /// it if it is still in flight at the wrap; see `layout`).
+    fn to_ring(&self, s: &mut String, w: u32, wave: &str) {
+        let _ = writeln!(s, "            self.mem[i + {}] = {wave};", self.layout.span + w);
+        let _ = writeln!(s, "            self.mem[i + {w}] = {wave};");
+    }
+
     /// The expression of port p's arriving wave at the start of a sample (counter `n`).
     fn arrival(&self, p: usize) -> String {
         match self.layout.arrival.get(p) {
-            Some(Arrival::Memory { offset }) => format!("self.mem[i + {offset}]"),
+            Some(Arrival::Memory { offset }) => format!("self.mem[i + {}]", self.layout.span + offset),
             Some(Arrival::State { slot }) => format!("self.b[{slot}]"),
             None => "P::ZERO".into(),
         }
@@ -229,9 +237,9 @@ impl Writer<'_> {
         let _ = writeln!(s, "    pub const SPAN: usize = {};", self.layout.span);
         let _ = writeln!(
             s,
-            "    /// Delay memory, waves: two windows (the upper half holds the waves in flight at a wrap)."
+            "    /// Delay memory, waves: three spans (every write also lands one span lower, where the\n    /// next period reads the waves in flight at a wrap; see the layout in the emitter)."
         );
-        let _ = writeln!(s, "    pub const MEM: usize = 2 * SPAN;");
+        let _ = writeln!(s, "    pub const MEM: usize = 3 * SPAN;");
         let _ = writeln!(s, "    const IO_SHIFT: u32 = {};", l.io_shift);
         let _ = writeln!(s, "    const EXPONENT: u32 = {};", l.exponent);
         let _ = writeln!(s, "    const PROBES: usize = {};", l.probes.len());
@@ -302,11 +310,9 @@ impl Writer<'_> {
                         "            let line{p} = P::zc_post(a{p}, b{p}, self.zcc[{z}], &mut self.zcs[{z}], &{:?}, &{:?}, {});",
                         zp.pole, zp.rho, zp.sections
                     );
-                    let _ = writeln!(s, "            self.mem[i + {w}] = line{p};");
+                    self.to_ring(s, w, &format!("line{p}"));
                 }
-                _ => {
-                    let _ = writeln!(s, "            self.mem[i + {w}] = a{p};");
-                }
+                _ => self.to_ring(s, w, &format!("a{p}")),
             }
         }
     }
@@ -400,7 +406,7 @@ impl Writer<'_> {
             else {
                 return Err(EmitError::Unsupported { what: "a loss filter on an element port".into(), junction: None });
             };
-            let _ = writeln!(s, "            let mut x: W = self.mem[i + {}];", r + 1);
+            let _ = writeln!(s, "            let mut x: W = self.mem[i + {}];", self.layout.span + r + 1);
             // Section k's previous input is section k − 1's previous output, so only the first
             // section keeps its input (`lx`, one per end); the last section's previous output is
             // the wave it left in `b[slot]` when nothing follows it (`ly` only where needed).
@@ -448,12 +454,10 @@ impl Writer<'_> {
             let _ = writeln!(s, "            self.b[{slot}] = x;");
         }
         let _ = writeln!(s, "            self.n = n.wrapping_add(1);");
-        // The window moves up by one; at the end of the first half it wraps to 0 and the waves
-        // in flight move down with it (see `layout`): a branch on time, never on data.
-        let _ = writeln!(
-            s,
-            "            if i + 1 < SPAN {{\n                self.i = (i + 1) as u32;\n            }} else {{\n                self.mem.copy_within(SPAN..MEM, 0);\n                self.i = 0;\n            }}"
-        );
+        // The window moves up by one and wraps to 0 at the end of the span; the waves in
+        // flight are already where the next period reads them (see `layout`), so no sample
+        // does more work than another.
+        let _ = writeln!(s, "            self.i = if i + 1 < SPAN {{ (i + 1) as u32 }} else {{ 0 }};");
         let _ = writeln!(s, "            output\n        }}\n");
         Ok(())
     }
