@@ -560,8 +560,8 @@ pub(crate) fn apply_shunt<P: Profile>(rt: &mut JunctionRt, shunt: Shunt, c: u32)
         Shunt::Short => 0,
         Shunt::Resistor { milliohm: 0 } => return Err(()),
         Shunt::Resistor { milliohm } => {
-            let g = (1u128 << c.min(TOP)).checked_div(u128::from(milliohm)).unwrap_or(0);
-            u64::try_from(g).unwrap_or(u64::MAX).min(u64::MAX >> 1)
+            // 2^c <= 2^TOP = 2^62 fits 64 bits (no 128-bit division between two samples).
+            (1u64 << c.min(TOP)).checked_div(u64::from(milliohm)).unwrap_or(0)
         }
     };
     let is_short = matches!(shunt, Shunt::Short);

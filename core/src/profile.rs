@@ -463,12 +463,11 @@ pub fn reciprocal(total: u64, recip_bits: u32, strict: bool) -> Option<(u32, u32
     let n = 63u32.saturating_sub(total.leading_zeros()); // 2^n <= total < 2^(n+1), n >= 1
     let mut p = recip_bits.checked_add(n)?; // <= 32 + 63 < 128
                                             // (2^p − 1)/total < 2^p/2^n = 2^recip_bits, and >= 2^(recip_bits−1) for total < 2^(n+1).
-    let num = |p: u32| 1u128.checked_shl(p)?.checked_sub(u128::from(strict));
-    let mut r = num(p)?.checked_div(u128::from(total))?;
+    let mut r = div_pow2(p, strict, total)?;
     if r.checked_shr(recip_bits)? != 0 {
         // Not strict and total a power of two: 2^p/total = 2^recip_bits does not fit.
         p = p.checked_sub(1)?;
-        r = num(p)?.checked_div(u128::from(total))?;
+        r = div_pow2(p, strict, total)?;
     }
     let shift = p.checked_sub(recip_bits)?;
     // The accumulator magnitude product is < 2^(2·RECIP_BITS); a shift past that is zero.
@@ -476,6 +475,18 @@ pub fn reciprocal(total: u64, recip_bits: u32, strict: bool) -> Option<(u32, u32
         return Some((0, 0));
     }
     Some((u32::try_from(r).ok()?, shift))
+}
+
+/// floor((2^p − strict) / total), p < 128: in 64 bits where 2^p fits them, as it does for
+/// every node whose total is below 2^(64 − recip_bits). The same quotient as in 128 bits; a
+/// 128-bit division is a long software routine on a microcontroller, and `set_shunt` runs
+/// between two samples of a running plant (`docs/firmware.md`, "Events between samples").
+fn div_pow2(p: u32, strict: bool, total: u64) -> Option<u128> {
+    if p < 64 {
+        let num = 1u64.checked_shl(p)?.checked_sub(u64::from(strict))?;
+        return num.checked_div(total).map(u128::from);
+    }
+    1u128.checked_shl(p)?.checked_sub(u128::from(strict))?.checked_div(u128::from(total))
 }
 
 /// The hold threshold of a node (see [`Profile::node_scatter_held`]): the least integer

@@ -24,6 +24,9 @@ pub struct Report {
     pub hashes: BTreeMap<(String, String, String, u32), u32>,
     /// (profile, plant, form, seed index) → the timed run.
     pub ticks: BTreeMap<TicksKey, Ticks>,
+    /// (profile, plant, event) → (taken, ticks, ticks of an empty event): the generic solver's
+    /// events between two samples.
+    pub events: BTreeMap<(String, String, String), (bool, u32, u32)>,
     /// (profile, plant, form) → solver size in bytes.
     pub ram: BTreeMap<(String, String, String), u32>,
     /// Calibration: (cycles asked of `asm::delay`, ticks).
@@ -59,6 +62,9 @@ pub fn parse(text: &str) -> Report {
                 r.ticks.insert((key(1), key(2), key(3), hex(g(4))?), t);
                 Some(())
             })(),
+            Some("EVENT") => hex(g(4)).zip(hex(g(5)).zip(hex(g(6)))).map(|(ok, (t, b))| {
+                r.events.insert((key(1), key(2), key(3)), (ok == 1, t, b));
+            }),
             Some("RAM") => hex(g(4)).map(|b| {
                 r.ram.insert((key(1), key(2), key(3)), b);
             }),

@@ -26,6 +26,9 @@ pub struct Row {
     per_port: f64,
     /// Instructions of the slowest single sample of a longer run (`-icount shift=6`).
     worst: f64,
+    /// Generic form: instructions of the costliest event between two samples (terminator
+    /// removed or put back, node broken or joined), if the plant has a terminated node.
+    event: Option<f64>,
 
     /// Seed-0 and seed-1 tick counts equal at shift 0.
     equal_coarse: bool,
@@ -88,6 +91,16 @@ pub fn row(
     // At shift 6 a run's ticks wrap the 24-bit counter: only the difference of the two
     // stimuli's totals is read, as a signed difference mod 2^24.
     let fine_ticks = (f1.total.wrapping_sub(f0.total) << 8) as i32 >> 8;
+    let mut event = None;
+    for ((prof, name, op), (ok, t, b)) in &fine.events {
+        if form == "generic" && prof == profile && *name == plant.name {
+            if !ok {
+                return Err(format!("{}: the generic solver refused event `{op}` on {profile} {name}", part.name));
+            }
+            let x = instructions(part, f64::from(*t) - f64::from(*b), 6);
+            event = Some(event.map_or(x, |e: f64| e.max(x)));
+        }
+    }
     let ports = plant.ports();
     Ok(Row {
         part: part.name,
@@ -102,6 +115,7 @@ pub fn row(
         per_sample,
         per_port: per_sample / ports as f64,
         worst,
+        event,
         equal_coarse: c0.total == c1.total,
         fine_diff: instructions(part, f64::from(fine_ticks), 6),
     })
@@ -113,11 +127,11 @@ pub fn print(rows: &[Row], clocks: &[(&str, f64)]) {
         println!("{part}: SysTick measured at {:.4} MHz (calibration loop, -icount shift=0)", hz / 1e6);
     }
     println!();
-    println!("| part | profile | form | plant | ports | solver RAM (B) | instr/sample | worst sample | instr/port-update | stimuli equal (shift 0) | seed1 − seed0 instr (shift 6) |");
-    println!("|---|---|---|---|---:|---:|---:|---:|---:|---|---:|");
+    println!("| part | profile | form | plant | ports | solver RAM (B) | instr/sample | worst sample | event | instr/port-update | stimuli equal (shift 0) | seed1 − seed0 instr (shift 6) |");
+    println!("|---|---|---|---|---:|---:|---:|---:|---:|---:|---|---:|");
     for r in rows {
         println!(
-            "| {} | {} | {} | {} | {} | {} | {:.1} | {:.0} | {:.2} | {} | {:.1} |",
+            "| {} | {} | {} | {} | {} | {} | {:.1} | {:.0} | {} | {:.2} | {} | {:.1} |",
             r.part,
             r.profile,
             r.form,
@@ -126,6 +140,7 @@ pub fn print(rows: &[Row], clocks: &[(&str, f64)]) {
             r.ram,
             r.per_sample,
             r.worst,
+            r.event.map_or("—".to_string(), |e| format!("{e:.0}")),
             r.per_port,
             if r.equal_coarse { "yes" } else { "no" },
             r.fine_diff
@@ -133,7 +148,8 @@ pub fn print(rows: &[Row], clocks: &[(&str, f64)]) {
     }
     println!(
         "\n({} samples per timed run from rest, every sample read at -icount shift=6: the average \
-         from their sum, the worst sample from the largest; the stimulus loop's are subtracted)",
+         from their sum, the worst sample from the largest; the stimulus loop's are subtracted; event: the generic \
+         solver's costliest of a terminator removed or put back, a node broken or joined, between two samples)",
         rows.first().map_or(0, |r| r.samples)
     );
 }
@@ -163,6 +179,7 @@ pub fn figures(rows: &[Row]) -> crate::figures::Figures {
                 instructions_per_sample: (r.per_sample * 10.0).round() / 10.0,
                 instructions_per_port_update: (r.per_port * 100.0).round() / 100.0,
                 worst_instructions_per_sample: r.worst.round(),
+                event_instructions: r.event.map(f64::round),
                 stimuli_equal: r.equal_coarse,
                 stimulus_difference: (r.fine_diff * 10.0).round() / 10.0,
             })

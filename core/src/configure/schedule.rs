@@ -28,21 +28,36 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
 {
     /// The node groups, in group order and within a group in network order. Every node of
     /// the first `n_juncs` records is in at most one group, so the bounds stay <= `n_juncs`
-    /// <= JUNCS (< 2^16, shape check).
+    /// <= JUNCS (< 2^16, shape check). Two passes (count, then place: a stable counting
+    /// sort), not one pass per group: `set_shunt` and `set_broken` run this between two
+    /// samples of a running plant, where it cost 137 instructions per junction on the M4
+    /// (`docs/firmware.md`, "Events between samples").
     pub(super) fn schedule_nodes(&mut self) {
+        let group = |rt: &JunctionRt| match *rt {
+            JunctionRt::Node { mode, count, .. } => group_of(mode, count),
+            _ => None,
+        };
         let mut bounds = [0u16; NODE_GROUPS + 1];
-        let mut n = 0usize;
-        for (k, end) in bounds.iter_mut().skip(1).enumerate() {
-            for rt in self.juncs.iter().take(self.n_juncs) {
-                let JunctionRt::Node { first, count, mode, g_src, recip, shift, total, hold, .. } = *rt else {
-                    continue;
-                };
-                if group_of(mode, count) == Some(k) {
-                    set(&mut self.nodes, n, NodeRun { first, count, g_src, recip, shift, hold, total });
-                    n = n.saturating_add(1);
-                }
+        for g in self.juncs.iter().take(self.n_juncs).filter_map(group) {
+            if let Some(b) = bounds.get_mut(g.saturating_add(1)) {
+                *b = b.saturating_add(1);
             }
-            *end = n.min(JUNCS) as u16;
+        }
+        let mut sum = 0u16;
+        for b in bounds.iter_mut() {
+            sum = sum.saturating_add(*b).min(JUNCS as u16);
+            *b = sum;
+        }
+        let mut next = bounds;
+        for rt in self.juncs.iter().take(self.n_juncs) {
+            let (Some(g), JunctionRt::Node { first, count, g_src, recip, shift, total, hold, .. }) = (group(rt), *rt)
+            else {
+                continue;
+            };
+            if let Some(n) = next.get_mut(g) {
+                set(&mut self.nodes, *n as usize, NodeRun { first, count, g_src, recip, shift, hold, total });
+                *n = n.saturating_add(1);
+            }
         }
         self.node_bounds = bounds;
     }

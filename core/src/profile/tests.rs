@@ -26,6 +26,20 @@ fn reciprocal_is_rounded_down_and_normalized() {
     assert_eq!(reciprocal(1, 32, true), None);
 }
 
+/// The 64-bit shortcut of the reciprocal's division gives the 128-bit quotient, on both sides
+/// of its boundary (p = 63 in 64 bits, p = 64 in 128).
+#[test]
+fn division_in_64_bits_is_the_128_bit_quotient() {
+    for p in [1u32, 31, 32, 62, 63, 64, 65, 93] {
+        for t in [2u64, 3, 7, 1000, 12345, (1 << 30) - 1, (1 << 31) + 1, u64::MAX >> 1, u64::MAX] {
+            for strict in [false, true] {
+                let want = ((1u128 << p) - u128::from(strict)) / u128::from(t);
+                assert_eq!(div_pow2(p, strict, t), Some(want), "p={p} t={t} strict={strict}");
+            }
+        }
+    }
+}
+
 /// q as the profile's split product forms it (`quotient64`, `floor_div32`'s estimate), in u128.
 fn split_quotient(mag: u128, r: u32, s: u32, bits: u32) -> i128 {
     let r = r as u128;

@@ -15,6 +15,8 @@ use crate::stimulus::{run_hashed, Stimulus, SAMPLES, SEEDS};
 /// worst sample both count it.
 pub const TIMED: u32 = 8192;
 use cortex_m::peripheral::{syst::SystClkSource, SYST};
+#[cfg(feature = "m4")]
+use tidewire_core::{Junction, Shunt};
 use tidewire_core::{Network, PlantStep, Profile, Solver};
 
 /// SysTick reload: the full 24 bits.
@@ -122,6 +124,51 @@ fn report(out: &mut Out, profile: &str, name: &str, form: &str, seed: usize, t: 
     out.hex(t.total).hex(t.worst).hex(base.worst).hex(t.sum).hex(base.sum).nl();
 }
 
+#[cfg(feature = "m4")]
+/// The first node of `net` with a resistor to return (a terminator): what a plant's events
+/// switch (a terminator removed, a cable broken at a node).
+fn terminated_node(net: &Network) -> Option<(u16, Shunt)> {
+    net.junctions.iter().enumerate().find_map(|(j, x)| match x {
+        Junction::Node { shunt: s @ Shunt::Resistor { .. } } => Some((u16::try_from(j).ok()?, *s)),
+        _ => None,
+    })
+}
+
+/// Ticks of one event between two samples, and whether the solver took it.
+#[cfg(feature = "m4")]
+#[inline(never)]
+fn time_event(syst: &mut SYST, event: impl FnOnce() -> bool) -> (u32, bool) {
+    let t0 = mark(syst);
+    let ok = core::hint::black_box(event());
+    (elapsed(t0), ok)
+}
+
+/// The events a running plant takes, each timed on its own (`EVENT profile plant op ok ticks
+/// baseline`): the terminator removed and put back, the node broken and joined again. A rig
+/// applies an event between two samples, so its cost lands on one sample period. On the M4
+/// only: the Cortex-M0 image has no flash left for the event code of every plant (7 KB over).
+#[cfg(feature = "m4")]
+fn report_events<P: Profile, const PO: usize, const J: usize, const M: usize, const L: usize>(
+    syst: &mut SYST,
+    out: &mut Out,
+    solver: &mut Solver<P, PO, J, M, L>,
+    profile: &str,
+    name: &str,
+    net: &Network<'static>,
+) {
+    let Some((j, shunt)) = terminated_node(net) else { return };
+    let (base, _) = time_event(syst, || true);
+    let ops: [(&str, Option<Shunt>, bool); 4] =
+        [("open", Some(Shunt::Open), false), ("shunt", Some(shunt), false), ("break", None, true), ("join", None, false)];
+    for (op, to, broken) in ops {
+        let (t, ok) = match to {
+            Some(sh) => time_event(syst, || solver.set_shunt(j, sh).is_ok()),
+            None => time_event(syst, || solver.set_broken(j, broken).is_ok()),
+        };
+        out.str("EVENT").word(profile).word(name).word(op).hex(u32::from(ok)).hex(t).hex(base).nl();
+    }
+}
+
 /// `Solver::new()`, out of line: the solver is built through the return slot in the caller's
 /// frame, and the temporaries LLVM makes for it (on the M0 a second copy of the loss records,
 /// 2.2 KB for p34_narrow) live in this frame only while it runs, not in `run_plant`'s under
@@ -185,6 +232,8 @@ pub fn run_plant<P: Profile, const PO: usize, const J: usize, const M: usize, co
         let t = time_steps(syst, &mut solver, *seed);
         report(out, profile, name, "generic", i, t, time_baseline(syst, *seed));
     }
+    #[cfg(feature = "m4")]
+    report_events(syst, out, &mut solver, profile, name, net);
     true
 }
 
