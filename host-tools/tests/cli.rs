@@ -50,7 +50,19 @@ fn every_demo_plant_inspects_compiles_and_simulates() {
                 .assert()
                 .success();
             assert!(std::fs::read(&img).unwrap().starts_with(b"TIDW"));
-            assert!(std::fs::read_to_string(&rs).unwrap().contains("pub static NETWORK"));
+            let source = std::fs::read_to_string(&rs).unwrap();
+            assert!(source.contains("pub static NETWORK"));
+            // inspect's specialised memory is the emitted plant's: three spans.
+            let span: u64 = source
+                .split("pub const SPAN: usize = ")
+                .nth(1)
+                .and_then(|t| t.split(';').next())
+                .and_then(|t| t.parse().ok())
+                .unwrap_or_else(|| panic!("{name}: no SPAN in the specialised source"));
+            assert!(
+                text.contains(&format!("specialised form ({profile}): {} waves of delay memory", 3 * span)),
+                "{name} {profile}: {text}"
+            );
             let csv = out.join(format!("{name}-{profile}.csv"));
             tidewire()
                 .args([

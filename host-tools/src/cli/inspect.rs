@@ -263,7 +263,24 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
         "   {} line ends (port updates per sample), {} junctions, {} waves of delay storage",
         r.ports, r.junctions, r.memory_waves
     );
-    let _ = writeln!(s, "   RAM about {wide_kb:.1} KiB (wide) / {narrow_kb:.1} KiB (narrow)");
+    let _ = writeln!(s, "   RAM about {wide_kb:.1} KiB (wide) / {narrow_kb:.1} KiB (narrow), generic form");
+    // The specialised form keeps its rings in three spans (no sample copies memory at the
+    // window's wrap), so its delay memory is about three times the generic form's.
+    match crate::emit::specialised_memory_waves(&c.network(), c.profile) {
+        Some(w) => {
+            let bytes = w * if c.profile == ProfileKind::Wide { 4 } else { 2 };
+            let _ = writeln!(
+                s,
+                "   specialised form ({}): {w} waves of delay memory, {:.1} KiB",
+                c.profile.name(),
+                bytes as f64 / 1024.0
+            );
+        }
+        None => {
+            let _ =
+                writeln!(s, "   specialised form: not available for this plant (`tidewire compile --rust` says why)");
+        }
+    }
     for b in crate::analysis::budget::budgets(r.ports, r.junctions, 1.0 / c.dt) {
         let _ = writeln!(s, "   {b}");
     }

@@ -8,7 +8,7 @@ mod specialised;
 pub use crate::compile::capacities;
 pub use image::{image_bytes, write_image};
 pub use rust_source::{rust_source, write_rust_source};
-pub use specialised::{plant_rust_source, specialised_source, switched_junctions, EmitError};
+pub use specialised::{plant_rust_source, specialised_memory_waves, specialised_source, switched_junctions, EmitError};
 
 /// The crate's one atomic writer, re-exported here for the tools that write images.
 pub use crate::files::write_atomic;

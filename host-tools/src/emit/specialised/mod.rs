@@ -91,6 +91,13 @@ pub fn switched_junctions(c: &crate::compile::Compiled) -> Vec<JunctionId> {
         .collect()
 }
 
+/// Waves of delay memory the specialised form of `net` keeps (three spans, see `layout`), or
+/// `None` where it cannot be emitted.
+pub fn specialised_memory_waves(net: &Network<'_>, profile: ProfileKind) -> Option<u64> {
+    let l = loaded::load(net, profile).ok()?;
+    Layout::of(&l).map(|x| 3 * u64::from(x.span))
+}
+
 /// The source of `pub mod specialised { pub struct Plant }` for `net` compiled for
 /// `profile`; `switched` are the junctions the plant's events change (their nodes keep
 /// run-time coefficients, every other node is constants).
