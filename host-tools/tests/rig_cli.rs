@@ -97,6 +97,18 @@ fn rate_says_whether_a_part_keeps_up_and_names_unknown_parts() {
         assert!(out.contains("runs in real time") && out.contains("highest real-time rate"), "{part}: {out}");
         assert!(out.contains("tolerances at"), "{part}: {out}");
     }
+    // The specialised form keeps its delay memory in three spans (no copy at the window's
+    // wrap): its RAM is the larger of the two forms on the same plant and part.
+    let ram = |form: &str| -> f64 {
+        let a = tidewire().args(["rate", p.to_str().unwrap(), "--part", "m4", "--form", form]).assert();
+        let out = String::from_utf8_lossy(&a.get_output().stdout).into_owned();
+        out.split("RAM: solver about ")
+            .nth(1)
+            .and_then(|t| t.split(' ').next())
+            .and_then(|t| t.parse().ok())
+            .unwrap_or_else(|| panic!("{form}: no RAM line in {out}"))
+    };
+    assert!(ram("specialised") > ram("generic"));
     let a = tidewire().args(["rate", plant.to_str().unwrap(), "--part", "z80"]).assert().code(2);
     assert!(String::from_utf8_lossy(&a.get_output().stderr).contains("parts: m0, m4, stm32f407"));
 }

@@ -172,6 +172,20 @@ fn search_table(
 }
 
 /// The part's real-time answer (the command's answer before the rate search existed).
+/// Solver RAM of `c` in `form`: the specialised form keeps its delay memory in three spans
+/// (emitter's layout) instead of the generic form's rings.
+fn solver_ram(c: &Compiled, profile: ProfileKind, form: Form) -> usize {
+    let generic = c.report.ram_bytes(profile);
+    let wave = if profile == ProfileKind::Wide { 4 } else { 2 };
+    match (form, crate::emit::specialised_memory_waves(&c.network(), profile)) {
+        (Form::Specialised, Some(w)) => {
+            let rings = usize::try_from(w).unwrap_or(usize::MAX).saturating_mul(wave);
+            generic.saturating_sub(c.report.memory_waves * wave).saturating_add(rings)
+        }
+        _ => generic,
+    }
+}
+
 fn real_time(plant: &Plant, file: &str, part: &RigPart, form: Form) -> Result<i32, Failure> {
     let file = file.to_string();
     let own = compile(plant, &file, part.profile)?;
@@ -218,7 +232,7 @@ fn real_time(plant: &Plant, file: &str, part: &RigPart, form: Form) -> Result<i3
             (None, own)
         }
     };
-    let ram = c.report.ram_bytes(part.profile);
+    let ram = solver_ram(&c, part.profile, form);
     let image = crate::emit::image_bytes(&c.network()).len();
     let ram_ok = ram <= part.ram;
     println!(
