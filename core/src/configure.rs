@@ -492,7 +492,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             return Err(refused);
         }
         set(&mut self.juncs, j, new);
-        self.schedule_nodes();
+        self.reschedule_node(j);
         Ok(())
     }
 
@@ -507,7 +507,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             }
             _ => return Err(ConfigError::NotANode { junction }),
         }
-        self.schedule_nodes();
+        self.reschedule_node(j);
         Ok(())
     }
 

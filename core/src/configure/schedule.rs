@@ -23,6 +23,33 @@ fn group_of(mode: Mode, count: u16) -> Option<usize> {
     }
 }
 
+/// Every entry one slot down, the first to the last (`rotate_left(1)` without its assertion,
+/// a panic path the firmware's link check would find).
+fn rotate_down(s: &mut [NodeRun]) {
+    if let Some((first, rest)) = s.split_first_mut() {
+        let saved = *first;
+        let mut prev = first;
+        for x in rest {
+            *prev = *x;
+            prev = x;
+        }
+        *prev = saved;
+    }
+}
+
+/// Every entry one slot up, the last to the first (`rotate_right(1)`).
+fn rotate_up(s: &mut [NodeRun]) {
+    if let Some((last, rest)) = s.split_last_mut() {
+        let saved = *last;
+        let mut next = last;
+        for x in rest.iter_mut().rev() {
+            *next = *x;
+            next = x;
+        }
+        *next = saved;
+    }
+}
+
 impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const LOSSES: usize>
     Solver<P, PORTS, JUNCS, MEM, LOSSES>
 {
@@ -62,6 +89,57 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         self.node_bounds = bounds;
     }
 
+    /// Junction `j`'s node record changed (`set_shunt`, `set_broken`): its entry is updated
+    /// in place, or moved to its new group (one rotation of the entries between its old and
+    /// new slot, the bounds between shifted by one), into the place a full
+    /// [`Self::schedule_nodes`] gives it (`schedule_tests.rs` checks every event against
+    /// one). An event lands on the sample after it, and the full rebuild cost about 66
+    /// instructions per junction on the M4 (`docs/firmware.md`, "Events between samples").
+    /// Anything unexpected (the entry not found, a linked node) falls back to the rebuild.
+    pub(super) fn reschedule_node(&mut self, j: usize) {
+        let Some(JunctionRt::Node { first, count, g_src, recip, shift, total, hold, mode, .. }) =
+            self.juncs.get(j).copied()
+        else {
+            return self.schedule_nodes();
+        };
+        let run = NodeRun { first, count, g_src, recip, shift, hold, total };
+        let bounds = self.node_bounds;
+        let bound = |g: usize| bounds.get(g).map_or(0, |&b| usize::from(b));
+        let end = bound(NODE_GROUPS).min(JUNCS);
+        let group_at = |i: usize| (0..NODE_GROUPS).find(|&g| i < bound(g.saturating_add(1)));
+        let found = self.nodes.iter().take(end).position(|r| r.first == first && r.count == count);
+        let (Some(i), Some(to)) = (found, group_of(mode, count)) else {
+            return self.schedule_nodes();
+        };
+        let Some(from) = group_at(i) else { return self.schedule_nodes() };
+        if from == to {
+            set(&mut self.nodes, i, run);
+            return;
+        }
+        // The slot in group `to` that keeps network order (ports are numbered in it).
+        let (lo, hi) = (bound(to), bound(to.saturating_add(1)));
+        let p = self.nodes.iter().enumerate().take(hi).skip(lo).find(|(_, r)| r.first > first).map_or(hi, |(k, _)| k);
+        if to > from {
+            // Entries i+1 .. p move down by one; the node lands at p − 1.
+            if let Some(s) = self.nodes.get_mut(i..p) {
+                rotate_down(s);
+            }
+            set(&mut self.nodes, p.saturating_sub(1), run);
+            for b in self.node_bounds.iter_mut().take(to.saturating_add(1)).skip(from.saturating_add(1)) {
+                *b = b.saturating_sub(1);
+            }
+        } else {
+            // Entries p .. i−1 move up by one; the node lands at p.
+            if let Some(s) = self.nodes.get_mut(p..=i) {
+                rotate_up(s);
+            }
+            set(&mut self.nodes, p, run);
+            for b in self.node_bounds.iter_mut().take(from.saturating_add(1)).skip(to.saturating_add(1)) {
+                *b = b.saturating_add(1);
+            }
+        }
+    }
+
     /// Series resistors, then chokes (states zero), and the rig port. At load only: the
     /// two-ports are not switchable, and their states must survive a node's change. A
     /// two-port whose ports are not adjacent (p, p + 1), which the junction records never
@@ -93,3 +171,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         Ok(())
     }
 }
+
+#[cfg(test)]
+#[path = "schedule_tests.rs"]
+mod tests;
