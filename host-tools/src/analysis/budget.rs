@@ -34,6 +34,9 @@ struct Row {
     ports: usize,
     /// The slowest single sample of the firmware's timed runs.
     worst_instructions_per_sample: f64,
+    /// The costliest event between two samples (generic form, where measured).
+    #[serde(default)]
+    event_instructions: Option<f64>,
 }
 
 /// A part class the budget is stated for: the figures' part, profile and form, and the clock
@@ -61,9 +64,20 @@ pub const PARTS: [Part; 4] = [
 /// Offset from a part class's generic entry in [`PARTS`] to its specialised one.
 pub const SPECIALISED_OFFSET: usize = 2;
 
-/// Least-squares (per_port, base, machine, largest measured plant) for one part, profile and
-/// form, or `None` if the figures hold fewer than two plants of it.
+/// Least-squares (per_port, base, machine, largest measured plant) of each plant's slowest
+/// sample for one part, profile and form, or `None` if the figures hold fewer than two plants.
 fn fit(part: &Part) -> Option<(f64, f64, String, usize)> {
+    fit_by(part, |r| Some(r.worst_instructions_per_sample))
+}
+
+/// The same line through the costliest event between two samples, where it was measured.
+fn event_fit(part: &Part) -> Option<(f64, f64, String, usize)> {
+    fit_by(part, |r| r.event_instructions)
+}
+
+/// Least squares of `value` against the ports over the plain plants of one part, profile and
+/// form that have it.
+fn fit_by(part: &Part, value: impl Fn(&Row) -> Option<f64>) -> Option<(f64, f64, String, usize)> {
     let figs: Figures = serde_json::from_str(FIGURES).ok()?;
     let rows: Vec<&Row> = figs
         .rows
@@ -73,6 +87,7 @@ fn fit(part: &Part) -> Option<(f64, f64, String, usize)> {
         // fraction, measured beside the plain plant), `p<ports>b_…` a series branch,
         // `p<ports>z_…` Zc(s) networks on its lossy lines; they stay out of the per-port fit.
         .filter(|r| !r.plant.contains("f_") && !r.plant.contains("b_") && !r.plant.contains("z_"))
+        .filter(|r| value(r).is_some())
         .collect();
     if rows.len() < 2 {
         return None;
@@ -80,7 +95,7 @@ fn fit(part: &Part) -> Option<(f64, f64, String, usize)> {
     // Least squares on the relative error (weights 1/y²): a budget off by 10 % matters as
     // much for a 2-port plant as for an 85-port one, and the fixed cost per sample differs
     // between the forms.
-    let y = |r: &Row| r.worst_instructions_per_sample;
+    let y = |r: &Row| value(r).unwrap_or(0.0);
     let w = |r: &Row| y(r).powi(-2);
     let sw: f64 = rows.iter().map(|r| w(r)).sum();
     let mx = rows.iter().map(|r| w(r) * r.ports as f64).sum::<f64>() / sw;
@@ -99,6 +114,28 @@ fn fit(part: &Part) -> Option<(f64, f64, String, usize)> {
 /// figures file; `None` if the figures do not hold that part, profile and form.
 pub fn instructions_per_sample(part: &Part, ports: usize) -> Option<f64> {
     fit(part).map(|(per_port, base, _, _)| per_port * ports as f64 + base)
+}
+
+/// One line per part class whose events were measured: what an event between two samples
+/// (a terminator switched, a node broken or joined) adds to the sample after it.
+pub fn event_budgets(ports: usize) -> Vec<String> {
+    PARTS
+        .iter()
+        .filter_map(|p| {
+            let (per_port, base, machine, _) = event_fit(p)?;
+            let instr = per_port * ports as f64 + base;
+            Some(format!(
+                "{} at {:.0} MHz ({} profile, {} form): an event adds about {instr:.0} instructions \
+                 ({:.1} us) to the sample after it; docs/firmware-figures.json, {} on QEMU {machine}",
+                p.name,
+                p.clock_hz / 1e6,
+                p.profile,
+                p.form,
+                instr / p.clock_hz * 1e6,
+                p.figures_part
+            ))
+        })
+        .collect()
 }
 
 /// One line per part: what it assumes (part, profile, form, clock), instructions per sample,
@@ -153,6 +190,20 @@ mod tests {
                 assert!((model / r.worst_instructions_per_sample - 1.0).abs() < 0.10, "{} {} ports", p.name, r.ports);
             }
         }
+        // The event line follows the measured events the same way, where they were measured.
+        for p in &PARTS {
+            let Some((per_port, base, _, _)) = event_fit(p) else { continue };
+            let rows =
+                figs.rows.iter().filter(|r| r.part == p.figures_part && r.profile == p.profile && r.form == p.form);
+            for r in rows.filter(|r| !r.plant.contains("f_") && !r.plant.contains("b_") && !r.plant.contains("z_")) {
+                let e = r.event_instructions.expect("measured for every plain plant of this part");
+                let model = per_port * r.ports as f64 + base;
+                assert!((model / e - 1.0).abs() < 0.10, "event {} {} ports: {model} against {e}", p.name, r.ports);
+            }
+        }
+        let events = event_budgets(85);
+        assert_eq!(events.len(), 1, "{events:?}");
+        assert!(events[0].contains("Cortex-M4 class at 168 MHz (wide profile, generic form): an event adds about"));
         let lines = budgets(32, 16, 100e6);
         assert!(lines[1].contains("Cortex-M4 class at 168 MHz (wide profile, generic form)"), "{}", lines[1]);
         assert!(lines[0].contains("Cortex-M0 class at 48 MHz (narrow profile, generic form)"), "{}", lines[0]);

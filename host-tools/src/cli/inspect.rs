@@ -284,6 +284,11 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
     for b in crate::analysis::budget::budgets(r.ports, r.junctions, 1.0 / c.dt) {
         let _ = writeln!(s, "   {b}");
     }
+    if !c.events.is_empty() {
+        for b in crate::analysis::budget::event_budgets(r.ports) {
+            let _ = writeln!(s, "   {b}");
+        }
+    }
     for w in &a.warnings {
         let _ = writeln!(s, "\n!! warning: {w}");
     }
