@@ -14,7 +14,8 @@
 //! sections, a rig port with latency 2, and events: a load switched (open → resistor,
 //! short → open, open → resistor → short → open), a node broken and joined again; a series
 //! branch between two nodes (a lumped pi section); lossy lines with Zc(s) networks at both
-//! ends (node-wave form), through a series junction, a one-sample line and a break.
+//! ends (node-wave form), through a series junction, a one-sample line and a break; a 34-port
+//! field bus built only from the kinds the old-style generic step of `benches/forms.rs` knows.
 use std::path::{Path, PathBuf};
 use tidewire::core::{
     Allpass, ConfigError, Drive, Element, ElementKind, Junction, Line, LineLoss, Narrow, Network, PlantStep, Probe,
