@@ -35,7 +35,8 @@ generated!(rig_break_wide, rig_break_narrow, one_line_wide, tap_bus_wide, tap_bu
 
 use old_generic::convert::Unsupported;
 use tidewire::core::{
-    Allpass, Drive, Junction, Line, LineLoss, Narrow, Network, Probe, ProbeKind, Shunt, Side, Solver, Wide, ZcNetwork,
+    Allpass, Drive, Element, ElementKind, Junction, Line, LineLoss, Narrow, Network, Probe, ProbeKind, Shunt, Side,
+    Solver, Wide, ZcNetwork,
 };
 
 /// Samples compared after the burst: several round trips of the longest plant (tap bus).
@@ -151,6 +152,51 @@ fn lossless<'a>(net: &Network<'a>) -> Network<'a> {
     Network { losses: &[], ..*net }
 }
 
+/// A source-driven ladder of our own (the generated plants above are driven by a rig port
+/// or are wide only): a source node (200 Ω, no shunt: today's narrow node holds nothing
+/// there), a series resistor, an open 3-port node with a capacitor behind 10 Ω, a resistive
+/// and a shorted end. The first node after the source is 50 samples away (30 + 20).
+mod source_ladder {
+    use super::*;
+    pub const PORTS: usize = 9;
+    pub const JUNCTIONS: usize = 5;
+    pub const MEMORY: usize = 2 * (30 + 20 + 25 + 15) + 1;
+    pub const LOSS_ENDS: usize = 0;
+    pub const LINES: [Line; 4] = [
+        Line { z_milliohm: 50_000, delay: 30, a: 0, b: 1 },
+        Line { z_milliohm: 50_000, delay: 20, a: 1, b: 2 },
+        Line { z_milliohm: 100_000, delay: 25, a: 2, b: 3 },
+        Line { z_milliohm: 75_000, delay: 15, a: 2, b: 4 },
+    ];
+    pub const JUNCTION_TABLE: [Junction; 5] = [
+        Junction::Node { shunt: Shunt::Open },
+        Junction::Series { milliohm: 1_000 },
+        Junction::Node { shunt: Shunt::Open },
+        Junction::Node { shunt: Shunt::Resistor { milliohm: 330_000 } },
+        Junction::Node { shunt: Shunt::Short },
+    ];
+    pub const ELEMENTS: [Element; 1] =
+        [Element { junction: 2, kind: ElementKind::Capacitor, port_milliohm: 30_000, series_milliohm: 10_000 }];
+    pub const PROBES: [Probe; 4] = [
+        Probe { kind: ProbeKind::Voltage, line: 0, side: Side::A },
+        Probe { kind: ProbeKind::Voltage, line: 1, side: Side::B },
+        Probe { kind: ProbeKind::Current, line: 2, side: Side::B },
+        Probe { kind: ProbeKind::Current, line: 3, side: Side::B },
+    ];
+    pub fn network() -> Network<'static> {
+        Network {
+            lines: &LINES,
+            junctions: &JUNCTION_TABLE,
+            elements: &ELEMENTS,
+            losses: &[],
+            drive: Drive::Source { junction: 0, milliohm: 200_000 },
+            probes: &PROBES,
+            io_shift: 0,
+            volts_per_code: 1.0 / 4096.0,
+        }
+    }
+}
+
 #[test]
 fn narrow_old_step_equals_todays_on_a_ring_down() {
     // Rig port, series resistors, open, resistive and 2-port nodes; the first node is 30
@@ -166,6 +212,9 @@ fn narrow_old_step_equals_todays_on_a_ring_down() {
     // across the short.
     let bus = lossless(&tap_bus_narrow::NETWORK);
     check_bit_equal("tap_bus (lossless)", pair!(tap_bus_narrow, Narrow, old_generic::Narrow, &bus), 40, &[3]);
+    // A source node, an element behind a resistor, a current probe into a short.
+    let ladder = source_ladder::network();
+    check_bit_equal("source ladder", pair!(source_ladder, Narrow, old_generic::Narrow, &ladder), 40, &[]);
 }
 
 #[test]
