@@ -1,18 +1,26 @@
 //! The two forms of the per-sample step on the same plants, in one run: the generic
 //! (data-driven) `Solver` loaded from a plant's network, and the plant-specialised
 //! `specialised::Plant` that `tidewire compile --rust` emits for it (bit-exact with it:
-//! `tests/specialised.rs`). On the one-line plant, the f64 leapfrog baseline a user might
+//! `tests/specialised.rs`). On every plant the old core can represent, the generic step as it
+//! was when issue 9 was filed (`baseline/old_generic/`, frozen from commit c696084; checked
+//! against today's by `tests/old_step.rs`) runs beside them as `old-style generic`, loaded
+//! from the same network. On the one-line plant, the f64 leapfrog baseline a user might
 //! otherwise write (`baseline/leapfrog.rs`) runs beside them.
 //!
 //! Throughput is `Elements(samples)`: criterion's elements/s are simulated samples per
 //! second, so the ratio of two lines of one group is the speed-up of one form over the other.
 //! Plants (sources checked in under `tests/generated/specialised/`, regenerated and checked by
 //! `tests/specialised.rs`): `every_kind` (a test plant of our own with every element kind, 29
-//! ports, both profiles), `rig_break` (the example rig plant, wide) and `one_line` (one 1 km
-//! line of 50 Ω at 100 MHz, 500 samples of delay, as in `versus_leapfrog`).
+//! ports, both profiles; a choke, fractional delays and Zc(s) networks, so no old-style line),
+//! `tap_bus` (a field bus of our own with a rig port, five taps with series resistors, drops
+//! ending matched, capacitive, 10 Ω, shorted and AC-terminated, loss filters; 34 ports, both
+//! profiles), `rig_break` (the example rig plant, wide) and `one_line` (one 1 km line of 50 Ω
+//! at 100 MHz, 500 samples of delay, as in `versus_leapfrog`).
 
 #[path = "baseline/leapfrog.rs"]
 mod leapfrog;
+#[path = "baseline/old_generic/mod.rs"]
+mod old_generic;
 
 macro_rules! generated {
     ($($m:ident),*) => {$(
@@ -22,7 +30,7 @@ macro_rules! generated {
         }
     )*};
 }
-generated!(every_kind_wide, every_kind_narrow, rig_break_wide, one_line_wide);
+generated!(every_kind_wide, every_kind_narrow, tap_bus_wide, tap_bus_narrow, rig_break_wide, one_line_wide);
 
 use std::hint::black_box;
 use std::time::Duration;
@@ -39,7 +47,9 @@ fn stimulus_codes() -> Vec<i16> {
     (0..BLOCK).map(|n| if (n / 128) % 2 == 0 { 8000 } else { -8000 }).collect()
 }
 
-fn bench_form(c: &mut Criterion, group: &str, form: &str, solver: &mut dyn PlantStep) {
+/// One line of a group: `process` runs a block of `BLOCK` samples (`output[k]` = step of
+/// `input[k]`), the same stimulus for every form.
+fn bench_block(c: &mut Criterion, group: &str, form: &str, process: &mut dyn FnMut(&[i16], &mut [i16])) {
     let input = stimulus_codes();
     let mut output = vec![0i16; BLOCK];
     let mut g = c.benchmark_group(group);
@@ -47,11 +57,15 @@ fn bench_form(c: &mut Criterion, group: &str, form: &str, solver: &mut dyn Plant
     g.sampling_mode(SamplingMode::Flat);
     g.bench_function(form, |b| {
         b.iter(|| {
-            solver.process(black_box(&input), &mut output);
+            process(black_box(&input), &mut output);
             black_box(&output);
         })
     });
     g.finish();
+}
+
+fn bench_form(c: &mut Criterion, group: &str, form: &str, solver: &mut dyn PlantStep) {
+    bench_block(c, group, form, &mut |i, o| solver.process(i, o));
 }
 
 /// Generic and specialised form of generated plant module `$m` on profile `$p`.
@@ -62,6 +76,21 @@ macro_rules! both {
         bench_form($c, concat!("forms/", stringify!($m)), "generic", &mut *g);
         let mut s = Box::new($m::specialised::Plant::new());
         bench_form($c, concat!("forms/", stringify!($m)), "specialised", &mut *s);
+    }};
+}
+
+/// The old-style generic step (`baseline/old_generic/`) on generated plant `$m`'s network,
+/// profile `$p` (the baseline's own marker type), then the two forms of today ([`both`]).
+macro_rules! three {
+    ($c:expr, $m:ident, $p:ty, $old:ty) => {{
+        let net = old_generic::from_core(&$m::NETWORK).expect("the old core represents this plant");
+        let mut o =
+            Box::new(
+                old_generic::Solver::<$old, { $m::PORTS }, { $m::JUNCTIONS }, { $m::MEMORY }, { $m::LOSS_ENDS }>::new(),
+            );
+        o.load(&net.view()).expect("the old core loads this plant");
+        bench_block($c, concat!("forms/", stringify!($m)), "old-style generic", &mut |i, out| o.process(i, out));
+        both!($c, $m, $p);
     }};
 }
 
@@ -92,7 +121,7 @@ fn leapfrog_case(c: &mut Criterion) {
 }
 
 fn main() {
-    // Nine cases at about 3.5 s each; the command line overrides.
+    // Seventeen cases at about 3.5 s each; the command line overrides.
     let mut c = Criterion::default()
         .warm_up_time(Duration::from_secs(1))
         .measurement_time(Duration::from_secs(2))
@@ -100,8 +129,10 @@ fn main() {
         .configure_from_args();
     both!(&mut c, every_kind_wide, Wide);
     both!(&mut c, every_kind_narrow, Narrow);
-    both!(&mut c, rig_break_wide, Wide);
-    both!(&mut c, one_line_wide, Wide);
+    three!(&mut c, tap_bus_wide, Wide, old_generic::Wide);
+    three!(&mut c, tap_bus_narrow, Narrow, old_generic::Narrow);
+    three!(&mut c, rig_break_wide, Wide, old_generic::Wide);
+    three!(&mut c, one_line_wide, Wide, old_generic::Wide);
     leapfrog_case(&mut c);
     c.final_summary();
 }

@@ -14,7 +14,8 @@
 //! sections, a rig port with latency 2, and events: a load switched (open → resistor,
 //! short → open, open → resistor → short → open), a node broken and joined again; a series
 //! branch between two nodes (a lumped pi section); lossy lines with Zc(s) networks at both
-//! ends (node-wave form), through a series junction, a one-sample line and a break.
+//! ends (node-wave form), through a series junction, a one-sample line and a break; a 34-port
+//! field bus built only from the kinds the old-style generic step of `benches/forms.rs` knows.
 use std::path::{Path, PathBuf};
 use tidewire::core::{
     Allpass, ConfigError, Drive, Element, ElementKind, Junction, Line, LineLoss, Narrow, Network, PlantStep, Probe,
@@ -44,7 +45,9 @@ generated!(
     pi_section_wide,
     pi_section_narrow,
     zc_ladder_wide,
-    zc_ladder_narrow
+    zc_ladder_narrow,
+    tap_bus_wide,
+    tap_bus_narrow
 );
 
 /// A change applied to both forms before sample `.0`.
@@ -222,6 +225,86 @@ fn zc_ladder_case(profile: ProfileKind) -> (String, Vec<(usize, Ev)>) {
     (plant_rust_source(&net, profile, &[2, 3], "Zc ladder (test)").unwrap(), events)
 }
 
+/// A field bus of our own, built only from what the generic step of the day issue 9 was filed
+/// had (so `benches/forms.rs` runs that step, `benches/baseline/old_generic/`, on it beside
+/// today's two forms): a rig port (latency 2) into a 100 Ω trunk, five taps, each two trunk
+/// halves joined by a series resistor of 1.5 Ω (the lumped conductor resistance) and a drop
+/// line to an end that is in turn matched (75 Ω), a receiver's input capacitance (port
+/// resistance T/(2C) = 250 Ω), 10 Ω, a short and an AC termination (150 Ω + a capacitor of
+/// port 50 Ω), then 300 Ω at the far end. The first trunk line and every drop carry a
+/// two-section loss filter. 34 ports. Events: the short is lifted and put back, and the third
+/// tap node is broken and joined again.
+fn tap_bus_case(profile: ProfileKind) -> (String, Vec<(usize, Ev)>) {
+    const TRUNK: [u32; 10] = [14, 40, 26, 75, 19, 58, 23, 120, 35, 11];
+    const DROP: [u32; 5] = [21, 55, 130, 33, 240];
+    const DROP_OHM: [u32; 5] = [75, 120, 50, 90, 150];
+    let (ohm, trunk_z) = (1000, 100_000);
+    let q30 = |x: f64| (x * (1u64 << 30) as f64) as i64;
+    let loss = |line: usize| LineLoss {
+        line: line as u16,
+        sections: 2,
+        poles: [q30(0.62) as u32, q30(0.91) as u32, 0, 0, 0, 0],
+        zeros: [q30(0.57) as i32, q30(0.89) as i32, 0, 0, 0, 0],
+        allpass: None,
+        zc: None,
+    };
+    let mut lines = Vec::new();
+    let mut junctions = vec![Junction::Node { shunt: Shunt::Open }];
+    let mut elements = Vec::new();
+    let mut losses = vec![loss(0)];
+    let mut probes = vec![Probe { kind: ProbeKind::Current, line: 0, side: Side::A }];
+    let mut at = 0u16;
+    fn add(junctions: &mut Vec<Junction>, j: Junction) -> u16 {
+        junctions.push(j);
+        (junctions.len() - 1) as u16
+    }
+    for t in 0..5 {
+        let series = add(&mut junctions, Junction::Series { milliohm: 1_500 });
+        lines.push(Line { z_milliohm: trunk_z, delay: TRUNK[2 * t], a: at, b: series });
+        let tap = add(&mut junctions, Junction::Node { shunt: Shunt::Open });
+        lines.push(Line { z_milliohm: trunk_z, delay: TRUNK[2 * t + 1], a: series, b: tap });
+        let z = DROP_OHM[t] * ohm;
+        let end = match t {
+            0 => Shunt::Resistor { milliohm: z },
+            2 => Shunt::Resistor { milliohm: 10 * ohm },
+            3 => Shunt::Short,
+            _ => Shunt::Open,
+        };
+        let drop_end = add(&mut junctions, Junction::Node { shunt: end });
+        let series_milliohm = if t == 4 { z } else { 0 };
+        if t == 1 || t == 4 {
+            let port_milliohm = if t == 1 { 250 * ohm } else { 50 * ohm };
+            elements.push(Element { junction: drop_end, kind: ElementKind::Capacitor, port_milliohm, series_milliohm });
+        }
+        lines.push(Line { z_milliohm: z, delay: DROP[t], a: tap, b: drop_end });
+        losses.push(loss(lines.len() - 1));
+        probes.push(Probe { kind: ProbeKind::Voltage, line: (lines.len() - 1) as u16, side: Side::B });
+        at = tap;
+    }
+    let far = add(&mut junctions, Junction::Node { shunt: Shunt::Resistor { milliohm: 300 * ohm } });
+    lines.push(Line { z_milliohm: trunk_z, delay: 31, a: at, b: far });
+    probes.push(Probe { kind: ProbeKind::Voltage, line: (lines.len() - 1) as u16, side: Side::B });
+    let net = Network {
+        lines: &lines,
+        junctions: &junctions,
+        elements: &elements,
+        losses: &losses,
+        drive: Drive::Rig { junction: 0, latency: 2 },
+        probes: &probes,
+        io_shift: if profile == ProfileKind::Wide { 12 } else { 0 },
+        volts_per_code: 1.0 / 4096.0,
+    };
+    // Junctions: 0 the rig port, then (series, tap, drop end) per tap: the short is 12, the
+    // third tap node 8.
+    let events = vec![
+        (250, Ev::Shunt(12, Shunt::Open)),
+        (400, Ev::Broken(8, true)),
+        (520, Ev::Shunt(12, Shunt::Short)),
+        (650, Ev::Broken(8, false)),
+    ];
+    (plant_rust_source(&net, profile, &[8, 12], "tap bus (test)").unwrap(), events)
+}
+
 fn fresh(name: &str) -> (String, Vec<(usize, Ev)>) {
     let profile = if name.ends_with("wide") { ProfileKind::Wide } else { ProfileKind::Narrow };
     match name.trim_end_matches("_wide").trim_end_matches("_narrow") {
@@ -230,11 +313,12 @@ fn fresh(name: &str) -> (String, Vec<(usize, Ev)>) {
         "one_line" => one_line_case(),
         "pi_section" => plant_file_case("tests/plants/pi-section.toml", profile),
         "zc_ladder" => zc_ladder_case(profile),
+        "tap_bus" => tap_bus_case(profile),
         _ => reactive_case(profile),
     }
 }
 
-const CASES: [&str; 11] = [
+const CASES: [&str; 13] = [
     "every_kind_wide",
     "every_kind_narrow",
     "rig_break_wide",
@@ -246,6 +330,8 @@ const CASES: [&str; 11] = [
     "pi_section_narrow",
     "zc_ladder_wide",
     "zc_ladder_narrow",
+    "tap_bus_wide",
+    "tap_bus_narrow",
 ];
 
 #[test]
@@ -374,6 +460,12 @@ fn a_series_branch_between_nodes_is_bit_exact() {
 fn lossy_lines_with_zc_networks_are_bit_exact() {
     check("zc_ladder_wide", &forms!(zc_ladder_wide, Wide));
     check("zc_ladder_narrow", &forms!(zc_ladder_narrow, Narrow));
+}
+
+#[test]
+fn the_benched_tap_bus_is_bit_exact() {
+    check("tap_bus_wide", &forms!(tap_bus_wide, Wide));
+    check("tap_bus_narrow", &forms!(tap_bus_narrow, Narrow));
 }
 
 #[test]
