@@ -40,9 +40,8 @@ pub struct FigureRow {
     /// The slowest single sample of an 8192-sample run from rest: what a loop that must
     /// meet every sample period has to budget for.
     pub worst_instructions_per_sample: f64,
-    /// Generic form: the costliest event between two samples (a terminator removed or put
-    /// back, a node broken or joined; `null` for the specialised form and plants without a
-    /// terminated node). It lands on the sample it precedes.
+    /// The costliest event between two samples (a terminator removed or put back, a node
+    /// broken or joined; `null` where it was not measured). It lands on the sample it precedes.
     pub event_instructions: Option<f64>,
     /// Both stimuli took the same number of SysTick ticks at `-icount shift=0`.
     pub stimuli_equal: bool,

@@ -5,6 +5,9 @@ use std::collections::BTreeMap;
 /// (profile, plant, form, seed index): which timed block.
 pub type TicksKey = (String, String, String, u32);
 
+/// (profile, plant, form, event): which event.
+pub type EventKey = (String, String, String, String);
+
 /// One timed run: samples; ticks of the run (mod 2^24); the most ticks of one sample, with the
 /// step and of the stimulus loop alone; the sums of the samples' own readings, the same two.
 #[derive(Debug, Clone, Copy)]
@@ -24,9 +27,9 @@ pub struct Report {
     pub hashes: BTreeMap<(String, String, String, u32), u32>,
     /// (profile, plant, form, seed index) → the timed run.
     pub ticks: BTreeMap<TicksKey, Ticks>,
-    /// (profile, plant, event) → (taken, ticks, ticks of an empty event): the generic solver's
-    /// events between two samples.
-    pub events: BTreeMap<(String, String, String), (bool, u32, u32)>,
+    /// (profile, plant, form, event) → (taken, ticks, ticks of an empty event): events
+    /// between two samples.
+    pub events: BTreeMap<EventKey, (bool, u32, u32)>,
     /// (profile, plant, form) → solver size in bytes.
     pub ram: BTreeMap<(String, String, String), u32>,
     /// Calibration: (cycles asked of `asm::delay`, ticks).
@@ -62,8 +65,8 @@ pub fn parse(text: &str) -> Report {
                 r.ticks.insert((key(1), key(2), key(3), hex(g(4))?), t);
                 Some(())
             })(),
-            Some("EVENT") => hex(g(4)).zip(hex(g(5)).zip(hex(g(6)))).map(|(ok, (t, b))| {
-                r.events.insert((key(1), key(2), key(3)), (ok == 1, t, b));
+            Some("EVENT") => hex(g(5)).zip(hex(g(6)).zip(hex(g(7)))).map(|(ok, (t, b))| {
+                r.events.insert((key(1), key(2), key(3), key(4)), (ok == 1, t, b));
             }),
             Some("RAM") => hex(g(4)).map(|b| {
                 r.ram.insert((key(1), key(2), key(3)), b);

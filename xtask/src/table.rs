@@ -26,8 +26,8 @@ pub struct Row {
     per_port: f64,
     /// Instructions of the slowest single sample of a longer run (`-icount shift=6`).
     worst: f64,
-    /// Generic form: instructions of the costliest event between two samples (terminator
-    /// removed or put back, node broken or joined), if the plant has a terminated node.
+    /// Instructions of the costliest event between two samples (terminator removed or put
+    /// back, node broken or joined), if the plant has a terminated node and it was measured.
     event: Option<f64>,
 
     /// Seed-0 and seed-1 tick counts equal at shift 0.
@@ -92,10 +92,10 @@ pub fn row(
     // stimuli's totals is read, as a signed difference mod 2^24.
     let fine_ticks = (f1.total.wrapping_sub(f0.total) << 8) as i32 >> 8;
     let mut event = None;
-    for ((prof, name, op), (ok, t, b)) in &fine.events {
-        if form == "generic" && prof == profile && *name == plant.name {
+    for ((prof, name, f, op), (ok, t, b)) in &fine.events {
+        if f == form && prof == profile && *name == plant.name {
             if !ok {
-                return Err(format!("{}: the generic solver refused event `{op}` on {profile} {name}", part.name));
+                return Err(format!("{}: the {form} form refused event `{op}` on {profile} {name}", part.name));
             }
             let x = instructions(part, f64::from(*t) - f64::from(*b), 6);
             event = Some(event.map_or(x, |e: f64| e.max(x)));
@@ -148,8 +148,8 @@ pub fn print(rows: &[Row], clocks: &[(&str, f64)]) {
     }
     println!(
         "\n({} samples per timed run from rest, every sample read at -icount shift=6: the average \
-         from their sum, the worst sample from the largest; the stimulus loop's are subtracted; event: the generic \
-         solver's costliest of a terminator removed or put back, a node broken or joined, between two samples)",
+         from their sum, the worst sample from the largest; the stimulus loop's are subtracted; event: the \
+         costliest of a terminator removed or put back, a node broken or joined, between two samples)",
         rows.first().map_or(0, |r| r.samples)
     );
 }
