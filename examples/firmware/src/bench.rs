@@ -15,7 +15,7 @@ use crate::stimulus::{run_hashed, Stimulus, SAMPLES, SEEDS};
 /// worst sample both count it.
 pub const TIMED: u32 = 8192;
 use cortex_m::peripheral::{syst::SystClkSource, SYST};
-#[cfg(feature = "m4")]
+#[cfg(not(feature = "inject-panic"))]
 use tidewire_core::{Junction, Shunt};
 use tidewire_core::{Network, PlantStep, Profile, Solver};
 
@@ -124,7 +124,7 @@ fn report(out: &mut Out, profile: &str, name: &str, form: &str, seed: usize, t: 
     out.hex(t.total).hex(t.worst).hex(base.worst).hex(t.sum).hex(base.sum).nl();
 }
 
-#[cfg(feature = "m4")]
+#[cfg(not(feature = "inject-panic"))]
 /// The first node of `net` with a resistor to return (a terminator): what a plant's events
 /// switch (a terminator removed, a cable broken at a node).
 fn terminated_node(net: &Network) -> Option<(u16, Shunt)> {
@@ -135,7 +135,7 @@ fn terminated_node(net: &Network) -> Option<(u16, Shunt)> {
 }
 
 /// Ticks of one event between two samples, and whether the solver took it.
-#[cfg(feature = "m4")]
+#[cfg(not(feature = "inject-panic"))]
 #[inline(never)]
 fn time_event(syst: &mut SYST, event: impl FnOnce() -> bool) -> (u32, bool) {
     let t0 = mark(syst);
@@ -146,9 +146,9 @@ fn time_event(syst: &mut SYST, event: impl FnOnce() -> bool) -> (u32, bool) {
 /// The events a running plant takes, each timed on its own (`EVENT profile plant form op ok
 /// ticks baseline`): the terminator removed and put back, the node broken and joined again.
 /// A rig applies an event between two samples, so its cost lands on one sample period. On the
-/// M4 only: the Cortex-M0 image has no flash left for the event code of every plant (7 KB over
-/// for the generic form alone, 33 KB with the specialised form's).
-#[cfg(feature = "m4")]
+/// M4 for every plant; on the Cortex-M0 for its largest plant only ([`events_only`]): its
+/// image has no flash for the event code of every plant (7 KB over).
+#[cfg(not(feature = "inject-panic"))]
 fn report_events<S: PlantStep>(syst: &mut SYST, out: &mut Out, solver: &mut S, what: [&str; 3], net: &Network) {
     let Some((j, shunt)) = terminated_node(net) else { return };
     let (base, _) = time_event(syst, || true);
@@ -166,6 +166,27 @@ fn report_events<S: PlantStep>(syst: &mut SYST, out: &mut Out, solver: &mut S, w
         let [profile, name, form] = what;
         out.str("EVENT").word(profile).word(name).word(form).word(op).hex(u32::from(ok)).hex(t).hex(base).nl();
     }
+}
+
+/// The events of one plant's generic solver alone (the Cortex-M0, whose flash holds the event
+/// code for one plant): loaded fresh, run from rest for a while, then the events.
+#[cfg(all(feature = "m0", not(feature = "m4"), not(feature = "inject-panic")))]
+#[inline(never)]
+pub fn events_only<P: Profile, const PO: usize, const J: usize, const M: usize, const L: usize>(
+    syst: &mut SYST,
+    out: &mut Out,
+    profile: &str,
+    name: &str,
+    net: &Network<'static>,
+) -> bool {
+    let mut solver: Solver<P, PO, J, M, L> = fresh();
+    if !load(&mut solver, net) {
+        out.str("ERROR load").word(profile).word(name).word("source").nl();
+        return false;
+    }
+    let _ = run_hashed(&mut solver, SEEDS[0], SAMPLES);
+    report_events(syst, out, &mut solver, [profile, name, "generic"], net);
+    true
 }
 
 /// `Solver::new()`, out of line: the solver is built through the return slot in the caller's

@@ -77,6 +77,18 @@ fn main() -> ! {
         plants::narrow_plants!(run, syst, out, ok, Narrow);
         #[cfg(all(feature = "m0", not(feature = "inject-panic")))]
         plants::m0_narrow_plants!(run, syst, out, ok, Narrow);
+        // Events on the M0: its largest plant only (flash).
+        #[cfg(all(feature = "m0", not(feature = "m4"), not(feature = "inject-panic")))]
+        {
+            use plants::p34_narrow as p;
+            ok &= bench::events_only::<Narrow, { p::PORTS }, { p::JUNCTIONS }, { p::MEMORY }, { p::LOSS_ENDS }>(
+                &mut syst,
+                &mut out,
+                "Narrow",
+                "p34_narrow",
+                &p::NETWORK,
+            );
+        }
         // The panic is injected into the bench's timing loop (`bench::time_steps`), which
         // every plant shares: one plant is enough to show that a reachable panic does not
         // link, and spares the check two whole-image LTO builds. That every plant's step is
