@@ -131,8 +131,9 @@ pub mod specialised {
     type W = i16;
     /// The rings' span, waves: the window of one sample, and the period of its position.
     pub const SPAN: usize = 3934;
-    /// Delay memory, waves: three spans (every write also lands one span lower, where the
-    /// next period reads the waves in flight at a wrap; see the layout in the emitter).
+    /// Delay memory, waves: three spans. Every ring write also lands one span lower, where
+    /// the window finds the waves still in flight after it wraps, so no sample copies memory
+    /// and every sample costs the same (docs/firmware.md, "The slowest sample").
     pub const MEM: usize = 3 * SPAN;
     const IO_SHIFT: u32 = 0;
     const EXPONENT: u32 = 28;

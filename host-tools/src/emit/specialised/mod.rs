@@ -244,7 +244,7 @@ impl Writer<'_> {
         let _ = writeln!(s, "    pub const SPAN: usize = {};", self.layout.span);
         let _ = writeln!(
             s,
-            "    /// Delay memory, waves: three spans (every write also lands one span lower, where the\n    /// next period reads the waves in flight at a wrap; see the layout in the emitter)."
+            "    /// Delay memory, waves: three spans. Every ring write also lands one span lower, where\n    /// the window finds the waves still in flight after it wraps, so no sample copies memory\n    /// and every sample costs the same (docs/firmware.md, \"The slowest sample\")."
         );
         let _ = writeln!(s, "    pub const MEM: usize = 3 * SPAN;");
         let _ = writeln!(s, "    const IO_SHIFT: u32 = {};", l.io_shift);
