@@ -1,9 +1,9 @@
 //! `cargo run -p xtask -- step-profile [PLANT] [m4|m0]`: where the instructions of a
 //! plant-specialised `step` go, from the firmware ELF the last `firmware` run built.
 //!
-//! The specialised step is straight-line code (every junction unrolled), so each instruction
-//! in it runs once per sample (apart from the branch that copies the ring window down at a
-//! wrap): its static count is the instruction count per sample. Each instruction is attributed
+//! The specialised step is straight-line code (every junction unrolled, no copy at the ring
+//! window's wrap), so each instruction in it runs once per sample: its static count is the
+//! instruction count per sample. Each instruction is attributed
 //! with `llvm-addr2line -i` to its inline chain: the outermost frame is a line of the
 //! generated `examples/firmware/plants/gen/PLANT.rs` (which junction, loss filter or read-out
 //! it belongs to), the next one the `Profile` operation it comes from. Needs `llvm-nm`,
