@@ -1,0 +1,87 @@
+//! Hostile inputs as a CI job meets them: a plant file that is not UTF-8, a device or an
+//! oversized file given as the plant, an output into a folder that does not exist. Each is
+//! refused with a located error, exit 2, before any work, and nothing is written.
+use assert_cmd::Command;
+use std::path::{Path, PathBuf};
+
+fn tidewire() -> Command {
+    Command::cargo_bin("tidewire").unwrap()
+}
+
+fn s(p: &Path) -> &str {
+    p.to_str().unwrap()
+}
+
+/// A fresh folder with the irrigation example plant copied in as `plant.toml`.
+fn setup() -> (tempfile::TempDir, PathBuf) {
+    let dir = tempfile::Builder::new().prefix("tidewire-hostile-").tempdir().unwrap();
+    let src = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/plants/irrigation-network.toml");
+    let p = dir.path().join("plant.toml");
+    std::fs::copy(src, &p).unwrap();
+    (dir, p)
+}
+
+/// The names in `dir`, sorted.
+fn names(dir: &Path) -> Vec<String> {
+    let mut v: Vec<String> =
+        std::fs::read_dir(dir).unwrap().map(|e| e.unwrap().file_name().to_string_lossy().into_owned()).collect();
+    v.sort();
+    v
+}
+
+/// Run, expect exit 2, no panic, and `needle` in stderr; returns stderr.
+fn refused(args: &[&str], needle: &str) -> String {
+    let a = tidewire().args(args).assert().code(2);
+    let err = String::from_utf8_lossy(&a.get_output().stderr).into_owned();
+    assert!(err.contains(needle), "{args:?}: expected {needle:?} in: {err}");
+    assert!(!err.contains("panicked"), "{args:?}: {err}");
+    err
+}
+
+#[test]
+fn a_plant_file_that_is_not_utf8_is_refused_at_the_line_and_column_of_the_bad_byte() {
+    let (dir, p) = setup();
+    let mut bytes = std::fs::read(&p).unwrap();
+    // Line 3 of the example is a comment; put a Latin-1 'é' (0xe9) after its 5th character.
+    let line3 = bytes.iter().enumerate().filter(|(_, b)| **b == b'\n').nth(1).unwrap().0 + 1;
+    bytes.insert(line3 + 5, 0xe9);
+    std::fs::write(&p, &bytes).unwrap();
+    let before = names(dir.path());
+    let out = dir.path().join("x.bin");
+    for cmd in [&["inspect", s(&p)][..], &["compile", s(&p), "--image", s(&out)], &["verify", s(&p)]] {
+        refused(cmd, &format!("{}:3:6: the plant file is not UTF-8 text: byte 0xe9", s(&p)));
+    }
+    assert_eq!(names(dir.path()), before);
+}
+
+#[cfg(unix)]
+#[test]
+fn a_device_or_an_oversized_file_as_the_plant_is_refused_without_reading_it_all() {
+    // /dev/zero never ends: read whole, it would take all memory before any check.
+    refused(&["inspect", "/dev/zero"], "more than the limit of");
+    let (dir, _) = setup();
+    let big = dir.path().join("big.toml");
+    let f = std::fs::File::create(&big).unwrap();
+    f.set_len(tidewire_host::plant::file::MAX_PLANT_FILE + 1).unwrap();
+    refused(&["compile", s(&big), "--image", s(&dir.path().join("x.bin"))], "more than the limit of");
+    refused(&["inspect", s(dir.path())], "this is a folder, not a plant file");
+}
+
+#[test]
+fn an_output_into_a_missing_folder_is_refused_before_any_work() {
+    let (dir, p) = setup();
+    let before = names(dir.path());
+    let missing = dir.path().join("no-such-folder");
+    let svg = missing.join("wave.svg");
+    let json = dir.path().join("v.json");
+    // Before the check this failed only after the whole verification, naming a temporary.
+    let err = refused(&["verify", s(&p), "--json", s(&json), "--svg", s(&svg)], "does not exist");
+    assert!(!err.contains(".tmp"), "the message names a temporary: {err}");
+    refused(&["simulate", s(&p), "--csv", s(&missing.join("run.csv"))], "does not exist");
+    refused(&["compile", s(&p), "--rust", s(&missing.join("p.rs"))], "does not exist");
+    refused(&["inspect", s(&p), "--json", s(&missing.join("i.json"))], "does not exist");
+    // A file where the folder should be.
+    let file_dir = p.join("out.csv");
+    refused(&["simulate", s(&p), "--csv", s(&file_dir)], "is not a folder");
+    assert_eq!(names(dir.path()), before);
+}
