@@ -85,3 +85,34 @@ fn an_output_into_a_missing_folder_is_refused_before_any_work() {
     refused(&["simulate", s(&p), "--csv", s(&file_dir)], "is not a folder");
     assert_eq!(names(dir.path()), before);
 }
+
+#[test]
+fn an_absurd_drive_level_is_refused_where_it_is_written() {
+    let (dir, p) = setup();
+    let text = std::fs::read_to_string(&p).unwrap();
+    // Before: 1e300 V got through the reader and failed later at verify.final_error with no
+    // line, a 300-digit number and the hint `final_error = "NaN %"`.
+    let line = text.lines().position(|l| l.contains("pulse = \"12 V\"")).unwrap() + 1;
+    std::fs::write(&p, text.replace("pulse = \"12 V\"", "pulse = \"1e300 V\"")).unwrap();
+    let err =
+        refused(&["inspect", s(&p)], "drive.waveform.pulse: the drive level \"1e300 V\" is beyond any cable plant");
+    assert!(err.contains(&format!("plant.toml:{line}:")), "{err}");
+    // A samples file with such a value is refused at its own line.
+    let stim = dir.path().join("stim.csv");
+    std::fs::write(&stim, "volts\n0\n1\n2e12\n").unwrap();
+    let start = text.find("waveform = {").unwrap();
+    let end = start + text[start..].find('\n').unwrap();
+    std::fs::write(&p, format!("{}waveform = {{ samples = \"stim.csv\" }}{}", &text[..start], &text[end..])).unwrap();
+    refused(&["inspect", s(&p)], "stim.csv:4:1: drive.waveform.samples: 2e12 V is beyond any cable plant");
+}
+
+#[test]
+fn a_hint_in_scientific_notation_parses_back() {
+    use tidewire_host::plant::units::{parse_quantity, UnitKind};
+    for (v, kind, unit) in [(1.17e23, UnitKind::Frequency, "Hz"), (3.339e-20, UnitKind::Frequency, "Hz")] {
+        let text = tidewire_host::si::at_most(v, unit);
+        assert!(text.contains('e'), "{text}");
+        let back = parse_quantity(&text, kind).unwrap();
+        assert!(back <= v && back > 0.99 * v, "{text} -> {back}");
+    }
+}
