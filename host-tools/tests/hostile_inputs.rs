@@ -116,3 +116,15 @@ fn a_hint_in_scientific_notation_parses_back() {
         assert!(back <= v && back > 0.99 * v, "{text} -> {back}");
     }
 }
+
+#[test]
+fn a_break_too_near_a_segment_end_is_named_at_its_own_distance() {
+    // Before: a break near the `from` end was reported "at 0.00 m".
+    let (_dir, p) = setup();
+    let text = std::fs::read_to_string(&p).unwrap();
+    assert!(text.contains("break_at = \"12 m\""));
+    for (at, shown) in [("0.5 m", "a break at 0.50 m"), ("34.5 m", "a break at 34.50 m")] {
+        std::fs::write(&p, text.replace("break_at = \"12 m\"", &format!("break_at = \"{at}\""))).unwrap();
+        refused(&["inspect", s(&p)], &format!("segment[south-s1]: {shown} leaves a piece shorter than one sample"));
+    }
+}
