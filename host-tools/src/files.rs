@@ -18,6 +18,23 @@ use std::path::{Path, PathBuf};
 use std::sync::Mutex;
 use tempfile::NamedTempFile;
 
+/// Read at most `limit` bytes of the file at `path`; a longer file is an error naming the
+/// limit. `take` bounds what is read, so a device (`/dev/zero`), a pipe or a file that grows
+/// while it is read cannot exhaust memory, which a size taken from its metadata (0 for a
+/// device) would not prevent.
+pub fn read_bounded(path: &Path, limit: u64) -> std::io::Result<Vec<u8>> {
+    use std::io::Read;
+    if std::fs::metadata(path)?.is_dir() {
+        return Err(std::io::Error::other("this is a folder, not a file"));
+    }
+    let mut bytes = Vec::new();
+    std::fs::File::open(path)?.take(limit.saturating_add(1)).read_to_end(&mut bytes)?;
+    if bytes.len() as u64 > limit {
+        return Err(std::io::Error::other(format!("more than the limit of {limit} bytes")));
+    }
+    Ok(bytes)
+}
+
 /// Why an output path is refused before any work.
 #[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
 pub enum OutputError {

@@ -128,3 +128,25 @@ fn a_break_too_near_a_segment_end_is_named_at_its_own_distance() {
         refused(&["inspect", s(&p)], &format!("segment[south-s1]: {shown} leaves a piece shorter than one sample"));
     }
 }
+
+#[cfg(unix)]
+#[test]
+fn a_device_as_a_capture_or_an_image_is_refused_without_reading_it_all() {
+    // Before: both read /dev/zero until the process was killed for lack of memory (its
+    // metadata size is 0, so a size check before reading passed).
+    let (dir, _) = setup();
+    let out = dir.path().join("t.toml");
+    let extract = ["extract", "/dev/zero", "--source-resistance", "50 ohm", "--emf", "1 V"];
+    refused(&[&extract[..], &["--velocity-factor", "0.66", "--out", s(&out)]].concat(), "more than the limit of");
+    // Refused before any connection is tried (port 1 on the loopback has no rig).
+    refused(&["rig", "-c", "tcp:127.0.0.1:1", "load", "/dev/zero"], "more than the limit of");
+    // A capture that is not UTF-8 is refused at the line and column of the bad byte.
+    let cap = dir.path().join("cap.csv");
+    std::fs::write(&cap, b"time,volts\n0,0\n1e-9,0.5\xff\n").unwrap();
+    let extract = ["extract", s(&cap), "--source-resistance", "50 ohm", "--emf", "1 V"];
+    refused(
+        &[&extract[..], &["--velocity-factor", "0.66", "--out", s(&out)]].concat(),
+        "cap.csv:3:9: the capture is not UTF-8",
+    );
+    assert!(!out.exists());
+}

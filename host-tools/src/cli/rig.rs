@@ -153,6 +153,10 @@ fn compile_plant(path: &Path, profile: ProfileKind) -> Result<Compiled, Failure>
     load_and_prepare(path, profile).map(|(_, c, _)| c)
 }
 
+/// Largest image file read: far beyond any rig's staging buffer (the reference rig's holds
+/// `tidewire_link::MAX_IMAGE` bytes); the rig refuses what it cannot hold.
+const MAX_IMAGE_FILE: u64 = 16 << 20;
+
 fn prepare(cmd: &RigCommand) -> Result<Plan, Failure> {
     Ok(match cmd {
         RigCommand::Load { file, profile } => {
@@ -161,7 +165,8 @@ fn prepare(cmd: &RigCommand) -> Result<Plan, Failure> {
                 let image = crate::emit::image_bytes(&c.network());
                 Plan::Load { image, compiled: Some(Box::new(c)), name: plant.name }
             } else {
-                let image = std::fs::read(file).map_err(|e| io_failure(file, e))?;
+                // Bounded: a device or a huge file given as the image cannot exhaust memory.
+                let image = crate::files::read_bounded(file, MAX_IMAGE_FILE).map_err(|e| io_failure(file, e))?;
                 Plan::Load { image, compiled: None, name: file.display().to_string() }
             }
         }
