@@ -109,6 +109,12 @@ fn rate_says_whether_a_part_keeps_up_and_names_unknown_parts() {
             .unwrap_or_else(|| panic!("{form}: no RAM line in {out}"))
     };
     assert!(ram("specialised") > ram("generic"));
+    // The specialised step is built into the firmware: the generic rig's flash figure and
+    // "plant image loaded at run time" are not its (they were printed for both forms).
+    let a = tidewire().args(["rate", p.to_str().unwrap(), "--part", "stm32f407", "--form", "specialised"]).assert();
+    let out = String::from_utf8_lossy(&a.get_output().stdout).into_owned();
+    assert!(out.contains("flash: not measured for the specialised form"), "{out}");
+    assert!(!out.contains("loaded at run time"), "{out}");
     let a = tidewire().args(["rate", plant.to_str().unwrap(), "--part", "z80"]).assert().code(2);
     assert!(String::from_utf8_lossy(&a.get_output().stderr).contains("parts: m0, m4, stm32f407"));
 }
