@@ -150,3 +150,18 @@ fn a_device_as_a_capture_or_an_image_is_refused_without_reading_it_all() {
     );
     assert!(!out.exists());
 }
+
+#[test]
+fn one_probe_too_many_is_refused_at_its_line() {
+    // Before: "plant.toml: probe: 9 probes, ..." with no line, found only by the compiler.
+    let (_dir, p) = setup();
+    let mut text = std::fs::read_to_string(&p).unwrap();
+    let before = text.lines().count();
+    for k in 0..6 {
+        text.push_str(&format!("\n[[probe]]\nname = \"extra {k}\"\nnode = \"hub_north\"\n"));
+    }
+    std::fs::write(&p, text).unwrap();
+    // The example has 3 probes; the 9th is "extra 5", whose table starts on the last lines.
+    let line = before + 2 + 5 * 4;
+    refused(&["inspect", s(&p)], &format!(":{line}:1: probe[extra 5]: 9 probes, the core reads out at most 8"));
+}
