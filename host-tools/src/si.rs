@@ -46,7 +46,9 @@ impl Scale {
 pub fn format(v: f64, unit: &str) -> String {
     let s = Scale::for_magnitude(v.abs());
     let x = v / s.factor;
-    if beyond_prefixes(x) {
+    // Only above the prefixes: below them a value is mostly rounding noise (a timing error
+    // of 4e-19 s), which reads best as 0.0000 ns.
+    if beyond_prefixes(x) && x.abs() >= 1.0 {
         return format!("{v:.4e} {unit}");
     }
     format!("{x:.4} {}{unit}", s.prefix)
@@ -54,8 +56,7 @@ pub fn format(v: f64, unit: &str) -> String {
 
 /// Whether `x`, scaled by the prefix [`Scale::for_magnitude`] chose, falls outside what the
 /// prefixes can show in a few digits (a value pasted absurdly large or small into a plant
-/// file: 1e300 would print 300 digits, 1e-30 would print as zero). Such values read in
-/// scientific notation instead.
+/// file: 1e300 would print 300 digits, 1e-30 as zero).
 fn beyond_prefixes(x: f64) -> bool {
     x.is_finite() && x != 0.0 && !(1e-4..1e6).contains(&x.abs())
 }
@@ -124,8 +125,8 @@ mod tests {
         // Before: 1e300 printed 300 digits and 1e-30 printed "0.0000 nF".
         assert_eq!(format(1e300, "V"), "1.0000e300 V");
         assert_eq!(format(-2.5e20, "ohm"), "-2.5000e20 ohm");
-        assert_eq!(format(1e-30, "F"), "1.0000e-30 F");
-        assert_eq!(format(1e-13, "F"), "1.0000e-13 F");
+        // Below the prefixes a value is mostly rounding noise: it stays in nano.
+        assert_eq!(format(4.3e-19, "s"), "0.0000 ns");
         assert_eq!(format(4.7e-11, "F"), "0.0470 nF");
         assert_eq!(format(999e9, "ohm"), "999000.0000 Mohm");
         assert_eq!(at_least(1.17e23, "Hz"), "1.17e23 Hz");
