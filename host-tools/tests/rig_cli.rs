@@ -57,6 +57,9 @@ fn bad_arguments_are_exit_2_before_any_connection() {
         (vec!["arm", "--probes", "0,1,2,3,4", "--length", "10", "--at", "0"], "at most 4"),
         (vec!["arm", "--plant", plant, "--probes", "nowhere", "--length", "10", "--at", "0"], "no probe of that name"),
         (vec!["load", "/nonexistent/plant.toml"], "/nonexistent/plant.toml"),
+        // Outputs of `read`: were they checked only after connecting, these would exit 3.
+        (vec!["read", "--csv", "/nonexistent/folder/cap.csv"], "does not exist"),
+        (vec!["read", "--csv", plant, "--plant", plant], "also the input"),
     ];
     for (args, want) in cases {
         let a = tidewire().args(["rig", "-c", addr]).args(&args).assert().code(2);

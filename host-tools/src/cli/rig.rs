@@ -254,7 +254,15 @@ fn prepare(cmd: &RigCommand) -> Result<Plan, Failure> {
             };
             Plan::Arm(Request::Arm { probes: list, length: *length, trigger })
         }
-        RigCommand::Read { plant, profile, .. } => {
+        RigCommand::Read { plant, profile, csv, svg, .. } => {
+            // Outputs are bad input too (exit 2): checked against the plant read and each
+            // other before connecting, not after the rig has been asked for its capture.
+            let mut outs: Vec<(&str, &Path)> = vec![("--csv", csv)];
+            if let Some(svg) = svg {
+                outs.push(("--svg", svg));
+            }
+            let inputs: Vec<&Path> = plant.as_deref().into_iter().collect();
+            super::precheck_outputs(&inputs, &outs)?;
             Plan::Read(plant.as_deref().map(|p| compile_plant(p, (*profile).into())).transpose()?.map(Box::new))
         }
         _ => Plan::None,
