@@ -165,3 +165,24 @@ fn one_probe_too_many_is_refused_at_its_line() {
     let line = before + 2 + 5 * 4;
     refused(&["inspect", s(&p)], &format!(":{line}:1: probe[extra 5]: 9 probes, the core reads out at most 8"));
 }
+
+#[test]
+fn demo_never_overwrites_an_edited_plant_or_a_file_named_as_its_folder() {
+    let dir = tempfile::Builder::new().prefix("tidewire-hostile-demo-").tempdir().unwrap();
+    // A file where the folder should be: a clear message, not "File exists (os error 17)".
+    let file = dir.path().join("not-a-folder");
+    std::fs::write(&file, b"keep").unwrap();
+    refused(&["demo", "--out", s(&file)], "exists and is not a folder");
+    assert_eq!(std::fs::read(&file).unwrap(), b"keep");
+    // A plant the user edited after a demo run: before, a rerun replaced it silently; now
+    // it is moved aside, and the demo still runs.
+    let out = dir.path().join("demo");
+    std::fs::create_dir(&out).unwrap();
+    let plant = out.join("packaging-line.toml");
+    std::fs::write(&plant, b"# my own edits\n").unwrap();
+    let a = tidewire().args(["demo", "--out", s(&out)]).assert();
+    let stdout = String::from_utf8_lossy(&a.get_output().stdout).into_owned();
+    assert!(stdout.contains("kept your edited"), "{stdout}");
+    assert_eq!(std::fs::read(out.join("packaging-line.toml.edited")).unwrap(), b"# my own edits\n");
+    assert!(std::fs::read_to_string(&plant).unwrap().contains("[plant]"));
+}
