@@ -186,3 +186,15 @@ fn demo_never_overwrites_an_edited_plant_or_a_file_named_as_its_folder() {
     assert_eq!(std::fs::read(out.join("packaging-line.toml.edited")).unwrap(), b"# my own edits\n");
     assert!(std::fs::read_to_string(&plant).unwrap().contains("[plant]"));
 }
+
+#[test]
+fn a_vanishingly_short_segment_is_named_as_lumped_not_as_a_capacitor_the_file_lacks() {
+    // Before: "node.controller: ... the capacitor 0.0000 nF ..." for a plant without any
+    // capacitor there: the C was the lumped segment's own.
+    let (_dir, p) = setup();
+    let text = std::fs::read_to_string(&p).unwrap();
+    assert!(text.contains("length = \"80 m\""));
+    std::fs::write(&p, text.replace("length = \"80 m\"", "length = \"1e-12 m\"")).unwrap();
+    let err = refused(&["inspect", s(&p)], "the segments lumped at this node (shorter than half a sample) carry");
+    assert!(err.contains("join its two nodes"), "{err}");
+}
