@@ -222,7 +222,8 @@ fn event_labels_on_the_lattice_sit_on_a_light_box() {
     Command::cargo_bin("tidewire")
         .unwrap()
         .args(["verify", plant.to_str().unwrap(), "--lattice", svg.to_str().unwrap()])
-        .assert();
+        .assert()
+        .success();
     let text = std::fs::read_to_string(&svg).unwrap();
     let label = text.find("event 1:").expect("the event's label");
     let text_start = text[..label].rfind("<text").unwrap();
