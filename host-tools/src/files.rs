@@ -18,6 +18,23 @@ use std::path::{Path, PathBuf};
 use std::sync::Mutex;
 use tempfile::NamedTempFile;
 
+/// Read at most `limit` bytes of the file at `path`; a longer file is an error naming the
+/// limit. `take` bounds what is read, so a device (`/dev/zero`), a pipe or a file that grows
+/// while it is read cannot exhaust memory, which a size taken from its metadata (0 for a
+/// device) would not prevent.
+pub fn read_bounded(path: &Path, limit: u64) -> std::io::Result<Vec<u8>> {
+    use std::io::Read;
+    if std::fs::metadata(path)?.is_dir() {
+        return Err(std::io::Error::other("this is a folder, not a file"));
+    }
+    let mut bytes = Vec::new();
+    std::fs::File::open(path)?.take(limit.saturating_add(1)).read_to_end(&mut bytes)?;
+    if bytes.len() as u64 > limit {
+        return Err(std::io::Error::other(format!("more than the limit of {limit} bytes")));
+    }
+    Ok(bytes)
+}
+
 /// Why an output path is refused before any work.
 #[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
 pub enum OutputError {
@@ -37,6 +54,8 @@ pub enum OutputError {
     NotRegular { path: String, kind: &'static str },
     #[error("{path}: exists and is read-only; tidewire does not replace it (make it writable or write elsewhere)")]
     ReadOnly { path: String },
+    #[error("{path}: the folder {folder} {why}; tidewire does not create folders (create it or write elsewhere)")]
+    NoFolder { path: String, folder: String, why: &'static str },
 }
 
 /// The path as the file system resolves it: the canonical folder and the file name, so
@@ -70,6 +89,19 @@ fn refuse_existing(path: &Path) -> Result<(), OutputError> {
         return Err(OutputError::ReadOnly { path: shown });
     }
     Ok(())
+}
+
+/// The folder an output goes into must exist before any work: its temporary is created
+/// there, and a missing folder found only when the results are written would lose the run.
+fn check_folder(path: &Path) -> Result<(), OutputError> {
+    let dir = path.parent().filter(|d| !d.as_os_str().is_empty()).unwrap_or(Path::new("."));
+    let why = match std::fs::metadata(dir) {
+        Ok(m) if m.is_dir() => return Ok(()),
+        Ok(_) => "is not a folder",
+        Err(e) if e.kind() == std::io::ErrorKind::NotFound => "does not exist",
+        Err(_) => "cannot be read",
+    };
+    Err(OutputError::NoFolder { path: path.display().to_string(), folder: dir.display().to_string(), why })
 }
 
 #[cfg(unix)]
@@ -109,6 +141,7 @@ pub fn check_outputs(inputs: &[&Path], outputs: &[(&str, &Path)]) -> Result<(), 
             });
         }
         refuse_existing(p)?;
+        check_folder(p)?;
         seen.push((r, what));
     }
     Ok(())

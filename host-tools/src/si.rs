@@ -45,7 +45,20 @@ impl Scale {
 /// (e.g. `format(4.2e-8, "s")` is "42.0000 ns"); zero in the base unit.
 pub fn format(v: f64, unit: &str) -> String {
     let s = Scale::for_magnitude(v.abs());
-    format!("{:.4} {}{unit}", v / s.factor, s.prefix)
+    let x = v / s.factor;
+    // Only above the prefixes: below them a value is mostly rounding noise (a timing error
+    // of 4e-19 s), which reads best as 0.0000 ns.
+    if beyond_prefixes(x) && x.abs() >= 1.0 {
+        return format!("{v:.4e} {unit}");
+    }
+    format!("{x:.4} {}{unit}", s.prefix)
+}
+
+/// Whether `x`, scaled by the prefix [`Scale::for_magnitude`] chose, falls outside what the
+/// prefixes can show in a few digits (a value pasted absurdly large or small into a plant
+/// file: 1e300 would print 300 digits, 1e-30 as zero).
+fn beyond_prefixes(x: f64) -> bool {
+    x.is_finite() && x != 0.0 && !(1e-4..1e6).contains(&x.abs())
 }
 
 /// `v` rounded *up* to three significant figures, with its prefix (e.g. 989.3e3 Hz reads
@@ -73,6 +86,9 @@ fn three_figures(v: f64, unit: &str, round: fn(f64) -> f64) -> String {
     let r = round(v / step) * step;
     let sc = Scale::for_magnitude(r);
     let x = r / sc.factor;
+    if beyond_prefixes(x) {
+        return format!("{r:.2e} {unit}");
+    }
     let decimals = (2 - x.log10().floor() as i32).max(0) as usize;
     let text = format!("{x:.decimals$}");
     let text = if text.contains('.') { text.trim_end_matches('0').trim_end_matches('.').to_string() } else { text };
@@ -102,5 +118,20 @@ mod tests {
         assert_eq!(at_most(4.2949e6, "ohm"), "4.29 Mohm");
         assert_eq!(at_most(141.39e6, "Hz"), "141 MHz");
         assert_eq!(at_least(0.5, "s"), "500 ms");
+    }
+
+    #[test]
+    fn values_beyond_the_prefixes_read_in_scientific_notation() {
+        // Before: 1e300 printed 300 digits and 1e-30 printed "0.0000 nF".
+        assert_eq!(format(1e300, "V"), "1.0000e300 V");
+        assert_eq!(format(-2.5e20, "ohm"), "-2.5000e20 ohm");
+        // Below the prefixes a value is mostly rounding noise: it stays in nano.
+        assert_eq!(format(4.3e-19, "s"), "0.0000 ns");
+        assert_eq!(format(4.7e-11, "F"), "0.0470 nF");
+        assert_eq!(format(999e9, "ohm"), "999000.0000 Mohm");
+        assert_eq!(at_least(1.17e23, "Hz"), "1.17e23 Hz");
+        assert_eq!(at_most(3.339e-20, "Hz"), "3.33e-20 Hz");
+        // A hint is written back into a plant file: `tests/hostile_inputs.rs` checks that the
+        // notation parses (the reader is in `plant`, which this module may not import).
     }
 }

@@ -333,3 +333,27 @@ node = "far"
         assert!(line.contains("!!"), "{profile}, 0.1 %: {line}");
     }
 }
+
+#[test]
+fn inspect_names_the_junction_and_call_of_each_event_as_the_emitted_source_numbers_them() {
+    // The plant file names nodes and segments; firmware calls set_shunt / set_broken with a
+    // junction number that neither the plant file nor (before this) inspect gave.
+    let guard = tmp("event-calls");
+    let plant = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/plants/irrigation-network.toml");
+    let (rs, js) = (guard.path().join("p.rs"), guard.path().join("i.json"));
+    let out = tidewire().args(["inspect", plant.to_str().unwrap(), "--json", js.to_str().unwrap()]).assert().success();
+    let text = String::from_utf8_lossy(&out.get_output().stdout).into_owned();
+    let line = text.lines().find(|l| l.contains("segment south-s1 breaks")).expect("an event line");
+    let call = line.split_whitespace().rev().take(2).collect::<Vec<_>>();
+    assert_eq!(call[0], "true)", "{line}");
+    let j: u16 = call[1].trim_start_matches("set_broken(").trim_end_matches(',').parse().expect(line);
+    tidewire().args(["compile", plant.to_str().unwrap(), "--rust", rs.to_str().unwrap()]).assert().success();
+    let src = std::fs::read_to_string(&rs).unwrap();
+    let set_broken = &src[src.find("fn set_broken").expect("the specialised form")..];
+    let arms = &set_broken[..set_broken.find("FixedNode").unwrap()];
+    assert!(arms.contains(&format!("{j} => {{")), "junction {j} is not switchable in the emitted source:\n{arms}");
+    let doc: serde_json::Value = serde_json::from_slice(&std::fs::read(&js).unwrap()).unwrap();
+    let ev = &doc["events"][0];
+    assert_eq!(ev["junction"], serde_json::json!(j));
+    assert_eq!(ev["core_call"], serde_json::json!(format!("set_broken({j}, true)")));
+}

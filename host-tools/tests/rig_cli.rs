@@ -57,6 +57,9 @@ fn bad_arguments_are_exit_2_before_any_connection() {
         (vec!["arm", "--probes", "0,1,2,3,4", "--length", "10", "--at", "0"], "at most 4"),
         (vec!["arm", "--plant", plant, "--probes", "nowhere", "--length", "10", "--at", "0"], "no probe of that name"),
         (vec!["load", "/nonexistent/plant.toml"], "/nonexistent/plant.toml"),
+        // Outputs of `read`: were they checked only after connecting, these would exit 3.
+        (vec!["read", "--csv", "/nonexistent/folder/cap.csv"], "does not exist"),
+        (vec!["read", "--csv", plant, "--plant", plant], "also the input"),
     ];
     for (args, want) in cases {
         let a = tidewire().args(["rig", "-c", addr]).args(&args).assert().code(2);
@@ -109,6 +112,12 @@ fn rate_says_whether_a_part_keeps_up_and_names_unknown_parts() {
             .unwrap_or_else(|| panic!("{form}: no RAM line in {out}"))
     };
     assert!(ram("specialised") > ram("generic"));
+    // The specialised step is built into the firmware: the generic rig's flash figure and
+    // "plant image loaded at run time" are not its (they were printed for both forms).
+    let a = tidewire().args(["rate", p.to_str().unwrap(), "--part", "stm32f407", "--form", "specialised"]).assert();
+    let out = String::from_utf8_lossy(&a.get_output().stdout).into_owned();
+    assert!(out.contains("flash: not measured for the specialised form"), "{out}");
+    assert!(!out.contains("loaded at run time"), "{out}");
     let a = tidewire().args(["rate", plant.to_str().unwrap(), "--part", "z80"]).assert().code(2);
     assert!(String::from_utf8_lossy(&a.get_output().stderr).contains("parts: m0, m4, stm32f407"));
 }

@@ -211,3 +211,23 @@ fn the_sweep_picture_shows_the_exact_curve_and_rings_exactly_the_failing_points(
     let (text, picture) = run(&["--node", "motor", "--from", "80 ohm", "--to", "8 kohm", "--steps", "3"]);
     assert!(!text.contains("critical length") && !picture.contains("critical length"), "{text}");
 }
+
+#[test]
+fn event_labels_on_the_lattice_sit_on_a_light_box() {
+    // Before: black text straight on the map's darkest levels, unreadable where the
+    // voltage is high (the label of a break drawn over a charged line).
+    let dir = tempfile::Builder::new().prefix("tidewire-lattice-labels-").tempdir().unwrap();
+    let plant = Path::new(env!("CARGO_MANIFEST_DIR")).join("../examples/plants/irrigation-network.toml");
+    let svg = dir.path().join("lattice.svg");
+    Command::cargo_bin("tidewire")
+        .unwrap()
+        .args(["verify", plant.to_str().unwrap(), "--lattice", svg.to_str().unwrap()])
+        .assert()
+        .success();
+    let text = std::fs::read_to_string(&svg).unwrap();
+    let label = text.find("event 1:").expect("the event's label");
+    let text_start = text[..label].rfind("<text").unwrap();
+    let before = text[..text_start].trim_end();
+    let last_element = &before[before.rfind('<').unwrap()..];
+    assert!(last_element.starts_with("<rect") && last_element.contains("#FFFFFF"), "{last_element}");
+}

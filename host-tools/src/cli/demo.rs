@@ -13,8 +13,41 @@ pub const DEMO_PLANT: &str = include_str!("../../../examples/plants/packaging-li
 /// The second built-in plant: a motor drive on a long cable, swept over cable length.
 pub const MOTOR_PLANT: &str = include_str!("../../../examples/plants/drive-to-motor.toml");
 const DEMO_NAME: &str = "packaging-line.toml";
+const MOTOR_NAME: &str = "drive-to-motor.toml";
+
+/// The demo's plant files may be edited by the user after a run: a rerun rewrites its
+/// outputs, but a plant file that differs from the built-in one is first moved aside to
+/// `NAME.edited` (or `NAME.edited.N`, the first free), so no edit is lost.
+fn keep_edited(path: &Path, builtin: &str) -> Result<(), Failure> {
+    match std::fs::read(path) {
+        Ok(bytes) if bytes != builtin.as_bytes() => {
+            let name = path.file_name().map(|n| n.to_string_lossy().into_owned()).unwrap_or_default();
+            let aside = (0..1000)
+                .map(|k| {
+                    path.with_file_name(if k == 0 { format!("{name}.edited") } else { format!("{name}.edited.{k}") })
+                })
+                .find(|p| std::fs::symlink_metadata(p).is_err())
+                .ok_or_else(|| io_failure(path, "no free name to keep the edited copy under"))?;
+            std::fs::rename(path, &aside).map_err(|e| io_failure(path, e))?;
+            println!("kept your edited {} as {}", path.display(), aside.display());
+            Ok(())
+        }
+        _ => Ok(()),
+    }
+}
 
 pub(super) fn run(out: &Path) -> Result<i32, Failure> {
+    if out.exists() && !out.is_dir() {
+        return Err(Failure {
+            code: 2,
+            message: format!(
+                "error: {}: exists and is not a folder; the demo writes its files into a folder (give another --out)",
+                out.display()
+            ),
+        });
+    }
+    keep_edited(&out.join(DEMO_NAME), DEMO_PLANT)?;
+    keep_edited(&out.join(MOTOR_NAME), MOTOR_PLANT)?;
     std::fs::create_dir_all(out).map_err(|e| io_failure(out, e))?;
     let plant_path = out.join(DEMO_NAME);
     crate::emit::write_atomic(&plant_path, DEMO_PLANT.as_bytes()).map_err(|e| io_failure(&plant_path, e))?;
@@ -44,7 +77,7 @@ pub(super) fn run(out: &Path) -> Result<i32, Failure> {
     print!("{}", verdict_text(&plant, &c, &v));
 
     // The drive-to-motor plant: peak motor terminal voltage against cable length.
-    let motor_path = out.join("drive-to-motor.toml");
+    let motor_path = out.join(MOTOR_NAME);
     crate::emit::write_atomic(&motor_path, MOTOR_PLANT.as_bytes()).map_err(|e| io_failure(&motor_path, e))?;
     println!("\n!! {}", super::inspect::CAUTION);
     let sweep_svg = out.join("motor-sweep.svg");

@@ -288,11 +288,43 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
         for b in crate::analysis::budget::event_budgets(r.ports) {
             let _ = writeln!(s, "   {b}");
         }
+        events_text(&mut s, plant, c);
     }
     for w in &a.warnings {
         let _ = writeln!(s, "\n!! warning: {w}");
     }
     s
+}
+
+/// The plant's events as the firmware makes them: the sample each acts before and the call
+/// on the solver (`PlantStep::set_shunt` / `set_broken`), with the junction number that the
+/// image and the emitted Rust source use, which the plant file never names.
+fn events_text(s: &mut String, plant: &Plant, c: &Compiled) {
+    let _ = writeln!(
+        s,
+        "\n-- events: applied between two samples, before the sample named (junction numbers as in the image and `compile --rust`)"
+    );
+    for (e, ce) in plant.events.iter().zip(&c.events) {
+        let what = match &e.action {
+            crate::plant::EventAction::SetLoad(n, _) => {
+                format!("node {}: new load", plant.nodes.get(*n).map_or("?", |n| n.name.as_str()))
+            }
+            crate::plant::EventAction::Break { segment, distance } => format!(
+                "segment {} breaks {} from its from end",
+                plant.segments.get(*segment).map_or("?", |s| s.name.as_str()),
+                eng(*distance, "m")
+            ),
+        };
+        let _ = writeln!(s, "   sample {:>8} ({}): {what:<52} {}", ce.sample, eng(e.at, "s"), core_call(&ce.action));
+    }
+}
+
+/// The solver call that applies `action`, as firmware writes it.
+pub(super) fn core_call(action: &crate::compile::CoreAction) -> String {
+    match action {
+        crate::compile::CoreAction::SetShunt(j, shunt) => format!("set_shunt({j}, Shunt::{shunt:?})"),
+        crate::compile::CoreAction::Break(j) => format!("set_broken({j}, true)"),
+    }
 }
 
 pub(super) fn run(path: &Path, json: Option<&Path>, profile: ProfileKind) -> Result<i32, Failure> {

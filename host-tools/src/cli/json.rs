@@ -47,6 +47,10 @@ fn events(plant: &Plant, c: &Compiled, v: Option<&Verification>) -> Vec<Value> {
                 "time_s": num(e.at),
                 "sample": sample,
                 "core_action": core_kind,
+                "junction": ce.map(|c| match c.action {
+                    CoreAction::SetShunt(j, _) | CoreAction::Break(j) => j,
+                }),
+                "core_call": ce.map(|c| super::inspect::core_call(&c.action)),
             });
             if let Some(v) = v {
                 // Whether the exact reference covers the run after this event (the verify

@@ -9,7 +9,8 @@ use std::path::{Path, PathBuf};
 /// TOML alone, before any work; a plant that does not parse names none (loading it fails
 /// with a located error before anything is written).
 fn referenced_inputs(plant: &Path) -> Vec<PathBuf> {
-    let Ok(text) = std::fs::read_to_string(plant) else { return vec![] };
+    // Read as the loader reads it (bounded: a device or a huge file cannot exhaust memory).
+    let Ok(text) = crate::plant::file::read_plant_text(plant) else { return vec![] };
     let Ok(doc) = text.parse::<toml::Table>() else { return vec![] };
     let dir = plant.parent().filter(|d| !d.as_os_str().is_empty()).unwrap_or(Path::new("."));
     ["waveform", "stimulus"]

@@ -242,6 +242,13 @@ fn real_time(plant: &Plant, file: &str, part: &RigPart, form: Form) -> Result<i3
         if ram_ok { "" } else { "  -- DOES NOT FIT" }
     );
     match part.firmware_flash {
+        // The specialised step is compiled into the firmware: its code grows with the plant
+        // (junctions unrolled) and no image is loaded, so the generic rig's figure is not its.
+        Some(f) if form == Form::Specialised => println!(
+            "   flash: not measured for the specialised form (its step is unrolled per junction and built into the firmware; measure your build with llvm-size); the generic rig firmware is {:.1} KiB of {} KiB",
+            f as f64 / 1024.0,
+            part.flash / 1024
+        ),
         Some(f) => println!(
             "   flash: rig firmware {:.1} KiB of {} KiB (measured: {}); plant image {image} bytes, loaded at run time",
             f as f64 / 1024.0,

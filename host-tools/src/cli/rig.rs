@@ -153,6 +153,10 @@ fn compile_plant(path: &Path, profile: ProfileKind) -> Result<Compiled, Failure>
     load_and_prepare(path, profile).map(|(_, c, _)| c)
 }
 
+/// Largest image file read: far beyond any rig's staging buffer (the reference rig's holds
+/// `tidewire_link::MAX_IMAGE` bytes); the rig refuses what it cannot hold.
+const MAX_IMAGE_FILE: u64 = 16 << 20;
+
 fn prepare(cmd: &RigCommand) -> Result<Plan, Failure> {
     Ok(match cmd {
         RigCommand::Load { file, profile } => {
@@ -161,7 +165,8 @@ fn prepare(cmd: &RigCommand) -> Result<Plan, Failure> {
                 let image = crate::emit::image_bytes(&c.network());
                 Plan::Load { image, compiled: Some(Box::new(c)), name: plant.name }
             } else {
-                let image = std::fs::read(file).map_err(|e| io_failure(file, e))?;
+                // Bounded: a device or a huge file given as the image cannot exhaust memory.
+                let image = crate::files::read_bounded(file, MAX_IMAGE_FILE).map_err(|e| io_failure(file, e))?;
                 Plan::Load { image, compiled: None, name: file.display().to_string() }
             }
         }
@@ -249,7 +254,15 @@ fn prepare(cmd: &RigCommand) -> Result<Plan, Failure> {
             };
             Plan::Arm(Request::Arm { probes: list, length: *length, trigger })
         }
-        RigCommand::Read { plant, profile, .. } => {
+        RigCommand::Read { plant, profile, csv, svg, .. } => {
+            // Outputs are bad input too (exit 2): checked against the plant read and each
+            // other before connecting, not after the rig has been asked for its capture.
+            let mut outs: Vec<(&str, &Path)> = vec![("--csv", csv)];
+            if let Some(svg) = svg {
+                outs.push(("--svg", svg));
+            }
+            let inputs: Vec<&Path> = plant.as_deref().into_iter().collect();
+            super::precheck_outputs(&inputs, &outs)?;
             Plan::Read(plant.as_deref().map(|p| compile_plant(p, (*profile).into())).transpose()?.map(Box::new))
         }
         _ => Plan::None,

@@ -335,7 +335,18 @@ pub(super) fn class_load(
     }
     if lumped_c > 0.0 {
         let field = format!("node.{}", node.name);
-        let (_, els) = realize(&Load::Capacitor(lumped_c), dt, file, node.span, &field)?;
+        // The capacitance is the lumped segments' C'·length (and any capacitor joined to it),
+        // not a capacitor the user wrote: say so, or the message names a part that is not in
+        // the file.
+        let (_, els) = realize(&Load::Capacitor(lumped_c), dt, file, node.span, &field).map_err(|mut e| {
+            e.message = format!(
+                // Scientific: this error is for values far outside the prefixes' range.
+                "the segments lumped at this node (shorter than half a sample) carry {lumped_c:.3e} F: {}",
+                e.message
+            );
+            e.hint = format!("{}; or, for a segment far too short to matter, join its two nodes instead", e.hint);
+            e
+        })?;
         elements.extend(els);
     }
     let shunt = match resistive_members {

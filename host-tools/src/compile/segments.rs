@@ -190,7 +190,9 @@ impl<'p> Builder<'p> {
                     format!("segment[{}]", seg.name),
                     format!(
                         "a break at {:.2} m leaves a piece shorter than one sample",
-                        bounds[k + 1].min(bounds[k].max(0.0))
+                        // The piece's bound that is a break: its far end, except for the
+                        // last piece, which ends at the segment's `to` end.
+                        if k + 2 < bounds.len() { bounds[k + 1] } else { bounds[k] }
                     ),
                     "move the break away from the segment's ends and from other breaks, or raise the sample rate",
                 ));

@@ -317,6 +317,8 @@ fn draw(
         let t = m.at / ts.factor;
         chart.draw_series(LineSeries::new([(x_range.start, t), (x_range.end, t)], style::INK.stroke_width(2)))?;
         let (px, py) = chart.backend_coord(&(x_range.start, t));
+        // A light box behind the label: on the map's dark levels black text was unreadable.
+        root.draw(&super::sweep::label_backing(&m.label, (px + 4, py - 2), HPos::Left, VPos::Bottom))?;
         root.draw(&Text::new(
             m.label.clone(),
             (px + 4, py - 2),

@@ -218,7 +218,7 @@ where
 
 /// A translucent white box behind a marker label at pixel offset `at` with the given
 /// anchor, so that grid and marker lines do not run through the text.
-fn label_backing(text: &str, at: (i32, i32), h: HPos, v: VPos) -> Rectangle<(i32, i32)> {
+pub(super) fn label_backing(text: &str, at: (i32, i32), h: HPos, v: VPos) -> Rectangle<(i32, i32)> {
     // The width estimate is crude; 15 % extra covers wide glyphs.
     let w = (style::text_width(text, style::TICK_PX) * 1.15).ceil() as i32;
     let th = style::TICK_PX as i32 + 2;

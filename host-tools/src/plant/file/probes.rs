@@ -15,6 +15,16 @@ pub fn probes(src: &Source, raw: &[Spanned<RawProbe>], topo: &Topology) -> Resul
     for (i, p) in raw.iter().enumerate() {
         let r = p.get_ref();
         let label = r.name.as_ref().map_or_else(|| format!("{}", i + 1), |n| n.get_ref().clone());
+        // Refused at the first probe too many, where the user can see it (and before the
+        // rest of a huge list is resolved).
+        if i == tidewire_core::MAX_PROBES {
+            return Err(src.error(
+                p.span(),
+                format!("probe[{label}]"),
+                format!("{} probes, the core reads out at most {}", raw.len(), tidewire_core::MAX_PROBES),
+                "remove this probe and the ones after it, or some before it",
+            ));
+        }
         let path = |f: &str| format!("probe[{label}].{f}");
         let (kind, default_name) = match (&r.node, &r.segment) {
             (Some(node), None) => {

@@ -204,7 +204,7 @@ pub fn waveform(
     let rise = time(&w.rise, "rise")?;
     let delay = time(&w.delay, "delay")?;
     let name = if is_pulse { "pulse" } else { "step" };
-    let amplitude = quantity(src, level, UnitKind::Voltage, &sub(name))?;
+    let amplitude = drive_level(src, level, &sub(name))?;
     match (is_pulse, &w.width) {
         (false, None) => Ok(Waveform::Step { amplitude, delay, rise }),
         (false, Some(width)) => Err(src.error(
@@ -224,6 +224,25 @@ pub fn waveform(
             Ok(Waveform::Pulse { amplitude, delay, width, rise })
         }
     }
+}
+
+/// The largest drive level accepted: a thousand times the level above which `inspect`
+/// warns that no cable plant insulates it (1 MV). Far beyond it the fixed-point scale
+/// (volts per I/O code, an `f32`) overflows; refused here, where the value is written.
+pub const MAX_DRIVE_VOLTS: f64 = 1e9;
+
+/// A drive level (step, pulse or pwm amplitude) in volts, at most [`MAX_DRIVE_VOLTS`].
+fn drive_level(src: &Source, level: &Raw, field: &str) -> Result<f64, PlantError> {
+    let v = quantity(src, level, UnitKind::Voltage, field)?;
+    if v.abs() > MAX_DRIVE_VOLTS {
+        return Err(src.error(
+            level.span(),
+            field,
+            format!("the drive level {} is beyond any cable plant", written(level)),
+            "check the unit; a drive level is at most \"1 GV\" (plants are driven with volts to kilovolts)",
+        ));
+    }
+    Ok(v)
 }
 
 /// `{ pwm = "24 V", period = "10 us", duty = "30 %", dead_time = "200 ns", rise = "50 ns",
@@ -249,7 +268,7 @@ fn pwm(
         r.clone()
             .ok_or_else(|| src.error(raw.span(), sub(name), format!("a pwm waveform needs `{name}`"), hint.to_string()))
     };
-    let amplitude = quantity(src, level, UnitKind::Voltage, &sub("pwm"))?;
+    let amplitude = drive_level(src, level, &sub("pwm"))?;
     let period = positive(
         src,
         &need(&w.period, "period", "add e.g. period = \"10 us\"")?,
@@ -377,6 +396,9 @@ fn read_samples(
         let timed = time_column == Some(true);
         let v = cell(usize::from(timed));
         match v.parse::<f64>() {
+            Ok(x) if x.abs() > MAX_DRIVE_VOLTS => {
+                return Err(at(line, format!("{v} V is beyond any cable plant (at most {MAX_DRIVE_VOLTS:.0e} V)")))
+            }
             Ok(x) if x.is_finite() => values.push(x),
             Ok(_) => return Err(at(line, format!("sample \"{v}\" is not finite"))),
             Err(_) => return Err(at(line, format!("\"{v}\" is not a number of volts"))),
