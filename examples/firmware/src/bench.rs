@@ -252,7 +252,7 @@ pub fn run_plant<P: Profile, const PO: usize, const J: usize, const M: usize, co
         let t = time_steps(syst, &mut solver, *seed);
         report(out, profile, name, "generic", i, t, time_baseline(syst, *seed));
     }
-    #[cfg(feature = "m4")]
+    #[cfg(all(feature = "m4", not(feature = "inject-panic")))]
     report_events(syst, out, &mut solver, [profile, name, "generic"], net);
     true
 }
