@@ -37,8 +37,8 @@ pub struct FigureRow {
     pub solver_ram_bytes: u32,
     pub instructions_per_sample: f64,
     pub instructions_per_port_update: f64,
-    /// The slowest single sample of an 8192-sample run from rest: what a loop that must
-    /// meet every sample period has to budget for.
+    /// The slowest single sample of the timed runs (`method`): what a loop that must meet
+    /// every sample period has to budget for.
     pub worst_instructions_per_sample: f64,
     /// The costliest event between two samples (a terminator removed or put back, a node
     /// broken or joined; `null` where it was not measured). It lands on the sample it precedes.

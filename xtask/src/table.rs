@@ -29,7 +29,6 @@ pub struct Row {
     /// Instructions of the costliest event between two samples (terminator removed or put
     /// back, node broken or joined), if the plant has a terminated node and it was measured.
     event: Option<f64>,
-
     /// Seed-0 and seed-1 tick counts equal at shift 0.
     equal_coarse: bool,
     /// Instruction difference seed 1 − seed 0 measured at shift 6 (0: exactly equal).
@@ -146,25 +145,26 @@ pub fn print(rows: &[Row], clocks: &[(&str, f64)]) {
             r.fine_diff
         );
     }
-    println!(
-        "\n({} samples per timed run from rest, every sample read at -icount shift=6: the average \
-         from their sum, the worst sample from the largest; the stimulus loop's are subtracted; event: the \
-         costliest of a terminator removed or put back, a node broken or joined, between two samples)",
+    println!("\n({})", method(rows));
+}
+
+/// How the figures were taken: printed under the table and stored in the figures file.
+fn method(rows: &[Row]) -> String {
+    format!(
+        "QEMU -icount shift=6, SysTick around every sample of {}-sample runs from rest: the \
+         average from the sum of the samples' readings, the worst sample from the largest, the \
+         stimulus loop's sum and largest subtracted; event: the costliest of a terminator removed \
+         or put back, a node broken or joined, between two samples; data independence: equal run \
+         totals at -icount shift=0 and shift 6 (docs/firmware.md)",
         rows.first().map_or(0, |r| r.samples)
-    );
+    )
 }
 
 /// The rows as the figures file stores them.
 pub fn figures(rows: &[Row]) -> crate::figures::Figures {
     crate::figures::Figures {
         command: "cargo run -p xtask -- firmware".into(),
-        method: format!(
-            "QEMU -icount shift=6, SysTick around every sample of {}-sample runs from rest: the \
-             average from the sum of the samples' readings, the worst sample from the largest, the \
-             stimulus loop's sum and largest subtracted; data independence: equal run totals at \
-             -icount shift=0 and shift 6 (docs/firmware.md)",
-            rows.first().map_or(0, |r| r.samples)
-        ),
+        method: method(rows),
         rows: rows
             .iter()
             .map(|r| crate::figures::FigureRow {

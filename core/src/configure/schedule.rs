@@ -1,8 +1,8 @@
 //! The junction pass's run tables (`solver/scatter.rs`), built from the junction records:
 //! scattering nodes grouped by port count, shorted nodes, open nodes, series resistors,
 //! chokes and the rig port, each kind a plain array the pass walks without dispatch. Built at
-//! load; the node groups again whenever `set_shunt` or `set_broken` changes a node's mode
-//! (O(junctions), between samples, no allocation).
+//! load; an event (`set_shunt`, `set_broken`) then moves only its node's entry between samples
+//! (no allocation).
 
 use super::set;
 use crate::error::BuildError;
@@ -21,6 +21,15 @@ fn group_of(mode: Mode, count: u16) -> Option<usize> {
         (Mode::Broken, _) => Some(OPEN),
         (Mode::Linked, _) => None,
     }
+}
+
+/// A node record's group and its entry in the node groups; `None` for a junction that is not
+/// a node, or a linked node (its branch scatters it).
+fn run_of(rt: &JunctionRt) -> Option<(usize, NodeRun)> {
+    let JunctionRt::Node { first, count, mode, g_src, recip, shift, total, hold, .. } = *rt else {
+        return None;
+    };
+    Some((group_of(mode, count)?, NodeRun { first, count, g_src, recip, shift, hold, total }))
 }
 
 /// Every entry one slot down, the first to the last (`rotate_left(1)` without its assertion,
@@ -56,16 +65,12 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     /// The node groups, in group order and within a group in network order. Every node of
     /// the first `n_juncs` records is in at most one group, so the bounds stay <= `n_juncs`
     /// <= JUNCS (< 2^16, shape check). Two passes (count, then place: a stable counting
-    /// sort), not one pass per group: `set_shunt` and `set_broken` run this between two
-    /// samples of a running plant, where it cost 137 instructions per junction on the M4
-    /// (`docs/firmware.md`, "Events between samples").
+    /// sort), not one pass per group, which cost 137 instructions per junction on the M4 when
+    /// every event rebuilt the groups (`docs/firmware.md`, "Events between samples"); events
+    /// now use [`Self::reschedule_node`], which falls back to this.
     pub(super) fn schedule_nodes(&mut self) {
-        let group = |rt: &JunctionRt| match *rt {
-            JunctionRt::Node { mode, count, .. } => group_of(mode, count),
-            _ => None,
-        };
         let mut bounds = [0u16; NODE_GROUPS + 1];
-        for g in self.juncs.iter().take(self.n_juncs).filter_map(group) {
+        for (g, _) in self.juncs.iter().take(self.n_juncs).filter_map(run_of) {
             if let Some(b) = bounds.get_mut(g.saturating_add(1)) {
                 *b = b.saturating_add(1);
             }
@@ -76,13 +81,9 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             *b = sum;
         }
         let mut next = bounds;
-        for rt in self.juncs.iter().take(self.n_juncs) {
-            let (Some(g), JunctionRt::Node { first, count, g_src, recip, shift, total, hold, .. }) = (group(rt), *rt)
-            else {
-                continue;
-            };
+        for (g, run) in self.juncs.iter().take(self.n_juncs).filter_map(run_of) {
             if let Some(n) = next.get_mut(g) {
-                set(&mut self.nodes, *n as usize, NodeRun { first, count, g_src, recip, shift, hold, total });
+                set(&mut self.nodes, *n as usize, run);
                 *n = n.saturating_add(1);
             }
         }
@@ -97,18 +98,16 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     /// instructions per junction on the M4 (`docs/firmware.md`, "Events between samples").
     /// Anything unexpected (the entry not found, a linked node) falls back to the rebuild.
     pub(super) fn reschedule_node(&mut self, j: usize) {
-        let Some(JunctionRt::Node { first, count, g_src, recip, shift, total, hold, mode, .. }) =
-            self.juncs.get(j).copied()
-        else {
+        let Some((to, run)) = self.juncs.get(j).and_then(run_of) else {
             return self.schedule_nodes();
         };
-        let run = NodeRun { first, count, g_src, recip, shift, hold, total };
+        let (first, count) = (run.first, run.count);
         let bounds = self.node_bounds;
         let bound = |g: usize| bounds.get(g).map_or(0, |&b| usize::from(b));
         let end = bound(NODE_GROUPS).min(JUNCS);
         let group_at = |i: usize| (0..NODE_GROUPS).find(|&g| i < bound(g.saturating_add(1)));
         let found = self.nodes.iter().take(end).position(|r| r.first == first && r.count == count);
-        let (Some(i), Some(to)) = (found, group_of(mode, count)) else {
+        let Some(i) = found else {
             return self.schedule_nodes();
         };
         let Some(from) = group_at(i) else { return self.schedule_nodes() };

@@ -4,8 +4,9 @@
 //! Timing uses SysTick on the core clock (CLKSOURCE = 1), a 24-bit down-counter. Writing its
 //! current-value register restarts the count, so every timed run starts at the same phase
 //! of a tick and two runs with equal instruction counts read exactly the same ticks under
-//! `-icount`; every sample is also read on its own (average and slowest sample). The conversion to instructions (ticks · 10^9 / f_systick / 2^shift) is done by
-//! the host, which knows the `-icount shift` it ran QEMU with.
+//! `-icount`; every sample is also read on its own (average and slowest sample). The
+//! conversion to instructions (ticks · 10^9 / f_systick / 2^shift) is done by the host, which
+//! knows the `-icount shift` it ran QEMU with.
 
 use crate::out::Out;
 use crate::stimulus::{run_hashed, Stimulus, SAMPLES, SEEDS};

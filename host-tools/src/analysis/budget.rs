@@ -1,13 +1,14 @@
 //! Sample budget on microcontrollers, from the measured instruction counts in
-//! `docs/firmware-figures.json` (written by `cargo run -p xtask -- firmware`; QEMU with
-//! `-icount shift=0`, one instruction per virtual nanosecond, see docs/firmware.md). Nothing
-//! here is copied by hand: the file is embedded at build time and fitted here.
+//! `docs/firmware-figures.json` (written by `cargo run -p xtask -- firmware`; instructions
+//! counted under QEMU `-icount`, see docs/firmware.md). Nothing here is copied by hand: the
+//! file is embedded at build time and fitted here.
 //!
 //! Model: instructions per sample ≈ per_port · ports + base, a least-squares line through the
 //! measured plants of one part, profile and form, each plant counted by its slowest single
 //! sample (`worst_instructions_per_sample`: a loop that steps once per sample period must
-//! meet the period in every sample, so the average is not what a rig can run at) (the test plants have about one junction per
-//! two ports, so the junction cost is folded into the per-port figure). At one instruction per
+//! meet the period in every sample, so the average is not what a rig can run at). The test
+//! plants have about one junction per two ports, so the junction cost is folded into the
+//! per-port figure. At one instruction per
 //! cycle a part at clock f sustains f / instructions samples per second: an upper bound, wait
 //! states and the rig's own I/O come on top.
 
@@ -75,40 +76,36 @@ fn event_fit(part: &Part) -> Option<(f64, f64, String, usize)> {
     fit_by(part, |r| r.event_instructions)
 }
 
+/// The plain plants of one part, profile and form in the figures file. Plants named
+/// `p<ports>f_…` carry a fractional delay on every line (the cost of a fraction, measured
+/// beside the plain plant), `p<ports>b_…` a series branch, `p<ports>z_…` Zc(s) networks on
+/// its lossy lines; they stay out of the per-port fits.
+fn plain_rows(part: &Part) -> Vec<Row> {
+    let Ok(figs) = serde_json::from_str::<Figures>(FIGURES) else { return Vec::new() };
+    figs.rows
+        .into_iter()
+        .filter(|r| r.part == part.figures_part && r.profile == part.profile && r.form == part.form)
+        .filter(|r| !r.plant.contains("f_") && !r.plant.contains("b_") && !r.plant.contains("z_"))
+        .collect()
+}
+
 /// The one plain plant of `part` whose event cost was measured: (instructions, ports,
 /// machine); `None` unless exactly one was.
 fn single_event(part: &Part) -> Option<(f64, usize, String)> {
-    let figs: Figures = serde_json::from_str(FIGURES).ok()?;
-    let mut rows = figs.rows.iter().filter(|r| {
-        r.part == part.figures_part
-            && r.profile == part.profile
-            && r.form == part.form
-            && !r.plant.contains("f_")
-            && !r.plant.contains("b_")
-            && !r.plant.contains("z_")
-            && r.event_instructions.is_some()
-    });
-    let r = rows.next()?;
-    if rows.next().is_some() {
+    let rows = plain_rows(part);
+    let mut measured = rows.iter().filter_map(|r| Some((r.event_instructions?, r.ports, &r.machine)));
+    let (e, ports, machine) = measured.next()?;
+    if measured.next().is_some() {
         return None;
     }
-    Some((r.event_instructions?, r.ports, r.machine.clone()))
+    Some((e, ports, machine.clone()))
 }
 
 /// Least squares of `value` against the ports over the plain plants of one part, profile and
 /// form that have it.
 fn fit_by(part: &Part, value: impl Fn(&Row) -> Option<f64>) -> Option<(f64, f64, String, usize)> {
-    let figs: Figures = serde_json::from_str(FIGURES).ok()?;
-    let rows: Vec<&Row> = figs
-        .rows
-        .iter()
-        .filter(|r| r.part == part.figures_part && r.profile == part.profile && r.form == part.form)
-        // Plants named `p<ports>f_…` carry a fractional delay on every line (the cost of a
-        // fraction, measured beside the plain plant), `p<ports>b_…` a series branch,
-        // `p<ports>z_…` Zc(s) networks on its lossy lines; they stay out of the per-port fit.
-        .filter(|r| !r.plant.contains("f_") && !r.plant.contains("b_") && !r.plant.contains("z_"))
-        .filter(|r| value(r).is_some())
-        .collect();
+    let all = plain_rows(part);
+    let rows: Vec<&Row> = all.iter().filter(|r| value(r).is_some()).collect();
     if rows.len() < 2 {
         return None;
     }
@@ -208,12 +205,11 @@ mod tests {
     /// to linear in the ports), and the budget names part, clock, profile and form.
     #[test]
     fn budget_follows_the_figures_file() {
-        let figs: Figures = serde_json::from_str(FIGURES).unwrap();
         for p in &PARTS {
             let (per_port, base, _, _) = fit(p).expect("the figures hold this part");
-            let rows =
-                figs.rows.iter().filter(|r| r.part == p.figures_part && r.profile == p.profile && r.form == p.form);
-            for r in rows.filter(|r| !r.plant.contains("f_") && !r.plant.contains("b_") && !r.plant.contains("z_")) {
+            let rows = plain_rows(p);
+            assert!(rows.len() >= 2, "{}", p.name);
+            for r in &rows {
                 let model = per_port * r.ports as f64 + base;
                 assert!((model / r.worst_instructions_per_sample - 1.0).abs() < 0.10, "{} {} ports", p.name, r.ports);
             }
@@ -221,9 +217,7 @@ mod tests {
         // The event line follows the measured events the same way, where they were measured.
         for p in &PARTS {
             let Some((per_port, base, _, _)) = event_fit(p) else { continue };
-            let rows =
-                figs.rows.iter().filter(|r| r.part == p.figures_part && r.profile == p.profile && r.form == p.form);
-            for r in rows.filter(|r| !r.plant.contains("f_") && !r.plant.contains("b_") && !r.plant.contains("z_")) {
+            for r in &plain_rows(p) {
                 let e = r.event_instructions.expect("measured for every plain plant of this part");
                 let model = per_port * r.ports as f64 + base;
                 assert!((model / e - 1.0).abs() < 0.10, "event {} {} ports: {model} against {e}", p.name, r.ports);

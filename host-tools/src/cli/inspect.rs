@@ -268,7 +268,7 @@ pub fn report_text(plant: &Plant, c: &Compiled, a: &Analysis, file: &str) -> Str
     // window's wrap), so its delay memory is about three times the generic form's.
     match crate::emit::specialised_memory_waves(&c.network(), c.profile) {
         Some(w) => {
-            let bytes = w * if c.profile == ProfileKind::Wide { 4 } else { 2 };
+            let bytes = w.saturating_mul(c.profile.wave_bytes() as u64);
             let _ = writeln!(
                 s,
                 "   specialised form ({}): {w} waves of delay memory, {:.1} KiB",

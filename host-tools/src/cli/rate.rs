@@ -171,12 +171,11 @@ fn search_table(
     Ok(s.least_passing.is_some())
 }
 
-/// The part's real-time answer (the command's answer before the rate search existed).
 /// Solver RAM of `c` in `form`: the specialised form keeps its delay memory in three spans
 /// (emitter's layout) instead of the generic form's rings.
 fn solver_ram(c: &Compiled, profile: ProfileKind, form: Form) -> usize {
     let generic = c.report.ram_bytes(profile);
-    let wave = if profile == ProfileKind::Wide { 4 } else { 2 };
+    let wave = profile.wave_bytes();
     match (form, crate::emit::specialised_memory_waves(&c.network(), profile)) {
         (Form::Specialised, Some(w)) => {
             let rings = usize::try_from(w).unwrap_or(usize::MAX).saturating_mul(wave);
@@ -186,6 +185,7 @@ fn solver_ram(c: &Compiled, profile: ProfileKind, form: Form) -> usize {
     }
 }
 
+/// The part's real-time answer (the command's answer before the rate search existed).
 fn real_time(plant: &Plant, file: &str, part: &RigPart, form: Form) -> Result<i32, Failure> {
     let file = file.to_string();
     let own = compile(plant, &file, part.profile)?;

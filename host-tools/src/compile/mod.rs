@@ -59,6 +59,14 @@ impl ProfileKind {
             ProfileKind::Narrow => "narrow",
         }
     }
+
+    /// Bytes of one wave in the core's memory.
+    pub fn wave_bytes(self) -> usize {
+        match self {
+            ProfileKind::Wide => 4,
+            ProfileKind::Narrow => 2,
+        }
+    }
 }
 
 /// A change the core applies between two samples.

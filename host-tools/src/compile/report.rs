@@ -177,10 +177,11 @@ impl Report {
     /// Solver RAM for this network, bytes (approximate): delay storage plus per-port state
     /// (wide: 4-byte waves, about 30 bytes per port; narrow: 2-byte waves, about 26).
     pub fn ram_bytes(&self, profile: super::ProfileKind) -> usize {
-        match profile {
-            super::ProfileKind::Wide => self.memory_waves * 4 + self.ports * 30,
-            super::ProfileKind::Narrow => self.memory_waves * 2 + self.ports * 26,
-        }
+        let per_port = match profile {
+            super::ProfileKind::Wide => 30,
+            super::ProfileKind::Narrow => 26,
+        };
+        self.memory_waves * profile.wave_bytes() + self.ports * per_port
     }
 }
 
