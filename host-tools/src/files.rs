@@ -35,6 +35,29 @@ pub fn read_bounded(path: &Path, limit: u64) -> std::io::Result<Vec<u8>> {
     Ok(bytes)
 }
 
+/// Where bytes stop being UTF-8 text: the first bad byte, its offset, and its 1-based line and
+/// column (columns in characters of the valid text before it), to place the error in the
+/// file as any other reading error is placed.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub struct NotUtf8 {
+    pub byte: u8,
+    pub offset: usize,
+    pub line: usize,
+    pub column: usize,
+}
+
+/// `bytes` as text, or where they stop being UTF-8.
+pub fn utf8_text(bytes: Vec<u8>) -> Result<String, NotUtf8> {
+    String::from_utf8(bytes).map_err(|e| {
+        let offset = e.utf8_error().valid_up_to();
+        let bytes = e.as_bytes();
+        let prefix = std::str::from_utf8(bytes.get(..offset).unwrap_or_default()).unwrap_or_default();
+        let line = prefix.matches('\n').count() + 1;
+        let column = prefix.rsplit('\n').next().map_or(0, |l| l.chars().count()) + 1;
+        NotUtf8 { byte: bytes.get(offset).copied().unwrap_or_default(), offset, line, column }
+    })
+}
+
 /// Why an output path is refused before any work.
 #[derive(Debug, Clone, PartialEq, Eq, thiserror::Error)]
 pub enum OutputError {

@@ -82,23 +82,13 @@ pub fn read_capture(path: &Path) -> Result<Capture, PlantError> {
     }
     let bytes = crate::files::read_bounded(path, MAX_FILE_BYTES)
         .map_err(|e| whole(format!("cannot read the capture: {e}"), "give a CSV file of the step response"))?;
-    let text = String::from_utf8(bytes).map_err(|e| {
-        let good = e.utf8_error().valid_up_to();
-        let prefix = std::str::from_utf8(e.as_bytes().get(..good).unwrap_or_default()).unwrap_or_default();
-        // The first bad byte's line and column, counted in the valid text before it.
-        let line = prefix.matches('\n').count() + 1;
-        let column = prefix.rsplit('\n').next().map_or(0, |l| l.chars().count()) + 1;
-        PlantError {
-            line,
-            column,
-            ..whole(
-                format!(
-                    "the capture is not UTF-8 text: byte 0x{:02x} is not a valid character",
-                    e.as_bytes().get(good).copied().unwrap_or_default()
-                ),
-                "the capture must be UTF-8 text (CSV)",
-            )
-        }
+    let text = crate::files::utf8_text(bytes).map_err(|e| PlantError {
+        line: e.line,
+        column: e.column,
+        ..whole(
+            format!("the capture is not UTF-8 text: byte 0x{:02x} is not a valid character", e.byte),
+            "the capture must be UTF-8 text (CSV)",
+        )
     })?;
     parse_capture(&text, &file)
 }

@@ -141,17 +141,14 @@ pub fn read_plant_text(path: &Path) -> Result<String, PlantError> {
     if bytes.len() as u64 > MAX_PLANT_FILE {
         return Err(too_big(format!("at least {}", bytes.len())));
     }
-    String::from_utf8(bytes).map_err(|e| {
-        let good = e.utf8_error().valid_up_to();
-        let bytes = e.as_bytes();
-        // The valid prefix is text, so its lines and columns count as in any other error.
-        let prefix = std::str::from_utf8(bytes.get(..good).unwrap_or_default()).unwrap_or_default();
-        let (line, column) = Source { text: prefix, file: &file }.line_column(good);
-        let bad = bytes.get(good).copied().unwrap_or_default();
+    crate::files::utf8_text(bytes).map_err(|e| {
         whole(
-            line,
-            column,
-            format!("the plant file is not UTF-8 text: byte 0x{bad:02x} at offset {good} is not a valid character"),
+            e.line,
+            e.column,
+            format!(
+                "the plant file is not UTF-8 text: byte 0x{:02x} at offset {} is not a valid character",
+                e.byte, e.offset
+            ),
             "save the file as UTF-8 (a plant file is TOML, which is always UTF-8)",
         )
     })
