@@ -83,7 +83,13 @@ macro_rules! both {
 /// profile `$p` (the baseline's own marker type), then the two forms of today ([`both`]).
 macro_rules! three {
     ($c:expr, $m:ident, $p:ty, $old:ty) => {{
-        let net = old_generic::from_core(&$m::NETWORK).expect("the old core represents this plant");
+        // The old narrow profile had no bits below the I/O code: its copy runs the plant at
+        // io_shift 0 (the same work per sample; only the scale of the codes differs).
+        let at_old_shift = tidewire_core::Network {
+            io_shift: $m::NETWORK.io_shift.min(<$old as old_generic::profile::Profile>::MAX_IO_SHIFT),
+            ..$m::NETWORK
+        };
+        let net = old_generic::from_core(&at_old_shift).expect("the old core represents this plant");
         let mut o =
             Box::new(
                 old_generic::Solver::<$old, { $m::PORTS }, { $m::JUNCTIONS }, { $m::MEMORY }, { $m::LOSS_ENDS }>::new(),

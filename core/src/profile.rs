@@ -44,6 +44,13 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     const SERIES_FRAC: u32;
     /// Largest `io_shift` the wave range leaves room for.
     const MAX_IO_SHIFT: u8;
+    /// The `io_shift` the compiler gives this profile's plants: the fraction bits a wave
+    /// keeps below one I/O code. A deviation of a few LSB that circulates round a working
+    /// point (truncation's dead band) then stays within a code or two of every output, with
+    /// no hold rule (`core/tests/settle.rs` measures it). [`Wide`]: 12 (codes of 16 bits from
+    /// 32-bit waves, 2^19 codes of wave range). [`Narrow`]: 4 (codes of 12 bits from 16-bit
+    /// waves, the resolution of the converters such parts carry).
+    const IO_SHIFT: u8;
     /// Whether the solver runs nodes of 1 to 3 ports through fixed-size arrays (unrolled).
     /// Only [`Wide`]: unrolled, the [`Narrow`] node's compares (correction steps, saturation)
     /// become ARMv6-M branches whose count depends on the data (the firmware's two-stimulus
@@ -343,6 +350,7 @@ impl Profile for Wide {
     const HOLDS: bool = false;
     const SERIES_FRAC: u32 = 30;
     const MAX_IO_SHIFT: u8 = 15;
+    const IO_SHIFT: u8 = 12;
     const FIXED_NODES: bool = true;
     const TOTAL_MAX: u64 = 1 << 62;
     const LOSS_FRAC: u32 = 30;
@@ -366,9 +374,7 @@ impl Profile for Wide {
     }
     #[inline(always)]
     fn to_code(x: i32, shift: u32) -> i16 {
-        let mask = x >> 31;
-        let m = apply_sign32((x.unsigned_abs().wrapping_shr(shift)) as i32, mask);
-        sat_i16(m)
+        sat_i16(trunc_shr32_dyn(x, shift))
     }
     #[inline(always)]
     fn sum(a: i32, b: i32) -> i32 {
@@ -393,9 +399,10 @@ impl Profile for Narrow {
     const WEIGHT_BITS: u32 = 14;
     const RECIP_BITS: u32 = 16;
     const EXACT_NODE: bool = true;
-    const HOLDS: bool = true;
+    const HOLDS: bool = false;
     const SERIES_FRAC: u32 = 14;
-    const MAX_IO_SHIFT: u8 = 0;
+    const MAX_IO_SHIFT: u8 = 8;
+    const IO_SHIFT: u8 = 4;
     const FIXED_NODES: bool = false;
     const TOTAL_MAX: u64 = (1 << 30) - 1;
     const LOSS_FRAC: u32 = 14;
@@ -416,12 +423,12 @@ impl Profile for Narrow {
         sat_i16(x)
     }
     #[inline(always)]
-    fn from_code(code: i16, _shift: u32) -> i16 {
-        code
+    fn from_code(code: i16, shift: u32) -> i16 {
+        sat_i16((code as i32).wrapping_shl(shift)) // shift <= 8 keeps |code·2^shift| < 2^31
     }
     #[inline(always)]
-    fn to_code(x: i32, _shift: u32) -> i16 {
-        sat_i16(x)
+    fn to_code(x: i32, shift: u32) -> i16 {
+        sat_i16(trunc_shr32_dyn(x, shift))
     }
     #[inline(always)]
     fn sum(a: i16, b: i16) -> i32 {

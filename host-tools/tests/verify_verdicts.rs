@@ -5,7 +5,7 @@
 
 use std::path::Path;
 use tidewire_host::analysis::prepare;
-use tidewire_host::compile::ProfileKind;
+use tidewire_host::compile::{Compiled, ProfileKind};
 use tidewire_host::plant::{load_plant, parse_plant, Load, Plant};
 use tidewire_host::verify::{verify, FinalCheck, Verification};
 
@@ -98,17 +98,30 @@ fn example(name: &str) -> Plant {
 /// `verify` and the working-point check on `plant` as compiled for `profile`.
 fn held(plant: &Plant, profile: ProfileKind) -> Verification {
     let (c, _) = prepare(plant, "test.toml", profile).unwrap();
-    let (mut v, _) = verify(plant, "test.toml", &c, &[], &|_| {}).unwrap();
-    v.hold_check(plant, "test.toml", &c).unwrap();
+    held_compiled(plant, &c)
+}
+
+fn held_compiled(plant: &Plant, c: &Compiled) -> Verification {
+    let (mut v, _) = verify(plant, "test.toml", c, &[], &|_| {}).unwrap();
+    v.hold_check(plant, "test.toml", c).unwrap();
     v
+}
+
+/// `plant` compiled for the narrow profile and then run with no bits below the I/O code
+/// (io_shift 0, one code = one wave LSB): the same waves, read at 16-bit resolution, where
+/// the rounding's dead band shows as a cycle of several codes.
+fn narrow_at_wave_resolution(plant: &Plant) -> Compiled {
+    let (mut c, _) = prepare(plant, "test.toml", ProfileKind::Narrow).unwrap();
+    assert_eq!(c.net.io_shift, 4, "the compiler's narrow io_shift");
+    c.net.volts_per_code /= 16.0;
+    c.net.io_shift = 0;
+    c
 }
 
 #[test]
 fn the_working_point_check_sees_the_narrow_limit_cycle_and_judges_it_against_the_tolerance() {
-    // drive-to-motor, step to 680 V: wide holds every code; narrow keeps a 10-code cycle at
-    // the motor terminals (the present narrow rounding, README "Limits"; if this test finds
-    // the band gone, the rule improved: update the README). Within the plant's final-value
-    // tolerance (0.5 % of 680 V, 72 codes) it passes, and the text names the cycle.
+    // drive-to-motor, step to 680 V: both profiles hold every code at the compiler's scale
+    // (narrow: 4 bits below its 12-bit code, `Profile::IO_SHIFT`).
     let plant = example("drive-to-motor.toml");
     let wide = held(&plant, ProfileKind::Wide);
     let h = wide.hold.as_ref().expect("a step drive is checked");
@@ -116,26 +129,28 @@ fn the_working_point_check_sees_the_narrow_limit_cycle_and_judges_it_against_the
     assert_eq!((h.widest(), h.watched, h.held), (0, h.held / 2, 160_000), "{h:#?}");
     assert_eq!(h.outputs.len(), 1 + plant.probes.len(), "the drive's code and every probe");
     let narrow = held(&plant, ProfileKind::Narrow);
+    assert!(narrow.pass(), "{narrow:#?}");
+    assert_eq!(narrow.hold.as_ref().unwrap().widest(), 0, "{narrow:#?}");
+    // The same narrow waves read one code per wave LSB: the dead band of truncation is a
+    // cycle of more than a few codes at the motor terminals, which the check must see. Within
+    // the plant's final-value tolerance (0.5 % of 680 V) it passes, and the text names it.
+    let c = narrow_at_wave_resolution(&plant);
+    let narrow = held_compiled(&plant, &c);
     let h = narrow.hold.as_ref().unwrap();
     let motor = h.outputs.iter().find(|o| o.name == "motor terminals").unwrap();
     assert!(motor.band > tidewire_host::verify::hold::FEW_CODES, "{h:#?}");
     assert!(motor.low <= motor.last && motor.last <= motor.high);
-    assert_eq!(h.limit, (0.005 * 680.0 / plant_vpc(&plant, ProfileKind::Narrow)).floor() as u32);
+    assert_eq!(h.limit, (0.005 * 680.0 / f64::from(c.net.volts_per_code)).floor() as u32);
     assert!(h.pass() && narrow.pass(), "{h:#?}");
     // A final-value tolerance tighter than the band: the check fails the verdict, for the
     // outputs that cycle and only those.
     let mut tight = plant.clone();
     tight.tolerances.final_error = 2e-4; // 136 mV, under 3 codes of 47 mV
-    let v = held(&tight, ProfileKind::Narrow);
+    let v = held_compiled(&tight, &c);
     let h = v.hold.as_ref().unwrap();
     assert_eq!(h.limit, tidewire_host::verify::hold::FEW_CODES, "never tighter than a few codes");
     assert!(!h.pass() && !v.pass(), "{h:#?}");
     assert!(h.outputs.iter().all(|o| o.pass == (o.band <= h.limit)));
-}
-
-fn plant_vpc(plant: &Plant, profile: ProfileKind) -> f64 {
-    let (c, _) = prepare(plant, "test.toml", profile).unwrap();
-    f64::from(c.net.volts_per_code)
 }
 
 #[test]

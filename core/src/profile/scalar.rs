@@ -3,9 +3,21 @@
 //! operation on integers, checked against i128 in `tests.rs` and `core/tests/oracle.rs`).
 
 /// Branch-free conditional negation: returns `m` with the sign of `s` (s = 0 or −1 mask).
+#[cfg(test)]
 #[inline(always)]
 pub(super) fn apply_sign32(m: i32, mask: i32) -> i32 {
     (m ^ mask).wrapping_sub(mask)
+}
+
+/// [`trunc_shr32`] for a shift known only at run time (the generic solver's I/O shift, once
+/// per output code): x plus 2^shift − 1 where x < 0, shifted arithmetically. Branch-free on
+/// ARMv6-M, where `unsigned_abs` (an abs) had become a conditional branch on the output path.
+#[inline(always)]
+pub(super) fn trunc_shr32_dyn(x: i32, shift: u32) -> i32 {
+    // The sign mask opaque (ARMv6-M): with a run-time shift LLVM turned the `and` with it
+    // into a select, a conditional branch there.
+    let bias = opaque(x >> 31) & (1u32.wrapping_shl(shift).wrapping_sub(1) as i32);
+    x.wrapping_add(bias).wrapping_shr(shift)
 }
 
 /// `x` itself, but opaque to the optimizer on targets without a conditional select

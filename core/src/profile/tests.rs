@@ -227,4 +227,27 @@ fn codes_round_toward_zero_and_saturate() {
     assert_eq!(Wide::to_code(i32::MAX, 0), i16::MAX);
     assert_eq!(Wide::from_code(-3, 12), -3 * 4096);
     assert_eq!(Narrow::to_code(70000, 0), i16::MAX);
+    assert_eq!(Narrow::to_code(-17, 4), -1);
+    assert_eq!(Narrow::to_code(-15, 4), 0);
+    assert_eq!(Narrow::to_code(i16::MAX as i32 * 2, 4), 4095);
+    assert_eq!(Narrow::from_code(-3, 4), -48);
+    // A code beyond the 12-bit range saturates the wave instead of wrapping.
+    assert_eq!(Narrow::from_code(i16::MAX, 4), i16::MAX);
+    assert_eq!(Narrow::from_code(i16::MIN, 4), i16::MIN);
+}
+
+#[test]
+fn the_shift_toward_zero_is_the_exact_quotient() {
+    // Against i128 truncating division on the edges and a spread of values, every shift.
+    let xs =
+        [i32::MIN, i32::MIN + 1, -65537, -65536, -4097, -4096, -17, -16, -15, -1, 0, 1, 15, 16, 17, 4097, i32::MAX];
+    for shift in 0..31u32 {
+        for &x in
+            xs.iter().chain((0..2000i64).map(|k| (k * 2_147_483 - 2_000_000_000) as i32).collect::<Vec<_>>().iter())
+        {
+            let want = (x as i128 / (1i128 << shift)) as i32;
+            assert_eq!(trunc_shr32_dyn(x, shift), want, "{x} >> {shift}");
+            assert_eq!(trunc_shr32(x, shift), want, "{x} >> {shift}");
+        }
+    }
 }

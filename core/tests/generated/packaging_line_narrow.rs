@@ -114,8 +114,8 @@ pub static NETWORK: Network<'static> = Network {
     losses: &LOSSES,
     drive: Drive::Source { junction: 0, milliohm: 50000 },
     probes: &PROBES,
-    io_shift: 0,
-    volts_per_code: 0.00019074068,
+    io_shift: 4,
+    volts_per_code: 0.003051851,
 };
 
 /// The plant-specialised solver of this plant (narrow profile): the generic solver's
@@ -135,7 +135,7 @@ pub mod specialised {
     /// the window finds the waves still in flight after it wraps, so no sample copies memory
     /// and every sample costs the same (docs/firmware.md, "The slowest sample").
     pub const MEM: usize = 3 * SPAN;
-    const IO_SHIFT: u32 = 0;
+    const IO_SHIFT: u32 = 4;
     const EXPONENT: u32 = 28;
     const PROBES: usize = 4;
     const HIST: usize = 0;
@@ -155,7 +155,7 @@ pub mod specialised {
         aps: [W; 22],
         zcs: [[W; MAX_ZC_SECTIONS]; 0],
         zcc: [W; 0],
-        held: [W; 27],
+        held: [W; 0],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 0],
@@ -164,7 +164,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 27], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 22], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 27], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 27], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 22], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 0], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -182,147 +182,120 @@ pub mod specialised {
             let e: W = P::from_code(input, IO_SHIFT);
             let b0: W = self.mem[i + 3934];
             // junction 0: node of 1 port(s), fixed
-            let [a0] = { let mut o = [self.held[0]]; P::node_scatter_held(&[b0], &[2236u32], &mut o, e, 5368u32, 54560u32, 13u32, 9840u64, 2u32); o };
+            let [a0] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b0], &[2236u32], &mut o, e, 5368u32, 54560u32, 13u32, 9840u64); o };
             self.mem[i + 4947] = a0;
             self.mem[i + 1013] = a0;
-            self.held[0] = a0;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b1: W = self.mem[i + 4011];
             let b2: W = self.mem[i + 4088];
             let b3: W = self.b[0];
             // junction 1: node of 3 port(s), fixed
-            let [a1, a2, a3] = { let mut o = [self.held[1], self.held[2], self.held[3]]; P::node_scatter_held(&[b1, b2, b3], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64, 4294967295u32); o };
+            let [a1, a2, a3] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b1, b2, b3], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64); o };
             self.mem[i + 5326] = a1;
             self.mem[i + 1392] = a1;
-            self.held[1] = a1;
             self.mem[i + 5394] = a2;
             self.mem[i + 1460] = a2;
-            self.held[2] = a2;
             self.mem[i + 7791] = a3;
             self.mem[i + 3857] = a3;
-            self.held[3] = a3;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b4: W = self.mem[i + 4164];
             let b5: W = self.mem[i + 4232];
             let b6: W = self.b[1];
             // junction 2: node of 3 port(s), fixed
-            let [a4, a5, a6] = { let mut o = [self.held[4], self.held[5], self.held[6]]; P::node_scatter_held(&[b4, b5, b6], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64, 4294967295u32); o };
+            let [a4, a5, a6] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b4, b5, b6], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64); o };
             self.mem[i + 6004] = a4;
             self.mem[i + 2070] = a4;
-            self.held[4] = a4;
             self.mem[i + 6094] = a5;
             self.mem[i + 2160] = a5;
-            self.held[5] = a5;
             self.mem[i + 7806] = a6;
             self.mem[i + 3872] = a6;
-            self.held[6] = a6;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b7: W = self.mem[i + 4329];
             let b8: W = self.mem[i + 4418];
             let b9: W = self.b[2];
             // junction 3: node of 3 port(s), fixed
-            let [a7, a8, a9] = { let mut o = [self.held[7], self.held[8], self.held[9]]; P::node_scatter_held(&[b7, b8, b9], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64, 4294967295u32); o };
+            let [a7, a8, a9] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b7, b8, b9], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64); o };
             self.mem[i + 6537] = a7;
             self.mem[i + 2603] = a7;
-            self.held[7] = a7;
             self.mem[i + 6614] = a8;
             self.mem[i + 2680] = a8;
-            self.held[8] = a8;
             self.mem[i + 7823] = a9;
             self.mem[i + 3889] = a9;
-            self.held[9] = a9;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b10: W = self.mem[i + 4505];
             let b11: W = self.mem[i + 4582];
             let b12: W = self.b[3];
             // junction 4: node of 3 port(s), fixed
-            let [a10, a11, a12] = { let mut o = [self.held[10], self.held[11], self.held[12]]; P::node_scatter_held(&[b10, b11, b12], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64, 4294967295u32); o };
+            let [a10, a11, a12] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b10, b11, b12], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64); o };
             self.mem[i + 7299] = a10;
             self.mem[i + 3365] = a10;
-            self.held[10] = a10;
             self.mem[i + 7363] = a11;
             self.mem[i + 3429] = a11;
-            self.held[11] = a11;
             self.mem[i + 7843] = a12;
             self.mem[i + 3909] = a12;
-            self.held[12] = a12;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b13: W = self.mem[i + 4655];
             let b14: W = self.b[4];
             let b15: W = self.b[5];
             // junction 5: node of 3 port(s), fixed
-            let [a13, a14, a15] = { let mut o = [self.held[13], self.held[14], self.held[15]]; P::node_scatter_held(&[b13, b14, b15], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64, 4294967295u32); o };
+            let [a13, a14, a15] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b13, b14, b15], &[2236u32, 2236u32, 2236u32], &mut o, e, 0u32, 40017u32, 12u32, 6708u64); o };
             self.mem[i + 7681] = a13;
             self.mem[i + 3747] = a13;
-            self.held[13] = a13;
             self.mem[i + 7732] = a14;
             self.mem[i + 3798] = a14;
-            self.held[14] = a14;
             self.mem[i + 7860] = a15;
             self.mem[i + 3926] = a15;
-            self.held[15] = a15;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b16: W = self.mem[i + 4777];
             // junction 6: node of 1 port(s), fixed
             let [a16] = [b16];
             self.mem[i + 7783] = a16;
             self.mem[i + 3849] = a16;
-            self.held[16] = a16;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b17: W = self.mem[i + 4828];
             let b18: W = self.b[6];
             // junction 7: node of 2 port(s), fixed
-            let [a17, a18] = { let mut o = [self.held[17], self.held[18]]; P::node_scatter_held(&[b17, b18], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64, 1180u32); o };
+            let [a17, a18] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b17, b18], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64); o };
             self.mem[i + 7799] = a17;
             self.mem[i + 3865] = a17;
-            self.held[17] = a17;
             let a18 = P::adapt(b18, a18, 16384u32, false);
             self.b[6] = a18;
-            self.held[18] = a18;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b19: W = self.mem[i + 4836];
             let b20: W = self.b[7];
             // junction 8: node of 2 port(s), fixed
-            let [a19, a20] = { let mut o = [self.held[19], self.held[20]]; P::node_scatter_held(&[b19, b20], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64, 1180u32); o };
+            let [a19, a20] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b19, b20], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64); o };
             self.mem[i + 7813] = a19;
             self.mem[i + 3879] = a19;
-            self.held[19] = a19;
             let a20 = P::adapt(b20, a20, 16384u32, false);
             self.b[7] = a20;
-            self.held[20] = a20;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b21: W = self.mem[i + 4843];
             let b22: W = self.b[8];
             // junction 9: node of 2 port(s), fixed
-            let [a21, a22] = { let mut o = [self.held[21], self.held[22]]; P::node_scatter_held(&[b21, b22], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64, 1180u32); o };
+            let [a21, a22] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b21, b22], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64); o };
             self.mem[i + 7834] = a21;
             self.mem[i + 3900] = a21;
-            self.held[21] = a21;
             let a22 = P::adapt(b22, a22, 16384u32, false);
             self.b[8] = a22;
-            self.held[22] = a22;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b23: W = self.mem[i + 4854];
             let b24: W = self.b[9];
             // junction 10: node of 2 port(s), fixed
-            let [a23, a24] = { let mut o = [self.held[23], self.held[24]]; P::node_scatter_held(&[b23, b24], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64, 1180u32); o };
+            let [a23, a24] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b23, b24], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64); o };
             self.mem[i + 7853] = a23;
             self.mem[i + 3919] = a23;
-            self.held[23] = a23;
             let a24 = P::adapt(b24, a24, 16384u32, false);
             self.b[9] = a24;
-            self.held[24] = a24;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b25: W = self.mem[i + 4864];
             let b26: W = self.b[10];
             // junction 11: node of 2 port(s), fixed
-            let [a25, a26] = { let mut o = [self.held[25], self.held[26]]; P::node_scatter_held(&[b25, b26], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64, 1180u32); o };
+            let [a25, a26] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b25, b26], &[2236u32, 10737u32], &mut o, e, 0u32, 41313u32, 13u32, 12995u64); o };
             self.mem[i + 7867] = a25;
             self.mem[i + 3933] = a25;
-            self.held[25] = a25;
             let a26 = P::adapt(b26, a26, 16384u32, false);
             self.b[10] = a26;
-            self.held[26] = a26;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b27: W = self.mem[i + 4871];
             let b28: W = self.b[11];

@@ -20,8 +20,6 @@ mod scale;
 pub mod sense;
 pub mod sweep;
 
-pub use scale::WIDE_IO_SHIFT;
-
 use crate::compile::{compile, Compiled, ProfileKind};
 use crate::plant::{Plant, PlantError};
 

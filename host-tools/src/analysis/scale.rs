@@ -4,18 +4,18 @@
 //! is chosen from a bound on the plant's response to its own drive: the f64 twin is run
 //! over the whole drive and its largest wave W and largest node voltage V are taken, then
 //!
-//! * wide: io_shift = 12, and one I/O code covers max(|E|, V)·1.1/32767 volts, so the
-//!   drive and every probe fit an i16 code; waves then have 2^19 codes of range, 16 times
-//!   the I/O range, for plants whose waves exceed the drive (impedance steps);
-//! * narrow: io_shift = 0 (waves are codes), one code covers max(|E|, V, W)·1.25/32767 V;
-//! * rig port: the ADC fixes one code = full scale / 32768, and the report says whether the
-//!   plant's waves fit.
+//! * io_shift is the profile's own (`Profile::IO_SHIFT`: wide 12, narrow 4 fraction bits of
+//!   a wave below one code, which keep truncation's dead band below a code or two);
+//! * wide: one I/O code covers max(|E|, V)·1.1/32767 volts, so the drive and every probe fit
+//!   an i16 code; waves then have 2^19 codes of range, 16 times the I/O range, for plants
+//!   whose waves exceed the drive (impedance steps);
+//! * narrow: one wave LSB covers max(|E|, V, W)·1.25/32767 V, so a code (2^4 LSB) covers
+//!   16 times that and the I/O codes span ±2047 (12 bits);
+//! * rig port: the ADC fixes one code = full scale / 2^(15 − io_shift) (wide: 32768 codes,
+//!   narrow: 2048), and the report says whether the plant's waves fit.
 use super::Analysis;
 use crate::compile::{err, Compiled, HostDrive, ProfileKind};
 use crate::plant::{Drive as PlantDrive, Plant, PlantError, Span};
-
-/// Fractional bits of a wide wave below one I/O code.
-pub const WIDE_IO_SHIFT: u8 = 12;
 
 pub(super) fn choose(c: &mut Compiled, plant: &Plant, file: &str, a: &mut Analysis) -> Result<(), PlantError> {
     let twin = crate::twin::run(c, c.samples, &[]);
@@ -40,12 +40,14 @@ pub(super) fn choose(c: &mut Compiled, plant: &Plant, file: &str, a: &mut Analys
             "give the drive a step, pulse or samples",
         ));
     }
-    let (io_shift, vpc) = match (&plant.drive, c.profile) {
-        (PlantDrive::Rig { adc_full_scale, .. }, p) => {
-            (if p == ProfileKind::Wide { WIDE_IO_SHIFT } else { 0 }, adc_full_scale / 32768.0)
+    let io_shift = c.profile.io_shift();
+    let vpc = match (&plant.drive, c.profile) {
+        (PlantDrive::Rig { adc_full_scale, .. }, ProfileKind::Wide) => adc_full_scale / 32768.0,
+        (PlantDrive::Rig { adc_full_scale, .. }, ProfileKind::Narrow) => {
+            adc_full_scale / (1u64 << (15 - io_shift)) as f64
         }
-        (_, ProfileKind::Wide) => (WIDE_IO_SHIFT, peak_emf.max(peak_v) * 1.1 / 32767.0),
-        (_, ProfileKind::Narrow) => (0, peak_emf.max(peak_v).max(peak_w) * 1.25 / 32767.0),
+        (_, ProfileKind::Wide) => peak_emf.max(peak_v) * 1.1 / 32767.0,
+        (_, ProfileKind::Narrow) => peak_emf.max(peak_v).max(peak_w) * 1.25 / 32767.0 * (1u64 << io_shift) as f64,
     };
     c.net.io_shift = io_shift;
     c.net.volts_per_code = vpc as f32;

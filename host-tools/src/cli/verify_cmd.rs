@@ -208,14 +208,10 @@ fn hold_text(s: &mut String, c: &Compiled, h: &crate::verify::hold::HoldFigures)
     if h.widest() > crate::verify::hold::FEW_CODES {
         let _ = writeln!(
             s,
-            "   more than {} codes: the {} profile's rounding holds a limit cycle around this working point{}",
+            "   more than {} codes: the {} profile's rounding holds a limit cycle around this working point (its waves keep {} bits below the code)",
             crate::verify::hold::FEW_CODES,
             c.profile.name(),
-            if c.profile == ProfileKind::Narrow {
-                format!(" (the wide profile keeps {} bits below the code)", crate::analysis::WIDE_IO_SHIFT)
-            } else {
-                String::new()
-            }
+            c.profile.io_shift()
         );
     }
     h.outputs.iter().filter(|o| !o.pass).count()

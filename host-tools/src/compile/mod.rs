@@ -60,6 +60,15 @@ impl ProfileKind {
         }
     }
 
+    /// The profile's `io_shift` (fraction bits of a wave below one I/O code,
+    /// `Profile::IO_SHIFT`).
+    pub fn io_shift(self) -> u8 {
+        match self {
+            ProfileKind::Wide => <tidewire_core::Wide as tidewire_core::Profile>::IO_SHIFT,
+            ProfileKind::Narrow => <tidewire_core::Narrow as tidewire_core::Profile>::IO_SHIFT,
+        }
+    }
+
     /// Bytes of one wave in the core's memory.
     pub fn wave_bytes(self) -> usize {
         match self {

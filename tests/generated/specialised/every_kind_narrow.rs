@@ -82,8 +82,8 @@ pub static NETWORK: Network<'static> = Network {
     losses: &LOSSES,
     drive: Drive::Source { junction: 0, milliohm: 50000 },
     probes: &PROBES,
-    io_shift: 0,
-    volts_per_code: 0.0002721563,
+    io_shift: 4,
+    volts_per_code: 0.0043545007,
 };
 
 /// The plant-specialised solver of this plant (narrow profile): the generic solver's
@@ -103,14 +103,14 @@ pub mod specialised {
     /// the window finds the waves still in flight after it wraps, so no sample copies memory
     /// and every sample costs the same (docs/firmware.md, "The slowest sample").
     pub const MEM: usize = 3 * SPAN;
-    const IO_SHIFT: u32 = 0;
+    const IO_SHIFT: u32 = 4;
     const EXPONENT: u32 = 28;
     const PROBES: usize = 4;
     const HIST: usize = 0;
     const INITIAL_NODES: [NodeCoef; 3] = [
         NodeCoef { recip: 0, shift: 0, total: 3579, short: true, broken: false, open: false, hold: 0 },
-        NodeCoef { recip: 37501, shift: 11, total: 3579, short: false, broken: false, open: true, hold: 4294967295 },
-        NodeCoef { recip: 51072, shift: 12, total: 5256, short: false, broken: false, open: false, hold: 4294967295 },
+        NodeCoef { recip: 37501, shift: 11, total: 3579, short: false, broken: false, open: true, hold: 0 },
+        NodeCoef { recip: 51072, shift: 12, total: 5256, short: false, broken: false, open: false, hold: 0 },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -126,7 +126,7 @@ pub mod specialised {
         aps: [W; 14],
         zcs: [[W; MAX_ZC_SECTIONS]; 16],
         zcc: [W; 16],
-        held: [W; 18],
+        held: [W; 4],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 3],
@@ -135,7 +135,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 29], chokes: [P::ZERO; 1], lx: [P::ZERO; 16], ly: [P::ZERO; 96], lr: [P::ZERO; 96], aps: [P::ZERO; 14], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 16], zcc: [P::ZERO; 16], held: [P::ZERO; 18], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 29], chokes: [P::ZERO; 1], lx: [P::ZERO; 16], ly: [P::ZERO; 96], lr: [P::ZERO; 96], aps: [P::ZERO; 14], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 16], zcc: [P::ZERO; 16], held: [P::ZERO; 4], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -164,89 +164,75 @@ pub mod specialised {
             let b4: W = self.b[4];
             let b5: W = self.b[5];
             // junction 1: node of 5 port(s), fixed
-            let [a1, a2, a3, a4, a5] = { let mut o = [self.held[0], self.held[1], self.held[2], self.held[3], self.held[4]]; P::node_scatter_held(&[b1, b2, b3, b4, b5], &[2637u32, 3579u32, 3579u32, 2628u32, 3579u32], &mut o, e, 0u32, 33550u32, 13u32, 16002u64, 4294967295u32); o };
+            let [a1, a2, a3, a4, a5] = { let mut o = [P::ZERO; 5]; P::node_scatter(&[b1, b2, b3, b4, b5], &[2637u32, 3579u32, 3579u32, 2628u32, 3579u32], &mut o, e, 0u32, 33550u32, 13u32, 16002u64); o };
             let line1 = P::zc_post(a1, b1, self.zcc[7], &mut self.zcs[7], &[-5680, 12704, 15814, 16318], &[180, 59, 21, 10], 4);
             self.mem[i + 292] = line1;
             self.mem[i + 136] = line1;
-            self.held[0] = a1;
             self.mem[i + 202] = a2;
             self.mem[i + 46] = a2;
-            self.held[1] = a2;
             self.mem[i + 206] = a3;
             self.mem[i + 50] = a3;
-            self.held[2] = a3;
             let line4 = P::zc_post(a4, b4, self.zcc[8], &mut self.zcs[8], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
             self.mem[i + 301] = line4;
             self.mem[i + 145] = line4;
-            self.held[3] = a4;
             self.mem[i + 241] = a5;
             self.mem[i + 85] = a5;
-            self.held[4] = a5;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b6: W = self.b[6];
             // junction 2: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
-            let [a6] = if c.scatters() { { let mut o = [self.held[5]]; P::node_scatter_held(&[b6], &[3579u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b6] } else { [P::neg(b6)] };
+            let [a6] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b6], &[3579u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b6] } else { [P::neg(b6)] };
             self.mem[i + 177] = a6;
             self.mem[i + 21] = a6;
-            self.held[5] = a6;
+            self.held[0] = a6;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b7: W = self.b[7];
             // junction 3: node of 1 port(s), switched by the plant's events
             let c = self.nodes[1];
-            let [a7] = if c.scatters() { { let mut o = [self.held[6]]; P::node_scatter_held(&[b7], &[3579u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b7] } else { [P::neg(b7)] };
+            let [a7] = if c.scatters() { { let mut o = [self.held[1]]; P::node_scatter_held(&[b7], &[3579u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b7] } else { [P::neg(b7)] };
             self.mem[i + 181] = a7;
             self.mem[i + 25] = a7;
-            self.held[6] = a7;
+            self.held[1] = a7;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b8: W = self.b[8];
             let b9: W = self.b[9];
             let b10: W = self.b[10];
             // junction 4: node of 3 port(s), fixed
-            let [a8, a9, a10] = { let mut o = [self.held[7], self.held[8], self.held[9]]; P::node_scatter_held(&[b8, b9, b10], &[2628u32, 3579u32, 3579u32], &mut o, e, 0u32, 34643u32, 13u32, 15497u64, 4u32); o };
+            let [a8, a9, a10] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b8, b9, b10], &[2628u32, 3579u32, 3579u32], &mut o, e, 0u32, 34643u32, 13u32, 15497u64); o };
             let line8 = P::zc_post(a8, b8, self.zcc[15], &mut self.zcs[15], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
             self.mem[i + 311] = line8;
             self.mem[i + 155] = line8;
-            self.held[7] = a8;
             self.mem[i + 222] = a9;
             self.mem[i + 66] = a9;
-            self.held[8] = a9;
             self.mem[i + 228] = a10;
             self.mem[i + 72] = a10;
-            self.held[9] = a10;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b11: W = self.b[11];
             let b12: W = self.b[12];
             // junction 5: node of 2 port(s), fixed
-            let [a11, a12] = { let mut o = [self.held[10], self.held[11]]; P::node_scatter_held(&[b11, b12], &[3579u32, 5368u32], &mut o, e, 0u32, 60005u32, 13u32, 8947u64, 4294967295u32); o };
+            let [a11, a12] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b11, b12], &[3579u32, 5368u32], &mut o, e, 0u32, 60005u32, 13u32, 8947u64); o };
             self.mem[i + 213] = a11;
             self.mem[i + 57] = a11;
-            self.held[10] = a11;
             let a12 = P::adapt(b12, a12, 16384u32, false);
             self.b[12] = a12;
-            self.held[11] = a12;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b13: W = self.b[13];
             let b14: W = self.b[14];
             // junction 6: node of 2 port(s), fixed
-            let [a13, a14] = { let mut o = [self.held[12], self.held[13]]; P::node_scatter_held(&[b13, b14], &[3579u32, 2147u32], &mut o, e, 0u32, 46880u32, 12u32, 5726u64, 4294967295u32); o };
+            let [a13, a14] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b13, b14], &[3579u32, 2147u32], &mut o, e, 0u32, 46880u32, 12u32, 5726u64); o };
             self.mem[i + 219] = a13;
             self.mem[i + 63] = a13;
-            self.held[12] = a13;
             let a14 = P::adapt(b14, a14, 655u32, false);
             self.b[14] = a14;
-            self.held[13] = a14;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b15: W = self.b[15];
             let b16: W = self.b[16];
             // junction 7: node of 2 port(s), fixed
-            let [a15, a16] = { let mut o = [self.held[14], self.held[15]]; P::node_scatter_held(&[b15, b16], &[3579u32, 11811u32], &mut o, e, 0u32, 34287u32, 13u32, 15658u64, 115u32); o };
+            let [a15, a16] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b15, b16], &[3579u32, 11811u32], &mut o, e, 0u32, 34287u32, 13u32, 15658u64); o };
             self.mem[i + 197] = a15;
             self.mem[i + 41] = a15;
-            self.held[14] = a15;
             let a16 = P::adapt(b16, a16, 16384u32, false);
             self.b[16] = a16;
-            self.held[15] = a16;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b17: W = self.b[17];
             let b18: W = self.b[18];
@@ -286,15 +272,15 @@ pub mod specialised {
             let b24: W = self.b[24];
             // junction 11: node of 2 port(s), switched by the plant's events
             let c = self.nodes[2];
-            let [a23, a24] = if c.scatters() { { let mut o = [self.held[16], self.held[17]]; P::node_scatter_held(&[b23, b24], &[2628u32, 2628u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b23, b24] } else { [P::neg(b23), P::neg(b24)] };
+            let [a23, a24] = if c.scatters() { { let mut o = [self.held[2], self.held[3]]; P::node_scatter_held(&[b23, b24], &[2628u32, 2628u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b23, b24] } else { [P::neg(b23), P::neg(b24)] };
             let line23 = P::zc_post(a23, b23, self.zcc[11], &mut self.zcs[11], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
             self.mem[i + 304] = line23;
             self.mem[i + 148] = line23;
-            self.held[16] = a23;
+            self.held[2] = a23;
             let line24 = P::zc_post(a24, b24, self.zcc[12], &mut self.zcs[12], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
             self.mem[i + 307] = line24;
             self.mem[i + 151] = line24;
-            self.held[17] = a24;
+            self.held[3] = a24;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b25: W = self.b[25];
             let b26: W = self.b[26];

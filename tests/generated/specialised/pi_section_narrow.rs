@@ -48,8 +48,8 @@ pub static NETWORK: Network<'static> = Network {
     losses: &LOSSES,
     drive: Drive::Source { junction: 0, milliohm: 100000 },
     probes: &PROBES,
-    io_shift: 0,
-    volts_per_code: 3.8148137e-5,
+    io_shift: 4,
+    volts_per_code: 0.0006103702,
 };
 
 /// The plant-specialised solver of this plant (narrow profile): the generic solver's
@@ -69,12 +69,12 @@ pub mod specialised {
     /// the window finds the waves still in flight after it wraps, so no sample copies memory
     /// and every sample costs the same (docs/firmware.md, "The slowest sample").
     pub const MEM: usize = 3 * SPAN;
-    const IO_SHIFT: u32 = 0;
+    const IO_SHIFT: u32 = 4;
     const EXPONENT: u32 = 28;
     const PROBES: usize = 2;
     const HIST: usize = 0;
     const INITIAL_NODES: [NodeCoef; 1] = [
-        NodeCoef { recip: 45466, shift: 11, total: 2952, short: false, broken: false, open: false, hold: 21 },
+        NodeCoef { recip: 45466, shift: 11, total: 2952, short: false, broken: false, open: false, hold: 0 },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -90,7 +90,7 @@ pub mod specialised {
         aps: [W; 4],
         zcs: [[W; MAX_ZC_SECTIONS]; 0],
         zcc: [W; 0],
-        held: [W; 3],
+        held: [W; 1],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 1],
@@ -99,7 +99,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 1], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 4], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 3], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 1], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 4], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 1], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -124,10 +124,10 @@ pub mod specialised {
             let b5: W = self.b[5];
             // junction 3: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
-            let [a5] = if c.scatters() { { let mut o = [self.held[2]]; P::node_scatter_held(&[b5], &[2684u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b5] } else { [P::neg(b5)] };
+            let [a5] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b5], &[2684u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b5] } else { [P::neg(b5)] };
             self.mem[i + 160] = a5;
             self.mem[i + 68] = a5;
-            self.held[2] = a5;
+            self.held[0] = a5;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b1: W = self.b[1];
             let b2: W = self.b[2];
@@ -138,7 +138,7 @@ pub mod specialised {
             let wb4: W = P::branch_open(&[b3, b4], &[2684u32, 814u32], e, 0u32, 36954u32, 12u32, 7264u64);
             let (ra4, rb4, al4) = P::branch_series(wa4, wb4, self.chokes[0], 3632u32, 3498u32, 1615u32, 61391u32, 13u32, 8745u32);
             let [a1, a2] = { let mut o = [P::ZERO; 2]; P::branch_node(&[b1, b2], &[2684u32, 814u32], &mut o, e, 0u32, 3498u32, ra4, 38369u32, 12u32, 6996u64); o };
-            let [a3, a4] = { let mut o = [self.held[0], self.held[1]]; P::branch_node_held(&[b3, b4], &[2684u32, 814u32], &mut o, e, 0u32, 3632u32, rb4, 36954u32, 12u32, 7264u64, 53u32); o };
+            let [a3, a4] = { let mut o = [P::ZERO; 2]; P::branch_node(&[b3, b4], &[2684u32, 814u32], &mut o, e, 0u32, 3632u32, rb4, 36954u32, 12u32, 7264u64); o };
             self.chokes[0] = P::neg(al4);
             self.mem[i + 114] = a1;
             self.mem[i + 22] = a1;
@@ -146,10 +146,8 @@ pub mod specialised {
             self.b[2] = a2;
             self.mem[i + 183] = a3;
             self.mem[i + 91] = a3;
-            self.held[0] = a3;
             let a4 = P::adapt(b4, a4, 16384u32, false);
             self.b[4] = a4;
-            self.held[1] = a4;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a5, b5);
             self.probes[1] = P::sum(a1, b1);

@@ -82,8 +82,8 @@ pub mod specialised {
     const PROBES: usize = 4;
     const HIST: usize = 0;
     const INITIAL_NODES: [NodeCoef; 2] = [
-        NodeCoef { recip: 46863, shift: 11, total: 2864, short: false, broken: false, open: false, hold: 4294967295 },
-        NodeCoef { recip: 35346, shift: 13, total: 15189, short: false, broken: false, open: false, hold: 148 },
+        NodeCoef { recip: 46863, shift: 11, total: 2864, short: false, broken: false, open: false, hold: 0 },
+        NodeCoef { recip: 35346, shift: 13, total: 15189, short: false, broken: false, open: false, hold: 0 },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -99,7 +99,7 @@ pub mod specialised {
         aps: [W; 0],
         zcs: [[W; MAX_ZC_SECTIONS]; 0],
         zcc: [W; 0],
-        held: [W; 10],
+        held: [W; 8],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 2],
@@ -108,7 +108,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 4], chokes: [P::ZERO; 1], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 10], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 4], chokes: [P::ZERO; 1], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 8], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -198,13 +198,11 @@ pub mod specialised {
             let b14: W = self.mem[i + 141];
             let b15: W = self.b[3];
             // junction 6: node of 2 port(s), fixed
-            let [a14, a15] = { let mut o = [self.held[8], self.held[9]]; P::node_scatter_held(&[b14, b15], &[1118u32, 258u32], &mut o, e, 0u32, 48770u32, 10u32, 1376u64, 4294967295u32); o };
+            let [a14, a15] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b14, b15], &[1118u32, 258u32], &mut o, e, 0u32, 48770u32, 10u32, 1376u64); o };
             self.mem[i + 115] = a14;
             self.mem[i + 43] = a14;
-            self.held[8] = a14;
             let a15 = P::adapt(b15, a15, 15753u32, true);
             self.b[3] = a15;
-            self.held[9] = a15;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a0, b0);
             self.probes[1] = P::sum(a2, b2);

@@ -52,8 +52,8 @@ pub static NETWORK: Network<'static> = Network {
     losses: &LOSSES,
     drive: Drive::Rig { junction: 0, latency: 2 },
     probes: &PROBES,
-    io_shift: 0,
-    volts_per_code: 0.00015258789,
+    io_shift: 4,
+    volts_per_code: 0.0024414063,
 };
 
 /// The plant-specialised solver of this plant (narrow profile): the generic solver's
@@ -73,12 +73,12 @@ pub mod specialised {
     /// the window finds the waves still in flight after it wraps, so no sample copies memory
     /// and every sample costs the same (docs/firmware.md, "The slowest sample").
     pub const MEM: usize = 3 * SPAN;
-    const IO_SHIFT: u32 = 0;
+    const IO_SHIFT: u32 = 4;
     const EXPONENT: u32 = 29;
     const PROBES: usize = 2;
     const HIST: usize = 64;
     const INITIAL_NODES: [NodeCoef; 1] = [
-        NodeCoef { recip: 60012, shift: 13, total: 8946, short: false, broken: false, open: false, hold: 4294967295 },
+        NodeCoef { recip: 60012, shift: 13, total: 8946, short: false, broken: false, open: false, hold: 0 },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -94,7 +94,7 @@ pub mod specialised {
         aps: [W; 0],
         zcs: [[W; MAX_ZC_SECTIONS]; 0],
         zcc: [W; 0],
-        held: [W; 5],
+        held: [W; 2],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 1],
@@ -103,7 +103,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 5], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 2], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -131,20 +131,17 @@ pub mod specialised {
             let b1: W = self.mem[i + 119];
             let b2: W = self.mem[i + 127];
             // junction 1: node of 2 port(s), fixed
-            let [a1, a2] = { let mut o = [self.held[0], self.held[1]]; P::node_scatter_held(&[b1, b2], &[4473u32, 4473u32], &mut o, e, 0u32, 60012u32, 13u32, 8946u64, 4294967295u32); o };
+            let [a1, a2] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b1, b2], &[4473u32, 4473u32], &mut o, e, 0u32, 60012u32, 13u32, 8946u64); o };
             self.mem[i + 187] = a1;
             self.mem[i + 75] = a1;
-            self.held[0] = a1;
             self.mem[i + 203] = a2;
             self.mem[i + 91] = a2;
-            self.held[1] = a2;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b3: W = self.mem[i + 131];
             // junction 2: node of 1 port(s), fixed
-            let [a3] = { let mut o = [self.held[2]]; P::node_scatter_held(&[b3], &[4473u32], &mut o, e, 0u32, 60012u32, 13u32, 8946u64, 2u32); o };
+            let [a3] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b3], &[4473u32], &mut o, e, 0u32, 60012u32, 13u32, 8946u64); o };
             self.mem[i + 223] = a3;
             self.mem[i + 111] = a3;
-            self.held[2] = a3;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b4: W = self.mem[i + 139];
             let b5: W = self.mem[i + 148];
@@ -168,13 +165,13 @@ pub mod specialised {
             let b9: W = self.mem[i + 191];
             // junction 5: node of 2 port(s), switched by the plant's events
             let c = self.nodes[0];
-            let [a8, a9] = if c.scatters() { { let mut o = [self.held[3], self.held[4]]; P::node_scatter_held(&[b8, b9], &[4473u32, 4473u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b8, b9] } else { [P::neg(b8), P::neg(b9)] };
+            let [a8, a9] = if c.scatters() { { let mut o = [self.held[0], self.held[1]]; P::node_scatter_held(&[b8, b9], &[4473u32, 4473u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b8, b9] } else { [P::neg(b8), P::neg(b9)] };
             self.mem[i + 206] = a8;
             self.mem[i + 94] = a8;
-            self.held[3] = a8;
+            self.held[0] = a8;
             self.mem[i + 215] = a9;
             self.mem[i + 103] = a9;
-            self.held[4] = a9;
+            self.held[1] = a9;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b10: W = self.mem[i + 200];
             let b11: W = self.mem[i + 204];

@@ -109,7 +109,7 @@ pub mod specialised {
     const PROBES: usize = 7;
     const HIST: usize = 64;
     const INITIAL_NODES: [NodeCoef; 2] = [
-        NodeCoef { recip: 50006, shift: 13, total: 10736, short: false, broken: false, open: false, hold: 4294967295 },
+        NodeCoef { recip: 50006, shift: 13, total: 10736, short: false, broken: false, open: false, hold: 0 },
         NodeCoef { recip: 0, shift: 0, total: 2982, short: true, broken: false, open: false, hold: 0 },
     ];
 
@@ -126,7 +126,7 @@ pub mod specialised {
         aps: [W; 0],
         zcs: [[W; MAX_ZC_SECTIONS]; 0],
         zcc: [W; 0],
-        held: [W; 23],
+        held: [W; 4],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 2],
@@ -135,7 +135,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 14], chokes: [P::ZERO; 0], lx: [P::ZERO; 12], ly: [P::ZERO; 12], lr: [P::ZERO; 24], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 23], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 14], chokes: [P::ZERO; 0], lx: [P::ZERO; 12], ly: [P::ZERO; 12], lr: [P::ZERO; 24], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 4], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -173,23 +173,19 @@ pub mod specialised {
             let b4: W = self.b[2];
             let b5: W = self.mem[i + 2024];
             // junction 2: node of 3 port(s), fixed
-            let [a3, a4, a5] = { let mut o = [self.held[0], self.held[1], self.held[2]]; P::node_scatter_held(&[b3, b4, b5], &[2684u32, 3579u32, 2684u32], &mut o, e, 0u32, 60005u32, 13u32, 8947u64, 4294967295u32); o };
+            let [a3, a4, a5] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b3, b4, b5], &[2684u32, 3579u32, 2684u32], &mut o, e, 0u32, 60005u32, 13u32, 8947u64); o };
             self.mem[i + 1960] = a3;
             self.mem[i + 68] = a3;
-            self.held[0] = a3;
             self.mem[i + 2072] = a4;
             self.mem[i + 180] = a4;
-            self.held[1] = a4;
             self.mem[i + 2099] = a5;
             self.mem[i + 207] = a5;
-            self.held[2] = a5;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b6: W = self.b[3];
             // junction 3: node of 1 port(s), fixed
-            let [a6] = { let mut o = [self.held[3]]; P::node_scatter_held(&[b6], &[3579u32], &mut o, e, 0u32, 37501u32, 12u32, 7158u64, 2u32); o };
+            let [a6] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b6], &[3579u32], &mut o, e, 0u32, 37501u32, 12u32, 7158u64); o };
             self.mem[i + 2023] = a6;
             self.mem[i + 131] = a6;
-            self.held[3] = a6;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b7: W = self.mem[i + 2073];
             let b8: W = self.mem[i + 2100];
@@ -204,27 +200,22 @@ pub mod specialised {
             let b10: W = self.b[4];
             let b11: W = self.mem[i + 2308];
             // junction 5: node of 3 port(s), fixed
-            let [a9, a10, a11] = { let mut o = [self.held[4], self.held[5], self.held[6]]; P::node_scatter_held(&[b9, b10, b11], &[2684u32, 2236u32, 2684u32], &mut o, e, 0u32, 35301u32, 12u32, 7604u64, 4294967295u32); o };
+            let [a9, a10, a11] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b9, b10, b11], &[2684u32, 2236u32, 2684u32], &mut o, e, 0u32, 35301u32, 12u32, 7604u64); o };
             self.mem[i + 2175] = a9;
             self.mem[i + 283] = a9;
-            self.held[4] = a9;
             self.mem[i + 2383] = a10;
             self.mem[i + 491] = a10;
-            self.held[5] = a10;
             self.mem[i + 2403] = a11;
             self.mem[i + 511] = a11;
-            self.held[6] = a11;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b12: W = self.b[5];
             let b13: W = self.b[6];
             // junction 6: node of 2 port(s), fixed
-            let [a12, a13] = { let mut o = [self.held[7], self.held[8]]; P::node_scatter_held(&[b12, b13], &[2236u32, 1073u32], &mut o, e, 0u32, 40561u32, 11u32, 3309u64, 4294967295u32); o };
+            let [a12, a13] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b12, b13], &[2236u32, 1073u32], &mut o, e, 0u32, 40561u32, 11u32, 3309u64); o };
             self.mem[i + 2307] = a12;
             self.mem[i + 415] = a12;
-            self.held[7] = a12;
             let a13 = P::adapt(b13, a13, 16384u32, false);
             self.b[6] = a13;
-            self.held[8] = a13;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b14: W = self.mem[i + 2384];
             let b15: W = self.mem[i + 2404];
@@ -240,23 +231,22 @@ pub mod specialised {
             let b18: W = self.mem[i + 2653];
             // junction 8: node of 3 port(s), switched by the plant's events
             let c = self.nodes[0];
-            let [a16, a17, a18] = if c.scatters() { { let mut o = [self.held[9], self.held[10], self.held[11]]; P::node_scatter_held(&[b16, b17, b18], &[2684u32, 5368u32, 2684u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b16, b17, b18] } else { [P::neg(b16), P::neg(b17), P::neg(b18)] };
+            let [a16, a17, a18] = if c.scatters() { { let mut o = [self.held[0], self.held[1], self.held[2]]; P::node_scatter_held(&[b16, b17, b18], &[2684u32, 5368u32, 2684u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b16, b17, b18] } else { [P::neg(b16), P::neg(b17), P::neg(b18)] };
             self.mem[i + 2462] = a16;
             self.mem[i + 570] = a16;
-            self.held[9] = a16;
+            self.held[0] = a16;
             self.mem[i + 2807] = a17;
             self.mem[i + 915] = a17;
-            self.held[10] = a17;
+            self.held[1] = a17;
             self.mem[i + 2831] = a18;
             self.mem[i + 939] = a18;
-            self.held[11] = a18;
+            self.held[2] = a18;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b19: W = self.b[8];
             // junction 9: node of 1 port(s), fixed
-            let [a19] = { let mut o = [self.held[12]]; P::node_scatter_held(&[b19], &[5368u32], &mut o, e, 0u32, 33334u32, 14u32, 32211u64, 1u32); o };
+            let [a19] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b19], &[5368u32], &mut o, e, 0u32, 33334u32, 14u32, 32211u64); o };
             self.mem[i + 2652] = a19;
             self.mem[i + 760] = a19;
-            self.held[12] = a19;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b20: W = self.mem[i + 2808];
             let b21: W = self.mem[i + 2832];
@@ -271,24 +261,21 @@ pub mod specialised {
             let b23: W = self.b[9];
             let b24: W = self.mem[i + 3108];
             // junction 11: node of 3 port(s), fixed
-            let [a22, a23, a24] = { let mut o = [self.held[13], self.held[14], self.held[15]]; P::node_scatter_held(&[b22, b23, b24], &[2684u32, 2982u32, 2684u32], &mut o, e, 0u32, 64295u32, 13u32, 8350u64, 4294967295u32); o };
+            let [a22, a23, a24] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b22, b23, b24], &[2684u32, 2982u32, 2684u32], &mut o, e, 0u32, 64295u32, 13u32, 8350u64); o };
             self.mem[i + 2952] = a22;
             self.mem[i + 1060] = a22;
-            self.held[13] = a22;
             self.mem[i + 3177] = a23;
             self.mem[i + 1285] = a23;
-            self.held[14] = a23;
             self.mem[i + 3213] = a24;
             self.mem[i + 1321] = a24;
-            self.held[15] = a24;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b25: W = self.b[10];
             // junction 12: node of 1 port(s), switched by the plant's events
             let c = self.nodes[1];
-            let [a25] = if c.scatters() { { let mut o = [self.held[16]]; P::node_scatter_held(&[b25], &[2982u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b25] } else { [P::neg(b25)] };
+            let [a25] = if c.scatters() { { let mut o = [self.held[3]]; P::node_scatter_held(&[b25], &[2982u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b25] } else { [P::neg(b25)] };
             self.mem[i + 3107] = a25;
             self.mem[i + 1215] = a25;
-            self.held[16] = a25;
+            self.held[3] = a25;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b26: W = self.mem[i + 3178];
             let b27: W = self.mem[i + 3214];
@@ -303,34 +290,28 @@ pub mod specialised {
             let b29: W = self.b[11];
             let b30: W = self.mem[i + 3479];
             // junction 14: node of 3 port(s), fixed
-            let [a28, a29, a30] = { let mut o = [self.held[17], self.held[18], self.held[19]]; P::node_scatter_held(&[b28, b29, b30], &[2684u32, 1789u32, 2684u32], &mut o, e, 0u32, 37506u32, 12u32, 7157u64, 4294967295u32); o };
+            let [a28, a29, a30] = { let mut o = [P::ZERO; 3]; P::node_scatter(&[b28, b29, b30], &[2684u32, 1789u32, 2684u32], &mut o, e, 0u32, 37506u32, 12u32, 7157u64); o };
             self.mem[i + 3225] = a28;
             self.mem[i + 1333] = a28;
-            self.held[17] = a28;
             self.mem[i + 3751] = a29;
             self.mem[i + 1859] = a29;
-            self.held[18] = a29;
             self.mem[i + 3783] = a30;
             self.mem[i + 1891] = a30;
-            self.held[19] = a30;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b31: W = self.b[12];
             let b32: W = self.b[13];
             // junction 15: node of 2 port(s), fixed
-            let [a31, a32] = { let mut o = [self.held[20], self.held[21]]; P::node_scatter_held(&[b31, b32], &[1789u32, 1342u32], &mut o, e, 0u32, 42867u32, 11u32, 3131u64, 4294967295u32); o };
+            let [a31, a32] = { let mut o = [P::ZERO; 2]; P::node_scatter(&[b31, b32], &[1789u32, 1342u32], &mut o, e, 0u32, 42867u32, 11u32, 3131u64); o };
             self.mem[i + 3478] = a31;
             self.mem[i + 1586] = a31;
-            self.held[20] = a31;
             let a32 = P::adapt(b32, a32, 4096u32, false);
             self.b[13] = a32;
-            self.held[21] = a32;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b33: W = self.mem[i + 3752];
             // junction 16: node of 1 port(s), fixed
-            let [a33] = { let mut o = [self.held[22]]; P::node_scatter_held(&[b33], &[2684u32], &mut o, e, 0u32, 37511u32, 11u32, 3578u64, 7u32); o };
+            let [a33] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b33], &[2684u32], &mut o, e, 0u32, 37511u32, 11u32, 3578u64); o };
             self.mem[i + 3510] = a33;
             self.mem[i + 1618] = a33;
-            self.held[22] = a33;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::diff(a0, rig_back);
             self.probes[1] = P::sum(a6, b6);

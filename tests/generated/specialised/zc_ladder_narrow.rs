@@ -78,8 +78,8 @@ pub mod specialised {
     const PROBES: usize = 5;
     const HIST: usize = 0;
     const INITIAL_NODES: [NodeCoef; 2] = [
-        NodeCoef { recip: 60005, shift: 13, total: 8947, short: false, broken: false, open: false, hold: 4294967295 },
-        NodeCoef { recip: 50006, shift: 12, total: 5368, short: false, broken: false, open: false, hold: 2 },
+        NodeCoef { recip: 60005, shift: 13, total: 8947, short: false, broken: false, open: false, hold: 0 },
+        NodeCoef { recip: 50006, shift: 12, total: 5368, short: false, broken: false, open: false, hold: 0 },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -95,7 +95,7 @@ pub mod specialised {
         aps: [W; 2],
         zcs: [[W; MAX_ZC_SECTIONS]; 6],
         zcc: [W; 6],
-        held: [W; 5],
+        held: [W; 4],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 2],
@@ -104,7 +104,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 0], lx: [P::ZERO; 6], ly: [P::ZERO; 6], lr: [P::ZERO; 6], aps: [P::ZERO; 2], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 6], zcc: [P::ZERO; 6], held: [P::ZERO; 5], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 0], lx: [P::ZERO; 6], ly: [P::ZERO; 6], lr: [P::ZERO; 6], aps: [P::ZERO; 2], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 6], zcc: [P::ZERO; 6], held: [P::ZERO; 4], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -167,10 +167,9 @@ pub mod specialised {
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b7: W = self.mem[i + 91];
             // junction 4: node of 1 port(s), fixed
-            let [a7] = { let mut o = [self.held[4]]; P::node_scatter_held(&[b7], &[3579u32], &mut o, e, 0u32, 50006u32, 12u32, 5368u64, 5u32); o };
+            let [a7] = { let mut o = [P::ZERO; 1]; P::node_scatter(&[b7], &[3579u32], &mut o, e, 0u32, 50006u32, 12u32, 5368u64); o };
             self.mem[i + 80] = a7;
             self.mem[i + 32] = a7;
-            self.held[4] = a7;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a0, b0);
             self.probes[1] = P::diff(a0, b0);
