@@ -6,11 +6,12 @@
 //!   are the old ones, so on a lossless plant the two steps give the same integers wherever
 //!   today's additions do not act (every output, and every probe except one on the rig
 //!   port's line end: that read-out was corrected since, today it is the pin voltage
-//!   v = a + b[n − latency], the old one read a + b[n]). Those are the hold rules (`Profile::node_scatter_held`,
-//!   `profile/hold.rs`), which act only while the drive is on (e != 0) at a node that waves
-//!   have reached, and the loss sections' error feedback (`Profile::loss_section`). So the
-//!   check drives a burst shorter than the travel time from the rig port to the first node,
-//!   then zero input, and compares every output and probe sample of the ring-down;
+//!   v = a + b[n − latency], the old one read a + b[n]). Today's additions are the loss
+//!   sections' error feedback (`Profile::loss_section`; the plants are compared lossless)
+//!   and the bits below the I/O code (`Profile::IO_SHIFT`; the check runs at io_shift 0,
+//!   `at_code_level`). The check drives a burst shorter than the travel time from the rig
+//!   port to the first node, then zero input, and compares every output and probe sample of
+//!   the ring-down;
 //! * **wide, within a bound**: today's wide node runs without the correction steps (a node
 //!   voltage strictly between 0 and the exact one, `Profile::node_scatter`) and the loss
 //!   sections feed their residue back, so the waves differ by a few LSB, and with 12 fraction
@@ -159,9 +160,9 @@ fn lossless<'a>(net: &Network<'a>) -> Network<'a> {
 }
 
 /// A source-driven ladder of our own (the generated plants above are driven by a rig port
-/// or are wide only): a source node (200 Ω, no shunt: today's narrow node holds nothing
-/// there), a series resistor, an open 3-port node with a capacitor behind 10 Ω, a resistive
-/// and a shorted end. The first node after the source is 50 samples away (30 + 20).
+/// or are wide only): a source node (200 Ω, no shunt), a series resistor, an open 3-port
+/// node with a capacitor behind 10 Ω, a resistive and a shorted end. The first node after
+/// the source is 50 samples away (30 + 20).
 mod source_ladder {
     use super::*;
     pub const PORTS: usize = 9;

@@ -20,7 +20,7 @@ mod zc;
 
 use crate::error::{BuildError, ConfigError, Table};
 use crate::network::{ElementKind, Junction, Network, ProbeKind, Shunt, Side};
-use crate::profile::{hold_threshold, reciprocal, Profile};
+use crate::profile::{reciprocal, Profile};
 use crate::solver::{loss_group, DriveRt, ElementRt, JunctionRt, Mode, ProbeRt, Solver, LOSS_GROUPS, NODE_GROUPS};
 use loss::loss_record;
 pub(crate) use mode::{lone_open, mode_of};
@@ -176,7 +176,6 @@ fn junction_record<P: Profile>(
                 recip: 0,
                 shift: 0,
                 total: 0,
-                hold: 0,
             };
             apply_shunt::<P>(&mut rt, shunt, TOP.saturating_sub(k)).map_err(|_| out_of_range)?;
             if branch::branch_of(net, j).is_some() {
@@ -552,7 +551,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
 
 /// Put `shunt` into a node record: shunt weight floor(2^c / R), new reciprocal of the total.
 pub(crate) fn apply_shunt<P: Profile>(rt: &mut JunctionRt, shunt: Shunt, c: u32) -> Result<(), ()> {
-    let JunctionRt::Node { count, g_ports, g_src, recip, shift, total: t, mode, short, broken, hold, .. } = rt else {
+    let JunctionRt::Node { count, g_ports, g_src, recip, shift, total: t, mode, short, broken, .. } = rt else {
         return Err(());
     };
     let g_sh: u64 = match shunt {
@@ -570,9 +569,6 @@ pub(crate) fn apply_shunt<P: Profile>(rt: &mut JunctionRt, shunt: Shunt, c: u32)
     let total = g_ports.saturating_add(g_sh).min(P::TOTAL_MAX);
     let (r, s) = if is_short { (0, 0) } else { reciprocal(total, P::RECIP_BITS, !P::EXACT_NODE).ok_or(())? };
     *t = total;
-    // Only a profile whose LSB is an I/O code holds (`Profile::HOLDS`): elsewhere a wave
-    // wandering by a few LSB round its working point stays far below one code.
-    *hold = if is_short || !P::HOLDS { 0 } else { hold_threshold::<P>(*g_ports, *g_src, total) };
     *recip = r;
     *shift = s;
     *short = is_short;

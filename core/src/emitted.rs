@@ -187,9 +187,6 @@ pub struct NodeCoef {
     /// A lone open line end (one port, no source, no shunt): reflects a = b exactly
     /// (`configure::mode::lone_open`), whether broken or not.
     pub open: bool,
-    /// Hold threshold of the hold rule ([`crate::profile::hold_threshold`]; 0: never hold,
-    /// the node runs `Profile::node_scatter`, else `Profile::node_scatter_held`).
-    pub hold: u32,
 }
 
 impl NodeCoef {
@@ -233,15 +230,14 @@ pub fn node_coefficients<P: Profile>(
         recip: old.recip,
         shift: old.shift,
         total: old.total,
-        hold: old.hold,
     };
     apply_shunt::<P>(&mut rt, shunt, exponent.min(TOP)).map_err(|_| refused)?;
     if !passive_node::<P>(&rt, port_sum, port_min) {
         return Err(refused);
     }
     match rt {
-        JunctionRt::Node { recip, shift, total, short, broken, hold, mode, .. } => {
-            Ok(NodeCoef { recip, shift, total, short, broken, open: mode == Mode::Broken && !broken, hold })
+        JunctionRt::Node { recip, shift, total, short, broken, mode, .. } => {
+            Ok(NodeCoef { recip, shift, total, short, broken, open: mode == Mode::Broken && !broken })
         }
         _ => Err(refused),
     }
@@ -274,7 +270,7 @@ impl<'s, P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, c
     /// Every junction in order.
     pub fn junctions(&self) -> impl Iterator<Item = JunctionPlan> + '_ {
         self.s.juncs.iter().take(self.s.n_juncs).map(|j| match *j {
-            JunctionRt::Node { first, count, g_src, recip, shift, total, short, broken, hold, mode, .. } => {
+            JunctionRt::Node { first, count, g_src, recip, shift, total, short, broken, mode, .. } => {
                 let ports = self.s.g.iter().skip(first as usize).take(count as usize);
                 JunctionPlan::Node {
                     first,
@@ -282,7 +278,7 @@ impl<'s, P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, c
                     g_src,
                     port_sum: ports.clone().fold(0u64, |s, g| s.saturating_add(u64::from(*g))),
                     port_min: ports.map(|g| u64::from(*g)).min().unwrap_or(0),
-                    coef: NodeCoef { recip, shift, total, short, broken, open: mode == Mode::Broken && !broken, hold },
+                    coef: NodeCoef { recip, shift, total, short, broken, open: mode == Mode::Broken && !broken },
                 }
             }
             JunctionRt::Series { p, q, c } => JunctionPlan::Series { p, q, c },

@@ -131,43 +131,13 @@
 //!
 //! **Constant drive.** Around a non-zero working point every outgoing wave of a node has one
 //! sign, so truncation toward zero rounds them all the same way; for small deviations the node
-//! then acts as if only v were quantized, and in a lightly damped plant the deviations wander
-//! by tens of LSB without ever settling (the packaging-line example: 40 codes in the narrow
-//! profile). So in the [`Narrow`] profile, whose wave LSB is one I/O code
-//! ([`Profile::HOLDS`]), at nodes with a shunt, while the drive is on (E != 0), a port whose previous
-//! outgoing wave is the floor or the ceiling of v' − b_k, and no larger than q, keeps
-//! it (the hold rule, [`Profile::node_scatter_held`]): a deviation below one LSB is absorbed
-//! and the plant locks onto a fixed point. Holding adds less than 2·g_k·q of energy per
-//! port; the shunt dissipates g_sh·v'² >= g_sh·q², and the rule applies only where
-//! q >= 2·G/g_sh ([`profile::hold_threshold`]), so the node stays passive. With E = 0 the plain rule runs,
-//! so the zero-input argument above holds unchanged. [`Wide`] runs the plain rule everywhere:
-//! its waves keep 12 or more bits below the I/O code on the example plants, so a deviation of
-//! tens of LSB is a fraction of a code, and the outputs of every random plant of
-//! `core/tests/settle.rs` stay within 1 code without the hold (which saves its per-port tests
-//! on the per-sample path).
-//!
-//! In [`Narrow`] the nodes a series branch joins hold the same way ([`Profile::branch_node_held`]):
-//! their exact identity counts the link port (weight G, incident r), the source and the shunt
-//! as ports, so the shunt's g_sh·v² pays for every held port above the same threshold
-//! ([`profile::linked_hold_threshold`]); with E = 0 they run the plain stage 3.
-//!
-//! A [`Narrow`] node without shunt or source (a tap, an impedance step) has no dissipation to
-//! pay for a hold, but its exact division knows what its own truncation removes: with
-//! v = σ·(q + r/T) (σ the sign of N, q the floor, r the remainder) and m_k = q − σ·b_k, every
-//! port at the floor m_k leaves Σ g_k·(m_k² − (m_k + r/T)²) = −q·r against the lossless
-//! exact node, and one port at the ceiling m_k + 1 instead adds g_k·(2·m_k + 1). So while the
-//! drive is on, a port keeps its previous wave when that is the ceiling (away from zero) and
-//! its cost fits what is left of q·r (the open-node hold, `profile/hold.rs`): the node still
-//! adds no energy, and with E = 0 it runs the plain rule. On the packaging-line example this
-//! removes the narrow oscillation the fractional-delay lattices had been blamed for (it
-//! circulated through the open trunk taps: 28 codes to 0, `core/tests/packaging_line.rs`).
-//! No hold reaches loops through series resistors, series inductors or reactances' adaptors
-//! (a passive series-resistor hold was tried and broke the packaging line's flatness,
-//! docs/firmware.md): there the narrow profile can still keep an oscillation of tens of
-//! codes (`core/tests/settle.rs` states the measured band). Quantizing only a series
-//! resistor's increment (y = trunc(c·x), a1 = b1 − y, a2 = b2 + y: passive for any y between
-//! 0 and x, common mode exact) was measured too and not kept: it broke the packaging line's
-//! flatness and widened the saved regression plant (docs/firmware.md).
+//! then acts as if only v were quantized, and in a lightly damped plant a deviation of a few
+//! wave LSB can circulate round a loop without decaying (truncation's dead band). Every
+//! junction runs its plain rule whether driven or not; instead both profiles keep fraction
+//! bits below the I/O code ([`Profile::IO_SHIFT`]: 12 in [`Wide`], 4 in [`Narrow`]), so such
+//! a deviation stays within a code or two of every output: `core/tests/settle.rs` states the
+//! band measured over random trees and loops of every element kind, and `tidewire verify`
+//! measures it per plant (its working-point check).
 //!
 //! ## Real-time guarantees
 //! `step` does O(ports + junctions) work, independent of the delays (ring buffers, no data

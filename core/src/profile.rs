@@ -32,22 +32,14 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     /// [`Narrow`]) or runs the rule without correction steps ([`Wide`]); see
     /// [`Self::node_scatter`]. Selects the reciprocal's rounding ([`reciprocal`]).
     const EXACT_NODE: bool;
-    /// Whether nodes run the hold rules while driven ([`hold_threshold`],
-    /// [`Self::node_scatter_held`]). Only [`Narrow`], whose wave LSB is one I/O code: there a
-    /// deviation circulating round the working point is seen in every output. [`Wide`] keeps
-    /// `MAX_IO_SHIFT`-style fraction bits below the code (12 on the example plants), so the
-    /// same few-LSB deviation stays far below one code and the plain rule is enough (every
-    /// random plant of `core/tests/settle.rs` within 1 code without it); dropping the hold
-    /// there saves its per-port tests on the per-sample path.
-    const HOLDS: bool;
     /// Fractional bits of the series-junction coefficients.
     const SERIES_FRAC: u32;
     /// Largest `io_shift` the wave range leaves room for.
     const MAX_IO_SHIFT: u8;
     /// The `io_shift` the compiler gives this profile's plants: the fraction bits a wave
     /// keeps below one I/O code. A deviation of a few LSB that circulates round a working
-    /// point (truncation's dead band) then stays within a code or two of every output, with
-    /// no hold rule (`core/tests/settle.rs` measures it). [`Wide`]: 12 (codes of 16 bits from
+    /// point (truncation's dead band) then stays within a code or two of every output
+    /// (`core/tests/settle.rs` measures it). [`Wide`]: 12 (codes of 16 bits from
     /// 32-bit waves, 2^19 codes of wave range). [`Narrow`]: 4 (codes of 12 bits from 16-bit
     /// waves, the resolution of the converters such parts carry).
     const IO_SHIFT: u8;
@@ -190,39 +182,6 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
     fn sum(a: Self::Wave, b: Self::Wave) -> i32;
     /// a − b as i32 (saturating in [`Wide`]): a current probe's raw read-out.
     fn diff(a: Self::Wave, b: Self::Wave) -> i32;
-    /// [`Self::node_scatter`] with the **hold rule** for a node with a shunt, which lets a
-    /// constant drive settle (no oscillation around a working point):
-    ///
-    /// while the drive is on (e != 0) and q >= `hold_min` (> 0), with v' and q the node's
-    /// voltage and quotient of [`Self::node_scatter`], a port whose previous outgoing wave
-    /// (`a[k]` on entry) is the floor or the ceiling of v' − b_k, and at most q in magnitude,
-    /// keeps that value; every other port gets trunc(v' − b_k) as in [`Self::node_scatter`].
-    /// With `hold_min = 0`, or e = 0, it *is* [`Self::node_scatter`].
-    ///
-    /// Why: at a working point all outgoing waves of a node have one sign, so truncation
-    /// toward zero rounds them all the same way, which for small deviations acts like
-    /// quantizing v (a node that reflects a small deviation losslessly); the deviations then
-    /// wander by tens of LSB in a lightly damped plant. A held port absorbs a deviation
-    /// smaller than one LSB instead, and the plant locks onto a fixed point.
-    ///
-    /// Passivity (see [`hold_threshold`]): a held port differs from v' − b_k by less than
-    /// one LSB and has |a| <= q <= |v'|, so it adds less than 2·g_k·q to the energy the
-    /// node's identity allows; the shunt takes g_sh·v'² >= g_sh·q² out, and `hold_min` is the
-    /// least q with g_sh·q >= 2·G, G the node's port weights. So the node never leaves more
-    /// energy in the lines than they brought plus the source's available power: it stays
-    /// passive. With e = 0 the rule is the plain one, so the zero-input decay is untouched.
-    #[allow(clippy::too_many_arguments)]
-    fn node_scatter_held(
-        b: &[Self::Wave],
-        g: &[u32],
-        a: &mut [Self::Wave],
-        e: Self::Wave,
-        g_src: u32,
-        recip: u32,
-        shift: u32,
-        total: u64,
-        hold_min: u32,
-    );
     /// Series branch, stage 1 (a node's link port, reflection-free): the wave the node sends
     /// into the branch, w = trunc((2·Σ g_k·b_k + g_src·e) / total) toward zero, saturated,
     /// where `total` = 2G is the node's weight with its link port (G: ports, source and
@@ -271,55 +230,12 @@ pub trait Profile: Copy + 'static + sealed::Sealed {
         shift: u32,
         total: u64,
     );
-    /// The open-node hold ([`OPEN_HOLD`], `profile/hold.rs`): a node without shunt and source
-    /// (`total` = Σ g) that, while driven (e != 0), keeps a port's previous outgoing wave where
-    /// it is the neighbour of trunc(v − b_k) away from zero and the node's own truncation loss
-    /// pays for it, so that no energy is added. Only an exact node knows that loss to the LSB:
-    /// [`Narrow`] runs the rule; for a profile without an exact node this is the plain rule
-    /// (and [`hold_threshold`] never selects it there).
-    #[allow(clippy::too_many_arguments)]
-    #[inline(always)]
-    fn node_scatter_open(
-        b: &[Self::Wave],
-        g: &[u32],
-        a: &mut [Self::Wave],
-        e: Self::Wave,
-        recip: u32,
-        shift: u32,
-        total: u64,
-    ) {
-        Self::node_scatter_held(b, g, a, e, 0, recip, shift, total, 0);
-    }
-    /// [`Self::branch_node`] with the hold rule of [`Self::node_scatter_held`] at the linked
-    /// node's ports: while driven (e != 0) and q = floor(|v|) >= `hold_min` (> 0), a port whose
-    /// previous outgoing wave (`a[k]` on entry) is the floor or the ceiling of v − b_k, and at
-    /// most q in magnitude, keeps it. `hold_min` is [`linked_hold_threshold`] (0: never hold,
-    /// the plain stage 3). Passive by the shunt argument of [`hold_threshold`]: the linked
-    /// node's exact identity counts its link port (weight G, incident r), source and shunt as
-    /// ports, so the lines receive at most their incoming energy plus the link's and source's
-    /// minus g_sh·v², and each held port adds less than 2·g_k·q.
-    #[allow(clippy::too_many_arguments)]
-    fn branch_node_held(
-        b: &[Self::Wave],
-        g: &[u32],
-        a: &mut [Self::Wave],
-        e: Self::Wave,
-        g_src: u32,
-        link: u32,
-        r: Self::Wave,
-        recip: u32,
-        shift: u32,
-        total: u64,
-        hold_min: u32,
-    );
     /// Fractional-delay allpass (lattice, state s, coefficients in `LOSS_FRAC` bits): (y, s') =
     /// (trunc(a·x + c·s), trunc(c·x − a·s)), saturated; passive for a² + c² <= 1 (`lattice.rs`).
     fn allpass(x: Self::Wave, s: Self::Wave, a: i32, c: u32) -> (Self::Wave, Self::Wave);
 }
 
-mod hold;
 mod lattice;
-pub use hold::OPEN_HOLD;
 mod sealed {
     pub trait Sealed {}
     impl Sealed for super::Wide {}
@@ -337,8 +253,8 @@ pub struct Wide;
 pub struct Narrow;
 
 mod scalar;
+pub(crate) use scalar::veil;
 use scalar::*;
-pub(crate) use scalar::{node_flag, veil};
 
 impl Profile for Wide {
     type Wave = i32;
@@ -347,7 +263,6 @@ impl Profile for Wide {
     const WEIGHT_BITS: u32 = 30;
     const RECIP_BITS: u32 = 32;
     const EXACT_NODE: bool = false;
-    const HOLDS: bool = false;
     const SERIES_FRAC: u32 = 30;
     const MAX_IO_SHIFT: u8 = 15;
     const IO_SHIFT: u8 = 12;
@@ -399,7 +314,6 @@ impl Profile for Narrow {
     const WEIGHT_BITS: u32 = 14;
     const RECIP_BITS: u32 = 16;
     const EXACT_NODE: bool = true;
-    const HOLDS: bool = false;
     const SERIES_FRAC: u32 = 14;
     const MAX_IO_SHIFT: u8 = 8;
     const IO_SHIFT: u8 = 4;
@@ -443,10 +357,6 @@ impl Profile for Narrow {
     #[inline(always)]
     fn allpass(x: i16, s: i16, a: i32, c: u32) -> (i16, i16) {
         lattice::narrow(x, s, a, c)
-    }
-    #[inline(always)]
-    fn node_scatter_open(b: &[i16], g: &[u32], a: &mut [i16], e: i16, recip: u32, shift: u32, total: u64) {
-        hold::narrow_open(b, g, a, e, recip, shift, total)
     }
 }
 
@@ -494,49 +404,6 @@ fn div_pow2(p: u32, strict: bool, total: u64) -> Option<u128> {
         return num.checked_div(total).map(u128::from);
     }
     1u128.checked_shl(p)?.checked_sub(u128::from(strict))?.checked_div(u128::from(total))
-}
-
-/// The hold threshold of a node (see [`Profile::node_scatter_held`]): the least integer
-/// |v| >= 1 with g_sh·|v| >= 2·G, where G = `g_ports` − `g_src` (the line and element port
-/// weights) and g_sh = `total` − `g_ports` the shunt weight; 0 (never hold) without a shunt,
-/// except at an open node (no shunt, no source) of a profile with an exact node, which gets
-/// [`OPEN_HOLD`]: the hold paid by the node's own truncation loss (`profile/hold.rs`).
-///
-/// Derivation: the exact node with its shunt as a matched port (b = 0) and the source as a
-/// port (b = e/2) is lossless, so Σ g_k·a_k² (lines) = Σ g_k·b_k² + g_src·e²/4 −
-/// g_src·(v − e/2)² − g_sh·v². A held port keeps h_k, the neighbour of a_k away from zero
-/// (|a_k| < |h_k| < |a_k| + 1), and only if |h_k| <= q = |trunc(v)|; it adds
-/// g_k·(h_k² − a_k²) < g_k·2|h_k| <= 2·g_k·q. Truncated ports add nothing positive. So the
-/// held node leaves at most Σ g_k·b_k² + g_src·e²/4 in the lines whenever
-/// 2·G·q <= g_sh·q² <= g_sh·v², that is q >= 2G/g_sh: it stays passive (the energy bound of
-/// a source with available power g_src·e²/4 holds as for the exact node).
-pub fn hold_threshold<P: Profile>(g_ports: u64, g_src: u32, total: u64) -> u32 {
-    let g_lines = g_ports.saturating_sub(u64::from(g_src));
-    let g_sh = total.saturating_sub(g_ports);
-    if g_sh == 0 && g_src == 0 && g_lines > 0 && P::EXACT_NODE {
-        // An open node of an exact profile: the hold paid by its own truncation loss.
-        return OPEN_HOLD;
-    }
-    if g_sh == 0 || g_lines == 0 {
-        return 0;
-    }
-    // ceil(2G/g_sh) with G <= 2^30: at most 2^31, so it fits u32 (saturating all the same).
-    let need = g_lines.saturating_mul(2).div_ceil(g_sh).max(1);
-    u32::try_from(need).unwrap_or(u32::MAX)
-}
-
-/// The hold threshold of a node a series branch links ([`Profile::branch_node_held`]), from
-/// its weights before the link port (G = `g` = ports, source and shunt): the shunt-node
-/// threshold of [`hold_threshold`] in a profile with an exact node ([`Narrow`]), 0 (never
-/// hold) without a shunt and in [`Wide`], which is flat without it (`core/tests/settle.rs`).
-pub fn linked_hold_threshold<P: Profile>(g_ports: u64, g_src: u32, g: u64) -> u32 {
-    if !P::HOLDS {
-        return 0;
-    }
-    match hold_threshold::<P>(g_ports, g_src, g) {
-        OPEN_HOLD => 0,
-        h => h,
-    }
 }
 
 #[cfg(test)]

@@ -58,8 +58,6 @@ pub(crate) enum JunctionRt {
         shift: u32,
         /// The total weight (ports, source and shunt) the node divides by.
         total: u64,
-        /// Hold threshold in wave LSB ([`crate::profile::hold_threshold`]; 0: never hold).
-        hold: u32,
     },
     Series {
         p: u16,
@@ -394,16 +392,16 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
                 continue;
             };
             let side = |k: u16| match self.juncs.get(k as usize).copied() {
-                Some(JunctionRt::Node { first, count, g_src, recip, shift, total, hold, .. }) => {
+                Some(JunctionRt::Node { first, count, g_src, recip, shift, total, .. }) => {
                     let lo = first as usize;
-                    Some((lo, lo.saturating_add(count as usize), g_src, recip, shift, total, hold))
+                    Some((lo, lo.saturating_add(count as usize), g_src, recip, shift, total))
                 }
                 _ => None,
             };
             let (Some(sa), Some(sb)) = (side(a), side(b)) else {
                 continue;
             };
-            let open = |(lo, hi, g_src, recip, shift, total, _): (usize, usize, u32, u32, u32, u64, u32)| match (
+            let open = |(lo, hi, g_src, recip, shift, total): (usize, usize, u32, u32, u32, u64)| match (
                 self.b.get(lo..hi),
                 self.g.get(lo..hi),
             ) {
@@ -412,19 +410,13 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
             };
             let (wa, wb) = (open(sa), open(sb));
             let (ra, rb, al) = P::branch_series(wa, wb, P::wave_from_i32(s), na, nb, nl, recip, shift, n);
-            for ((lo, hi, g_src, recip, shift, total, hold), r) in [(sa, ra), (sb, rb)] {
+            for ((lo, hi, g_src, recip, shift, total), r) in [(sa, ra), (sb, rb)] {
                 // total = 2G (load), so the link weight G = total/2 < 2^31.
                 let link = (total >> 1) as u32;
                 if let (Some(bs), Some(gs), Some(as_)) =
                     (self.b.get(lo..hi), self.g.get(lo..hi), self.a.get_mut(lo..hi))
                 {
-                    // The held form only where the profile can hold there (a constant for
-                    // `Wide`, which then keeps its plain stage 3 call).
-                    if P::EXACT_NODE && hold != 0 {
-                        P::branch_node_held(bs, gs, as_, e, g_src, link, r, recip, shift, total, hold);
-                    } else {
-                        P::branch_node(bs, gs, as_, e, g_src, link, r, recip, shift, total);
-                    }
+                    P::branch_node(bs, gs, as_, e, g_src, link, r, recip, shift, total);
                 }
             }
             if let Some(JunctionRt::Branch { s, .. }) = self.juncs.get_mut(j) {

@@ -6,7 +6,7 @@
 
 use proptest::prelude::*;
 use tidewire_core::configure::quantize_loss_section;
-use tidewire_core::profile::{hold_threshold, linked_hold_threshold, reciprocal, OPEN_HOLD};
+use tidewire_core::profile::reciprocal;
 use tidewire_core::{Narrow, Profile, Wide};
 
 fn config() -> ProptestConfig {
@@ -301,128 +301,7 @@ fn check_node<P: Profile>(
     if num != 0 && e2 == 0 && !P::EXACT_NODE {
         prop_assert!(outgoing < incoming, "a Wide node with N != 0 lost nothing");
     }
-    // The held rule, from previous outgoing waves near v' − b_k (and a few far): each port
-    // keeps its previous value exactly when the drive is on, q >= hold_min > 0, the previous
-    // value is the floor or the ceiling of v' − b_k and |prev| <= q.
-    let hold = hold_threshold::<P>(g.iter().map(|x| *x as u64).sum::<u64>() + g_src as u64, g_src, total);
-    let prev: Vec<P::Wave> = b
-        .iter()
-        .zip(ports.iter())
-        .map(|(bk, (gu, _))| {
-            let t = fl - w::<P>(*bk) + (*gu % 3) as i128 - 1 + nz * ((*gu / 3) % 2) as i128;
-            P::wave_from_i32(t.clamp(i32::MIN as i128, i32::MAX as i128) as i32)
-        })
-        .collect();
-    // (`OPEN_HOLD` selects the open-node rule, checked by `check_open_hold`.)
-    for hold_min in [0, 1, hold, hold.saturating_add(7)].into_iter().filter(|h| *h != OPEN_HOLD) {
-        let mut a = prev.clone();
-        P::node_scatter_held(&b, &g, &mut a, e, g_src, r, s, total, hold_min);
-        for (k, bk) in b.iter().enumerate() {
-            let p = w::<P>(prev[k]);
-            let (f, c) = (fl - w::<P>(*bk), fl - w::<P>(*bk) + nz);
-            let held = e2 != 0 && hold_min != 0 && q >= hold_min as i128 && (p == f || p == c) && p.abs() <= q;
-            let want = if held { p } else { cheap[k] };
-            prop_assert_eq!(w::<P>(a[k]), want, "held port {} hold_min {} prev {}", k, hold_min, p);
-        }
-    }
     Ok(())
-}
-
-/// The hold threshold is the least |v| >= 1 with g_sh·|v| >= 2·G (0 without a shunt).
-fn check_hold_threshold<P: Profile>(g_lines: u64, g_src: u32, g_sh: u64) -> Result<(), TestCaseError> {
-    let g_ports = g_lines + g_src as u64;
-    let t = hold_threshold::<P>(g_ports, g_src, g_ports + g_sh) as u128;
-    if g_sh == 0 && g_src == 0 && g_lines > 0 && P::EXACT_NODE {
-        // An open node of the exact profile: the hold paid by its own truncation loss.
-        prop_assert_eq!(t, OPEN_HOLD as u128);
-        return Ok(());
-    }
-    if g_sh == 0 || g_lines == 0 {
-        prop_assert_eq!(t, 0);
-        return Ok(());
-    }
-    let need = 2 * g_lines as u128;
-    prop_assert!(t >= 1 && g_sh as u128 * t >= need, "threshold {} too small", t);
-    prop_assert!(t == 1 || (g_sh as u128) * (t - 1) < need, "threshold {} not the least", t);
-    Ok(())
-}
-
-/// The open-node hold (`profile/hold.rs`) of the exact node, in i128: with N = 2·Σ g_k·b_k,
-/// σ = sign(N), q = floor(|N|/T), r = |N| − q·T (T = Σ g_k) and m_k = q − σ·b_k, a port keeps
-/// its previous wave p (σ·p = m_k + 1) when e != 0, r > 0, m_k >= 0 and its cost
-/// g_k·(2·m_k + 1) fits what is left of the budget q·r (ports in order); every other port
-/// gets the plain node's trunc(v − b_k). And the node identity: the ports' outgoing energy
-/// never exceeds the incoming Σ g·b².
-fn check_open_hold(ports: &[(u32, u32, u8)], e: i16) -> Result<(), TestCaseError> {
-    let budget_w = 1u64 << Narrow::WEIGHT_BITS;
-    let share = (budget_w / ports.len() as u64).max(1);
-    let g: Vec<u32> = ports.iter().map(|(gu, _, _)| (1 + *gu as u64 % share) as u32).collect();
-    let total: u64 = g.iter().map(|x| *x as u64).sum();
-    prop_assume!(total >= 2);
-    let (r, s) = reciprocal(total, Narrow::RECIP_BITS, false).unwrap();
-    let b: Vec<i16> = ports.iter().map(|(_, bu, _)| wave::<Narrow>(*bu)).collect();
-    let num: i128 = 2 * b.iter().zip(&g).map(|(b, g)| *b as i128 * *g as i128).sum::<i128>();
-    let t = total as i128;
-    let sigma = if num < 0 { -1 } else { 1 };
-    let (q, rem) = (num.abs() / t, num.abs() % t);
-    let plain = |bk: i16| -> i128 {
-        // The exact node's trunc(v − b) toward zero, saturated (as `check_node`).
-        let (fl, nz) = match num.signum() {
-            0 => (0, 0),
-            1 => (q, (rem != 0) as i128),
-            _ => (-q - (rem != 0) as i128, (rem != 0) as i128),
-        };
-        let m = fl - bk as i128;
-        (m + ((m < 0) as i128 & nz)).clamp(i16::MIN as i128, i16::MAX as i128)
-    };
-    // Previous waves: mostly the neighbour away from zero (the candidate), else near it.
-    let prev: Vec<i16> = b
-        .iter()
-        .zip(ports)
-        .map(|(bk, (_, _, sel))| {
-            let m = q - sigma * *bk as i128;
-            let p = sigma * (m + 1 + (*sel % 4) as i128 - 1 - 2 * ((*sel % 4 == 3) as i128));
-            p.clamp(i16::MIN as i128, i16::MAX as i128) as i16
-        })
-        .collect();
-    let mut a = prev.clone();
-    Narrow::node_scatter_held(&b, &g, &mut a, e, 0, r, s, total, OPEN_HOLD);
-    let mut left = q * rem;
-    let mut want = Vec::new();
-    for k in 0..b.len() {
-        let m = q - sigma * b[k] as i128;
-        let p = sigma * prev[k] as i128;
-        let cost = g[k] as i128 * (2 * m + 1);
-        if e != 0 && rem > 0 && m >= 0 && p == m + 1 && cost <= left {
-            left -= cost;
-            want.push(prev[k] as i128);
-        } else {
-            want.push(plain(b[k]));
-        }
-    }
-    for k in 0..b.len() {
-        prop_assert_eq!(a[k] as i128, want[k], "port {} of {:?}, g {:?}, prev {:?}, e {}", k, b, g, prev, e);
-    }
-    let incoming: i128 = b.iter().zip(&g).map(|(b, g)| *g as i128 * (*b as i128).pow(2)).sum();
-    let outgoing: i128 = want.iter().zip(&g).map(|(a, g)| *g as i128 * a * a).sum();
-    prop_assert!(outgoing <= incoming, "open node energy grew: {} > {}", outgoing, incoming);
-    Ok(())
-}
-
-#[test]
-fn an_open_node_holds_what_its_truncation_loss_pays_for() {
-    // Three ports of weight 1, b = (3, 4, 4): N = 22, T = 3, v = 7 + 1/3, budget q·r = 7.
-    // Plain: (4, 3, 3). Port 0 at 5 would cost 9 (> 7): truncated. Port 1 at 4 costs 7: held,
-    // which leaves 0 for port 2 (truncated). The energy is then exactly the incoming
-    // 9 + 16 + 16 = 41 (the budget spent to the last unit).
-    let (r, s) = reciprocal(3, Narrow::RECIP_BITS, false).unwrap();
-    let mut a = [5i16, 4, 4];
-    Narrow::node_scatter_held(&[3, 4, 4], &[1, 1, 1], &mut a, 100, 0, r, s, 3, OPEN_HOLD);
-    assert_eq!(a, [4, 4, 3]);
-    // Undriven: the plain rule.
-    let mut a = [5i16, 4, 4];
-    Narrow::node_scatter_held(&[3, 4, 4], &[1, 1, 1], &mut a, 0, 0, r, s, 3, OPEN_HOLD);
-    assert_eq!(a, [4, 3, 3]);
 }
 
 fn check_codes<P: Profile>(code: i16, u: u32, u2: u32, shift: u8) -> Result<(), TestCaseError> {
@@ -510,17 +389,6 @@ proptest! {
     }
 
     #[test]
-    fn open_node_hold_is_its_rule_and_passive(ports in proptest::collection::vec((any::<u32>(), any::<u32>(), any::<u8>()), 1..9), e in prop_oneof![Just(0i16), any::<i16>()]) {
-        check_open_hold(&ports, e)?;
-    }
-
-    #[test]
-    fn hold_threshold_is_the_least_passive_one(g_lines in 0u64..(1 << 30), g_src in 0u32..(1 << 20), g_sh in prop_oneof![Just(0u64), 1u64..(1 << 40)]) {
-        check_hold_threshold::<Wide>(g_lines, g_src, g_sh)?;
-        check_hold_threshold::<Narrow>(g_lines, g_src, g_sh)?;
-    }
-
-    #[test]
     fn codes_and_sums_are_exact_then_saturated(code: i16, u: u32, u2: u32, shift: u8) {
         check_codes::<Wide>(code, u, u2, shift)?;
         check_codes::<Narrow>(code, u, u2, shift)?;
@@ -548,8 +416,7 @@ proptest! {
     }
 }
 
-/// The series branch's three stages (`branch_open`, `branch_series`, `branch_node` and its
-/// held form `branch_node_held`) against
+/// The series branch's three stages (`branch_open`, `branch_series`, `branch_node`) against
 /// their formulas in i128, over the whole documented range: node weights with the link port
 /// 2G <= 2^WEIGHT_BITS, port numbers n_a, n_b, n_l, n_r <= 2^(WEIGHT_BITS − 1),
 /// n <= 2^WEIGHT_BITS, waves anywhere in the profile's range (extremes included).
@@ -593,42 +460,14 @@ fn check_branch<P: Profile>(us: [u32; 8], gs: [u32; 3], ns: [u32; 4], pick: u32)
         let want = ((num3 - w::<P>(*bk) * total as i128) / total as i128).clamp(lo, hi);
         prop_assert_eq!(w::<P>(*ak), want);
     }
-    // Stage 3 with the hold (`branch_node_held`), from previous waves near v − b_k (and a
-    // few far): a port keeps its previous value exactly when the drive is on,
-    // q = floor(|v|) >= hold_min > 0, the previous value is the floor or the ceiling of
-    // v − b_k and |prev| <= q; at the linked node's own threshold (its shunt G − Σ g − g_src,
-    // `linked_hold_threshold`) the lines never receive more than the node's exact identity
-    // brings in (lines, source at e/2, link port of weight G at r), in units of 1/4.
+    // The linked node's exact identity (lines, source at e/2, link port of weight G at r) in
+    // units of 1/4: the lines never receive more than it brings in.
     let e2 = w::<P>(e);
-    let (q, nz) = (num3.abs() / total as i128, i128::from(num3 % total as i128 != 0));
-    let fl = num3.div_euclid(total as i128);
-    let prev: Vec<P::Wave> = b
-        .iter()
-        .zip(us.iter())
-        .map(|(bk, u)| {
-            let t = fl - w::<P>(*bk) + (*u % 3) as i128 - 1 + nz * ((*u / 3) % 2) as i128;
-            P::wave_from_i32(t.clamp(i32::MIN as i128, i32::MAX as i128) as i32)
-        })
-        .collect();
-    let own = linked_hold_threshold::<P>(sum, g_src, gg);
-    for hold_min in [0, 1, own, own.saturating_add(5)] {
-        let mut held = prev.clone();
-        P::branch_node_held(&b, &g, &mut held, e, g_src, gg as u32, link_r, r, s, total, hold_min);
-        for (k, bk) in b.iter().enumerate() {
-            let p = w::<P>(prev[k]);
-            let (f, c) = (fl - w::<P>(*bk), fl - w::<P>(*bk) + nz);
-            let keep = e2 != 0 && hold_min != 0 && q >= hold_min as i128 && (p == f || p == c) && p.abs() <= q;
-            let plain = ((num3 - w::<P>(*bk) * total as i128) / total as i128).clamp(lo, hi);
-            prop_assert_eq!(w::<P>(held[k]), if keep { p } else { plain }, "held port {} hold_min {}", k, hold_min);
-        }
-        if hold_min == own {
-            let incoming: i128 = 4 * b.iter().zip(&g).map(|(b, g)| *g as i128 * w::<P>(*b).pow(2)).sum::<i128>()
-                + g_src as i128 * e2 * e2
-                + 4 * gg as i128 * w::<P>(link_r).pow(2);
-            let outgoing: i128 = 4 * held.iter().zip(&g).map(|(a, g)| *g as i128 * w::<P>(*a).pow(2)).sum::<i128>();
-            prop_assert!(outgoing <= incoming, "linked node energy grew: {} > {}", outgoing, incoming);
-        }
-    }
+    let incoming: i128 = 4 * b.iter().zip(&g).map(|(b, g)| *g as i128 * w::<P>(*b).pow(2)).sum::<i128>()
+        + g_src as i128 * e2 * e2
+        + 4 * gg as i128 * w::<P>(link_r).pow(2);
+    let outgoing: i128 = 4 * a.iter().zip(&g).map(|(a, g)| *g as i128 * w::<P>(*a).pow(2)).sum::<i128>();
+    prop_assert!(outgoing <= incoming, "linked node energy grew: {} > {}", outgoing, incoming);
     // Stage 2: port numbers within the budget, n = Σ with the resistor's.
     // n_a at its largest in the big cases (the quotient then reaches 5/2 of the wave range).
     let na = if big { half } else { 1 + ns[0] as u64 % half };

@@ -63,8 +63,8 @@ fn the_packaging_line_settles_under_its_constant_drive() {
     let (wide, from_w) = run::<Wide>(&wide_net::NETWORK);
     println!("narrow bands {narrow:?} from sample {from_n}; wide bands {wide:?} from sample {from_w}");
     // Measured: narrow [0, 2, 2, 1, 0] from sample 34 815, wide all 0 from 87 433. The
-    // narrow waves keep 4 bits below its 12-bit code (`Profile::IO_SHIFT`) and no hold rule:
-    // truncation's dead band is at most 2 codes (6.1 mV) at the far end.
+    // narrow waves keep 4 bits below its 12-bit code (`Profile::IO_SHIFT`), every junction on
+    // its plain rule: truncation's dead band is at most 2 codes (6.1 mV) at the far end.
     // History, with waves at one LSB per code (io_shift 0): plain truncation up to 40 codes;
     // the shunt-node hold rule [0, 0, 2, 0, 0] with whole-sample delays and [6, 28, 21, 19, 6]
     // with the fractional-delay allpasses; the open-node hold all 0 (docs/firmware.md,

@@ -13,7 +13,7 @@
 //! wave LSB from the DC point can circulate round a lightly damped loop without decaying
 //! (truncation's dead band). Both profiles keep bits below the I/O code for it
 //! (`Profile::IO_SHIFT`: wide 12, narrow 4), so the dead band stays within a code or two of
-//! every output, and no profile runs a hold rule. The narrow profile's codes are therefore
+//! every output, with every junction on its plain rule. The narrow profile's codes are therefore
 //! 12-bit (±2047), the resolution of the converters of the parts it is for.
 //!
 //! Measured with `PROPTEST_RNG_SEED=12345 PROPTEST_CASES=1024` in release (2052 runs per
@@ -25,7 +25,7 @@
 //! |---|---:|---:|---:|---:|---:|---:|
 //! | wide, no hold | 1906 | 146 | 0 | 0 | 0 | 1 |
 //! | narrow, no hold (this rule) | 1473 | 568 | 9 | 2 | 0 | 3 |
-//! | narrow, with the hold rules of the earlier sessions | 1757 | 283 | 9 | 2 | 1 | 5 |
+//! | narrow, with the hold rules it ran before (since removed) | 1757 | 283 | 9 | 2 | 1 | 5 |
 //!
 //! At one LSB per code the same narrow waves had bands of up to 57 codes at the CI seed with
 //! the hold rules, and up to 36 in a 2048-run measurement (history, with the hold rules and

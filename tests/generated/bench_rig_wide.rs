@@ -88,7 +88,6 @@ pub mod specialised {
         aps: [W; 0],
         zcs: [[W; MAX_ZC_SECTIONS]; 0],
         zcc: [W; 0],
-        held: [W; 0],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 0],
@@ -97,7 +96,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 0], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -189,7 +188,6 @@ pub mod specialised {
             self.lr.iter_mut().for_each(|w| *w = P::ZERO);
             self.aps.iter_mut().for_each(|w| *w = P::ZERO);
             self.zcc.iter_mut().for_each(|w| *w = P::ZERO);
-            self.held.iter_mut().for_each(|w| *w = P::ZERO);
             self.hist.iter_mut().for_each(|w| *w = P::ZERO);
             self.zcs.iter_mut().for_each(|z| *z = [P::ZERO; MAX_ZC_SECTIONS]);
             self.probes.iter_mut().for_each(|w| *w = 0);

@@ -64,7 +64,7 @@ fn operation(frames: &[(String, String)], line: &str) -> String {
             "ring loads and stores (generated)"
         } else if ["self.lx[", "self.ly[", "self.lr[", "x1 = ", "x = y"].iter().any(|k| line.contains(k)) {
             "loss-filter state (generated)"
-        } else if line.contains("self.b[") || line.contains("self.held[") || line.contains("self.chokes[") {
+        } else if line.contains("self.b[") || line.contains("self.chokes[") {
             "other state loads and stores (generated)"
         } else {
             "counter, window, read-out (generated)"

@@ -84,13 +84,11 @@ pub(crate) fn first_misfit<P: Profile>(net: &Network<'_>, shape: &Shape, k: u32)
 /// Make a node record (with its shunt applied) one end of a series branch: its weight G
 /// (ports, source, shunt) gets a link port of the same weight, so it divides by 2G.
 pub(crate) fn link_node<P: Profile>(rt: &mut JunctionRt) -> Option<()> {
-    let JunctionRt::Node { recip, shift, total, mode, hold, g_ports, g_src, .. } = rt else {
+    let JunctionRt::Node { recip, shift, total, mode, .. } = rt else {
         return None;
     };
     let two_g = total.checked_mul(2)?;
     (*recip, *shift) = reciprocal(two_g, P::RECIP_BITS, false)?;
-    // The hold of its ports while driven (`Profile::branch_node_held`), from G.
-    *hold = crate::profile::linked_hold_threshold::<P>(*g_ports, *g_src, *total);
     *total = two_g;
     *mode = Mode::Linked;
     Some(())

@@ -10,9 +10,7 @@
 //!   exact node); total <= `TOTAL_MAX`; and the reciprocal is the one [`reciprocal`] gives
 //!   for that total (rounded down and normalized, the premise of the two-step exact
 //!   division). Then every a_k is the exact value truncated toward zero, so the quantized
-//!   node is passive too; and the hold threshold is 0 (never hold) or exactly
-//!   [`hold_threshold`] of the node's weights, the least |v| at which the shunt's
-//!   dissipation pays for every held port (see `Profile::node_scatter_held`).
+//!   node is passive too.
 //! * **series** (equal impedances): 0 <= c <= 1, since a1² + a2² = b1² + b2² − 2c(1 − c)·x².
 //! * **series inductor**: c + rho <= 1 (the three-port series adaptor with a non-negative
 //!   extra resistance).
@@ -30,10 +28,7 @@
 //!   inductor (b_L[n] = −a_L[n − 1]) is lossless, and so the whole tree is passive. Ranges:
 //!   2G <= 2^WB at each node, n_a, n_b, n_l, n_r <= 2^(WB − 1), n <= 2^WB (the bounds
 //!   `Profile::branch_series` argues with), and the reciprocal of n is the one [`reciprocal`]
-//!   gives. A linked node's hold threshold is exactly
-//!   [`crate::profile::linked_hold_threshold`] of its weights (0 where it has no shunt, and in
-//!   `Wide`): its shunt pays for every held port as at a plain node
-//!   (`Profile::branch_node_held`).
+//!   gives.
 //! * **element adaptor**: 0 <= μ <= 1.
 //! * **loss section** H(z) = (g − gb·z⁻¹)/(1 − a·z⁻¹): 0 < a < 1, g > 0, −g <= gb,
 //!   g − gb = 1 − a exactly (DC gain exactly 1, so the DC operating point is Ohm's law's)
@@ -54,12 +49,12 @@
 //!   compiler uses |a| <= 1/3, fractions d in [0.5, 1.5)).
 
 use crate::network::MAX_LOSS_SECTIONS;
-use crate::profile::{hold_threshold, reciprocal, Profile};
+use crate::profile::{reciprocal, Profile};
 use crate::solver::{JunctionRt, LossRt, Mode};
 
 /// A node record with the sum and smallest of its port weights (without the source).
 pub(crate) fn node_ok<P: Profile>(rt: &JunctionRt, port_sum: u64, port_min: u64) -> bool {
-    let JunctionRt::Node { count, g_src, g_ports, recip, shift, total, mode, short, broken, hold, .. } = *rt else {
+    let JunctionRt::Node { count, g_src, g_ports, recip, shift, total, mode, short, broken, .. } = *rt else {
         return false;
     };
     let Some(with_src) = port_sum.checked_add(u64::from(g_src)) else {
@@ -76,15 +71,12 @@ pub(crate) fn node_ok<P: Profile>(rt: &JunctionRt, port_sum: u64, port_min: u64)
         short || reciprocal(total, P::RECIP_BITS, !P::EXACT_NODE && mode != Mode::Linked) == Some((recip, shift));
     if mode == Mode::Linked {
         // One end of a series branch: total = 2G with G >= Σ g_k + g_src (its shunt >= 0),
-        // 2G within the budget (the numerator with the link port stays exact), its hold threshold that of `linked_hold_threshold`.
+        // 2G within the budget (the numerator with the link port stays exact).
         let linked = total % 2 == 0 && total / 2 >= with_src && total <= 1u64 << P::WEIGHT_BITS;
-        let held = hold == crate::profile::linked_hold_threshold::<P>(g_ports, g_src, total / 2);
-        return port_min >= 1 && with_src == g_ports && linked && !short && !broken && held && division;
+        return port_min >= 1 && with_src == g_ports && linked && !short && !broken && division;
     }
-    // The hold threshold is the one that keeps the held node passive (or 0, never).
-    let held = hold == 0 || (P::HOLDS && !short && hold == hold_threshold::<P>(g_ports, g_src, total));
     let mode_ok = mode == super::mode_of(short, broken, super::lone_open(count, g_src, g_ports, total, short));
-    coefficients && division && held && mode_ok
+    coefficients && division && mode_ok
 }
 
 /// A series branch record with the records of its two nodes (see the module docs).

@@ -26,10 +26,10 @@ fn group_of(mode: Mode, count: u16) -> Option<usize> {
 /// A node record's group and its entry in the node groups; `None` for a junction that is not
 /// a node, or a linked node (its branch scatters it).
 fn run_of(rt: &JunctionRt) -> Option<(usize, NodeRun)> {
-    let JunctionRt::Node { first, count, mode, g_src, recip, shift, total, hold, .. } = *rt else {
+    let JunctionRt::Node { first, count, mode, g_src, recip, shift, total, .. } = *rt else {
         return None;
     };
-    Some((group_of(mode, count)?, NodeRun { first, count, g_src, recip, shift, hold, total }))
+    Some((group_of(mode, count)?, NodeRun { first, count, g_src, recip, shift, total }))
 }
 
 /// Every entry one slot down, the first to the last (`rotate_left(1)` without its assertion,

@@ -30,8 +30,6 @@ pub(crate) trait Acc: Sized {
     /// residue 0 <= r1 < 2^LOSS_FRAC). The order of the sum differs by width, not its value.
     #[allow(clippy::too_many_arguments)]
     fn loss_sum(g: u32, x: Self::W, gb: i32, x1: Self::W, a: u32, y1: Self::W, r1: Self::W) -> Self;
-    /// A threshold in wave LSB, saturated to the accumulator's range.
-    fn from_u32(x: u32) -> Self;
     /// The node quotient of the cheap rule (see `Profile::node_scatter`):
     /// q = floor(|acc|·recip / 2^(RECIP_BITS+shift)) (< |acc|/total for acc != 0, by the
     /// reciprocal's rounding), capped at 2^31 − 1 (a smaller |v'| is as passive, and the
@@ -98,10 +96,6 @@ impl Acc for i64 {
             .wrapping_add(Self::mul(a, y1))
     }
     #[inline(always)]
-    fn from_u32(x: u32) -> i64 {
-        i64::from(x)
-    }
-    #[inline(always)]
     fn quotient_abs(acc: i64, recip: u32, shift: u32, _total: u64, _z: i32) -> (i32, i32) {
         // q < |v| <= 2^32, so its low word is all of it and the cap is one 32-bit compare
         // (a 64-bit cap took about ten instructions per node on the M4). The bound: with
@@ -162,10 +156,6 @@ impl Acc for i32 {
             .wrapping_add(i32::from(r1))
     }
     #[inline(always)]
-    fn from_u32(x: u32) -> i32 {
-        i32::try_from(x).unwrap_or(i32::MAX)
-    }
-    #[inline(always)]
     fn quotient_abs(acc: i32, recip: u32, shift: u32, total: u64, z: i32) -> (i32, i32) {
         // Narrow divides exactly (see `super::floor_div32`): q <= 2^29, below the cap; as
         // `floor_div_abs`, with the node's veil.
@@ -211,63 +201,6 @@ macro_rules! node_numerator {
 }
 pub(crate) use node_numerator;
 
-/// `Profile::branch_node{,_held}`'s exact N = 2·Σ g_k·b_k + g_src·e + link·r (as in `node_scatter`,
-/// weights <= total): (fl, q, nz) = (floor(N/total), floor(|N|/total), remainder != 0).
-macro_rules! linked_floor {
-    ($A:ty, $b:expr, $g:expr, $e:expr, $g_src:expr, $link:expr, $r:expr, $recip:expr, $shift:expr, $total:expr) => {{
-        let acc = $crate::profile::arith::node_numerator!($A, $b, $g, $e, $g_src, <$A as Acc>::mul($link, $r));
-        let (q, nz) = <$A as Acc>::floor_div_abs(acc, $recip, $shift, $total);
-        let neg = (acc < 0) as $A;
-        let mask = neg.wrapping_neg();
-        ((q.wrapping_add(nz & neg) ^ mask).wrapping_sub(mask), q, nz)
-    }};
-}
-pub(crate) use linked_floor;
-
-/// The hold rule's per-port choice, written once for the shunt-node hold
-/// (`Profile::node_scatter_held`) and the linked-node hold (`Profile::branch_node_held`):
-/// with the node's floor `fl`, q = floor(|v|) and the fraction flag `nz` in the accumulator
-/// `A`, each port keeps its previous wave (`a[k]` on entry) while driven (e != 0) and
-/// q >= `hold_min`, where that wave is the floor or the ceiling of v − b_k (prev − m in
-/// {0, nz}) and |prev| <= q; otherwise it gets `$plain(b_k)`, the rule's truncated wave.
-///
-/// Branch-free, so that the instruction count does not depend on the data. Every condition is
-/// the sign bit of a difference whose range is small (|.| < 2^34 in i64, < 2^19 in i32): x >= 0
-/// is the sign bit of !x, x != 0 that of x | −x, and a conjunction is the sign bit of the and
-/// of its terms. Only the final sign bit is extracted (one shift), as 0/1, and turned into a
-/// 0/−1 mask after it is or-ed with the node's veil `z` (`profile::veil`, 0 at run time; one
-/// `black_box` per node instead of one per flag): on ARMv6-M LLVM lowers a mask it can see
-/// to be a compare result, or an and of compares, as selects (conditional branches there).
-/// The node-wide flag is hidden from the optimizer (`profile::node_flag`) so that it cannot
-/// unswitch the port loop on it (a branch on the data, seen on the M4 in a plant with a
-/// series branch); `hold_min` is veiled on ARMv6-M so that LLVM does not turn q − hold_min
-/// into a compare; `prev` is veiled there so that, with its range unknown, LLVM keeps the
-/// sign tests instead of making signed compares.
-macro_rules! held_ports {
-    ($A:ty, $W:ty, $a:expr, $b:expr, $fl:expr, $q:expr, $nz:expr, $e:expr, $hold_min:expr, $z:expr, $plain:expr) => {{
-        let (fl, q, nz): ($A, $A, $A) = ($fl, $q, $nz);
-        let z = <$A>::from($z);
-        let bits = <$A>::BITS - 1;
-        let e_a = <$A>::from($e);
-        let node = $crate::profile::node_flag(
-            (e_a | e_a.wrapping_neg()) & !q.wrapping_sub(<$A as Acc>::from_u32($hold_min) | z),
-            z,
-        );
-        for (ak, bk) in $a.iter_mut().zip($b.iter()) {
-            // v − b = (fl − b) + frac, frac > 0 iff nz: the floor is m, the ceiling m + nz.
-            let m = fl.wrapping_sub(<$A>::from(*bk));
-            let t = <$A>::from($plain(*bk));
-            let prev = <$A>::from(*ak) | z;
-            let d = prev.wrapping_sub(m);
-            let any_neg = d | nz.wrapping_sub(d) | q.wrapping_sub(prev) | q.wrapping_add(prev);
-            let keep = ((((node & !any_neg) >> bits) & 1) | z).wrapping_neg();
-            // Both candidates are waves, so the cast is exact.
-            *ak = (t ^ ((t ^ prev) & keep)) as $W;
-        }
-    }};
-}
-pub(crate) use held_ports;
-
 /// The junction rules, written once: expanded inside `impl Profile for Wide` (accumulator
 /// `i64`, `trunc_shr64`, `sat64_to_i32`) and `impl Profile for Narrow` (`i32`,
 /// `trunc_shr32`, `sat_i16`) as the trait's own method bodies. (Written as generic functions
@@ -292,7 +225,25 @@ macro_rules! junction_rules {
             shift: u32,
             total: u64,
         ) {
-            Self::node_scatter_held(b, g, a, e, g_src, recip, shift, total, 0);
+            // Σ g + g_src <= 2^WEIGHT_BITS (node budget), so the numerator
+            // 2·Σ g_k·b_k + g_src·e is exact (i64: <= 2^62; i32: <= 2^30).
+            type A = $acc;
+            let acc = $crate::profile::arith::node_numerator!(A, b, g, e, g_src, 0);
+            // q = |floor(v')| for N > 0 (|floor(v')| − 1 for N < 0), nz = [N != 0]: v' =
+            // sign(N)·(q + ε) has the floor q for N > 0 and −(q + 1) for N < 0, by the
+            // branch-free negation (x ^ mask) − mask.
+            // One veil for the node's flags (`profile::veil`; the constant 0 off ARMv6-M). Only
+            // the exact (narrow) node has flags to hide: the wide node's `quotient_abs` and
+            // `port` ignore it, and an unused `black_box` would still run.
+            let z = if Self::EXACT_NODE { $crate::profile::veil() } else { 0 };
+            let (q, nz) = <A as Acc>::quotient_abs(acc, recip, shift, total, z);
+            let neg = (acc < 0) as i32;
+            let mask = neg.wrapping_neg();
+            // q + 1 <= 2^31: wrapping, (2^31 ^ −1) + 1 is −2^31 exactly.
+            let fl = (q.wrapping_add(nz & neg) ^ mask).wrapping_sub(mask);
+            for (ak, bk) in a.iter_mut().zip(b.iter()) {
+                *ak = <A as Acc>::port(fl, *bk, nz, z);
+            }
         }
 
         #[inline(always)]
@@ -488,112 +439,19 @@ macro_rules! junction_rules {
             shift: u32,
             total: u64,
         ) {
+            // The exact N = 2·Σ g_k·b_k + g_src·e + link·r (as in `node_scatter`, weights <=
+            // total) and its floor fl = floor(N/total), with nz = (remainder != 0).
             type A = $acc;
-            let (fl, _, nz) = $crate::profile::arith::linked_floor!(A, b, g, e, g_src, link, r, recip, shift, total);
+            let acc = $crate::profile::arith::node_numerator!(A, b, g, e, g_src, <A as Acc>::mul(link, r));
+            let (q, nz) = <A as Acc>::floor_div_abs(acc, recip, shift, total);
+            let neg = (acc < 0) as A;
+            let mask = neg.wrapping_neg();
+            let fl = (q.wrapping_add(nz & neg) ^ mask).wrapping_sub(mask);
             for (ak, bk) in a.iter_mut().zip(b.iter()) {
                 // As `node_scatter`: v − b = (fl − b) + frac, truncated toward zero.
                 let m = fl.wrapping_sub(A::from(*bk));
                 *ak = $sat(m.wrapping_add(((m < 0) as A) & nz));
             }
-        }
-
-        // As `branch_node`: one copy per profile (the branch pass is not the hot loop).
-        #[inline(never)]
-        fn branch_node_held(
-            b: &[Self::Wave],
-            g: &[u32],
-            a: &mut [Self::Wave],
-            e: Self::Wave,
-            g_src: u32,
-            link: u32,
-            r: Self::Wave,
-            recip: u32,
-            shift: u32,
-            total: u64,
-            hold_min: u32,
-        ) {
-            if hold_min == 0 {
-                // Never holds: the plain stage 3 (a branch on the configuration).
-                return Self::branch_node(b, g, a, e, g_src, link, r, recip, shift, total);
-            }
-            // The exact floor and the plain waves as in `branch_node`; the hold as in
-            // `node_scatter_held`, branch-free (q = floor(|v|) exact: both profiles divide).
-            type A = $acc;
-            let (fl, q, nz) = $crate::profile::arith::linked_floor!(A, b, g, e, g_src, link, r, recip, shift, total);
-            let plain = |bk: Self::Wave| {
-                let m = fl.wrapping_sub(A::from(bk));
-                $sat(m.wrapping_add(((m < 0) as A) & nz))
-            };
-            $crate::profile::arith::held_ports!(
-                A,
-                Self::Wave,
-                a,
-                b,
-                fl,
-                q,
-                nz,
-                e,
-                hold_min,
-                $crate::profile::veil(),
-                plain
-            );
-        }
-
-        #[inline(always)]
-        fn node_scatter_held(
-            b: &[Self::Wave],
-            g: &[u32],
-            a: &mut [Self::Wave],
-            e: Self::Wave,
-            g_src: u32,
-            recip: u32,
-            shift: u32,
-            total: u64,
-            hold_min: u32,
-        ) {
-            // An open node of an exact profile: the hold paid by its own truncation loss
-            // (`profile/hold.rs`; a branch on the configuration, folded away without an exact node).
-            if Self::EXACT_NODE && hold_min == $crate::profile::OPEN_HOLD {
-                return Self::node_scatter_open(b, g, a, e, recip, shift, total);
-            }
-            // Σ g + g_src <= 2^WEIGHT_BITS (node budget), so the numerator
-            // 2·Σ g_k·b_k + g_src·e is exact (i64: <= 2^62; i32: <= 2^30).
-            type A = $acc;
-            let acc = $crate::profile::arith::node_numerator!(A, b, g, e, g_src, 0);
-            // q = |floor(v')| for N > 0 (|floor(v')| − 1 for N < 0), nz = [N != 0]: v' =
-            // sign(N)·(q + ε) has the floor q for N > 0 and −(q + 1) for N < 0, by the
-            // branch-free negation (x ^ mask) − mask.
-            // One veil for the node's flags (`profile::veil`; the constant 0 off ARMv6-M). Only
-            // the exact (narrow) node has flags to hide: the wide node's `quotient_abs` and
-            // `port` ignore it, and an unused `black_box` would still run.
-            let z = if Self::EXACT_NODE { $crate::profile::veil() } else { 0 };
-            let (q, nz) = <A as Acc>::quotient_abs(acc, recip, shift, total, z);
-            let neg = (acc < 0) as i32;
-            let mask = neg.wrapping_neg();
-            // q + 1 <= 2^31: wrapping, (2^31 ^ −1) + 1 is −2^31 exactly.
-            let fl = (q.wrapping_add(nz & neg) ^ mask).wrapping_sub(mask);
-            if hold_min == 0 {
-                // No shunt: the plain rule (a branch on the configuration, not on data).
-                for (ak, bk) in a.iter_mut().zip(b.iter()) {
-                    *ak = <A as Acc>::port(fl, *bk, nz, z);
-                }
-                return;
-            }
-            // The hold rule (see `Profile::node_scatter_held`).
-            let plain = |bk: Self::Wave| <A as Acc>::port(fl, bk, nz, z);
-            $crate::profile::arith::held_ports!(
-                A,
-                Self::Wave,
-                a,
-                b,
-                A::from(fl),
-                A::from(q),
-                A::from(nz),
-                e,
-                hold_min,
-                z,
-                plain
-            );
         }
     };
 }

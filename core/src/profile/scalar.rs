@@ -54,24 +54,6 @@ pub(crate) fn veil() -> i32 {
     opaque(0)
 }
 
-/// A node-wide hold flag `x`, hidden from the optimizer so that it cannot unswitch a node's
-/// port loop on it (a branch on the data, seen on the M4 in a plant with a series branch).
-/// On ARMv6-M the node's [`veil`] `z` hides it (`x | z`): every per-port mask formed from it
-/// is veiled too, so there is no select to unswitch on, and a `black_box` fewer per node.
-/// Elsewhere `black_box(x)`.
-#[inline(always)]
-pub(crate) fn node_flag<T: core::ops::BitOr<Output = T>>(x: T, z: T) -> T {
-    #[cfg(tidewire_no_cond_select)]
-    {
-        x | z
-    }
-    #[cfg(not(tidewire_no_cond_select))]
-    {
-        let _ = z;
-        core::hint::black_box(x)
-    }
-}
-
 /// `x` saturated to i16, the value of `x.clamp(i16::MIN, i16::MAX)`: the clamp (`SSAT` on
 /// the M4, `CMOV` on x86-64) where the target has a conditional select, else
 /// [`sat_i16_masked`].

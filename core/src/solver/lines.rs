@@ -23,7 +23,7 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
         if self.zc {
             // Zc(s) ends, post-step: the sections take d = a_p − b_p, and the ring takes
             // a = a_p + c (`docs/zc-model.md`) while the port keeps a_p (restored below), so
-            // probes, the hold rule and host views stay in junction terms.
+            // probes and host views stay in junction terms.
             for l in self.losses.iter_mut().take(n_loss) {
                 if l.zc_n == 0 {
                     continue;

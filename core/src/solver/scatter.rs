@@ -16,7 +16,7 @@ use super::Solver;
 use crate::profile::Profile;
 
 /// A scattering node's run-time record: its ports `first..first + count` and the
-/// coefficients of `Profile::node_scatter_held` (a short or an open node uses only the ports).
+/// coefficients of `Profile::node_scatter` (a short or an open node uses only the ports).
 #[derive(Debug, Clone, Copy, PartialEq, Eq)]
 pub(crate) struct NodeRun {
     pub first: u16,
@@ -24,13 +24,11 @@ pub(crate) struct NodeRun {
     pub g_src: u32,
     pub recip: u32,
     pub shift: u32,
-    /// Hold threshold in wave LSB (0: never hold).
-    pub hold: u32,
     pub total: u64,
 }
 
 impl NodeRun {
-    pub(crate) const EMPTY: NodeRun = NodeRun { first: 0, count: 0, g_src: 0, recip: 0, shift: 0, hold: 0, total: 0 };
+    pub(crate) const EMPTY: NodeRun = NodeRun { first: 0, count: 0, g_src: 0, recip: 0, shift: 0, total: 0 };
 }
 
 /// A two-port between ports `p` and p + 1: a series resistor (coefficient `c`) or a choke
@@ -78,12 +76,11 @@ impl<P: Profile, const PORTS: usize, const JUNCS: usize, const MEM: usize, const
     pub(super) fn scatter(&mut self, e: P::Wave, rig_back: P::Wave) {
         let Self { nodes, node_bounds, pairs, n_series, n_pairs, rig_junction, b, g, a, .. } = self;
         let (b, g) = (&*b, &*g);
-        // v = (2·Σ G_k·b_k + E·G_src) / G_total; a_k = trunc(v' − b_k) with v' strictly
-        // between 0 and v (`Profile::node_scatter`), or a_k kept while driven at a node with a
-        // shunt (the hold rule, `Profile::node_scatter_held`: a constant drive settles). Nodes
-        // of 1, 2 and 3 ports (line ends, drops, taps: most of a plant) run on fixed-size
-        // arrays, so the compiler unrolls them exactly (in the profiles that ask for it,
-        // `Profile::FIXED_NODES`); the arithmetic is the same `node_scatter_held`.
+        // v = (2·Σ G_k·b_k + E·G_src) / G_total; a_k = trunc(v' − b_k) with v' the exact v
+        // (Narrow) or strictly between 0 and v (Wide; `Profile::node_scatter`). Nodes of 1, 2
+        // and 3 ports (line ends, drops, taps: most of a plant) run on fixed-size arrays, so
+        // the compiler unrolls them exactly (in the profiles that ask for it,
+        // `Profile::FIXED_NODES`); the arithmetic is the same `node_scatter`.
         if P::FIXED_NODES {
             for r in group(nodes, node_bounds, ONE_PORT).unwrap_or(&[]) {
                 node::<P, 1>(b, g, a, r, e);
@@ -179,7 +176,7 @@ fn ports(r: &NodeRun) -> (usize, usize) {
 }
 
 /// A scattering node of exactly `N` ports: the waves, weights and outputs as `[_; N]`
-/// arrays, so `node_scatter_held` is unrolled for this count (`Profile::FIXED_NODES`).
+/// arrays, so `node_scatter` is unrolled for this count (`Profile::FIXED_NODES`).
 #[inline(always)]
 fn node<P: Profile, const N: usize>(b: &[P::Wave], g: &[u32], a: &mut [P::Wave], r: &NodeRun, e: P::Wave) {
     let lo = r.first as usize;
@@ -187,7 +184,7 @@ fn node<P: Profile, const N: usize>(b: &[P::Wave], g: &[u32], a: &mut [P::Wave],
     let gs = g.get(lo..).and_then(|s| s.first_chunk::<N>());
     let as_ = a.get_mut(lo..).and_then(|s| s.first_chunk_mut::<N>());
     if let (Some(bs), Some(gs), Some(as_)) = (bs, gs, as_) {
-        P::node_scatter_held(bs, gs, as_, e, r.g_src, r.recip, r.shift, r.total, r.hold);
+        P::node_scatter(bs, gs, as_, e, r.g_src, r.recip, r.shift, r.total);
     }
 }
 
@@ -196,6 +193,6 @@ fn node<P: Profile, const N: usize>(b: &[P::Wave], g: &[u32], a: &mut [P::Wave],
 fn node_any<P: Profile>(b: &[P::Wave], g: &[u32], a: &mut [P::Wave], r: &NodeRun, e: P::Wave) {
     let (lo, hi) = ports(r);
     if let (Some(bs), Some(gs), Some(as_)) = (b.get(lo..hi), g.get(lo..hi), a.get_mut(lo..hi)) {
-        P::node_scatter_held(bs, gs, as_, e, r.g_src, r.recip, r.shift, r.total, r.hold);
+        P::node_scatter(bs, gs, as_, e, r.g_src, r.recip, r.shift, r.total);
     }
 }

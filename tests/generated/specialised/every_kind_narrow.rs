@@ -108,9 +108,9 @@ pub mod specialised {
     const PROBES: usize = 4;
     const HIST: usize = 0;
     const INITIAL_NODES: [NodeCoef; 3] = [
-        NodeCoef { recip: 0, shift: 0, total: 3579, short: true, broken: false, open: false, hold: 0 },
-        NodeCoef { recip: 37501, shift: 11, total: 3579, short: false, broken: false, open: true, hold: 0 },
-        NodeCoef { recip: 51072, shift: 12, total: 5256, short: false, broken: false, open: false, hold: 0 },
+        NodeCoef { recip: 0, shift: 0, total: 3579, short: true, broken: false, open: false },
+        NodeCoef { recip: 37501, shift: 11, total: 3579, short: false, broken: false, open: true },
+        NodeCoef { recip: 51072, shift: 12, total: 5256, short: false, broken: false, open: false },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -126,7 +126,6 @@ pub mod specialised {
         aps: [W; 14],
         zcs: [[W; MAX_ZC_SECTIONS]; 16],
         zcc: [W; 16],
-        held: [W; 4],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 3],
@@ -135,7 +134,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 29], chokes: [P::ZERO; 1], lx: [P::ZERO; 16], ly: [P::ZERO; 96], lr: [P::ZERO; 96], aps: [P::ZERO; 14], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 16], zcc: [P::ZERO; 16], held: [P::ZERO; 4], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 29], chokes: [P::ZERO; 1], lx: [P::ZERO; 16], ly: [P::ZERO; 96], lr: [P::ZERO; 96], aps: [P::ZERO; 14], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 16], zcc: [P::ZERO; 16], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -181,18 +180,16 @@ pub mod specialised {
             let b6: W = self.b[6];
             // junction 2: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
-            let [a6] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b6], &[3579u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b6] } else { [P::neg(b6)] };
+            let [a6] = if c.scatters() { { let mut o = [P::ZERO; 1]; P::node_scatter(&[b6], &[3579u32], &mut o, e, 0u32, c.recip, c.shift, c.total); o } } else if c.reflects() { [b6] } else { [P::neg(b6)] };
             self.mem[i + 177] = a6;
             self.mem[i + 21] = a6;
-            self.held[0] = a6;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b7: W = self.b[7];
             // junction 3: node of 1 port(s), switched by the plant's events
             let c = self.nodes[1];
-            let [a7] = if c.scatters() { { let mut o = [self.held[1]]; P::node_scatter_held(&[b7], &[3579u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b7] } else { [P::neg(b7)] };
+            let [a7] = if c.scatters() { { let mut o = [P::ZERO; 1]; P::node_scatter(&[b7], &[3579u32], &mut o, e, 0u32, c.recip, c.shift, c.total); o } } else if c.reflects() { [b7] } else { [P::neg(b7)] };
             self.mem[i + 181] = a7;
             self.mem[i + 25] = a7;
-            self.held[1] = a7;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b8: W = self.b[8];
             let b9: W = self.b[9];
@@ -272,15 +269,13 @@ pub mod specialised {
             let b24: W = self.b[24];
             // junction 11: node of 2 port(s), switched by the plant's events
             let c = self.nodes[2];
-            let [a23, a24] = if c.scatters() { { let mut o = [self.held[2], self.held[3]]; P::node_scatter_held(&[b23, b24], &[2628u32, 2628u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b23, b24] } else { [P::neg(b23), P::neg(b24)] };
+            let [a23, a24] = if c.scatters() { { let mut o = [P::ZERO; 2]; P::node_scatter(&[b23, b24], &[2628u32, 2628u32], &mut o, e, 0u32, c.recip, c.shift, c.total); o } } else if c.reflects() { [b23, b24] } else { [P::neg(b23), P::neg(b24)] };
             let line23 = P::zc_post(a23, b23, self.zcc[11], &mut self.zcs[11], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
             self.mem[i + 304] = line23;
             self.mem[i + 148] = line23;
-            self.held[2] = a23;
             let line24 = P::zc_post(a24, b24, self.zcc[12], &mut self.zcs[12], &[-5680, 12704, 15814, 16318], &[160, 52, 18, 10], 4);
             self.mem[i + 307] = line24;
             self.mem[i + 151] = line24;
-            self.held[3] = a24;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b25: W = self.b[25];
             let b26: W = self.b[26];
@@ -1071,7 +1066,6 @@ pub mod specialised {
             self.lr.iter_mut().for_each(|w| *w = P::ZERO);
             self.aps.iter_mut().for_each(|w| *w = P::ZERO);
             self.zcc.iter_mut().for_each(|w| *w = P::ZERO);
-            self.held.iter_mut().for_each(|w| *w = P::ZERO);
             self.hist.iter_mut().for_each(|w| *w = P::ZERO);
             self.zcs.iter_mut().for_each(|z| *z = [P::ZERO; MAX_ZC_SECTIONS]);
             self.probes.iter_mut().for_each(|w| *w = 0);

@@ -65,7 +65,7 @@ pub mod specialised {
     const PROBES: usize = 1;
     const HIST: usize = 0;
     const INITIAL_NODES: [NodeCoef; 1] = [
-        NodeCoef { recip: 3276800008, shift: 29, total: 703687440, short: false, broken: false, open: false, hold: 0 },
+        NodeCoef { recip: 3276800008, shift: 29, total: 703687440, short: false, broken: false, open: false },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -81,7 +81,6 @@ pub mod specialised {
         aps: [W; 0],
         zcs: [[W; MAX_ZC_SECTIONS]; 0],
         zcc: [W; 0],
-        held: [W; 1],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 1],
@@ -90,7 +89,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 1], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -115,10 +114,9 @@ pub mod specialised {
             let b1: W = self.mem[i + 1503];
             // junction 1: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
-            let [a1] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b1], &[351843720u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b1] } else { [P::neg(b1)] };
+            let [a1] = if c.scatters() { { let mut o = [P::ZERO; 1]; P::node_scatter(&[b1], &[351843720u32], &mut o, e, 0u32, c.recip, c.shift, c.total); o } } else if c.reflects() { [b1] } else { [P::neg(b1)] };
             self.mem[i + 1502] = a1;
             self.mem[i + 500] = a1;
-            self.held[0] = a1;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             self.probes[0] = P::sum(a1, b1);
             let output = P::to_code(P::sum(a0, b0), IO_SHIFT);
@@ -150,7 +148,6 @@ pub mod specialised {
             self.lr.iter_mut().for_each(|w| *w = P::ZERO);
             self.aps.iter_mut().for_each(|w| *w = P::ZERO);
             self.zcc.iter_mut().for_each(|w| *w = P::ZERO);
-            self.held.iter_mut().for_each(|w| *w = P::ZERO);
             self.hist.iter_mut().for_each(|w| *w = P::ZERO);
             self.zcs.iter_mut().for_each(|z| *z = [P::ZERO; MAX_ZC_SECTIONS]);
             self.probes.iter_mut().for_each(|w| *w = 0);

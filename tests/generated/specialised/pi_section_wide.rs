@@ -74,7 +74,7 @@ pub mod specialised {
     const PROBES: usize = 2;
     const HIST: usize = 0;
     const INITIAL_NODES: [NodeCoef; 1] = [
-        NodeCoef { recip: 2978909098, shift: 27, total: 193514046, short: false, broken: false, open: false, hold: 0 },
+        NodeCoef { recip: 2978909098, shift: 27, total: 193514046, short: false, broken: false, open: false },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -90,7 +90,6 @@ pub mod specialised {
         aps: [W; 4],
         zcs: [[W; MAX_ZC_SECTIONS]; 0],
         zcc: [W; 0],
-        held: [W; 1],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 1],
@@ -99,7 +98,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 1], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 4], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 1], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 1], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 4], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -124,10 +123,9 @@ pub mod specialised {
             let b5: W = self.b[5];
             // junction 3: node of 1 port(s), switched by the plant's events
             let c = self.nodes[0];
-            let [a5] = if c.scatters() { { let mut o = [self.held[0]]; P::node_scatter_held(&[b5], &[175921860u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b5] } else { [P::neg(b5)] };
+            let [a5] = if c.scatters() { { let mut o = [P::ZERO; 1]; P::node_scatter(&[b5], &[175921860u32], &mut o, e, 0u32, c.recip, c.shift, c.total); o } } else if c.reflects() { [b5] } else { [P::neg(b5)] };
             self.mem[i + 160] = a5;
             self.mem[i + 68] = a5;
-            self.held[0] = a5;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b1: W = self.b[1];
             let b2: W = self.b[2];
@@ -200,7 +198,6 @@ pub mod specialised {
             self.lr.iter_mut().for_each(|w| *w = P::ZERO);
             self.aps.iter_mut().for_each(|w| *w = P::ZERO);
             self.zcc.iter_mut().for_each(|w| *w = P::ZERO);
-            self.held.iter_mut().for_each(|w| *w = P::ZERO);
             self.hist.iter_mut().for_each(|w| *w = P::ZERO);
             self.zcs.iter_mut().for_each(|z| *z = [P::ZERO; MAX_ZC_SECTIONS]);
             self.probes.iter_mut().for_each(|w| *w = 0);

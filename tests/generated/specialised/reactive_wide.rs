@@ -82,8 +82,8 @@ pub mod specialised {
     const PROBES: usize = 4;
     const HIST: usize = 0;
     const INITIAL_NODES: [NodeCoef; 2] = [
-        NodeCoef { recip: 3069375393, shift: 27, total: 187810443, short: false, broken: false, open: false, hold: 0 },
-        NodeCoef { recip: 2316131729, shift: 29, total: 995557800, short: false, broken: false, open: false, hold: 0 },
+        NodeCoef { recip: 3069375393, shift: 27, total: 187810443, short: false, broken: false, open: false },
+        NodeCoef { recip: 2316131729, shift: 29, total: 995557800, short: false, broken: false, open: false },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -99,7 +99,6 @@ pub mod specialised {
         aps: [W; 0],
         zcs: [[W; MAX_ZC_SECTIONS]; 0],
         zcc: [W; 0],
-        held: [W; 8],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 2],
@@ -108,7 +107,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 4], chokes: [P::ZERO; 1], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 8], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 4], chokes: [P::ZERO; 1], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -137,22 +136,17 @@ pub mod specialised {
             let b5: W = self.b[1];
             // junction 1: node of 5 port(s), switched by the plant's events
             let c = self.nodes[0];
-            let [a1, a2, a3, a4, a5] = if c.scatters() { { let mut o = [self.held[0], self.held[1], self.held[2], self.held[3], self.held[4]]; P::node_scatter_held(&[b1, b2, b3, b4, b5], &[43980465u32, 43980465u32, 29320310u32, 4886718u32, 65642485u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b1, b2, b3, b4, b5] } else { [P::neg(b1), P::neg(b2), P::neg(b3), P::neg(b4), P::neg(b5)] };
+            let [a1, a2, a3, a4, a5] = if c.scatters() { { let mut o = [P::ZERO; 5]; P::node_scatter(&[b1, b2, b3, b4, b5], &[43980465u32, 43980465u32, 29320310u32, 4886718u32, 65642485u32], &mut o, e, 0u32, c.recip, c.shift, c.total); o } } else if c.reflects() { [b1, b2, b3, b4, b5] } else { [P::neg(b1), P::neg(b2), P::neg(b3), P::neg(b4), P::neg(b5)] };
             self.mem[i + 77] = a1;
             self.mem[i + 5] = a1;
-            self.held[0] = a1;
             self.mem[i + 99] = a2;
             self.mem[i + 27] = a2;
-            self.held[1] = a2;
             self.mem[i + 112] = a3;
             self.mem[i + 40] = a3;
-            self.held[2] = a3;
             let a4 = P::adapt(b4, a4, 1073741824u32, true);
             self.b[0] = a4;
-            self.held[3] = a4;
             let a5 = P::adapt(b5, a5, 320519947u32, false);
             self.b[1] = a5;
-            self.held[4] = a5;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b6: W = self.mem[i + 96];
             let b7: W = self.mem[i + 100];
@@ -169,16 +163,13 @@ pub mod specialised {
             let b10: W = self.b[2];
             // junction 3: node of 3 port(s), switched by the plant's events
             let c = self.nodes[1];
-            let [a8, a9, a10] = if c.scatters() { { let mut o = [self.held[5], self.held[6], self.held[7]]; P::node_scatter_held(&[b8, b9, b10], &[29320310u32, 73300775u32, 879609302u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b8, b9, b10] } else { [P::neg(b8), P::neg(b9), P::neg(b10)] };
+            let [a8, a9, a10] = if c.scatters() { { let mut o = [P::ZERO; 3]; P::node_scatter(&[b8, b9, b10], &[29320310u32, 73300775u32, 879609302u32], &mut o, e, 0u32, c.recip, c.shift, c.total); o } } else if c.reflects() { [b8, b9, b10] } else { [P::neg(b8), P::neg(b9), P::neg(b10)] };
             self.mem[i + 95] = a8;
             self.mem[i + 23] = a8;
-            self.held[5] = a8;
             self.mem[i + 143] = a9;
             self.mem[i + 71] = a9;
-            self.held[6] = a9;
             let a10 = P::adapt(b10, a10, 1073741824u32, false);
             self.b[2] = a10;
-            self.held[7] = a10;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b11: W = self.mem[i + 116];
             let b12: W = self.mem[i + 121];
@@ -237,7 +228,6 @@ pub mod specialised {
             self.lr.iter_mut().for_each(|w| *w = P::ZERO);
             self.aps.iter_mut().for_each(|w| *w = P::ZERO);
             self.zcc.iter_mut().for_each(|w| *w = P::ZERO);
-            self.held.iter_mut().for_each(|w| *w = P::ZERO);
             self.hist.iter_mut().for_each(|w| *w = P::ZERO);
             self.zcs.iter_mut().for_each(|z| *z = [P::ZERO; MAX_ZC_SECTIONS]);
             self.probes.iter_mut().for_each(|w| *w = 0);

@@ -78,7 +78,7 @@ pub mod specialised {
     const PROBES: usize = 2;
     const HIST: usize = 64;
     const INITIAL_NODES: [NodeCoef; 1] = [
-        NodeCoef { recip: 3932160009, shift: 29, total: 586406200, short: false, broken: false, open: false, hold: 0 },
+        NodeCoef { recip: 3932160009, shift: 29, total: 586406200, short: false, broken: false, open: false },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -94,7 +94,6 @@ pub mod specialised {
         aps: [W; 0],
         zcs: [[W; MAX_ZC_SECTIONS]; 0],
         zcc: [W; 0],
-        held: [W; 2],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 1],
@@ -103,7 +102,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 2], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 0], chokes: [P::ZERO; 0], lx: [P::ZERO; 0], ly: [P::ZERO; 0], lr: [P::ZERO; 0], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -165,13 +164,11 @@ pub mod specialised {
             let b9: W = self.mem[i + 191];
             // junction 5: node of 2 port(s), switched by the plant's events
             let c = self.nodes[0];
-            let [a8, a9] = if c.scatters() { { let mut o = [self.held[0], self.held[1]]; P::node_scatter_held(&[b8, b9], &[293203100u32, 293203100u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b8, b9] } else { [P::neg(b8), P::neg(b9)] };
+            let [a8, a9] = if c.scatters() { { let mut o = [P::ZERO; 2]; P::node_scatter(&[b8, b9], &[293203100u32, 293203100u32], &mut o, e, 0u32, c.recip, c.shift, c.total); o } } else if c.reflects() { [b8, b9] } else { [P::neg(b8), P::neg(b9)] };
             self.mem[i + 206] = a8;
             self.mem[i + 94] = a8;
-            self.held[0] = a8;
             self.mem[i + 215] = a9;
             self.mem[i + 103] = a9;
-            self.held[1] = a9;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b10: W = self.mem[i + 200];
             let b11: W = self.mem[i + 204];
@@ -224,7 +221,6 @@ pub mod specialised {
             self.lr.iter_mut().for_each(|w| *w = P::ZERO);
             self.aps.iter_mut().for_each(|w| *w = P::ZERO);
             self.zcc.iter_mut().for_each(|w| *w = P::ZERO);
-            self.held.iter_mut().for_each(|w| *w = P::ZERO);
             self.hist.iter_mut().for_each(|w| *w = P::ZERO);
             self.zcs.iter_mut().for_each(|z| *z = [P::ZERO; MAX_ZC_SECTIONS]);
             self.probes.iter_mut().for_each(|w| *w = 0);

@@ -109,8 +109,8 @@ pub mod specialised {
     const PROBES: usize = 7;
     const HIST: usize = 64;
     const INITIAL_NODES: [NodeCoef; 2] = [
-        NodeCoef { recip: 3276800008, shift: 29, total: 703687440, short: false, broken: false, open: false, hold: 0 },
-        NodeCoef { recip: 0, shift: 0, total: 195468733, short: true, broken: false, open: false, hold: 0 },
+        NodeCoef { recip: 3276800008, shift: 29, total: 703687440, short: false, broken: false, open: false },
+        NodeCoef { recip: 0, shift: 0, total: 195468733, short: true, broken: false, open: false },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -126,7 +126,6 @@ pub mod specialised {
         aps: [W; 0],
         zcs: [[W; MAX_ZC_SECTIONS]; 0],
         zcc: [W; 0],
-        held: [W; 4],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 2],
@@ -135,7 +134,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 14], chokes: [P::ZERO; 0], lx: [P::ZERO; 12], ly: [P::ZERO; 12], lr: [P::ZERO; 24], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], held: [P::ZERO; 4], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 14], chokes: [P::ZERO; 0], lx: [P::ZERO; 12], ly: [P::ZERO; 12], lr: [P::ZERO; 24], aps: [P::ZERO; 0], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 0], zcc: [P::ZERO; 0], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -231,16 +230,13 @@ pub mod specialised {
             let b18: W = self.mem[i + 2653];
             // junction 8: node of 3 port(s), switched by the plant's events
             let c = self.nodes[0];
-            let [a16, a17, a18] = if c.scatters() { { let mut o = [self.held[0], self.held[1], self.held[2]]; P::node_scatter_held(&[b16, b17, b18], &[175921860u32, 351843720u32, 175921860u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b16, b17, b18] } else { [P::neg(b16), P::neg(b17), P::neg(b18)] };
+            let [a16, a17, a18] = if c.scatters() { { let mut o = [P::ZERO; 3]; P::node_scatter(&[b16, b17, b18], &[175921860u32, 351843720u32, 175921860u32], &mut o, e, 0u32, c.recip, c.shift, c.total); o } } else if c.reflects() { [b16, b17, b18] } else { [P::neg(b16), P::neg(b17), P::neg(b18)] };
             self.mem[i + 2462] = a16;
             self.mem[i + 570] = a16;
-            self.held[0] = a16;
             self.mem[i + 2807] = a17;
             self.mem[i + 915] = a17;
-            self.held[1] = a17;
             self.mem[i + 2831] = a18;
             self.mem[i + 939] = a18;
-            self.held[2] = a18;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b19: W = self.b[8];
             // junction 9: node of 1 port(s), fixed
@@ -272,10 +268,9 @@ pub mod specialised {
             let b25: W = self.b[10];
             // junction 12: node of 1 port(s), switched by the plant's events
             let c = self.nodes[1];
-            let [a25] = if c.scatters() { { let mut o = [self.held[3]]; P::node_scatter_held(&[b25], &[195468733u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b25] } else { [P::neg(b25)] };
+            let [a25] = if c.scatters() { { let mut o = [P::ZERO; 1]; P::node_scatter(&[b25], &[195468733u32], &mut o, e, 0u32, c.recip, c.shift, c.total); o } } else if c.reflects() { [b25] } else { [P::neg(b25)] };
             self.mem[i + 3107] = a25;
             self.mem[i + 1215] = a25;
-            self.held[3] = a25;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b26: W = self.mem[i + 3178];
             let b27: W = self.mem[i + 3214];
@@ -519,7 +514,6 @@ pub mod specialised {
             self.lr.iter_mut().for_each(|w| *w = P::ZERO);
             self.aps.iter_mut().for_each(|w| *w = P::ZERO);
             self.zcc.iter_mut().for_each(|w| *w = P::ZERO);
-            self.held.iter_mut().for_each(|w| *w = P::ZERO);
             self.hist.iter_mut().for_each(|w| *w = P::ZERO);
             self.zcs.iter_mut().for_each(|z| *z = [P::ZERO; MAX_ZC_SECTIONS]);
             self.probes.iter_mut().for_each(|w| *w = 0);

@@ -78,8 +78,8 @@ pub mod specialised {
     const PROBES: usize = 5;
     const HIST: usize = 0;
     const INITIAL_NODES: [NodeCoef; 2] = [
-        NodeCoef { recip: 60005, shift: 13, total: 8947, short: false, broken: false, open: false, hold: 0 },
-        NodeCoef { recip: 50006, shift: 12, total: 5368, short: false, broken: false, open: false, hold: 0 },
+        NodeCoef { recip: 60005, shift: 13, total: 8947, short: false, broken: false, open: false },
+        NodeCoef { recip: 50006, shift: 12, total: 5368, short: false, broken: false, open: false },
     ];
 
     /// The plant's state: one delay memory, one sample counter, the states that outlive a sample.
@@ -95,7 +95,6 @@ pub mod specialised {
         aps: [W; 2],
         zcs: [[W; MAX_ZC_SECTIONS]; 6],
         zcc: [W; 6],
-        held: [W; 4],
         hist: [W; HIST],
         probes: [i32; PROBES],
         nodes: [NodeCoef; 2],
@@ -104,7 +103,7 @@ pub mod specialised {
     impl Plant {
         /// The plant at rest (`const`, so it can live in a `static`).
         pub const fn new() -> Self {
-            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 0], lx: [P::ZERO; 6], ly: [P::ZERO; 6], lr: [P::ZERO; 6], aps: [P::ZERO; 2], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 6], zcc: [P::ZERO; 6], held: [P::ZERO; 4], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
+            Plant { n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; 6], chokes: [P::ZERO; 0], lx: [P::ZERO; 6], ly: [P::ZERO; 6], lr: [P::ZERO; 6], aps: [P::ZERO; 2], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; 6], zcc: [P::ZERO; 6], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }
         }
     }
 
@@ -143,27 +142,23 @@ pub mod specialised {
             let b5: W = self.mem[i + 76];
             // junction 2: node of 3 port(s), switched by the plant's events
             let c = self.nodes[0];
-            let [a3, a4, a5] = if c.scatters() { { let mut o = [self.held[0], self.held[1], self.held[2]]; P::node_scatter_held(&[b3, b4, b5], &[2684u32, 2684u32, 3579u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b3, b4, b5] } else { [P::neg(b3), P::neg(b4), P::neg(b5)] };
+            let [a3, a4, a5] = if c.scatters() { { let mut o = [P::ZERO; 3]; P::node_scatter(&[b3, b4, b5], &[2684u32, 2684u32, 3579u32], &mut o, e, 0u32, c.recip, c.shift, c.total); o } } else if c.reflects() { [b3, b4, b5] } else { [P::neg(b3), P::neg(b4), P::neg(b5)] };
             let line3 = P::zc_post(a3, b3, self.zcc[3], &mut self.zcs[3], &[0, 6552, 0, 0], &[327, 163, 0, 0], 2);
             self.mem[i + 63] = line3;
             self.mem[i + 15] = line3;
-            self.held[0] = a3;
             let line4 = P::zc_post(a4, b4, self.zcc[4], &mut self.zcs[4], &[0, 6552, 0, 0], &[327, 163, 0, 0], 2);
             self.mem[i + 90] = line4;
             self.mem[i + 42] = line4;
-            self.held[1] = a4;
             self.mem[i + 95] = a5;
             self.mem[i + 47] = a5;
-            self.held[2] = a5;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b6: W = self.b[5];
             // junction 3: node of 1 port(s), switched by the plant's events
             let c = self.nodes[1];
-            let [a6] = if c.scatters() { { let mut o = [self.held[3]]; P::node_scatter_held(&[b6], &[2684u32], &mut o, e, 0u32, c.recip, c.shift, c.total, c.hold); o } } else if c.reflects() { [b6] } else { [P::neg(b6)] };
+            let [a6] = if c.scatters() { { let mut o = [P::ZERO; 1]; P::node_scatter(&[b6], &[2684u32], &mut o, e, 0u32, c.recip, c.shift, c.total); o } } else if c.reflects() { [b6] } else { [P::neg(b6)] };
             let line6 = P::zc_post(a6, b6, self.zcc[5], &mut self.zcs[5], &[0, 6552, 0, 0], &[327, 163, 0, 0], 2);
             self.mem[i + 75] = line6;
             self.mem[i + 27] = line6;
-            self.held[3] = a6;
             core::sync::atomic::compiler_fence(core::sync::atomic::Ordering::SeqCst);
             let b7: W = self.mem[i + 91];
             // junction 4: node of 1 port(s), fixed
@@ -283,7 +278,6 @@ pub mod specialised {
             self.lr.iter_mut().for_each(|w| *w = P::ZERO);
             self.aps.iter_mut().for_each(|w| *w = P::ZERO);
             self.zcc.iter_mut().for_each(|w| *w = P::ZERO);
-            self.held.iter_mut().for_each(|w| *w = P::ZERO);
             self.hist.iter_mut().for_each(|w| *w = P::ZERO);
             self.zcs.iter_mut().for_each(|z| *z = [P::ZERO; MAX_ZC_SECTIONS]);
             self.probes.iter_mut().for_each(|w| *w = 0);

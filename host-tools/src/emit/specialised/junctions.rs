@@ -15,8 +15,6 @@ pub struct Ctx<'a> {
     pub switch_slot: Option<usize>,
     /// Slot in `self.chokes` for a series inductor.
     pub choke_slot: usize,
-    /// Per port, its slot in `self.held` (the previous outgoing wave) if its node holds.
-    pub held: &'a [Option<usize>],
     /// Every junction's plan (a series branch reads its two nodes' records).
     pub all: &'a [JunctionPlan],
 }
@@ -57,14 +55,7 @@ pub fn emit(s: &mut String, j: usize, plan: &JunctionPlan, cx: &Ctx<'_>) -> Resu
                         .map(|p| cx.weights.get(*p).map(|g| format!("{g}u32")))
                         .collect::<Option<Vec<_>>>()?;
                     let div = format!("{}u32, {}u32, {}u64", coef.recip, coef.shift, coef.total);
-                    // Its ports' previous waves where the node holds (`Profile::branch_node_held`).
-                    let prev = ports
-                        .iter()
-                        .map(|p| cx.held.get(*p).copied().flatten().map(|h| format!("self.held[{h}]")))
-                        .collect::<Option<Vec<_>>>()
-                        .filter(|_| coef.hold != 0)
-                        .map(|v| (v.join(", "), coef.hold));
-                    Some((ports, g.join(", "), format!("{g_src}u32"), div, coef.total / 2, prev))
+                    Some((ports, g.join(", "), format!("{g_src}u32"), div, coef.total / 2))
                 }
                 _ => None,
             };
@@ -72,8 +63,8 @@ pub fn emit(s: &mut String, j: usize, plan: &JunctionPlan, cx: &Ctx<'_>) -> Resu
                 what: "a series branch whose ends are not nodes".into(),
                 junction: Some(j),
             };
-            let (pa, ga, sa, xa, la, ha) = side(a).ok_or_else(bad)?;
-            let (pb, gb, sb, xb, lb, hb) = side(b).ok_or_else(bad)?;
+            let (pa, ga, sa, xa, la) = side(a).ok_or_else(bad)?;
+            let (pb, gb, sb, xb, lb) = side(b).ok_or_else(bad)?;
             let _ = writeln!(s, "        // junction {j}: series branch from node {a} to node {b}, n = {n}");
             let _ =
                 writeln!(s, "        let wa{j}: W = P::branch_open(&[{}], &[{ga}], e, {sa}, {xa});", list(&pa, "b"));
@@ -83,28 +74,14 @@ pub fn emit(s: &mut String, j: usize, plan: &JunctionPlan, cx: &Ctx<'_>) -> Resu
                 s,
                 "        let (ra{j}, rb{j}, al{j}) = P::branch_series(wa{j}, wb{j}, self.chokes[{k}], {na}u32, {nb}u32, {nl}u32, {recip}u32, {shift}u32, {n}u32);"
             );
-            for (ports, g, src, x, link, r, held) in
-                [(&pa, &ga, &sa, &xa, la, "ra", &ha), (&pb, &gb, &sb, &xb, lb, "rb", &hb)]
-            {
-                match held {
-                    Some((prev, hold)) => {
-                        let _ = writeln!(
-                            s,
-                            "        let [{}] = {{ let mut o = [{prev}]; P::branch_node_held(&[{}], &[{g}], &mut o, e, {src}, {link}u32, {r}{j}, {x}, {hold}u32); o }};",
-                            list(ports, "a"),
-                            list(ports, "b"),
-                        );
-                    }
-                    None => {
-                        let _ = writeln!(
-                            s,
-                            "        let [{}] = {{ let mut o = [P::ZERO; {}]; P::branch_node(&[{}], &[{g}], &mut o, e, {src}, {link}u32, {r}{j}, {x}); o }};",
-                            list(ports, "a"),
-                            ports.len(),
-                            list(ports, "b"),
-                        );
-                    }
-                }
+            for (ports, g, src, x, link, r) in [(&pa, &ga, &sa, &xa, la, "ra"), (&pb, &gb, &sb, &xb, lb, "rb")] {
+                let _ = writeln!(
+                    s,
+                    "        let [{}] = {{ let mut o = [P::ZERO; {}]; P::branch_node(&[{}], &[{g}], &mut o, e, {src}, {link}u32, {r}{j}, {x}); o }};",
+                    list(ports, "a"),
+                    ports.len(),
+                    list(ports, "b"),
+                );
             }
             let _ = writeln!(s, "        self.chokes[{k}] = P::neg(al{j});");
             Ok(())
@@ -137,24 +114,11 @@ fn node(
     let b = list(&ports, "b");
     let n = ports.len();
     let neg = ports.iter().map(|p| format!("P::neg(b{p})")).collect::<Vec<_>>().join(", ");
-    // A node with a hold threshold runs the hold rule on its ports' previous outgoing waves
-    // (`Profile::node_scatter_held`); without one, the plain rule (the same arithmetic).
-    let previous = ports
-        .iter()
-        .map(|p| cx.held.get(*p).copied().flatten().map(|h| format!("self.held[{h}]")))
-        .collect::<Option<Vec<_>>>();
-    let scatter = |recip: &str, shift: &str, total: &str, hold: Option<&str>| {
-        match (hold, &previous) {
-        (Some(hold), Some(prev)) => format!(
-            "{{ let mut o = [{}]; P::node_scatter_held(&[{b}], &[{}], &mut o, e, {g_src}u32, {recip}, {shift}, {total}, {hold}); o }}",
-            prev.join(", "),
-            weights.join(", ")
-        ),
-        _ => format!(
+    let scatter = |recip: &str, shift: &str, total: &str| {
+        format!(
             "{{ let mut o = [P::ZERO; {n}]; P::node_scatter(&[{b}], &[{}], &mut o, e, {g_src}u32, {recip}, {shift}, {total}); o }}",
             weights.join(", ")
-        ),
-    }
+        )
     };
     match cx.switch_slot {
         None => {
@@ -163,13 +127,7 @@ fn node(
             } else if coef.short {
                 format!("[{neg}]")
             } else {
-                let hold = format!("{}u32", coef.hold);
-                scatter(
-                    &format!("{}u32", coef.recip),
-                    &format!("{}u32", coef.shift),
-                    &format!("{}u64", coef.total),
-                    (coef.hold != 0).then_some(hold.as_str()),
-                )
+                scatter(&format!("{}u32", coef.recip), &format!("{}u32", coef.shift), &format!("{}u64", coef.total))
             };
             let _ = writeln!(s, "        // junction {j}: node of {n} port(s), fixed");
             let _ = writeln!(s, "        let [{a}] = {body};");
@@ -180,7 +138,7 @@ fn node(
             let _ = writeln!(
                 s,
                 "        let [{a}] = if c.scatters() {{ {} }} else if c.reflects() {{ [{b}] }} else {{ [{neg}] }};",
-                scatter("c.recip", "c.shift", "c.total", Some("c.hold"))
+                scatter("c.recip", "c.shift", "c.total")
             );
         }
     }

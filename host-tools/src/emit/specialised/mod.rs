@@ -150,28 +150,6 @@ impl Writer<'_> {
             .collect()
     }
 
-    /// Per port, its slot in `self.held` when its node runs the hold rule (a fixed node with a
-    /// hold threshold, or any switched node, whose threshold is known only at run time): the
-    /// node needs each port's outgoing wave of the sample before, as the generic solver keeps
-    /// it in its `a` table (an element port's after its adaptor).
-    fn held_slots(&self, slots: &[Option<usize>]) -> Vec<Option<usize>> {
-        let mut out = vec![None; self.l.ports.len()];
-        let mut next = 0usize;
-        for (jp, slot) in self.l.junctions.iter().zip(slots) {
-            if let JunctionPlan::Node { first, count, coef, .. } = jp {
-                if coef.hold != 0 || slot.is_some() {
-                    for p in *first as usize..*first as usize + *count as usize {
-                        if let Some(o) = out.get_mut(p) {
-                            *o = Some(next);
-                            next += 1;
-                        }
-                    }
-                }
-            }
-        }
-        out
-    }
-
     /// A wave into the ring at write offset `w`: at the window's upper copy (offset SPAN + w,
     /// where this period reads it) and one span lower (offset w, where the next period reads
     /// it if it is still in flight at the wrap; see `layout`).
@@ -209,8 +187,6 @@ impl Writer<'_> {
             .sum();
         let n_allpass = l.losses.iter().filter(|x| x.allpass.is_some()).count();
         let n_zc = l.losses.iter().filter(|x| x.zc.is_some()).count();
-        let held = self.held_slots(&slots);
-        let n_held = held.iter().flatten().count();
         let rig = match l.drive {
             DrivePlan::Rig { port, latency } => Some((port, latency)),
             _ => None,
@@ -256,8 +232,8 @@ impl Writer<'_> {
             if let JunctionPlan::Node { coef: c, .. } = jp {
                 let _ = writeln!(
                     s,
-                    "        NodeCoef {{ recip: {}, shift: {}, total: {}, short: {}, broken: {}, open: {}, hold: {} }},",
-                    c.recip, c.shift, c.total, c.short, c.broken, c.open, c.hold
+                    "        NodeCoef {{ recip: {}, shift: {}, total: {}, short: {}, broken: {}, open: {} }},",
+                    c.recip, c.shift, c.total, c.short, c.broken, c.open
                 );
             }
         }
@@ -274,7 +250,7 @@ impl Writer<'_> {
         );
         let _ = writeln!(
             s,
-            "        chokes: [W; {n_chokes}],\n        lx: [W; {n_lx}],\n        ly: [W; {n_ly}],\n        lr: [W; {n_sections}],\n        aps: [W; {n_allpass}],\n        zcs: [[W; MAX_ZC_SECTIONS]; {n_zc}],\n        zcc: [W; {n_zc}],\n        held: [W; {n_held}],"
+            "        chokes: [W; {n_chokes}],\n        lx: [W; {n_lx}],\n        ly: [W; {n_ly}],\n        lr: [W; {n_sections}],\n        aps: [W; {n_allpass}],\n        zcs: [[W; MAX_ZC_SECTIONS]; {n_zc}],\n        zcc: [W; {n_zc}],"
         );
         let _ = writeln!(s, "        hist: [W; HIST],\n        probes: [i32; PROBES],\n        nodes: [NodeCoef; {n_switched}],\n    }}\n");
         let _ = writeln!(s, "    impl Plant {{");
@@ -282,13 +258,13 @@ impl Writer<'_> {
         let _ = writeln!(s, "        pub const fn new() -> Self {{");
         let _ = writeln!(
             s,
-            "            Plant {{ n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; {}], chokes: [P::ZERO; {n_chokes}], lx: [P::ZERO; {n_lx}], ly: [P::ZERO; {n_ly}], lr: [P::ZERO; {n_sections}], aps: [P::ZERO; {n_allpass}], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; {n_zc}], zcc: [P::ZERO; {n_zc}], held: [P::ZERO; {n_held}], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }}",
+            "            Plant {{ n: 0, i: 0, mem: [P::ZERO; MEM], b: [P::ZERO; {}], chokes: [P::ZERO; {n_chokes}], lx: [P::ZERO; {n_lx}], ly: [P::ZERO; {n_ly}], lr: [P::ZERO; {n_sections}], aps: [P::ZERO; {n_allpass}], zcs: [[P::ZERO; MAX_ZC_SECTIONS]; {n_zc}], zcc: [P::ZERO; {n_zc}], hist: [P::ZERO; HIST], probes: [0; PROBES], nodes: INITIAL_NODES }}",
             self.layout.states
         );
         let _ = writeln!(s, "        }}\n    }}\n");
         let _ = writeln!(s, "    impl Default for Plant {{\n        fn default() -> Self {{\n            Self::new()\n        }}\n    }}\n");
         let _ = writeln!(s, "    impl PlantStep for Plant {{");
-        self.step(&mut s, &slots, &held)?;
+        self.step(&mut s, &slots)?;
         self.rest(&mut s, &slots, rig);
         let _ = writeln!(s, "    }}\n}}");
         Ok(s)
@@ -308,7 +284,7 @@ impl Writer<'_> {
         }
         if let Some(w) = self.layout.write.get(port.partner as usize).copied().flatten() {
             // A Zc(s) end: its post-step (the sections take d = a_p − b_p) and the wave into
-            // the line a_p + c; a{p} itself stays the junction's a_p for read-out and holds.
+            // the line a_p + c; a{p} itself stays the junction's a_p for read-out.
             let zc = self.l.losses.iter().filter(|x| x.zc.is_some()).position(|x| x.port as usize == p);
             match (zc, self.l.losses.iter().find(|x| x.port as usize == p).and_then(|x| x.zc)) {
                 (Some(z), Some(zp)) => {
@@ -325,7 +301,7 @@ impl Writer<'_> {
     }
 
     /// `fn step`: per junction its arrivals, scatter and sends; read-out; loss filters.
-    fn step(&self, s: &mut String, slots: &[Option<usize>], held: &[Option<usize>]) -> Result<(), EmitError> {
+    fn step(&self, s: &mut String, slots: &[Option<usize>]) -> Result<(), EmitError> {
         let l = self.l;
         let _ = writeln!(s, "        #[inline]\n        fn step(&mut self, input: i16) -> i16 {{");
         let _ = writeln!(
@@ -375,7 +351,6 @@ impl Writer<'_> {
                 weights: &weights,
                 switch_slot: slots.get(j).copied().flatten(),
                 choke_slot: chokes,
-                held,
                 all: &l.junctions,
             };
             let mut body = String::new();
@@ -386,9 +361,6 @@ impl Writer<'_> {
             chokes += usize::from(has_choke(jp));
             for p in ports.iter().copied() {
                 self.send(s, p);
-                if let Some(h) = held.get(p).copied().flatten() {
-                    let _ = writeln!(s, "            self.held[{h}] = a{p};");
-                }
             }
             let _ = writeln!(s, "            {FENCE}");
         }
@@ -484,7 +456,7 @@ impl Writer<'_> {
         let _ = writeln!(s, "        fn reset(&mut self) {{");
         // In place: no temporary of the plant's size on the stack (a Cortex-M0 has little).
         let _ = writeln!(s, "            self.n = 0;\n            self.i = 0;");
-        for field in ["mem", "b", "chokes", "lx", "ly", "lr", "aps", "zcc", "held", "hist"] {
+        for field in ["mem", "b", "chokes", "lx", "ly", "lr", "aps", "zcc", "hist"] {
             let _ = writeln!(s, "            self.{field}.iter_mut().for_each(|w| *w = P::ZERO);");
         }
         let _ = writeln!(s, "            self.zcs.iter_mut().for_each(|z| *z = [P::ZERO; MAX_ZC_SECTIONS]);");
