@@ -55,9 +55,10 @@
 //! product, no correction step), which gives 0 <= q < |v| whenever N != 0, and it uses the
 //! node voltage v' = sign(N)·(q + ε), 0 < ε <= |v| − q (v' = 0 when N = 0): strictly between
 //! 0 and v, never an integer. A [`Narrow`] node divides exactly (v' = v: the floor and the
-//! remainder test from two correction steps), because its LSB is one I/O code (see
-//! `Profile::EXACT_NODE`). Every outgoing wave is a_k = v' − b_k truncated toward zero, then
-//! saturated (only floor(v') and whether v' has a fraction are needed).
+//! remainder test from two correction steps), for DC accuracy with its 16-bit reciprocal (the
+//! measurement is at `profile/scalar.rs`, `floor_div32`). Every outgoing wave is
+//! a_k = v' − b_k truncated toward zero, then saturated (only floor(v') and whether v' has a
+//! fraction are needed).
 //!
 //! **Passivity, every topology.** Count the shunt as a port of weight g_sh with incident
 //! wave 0 and the source as one of weight g_src with incident wave E/2; then for every v'

@@ -227,11 +227,13 @@ pub(super) fn floor_div64<const STEPS: usize>(mag: u64, recip: u32, shift: u32, 
 /// it (2 for quotients up to 2^16, 6 below 5·2^15, the series branch; the true remainder
 /// mag − q·total lies in [0, (STEPS + 1)·total)).
 ///
-/// Why Narrow keeps the exact node: its LSB is one I/O code. Without correction steps (as
-/// [`Wide`] runs it) the node sends up to one LSB less per pass; with this 16-bit reciprocal
-/// that moved the packaging line's DC trunk current by 0.05 % of its peak, past the plant's
-/// 0.20 % tolerance (`tidewire verify ... --profile narrow`: +0.216 % against +0.157 %), and
-/// a 31-bit reciprocal from four products cost more on the M0 than the correction steps save.
+/// Why Narrow keeps the exact node: DC accuracy with its 16-bit reciprocal. Without
+/// correction steps (as [`Wide`] runs it) the node sends up to one LSB less per pass; when the
+/// narrow LSB was one I/O code that moved the packaging line's DC trunk current by 0.05 % of
+/// its peak, past the plant's 0.20 % tolerance (`tidewire verify ... --profile narrow`:
+/// +0.216 % against +0.157 %), and a 31-bit reciprocal from four products cost more on the
+/// M0 than the correction steps save. Not measured again since the narrow waves gained 4 bits
+/// below the code (`Profile::IO_SHIFT`), which make that LSB a sixteenth of a code.
 #[inline(always)]
 pub(super) fn floor_div32<const STEPS: usize>(mag: u32, recip: u32, shift: u32, total: u32) -> (u32, u32) {
     floor_div32_veiled::<STEPS>(mag, recip, shift, total, veil())
