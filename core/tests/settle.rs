@@ -31,7 +31,13 @@
 //! table's tail: a series branch, two series inductors and a 13 Ω line between two
 //! high-impedance nodes, 9 codes at sample 1 000 000 and growing when measured later (11 at
 //! 33 M, 22 at 64 M samples), saved as the last regression case; [`BAND_NARROW`] is what it
-//! holds. Seeds 777 and 20261202 (the CI seed) found nothing above 4.
+//! holds. Seeds 777 and 20261202 (the CI seed) found nothing above 4. What holds it (a
+//! diagnostic copy of the case, bands at samples 1e5, 1e6 and 8e6): its second series
+//! inductor, a 1509 Ω port with 4.2 Ω of winding between 916 Ω and 828 Ω lines; made a series
+//! resistor, the bands are 3, 1, 1 codes; the other inductor so replaced, 5, 9, 21. That
+//! inductor loses about 0.25 % per sample, so truncation's dead band there, about one LSB per
+//! step over the loss per step, is some 400 wave LSB (25 codes at 4 bits below the code,
+//! 0.1 code in the wide profile, which stays at 0 codes on this plant up to 64 M samples).
 //!
 //! At one LSB per code the same narrow waves had bands of up to 57 codes at the CI seed with
 //! the hold rules, and up to 36 in a 2048-run measurement (history, with the hold rules and
