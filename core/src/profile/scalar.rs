@@ -2,13 +2,6 @@
 //! reciprocal quotient and the floor division with its correction steps (each an exact
 //! operation on integers, checked against i128 in `tests.rs` and `core/tests/oracle.rs`).
 
-/// Branch-free conditional negation: returns `m` with the sign of `s` (s = 0 or −1 mask).
-#[cfg(test)]
-#[inline(always)]
-pub(super) fn apply_sign32(m: i32, mask: i32) -> i32 {
-    (m ^ mask).wrapping_sub(mask)
-}
-
 /// [`trunc_shr32`] for a shift known only at run time (the generic solver's I/O shift, once
 /// per output code): x plus 2^shift − 1 where x < 0, shifted arithmetically. Branch-free on
 /// ARMv6-M, where `unsigned_abs` (an abs) had become a conditional branch on the output path.
